@@ -1,0 +1,313 @@
+"""Command line: a thin layer over the library.
+
+Results go to stdout (a table, or one JSON object with ``--json``); diagnostics
+and progress go to stderr. Exit codes: 0 every requirement met, 1 the design
+falls short of a requirement (a verdict, not a crash), 2 bad input or usage,
+3 an internal error (a bug: please report it with the project file).
+
+Heavy modules (numpy, scipy, networkx, pint, reportlab) are imported inside the
+commands, so ``planner --help`` stays quick.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+
+from . import __version__
+
+EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as one line with exit code 2."""
+
+    def error(self, message):
+        self.exit(EXIT_INPUT, f"{self.prog}: {message} (see '{self.prog} --help')\n")
+
+
+def _finite(obj):
+    """JSON-safe copy: numpy scalars to floats, non-finite floats to None."""
+    if isinstance(obj, dict):
+        return {str(k): _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if hasattr(obj, "tolist") and not isinstance(obj, (str, bytes)):
+        return _finite(obj.tolist())
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj
+
+
+def _emit(args, result: dict, table: str | None) -> None:
+    if args.json:
+        sys.stdout.write(json.dumps(_finite(result), indent=2, allow_nan=False) + "\n")
+    elif table is not None:
+        sys.stdout.write(table.rstrip("\n") + "\n")
+
+
+def _progress(args):
+    """A progress printer on stderr, silent with --quiet or when stderr is no terminal."""
+    if getattr(args, "quiet", False) or not sys.stderr.isatty():
+        return None
+
+    def show(message: str) -> None:
+        sys.stderr.write(f"\r\x1b[K{message}")
+        sys.stderr.flush()
+
+    return show
+
+
+def _end_progress(show) -> None:
+    if show is not None:
+        sys.stderr.write("\r\x1b[K")
+        sys.stderr.flush()
+
+
+def _load(args):
+    from .project import load
+
+    return load(args.project)
+
+
+def _quantity(text: str, dimension: str, option: str) -> float:
+    """A command-line quantity: a bare number in SI units or a number with a unit."""
+    from .errors import UsageError
+    from .units import parse
+
+    try:
+        value = float(text)
+    except ValueError:
+        value = None
+    if value is not None:
+        if not math.isfinite(value) or abs(value) > 1e12:
+            raise UsageError(f"{option}: {text!r} is not a usable number; give a finite value such as 10 or '10 V'")
+        return value
+    try:
+        return parse(text, dimension, where=option)
+    except Exception as exc:  # the parser's own message, as one line
+        raise UsageError(f"{option}: {' '.join(str(exc).split())}") from None
+
+
+def _cautions_tail(result: dict) -> str:
+    cautions = result.get("cautions") or []
+    if not cautions:
+        return ""
+    return "\n" + "\n".join(f"CAUTION: {c}" for c in cautions) + "\n"
+
+
+# --- subcommands ----------------------------------------------------------------------
+
+
+def cmd_size(args) -> int:
+    from .fsio import write_atomic
+    from .size import format_sizing_table, network_yaml, size, sizing_json
+
+    spec = _load(args)
+    sizing = size(spec)
+    result = sizing_json(sizing)
+    if args.write_network:
+        write_atomic(args.write_network, network_yaml(spec, sizing), protect=[args.project])
+        print(f"wrote {args.write_network}", file=sys.stderr)
+    _emit(args, result, format_sizing_table(sizing))
+    return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
+def cmd_check(args) -> int:
+    from .accuracy import check_project, format_check
+
+    spec = _load(args)
+    r_src = None if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
+    show = _progress(args)
+    try:
+        result = check_project(spec, samples=args.samples, seed=args.seed, source_impedance_ohm=r_src, progress=show)
+    finally:
+        _end_progress(show)
+    _add_cautions(spec, result)
+    _emit(args, result, format_check(result) + _cautions_tail(result))
+    return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
+def _add_cautions(spec, result: dict) -> None:
+    if "cautions" in result:
+        return
+    from .faults import cautions_for
+
+    result["cautions"] = cautions_for(spec)
+
+
+def cmd_faults(args) -> int:
+    from .faults import faults_project, format_faults
+
+    spec = _load(args)
+    show = _progress(args)
+    try:
+        result = faults_project(spec, position=args.position, only_failing=args.only_failing, progress=show)
+    finally:
+        _end_progress(show)
+    _add_cautions(spec, result)
+    table = format_faults(result)
+    if result.get("cautions") and "CAUTION" not in table:
+        table += _cautions_tail(result)
+    _emit(args, result, table)
+    return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
+def cmd_apply(args) -> int:
+    from .model import ZERO_CELSIUS_K
+    from .stress import apply_stimulus, format_apply
+
+    spec = _load(args)
+    volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
+    amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
+    r_src = 0.0 if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
+    temp = None
+    if args.temperature is not None:
+        try:
+            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC
+        except ValueError:
+            temp = _quantity(args.temperature, "temperature", "--temperature")
+    result = apply_stimulus(spec, args.position, volts=volts, amps=amps, r_source_ohm=r_src,
+                            temperature_k=temp, waveform=args.waveform)
+    _emit(args, result, format_apply(result))
+    return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
+
+
+def cmd_dossier(args) -> int:
+    from .dossier import build_dossier
+
+    spec = _load(args)
+    out = args.output or _default_pdf(args.project)
+    show = _progress(args)
+    try:
+        path = build_dossier(spec, out, date=args.date, samples=args.samples, progress=show)
+    finally:
+        _end_progress(show)
+    print(f"wrote {path}", file=sys.stderr)
+    return EXIT_OK
+
+
+def cmd_fit_diode(args) -> int:
+    from .diodefit import fit, fit_json, format_fit, read_points
+
+    temp = None
+    if args.temperature is not None:
+        temp = _quantity(args.temperature, "temperature", "--temperature")
+    result = fit(read_points(args.points), name=args.name, temperature_k=temp, xti=args.xti)
+    _emit(args, fit_json(result), format_fit(result))
+    return EXIT_OK
+
+
+def _default_pdf(project: str) -> str:
+    import os
+
+    stem, _ = os.path.splitext(os.path.basename(project))
+    return f"{stem}-dossier.pdf"
+
+
+# --- parser ---------------------------------------------------------------------------
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="planner", description=(
+        "Plans the analog front end of multi-range moving-coil instruments: sizes multipliers and "
+        "shunts from real parts, proves accuracy and misrange survival, writes a PDF dossier."),
+        epilog="Exit codes: 0 requirements met, 1 the design falls short, 2 bad input or usage, 3 internal error.")
+    p.add_argument("--version", action="version", version=f"planner {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    def common(sp, json_flag=True):
+        sp.add_argument("project", metavar="FILE", help="project file (YAML)")
+        if json_flag:
+            sp.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
+        sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
+
+    sp = sub.add_parser("size", help="synthesize multipliers and shunts from standard values")
+    common(sp)
+    sp.add_argument("--write-network", metavar="OUT.yaml", help="write the sized network as an editable project file")
+    sp.set_defaults(func=cmd_size)
+
+    sp = sub.add_parser("check", help="accuracy per position: nominal, linearity, tolerance, temperature, loading")
+    common(sp)
+    sp.add_argument("--samples", type=int, help="Monte Carlo builds (default from the file, else 2000)")
+    sp.add_argument("--seed", type=int, help="Monte Carlo seed (default from the file, else 1)")
+    sp.add_argument("--source-impedance", metavar="R", help="impedance of the measured source, e.g. '100 kohm'")
+    sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    sp.set_defaults(func=cmd_check)
+
+    sp = sub.add_parser("faults", help="misrange survival matrix, part stress and switch transitions")
+    common(sp)
+    sp.add_argument("--position", metavar="NAME", help="only this position")
+    sp.add_argument("--only-failing", action="store_true", help="list only cases that fail")
+    sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    sp.set_defaults(func=cmd_faults)
+
+    sp = sub.add_parser("apply", help="one stimulus on one position: movement current and every part's stress")
+    common(sp)
+    sp.add_argument("--position", required=True, metavar="NAME", help="switch position, e.g. '10 V'")
+    g = sp.add_mutually_exclusive_group(required=True)
+    g.add_argument("--volts", metavar="V", help="applied voltage (dc value or sine rms), e.g. 230 or '230 V'")
+    g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
+    sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
+    sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")
+    sp.set_defaults(func=cmd_apply)
+
+    sp = sub.add_parser("dossier", help="write the PDF design dossier (and the BOM as CSV beside it)")
+    common(sp, json_flag=False)
+    sp.add_argument("-o", "--output", metavar="OUT.pdf", help="output file (default: <project>-dossier.pdf)")
+    sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
+    sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    sp.set_defaults(func=cmd_dossier, json=False)
+
+    sp = sub.add_parser("fit-diode", help="fit a diode model to measured (V, I) points from a CSV file")
+    sp.add_argument("points", metavar="POINTS.csv", help="CSV with header voltage_v,current_a[,temperature_c]")
+    sp.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
+    sp.add_argument("--name", default="fitted", help="model name for the YAML block (default: fitted)")
+    sp.add_argument("--temperature", metavar="T", help="temperature of points without a temperature column")
+    sp.add_argument("--xti", type=float, help="hold the saturation-current temperature exponent at this value")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
+    sp.set_defaults(func=cmd_fit_diode)
+    return p
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help(sys.stderr)
+        return EXIT_INPUT
+    if args.verbose:
+        import logging
+
+        logging.basicConfig(level=logging.INFO, format="%(name)s: %(message)s", stream=sys.stderr)
+    from .errors import PlannerError
+
+    try:
+        return args.func(args)
+    except PlannerError as exc:
+        print(f"planner: {exc.one_line()}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print("planner: interrupted; nothing was written", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return EXIT_OK
+    except MemoryError:
+        print("planner: out of memory; lower --samples or the number of positions", file=sys.stderr)
+        return EXIT_INPUT
+    except Exception as exc:  # a bug, not the user's mistake
+        print(f"planner: internal error: {type(exc).__name__}: {' '.join(str(exc).split())[:300]} "
+              "(please report it with the project file; run with PLANNER_DEBUG=1 for details)", file=sys.stderr)
+        import os
+
+        if os.environ.get("PLANNER_DEBUG"):
+            raise
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

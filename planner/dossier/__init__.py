@@ -1,0 +1,252 @@
+"""The design dossier: one PDF a reviewer can approve and a builder can build and test from.
+
+:func:`build_dossier` runs the analyses (sizing where the file asks for it, the
+accuracy check, the misrange faults), lays the results out with reportlab's
+platypus (:mod:`.layout`, :mod:`.sections`), draws the charts and the schematic
+as vector graphics (:mod:`.charts`, :mod:`.schematic`) and writes the PDF, and a
+CSV bill of materials beside it, atomically.
+
+The PDF is byte-identical for the same input: reportlab's invariant mode, the
+date from the project (or the caller), never the clock, standard fonts only,
+seeded Monte Carlo, and every ordering by name or computed value.
+
+An analysis that raises does not stop the dossier: its section prints the
+error. A failure of the dossier itself (a section builder, the layout) raises
+and leaves no file behind; an existing file at the output path is untouched.
+
+Examples
+--------
+>>> from planner.project import load                                   # doctest: +SKIP
+>>> build_dossier(load("projects/pocket_voltmeter.yaml"), "out.pdf")    # doctest: +SKIP
+PosixPath('out.pdf')
+"""
+
+from __future__ import annotations
+
+import csv as _csv
+import datetime as _dt
+import hashlib
+import io
+import math
+import re
+from pathlib import Path
+from typing import Callable
+
+from ..errors import PlannerError, UsageError
+from . import layout, sections
+from .sections import Context
+
+__all__ = ["build_dossier", "gather", "render", "bom_csv", "DossierLayoutError"]
+
+DossierLayoutError = layout.DossierLayoutError
+
+_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
+def _error_text(exc: BaseException) -> str:
+    if isinstance(exc, PlannerError):
+        return exc.one_line()
+    return f"{type(exc).__name__}: {' '.join(str(exc).split())}"
+
+
+def _date(spec, date) -> tuple[str, str]:
+    if date is not None:
+        if isinstance(date, (_dt.date, _dt.datetime)):
+            return date.strftime("%Y-%m-%d"), "caller"
+        text = str(date).strip()
+        if not _DATE.match(text):
+            raise UsageError(f"the dossier date must be written YYYY-MM-DD, e.g. 2026-11-20, not {text!r}")
+        try:
+            _dt.date.fromisoformat(text)
+        except ValueError:
+            raise UsageError(f"{text!r} is not a calendar date; write it as YYYY-MM-DD") from None
+        return text, "command line"
+    if getattr(spec, "date", None):
+        return str(spec.date), "project file"
+    return "undated", "project file (no date given: add 'date: YYYY-MM-DD')"
+
+
+def gather(spec, *, date=None, samples: int | None = None, seed: int | None = None,
+           progress: Callable[[str], None] | None = None) -> Context:
+    """Run the analyses for a dossier; each failure is kept as text, never raised.
+
+    Parameters
+    ----------
+    spec : Spec
+        A loaded project.
+    date : str or datetime.date, optional
+        The dossier's date (YYYY-MM-DD); the project's ``date`` by default.
+    samples, seed : int, optional
+        Monte Carlo builds and seed; the project's ``analysis`` settings by default.
+    progress : callable(str), optional
+        Receives a short message before each step.
+
+    Returns
+    -------
+    Context
+    """
+    from .. import __version__
+
+    say = progress or (lambda message: None)
+    text, source = _date(spec, date)
+    sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
+    ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
+                  samples=int(spec.analysis.samples if samples is None else samples),
+                  seed=int(spec.analysis.seed if seed is None else seed))
+
+    if spec.network is None:
+        say("dossier: sizing")
+        try:
+            from ..size import size, sizing_json
+
+            sizing = size(spec)
+            ctx.sizing = sizing_json(sizing)
+            ctx.net = sizing.network
+            ctx.cautions += list(ctx.sizing.get("cautions", []))
+        except Exception as exc:  # noqa: BLE001 - shown in the dossier
+            ctx.errors["sizing"] = _error_text(exc)
+            ctx.errors["network"] = "no network: the sizing failed (" + _error_text(exc) + ")"
+    else:
+        ctx.net = spec.network
+    if ctx.net is not None:
+        try:
+            from ..engine import Engine
+
+            ctx.engine = Engine(spec, net=ctx.net)
+        except Exception as exc:  # noqa: BLE001
+            ctx.errors["network"] = _error_text(exc)
+    say("dossier: accuracy check")
+    try:
+        from ..accuracy import check_project
+
+        ctx.check = check_project(spec, samples=ctx.samples, seed=ctx.seed,
+                                  progress=(lambda m: say(f"dossier: check {m}")))
+    except Exception as exc:  # noqa: BLE001
+        ctx.errors["check"] = _error_text(exc)
+    say("dossier: misrange faults")
+    try:
+        from ..faults import faults_project
+
+        ctx.faults = faults_project(spec)
+    except Exception as exc:  # noqa: BLE001
+        ctx.errors["faults"] = _error_text(exc)
+    try:
+        from ..faults import cautions_for
+
+        extra = [c for c in cautions_for(spec) if c not in ctx.cautions]
+        ctx.cautions += extra
+    except Exception as exc:  # noqa: BLE001
+        ctx.errors["cautions"] = _error_text(exc)
+    return ctx
+
+
+def render(ctx: Context, *, progress: Callable[[str], None] | None = None) -> bytes:
+    """Lay the dossier out and return the PDF bytes.
+
+    Raises
+    ------
+    DossierLayoutError
+        When a flowable does not fit its frame.
+    """
+    from reportlab.platypus.doctemplate import LayoutError
+
+    say = progress or (lambda message: None)
+    spec = ctx.spec
+    story = []
+    for name in sections.SECTIONS:
+        say(f"dossier: {name}")
+        story += getattr(sections, name)(ctx)
+    buf = io.BytesIO()
+    doc = layout.DossierDoc(buf, title=f"{spec.title} \u2013 design dossier", subject="design dossier",
+                            creator=f"planner {ctx.version}", author="")
+    head = f"{spec.title} \u2013 revision {spec.revision or 'n/a'}"
+    foot = f"planner {ctx.version}  \u00b7  {ctx.date}  \u00b7  file SHA-256 {(ctx.sha256 or 'n/a')[:16]}"
+    maker = type("DossierCanvas", (layout.FooterCanvas,), {"head_text": head, "foot_text": foot})
+    say("dossier: layout")
+    try:
+        doc.multiBuild(story, canvasmaker=maker, maxPasses=6)
+    except LayoutError as exc:
+        raise layout.DossierLayoutError(str(exc)) from exc
+    doc.check()
+    return buf.getvalue()
+
+
+def _csv_num(x) -> str:
+    if x is None:
+        return ""
+    x = float(x)
+    if not math.isfinite(x):
+        return ""
+    return f"{x:.6g}"
+
+
+def bom_csv(ctx: Context) -> str:
+    """The bill of materials as CSV text (SI units, unit in each column's name)."""
+    out = io.StringIO()
+    w = _csv.writer(out, lineterminator="\n")
+    w.writerow(["designator", "kind", "value", "value_si", "series", "tolerance_pct", "tempco_ppm_per_k",
+                "power_rated_w", "power_required_w", "voltage_rated_v", "voltage_required_v", "notes"])
+    if ctx.net is not None:
+        for r in sections.bom_rows(ctx):
+            w.writerow([r["designator"], r["kind"], r["value"], _csv_num(r["value_si"]), r["series"],
+                        _csv_num(r["tolerance_pct"]), _csv_num(r["tempco_ppm_per_k"]), _csv_num(r["power_rated_w"]),
+                        _csv_num(r["power_required_w"]), _csv_num(r["voltage_rated_v"]),
+                        _csv_num(r["voltage_required_v"]), "; ".join(r["notes"])])
+    return out.getvalue()
+
+
+def build_dossier(spec, out_path, *, date=None, csv: bool = True,
+                  progress: Callable[[str], None] | None = None, samples: int | None = None,
+                  seed: int | None = None) -> Path:
+    """Build the design dossier of a project and write it atomically.
+
+    Parameters
+    ----------
+    spec : Spec
+        A loaded project (:func:`planner.project.load`).
+    out_path : str or path-like
+        The PDF to write. The CSV bill of materials goes beside it (same stem,
+        ``.csv``) when ``csv`` is true.
+    date : str or datetime.date, optional
+        The date printed on the dossier (YYYY-MM-DD); the project's ``date`` by
+        default. The clock is never read, so the same input gives the same bytes.
+    csv : bool
+        Also write the bill of materials as CSV.
+    progress : callable(str), optional
+        Receives a short message before each step.
+    samples, seed : int, optional
+        Monte Carlo builds and seed; the project's ``analysis`` settings by default.
+
+    Returns
+    -------
+    pathlib.Path
+        The PDF written.
+
+    Raises
+    ------
+    UsageError
+        For a bad date or an output path that is the project file itself.
+    DossierLayoutError
+        When the layout fails (a bug; nothing is written).
+    """
+    from ..fsio import write_atomic
+
+    out = Path(out_path)
+    protect = [spec.path] if getattr(spec, "path", None) else []
+    if protect and out.exists() and _same(out, Path(spec.path)):
+        raise UsageError(f"the dossier would overwrite the project file {spec.path}; choose another output, "
+                         "e.g. -o dossier.pdf")
+    ctx = gather(spec, date=date, samples=samples, seed=seed, progress=progress)
+    pdf = render(ctx, progress=progress)
+    table_text = bom_csv(ctx) if csv else None
+    write_atomic(out, pdf, protect=protect)
+    if table_text is not None:
+        write_atomic(out.with_suffix(".csv"), table_text, protect=protect)
+    return out
+
+
+def _same(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve() or a.samefile(b)
+    except OSError:
+        return False

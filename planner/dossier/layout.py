@@ -1,0 +1,379 @@
+"""Page layout of the dossier: palette, paragraph styles, page templates, tables.
+
+Everything that decides how the dossier looks lives here, so the section
+builders only say *what* goes on the page. The look is deliberately plain: one
+dark slate ink for headings and rules, a pale blue-grey for table heads and
+boxes, a warm ochre reserved for cautions, and four verdict tints whose grey
+values differ (they stay apart in a grey print, and every tinted cell carries
+its verdict in words as well).
+
+Standard PDF fonts only (Helvetica, Courier): nothing is embedded, so two
+builds of the same project give the same bytes.
+"""
+
+from __future__ import annotations
+
+from xml.sax.saxutils import escape
+
+from reportlab.lib import colors
+from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
+from reportlab.lib.pagesizes import A4
+from reportlab.lib.styles import ParagraphStyle
+from reportlab.lib.units import mm
+from reportlab.pdfgen.canvas import Canvas
+from reportlab.platypus import (
+    BaseDocTemplate,
+    Flowable,
+    Frame,
+    KeepTogether,
+    PageTemplate,
+    Paragraph,
+    Spacer,
+    Table,
+    TableStyle,
+)
+from reportlab.platypus.doctemplate import LayoutError
+
+__all__ = [
+    "PAGE", "MARGIN", "FRAME_WIDTH", "INK", "ACCENT", "PALE", "RULE", "CAUTION", "CAUTION_PALE",
+    "VERDICT_FILL", "VERDICT_TEXT", "styles", "p", "esc", "table", "caution_box", "note_box",
+    "DossierDoc", "DossierLayoutError", "Heading", "FooterCanvas",
+]
+
+PAGE = A4
+MARGIN = 18 * mm
+TOP = 24 * mm
+BOTTOM = 20 * mm
+FRAME_WIDTH = PAGE[0] - 2 * MARGIN
+FRAME_HEIGHT = PAGE[1] - TOP - BOTTOM
+
+# --- palette ----------------------------------------------------------------------------
+INK = colors.HexColor("#1E2B37")        # text and rules
+ACCENT = colors.HexColor("#33566B")     # headings, chart lines
+ACCENT2 = colors.HexColor("#8C6A2F")    # second series (hot), dashed as well
+MUTED = colors.HexColor("#6B7780")      # secondary text
+PALE = colors.HexColor("#E6ECF0")       # table heads, boxes
+ZEBRA = colors.HexColor("#F5F7F8")      # alternate table rows
+RULE = colors.HexColor("#A7B3BB")       # thin lines
+CAUTION = colors.HexColor("#9A4A12")    # caution border and title
+CAUTION_PALE = colors.HexColor("#FBF1E6")
+
+#: Fill of a verdict cell; grey values fall from ok to hazard.
+VERDICT_FILL = {
+    "ok": colors.HexColor("#E3EEDD"),
+    "pegs": colors.HexColor("#F2E2A0"),
+    "overstress": colors.HexColor("#D98B55"),
+    "hazard": colors.HexColor("#7E1F2C"),
+    "error": colors.HexColor("#C9CED2"),
+    "accepted": colors.HexColor("#D9DEE8"),
+}
+#: Text colour on a verdict fill (white on the darkest).
+VERDICT_TEXT = {k: (colors.white if k == "hazard" else INK) for k in VERDICT_FILL}
+
+
+# --- styles -------------------------------------------------------------------------------
+def _styles() -> dict[str, ParagraphStyle]:
+    base = ParagraphStyle("body", fontName="Helvetica", fontSize=9.2, leading=12.2, textColor=INK,
+                          spaceAfter=4)
+    s = {"body": base}
+    s["small"] = ParagraphStyle("small", parent=base, fontSize=7.8, leading=9.6, spaceAfter=0)
+    s["cell"] = ParagraphStyle("cell", parent=base, fontSize=7.8, leading=9.4, spaceAfter=0)
+    s["cell_r"] = ParagraphStyle("cell_r", parent=s["cell"], alignment=TA_RIGHT)
+    s["cell_c"] = ParagraphStyle("cell_c", parent=s["cell"], alignment=TA_CENTER)
+    s["head"] = ParagraphStyle("head", parent=s["cell"], fontName="Helvetica-Bold", textColor=INK)
+    s["head_r"] = ParagraphStyle("head_r", parent=s["head"], alignment=TA_RIGHT)
+    s["h1"] = ParagraphStyle("h1", parent=base, fontName="Helvetica-Bold", fontSize=15, leading=19,
+                             textColor=ACCENT, spaceBefore=2, spaceAfter=8)
+    s["h2"] = ParagraphStyle("h2", parent=base, fontName="Helvetica-Bold", fontSize=11.2, leading=14,
+                             textColor=INK, spaceBefore=9, spaceAfter=4)
+    s["h3"] = ParagraphStyle("h3", parent=base, fontName="Helvetica-Bold", fontSize=9.4, leading=12,
+                             textColor=ACCENT, spaceBefore=6, spaceAfter=3)
+    s["caption"] = ParagraphStyle("caption", parent=base, fontSize=7.8, leading=9.6, textColor=MUTED,
+                                  alignment=TA_LEFT, spaceBefore=2, spaceAfter=6)
+    s["bullet"] = ParagraphStyle("bullet", parent=base, leftIndent=11, bulletIndent=2, spaceAfter=2.5)
+    s["mono"] = ParagraphStyle("mono", parent=base, fontName="Courier", fontSize=7.4, leading=8.9,
+                               spaceAfter=0)
+    s["cover_title"] = ParagraphStyle("cover_title", parent=base, fontName="Helvetica-Bold", fontSize=24,
+                                      leading=29, textColor=INK, spaceAfter=6)
+    s["cover_sub"] = ParagraphStyle("cover_sub", parent=base, fontName="Helvetica", fontSize=13,
+                                    leading=17, textColor=ACCENT, spaceAfter=18)
+    s["toc1"] = ParagraphStyle("toc1", parent=base, fontSize=9.6, leading=13, leftIndent=0)
+    s["toc2"] = ParagraphStyle("toc2", parent=base, fontSize=8.4, leading=10.5, leftIndent=14,
+                               textColor=MUTED)
+    s["caution_title"] = ParagraphStyle("caution_title", parent=base, fontName="Helvetica-Bold",
+                                        textColor=CAUTION, fontSize=9.4, spaceAfter=2)
+    return s
+
+
+STYLES = _styles()
+
+
+def styles() -> dict[str, ParagraphStyle]:
+    """The paragraph styles by name (``body``, ``cell``, ``h1`` ...)."""
+    return STYLES
+
+
+def esc(text) -> str:
+    """Text made safe for a Paragraph's mini-markup."""
+    return escape(str(text))
+
+
+def p(text: str, style: str = "body") -> Paragraph:
+    """A paragraph of (already escaped) markup in a named style."""
+    return Paragraph(text, STYLES[style])
+
+
+# --- headings that feed the contents list and the PDF outline --------------------------------
+class Heading(Paragraph):
+    """A section heading: registers itself in the contents and the PDF outline.
+
+    Parameters
+    ----------
+    text : str
+        Plain heading text (escaped here).
+    level : int
+        0 for a section, 1 for a subsection.
+    key : str
+        A stable bookmark key (derived from the section number, never random).
+    """
+
+    def __init__(self, text: str, level: int, key: str):
+        style = STYLES["h1"] if level == 0 else STYLES["h2"]
+        super().__init__(esc(text), style)
+        self.plain = text
+        self.level = level
+        self.key = key
+
+    def draw(self):
+        super().draw()
+        c = self.canv
+        c.bookmarkPage(self.key)
+        c.addOutlineEntry(self.plain, self.key, level=self.level, closed=self.level > 0)
+        if self.level == 0:
+            c.saveState()
+            c.setStrokeColor(RULE)
+            c.setLineWidth(0.6)
+            c.line(0, -3, self.width, -3)
+            c.restoreState()
+
+
+# --- tables ---------------------------------------------------------------------------------
+def _cellify(value, style: str):
+    if isinstance(value, Flowable):
+        return value
+    if value is None:
+        value = "\u2013"
+    return Paragraph(str(value), STYLES[style])
+
+
+def table(header, rows, widths, *, align=None, zebra=True, extra=(), header_rows=1,
+          escape_text=True, font_size=None) -> Table:
+    """A splitting table whose cells wrap, with a repeated head row.
+
+    Parameters
+    ----------
+    header : list of str
+        Column heads (plain text).
+    rows : list of list
+        Cell values: str (plain text unless ``escape_text`` is False), None (a dash),
+        or flowables.
+    widths : list of float
+        Column widths as fractions of the frame width (they are scaled to sum to 1).
+    align : str, optional
+        One letter per column, ``l``, ``r`` or ``c``.
+    extra : sequence
+        More TableStyle commands (row indices count the head row as 0).
+    """
+    total = float(sum(widths))
+    col_w = [FRAME_WIDTH * w / total for w in widths]
+    align = align or "l" * len(col_w)
+    body_style = {"l": "cell", "r": "cell_r", "c": "cell_c"}
+    head_style = {"l": "head", "r": "head_r", "c": "head"}
+    data = []
+    if header is not None:
+        data.append([_cellify(esc(h) if escape_text else h, head_style[a]) for h, a in zip(header, align)])
+    for r in rows:
+        cells = []
+        for v, a in zip(r, align):
+            if isinstance(v, str) and escape_text:
+                v = esc(v)
+            cells.append(_cellify(v, body_style[a]))
+        data.append(cells)
+    t = Table(data, colWidths=col_w, repeatRows=header_rows if header is not None else 0,
+              hAlign="LEFT")
+    cmds = [
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LEFTPADDING", (0, 0), (-1, -1), 3),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+        ("TOPPADDING", (0, 0), (-1, -1), 2),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 2.5),
+        ("LINEBELOW", (0, -1), (-1, -1), 0.6, RULE),
+    ]
+    if header is not None:
+        cmds += [
+            ("BACKGROUND", (0, 0), (-1, header_rows - 1), PALE),
+            ("LINEBELOW", (0, header_rows - 1), (-1, header_rows - 1), 0.8, INK),
+            ("LINEABOVE", (0, 0), (-1, 0), 0.8, INK),
+        ]
+    if zebra:
+        first = header_rows if header is not None else 0
+        for i in range(first + 1, len(data), 2):
+            cmds.append(("BACKGROUND", (0, i), (-1, i), ZEBRA))
+    cmds += list(extra)
+    t.setStyle(TableStyle(cmds))
+    return t
+
+
+def _box(title: str, lines, border, fill, title_style="caution_title") -> Table:
+    content = [Paragraph(title, STYLES[title_style])]
+    lines = [x for x in lines if x]
+    if len(lines) == 1:
+        content.append(Paragraph(lines[0], STYLES["body"]))
+    else:
+        for line in lines:
+            content.append(Paragraph(line, STYLES["bullet"], bulletText="\u2022"))
+    t = Table([[content]], colWidths=[FRAME_WIDTH], hAlign="LEFT")
+    t.setStyle(TableStyle([
+        ("BOX", (0, 0), (-1, -1), 1.1, border),
+        ("LINEBEFORE", (0, 0), (0, -1), 4, border),
+        ("BACKGROUND", (0, 0), (-1, -1), fill),
+        ("LEFTPADDING", (0, 0), (-1, -1), 9),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 8),
+        ("TOPPADDING", (0, 0), (-1, -1), 5),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 5),
+    ]))
+    return t
+
+
+def caution_box(title: str, lines) -> Table:
+    """A caution: ochre rule on the left, pale fill, title in ochre; lines are markup."""
+    return _box(esc("CAUTION \u2013 " + title), lines, CAUTION, CAUTION_PALE)
+
+
+def note_box(title: str, lines) -> Table:
+    """A neutral boxed note (slate rule)."""
+    return _box(esc(title), lines, ACCENT, PALE, "h3")
+
+
+def rule_bar(height: float = 5.0, colour=None) -> Table:
+    """A full-width coloured bar (the cover's top edge)."""
+    t = Table([[""]], colWidths=[FRAME_WIDTH], rowHeights=[height], hAlign="LEFT")
+    t.setStyle(TableStyle([("BACKGROUND", (0, 0), (-1, -1), colour or ACCENT)]))
+    return t
+
+
+def keep(*flowables):
+    """Keep a small group together on one page."""
+    return KeepTogether(list(flowables))
+
+
+# --- document template ------------------------------------------------------------------------
+class DossierLayoutError(LayoutError):
+    """A flowable did not fit its frame (wider than the text column)."""
+
+
+def _used_width(flowable) -> float | None:
+    """The width a flowable occupies once wrapped [pt], where it can be known."""
+    if isinstance(flowable, Table):
+        return float(getattr(flowable, "_width", 0.0) or 0.0)
+    w = getattr(flowable, "width", None)
+    return float(w) if isinstance(w, (int, float)) else None
+
+
+class _CheckedFrame(Frame):
+    """A frame that records any flowable drawn wider than it is."""
+
+    def _add(self, flowable, canv, trySplit=0):
+        done = super()._add(flowable, canv, trySplit)
+        if done:
+            aw = self._getAvailableWidth()
+            w = _used_width(flowable)
+            if w is not None and w > aw + 0.5:
+                self._dossier_overflow.append(
+                    f"{flowable.__class__.__name__} is {w:.1f} pt wide in a {aw:.1f} pt column")
+        return done
+
+    add = _add
+
+
+class FooterCanvas(Canvas):
+    """A canvas that knows the page count, for the 'page N of M' footer.
+
+    Pages are held back until the end of the build, then stamped with the
+    running head and foot (which need the total) and written.
+    """
+
+    head_text = ""
+    foot_text = ""
+
+    def __init__(self, *args, **kwargs):
+        kwargs["invariant"] = 1
+        super().__init__(*args, **kwargs)
+        self._held = []
+
+    def showPage(self):
+        self._held.append(dict(self.__dict__))
+        self._startPage()
+
+    def save(self):
+        total = len(self._held)
+        for state in self._held:
+            self.__dict__.update(state)
+            self._stamp(total)
+            Canvas.showPage(self)
+        Canvas.save(self)
+
+    def _stamp(self, total: int):
+        n = self._pageNumber
+        w, h = PAGE
+        self.saveState()
+        if n > 1:
+            self.setFont("Helvetica-Bold", 8)
+            self.setFillColor(INK)
+            self.drawString(MARGIN, h - 13 * mm, self.head_text)
+            self.setFont("Helvetica", 8)
+            self.setFillColor(MUTED)
+            self.drawRightString(w - MARGIN, h - 13 * mm, "Design dossier")
+            self.setStrokeColor(RULE)
+            self.setLineWidth(0.5)
+            self.line(MARGIN, h - 15 * mm, w - MARGIN, h - 15 * mm)
+        self.setStrokeColor(RULE)
+        self.setLineWidth(0.5)
+        self.line(MARGIN, 13 * mm, w - MARGIN, 13 * mm)
+        self.setFont("Helvetica", 7.5)
+        self.setFillColor(MUTED)
+        self.drawString(MARGIN, 9 * mm, self.foot_text)
+        self.setFillColor(INK)
+        self.drawRightString(w - MARGIN, 9 * mm, f"page {n} of {total}")
+        self.restoreState()
+
+
+class DossierDoc(BaseDocTemplate):
+    """The dossier's document template: one text column, contents, checked widths.
+
+    Parameters
+    ----------
+    buffer : file-like
+        Where the PDF goes (a BytesIO; the caller writes the file atomically).
+    title, subject, creator : str
+        PDF metadata.
+    """
+
+    def __init__(self, buffer, *, title: str, subject: str, creator: str, author: str = ""):
+        super().__init__(buffer, pagesize=PAGE, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=TOP,
+                         bottomMargin=BOTTOM, title=title, subject=subject, creator=creator,
+                         author=author, invariant=1, pageCompression=1)
+        self.overflow: list[str] = []
+        frame = _CheckedFrame(MARGIN, BOTTOM, FRAME_WIDTH, FRAME_HEIGHT, id="body",
+                              leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+        frame._dossier_overflow = self.overflow
+        self.addPageTemplates([PageTemplate(id="page", frames=[frame])])
+
+    def afterFlowable(self, flowable):
+        if isinstance(flowable, Heading):
+            self.notify("TOCEntry", (flowable.level, flowable.plain, self.page, flowable.key))
+
+    def check(self):
+        """Raise :class:`DossierLayoutError` when any flowable overflowed its frame."""
+        if self.overflow:
+            raise DossierLayoutError("; ".join(sorted(set(self.overflow))))

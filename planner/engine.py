@@ -1,0 +1,287 @@
+"""Operating points of a project: spec + network + solver, element by element.
+
+:class:`Engine` is the library entry point for every analysis. It validates the
+network once, compiles each switch state once, turns the parts' values,
+tolerance draws and temperatures into the solver's branch resistances and
+junction parameters, and hands back per-element currents, voltages and powers.
+
+Examples
+--------
+>>> from planner.project import load                       # doctest: +SKIP
+>>> eng = Engine(load("projects/pocket_voltmeter.yaml"))     # doctest: +SKIP
+>>> eng.reading("10 V", [10.0])                              # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+from . import network as nw
+from .errors import UsageError
+from .model import Contact, Diode, Fuse, MovementElement, Resistor, Spec
+from .solve import Junctions, Solution, saturation_current, solve, thermal_voltage
+
+
+def resolve_network(spec: Spec):
+    """The explicit network, or the one the sizer builds from ``voltage``/``current``."""
+    if spec.network is not None:
+        return spec.network
+    from .size import sized_spec
+
+    return sized_spec(spec).network
+
+
+@dataclass
+class ElementStress:
+    """Current [A], voltage [V] and power [W] of one element, arrays of shape (P, S)."""
+
+    name: str
+    kind: str
+    current_a: np.ndarray
+    voltage_v: np.ndarray
+    power_w: np.ndarray
+
+
+class Operating:
+    """Operating points of one switch state for a batch; see :meth:`Engine.operate`."""
+
+    def __init__(self, engine: "Engine", state: nw.SwitchState, circuit, solution: Solution, i_fs_a):
+        self.engine = engine
+        self.state = state
+        self.circuit = circuit
+        self.solution = solution
+        self.i_fs_a = i_fs_a  # shape (P, 1)
+        self._branch_of = {}
+        for j, br in enumerate(circuit.branches):
+            self._branch_of.setdefault((br.element, br.role), j)
+
+    @property
+    def shape(self):
+        return self.solution.v_node.shape[:2]
+
+    def node_voltage(self, node: str) -> np.ndarray:
+        """Voltage of a node against the input's minus terminal [V], shape (P, S)."""
+        i = self.circuit.node_index.get(node)
+        if i is None:
+            return np.zeros(self.shape)
+        return self.solution.v_node[:, :, i]
+
+    def _branch_current(self, name, role):
+        j = self._branch_of.get((name, role))
+        return None if j is None else self.solution.i_branch[:, :, j]
+
+    @property
+    def movement_current_a(self) -> np.ndarray:
+        """Current through the movement from its first to its second node [A], (P, S)."""
+        m = self.engine.movement
+        i = self._branch_current(m.name, "movement")
+        return np.zeros(self.shape) if i is None else i
+
+    @property
+    def movement_multiple(self) -> np.ndarray:
+        """Movement current as a multiple of the (possibly drawn) full-scale current."""
+        return self.movement_current_a / self.i_fs_a
+
+    def reading(self) -> np.ndarray:
+        """What the pointer reads on this state's position, in its unit [V] or [A]."""
+        return self.movement_multiple * self.state.position.full_scale
+
+    @property
+    def source_current_a(self) -> np.ndarray:
+        """Current the stimulus delivers into the input's plus terminal [A], (P, S)."""
+        sol = self.solution
+        c = self.circuit
+        if c.source_kind == "current":
+            return np.broadcast_to(self._stimulus, self.shape)
+        j = self._branch_of.get(("__source__", "source"))
+        if j is not None:
+            return sol.i_branch[:, :, j]
+        held = c.held
+        out = np.zeros(self.shape)
+        for j, (a, b) in enumerate(zip(c.lin_a, c.lin_b)):
+            if a == held:
+                out = out + sol.i_branch[:, :, j]
+            elif b == held:
+                out = out - sol.i_branch[:, :, j]
+        for j, name in enumerate(c.diodes):
+            e = self.engine.elements[name]
+            if c.node_index.get(e.anode) == held:
+                out = out + sol.i_diode[:, :, j]
+            elif c.node_index.get(e.cathode) == held:
+                out = out - sol.i_diode[:, :, j]
+        return out
+
+    def element(self, name: str) -> ElementStress:
+        """Current, voltage and power of one element (zero where it is out of circuit)."""
+        e = self.engine.elements[name]
+        a, b = e.nodes
+        v = self.node_voltage(a) - self.node_voltage(b)
+        if isinstance(e, Diode):
+            if name in self.circuit.diodes:
+                i = self.solution.i_diode[:, :, self.circuit.diodes.index(name)]
+            else:
+                i = np.zeros(self.shape)
+        else:
+            role = {Resistor: "resistor", MovementElement: "movement", Fuse: "fuse", Contact: "contact"}[type(e)]
+            i = self._branch_current(name, role)
+            if i is None:
+                i = np.zeros(self.shape)
+                if isinstance(e, Contact) and name in self.state.closed:
+                    i = np.full(self.shape, np.nan)  # an ideal closed contact: current not tracked
+        return ElementStress(name, e.kind, i, v, v * i)
+
+    def stresses(self) -> list[ElementStress]:
+        """Every non-contact element's stress, in network order."""
+        return [self.element(e.name) for e in self.engine.net.elements if not isinstance(e, Contact)]
+
+
+class Engine:
+    """Operating points of every switch state of a project.
+
+    Parameters
+    ----------
+    spec : Spec
+        A loaded project; when it has no explicit network the sizer's is used.
+    """
+
+    def __init__(self, spec: Spec, net=None):
+        self.spec = spec
+        self.net = net if net is not None else resolve_network(spec)
+        nw.validate(spec, self.net)
+        self.elements = {e.name: e for e in self.net.elements}
+        self.movement = nw.movement_element(self.net)
+        self._circuits = {}
+        self._states = {s.name: s for s in nw.position_states(self.net) + nw.transition_states(self.net)}
+
+    # --- states -------------------------------------------------------------------
+    @property
+    def positions(self):
+        return self.net.positions
+
+    def state(self, name) -> nw.SwitchState:
+        if isinstance(name, nw.SwitchState):
+            return name
+        if name in self._states:
+            return self._states[name]
+        return nw.state(self.net, name)  # raises a helpful error
+
+    def transitions(self) -> list[nw.SwitchState]:
+        return nw.transition_states(self.net)
+
+    def circuit(self, st: nw.SwitchState, kind: str, with_source_r: bool):
+        key = (st.name, kind, with_source_r)
+        if key not in self._circuits:
+            self._circuits[key] = nw.compile_state(self.spec, st, stimulus=kind,
+                                                   source_resistance=with_source_r, net=self.net)
+        return self._circuits[key]
+
+    # --- parameters -------------------------------------------------------------------
+    def branch_resistances(self, circuit, temperature_k, factors: Mapping[str, np.ndarray] | None,
+                           r_source_ohm=0.0) -> np.ndarray:
+        """Resistance of each linear branch at temperature, shape (P, L) [ohm].
+
+        Notes
+        -----
+        Resistors and the coil follow :math:`R(T) = R (1 + \\alpha (T - T_{ref}))`
+        (design contract); ``factors`` multiplies the nominal value (a tolerance
+        draw). Fuses and contacts are held constant.
+        """
+        spec = self.spec
+        t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
+        dt = t - spec.ambient.t_ref_k
+        factors = factors or {}
+        cols = []
+        for br in circuit.branches:
+            e = self.elements.get(br.element)
+            if br.role == "resistor":
+                val = e.value_ohm * (1.0 + e.tempco_per_k * dt)
+            elif br.role == "movement":
+                m = spec.movement
+                val = m.r_coil_ohm * (1.0 + m.tempco_per_k * dt)
+            elif br.role == "fuse":
+                val = spec.parts.fuses[e.model].r_cold_ohm + 0.0 * dt
+            elif br.role == "contact":
+                val = e.r_ohm + 0.0 * dt
+            else:  # source
+                val = np.asarray(r_source_ohm, dtype=float).reshape(-1, 1) + 0.0 * dt
+            if br.role in ("resistor", "movement") and br.element in factors:
+                val = val * np.asarray(factors[br.element], dtype=float).reshape(-1, 1)
+            cols.append(val)
+        if not cols:
+            return np.zeros((t.shape[0], 0))
+        return np.concatenate(np.broadcast_arrays(*cols), axis=1)
+
+    def junctions(self, circuit, temperature_k, factors=None) -> Junctions:
+        """Junction parameters at temperature for each diode of a compiled state."""
+        spec = self.spec
+        t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
+        factors = factors or {}
+        cols = []
+        for name in circuit.diodes:
+            d = spec.parts.diodes[self.elements[name].model]
+            t_nom = d.t_nom_k if d.t_nom_k is not None else spec.ambient.t_ref_k
+            isat = saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, t, t_nom)
+            if name in factors:
+                isat = isat * np.asarray(factors[name], dtype=float).reshape(-1, 1)
+            cols.append((isat, d.n * thermal_voltage(t),
+                         np.full_like(t, np.inf if d.bv_v is None else d.bv_v), np.full_like(t, d.ibv_a),
+                         np.full_like(t, d.r_s_ohm), np.full_like(t, 1.0 / d.r_p_ohm)))
+        if not cols:
+            z = np.zeros((t.shape[0], 0))
+            return Junctions(z, z, z, z, z, z)
+        return Junctions(*(np.concatenate(np.broadcast_arrays(*xs), axis=1) for xs in zip(*cols)))
+
+    # --- solving ---------------------------------------------------------------------
+    def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
+                r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None) -> Operating:
+        """Solve one switch state for a batch of stimuli and parameter sets.
+
+        Parameters
+        ----------
+        state : str or SwitchState
+            A position name, a transition name, or a state.
+        stimulus : array_like, shape (S,) or (P, S)
+            Applied volts (voltage stimulus) or amperes (current stimulus).
+        kind : {'voltage', 'current'}, optional
+            What is applied; the position's own quantity by default.
+        temperature_k : float or array_like (P,), optional
+            Ambient temperature [K]; the reference temperature by default.
+        r_source_ohm : float or array_like (P,)
+            Source resistance of a voltage stimulus [ohm].
+        factors : mapping, optional
+            Multipliers of nominal values per designator, arrays of shape (P,):
+            resistors and the movement (coil resistance), diodes (saturation
+            current); the key ``"i_fs"`` multiplies the full-scale current.
+
+        Returns
+        -------
+        Operating
+        """
+        st = self.state(state)
+        kind = kind or st.position.measures
+        if kind not in ("voltage", "current"):
+            raise UsageError(f"stimulus kind must be 'voltage' or 'current', not {kind!r}")
+        t = self.spec.ambient.t_ref_k if temperature_k is None else temperature_k
+        with_r = kind == "voltage" and np.any(np.asarray(r_source_ohm) > 0)
+        circuit = self.circuit(st, kind, bool(with_r))
+        r = self.branch_resistances(circuit, t, factors, r_source_ohm)
+        jn = self.junctions(circuit, t, factors)
+        stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
+        sol = solve(circuit, r, jn, stim)
+        i_fs = self.spec.movement.i_fs_a * np.ones((sol.v_node.shape[0], 1))
+        if factors and "i_fs" in factors:
+            i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)
+        op = Operating(self, st, circuit, sol, i_fs)
+        op._stimulus = stim if stim.ndim == 2 else stim[None, :]
+        return op
+
+    def reading(self, position, applied, **kwargs) -> np.ndarray:
+        """Pointer reading [V or A] of a position for applied values of its own quantity.
+
+        Returns shape (S,) for a single parameter set, else (P, S).
+        """
+        out = self.operate(position, applied, **kwargs).reading()
+        return out[0] if out.shape[0] == 1 else out

@@ -1,0 +1,488 @@
+"""Domain model: frozen dataclasses holding plain SI floats.
+
+Everything the numeric core needs is here, already converted from the project
+file's text with units: currents in [A], voltages in [V], resistances in [ohm],
+powers in [W], temperatures in [K], tolerances and tempcos as plain fractions
+(``0.5 %`` is ``0.005``, ``50 ppm/K`` is ``5e-5`` [1/K]).
+
+The project loader (:mod:`planner.project`) builds a :class:`Spec`; the sizer
+(:mod:`planner.size`) turns the high-level ``voltage``/``current`` sections into a
+:class:`NetworkSpec`; the graph model (:mod:`planner.network`) and the solver
+take it from there. Nothing here parses text or formats output.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Mapping
+
+#: Temperature coefficient of resistance of annealed copper at 20 degC [1/K].
+#: IEC 60028 (International Annealed Copper Standard): alpha_20 = 0.00393 per K.
+COPPER_TEMPCO_PER_K = 3.93e-3
+
+#: 0 degC in kelvin (exact, SI).
+ZERO_CELSIUS_K = 273.15
+
+#: Default reference temperature [K] (23 degC, common practice for calibration labs).
+DEFAULT_T_REF_K = ZERO_CELSIUS_K + 23.0
+
+
+@dataclass(frozen=True)
+class Overload:
+    """Overload limits of a movement as multiples of its full-scale current.
+
+    Attributes
+    ----------
+    peg : float
+        Pointer reaches its end stop above this multiple (common practice: about 1.1).
+    short_time : float
+        Peak multiple survived for a short time (a fuse's pre-arcing time).
+    continuous : float
+        Mean or rms multiple survived indefinitely.
+    """
+
+    peg: float = 1.1
+    short_time: float = 10.0
+    continuous: float = 1.2
+
+
+@dataclass(frozen=True)
+class Movement:
+    """A moving-coil movement.
+
+    Attributes
+    ----------
+    i_fs_a : float
+        Full-scale current [A].
+    r_coil_ohm : float
+        Coil resistance at the reference temperature [ohm].
+    class_index : float
+        IEC 60051 class index [% of fiducial value].
+    tempco_per_k : float
+        Temperature coefficient of the coil resistance [1/K]; copper by default.
+    tolerance : float
+        Tolerance of the coil resistance (fraction), 0 when it is measured.
+    i_fs_tolerance : float
+        Tolerance of the full-scale current (fraction), 0 when it is calibrated.
+    overload : Overload
+        Overload limits.
+    """
+
+    i_fs_a: float
+    r_coil_ohm: float
+    class_index: float
+    tempco_per_k: float = COPPER_TEMPCO_PER_K
+    tolerance: float = 0.0
+    i_fs_tolerance: float = 0.0
+    overload: Overload = field(default_factory=Overload)
+
+    @property
+    def v_fs_v(self) -> float:
+        """Voltage across the coil at full scale [V]."""
+        return self.i_fs_a * self.r_coil_ohm
+
+    @property
+    def ohms_per_volt(self) -> float:
+        """Sensitivity of a voltmeter built on it [ohm/V]."""
+        return 1.0 / self.i_fs_a
+
+
+@dataclass(frozen=True)
+class Ambient:
+    """Ambient temperatures [K]: the reference and the range of use."""
+
+    t_ref_k: float = DEFAULT_T_REF_K
+    t_min_k: float = ZERO_CELSIUS_K + 0.0
+    t_max_k: float = ZERO_CELSIUS_K + 40.0
+
+
+@dataclass(frozen=True)
+class ResistorParts:
+    """What the project's resistors are like when an element does not say.
+
+    Attributes
+    ----------
+    series : str
+        IEC 60063 series the sizer picks from (``E6`` ... ``E192``).
+    tolerance : float
+        Tolerance (fraction).
+    tempco_per_k : float
+        Temperature coefficient [1/K].
+    power_w : float
+        Power rating [W].
+    max_voltage_v : float
+        Limiting element voltage [V].
+    distribution : str
+        ``uniform`` or ``normal`` (tolerance = 3 sigma) for Monte Carlo.
+    power_ratings_w : tuple of float
+        Power ratings the sizer may step up to, ascending [W].
+    max_voltages_v : tuple of float
+        Limiting element voltage belonging to each power rating [V].
+    """
+
+    series: str = "E96"
+    tolerance: float = 0.01
+    tempco_per_k: float = 100e-6
+    power_w: float = 0.25
+    max_voltage_v: float = 250.0
+    distribution: str = "uniform"
+    power_ratings_w: tuple[float, ...] = ()
+    max_voltages_v: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class DiodeModel:
+    """Shockley junction with series and leakage resistance.
+
+    Attributes
+    ----------
+    name : str
+        Model name used by diode elements.
+    i_s_a : float
+        Saturation current at ``t_nom_k`` [A].
+    n : float
+        Emission coefficient.
+    r_s_ohm : float
+        Series resistance [ohm] (0 for none).
+    r_p_ohm : float
+        Leakage resistance across the junction [ohm] (``inf`` for none).
+    eg_ev : float
+        Band gap for the temperature law [eV].
+    xti : float
+        Saturation-current temperature exponent.
+    t_nom_k : float or None
+        Temperature at which the parameters hold [K]; None means the project's
+        reference temperature.
+    bv_v : float or None
+        Reverse breakdown voltage [V] (zener, TVS); None for none.
+    ibv_a : float
+        Current at the breakdown voltage [A].
+    max_current_a : float
+        Maximum average forward current [A].
+    surge_current_a : float
+        Non-repetitive surge current [A].
+    max_power_w : float
+        Maximum dissipation [W].
+    i_s_spread : float
+        Relative spread of ``i_s_a`` between parts (fraction; 0.5 is +-50 %).
+    """
+
+    name: str
+    i_s_a: float
+    n: float = 1.0
+    r_s_ohm: float = 0.0
+    r_p_ohm: float = math.inf
+    eg_ev: float = 1.11
+    xti: float = 3.0
+    t_nom_k: float | None = None
+    bv_v: float | None = None
+    ibv_a: float = 1e-3
+    max_current_a: float = math.inf
+    surge_current_a: float = math.inf
+    max_power_w: float = math.inf
+    i_s_spread: float = 0.0
+
+
+@dataclass(frozen=True)
+class FuseModel:
+    """A fuse: cold resistance, ratings and its time-current behaviour.
+
+    Attributes
+    ----------
+    name : str
+    r_cold_ohm : float
+        Cold resistance [ohm].
+    rated_current_a : float
+        Rated current [A].
+    breaking_capacity_a : float
+        Largest prospective current it can interrupt safely [A].
+    i2t_a2s : float or None
+        Pre-arcing (melting) I^2 t [A^2 s].
+    curve : tuple of (current [A], time [s])
+        Time-current points, ascending current.
+    max_voltage_v : float
+        Rated voltage [V].
+    """
+
+    name: str
+    r_cold_ohm: float
+    rated_current_a: float
+    breaking_capacity_a: float
+    i2t_a2s: float | None = None
+    curve: tuple[tuple[float, float], ...] = ()
+    max_voltage_v: float = math.inf
+
+
+@dataclass(frozen=True)
+class Parts:
+    """The parts available to the project."""
+
+    resistors: ResistorParts = field(default_factory=ResistorParts)
+    diodes: Mapping[str, DiodeModel] = field(default_factory=dict)
+    fuses: Mapping[str, FuseModel] = field(default_factory=dict)
+
+
+# --- network elements -------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Resistor:
+    """A resistor element between nodes ``a`` and ``b``.
+
+    ``target_ohm`` is the ideal value the sizer aimed at (None for an explicit
+    network). ``group`` names the segment a resistor belongs to when the sizer
+    built one segment from several parts.
+    """
+
+    name: str
+    a: str
+    b: str
+    value_ohm: float
+    tolerance: float = 0.01
+    tempco_per_k: float = 100e-6
+    power_w: float = 0.25
+    max_voltage_v: float = 250.0
+    series: str | None = None
+    target_ohm: float | None = None
+    group: str | None = None
+    trimmer: bool = False
+    distribution: str = "uniform"
+    line: int | None = None
+
+    kind = "resistor"
+
+    @property
+    def nodes(self) -> tuple[str, str]:
+        return (self.a, self.b)
+
+
+@dataclass(frozen=True)
+class MovementElement:
+    """The meter movement as a network element (current from ``a`` to ``b`` reads up)."""
+
+    name: str
+    a: str
+    b: str
+    line: int | None = None
+
+    kind = "movement"
+
+    @property
+    def nodes(self) -> tuple[str, str]:
+        return (self.a, self.b)
+
+
+@dataclass(frozen=True)
+class Diode:
+    """A diode element; ``model`` names a :class:`DiodeModel` in ``parts.diodes``."""
+
+    name: str
+    anode: str
+    cathode: str
+    model: str
+    line: int | None = None
+
+    kind = "diode"
+
+    @property
+    def nodes(self) -> tuple[str, str]:
+        return (self.anode, self.cathode)
+
+
+@dataclass(frozen=True)
+class Contact:
+    """A switch contact, closed in the positions named in ``closed_in``."""
+
+    name: str
+    a: str
+    b: str
+    closed_in: tuple[str, ...]
+    r_ohm: float = 0.0
+    line: int | None = None
+
+    kind = "contact"
+
+    @property
+    def nodes(self) -> tuple[str, str]:
+        return (self.a, self.b)
+
+
+@dataclass(frozen=True)
+class Fuse:
+    """A fuse element; ``model`` names a :class:`FuseModel` in ``parts.fuses``."""
+
+    name: str
+    a: str
+    b: str
+    model: str
+    line: int | None = None
+
+    kind = "fuse"
+
+    @property
+    def nodes(self) -> tuple[str, str]:
+        return (self.a, self.b)
+
+
+Element = Resistor | MovementElement | Diode | Contact | Fuse
+
+
+@dataclass(frozen=True)
+class Position:
+    """A switch position.
+
+    Attributes
+    ----------
+    name : str
+        As printed on the dial, e.g. ``"2.5 V"``.
+    measures : str
+        ``voltage`` or ``current``.
+    full_scale : float
+        Full-scale value [V] or [A].
+    input : tuple of str
+        The two input terminals (+, -).
+    """
+
+    name: str
+    measures: str
+    full_scale: float
+    input: tuple[str, str]
+    line: int | None = None
+
+    @property
+    def unit(self) -> str:
+        return "V" if self.measures == "voltage" else "A"
+
+
+@dataclass(frozen=True)
+class NetworkSpec:
+    """An explicit network: elements and positions in switch order."""
+
+    elements: tuple[Element, ...]
+    positions: tuple[Position, ...]
+    #: ``make_before_break`` or ``break_before_make`` or None (unknown: check both).
+    contact_style: str | None = None
+
+    def element(self, name: str) -> Element:
+        for e in self.elements:
+            if e.name == name:
+                return e
+        raise KeyError(name)
+
+    def position(self, name: str) -> Position:
+        for p in self.positions:
+            if p.name == name:
+                return p
+        raise KeyError(name)
+
+
+# --- high-level requests for the sizer ----------------------------------------------
+
+
+@dataclass(frozen=True)
+class VoltageRanges:
+    """Wanted voltage ranges: ``chain`` or ``separate`` multipliers."""
+
+    arrangement: str
+    full_scales: tuple[float, ...]
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class CurrentRanges:
+    """Wanted current ranges: Ayrton ``ring`` or ``separate`` shunts.
+
+    ``ring_on_voltage`` says whether the ring stays across the movement on the
+    voltage positions (``across``) or is switched out (``switched_out``).
+    ``swamp_ohm`` is a series (swamping) resistor with the coil on current ranges
+    (0 for none).
+    """
+
+    arrangement: str
+    full_scales: tuple[float, ...]
+    ring_on_voltage: str = "switched_out"
+    swamp_ohm: float = 0.0
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class ClampRequest:
+    """A diode clamp the sizer must place.
+
+    ``at`` is ``movement`` (across the coil) or a resistance above the movement
+    [ohm] at which the multiplier chain is split to make a tap for the clamp.
+    ``forward`` and ``reverse`` name diode models (None for no diode in that
+    direction); ``count`` diodes in series per direction.
+    """
+
+    at: str | float
+    forward: str | None
+    reverse: str | None
+    count: int = 1
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class FaultSource:
+    """A foreseeable stimulus from the file's ``faults.sources``.
+
+    ``value`` is the DC value or the rms of a sine [V] or [A].
+    """
+
+    name: str
+    kind: str  # "voltage" or "current"
+    value: float
+    waveform: str = "dc"  # "dc" or "sine"
+    r_source_ohm: float = 0.0
+    current_limit_a: float | None = None
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class Acceptance:
+    """A fault case the designer accepts, with the reason."""
+
+    position: str
+    stimulus: str
+    reason: str
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class Faults:
+    """Foreseeable faults."""
+
+    sources: tuple[FaultSource, ...] = ()
+    max_input_v: float | None = None
+    category: str | None = None
+    accept: tuple[Acceptance, ...] = ()
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """Settings of the analyses that a file may fix."""
+
+    samples: int = 2000
+    seed: int = 1
+    allowed_share: float = 0.1  # sizing: share of class a single value may miss by
+
+
+@dataclass(frozen=True)
+class Spec:
+    """A whole project, in SI floats."""
+
+    title: str
+    movement: Movement
+    parts: Parts = field(default_factory=Parts)
+    ambient: Ambient = field(default_factory=Ambient)
+    voltage: VoltageRanges | None = None
+    current: CurrentRanges | None = None
+    clamps: tuple[ClampRequest, ...] = ()
+    faults: Faults = field(default_factory=Faults)
+    network: NetworkSpec | None = None
+    analysis: Analysis = field(default_factory=Analysis)
+    path: str | None = None
+    revision: str | None = None
+    date: str | None = None
+    text: str | None = None  # the file's text, for the dossier appendix and hash

@@ -1,0 +1,360 @@
+"""The range switch as a graph.
+
+A :class:`networkx.MultiGraph` per network: nodes are circuit nodes, every
+element is an edge keyed by its designator with the element in the edge data.
+A switch *state* is a set of closed contacts: one per position, plus the two
+states between adjacent positions while the switch turns (make-before-break:
+the contacts of both positions closed; break-before-make: only the contacts
+the two positions share).
+
+This module also compiles one state into the flat arrays the solver works on
+(:class:`planner.solve.Circuit`): the part of the graph connected to the input
+terminals, zero-resistance contacts merged into single nodes, diodes split into
+ports: the node pairs they join (an antiparallel pair shares one port).
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+
+import networkx as nx
+import numpy as np
+
+from .errors import ProjectError, SolveError
+from .model import Contact, Diode, Fuse, MovementElement, NetworkSpec, Position, Resistor, Spec
+
+POSITION = "position"
+MAKE_BEFORE_BREAK = "make_before_break"
+BREAK_BEFORE_MAKE = "break_before_make"
+
+
+@dataclass(frozen=True)
+class SwitchState:
+    """One state of the range switch.
+
+    Attributes
+    ----------
+    name : str
+        The position's name, or ``"A -> B (make-before-break)"`` for a transition.
+    kind : str
+        ``position``, ``make_before_break`` or ``break_before_make``.
+    position : Position
+        The position whose input terminals and stimulus apply (the one the switch
+        leaves, for a transition).
+    closed : frozenset of str
+        Designators of the closed contacts.
+    target : Position or None
+        The position the switch moves to, for a transition.
+    """
+
+    name: str
+    kind: str
+    position: Position
+    closed: frozenset
+    target: Position | None = None
+
+
+def graph(net: NetworkSpec) -> nx.MultiGraph:
+    """The whole network with every contact present, as a MultiGraph.
+
+    Edges are keyed by designator and carry the element as ``element``.
+    """
+    g = nx.MultiGraph()
+    for e in net.elements:
+        a, b = e.nodes
+        g.add_edge(a, b, key=e.name, element=e)
+    return g
+
+
+def closed_contacts(net: NetworkSpec, position: str) -> frozenset:
+    """Designators of the contacts closed in ``position``."""
+    return frozenset(e.name for e in net.elements if isinstance(e, Contact) and position in e.closed_in)
+
+
+def position_states(net: NetworkSpec) -> list[SwitchState]:
+    """One state per position, in switch order."""
+    return [SwitchState(p.name, POSITION, p, closed_contacts(net, p.name)) for p in net.positions]
+
+
+def transition_states(net: NetworkSpec) -> list[SwitchState]:
+    """The two transition states between each pair of adjacent positions.
+
+    Notes
+    -----
+    Make-before-break closes the union of both positions' contacts; break-before-make
+    keeps only their intersection (the contacts the switch does not move). The
+    stimulus of the position being left stays applied (common practice for the
+    "switch turned with the probes connected" misrange).
+    """
+    out = []
+    for p, q in zip(net.positions[:-1], net.positions[1:]):
+        cp, cq = closed_contacts(net, p.name), closed_contacts(net, q.name)
+        out.append(SwitchState(f"{p.name} -> {q.name} (make-before-break)", MAKE_BEFORE_BREAK, p, cp | cq, q))
+        out.append(SwitchState(f"{p.name} -> {q.name} (break-before-make)", BREAK_BEFORE_MAKE, p, cp & cq, q))
+    return out
+
+
+def state(net: NetworkSpec, name: str) -> SwitchState:
+    """The state of a position (or transition) by name; a clear error otherwise."""
+    for s in position_states(net) + transition_states(net):
+        if s.name == name:
+            return s
+    names = [p.name for p in net.positions]
+    hint = difflib.get_close_matches(name, names, n=1)
+    more = f" Did you mean '{hint[0]}'?" if hint else ""
+    raise ProjectError(f"no position named '{name}'.{more} Positions: {', '.join(names)}")
+
+
+def active_graph(net: NetworkSpec, st: SwitchState) -> nx.MultiGraph:
+    """The elements present in a switch state: every non-contact element and the closed contacts."""
+    g = nx.MultiGraph()
+    for e in net.elements:
+        if isinstance(e, Contact) and e.name not in st.closed:
+            continue
+        a, b = e.nodes
+        g.add_edge(a, b, key=e.name, element=e)
+    for n in st.position.input:
+        g.add_node(n)
+    return g
+
+
+def movement_element(net: NetworkSpec) -> MovementElement:
+    """The network's movement element."""
+    for e in net.elements:
+        if isinstance(e, MovementElement):
+            return e
+    raise ProjectError("the network has no element of kind 'movement'; add one, e.g. {name: M1, kind: movement, between: [m_plus, com]}")
+
+
+def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
+    """Graph-level checks of a network, each error naming the element and its line.
+
+    Checks: a node that only one element touches and that is no input terminal (a
+    dangling wire, usually a misspelt node name); a position that no contact serves;
+    a position whose input terminals are not joined by any path; a movement that is
+    not in the path of a position.
+
+    Raises
+    ------
+    ProjectError
+    """
+    net = net if net is not None else spec.network
+    path = spec.path
+    movement = movement_element(net)
+    full = graph(net)
+    terminals = {n for p in net.positions for n in p.input}
+    for node in full.nodes:
+        if full.degree(node) == 1 and node not in terminals:
+            (a, b, key, data), = full.edges(node, keys=True, data=True)
+            e = data["element"]
+            others = sorted(n for n in full.nodes if n != node)
+            hint = difflib.get_close_matches(node, others, n=1)
+            more = f" Did you mean '{hint[0]}'?" if hint else " Connect it or remove the element."
+            raise ProjectError(f"node '{node}' is floating: only {key} touches it.{more}", path, e.line)
+    has_contacts = any(isinstance(e, Contact) for e in net.elements)
+    for st in position_states(net):
+        p = st.position
+        if has_contacts and not st.closed:
+            raise ProjectError(
+                f"position '{p.name}' is served by no contact; list it in the closed_in of the contacts that select it",
+                path, p.line)
+        g = active_graph(net, st)
+        plus, minus = p.input
+        if not nx.has_path(g, plus, minus):
+            raise ProjectError(
+                f"position '{p.name}': no path joins its input terminals {plus} and {minus}; check the contacts closed in it",
+                path, p.line)
+        h = nx.MultiGraph(g)
+        h.remove_edge(movement.a, movement.b, key=movement.name)
+        h.add_edge(plus, minus, key="__source__")
+        if not (h.has_node(movement.a) and h.has_node(movement.b) and nx.has_path(h, movement.a, movement.b)):
+            raise ProjectError(
+                f"position '{p.name}': the movement {movement.name} is not in the path from {plus} to {minus}, "
+                f"so it would never deflect; check the contacts closed in it", path, p.line)
+
+
+# --- compiling one state for the solver -----------------------------------------------------
+
+
+class _Union:
+    def __init__(self):
+        self.parent = {}
+
+    def find(self, x):
+        self.parent.setdefault(x, x)
+        while self.parent[x] != x:
+            self.parent[x] = self.parent[self.parent[x]]
+            x = self.parent[x]
+        return x
+
+    def union(self, a, b):
+        ra, rb = self.find(a), self.find(b)
+        if ra != rb:
+            self.parent[max(ra, rb)] = min(ra, rb)
+
+
+@dataclass(frozen=True)
+class Branch:
+    """A linear branch of a compiled circuit and where its value comes from.
+
+    ``role`` is ``resistor``, ``movement``, ``fuse``, ``contact`` or ``source``;
+    ``element`` the designator it belongs to.
+    """
+
+    element: str
+    role: str
+    a: str
+    b: str
+
+
+def _current_carrying(g: nx.MultiGraph, plus: str, minus: str):
+    """Nodes of the part of a state that can carry current, and where the rest hangs.
+
+    With a virtual source edge between the input terminals, only the biconnected
+    block that holds it can carry current: every other block hangs on the circuit
+    by a single node, and a passive network with one connection carries none, so
+    all its nodes sit at that node's potential (exact, not an approximation).
+
+    Returns
+    -------
+    main : set of str
+        Nodes of the current-carrying block.
+    alias : dict
+        Every other node connected to the input, mapped to the node of ``main`` it hangs on.
+    """
+    h = nx.Graph()
+    h.add_edges_from((a, b) for a, b in g.edges() if a != b)
+    h.add_edge(plus, minus)
+    main = {plus, minus}
+    for block in nx.biconnected_component_edges(h):
+        if (plus, minus) in block or (minus, plus) in block:
+            main = {n for edge in block for n in edge}
+            break
+    rest = nx.Graph(h)
+    rest.remove_edges_from([(a, b) for a, b in h.edges() if a in main and b in main])
+    alias = {}
+    for comp in nx.connected_components(rest):
+        anchors = comp & main
+        if len(anchors) == 1:
+            (at,) = anchors
+            alias.update({n: at for n in comp if n not in main})
+    return main, alias
+
+
+def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
+                  source_resistance: bool = False, net: NetworkSpec | None = None):
+    """Compile a switch state into a :class:`planner.solve.Circuit`.
+
+    Parameters
+    ----------
+    spec : Spec
+    st : SwitchState
+    stimulus : {'voltage', 'current'}, optional
+        What drives the input terminals; the position's own quantity by default.
+    source_resistance : bool
+        Add a source-resistance branch (role ``source``) in series with input[0]
+        for a voltage stimulus.
+    net : NetworkSpec, optional
+        Defaults to ``spec.network``.
+
+    Returns
+    -------
+    planner.solve.Circuit
+    """
+    from .solve import Circuit
+
+    net = net if net is not None else spec.network
+    kind = stimulus or st.position.measures
+    g = active_graph(net, st)
+    plus, minus = st.position.input
+    live, alias = _current_carrying(g, plus, minus)
+    uf = _Union()
+    for n in live:
+        uf.find(n)
+    for e in net.elements:
+        if isinstance(e, Contact) and e.name in st.closed and e.r_ohm == 0.0 and e.a in live:
+            uf.union(e.a, e.b)
+
+    branches: list[Branch] = []
+    diodes: list[tuple[str, str, str]] = []  # (designator, anode, cathode)
+    for e in net.elements:
+        a, b = e.nodes
+        if a not in live or b not in live:
+            continue
+        if isinstance(e, Contact):
+            if e.name not in st.closed or e.r_ohm == 0.0:
+                continue
+            branches.append(Branch(e.name, "contact", a, b))
+        elif isinstance(e, Resistor):
+            branches.append(Branch(e.name, "resistor", a, b))
+        elif isinstance(e, MovementElement):
+            branches.append(Branch(e.name, "movement", a, b))
+        elif isinstance(e, Fuse):
+            branches.append(Branch(e.name, "fuse", a, b))
+        elif isinstance(e, Diode):
+            diodes.append((e.name, e.anode, e.cathode))
+
+    ground = uf.find(minus)
+    top = uf.find(plus)
+    held = None
+    if kind == "voltage":
+        if source_resistance:
+            held = "__source__"
+            branches.append(Branch("__source__", "source", held, plus))
+        else:
+            if top == ground:
+                raise SolveError(
+                    f"{st.name}: the input terminals {plus} and {minus} are shorted in this state "
+                    "and the voltage source has no impedance; give the source an impedance")
+            held = top
+    names = [ground] + ([held] if held is not None else [])
+    seen = set(names)
+
+    def idx(n):
+        r = uf.find(n) if n in uf.parent else n
+        if r not in seen:
+            seen.add(r)
+            names.append(r)
+        return names.index(r)
+
+    lin_a = np.array([idx(br.a) for br in branches], dtype=np.intp)
+    lin_b = np.array([idx(br.b) for br in branches], dtype=np.intp)
+    # diodes on the same pair of nodes (an antiparallel clamp pair) share one port
+    port_of: dict[tuple[int, int], int] = {}
+    port_a, port_c, diode_port, diode_sign = [], [], [], []
+    for _, anode, cathode in diodes:
+        ia, ic = idx(anode), idx(cathode)
+        if (ia, ic) in port_of:
+            diode_port.append(port_of[(ia, ic)])
+            diode_sign.append(1)
+        elif (ic, ia) in port_of:
+            diode_port.append(port_of[(ic, ia)])
+            diode_sign.append(-1)
+        else:
+            port_of[(ia, ic)] = len(port_a)
+            port_a.append(ia)
+            port_c.append(ic)
+            diode_port.append(port_of[(ia, ic)])
+            diode_sign.append(1)
+    node_index = {n: names.index(uf.find(n)) for n in uf.parent if uf.find(n) in seen}
+    for n, at in alias.items():  # dangling parts carry no current: at their attachment's potential
+        if at in node_index:
+            node_index[n] = node_index[at]
+    inject = idx(plus)
+    return Circuit(
+        name=st.name,
+        node_names=tuple(names),
+        node_index=node_index,
+        branches=tuple(branches),
+        lin_a=lin_a,
+        lin_b=lin_b,
+        diodes=tuple(d[0] for d in diodes),
+        diode_port=np.array(diode_port, dtype=np.intp),
+        diode_sign=np.array(diode_sign, dtype=np.intp),
+        port_a=np.array(port_a, dtype=np.intp),
+        port_c=np.array(port_c, dtype=np.intp),
+        source_kind=kind,
+        held=1 if held is not None else None,
+        inject=inject,
+    )

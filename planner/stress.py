@@ -1,0 +1,956 @@
+"""Stress of every part under one stimulus, judged against its ratings.
+
+A stimulus is a voltage or current source on the input terminals of a switch
+state: DC (one operating point), a sine (the instantaneous operating points over
+one cycle, solved as one batch) or a short impulse (both polarities of its peak,
+judged on peak quantities only). The network is resistive with diodes and has no
+reactive parts, so the quasi-static treatment of a sine is exact: every instant
+of the cycle is a DC operating point.
+
+For each element the cycle gives the peak, mean and rms of its current, the peak
+of its voltage and its mean power (the average of v i over the cycle, i.e. the
+heating power). These are compared with the ratings of :mod:`planner.model`:
+
+========== ================================= =====================================
+part       quantity                          rating
+========== ================================= =====================================
+resistor   mean power                        ``Resistor.power_w``
+resistor   peak voltage                      ``Resistor.max_voltage_v`` (limiting
+                                             element voltage)
+diode      average current (mean of |i|)     ``DiodeModel.max_current_a``
+diode      peak current                      ``DiodeModel.surge_current_a``
+diode      mean power                        ``DiodeModel.max_power_w``
+movement   peak multiple of I_fs             ``Overload.short_time``
+movement   rms multiple (covers |mean|)      ``Overload.continuous`` (or
+                                             ``short_time`` while a fuse opens)
+movement   pointer (mean multiple)           ``Overload.peg`` (end stop)
+fuse       rms current                       ``FuseModel.rated_current_a`` (opens)
+fuse       prospective current               ``FuseModel.breaking_capacity_a``
+fuse       voltage across it once open       ``FuseModel.max_voltage_v``
+========== ================================= =====================================
+
+The verdict follows the design contract: ``ok``, ``pegs``, ``overstress`` or
+``hazard``; see :func:`verdict_of` and ``docs/safety.md``.
+
+The public entry point for one stimulus is :func:`apply_stimulus` (the ``planner
+apply`` command); :func:`assess` judges many stimuli on one switch state and is
+what :mod:`planner.faults` builds on.
+"""
+
+from __future__ import annotations
+
+import math
+import weakref
+from dataclasses import dataclass, field, replace
+
+import networkx as nx
+import numpy as np
+
+from . import network as nw
+from .engine import Engine
+from .errors import UsageError
+from .model import Contact, Diode, Fuse, Resistor
+
+#: Phase points per sine cycle. A multiple of 4, so the samples hit both crests
+#: exactly; the cycle mean of a half-wave-rectified branch is then within
+#: pi^2 / (3 N^2) (1.3e-5 of its value) of the integral.
+PHASE_POINTS = 512
+
+#: Hazardous-live limits of IEC 61010-1:2010, clause 6.3.1 (normal condition):
+#: 33 V rms, 46.7 V peak, 70 V DC [V].
+HAZARD_RMS_V = 33.0
+HAZARD_PEAK_V = 46.7
+HAZARD_DC_V = 70.0
+
+#: Longest pre-arcing time [s] for which the movement is judged on its short-time
+#: overload rather than its continuous one. From memory: the short-duration
+#: overload test of IEC 60051 applies the overload for about 0.5 s; verify it
+#: against the standard and the movement's data before relying on it.
+SHORT_TIME_S = 0.5
+
+#: Resistance [ohm] that stands in for a fuse once it has opened: the insulation
+#: of the open fuse, high enough that no part is stressed through it, low enough
+#: to keep the nodal matrix well conditioned.
+OPEN_FUSE_OHM = 1e9
+
+#: Ratio above which a rating counts as exceeded (guards round-off at exactly 1).
+_EXCEED = 1.0 + 1e-9
+
+WAVEFORMS = ("dc", "sine", "impulse")
+VERDICTS = ("ok", "pegs", "overstress", "hazard")
+
+
+# --- stimuli -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Stimulus:
+    """A source applied to the input terminals.
+
+    Attributes
+    ----------
+    name : str
+        Name shown in tables (``'wall outlet'``, ``'range up'``).
+    kind : {'voltage', 'current'}
+        What the source holds.
+    value : float
+        DC value, rms of a sine, or peak of an impulse [V] or [A]; the sign of a DC
+        value is its polarity.
+    waveform : {'dc', 'sine', 'impulse'}
+    r_source_ohm : float
+        Source impedance of a voltage source [ohm].
+    current_limit_a : float or None
+        Current limit of a voltage source [A] (a bench supply), None for none.
+    detail : str
+        Extra words for tables (``'10 V, the 10 V range's full scale'``).
+    """
+
+    name: str
+    kind: str
+    value: float
+    waveform: str = "dc"
+    r_source_ohm: float = 0.0
+    current_limit_a: float | None = None
+    detail: str = ""
+
+    def __post_init__(self):
+        if self.kind not in ("voltage", "current"):
+            raise UsageError(f"stimulus '{self.name}': kind must be 'voltage' or 'current', not {self.kind!r}")
+        if self.waveform not in WAVEFORMS:
+            raise UsageError(f"stimulus '{self.name}': waveform must be one of {', '.join(WAVEFORMS)}, "
+                             f"not {self.waveform!r}")
+        if not math.isfinite(self.value):
+            raise UsageError(f"stimulus '{self.name}': the applied value must be a finite number")
+        if not (self.r_source_ohm >= 0.0 and math.isfinite(self.r_source_ohm)):
+            raise UsageError(f"stimulus '{self.name}': the source impedance must be zero or positive")
+        if self.current_limit_a is not None and not self.current_limit_a > 0.0:
+            raise UsageError(f"stimulus '{self.name}': a current limit must be above zero")
+
+    @property
+    def unit(self) -> str:
+        return "V" if self.kind == "voltage" else "A"
+
+    @property
+    def peak(self) -> float:
+        """Largest instantaneous |value| of the source [V] or [A]."""
+        return abs(self.value) * (math.sqrt(2.0) if self.waveform == "sine" else 1.0)
+
+    @property
+    def peak_only(self) -> bool:
+        """True for an impulse: judged on peak quantities only."""
+        return self.waveform == "impulse"
+
+    def samples(self, n_phase: int | None = None) -> np.ndarray:
+        """Instantaneous source values over the stimulus [V] or [A].
+
+        A DC stimulus is one point; a sine is ``n_phase`` equally spaced phases of
+        one cycle, :math:`\\sqrt 2 X_{rms} \\sin(2 \\pi k / N)`; an impulse is its
+        peak in both polarities.
+        """
+        if self.waveform == "dc":
+            return np.array([float(self.value)])
+        if self.waveform == "impulse":
+            return np.array([abs(self.value), -abs(self.value)])
+        n = n_phase or PHASE_POINTS
+        k = np.arange(n)
+        return math.sqrt(2.0) * self.value * np.sin(2.0 * np.pi * k / n)
+
+    def describe(self) -> str:
+        """A short human description: ``'230 V rms sine, 0.5 ohm source'``."""
+        from .units import format_si
+
+        wave = {"dc": "DC", "sine": "rms sine", "impulse": "peak impulse"}[self.waveform]
+        text = f"{format_si(self.value, self.unit, 4)} {wave}"
+        if self.kind == "voltage":
+            text += f", {format_si(self.r_source_ohm, 'ohm', 3)} source"
+            if self.current_limit_a is not None:
+                text += f", limited to {format_si(self.current_limit_a, 'A', 3)}"
+        return text
+
+    def as_dict(self) -> dict:
+        d = {
+            "name": self.name,
+            "kind": self.kind,
+            "waveform": self.waveform,
+            "unit": self.unit,
+            "value": self.value,
+            "peak": self.peak,
+            "r_source_ohm": self.r_source_ohm if self.kind == "voltage" else None,
+            "current_limit_a": self.current_limit_a,
+        }
+        if self.detail:
+            d["detail"] = self.detail
+        return d
+
+
+def hazardous_live(waveform: str, samples_v) -> bool:
+    """Whether a voltage waveform exceeds the hazardous-live limits.
+
+    Parameters
+    ----------
+    waveform : {'dc', 'sine', 'impulse'}
+    samples_v : array_like
+        Instantaneous voltages over the stimulus [V].
+
+    Returns
+    -------
+    bool
+
+    Notes
+    -----
+    DC: :math:`\\max |v| > 70` V. AC (sine) and impulse: rms above 33 V or peak
+    above 46.7 V.
+
+    References
+    ----------
+    IEC 61010-1:2010, *Safety requirements for electrical equipment for
+    measurement, control and laboratory use*, clause 6.3.1 (levels of accessible
+    parts in normal condition).
+    """
+    v = np.abs(np.asarray(samples_v, dtype=float))
+    if v.size == 0:
+        return False
+    if waveform == "dc":
+        return bool(v.max() > HAZARD_DC_V)
+    if waveform == "impulse":
+        return bool(v.max() > HAZARD_PEAK_V)
+    return bool(v.max() > HAZARD_PEAK_V or math.sqrt(float(np.mean(v ** 2))) > HAZARD_RMS_V)
+
+
+# --- solved waveforms ----------------------------------------------------------------
+
+
+@dataclass
+class Waveform:
+    """The operating points of one stimulus on one switch state, per sample.
+
+    Attributes
+    ----------
+    stimulus : Stimulus
+    state : SwitchState
+    current_a, voltage_v : dict of str -> ndarray (n,)
+        Each non-contact element's current [A] (first node to second) and
+        voltage [V].
+    movement_current_a : ndarray (n,)
+    source_current_a : ndarray (n,)
+        Current the source delivers into the plus terminal [A].
+    terminal_v : ndarray (n,)
+        Voltage across the input terminals [V].
+    source_v : ndarray (n,)
+        Open-circuit value of the source at each sample [V] (voltage sources) or
+        the terminal voltage (current sources).
+    limited : ndarray of bool (n,)
+        Samples where the source's current limit took over.
+    open_input : bool
+        True when no path joins the input terminals in this state.
+    """
+
+    stimulus: Stimulus
+    state: nw.SwitchState
+    current_a: dict
+    voltage_v: dict
+    movement_current_a: np.ndarray
+    source_current_a: np.ndarray
+    terminal_v: np.ndarray
+    source_v: np.ndarray
+    limited: np.ndarray
+    open_input: bool = False
+
+
+def _input_connected(engine: Engine, st: nw.SwitchState) -> bool:
+    g = nw.active_graph(engine.net, st)
+    plus, minus = st.position.input
+    return nx.has_path(g, plus, minus)
+
+
+def _stress_elements(engine: Engine) -> list:
+    return [e for e in engine.net.elements if not isinstance(e, Contact)]
+
+
+def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
+                    n_phase: int | None = None) -> list[Waveform]:
+    """Solve several stimuli on one switch state, batched by source kind.
+
+    Parameters
+    ----------
+    engine : Engine
+    state : str or SwitchState
+        Position or transition.
+    stimuli : sequence of Stimulus
+    temperature_k : float, optional
+        Ambient temperature [K]; the reference temperature by default.
+    n_phase : int, optional
+        Phase points per sine cycle; ``PHASE_POINTS`` by default.
+
+    Returns
+    -------
+    list of Waveform, one per stimulus.
+
+    Notes
+    -----
+    Stimuli of one kind and with (or without) a source impedance are solved in
+    one call of :meth:`Engine.operate`, one parameter row per stimulus (so each
+    row carries its own source impedance) and one column per sample.
+
+    A current limit is applied the exact way for a resistive network with diodes,
+    whose input current rises monotonically with the applied voltage: the samples
+    whose source current at the nominal voltage exceeds the limit are solved
+    again as a current source of the limit value, with the sign of that current.
+    That is what a bench supply does when it crosses over from constant voltage
+    to constant current.
+    """
+    st = engine.state(state)
+    stimuli = list(stimuli)
+    n_phase = n_phase or PHASE_POINTS
+    out: list[Waveform | None] = [None] * len(stimuli)
+    elements = _stress_elements(engine)
+    if not _input_connected(engine, st):
+        for j, s in enumerate(stimuli):
+            x = s.samples(n_phase)
+            z = np.zeros_like(x)
+            out[j] = Waveform(s, st, {e.name: z for e in elements}, {e.name: z for e in elements}, z, z,
+                              x if s.kind == "voltage" else z, x if s.kind == "voltage" else z,
+                              np.zeros(x.shape, dtype=bool), open_input=True)
+        return out
+
+    groups: dict[tuple, list[int]] = {}
+    for j, s in enumerate(stimuli):
+        key = (s.kind, s.kind == "voltage" and s.r_source_ohm > 0.0)
+        groups.setdefault(key, []).append(j)
+    plus, minus = st.position.input
+    for (kind, has_r), idx in groups.items():
+        rows = [stimuli[j].samples(n_phase) for j in idx]
+        width = max(len(r) for r in rows)
+        stim = np.array([np.resize(r, width) for r in rows])
+        r_src = np.array([stimuli[j].r_source_ohm for j in idx]) if has_r else 0.0
+        op = engine.operate(st, stim, kind=kind, temperature_k=temperature_k, r_source_ohm=r_src)
+        cur = {e.name: op.element(e.name).current_a for e in elements}
+        vol = {e.name: op.element(e.name).voltage_v for e in elements}
+        i_m = op.movement_current_a
+        i_src = np.array(op.source_current_a)
+        v_t = op.node_voltage(plus) - op.node_voltage(minus)
+        limited = np.zeros(stim.shape, dtype=bool)
+        if kind == "voltage":
+            patch = []
+            for row, j in enumerate(idx):
+                lim = stimuli[j].current_limit_a
+                if lim is None:
+                    continue
+                n = len(rows[row])
+                for k in np.nonzero(np.abs(i_src[row, :n]) > lim)[0]:
+                    patch.append((row, k, math.copysign(lim, i_src[row, k])))
+            if patch:
+                op2 = engine.operate(st, np.array([p[2] for p in patch]), kind="current",
+                                     temperature_k=temperature_k)
+                rr = np.array([p[0] for p in patch])
+                kk = np.array([p[1] for p in patch])
+                for e in elements:
+                    es = op2.element(e.name)
+                    cur[e.name] = np.array(cur[e.name])
+                    vol[e.name] = np.array(vol[e.name])
+                    cur[e.name][rr, kk] = es.current_a[0]
+                    vol[e.name][rr, kk] = es.voltage_v[0]
+                i_m = np.array(i_m)
+                i_m[rr, kk] = op2.movement_current_a[0]
+                i_src[rr, kk] = op2.source_current_a[0]
+                v_t = np.array(v_t)
+                v_t[rr, kk] = (op2.node_voltage(plus) - op2.node_voltage(minus))[0]
+                limited[rr, kk] = True
+        for row, j in enumerate(idx):
+            n = len(rows[row])
+            src_v = stim[row, :n] if kind == "voltage" else v_t[row, :n]
+            out[j] = Waveform(
+                stimuli[j], st,
+                {k: np.array(v[row, :n]) for k, v in cur.items()},
+                {k: np.array(v[row, :n]) for k, v in vol.items()},
+                np.array(i_m[row, :n]), np.array(i_src[row, :n]), np.array(v_t[row, :n]),
+                np.array(src_v), limited[row, :n].copy())
+    return out
+
+
+# --- statistics and checks -------------------------------------------------------------
+
+
+def cycle_stats(x) -> dict:
+    """Peak, mean and rms of samples equally spaced over one cycle.
+
+    Notes
+    -----
+    :math:`X_{pk} = \\max |x_k|`, :math:`\\bar X = \\frac1N \\sum x_k`,
+    :math:`X_{rms} = \\sqrt{\\frac1N \\sum x_k^2}` (the rectangle rule, exact for a
+    trigonometric polynomial of degree below N; a DC stimulus is one sample).
+    """
+    x = np.asarray(x, dtype=float)
+    return {"peak": float(np.max(np.abs(x))), "mean": float(np.mean(x)), "rms": float(np.sqrt(np.mean(x * x))),
+            "mean_abs": float(np.mean(np.abs(x)))}
+
+
+def _entry(part, kind, quantity, value, rating, unit, limit, **extra):
+    ratio = value / rating if rating > 0 else (0.0 if value == 0 else 1e300)
+    d = {"part": part, "kind": kind, "quantity": quantity, "value": float(value), "rating": float(rating),
+         "ratio": float(ratio), "unit": unit, "limit": limit, "exceeded": bool(ratio > _EXCEED)}
+    d.update(extra)
+    return d
+
+
+def pre_arcing_time_s(fuse, i_rms_a: float) -> float | None:
+    """Pre-arcing (melting) time of a fuse at an rms current [s].
+
+    Parameters
+    ----------
+    fuse : FuseModel
+    i_rms_a : float
+        RMS current through the fuse [A].
+
+    Returns
+    -------
+    float or None
+        ``inf`` below the lowest current of its time-current curve; None when the
+        model has neither curve nor I^2 t.
+
+    Notes
+    -----
+    With time-current points, log-log interpolation between the points,
+    :math:`\\log t = \\log t_1 + (\\log t_2 - \\log t_1)
+    \\frac{\\log I - \\log I_1}{\\log I_2 - \\log I_1}`, and beyond the highest point the
+    adiabatic law :math:`t = t_n (I_n / I)^2` (constant I^2 t). With only the
+    pre-arcing integral, :math:`t = I^2t / I_{rms}^2`.
+
+    References
+    ----------
+    IEC 60127-1, *Miniature fuses*, definitions of pre-arcing time and I^2 t;
+    the log-log plot of time-current characteristics is common practice.
+    """
+    i = abs(float(i_rms_a))
+    if i <= 0.0:
+        return math.inf
+    if fuse.curve:
+        pts = sorted(fuse.curve)
+        cur = np.array([p[0] for p in pts], dtype=float)
+        t = np.array([p[1] for p in pts], dtype=float)
+        if i < cur[0]:
+            return math.inf
+        if i >= cur[-1]:
+            return float(t[-1] * (cur[-1] / i) ** 2)
+        return float(np.exp(np.interp(np.log(i), np.log(cur), np.log(t))))
+    if fuse.i2t_a2s is not None:
+        return float(fuse.i2t_a2s / (i * i))
+    return None
+
+
+@dataclass
+class Judgement:
+    """Stresses and verdict of one solved waveform."""
+
+    stresses: list
+    fuses: list
+    notes: list
+    opened: frozenset
+    short_exposure: bool
+    hazardous: bool
+    movement: dict
+    parts: list = field(default_factory=list)
+
+
+def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
+          short_exposure: bool | None = None) -> Judgement:
+    """Compare the stresses of one solved waveform with the parts' ratings.
+
+    Parameters
+    ----------
+    engine : Engine
+    wf : Waveform
+    phase : str
+        Words appended to each quantity (``'after F1 opens'``).
+    opened : frozenset of str
+        Fuses already open in this network (their stand-in resistor is judged on
+        the fuse's rated voltage only).
+    short_exposure : bool, optional
+        Force the movement's exposure to short-time (True) or continuous (False);
+        by default short-time exactly when a fuse opens within ``SHORT_TIME_S``.
+
+    Returns
+    -------
+    Judgement
+
+    Notes
+    -----
+    Mean power is :math:`\\bar P = \\frac1N \\sum v_k i_k`, the heating power of a
+    quasi-static cycle. The prospective current of a fuse is the largest
+    |source current| of the cycle, which is the source's peak value over its
+    impedance plus the cold network's resistance.
+    """
+    spec = engine.spec
+    s = wf.stimulus
+    mv = spec.movement
+    ov = mv.overload
+    sfx = f" {phase}" if phase else ""
+    stresses, fuses, notes, parts = [], [], [], []
+    peak_only = s.peak_only
+
+    hazardous = hazardous_live(s.waveform, wf.source_v if s.kind == "voltage" else wf.terminal_v)
+    if s.kind == "voltage" and s.current_limit_a is not None:
+        hazardous = hazardous or hazardous_live(s.waveform, s.samples())
+    if wf.open_input:
+        notes.append(f"{wf.state.name}: no path joins the input terminals, so no current flows")
+    if wf.limited.any():
+        notes.append(f"the source's current limit of {s.current_limit_a:g} A takes over "
+                     f"on {int(wf.limited.sum())} of {wf.limited.size} samples")
+
+    # fuses first: whether one opens decides the movement's exposure
+    newly = []
+    prospective = float(np.max(np.abs(wf.source_current_a))) if wf.source_current_a.size else 0.0
+    for e in _stress_elements(engine):
+        i_st = cycle_stats(wf.current_a[e.name])
+        v_st = cycle_stats(wf.voltage_v[e.name])
+        p_mean = float(np.mean(wf.current_a[e.name] * wf.voltage_v[e.name]))
+        parts.append({"name": e.name, "kind": e.kind, "current_peak_a": i_st["peak"], "current_mean_a": i_st["mean"],
+                      "current_rms_a": i_st["rms"], "voltage_peak_v": v_st["peak"], "voltage_rms_v": v_st["rms"],
+                      "voltage_mean_v": v_st["mean"], "power_w": p_mean})
+        if e.name in opened:
+            fm = _fuse_model_of(engine, e.name)
+            if fm is not None and math.isfinite(fm.max_voltage_v):
+                v_rec = v_st["rms"] if s.waveform == "sine" else v_st["peak"]
+                stresses.append(_entry(e.name, "fuse", f"voltage across the open fuse{sfx}", v_rec,
+                                       fm.max_voltage_v, "V", "safety"))
+            continue
+        if not isinstance(e, Fuse) or peak_only:
+            continue
+        fm = spec.parts.fuses[e.model]
+        i_rms = i_st["rms"]
+        opens = i_rms > fm.rated_current_a * _EXCEED
+        t_pa = pre_arcing_time_s(fm, i_rms) if opens else None
+        stresses.append(_entry(e.name, "fuse", f"rms current{sfx}", i_rms, fm.rated_current_a, "A", "fuse trigger"))
+        info = {"name": e.name, "model": fm.name, "current_rms_a": i_rms, "rated_current_a": fm.rated_current_a,
+                "opens": bool(opens), "pre_arcing_time_s": t_pa if (t_pa is None or math.isfinite(t_pa)) else None,
+                "time_known": t_pa is not None, "prospective_current_a": prospective,
+                "breaking_capacity_a": fm.breaking_capacity_a}
+        fuses.append(info)
+        if opens:
+            newly.append(e.name)
+            stresses.append(_entry(e.name, "fuse", f"prospective current{sfx}", prospective,
+                                   fm.breaking_capacity_a, "A", "safety"))
+            if t_pa is None:
+                notes.append(f"{e.name} opens at {i_rms:.4g} A rms; its model gives no I2t or curve, "
+                             "so the pre-arcing time is unknown: give i2t or curve")
+            elif math.isinf(t_pa):
+                notes.append(f"{e.name} carries {i_rms:.4g} A rms, above its {fm.rated_current_a:g} A rating "
+                             "but below its time-current curve: it may not open for a long time")
+            else:
+                notes.append(f"{e.name} opens: {i_rms:.4g} A rms, pre-arcing time {t_pa:.3g} s")
+    fast = [f for f in fuses if f["opens"] and f["pre_arcing_time_s"] is not None
+            and f["pre_arcing_time_s"] <= SHORT_TIME_S]
+    unknown = [f for f in fuses if f["opens"] and not f["time_known"]]
+    if short_exposure is None:
+        short_exposure = bool(fast or unknown)
+    if short_exposure and (fast or unknown):
+        names = ", ".join(f["name"] for f in fast + unknown)
+        notes.append(f"the movement is judged on its short-time overload ({ov.short_time:g} x) because "
+                     f"{names} opens within {SHORT_TIME_S:g} s (or an unknown time); what follows is judged "
+                     "after it opens")
+    elif any(f["opens"] for f in fuses):
+        notes.append(f"a fuse opens only after more than {SHORT_TIME_S:g} s, so the movement is judged "
+                     "on its continuous overload")
+
+    # resistors and diodes
+    for e in _stress_elements(engine):
+        if e.name in opened:
+            continue
+        i = wf.current_a[e.name]
+        v = wf.voltage_v[e.name]
+        i_st, v_st = cycle_stats(i), cycle_stats(v)
+        p_mean = float(np.mean(i * v))
+        if isinstance(e, Resistor):
+            if not peak_only and math.isfinite(e.power_w):
+                stresses.append(_entry(e.name, "resistor", f"power{sfx}", p_mean, e.power_w, "W", "rating"))
+            if math.isfinite(e.max_voltage_v):
+                stresses.append(_entry(e.name, "resistor", f"peak voltage{sfx}", v_st["peak"], e.max_voltage_v,
+                                       "V", "rating"))
+        elif isinstance(e, Diode):
+            d = spec.parts.diodes[e.model]
+            if not peak_only and math.isfinite(d.max_current_a):
+                stresses.append(_entry(e.name, "diode", f"average current{sfx}", i_st["mean_abs"], d.max_current_a,
+                                       "A", "rating"))
+            if math.isfinite(d.surge_current_a):
+                stresses.append(_entry(e.name, "diode", f"peak current{sfx}", i_st["peak"], d.surge_current_a,
+                                       "A", "rating"))
+            if not peak_only and math.isfinite(d.max_power_w):
+                stresses.append(_entry(e.name, "diode", f"power{sfx}", abs(p_mean), d.max_power_w, "W", "rating"))
+
+    # the movement
+    m = engine.movement
+    i_fs = mv.i_fs_a
+    ms = cycle_stats(wf.movement_current_a / i_fs)
+    stresses.append(_entry(m.name, "movement", f"peak multiple{sfx}", ms["peak"], ov.short_time, "x I_fs", "rating"))
+    if not peak_only:
+        # heating follows the rms; |mean| <= rms, so the rms check covers the mean too
+        if short_exposure:
+            rating, words = ov.short_time, " until the fuse opens"
+        else:
+            rating, words = ov.continuous, ""
+        q = "rms multiple" if s.waveform == "sine" else "multiple"
+        stresses.append(_entry(m.name, "movement", f"{q}{words}{sfx}", ms["rms"], rating, "x I_fs", "rating"))
+        # the pointer: forward end stop at `peg`, zero-end stop assumed as far below zero
+        # as the forward stop is beyond full scale (common practice: a few percent)
+        if ms["mean"] >= 0.0:
+            stresses.append(_entry(m.name, "movement", f"pointer (mean multiple){sfx}", ms["mean"], ov.peg,
+                                   "x I_fs", "end stop"))
+        else:
+            back = max(ov.peg - 1.0, 1e-3)
+            stresses.append(_entry(m.name, "movement", f"pointer below zero (mean multiple){sfx}", -ms["mean"], back,
+                                   "x I_fs", "end stop"))
+    movement = {"current_a": float(ms["mean"] * i_fs) if s.waveform == "sine" else float(wf.movement_current_a[0]),
+                "multiple": ms["peak"], "rms_multiple": ms["rms"], "mean_multiple": ms["mean"],
+                "peak_current_a": ms["peak"] * i_fs, "rms_current_a": ms["rms"] * i_fs}
+    return Judgement(stresses, fuses, notes, frozenset(newly), bool(short_exposure), hazardous, movement, parts)
+
+
+def _fuse_model_of(engine: Engine, name: str):
+    """The fuse model of an element that was a fuse in the original network."""
+    orig = getattr(engine, "_planner_original_net", engine.net)
+    try:
+        e = orig.element(name)
+    except KeyError:
+        return None
+    return engine.spec.parts.fuses.get(e.model) if isinstance(e, Fuse) else None
+
+
+def verdict_of(stresses, hazardous: bool) -> tuple[str, dict | None]:
+    """Verdict and deciding stress of a list of stresses (design contract).
+
+    Returns
+    -------
+    verdict : {'ok', 'pegs', 'overstress', 'hazard'}
+        ``hazard`` when a safety limit is exceeded (a fuse asked to break more than
+        its breaking capacity, or to stand more than its rated voltage) or when any
+        rating is exceeded while the stimulus is at a hazardous voltage;
+        ``overstress`` when a rating is exceeded; ``pegs`` when only the pointer's
+        end stop is passed; ``ok`` otherwise.
+    deciding : dict or None
+        The stress that decided (for ``ok``, the one closest to its rating).
+    """
+    def worst(kinds):
+        c = [x for x in stresses if x["limit"] in kinds]
+        return max(c, key=lambda x: x["ratio"]) if c else None
+
+    safety = [x for x in stresses if x["limit"] == "safety" and x["exceeded"]]
+    rating = [x for x in stresses if x["limit"] == "rating" and x["exceeded"]]
+    peg = [x for x in stresses if x["limit"] == "end stop" and x["exceeded"]]
+    if safety:
+        return "hazard", max(safety, key=lambda x: x["ratio"])
+    if rating:
+        top = max(rating, key=lambda x: x["ratio"])
+        return ("hazard" if hazardous else "overstress"), top
+    if peg:
+        return "pegs", max(peg, key=lambda x: x["ratio"])
+    return "ok", worst(("rating",))
+
+
+# --- opened fuses ------------------------------------------------------------------------
+
+_OPEN_ENGINES: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def _open_fuse_engine(engine: Engine, opened: frozenset) -> Engine:
+    """An engine on the same network with the named fuses open.
+
+    Each open fuse is replaced by a resistor of ``OPEN_FUSE_OHM`` between its
+    nodes, so every position still validates and the voltage across the open
+    fuse (the recovery voltage) is solved.
+    """
+    cache = _OPEN_ENGINES.setdefault(engine, {})
+    if opened not in cache:
+        orig = getattr(engine, "_planner_original_net", engine.net)
+        elems = []
+        for e in engine.net.elements:
+            if e.name in opened and isinstance(e, Fuse):
+                elems.append(Resistor(e.name, e.a, e.b, OPEN_FUSE_OHM, tolerance=0.0, tempco_per_k=0.0,
+                                      power_w=math.inf, max_voltage_v=math.inf, line=e.line))
+            else:
+                elems.append(e)
+        eng = Engine(engine.spec, net=replace(engine.net, elements=tuple(elems)))
+        eng._planner_original_net = orig
+        cache[opened] = eng
+    return cache[opened]
+
+
+# --- assessment ----------------------------------------------------------------------------
+
+
+def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int | None = None,
+           with_parts: bool = False) -> list[dict]:
+    """Judge several stimuli on one switch state.
+
+    Parameters
+    ----------
+    engine : Engine
+    state : str or SwitchState
+    stimuli : sequence of Stimulus
+    temperature_k : float, optional
+    n_phase : int, optional
+        Phase points per sine cycle; ``PHASE_POINTS`` by default.
+    with_parts : bool
+        Include every part's current, voltage and power in each result.
+
+    Returns
+    -------
+    list of dict
+        One case per stimulus with ``verdict``, ``deciding``, ``stresses``,
+        ``movement_multiple`` (peak), ``movement_rms_multiple``,
+        ``movement_mean_multiple``, ``movement_current_a``, ``fuses``, ``notes``,
+        ``hazardous_voltage`` and, with ``with_parts``, ``parts``.
+
+    Notes
+    -----
+    When a fuse opens, the stresses before it opens are judged with the
+    movement's short-time overload (if it opens within ``SHORT_TIME_S``), then
+    the network with the fuse open is solved again under the same stimulus and
+    judged on the continuous ratings, until no further fuse opens.
+    """
+    st = engine.state(state)
+    stimuli = list(stimuli)
+    wfs = solve_waveforms(engine, st, stimuli, temperature_k=temperature_k, n_phase=n_phase)
+    results = []
+    for s, wf in zip(stimuli, wfs):
+        j = judge(engine, wf)
+        stresses = list(j.stresses)
+        fuses, notes = list(j.fuses), list(j.notes)
+        hazardous = j.hazardous
+        opened = j.opened
+        after = None
+        eng = engine
+        while opened and not s.peak_only:
+            eng = _open_fuse_engine(engine, opened)
+            wf2 = solve_waveforms(eng, st, [s], temperature_k=temperature_k, n_phase=n_phase)[0]
+            label = "after " + ", ".join(sorted(opened)) + (" opens" if len(opened) == 1 else " open")
+            j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False)
+            stresses += j2.stresses
+            fuses += [dict(f, after=sorted(opened)) for f in j2.fuses]
+            notes += j2.notes
+            hazardous = hazardous or j2.hazardous
+            after = {"opened": sorted(opened), "movement_multiple": j2.movement["multiple"],
+                     "movement_rms_multiple": j2.movement["rms_multiple"],
+                     "movement_mean_multiple": j2.movement["mean_multiple"]}
+            new = j2.opened - opened
+            if not new:
+                break
+            opened = opened | new
+        verdict, deciding = verdict_of(stresses, hazardous)
+        mv = j.movement
+        case = {
+            "position": st.position.name,
+            "state": st.name,
+            "stimulus": s.name,
+            "stimulus_detail": s.as_dict(),
+            "verdict": verdict,
+            "deciding": deciding,
+            "movement_current_a": mv["current_a"],
+            "movement_multiple": max(mv["multiple"], after["movement_multiple"] if after else 0.0),
+            "movement_rms_multiple": mv["rms_multiple"],
+            "movement_mean_multiple": mv["mean_multiple"],
+            "reading": mv["mean_multiple"] * st.position.full_scale,
+            "hazardous_voltage": hazardous,
+            "stresses": stresses,
+            "fuses": fuses,
+            "notes": notes,
+            "after_fuse_opens": after,
+        }
+        if with_parts:
+            case["parts"] = j.parts
+        results.append(case)
+    return results
+
+
+# --- one stimulus (planner apply) ---------------------------------------------------------
+
+
+def apply_stimulus(engine_or_spec, position, *, volts=None, amps=None, r_source_ohm=0.0, temperature_k=None,
+                   waveform="dc", current_limit_a=None, n_phase: int | None = None) -> dict:
+    """Apply one stimulus to one position (or transition) and judge every part.
+
+    Parameters
+    ----------
+    engine_or_spec : Engine or Spec
+    position : str
+        Position (or transition state) name.
+    volts, amps : float
+        Exactly one: the applied voltage [V] or current [A]; DC value (signed) or
+        rms of a sine. A voltage on a current position is allowed, and so is a
+        current on a voltage position.
+    r_source_ohm : float
+        Source impedance of a voltage source [ohm].
+    temperature_k : float, optional
+        Ambient temperature [K].
+    waveform : {'dc', 'sine', 'impulse'}
+    current_limit_a : float, optional
+        Current limit of a voltage source [A].
+    n_phase : int, optional
+        Phase points per sine cycle; ``PHASE_POINTS`` by default.
+
+    Returns
+    -------
+    dict
+        The ``apply`` JSON of the design contract: ``movement_current_a`` (the DC
+        value, or the cycle mean for a sine: what the pointer shows),
+        ``movement_multiple`` (largest instantaneous |I_m| / I_fs),
+        ``movement_rms_multiple``, ``movement_mean_multiple``, ``parts[]`` (``name``,
+        ``kind``, ``current_a``, ``voltage_v``, ``power_w``; the DC value or, for a
+        sine, the rms of current and voltage and the mean power; with peak, mean
+        and rms beside them), ``verdict``, ``deciding``, ``stresses[]``,
+        ``position``, ``stimulus``, ``fuses[]``, ``notes[]``, ``cautions[]``.
+
+    Raises
+    ------
+    UsageError
+        Neither or both of ``volts`` and ``amps``; a bad waveform.
+    ProjectError
+        An unknown position.
+    """
+    if (volts is None) == (amps is None):
+        raise UsageError("give exactly one of --volts and --amps")
+    engine = engine_or_spec if isinstance(engine_or_spec, Engine) else Engine(engine_or_spec)
+    kind = "voltage" if volts is not None else "current"
+    value = float(volts if volts is not None else amps)
+    stim = Stimulus("applied", kind, value, waveform, float(r_source_ohm), current_limit_a)
+    case = assess(engine, position, [stim], temperature_k=temperature_k, with_parts=True, n_phase=n_phase)[0]
+    parts = []
+    for p in case["parts"]:
+        if waveform == "dc":
+            cur, vol = p["current_mean_a"], p["voltage_mean_v"]
+        else:
+            cur, vol = p["current_rms_a"], p["voltage_rms_v"]
+        parts.append({"name": p["name"], "kind": p["kind"], "current_a": cur, "voltage_v": vol,
+                      "power_w": p["power_w"], "current_peak_a": p["current_peak_a"],
+                      "current_mean_a": p["current_mean_a"], "current_rms_a": p["current_rms_a"],
+                      "voltage_peak_v": p["voltage_peak_v"], "voltage_mean_v": p["voltage_mean_v"],
+                      "voltage_rms_v": p["voltage_rms_v"]})
+    case["parts"] = parts
+    case["stimulus"] = stim.as_dict()
+    case["stimulus_name"] = case["stimulus"]["name"]
+    case["temperature_k"] = engine.spec.ambient.t_ref_k if temperature_k is None else float(temperature_k)
+    case["cautions"] = stimulus_cautions([stim]) if case["hazardous_voltage"] or _stim_hazardous(stim) else []
+    return case
+
+
+def _stim_hazardous(s: Stimulus) -> bool:
+    return s.kind == "voltage" and hazardous_live(s.waveform, s.samples())
+
+
+STANDARD_CAUTIONS = (
+    "Verify by test before use: these results are a planning aid, not a certification.",
+    "Follow IEC 61010-1 (IEC 61010-031 for probe assemblies), local codes and licensed practice; "
+    "hazardous work belongs to people trained and authorised for it.",
+)
+
+
+def stimulus_cautions(stimuli) -> list[str]:
+    """Cautions for stimuli at hazardous voltages (empty when none is).
+
+    References
+    ----------
+    IEC 61010-1:2010, clause 6.3.1, hazardous-live limits.
+    """
+    out = []
+    for s in stimuli:
+        if _stim_hazardous(s):
+            out.append(f"Hazardous voltage: stimulus '{s.name}' ({s.describe()}) exceeds the hazardous-live limits "
+                       f"of IEC 61010-1 ({HAZARD_RMS_V:g} V rms, {HAZARD_PEAK_V:g} V peak, {HAZARD_DC_V:g} V DC).")
+    if out:
+        out += list(STANDARD_CAUTIONS)
+    return out
+
+
+# --- text -------------------------------------------------------------------------------
+
+
+def describe_stress(x: dict | None) -> str:
+    """One line: ``'R1 power 7.81 W of 250.0 mW rating (31.2x)'``."""
+    from .units import format_si
+
+    if x is None:
+        return "no rated part carries current"
+    unit = x["unit"]
+    if unit == "x I_fs":
+        val, rat = f"{x['value']:.3g}x I_fs", f"{x['rating']:.3g}x"
+    else:
+        val, rat = format_si(x["value"], unit, 4), format_si(x["rating"], unit, 4)
+    word = {"rating": "rating", "end stop": "end stop", "safety": "limit", "fuse trigger": "rated current"}[x["limit"]]
+    return f"{x['part']} {x['quantity']} {val} of {rat} {word} ({_ratio_text(x['ratio'])})"
+
+
+def _ratio_text(r: float) -> str:
+    if not math.isfinite(r):
+        return "inf x"
+    if r >= 100:
+        return f"{r:.0f}x"
+    return f"{r:.3g}x"
+
+
+def format_apply(result: dict) -> str:
+    """A readable report of :func:`apply_stimulus` for the terminal (about 100 columns)."""
+    from .units import format_si
+
+    s = result["stimulus"]
+    wave = {"dc": "DC", "sine": "rms sine", "impulse": "peak impulse"}[s["waveform"]]
+    head = f"{result['position']}: {format_si(s['value'], s['unit'], 4)} {wave}"
+    if s["kind"] == "voltage":
+        head += f" through {format_si(s['r_source_ohm'] or 0.0, 'ohm', 3)}"
+        if s.get("current_limit_a"):
+            head += f", limited to {format_si(s['current_limit_a'], 'A', 3)}"
+    lines = [head]
+    lines.append(f"Movement: {format_si(result['movement_current_a'], 'A', 4)} "
+                 f"(pointer {result['movement_mean_multiple']:.3g} x full scale, peak {result['movement_multiple']:.3g} x, "
+                 f"rms {result['movement_rms_multiple']:.3g} x)")
+    lines += wrap("Verdict: ", f"{result['verdict'].upper()} - {describe_stress(result['deciding'])}")
+    lines.append("")
+    sine = s["waveform"] == "sine"
+    hdr = ("part", "kind", "current rms" if sine else "current", "peak current", "voltage rms" if sine else "voltage",
+           "power", "worst check")
+    rows = []
+    worst = {}
+    for x in result["stresses"]:
+        if x["limit"] in ("rating", "safety") and (x["part"] not in worst or x["ratio"] > worst[x["part"]]["ratio"]):
+            worst[x["part"]] = x
+    for p in result["parts"]:
+        w = worst.get(p["name"])
+        rows.append((p["name"], p["kind"], format_si(p["current_a"], "A", 4), format_si(p["current_peak_a"], "A", 4),
+                     format_si(p["voltage_v"], "V", 4), format_si(p["power_w"], "W", 4),
+                     f"{_ratio_text(w['ratio'])}{' !' if w['exceeded'] else ''} {w['quantity']}"[:30] if w else ""))
+    widths = [max(len(str(r[k])) for r in rows + [hdr]) for k in range(len(hdr))]
+    lines.append("  ".join(h.ljust(widths[k]) for k, h in enumerate(hdr)).rstrip())
+    for r in rows:
+        lines.append("  ".join(str(c).ljust(widths[k]) for k, c in enumerate(r)).rstrip())
+    for f in result["fuses"]:
+        t = f["pre_arcing_time_s"]
+        when = " (after " + ", ".join(f["after"]) + " opened)" if f.get("after") else ""
+        state = "opens" if f["opens"] else "holds"
+        extra = f", pre-arcing time {t:.3g} s" if (f["opens"] and t is not None) else ""
+        lines += wrap("", f"Fuse {f['name']}{when}: {format_si(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
+                          f"prospective {format_si(f['prospective_current_a'], 'A', 4)} vs breaking capacity "
+                          f"{format_si(f['breaking_capacity_a'], 'A', 4)}")
+    bad = [x for x in result["stresses"] if x["exceeded"] and x["limit"] != "fuse trigger"]
+    if bad:
+        lines.append("")
+        lines.append("Beyond a limit:")
+        for x in sorted(bad, key=lambda x: -x["ratio"]):
+            lines += wrap("  ", describe_stress(x))
+    for n in result.get("notes", []):
+        lines += wrap("Note: ", n)
+    for c in result.get("cautions", []):
+        lines += wrap("CAUTION: ", c)
+    return "\n".join(lines)
+
+
+def wrap(prefix: str, text: str, width: int = 100) -> list[str]:
+    """Lines of ``prefix + text`` wrapped to ``width`` columns, continuation indented."""
+    import textwrap
+
+    return textwrap.wrap(text, width=width, initial_indent=prefix, subsequent_indent=" " * min(len(prefix), 4),
+                         break_long_words=False, break_on_hyphens=False) or [prefix.rstrip()]
+
+
+__all__ = [
+    "PHASE_POINTS", "HAZARD_RMS_V", "HAZARD_PEAK_V", "HAZARD_DC_V", "SHORT_TIME_S", "Stimulus", "Waveform",
+    "hazardous_live", "solve_waveforms", "cycle_stats", "pre_arcing_time_s", "judge", "verdict_of", "assess",
+    "apply_stimulus", "format_apply", "stimulus_cautions", "describe_stress", "STANDARD_CAUTIONS", "wrap",
+]

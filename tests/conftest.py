@@ -1,0 +1,88 @@
+"""Shared fixtures: the example projects, their engines, and a small-network builder.
+
+``build_spec`` makes a :class:`planner.model.Spec` around an explicit network from
+plain tuples, for the solver, network and engine checks that need a circuit drawn
+for the purpose (a multiplier, a shunt, an Ayrton ring, a diode behind a resistor).
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+from pathlib import Path
+
+import pytest
+
+from planner import model
+from planner.engine import Engine
+from planner.project import load
+
+ROOT = Path(__file__).resolve().parent.parent
+PROJECTS = ROOT / "projects"
+VOLTMETER = PROJECTS / "pocket_voltmeter.yaml"
+AMMETER = PROJECTS / "bench_ammeter.yaml"
+
+
+@pytest.fixture(scope="session")
+def voltmeter_spec() -> model.Spec:
+    """The pocket voltmeter example (five chain ranges, silicon clamp pair across the movement)."""
+    return load(VOLTMETER)
+
+
+@pytest.fixture(scope="session")
+def ammeter_spec() -> model.Spec:
+    """The bench ammeter example (four-tap Ayrton ring, fuse, Schottky clamp pair)."""
+    return load(AMMETER)
+
+
+@pytest.fixture(scope="session")
+def voltmeter(voltmeter_spec) -> Engine:
+    return Engine(voltmeter_spec)
+
+
+@pytest.fixture(scope="session")
+def ammeter(ammeter_spec) -> Engine:
+    return Engine(ammeter_spec)
+
+
+def make_spec(elements, positions, *, i_fs_a=1e-3, r_coil_ohm=500.0, coil_tempco=0.0,
+              diodes=(), fuses=(), t_ref_k=model.DEFAULT_T_REF_K, path=None, contact_style=None):
+    """A Spec around an explicit network.
+
+    Parameters
+    ----------
+    elements : iterable of planner.model elements
+    positions : iterable of planner.model.Position
+    i_fs_a, r_coil_ohm, coil_tempco : float
+        The movement: full-scale current [A], coil resistance [ohm], tempco [1/K].
+    diodes, fuses : iterable of DiodeModel / FuseModel
+    t_ref_k : float
+        Reference temperature [K].
+    """
+    movement = model.Movement(i_fs_a=i_fs_a, r_coil_ohm=r_coil_ohm, class_index=1.0, tempco_per_k=coil_tempco)
+    parts = model.Parts(diodes={d.name: d for d in diodes}, fuses={f.name: f for f in fuses})
+    ambient = model.Ambient(t_ref_k=t_ref_k, t_min_k=t_ref_k - 20.0, t_max_k=t_ref_k + 20.0)
+    net = model.NetworkSpec(tuple(elements), tuple(positions), contact_style)
+    return model.Spec(title="test network", movement=movement, parts=parts, ambient=ambient, network=net, path=path)
+
+
+@pytest.fixture
+def build_spec():
+    """The :func:`make_spec` builder."""
+    return make_spec
+
+
+def _require_tools() -> bool:
+    return os.environ.get("PLANNER_REQUIRE_TOOLS", "") not in ("", "0")
+
+
+@pytest.fixture(scope="session")
+def ngspice():
+    """The ngspice executable; skips (or fails under PLANNER_REQUIRE_TOOLS=1) without it."""
+    exe = shutil.which("ngspice")
+    if exe is None:
+        if _require_tools():
+            pytest.fail("ngspice is not installed and PLANNER_REQUIRE_TOOLS=1 forbids skipping")
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); the independent check cannot run")
+    return exe
+

@@ -1,0 +1,282 @@
+"""Tests of the PDF design dossier (planner.dossier).
+
+Every example project in projects/ is built once (modest Monte Carlo sample
+count) and its PDF is checked: text extracted with pypdf and with pdftotext
+holds every section heading, every position, every designator and the
+cautions; pdftoppm renders every page and no page is blank; two builds give the
+same bytes; a failed build leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pytest
+from pypdf import PdfReader
+
+from planner.dossier import build_dossier, render
+from planner.dossier import layout, schematic as sch, sections
+from planner.dossier.text import GENERAL_CAUTIONS, SECTION_TITLES, is_hazardous, value_text
+from planner.errors import UsageError
+from planner.model import Contact, MovementElement, NetworkSpec, Position, Resistor
+from planner.project import load
+
+ROOT = Path(__file__).resolve().parents[1]
+PROJECTS = sorted((ROOT / "projects").glob("*.yaml"))
+SAMPLES = 200
+
+
+def _norm(text: str) -> str:
+    return " ".join(text.split())
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    """Each example project built once: {stem: (spec, pdf path, csv path, context)}."""
+    out = {}
+    for path in PROJECTS:
+        spec = load(path)
+        folder = tmp_path_factory.mktemp(path.stem)
+        pdf = build_dossier(spec, folder / f"{path.stem}.pdf", samples=SAMPLES)
+        out[path.stem] = (spec, pdf, pdf.with_suffix(".csv"), _designators(spec))
+    return out
+
+
+def _designators(spec) -> list[str]:
+    from planner.engine import resolve_network
+
+    return [e.name for e in resolve_network(spec).elements]
+
+
+def _positions(spec) -> list[str]:
+    from planner.engine import resolve_network
+
+    return [p.name for p in resolve_network(spec).positions]
+
+
+def _check_text(text: str, spec, designators) -> None:
+    flat = _norm(text)
+    for title in SECTION_TITLES:
+        assert title in flat, f"heading {title!r} missing"
+    for name in _positions(spec):
+        assert f"Position {name}" in flat, f"position {name!r} missing"
+    words = set(re.findall(r"[A-Za-z_]+\d+", flat))
+    for d in designators:
+        assert d in words, f"designator {d} missing"
+    for title, _ in GENERAL_CAUTIONS:
+        assert _norm(title) in flat, f"caution {title!r} missing"
+    assert "Verify by test before use" in flat
+    assert "not a certification" in flat
+    assert "IEC 61010-1" in flat
+    assert spec.title in flat
+    assert (spec.revision or "n/a") in flat
+
+
+@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+def test_pypdf_text_has_every_heading_position_designator_and_caution(built, stem):
+    spec, pdf, _, designators = built[stem]
+    reader = PdfReader(str(pdf))
+    text = "\n".join(page.extract_text() or "" for page in reader.pages)
+    _check_text(text, spec, designators)
+    # the cautions come before any computed number: the safety section precedes the summary
+    flat = _norm(text)
+    assert flat.index("1 Safety cautions", flat.index("Contents") + 200) < flat.index("2 Summary", flat.index(
+        "Contents") + 200)
+
+
+@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+def test_pdftotext_text_has_every_heading_position_designator_and_caution(built, stem):
+    if shutil.which("pdftotext") is None:
+        pytest.skip("pdftotext (poppler-utils) is not installed")
+    spec, pdf, _, designators = built[stem]
+    text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], check=True, capture_output=True,
+                          text=True).stdout
+    _check_text(text, spec, designators)
+
+
+@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+def test_every_page_renders_and_none_is_blank(built, stem, tmp_path):
+    if shutil.which("pdftoppm") is None:
+        pytest.skip("pdftoppm (poppler-utils) is not installed")
+    from PIL import Image
+
+    _, pdf, _, _ = built[stem]
+    n_pages = len(PdfReader(str(pdf)).pages)
+    subprocess.run(["pdftoppm", "-png", "-r", "30", str(pdf), str(tmp_path / "page")], check=True)
+    pngs = sorted(tmp_path.glob("page-*.png"))
+    assert len(pngs) == n_pages
+    for png in pngs:
+        img = np.asarray(Image.open(png).convert("L"), dtype=float)
+        h = img.shape[0]
+        # the running head ends 15 mm and the foot starts 13 mm from the edges of a 297 mm page
+        body = img[int(h * 17 / 297): int(h * (297 - 15) / 297), :]
+        assert (body < 200).sum() > 50, f"{png.name} has nothing below its running head"
+
+
+@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+def test_bom_csv_beside_pdf_lists_every_element(built, stem):
+    spec, pdf, csv_path, designators = built[stem]
+    assert csv_path.exists() and csv_path.stem == pdf.stem
+    rows = list(csv.DictReader(io.StringIO(csv_path.read_text(encoding="utf-8"))))
+    assert sorted(r["designator"] for r in rows) == sorted(designators)
+    for r in rows:
+        if r["kind"] == "resistor":
+            assert float(r["value_si"]) > 0
+            assert float(r["power_rated_w"]) > 0
+
+
+def test_two_builds_are_byte_identical(tmp_path):
+    for path in PROJECTS[:2] if len(PROJECTS) > 2 else PROJECTS:
+        spec = load(path)
+        a = build_dossier(spec, tmp_path / "a.pdf", samples=SAMPLES).read_bytes()
+        b = build_dossier(load(path), tmp_path / "b.pdf", samples=SAMPLES).read_bytes()
+        assert a == b, f"{path.name}: two builds differ"
+        assert (tmp_path / "a.csv").read_bytes() == (tmp_path / "b.csv").read_bytes()
+
+
+def test_date_comes_from_the_argument_or_the_project(tmp_path):
+    spec = load(ROOT / "projects" / "bench_ammeter.yaml")
+    pdf = build_dossier(spec, tmp_path / "d.pdf", date="2031-02-03", csv=False, samples=20)
+    text = _norm("\n".join(p.extract_text() for p in PdfReader(str(pdf)).pages[:1]))
+    assert "2031-02-03" in text and spec.date not in text
+    assert not (tmp_path / "d.csv").exists()
+    with pytest.raises(UsageError):
+        build_dossier(spec, tmp_path / "e.pdf", date="03/02/2031", samples=20)
+    with pytest.raises(UsageError):
+        build_dossier(spec, tmp_path / "e.pdf", date="2031-02-30", samples=20)
+    assert not (tmp_path / "e.pdf").exists()
+
+
+def test_failed_build_leaves_no_file_and_keeps_an_existing_one(tmp_path, monkeypatch):
+    spec = load(ROOT / "projects" / "bench_ammeter.yaml")
+
+    def broken(ctx):
+        raise RuntimeError("section builder failed")
+
+    monkeypatch.setattr(sections, "misrange", broken)
+    out = tmp_path / "new.pdf"
+    with pytest.raises(RuntimeError, match="section builder failed"):
+        build_dossier(spec, out, samples=20)
+    assert not out.exists() and not out.with_suffix(".csv").exists()
+    old = tmp_path / "old.pdf"
+    old.write_bytes(b"previous dossier")
+    old.with_suffix(".csv").write_text("previous table")
+    with pytest.raises(RuntimeError):
+        build_dossier(spec, old, samples=20)
+    assert old.read_bytes() == b"previous dossier"
+    assert old.with_suffix(".csv").read_text() == "previous table"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["old.csv", "old.pdf"]  # no temporary files left
+
+
+def test_an_analysis_that_raises_is_reported_in_its_section(tmp_path, monkeypatch):
+    import planner.faults
+
+    def failing(spec, **kwargs):
+        raise RuntimeError("fault analysis exploded")
+
+    monkeypatch.setattr(planner.faults, "faults_project", failing)
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    pdf = build_dossier(spec, tmp_path / "x.pdf", samples=20)
+    text = _norm("\n".join(p.extract_text() for p in PdfReader(str(pdf)).pages))
+    assert "fault analysis exploded" in text
+    assert "Misrange matrix" in text and "Fault analysis not available" in text
+
+
+def test_project_file_is_never_overwritten(tmp_path):
+    src = tmp_path / "meter.yaml"
+    src.write_text((ROOT / "projects" / "bench_ammeter.yaml").read_text())
+    spec = load(src)
+    with pytest.raises(UsageError):
+        build_dossier(spec, src, samples=20)
+    assert src.read_text() == (ROOT / "projects" / "bench_ammeter.yaml").read_text()
+
+
+def test_overflow_detector_rejects_a_flowable_wider_than_the_frame():
+    from reportlab.platypus import Table
+
+    buf = io.BytesIO()
+    doc = layout.DossierDoc(buf, title="t", subject="s", creator="c")
+    wide = Table([["x" * 10]], colWidths=[layout.FRAME_WIDTH + 40])
+    doc.build([wide])
+    with pytest.raises(layout.DossierLayoutError):
+        doc.check()
+    ok = layout.DossierDoc(io.BytesIO(), title="t", subject="s", creator="c")
+    ok.build([layout.table(["a", "b"], [["1", "2"]] * 200, [1, 1])])  # splits over pages, fits the width
+    ok.check()
+
+
+def test_render_twice_from_one_context_is_identical():
+    from planner.dossier import gather
+
+    ctx = gather(load(ROOT / "projects" / "bench_ammeter.yaml"), samples=20)
+    assert render(ctx) == render(ctx)
+
+
+def test_ladder_orders_nodes_by_resistance_from_common():
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    plan = sch._plan(spec, spec.network)
+    # common practice: the movement at the bottom, the multiplier string climbing tap by tap
+    assert plan["rows"] == ["com", "m_plus", "t1", "t2", "t3", "t4", "t5"]
+    assert plan["poles"] == {"plus"}
+    spine = plan["columns"][-1]
+    assert [e.name for _, _, e in spine] == ["M1", "R1", "R2", "R3", "R4", "R5"]
+    d, how, merged = sch.schematic(spec, spec.network, layout.FRAME_WIDTH, 600)
+    assert how == "ladder" and not merged
+    assert d.width <= layout.FRAME_WIDTH + 1e-6 and d.height <= 600 + 1e-6
+
+
+def test_ladder_draws_an_ayrton_ring_with_a_fused_pole():
+    spec = load(ROOT / "projects" / "bench_ammeter.yaml")
+    plan = sch._plan(spec, spec.network)
+    assert plan["rows"][:5] == ["com", "t4", "t3", "t2", "t1"]  # ring taps by resistance from common
+    nodes, elems = plan["feeds"]["fused"]
+    assert nodes == ["fused", "a_in"] and [e.name for e in elems] == ["F1"]
+
+
+def test_series_strings_and_parallel_pairs_are_merged_for_the_drawing():
+    r = lambda n, a, b, v: Resistor(n, a, b, v)  # noqa: E731
+    elements = (
+        MovementElement("M1", "top", "com"),
+        r("R1", "top", "x1", 1e3), r("R2", "x1", "x2", 1e3), r("R3", "x2", "tap", 2e3),
+        r("R4", "tap", "com", 10.0), r("R5", "tap", "com", 10.0),
+        Contact("S1", "plus", "tap", ("A",)), Contact("S2", "plus", "top", ("B",)),
+    )
+    net = NetworkSpec(elements, (Position("A", "current", 1e-3, ("plus", "com")),
+                                 Position("B", "current", 1e-4, ("plus", "com"))))
+    spec = load(ROOT / "projects" / "bench_ammeter.yaml")
+    plan = sch._plan(spec, net)
+    names = sorted(sch._names(e) for col in plan["columns"] for _, _, e in col)
+    assert "R1\u2013R3" in names and "R4 || R5" in names
+    merged = [e for col in plan["columns"] for _, _, e in col if isinstance(e, sch.Compound)]
+    values = sorted(sch._value_of(e) for e in merged)
+    np.testing.assert_allclose(values, [5.0, 4e3], rtol=1e-12)  # Ohm's law: series sum, parallel 10 || 10
+
+
+def test_generic_drawing_for_a_network_off_the_ladder_pattern():
+    spec = load(ROOT / "projects" / "bench_ammeter.yaml")
+    elements = (
+        MovementElement("M1", "a", "com"),
+        Resistor("R1", "in", "a", 1e3),
+        Contact("S1", "in", "b", ("X",)), Contact("S2", "b", "c", ("X",)),
+        Resistor("R2", "c", "a", 1e3),
+    )
+    net = NetworkSpec(elements, (Position("X", "voltage", 1.0, ("in", "com")),))
+    d, how, _ = sch.schematic(spec, net, layout.FRAME_WIDTH, 400)
+    assert how != "ladder"
+    assert 0 < d.width <= layout.FRAME_WIDTH + 1e-6
+
+
+def test_value_text_and_hazard_limits():
+    assert value_text(8000.0, "ohm") == "8 kohm"
+    assert value_text(0.1111, "ohm") == "111.1 mohm"
+    assert value_text(float("inf"), "A") == "none"
+    # IEC 61010-1:2010, 6.3.1: hazardous live above 70 V DC, 33 V rms or 46.7 V peak
+    assert not is_hazardous(70.0) and is_hazardous(70.1)
+    assert not is_hazardous(33.0, "sine") and is_hazardous(33.1, "sine")
+    assert is_hazardous(-250.0)
