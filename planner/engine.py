@@ -145,12 +145,18 @@ class Engine:
     ----------
     spec : Spec
         A loaded project; when it has no explicit network the sizer's is used.
+    net : NetworkSpec, optional
+        Solve this network instead.
+    check : bool
+        Run the graph-level checks of :func:`planner.network.validate` (default);
+        internal callers that build a variant of a checked network may skip them.
     """
 
-    def __init__(self, spec: Spec, net=None):
+    def __init__(self, spec: Spec, net=None, *, check: bool = True):
         self.spec = spec
         self.net = net if net is not None else resolve_network(spec)
-        nw.validate(spec, self.net)
+        if check:
+            nw.validate(spec, self.net)
         self.elements = {e.name: e for e in self.net.elements}
         self.movement = nw.movement_element(self.net)
         self._circuits = {}

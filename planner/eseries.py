@@ -22,6 +22,8 @@ IEC 60063:2015, *Preferred number series for resistors and capacitors*.
 
 from __future__ import annotations
 
+import bisect
+import functools
 import math
 
 __all__ = [
@@ -127,6 +129,24 @@ def _decade_of(x: float) -> int:
     return int(math.floor(math.log10(x)))
 
 
+#: Decades held in the precomputed grid of each series: 1e-15 ... 1e15.
+_GRID_DECADES = range(-15, 15)
+
+
+@functools.lru_cache(maxsize=None)
+def _grid(series: str) -> tuple[float, ...]:
+    """Every value of a series over :data:`_GRID_DECADES`, and 1e15, ascending."""
+    n = len(_TABLES[series][0])
+    return tuple(_value(series, i, d) for d in _GRID_DECADES for i in range(n)) + (1e15,)
+
+
+def _check_x(x: float, what: str) -> None:
+    if not (x > 0 and math.isfinite(x)):
+        raise ValueError(f"{what} needs a positive finite number, got {x!r}")
+    if not (1e-15 <= x < 1e15):
+        raise ValueError(f"{what}: {x!r} lies outside the decades 1e-15 ... 1e15 held here")
+
+
 def values_in(series: str, lo: float, hi: float) -> list[float]:
     """Every value of a series with ``lo <= value <= hi``, ascending, across decades.
 
@@ -144,6 +164,9 @@ def values_in(series: str, lo: float, hi: float) -> list[float]:
     name = normalise(series)
     if not (lo > 0 and math.isfinite(lo) and math.isfinite(hi)) or hi < lo:
         raise ValueError(f"values_in needs 0 < lo <= hi, finite; got lo={lo!r}, hi={hi!r}")
+    g = _grid(name)
+    if lo >= g[0] and hi <= g[-1]:
+        return list(g[bisect.bisect_left(g, lo) : bisect.bisect_right(g, hi)])
     out = []
     n = len(_TABLES[name][0])
     for decade in range(_decade_of(lo) - 1, _decade_of(hi) + 1):
@@ -161,7 +184,7 @@ def nearest(series: str, x: float) -> float:
     ----------
     series : str
     x : float
-        A positive, finite number.
+        A positive, finite number (1e-15 <= x < 1e15).
 
     Returns
     -------
@@ -170,29 +193,27 @@ def nearest(series: str, x: float) -> float:
         |v - x| / x); on a tie, the lower value.
     """
     name = normalise(series)
-    if not (x > 0 and math.isfinite(x)):
-        raise ValueError(f"nearest needs a positive finite number, got {x!r}")
-    d = _decade_of(x)
-    cands = values_in(name, 10.0 ** (d - 1), 10.0 ** (d + 2))
+    _check_x(x, "nearest")
+    g = _grid(name)
+    i = bisect.bisect_left(g, x)
+    cands = g[max(0, i - 1) : i + 1]
     return min(cands, key=lambda v: (abs(v - x), v))
 
 
 def at_or_below(series: str, x: float) -> float:
     """The largest value of a series that is <= ``x``."""
     name = normalise(series)
-    if not (x > 0 and math.isfinite(x)):
-        raise ValueError(f"at_or_below needs a positive finite number, got {x!r}")
-    d = _decade_of(x)
-    return max(v for v in values_in(name, 10.0 ** (d - 1), 10.0 ** (d + 2)) if v <= x)
+    _check_x(x, "at_or_below")
+    g = _grid(name)
+    return g[bisect.bisect_right(g, x) - 1]
 
 
 def at_or_above(series: str, x: float) -> float:
     """The smallest value of a series that is >= ``x``."""
     name = normalise(series)
-    if not (x > 0 and math.isfinite(x)):
-        raise ValueError(f"at_or_above needs a positive finite number, got {x!r}")
-    d = _decade_of(x)
-    return min(v for v in values_in(name, 10.0 ** (d - 1), 10.0 ** (d + 2)) if v >= x)
+    _check_x(x, "at_or_above")
+    g = _grid(name)
+    return g[bisect.bisect_left(g, x)]
 
 
 def is_member(series: str, x: float, rel: float = 1e-9) -> bool:

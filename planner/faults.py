@@ -600,7 +600,7 @@ def format_faults(result: dict) -> str:
             lines.append(f"  {c['position']} | {c['stimulus']}: {c['verdict'].upper()}{acc}")
             lines += wrap("      ", describe_stress(c['deciding']))
             others = [x for x in c["stresses"] if x["exceeded"] and x is not c["deciding"]
-                      and x["limit"] != "fuse trigger"][:2]
+                      and x["limit"] != "fuse trigger"][:1]
             for x in others:
                 lines.append(f"      then {describe_stress(x)}")
             for f in c.get("fuses", []):

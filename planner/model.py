@@ -396,13 +396,15 @@ class CurrentRanges:
     ``ring_on_voltage`` says whether the ring stays across the movement on the
     voltage positions (``across``) or is switched out (``switched_out``).
     ``swamp_ohm`` is a series (swamping) resistor with the coil on current ranges
-    (0 for none).
+    (0 for none). ``fuse`` names a fuse model placed in the input lead of the
+    current positions (None for none).
     """
 
     arrangement: str
     full_scales: tuple[float, ...]
     ring_on_voltage: str = "switched_out"
     swamp_ohm: float = 0.0
+    fuse: str | None = None
     line: int | None = None
 
 

@@ -95,7 +95,7 @@ DIODE_KEYS = (
 )
 FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "curve", "max_voltage")
 VOLTAGE_KEYS = ("arrangement", "full_scales")
-CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp")
+CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
@@ -604,7 +604,7 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
     ambient = _ambient(ctx, top.get("ambient"))
     parts = _parts(ctx, top.get("parts"))
     voltage = _voltage(ctx, top.get("voltage"), top.node.key_lines.get("voltage"))
-    current = _current(ctx, top.get("current"), movement, top.node.key_lines.get("current"))
+    current = _current(ctx, top.get("current"), movement, top.node.key_lines.get("current"), parts)
     clamps = _clamps(ctx, top.get("clamps"), parts)
     network = _network(ctx, top.get("network"), parts)
     faults = _faults(ctx, top.get("faults"))
@@ -942,7 +942,7 @@ def _voltage(ctx: _Ctx, node: _Node | None, key_line: int | None) -> model.Volta
 
 
 def _current(
-    ctx: _Ctx, node: _Node | None, movement: model.Movement, key_line: int | None
+    ctx: _Ctx, node: _Node | None, movement: model.Movement, key_line: int | None, parts: model.Parts
 ) -> model.CurrentRanges | None:
     if node is None:
         return None
@@ -960,8 +960,15 @@ def _current(
             )
     ring_on_v = m.choice("ring_on_voltage", ("switched_out", "across"), "switched_out")
     swamp = m.qty("swamp", "resistance", 0.0, check="nonneg")
+    fuse_node = m.get("fuse")
+    fuse = None if fuse_node is None else _fuse_ref(ctx, fuse_node, parts, "current.fuse")
     return model.CurrentRanges(
-        arrangement=arr, full_scales=tuple(fs), ring_on_voltage=ring_on_v, swamp_ohm=swamp, line=key_line or m.line
+        arrangement=arr,
+        full_scales=tuple(fs),
+        ring_on_voltage=ring_on_v,
+        swamp_ohm=swamp,
+        fuse=fuse,
+        line=key_line or m.line,
     )
 
 

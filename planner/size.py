@@ -25,13 +25,12 @@ import itertools
 import math
 from dataclasses import dataclass, field
 
-import numpy as np
-
 from . import eseries
 from .errors import ProjectError
 from .model import (
     Contact,
     Diode,
+    Fuse,
     MovementElement,
     NetworkSpec,
     Position,
@@ -70,7 +69,7 @@ CATALOG_MIN_OHM = 0.01
 CATALOG_MAX_OHM = 100e6
 
 #: Node names of the sized topology (see docs/sizing.md).
-COM, PLUS, M_PLUS, M_IN = "com", "plus", "m_plus", "m_in"
+COM, PLUS, M_PLUS, M_IN, FUSED = "com", "plus", "m_plus", "m_in", "a_fused"
 
 _REL_EPS = 1e-12
 
@@ -593,6 +592,13 @@ def _check_ranges(spec: Spec, values, what: str, line: int | None, unit: str) ->
 def _validate(spec: Spec) -> str:
     """Check the request; returns the canonical series name."""
     if spec.voltage is None and spec.current is None:
+        if spec.network is not None:
+            raise _err(
+                spec,
+                "nothing to size: the project gives an explicit network and no 'voltage'/'current' ranges; "
+                "check it with 'planner check', or add ranges for the sizer",
+                None,
+            )
         raise _err(
             spec,
             "nothing to size: give a 'voltage' and/or 'current' section, or an explicit 'network'",
@@ -691,6 +697,7 @@ class _Layout:
     diodes: list[tuple[str, str, str, int | None]]  # (anode, cathode, model, line)
     positions: list[Position]
     clamp_nodes: list[str]
+    fuse: str | None
     meter_i_a: float
     meter_r_ohm: float
     ideal: dict[str, tuple[float, float | None]]  # position -> (input resistance, burden voltage)
@@ -725,7 +732,7 @@ def _layout(spec: Spec) -> _Layout:
         vfs = list(v.full_scales)
         chain = v.arrangement == "chain"
         targets = chain_segments(vfs, i_m, r_m) if chain else separate_multipliers(vfs, i_m, r_m)
-        for k, (vk, t) in enumerate(zip(vfs, targets)):
+        for vk, t in zip(vfs, targets):
             if t <= 0:
                 raise _err(
                     spec,
@@ -768,6 +775,7 @@ def _layout(spec: Spec) -> _Layout:
     if c is not None:
         ifs = list(c.full_scales)
         r_b = m.r_coil_ohm + swamp
+        feed = FUSED if c.fuse else PLUS  # the current positions' input, behind the fuse if any
         if ring:
             taps_r = ayrton_taps(ifs, m.i_fs_a, r_b)
             ring_segs = ayrton_segments(ifs, m.i_fs_a, r_b)
@@ -781,18 +789,18 @@ def _layout(spec: Spec) -> _Layout:
                 segs.append(_SegPlan(f"ring {i_names[k]}", "ring", t, lows[j], highs[j], c.line))
             for k, ik in enumerate(ifs):
                 positions.append(Position(i_names[k], "current", float(ik), (PLUS, COM), c.line))
-                contacts.append((PLUS, tnode[k], (i_names[k],)))
+                contacts.append((feed, tnode[k], (i_names[k],)))
                 burden = m.i_fs_a * (taps_r[0] + r_b - taps_r[k])
                 ideal[i_names[k]] = (burden / ik, burden)
             if not across:
                 contacts.append(("t1", i_node, tuple(i_names)))
         else:
             shunts = separate_shunts(ifs, m.i_fs_a, r_b)
-            for k, (ik, t) in enumerate(zip(ifs, shunts)):
+            for k, t in enumerate(shunts):
                 segs.append(_SegPlan(f"shunt {i_names[k]}", "shunt", t, COM, f"s{k + 1}", c.line))
             for k, ik in enumerate(ifs):
                 positions.append(Position(i_names[k], "current", float(ik), (PLUS, COM), c.line))
-                contacts.append((PLUS, f"s{k + 1}", (i_names[k],)))
+                contacts.append((feed, f"s{k + 1}", (i_names[k],)))
                 contacts.append((f"s{k + 1}", i_node, (i_names[k],)))
                 burden = m.i_fs_a * r_b
                 ideal[i_names[k]] = (burden / ik, burden)
@@ -814,7 +822,8 @@ def _layout(spec: Spec) -> _Layout:
             for a, b in zip(chain_nodes[:-1], chain_nodes[1:]):
                 # forward: anode toward the tap; reverse: cathode toward the tap
                 diodes.append((a, b, model, cl.line) if direction == "fwd" else (b, a, model, cl.line))
-    return _Layout(segs, contacts, diodes, positions, clamp_nodes, i_m, r_m, ideal)
+    fuse = c.fuse if c is not None else None
+    return _Layout(segs, contacts, diodes, positions, clamp_nodes, fuse, i_m, r_m, ideal)
 
 
 # =====================================================================================
@@ -864,6 +873,8 @@ def _build(spec: Spec, lay: _Layout, choices: list[Choice], ratings: list[tuple[
     elements.append(MovementElement("M1", M_PLUS, COM, _line_of_key(spec, "movement")))
     for j, (a, b, model, line) in enumerate(lay.diodes, 1):
         elements.append(Diode(f"D{j}", a, b, model, line))
+    if lay.fuse:
+        elements.append(Fuse("F1", PLUS, FUSED, lay.fuse, spec.current.line))
     for j, (a, b, closed) in enumerate(lay.contacts, 1):
         elements.append(Contact(f"S{j}", a, b, tuple(closed)))
     net = NetworkSpec(tuple(elements), tuple(lay.positions), None)
@@ -876,102 +887,36 @@ def _build(spec: Spec, lay: _Layout, choices: list[Choice], ratings: list[tuple[
 
 
 class _Linear:
-    """Resistive nodal analysis of the sized network (diodes open or shorted).
+    """The sized network with its diodes open, or with clamp nodes shorted to common.
 
-    The movement is its coil resistance, closed contacts are ideal (zero-ohm
-    contacts merge their nodes), diodes are left out, and any node in ``shorted``
-    is joined to the common terminal (an ideal clamp).
+    The same engine as every analysis solves it (nominal values, reference
+    temperature); with the diodes taken out the network is linear, so the result is
+    the bound the rating rules need.
     """
 
     def __init__(self, spec: Spec, net: NetworkSpec):
         self.spec = spec
-        self.net = net
+        self.elements = tuple(e for e in net.elements if not isinstance(e, Diode))
+        self.positions = net.positions
+        self._engines: dict[tuple, object] = {}
 
     def solve(self, pos: Position, value: float, shorted=()):
-        plus, minus = pos.input
-        parent: dict[str, str] = {}
+        """Voltage across every element [V] for ``value`` on ``pos``; None when the input is shorted."""
+        from .engine import Engine
+        from .errors import SolveError
 
-        def find(x):
-            parent.setdefault(x, x)
-            while parent[x] != x:
-                parent[x] = parent[parent[x]]
-                x = parent[x]
-            return x
-
-        def union(a, b):
-            ra, rb = find(a), find(b)
-            if ra != rb:
-                parent[rb] = ra
-
-        branches = []  # (a, b, ohm, name)
-        for e in self.net.elements:
-            if isinstance(e, Contact):
-                if pos.name in e.closed_in:
-                    if e.r_ohm == 0.0:
-                        union(e.a, e.b)
-                    else:
-                        branches.append((e.a, e.b, e.r_ohm, e.name))
-            elif isinstance(e, Resistor):
-                branches.append((e.a, e.b, e.value_ohm, e.name))
-            elif isinstance(e, MovementElement):
-                branches.append((e.a, e.b, self.spec.movement.r_coil_ohm, e.name))
-        find(minus)
-        for s in shorted:
-            union(minus, s)
-        ground = find(minus)
-        top = find(plus)
-        if pos.measures == "voltage" and top == ground:
+        key = tuple(shorted)
+        if key not in self._engines:
+            shorts = tuple(Contact(f"__short{j}", node, COM, tuple(p.name for p in self.positions))
+                           for j, node in enumerate(shorted))
+            net = NetworkSpec(self.elements + shorts, self.positions, None)
+            self._engines[key] = Engine(self.spec, net, check=False)
+        eng = self._engines[key]
+        try:
+            op = eng.operate(pos.name, [value])
+        except SolveError:
             return None
-        # connected component of the input
-        adj: dict[str, set] = {}
-        for a, b, _, _ in branches:
-            ra, rb = find(a), find(b)
-            adj.setdefault(ra, set()).add(rb)
-            adj.setdefault(rb, set()).add(ra)
-        live, stack = {ground, top}, [ground, top]
-        while stack:
-            x = stack.pop()
-            for y in adj.get(x, ()):
-                if y not in live:
-                    live.add(y)
-                    stack.append(y)
-        fixed = {ground: 0.0}
-        if pos.measures == "voltage":
-            fixed[top] = value
-        unknown = sorted(n for n in live if n not in fixed)
-        idx = {n: i for i, n in enumerate(unknown)}
-        g = np.zeros((len(unknown), len(unknown)))
-        rhs = np.zeros(len(unknown))
-        for a, b, r, _ in branches:
-            ra, rb = find(a), find(b)
-            if ra not in live or ra == rb:
-                continue
-            y = 1.0 / r
-            for p, q in ((ra, rb), (rb, ra)):
-                if p in idx:
-                    g[idx[p], idx[p]] += y
-                    if q in idx:
-                        g[idx[p], idx[q]] -= y
-                    else:
-                        rhs[idx[p]] += y * fixed[q]
-        if pos.measures == "current" and top in idx:
-            rhs[idx[top]] += value
-        x = np.linalg.solve(g, rhs) if unknown else np.zeros(0)
-        volts = dict(fixed)
-        volts.update({n: x[i] for n, i in idx.items()})
-
-        def node_v(n):
-            r = find(n)
-            return volts.get(r)
-
-        out = {}
-        for a, b, r, name in branches:
-            va, vb = node_v(a), node_v(b)
-            if va is None or vb is None:
-                out[name] = 0.0
-            else:
-                out[name] = va - vb
-        return out
+        return {e.name: float(op.element(e.name).voltage_v[0, 0]) for e in self.elements if not isinstance(e, Contact)}
 
 
 def _cases(spec: Spec, lay: _Layout):

@@ -31,11 +31,14 @@ BOLTZMANN = 1.380649e-23
 #: Elementary charge [C], exact (SI 2019).
 CHARGE = 1.602176634e-19
 
-#: Auxiliary conductance across every junction [S]: keeps the linear part
-#: nonsingular when a node hangs on junctions only. It is stamped in the linear
-#: part and subtracted again in the junction law, so the element equations are
-#: exactly those of the contract.
-G_AUX = 1e-12
+#: Auxiliary conductance across every diode port [S]. It is stamped in the linear
+#: part and subtracted again from the diode law, so the element equations are
+#: exactly those of the contract; it only splits each diode's current between the
+#: two parts of the computation. It keeps the linear part nonsingular where a node
+#: hangs on junctions only (the middle of a diode stack) and keeps the port
+#: impedances moderate (at most 1 Mohm), so that the reduced equations are not
+#: swamped by round-off.
+G_AUX = 1e-6
 
 #: Exponent beyond which the junction law is continued linearly (only ever reached
 #: by intermediate Newton iterates; a true operating point is far below).
@@ -200,9 +203,10 @@ def _junction(v, jn: Junctions):
     i = jn.i_s * (np.expm1(xe) + ex * (x - xe))  # = e^x - 1 below the cap, without cancellation
     d = jn.i_s * ex / jn.nvt
     if np.any(np.isfinite(jn.bv)):
-        y = -(v + jn.bv) / jn.nvt
+        finite = np.isfinite(jn.bv)
+        y = -(v + np.where(finite, jn.bv, 0.0)) / jn.nvt  # no BV: a finite stand-in, zeroed below
         ye = np.minimum(y, _EXP_MAX)
-        ey = np.where(np.isfinite(jn.bv), np.exp(ye), 0.0)
+        ey = np.where(finite, np.exp(ye), 0.0)
         i = i - jn.ibv * ey * (1.0 + (y - ye))
         d = d + jn.ibv * ey / jn.nvt
     return i, d
@@ -401,7 +405,7 @@ class _Ports:
                     w = -(vjd + bv[d]) * inv_nvt[d]
                     we = np.minimum(w, _EXP_MAX)
                     ew = np.exp(we)
-                    i = i - ibv[d] * ew * (1.0 + (w - we))
+                    i = i - ibv[d] * ew * (1.0 + np.fmax(w - we, 0.0))  # no BV: -inf - -inf -> 0
                     y = y + ibv[d] * ew * inv_nvt[d]
                 i += g_p[d] * vjd
                 y += g_p[d]

@@ -162,7 +162,7 @@ class Stimulus:
         wave = {"dc": "DC", "sine": "rms sine", "impulse": "peak impulse"}[self.waveform]
         text = f"{format_si(self.value, self.unit, 4)} {wave}"
         if self.kind == "voltage":
-            text += f", {format_si(self.r_source_ohm, 'ohm', 3)} source"
+            text += f", {format_si(self.r_source_ohm, 'ohm', 3)} source" if self.r_source_ohm > 0 else ", ideal source"
             if self.current_limit_a is not None:
                 text += f", limited to {format_si(self.current_limit_a, 'A', 3)}"
         return text
@@ -745,6 +745,8 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
             "verdict": verdict,
             "deciding": deciding,
             "movement_current_a": mv["current_a"],
+            "movement_peak_current_a": mv["peak_current_a"],
+            "movement_rms_current_a": mv["rms_current_a"],
             "movement_multiple": max(mv["multiple"], after["movement_multiple"] if after else 0.0),
             "movement_rms_multiple": mv["rms_multiple"],
             "movement_mean_multiple": mv["mean_multiple"],
@@ -881,6 +883,8 @@ def describe_stress(x: dict | None) -> str:
 def _ratio_text(r: float) -> str:
     if not math.isfinite(r):
         return "inf x"
+    if r >= 1e5:
+        return f"{r:.2g}x"
     if r >= 100:
         return f"{r:.0f}x"
     return f"{r:.3g}x"
@@ -894,13 +898,22 @@ def format_apply(result: dict) -> str:
     wave = {"dc": "DC", "sine": "rms sine", "impulse": "peak impulse"}[s["waveform"]]
     head = f"{result['position']}: {format_si(s['value'], s['unit'], 4)} {wave}"
     if s["kind"] == "voltage":
-        head += f" through {format_si(s['r_source_ohm'] or 0.0, 'ohm', 3)}"
+        r = s["r_source_ohm"] or 0.0
+        head += f" through {format_si(r, 'ohm', 3)}" if r > 0 else " from an ideal source"
         if s.get("current_limit_a"):
             head += f", limited to {format_si(s['current_limit_a'], 'A', 3)}"
     lines = [head]
-    lines.append(f"Movement: {format_si(result['movement_current_a'], 'A', 4)} "
-                 f"(pointer {result['movement_mean_multiple']:.3g} x full scale, peak {result['movement_multiple']:.3g} x, "
-                 f"rms {result['movement_rms_multiple']:.3g} x)")
+    tiny = 1e-9 * max(result["movement_multiple"], 1.0)  # solver round-off around a zero mean
+
+    def clean(x):
+        return 0.0 if abs(x) < tiny else x
+
+    i_cur = result["movement_current_a"]
+    if abs(i_cur) < 1e-9 * result.get("movement_peak_current_a", 0.0):
+        i_cur = 0.0
+    lines.append(f"Movement: {format_si(i_cur, 'A', 4)} "
+                 f"(pointer {clean(result['movement_mean_multiple']):.3g} x full scale, "
+                 f"peak {result['movement_multiple']:.3g} x, rms {result['movement_rms_multiple']:.3g} x)")
     lines += wrap("Verdict: ", f"{result['verdict'].upper()} - {describe_stress(result['deciding'])}")
     lines.append("")
     sine = s["waveform"] == "sine"

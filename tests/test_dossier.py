@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 from pypdf import PdfReader
 
-from planner.dossier import build_dossier, render
+from planner.dossier import build_dossier
 from planner.dossier import layout, schematic as sch, sections
 from planner.dossier.text import GENERAL_CAUTIONS, SECTION_TITLES, is_hazardous, value_text
 from planner.errors import UsageError
@@ -36,16 +36,28 @@ def _norm(text: str) -> str:
     return " ".join(text.split())
 
 
+#: Projects whose full analysis takes long (the misrange analysis of the sized
+#: ten-position multimeter solves hundreds of diode-clamped cases): marked slow,
+#: still run in CI, skipped locally with -m "not slow".
+SLOW = {"bench_multimeter"}
+STEMS = [pytest.param(p.stem, marks=pytest.mark.slow) if p.stem in SLOW else p.stem for p in PROJECTS]
+_BUILT: dict = {}
+
+
 @pytest.fixture(scope="module")
 def built(tmp_path_factory):
-    """Each example project built once: {stem: (spec, pdf path, csv path, context)}."""
-    out = {}
-    for path in PROJECTS:
-        spec = load(path)
-        folder = tmp_path_factory.mktemp(path.stem)
-        pdf = build_dossier(spec, folder / f"{path.stem}.pdf", samples=SAMPLES)
-        out[path.stem] = (spec, pdf, pdf.with_suffix(".csv"), _designators(spec))
-    return out
+    """Build an example project once per module: stem -> (spec, pdf path, csv path, designators)."""
+
+    def get(stem: str):
+        if stem not in _BUILT:
+            spec = load(ROOT / "projects" / f"{stem}.yaml")
+            folder = tmp_path_factory.mktemp(stem)
+            pdf = build_dossier(spec, folder / f"{stem}.pdf", samples=SAMPLES)
+            _BUILT[stem] = (spec, pdf, pdf.with_suffix(".csv"), _designators(spec))
+        return _BUILT[stem]
+
+    yield get
+    _BUILT.clear()
 
 
 def _designators(spec) -> list[str]:
@@ -78,35 +90,37 @@ def _check_text(text: str, spec, designators) -> None:
     assert (spec.revision or "n/a") in flat
 
 
-@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+@pytest.mark.parametrize("stem", STEMS)
 def test_pypdf_text_has_every_heading_position_designator_and_caution(built, stem):
-    spec, pdf, _, designators = built[stem]
+    spec, pdf, _, designators = built(stem)
     reader = PdfReader(str(pdf))
     text = "\n".join(page.extract_text() or "" for page in reader.pages)
     _check_text(text, spec, designators)
-    # the cautions come before any computed number: the safety section precedes the summary
-    flat = _norm(text)
-    assert flat.index("1 Safety cautions", flat.index("Contents") + 200) < flat.index("2 Summary", flat.index(
-        "Contents") + 200)
+    # the outline lists the sections in order, the safety cautions before any computed number
+    top = [item for item in reader.outline if not isinstance(item, list)]
+    titles = [re.sub(r"^(\d+|A)\s+", "", item.title) for item in top]
+    assert titles == list(SECTION_TITLES)
+    pages = [reader.get_destination_page_number(item) for item in top]
+    assert pages == sorted(pages) and pages[0] < pages[1]
 
 
-@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+@pytest.mark.parametrize("stem", STEMS)
 def test_pdftotext_text_has_every_heading_position_designator_and_caution(built, stem):
     if shutil.which("pdftotext") is None:
         pytest.skip("pdftotext (poppler-utils) is not installed")
-    spec, pdf, _, designators = built[stem]
+    spec, pdf, _, designators = built(stem)
     text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], check=True, capture_output=True,
                           text=True).stdout
     _check_text(text, spec, designators)
 
 
-@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+@pytest.mark.parametrize("stem", STEMS)
 def test_every_page_renders_and_none_is_blank(built, stem, tmp_path):
     if shutil.which("pdftoppm") is None:
         pytest.skip("pdftoppm (poppler-utils) is not installed")
     from PIL import Image
 
-    _, pdf, _, _ = built[stem]
+    _, pdf, _, _ = built(stem)
     n_pages = len(PdfReader(str(pdf)).pages)
     subprocess.run(["pdftoppm", "-png", "-r", "30", str(pdf), str(tmp_path / "page")], check=True)
     pngs = sorted(tmp_path.glob("page-*.png"))
@@ -119,9 +133,9 @@ def test_every_page_renders_and_none_is_blank(built, stem, tmp_path):
         assert (body < 200).sum() > 50, f"{png.name} has nothing below its running head"
 
 
-@pytest.mark.parametrize("stem", [p.stem for p in PROJECTS])
+@pytest.mark.parametrize("stem", STEMS)
 def test_bom_csv_beside_pdf_lists_every_element(built, stem):
-    spec, pdf, csv_path, designators = built[stem]
+    spec, pdf, csv_path, designators = built(stem)
     assert csv_path.exists() and csv_path.stem == pdf.stem
     rows = list(csv.DictReader(io.StringIO(csv_path.read_text(encoding="utf-8"))))
     assert sorted(r["designator"] for r in rows) == sorted(designators)
@@ -132,11 +146,18 @@ def test_bom_csv_beside_pdf_lists_every_element(built, stem):
 
 
 def test_two_builds_are_byte_identical(tmp_path):
-    for path in PROJECTS[:2] if len(PROJECTS) > 2 else PROJECTS:
-        spec = load(path)
-        a = build_dossier(spec, tmp_path / "a.pdf", samples=SAMPLES).read_bytes()
-        b = build_dossier(load(path), tmp_path / "b.pdf", samples=SAMPLES).read_bytes()
-        assert a == b, f"{path.name}: two builds differ"
+    import os
+    import sys
+
+    for path in [p for p in PROJECTS if p.stem not in SLOW]:
+        a = build_dossier(load(path), tmp_path / "a.pdf", samples=SAMPLES).read_bytes()
+        # the second build in a fresh interpreter with another hash seed (set and dict orders differ)
+        code = ("import sys; from planner.project import load; from planner.dossier import build_dossier; "
+                f"build_dossier(load(sys.argv[1]), sys.argv[2], samples={SAMPLES})")
+        env = dict(os.environ, PYTHONHASHSEED="12345")
+        subprocess.run([sys.executable, "-c", code, str(path), str(tmp_path / "b.pdf")], check=True, env=env,
+                       cwd=ROOT)
+        assert a == (tmp_path / "b.pdf").read_bytes(), f"{path.name}: two builds differ"
         assert (tmp_path / "a.csv").read_bytes() == (tmp_path / "b.csv").read_bytes()
 
 
@@ -211,13 +232,6 @@ def test_overflow_detector_rejects_a_flowable_wider_than_the_frame():
     ok.check()
 
 
-def test_render_twice_from_one_context_is_identical():
-    from planner.dossier import gather
-
-    ctx = gather(load(ROOT / "projects" / "bench_ammeter.yaml"), samples=20)
-    assert render(ctx) == render(ctx)
-
-
 def test_ladder_orders_nodes_by_resistance_from_common():
     spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
     plan = sch._plan(spec, spec.network)
@@ -234,7 +248,10 @@ def test_ladder_orders_nodes_by_resistance_from_common():
 def test_ladder_draws_an_ayrton_ring_with_a_fused_pole():
     spec = load(ROOT / "projects" / "bench_ammeter.yaml")
     plan = sch._plan(spec, spec.network)
-    assert plan["rows"][:5] == ["com", "t4", "t3", "t2", "t1"]  # ring taps by resistance from common
+    rows = plan["rows"]
+    # the ring's taps climb by resistance from the common end (Ayrton shunt: smallest part at common)
+    ring = [n for n in rows if n in ("com", "t4", "t3", "t2", "t1")]
+    assert ring == ["com", "t4", "t3", "t2", "t1"] and rows[0] == "com"
     nodes, elems = plan["feeds"]["fused"]
     assert nodes == ["fused", "a_in"] and [e.name for e in elems] == ["F1"]
 

@@ -196,6 +196,18 @@ def test_ayrton_ring_is_safe_either_way():
     assert res_["contact_style_needed"] == "either"
 
 
+def test_chain_multiplier_wants_break_before_make():
+    # make-before-break shorts the segment between two taps while turning down with the
+    # higher range's full scale applied: the lower range sees 5 x its full scale
+    res_ = faults_project(voltmeter())
+    down = [t for t in res_["transitions"]
+            if t["state"] == "50 V -> 10 V (make-before-break)" and t["stimulus"] == "full scale"][0]
+    up = [c for c in res_["cases"] if (c["position"], c["stimulus"]) == ("10 V", "range up")][0]
+    np.testing.assert_allclose(down["movement_multiple"], up["movement_multiple"], rtol=1e-12)  # the same circuit
+    assert down["verdict"] == "overstress"
+    assert res_["contact_style_needed"] == "break_before_make"
+
+
 def test_declared_contact_style_decides_the_requirement():
     base = separate_ammeter()
     failing = [c for c in faults_project(base)["cases"] if c["verdict"] in ("overstress", "hazard")]

@@ -315,8 +315,8 @@ def test_ratings_two_range_hand_computation():
 
 
 def test_1000v_on_250v_parts_is_split():
-    # IEC 61010-style limiting element voltage (references.md: 0207 metal film about 250-350 V, common
-    # practice): a separate 1000 V multiplier on 50 uA sees 999.9 V at full scale -> at least 4 parts.
+    # Limiting element voltage of a resistor, common practice (references.md: 0207 metal film about
+    # 250-350 V): a separate 1000 V multiplier on 50 uA sees 999.9 V at full scale -> at least 4 parts.
     spec = make_spec(volts=[10.0, 1000.0], v_arr="separate")
     s = sz.size(spec)
     seg = s.segment("multiplier 1 kV")
@@ -456,6 +456,9 @@ def test_bad_requests_raise_project_error():
         sz.size(make_spec(volts=[1.0], clamps=[ClampRequest("movement", "ge", None)]))
     with pytest.raises(ProjectError, match="nothing to size"):
         sz.size(make_spec())
+    explicit = NetworkSpec((MovementElement("M1", "plus", "com"),), (Position("50 uA", "current", 50e-6, ("plus", "com")),))
+    with pytest.raises(ProjectError, match="explicit network"):
+        sz.size(dataclasses.replace(make_spec(), network=explicit))
     with pytest.raises(ProjectError, match="no voltage section"):
         sz.size(make_spec(amps=[1e-3], clamps=[ClampRequest(100.0, "si", "si")]))
     with pytest.raises(ProjectError, match="applies to an Ayrton ring only"):

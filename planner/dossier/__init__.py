@@ -157,14 +157,13 @@ def render(ctx: Context, *, progress: Callable[[str], None] | None = None) -> by
         say(f"dossier: {name}")
         story += getattr(sections, name)(ctx)
     buf = io.BytesIO()
-    doc = layout.DossierDoc(buf, title=f"{spec.title} \u2013 design dossier", subject="design dossier",
-                            creator=f"planner {ctx.version}", author="")
     head = f"{spec.title} \u2013 revision {spec.revision or 'n/a'}"
     foot = f"planner {ctx.version}  \u00b7  {ctx.date}  \u00b7  file SHA-256 {(ctx.sha256 or 'n/a')[:16]}"
-    maker = type("DossierCanvas", (layout.FooterCanvas,), {"head_text": head, "foot_text": foot})
+    doc = layout.DossierDoc(buf, title=f"{spec.title} \u2013 design dossier", subject="design dossier",
+                            creator=f"planner {ctx.version}", author="", head_text=head, foot_text=foot)
     say("dossier: layout")
     try:
-        doc.multiBuild(story, canvasmaker=maker, maxPasses=6)
+        doc.build_dossier(story)
     except LayoutError as exc:
         raise layout.DossierLayoutError(str(exc)) from exc
     doc.check()

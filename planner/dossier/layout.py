@@ -20,7 +20,6 @@ from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
 from reportlab.lib.pagesizes import A4
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
-from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import (
     BaseDocTemplate,
     Flowable,
@@ -28,7 +27,6 @@ from reportlab.platypus import (
     KeepTogether,
     PageTemplate,
     Paragraph,
-    Spacer,
     Table,
     TableStyle,
 )
@@ -37,7 +35,7 @@ from reportlab.platypus.doctemplate import LayoutError
 __all__ = [
     "PAGE", "MARGIN", "FRAME_WIDTH", "INK", "ACCENT", "PALE", "RULE", "CAUTION", "CAUTION_PALE",
     "VERDICT_FILL", "VERDICT_TEXT", "styles", "p", "esc", "table", "caution_box", "note_box",
-    "DossierDoc", "DossierLayoutError", "Heading", "FooterCanvas",
+    "DossierDoc", "DossierLayoutError", "Heading", "PageCount",
 ]
 
 PAGE = A4
@@ -296,56 +294,69 @@ class _CheckedFrame(Frame):
     add = _add
 
 
-class FooterCanvas(Canvas):
-    """A canvas that knows the page count, for the 'page N of M' footer.
+class PageCount(Flowable):
+    """An invisible indexing flowable: the page total of the previous pass.
 
-    Pages are held back until the end of the build, then stamped with the
-    running head and foot (which need the total) and written.
+    The running foot says 'page N of M'. M is known only after a whole pass, so
+    the multi-pass build (which also fills the contents) repeats until the total
+    drawn in the foot equals the total the pass produced.
     """
 
-    head_text = ""
-    foot_text = ""
+    _ZEROSIZE = True
 
-    def __init__(self, *args, **kwargs):
-        kwargs["invariant"] = 1
-        super().__init__(*args, **kwargs)
-        self._held = []
+    def __init__(self, doc):
+        super().__init__()
+        self._dossier_doc = doc
+        self.total = None
+        self.previous = None
 
-    def showPage(self):
-        self._held.append(dict(self.__dict__))
-        self._startPage()
+    def wrap(self, aw, ah):
+        return 0, 0
 
-    def save(self):
-        total = len(self._held)
-        for state in self._held:
-            self.__dict__.update(state)
-            self._stamp(total)
-            Canvas.showPage(self)
-        Canvas.save(self)
+    def draw(self):
+        pass
 
-    def _stamp(self, total: int):
-        n = self._pageNumber
-        w, h = PAGE
-        self.saveState()
-        if n > 1:
-            self.setFont("Helvetica-Bold", 8)
-            self.setFillColor(INK)
-            self.drawString(MARGIN, h - 13 * mm, self.head_text)
-            self.setFont("Helvetica", 8)
-            self.setFillColor(MUTED)
-            self.drawRightString(w - MARGIN, h - 13 * mm, "Design dossier")
-            self.setStrokeColor(RULE)
-            self.setLineWidth(0.5)
-            self.line(MARGIN, h - 15 * mm, w - MARGIN, h - 15 * mm)
-        self.setStrokeColor(RULE)
-        self.setLineWidth(0.5)
-        self.line(MARGIN, 13 * mm, w - MARGIN, 13 * mm)
-        self.setFont("Helvetica", 7.5)
-        self.setFillColor(MUTED)
-        self.drawString(MARGIN, 9 * mm, self.foot_text)
-        self.setFillColor(INK)
-        self.drawRightString(w - MARGIN, 9 * mm, f"page {n} of {total}")
-        self.restoreState()
+    def isIndexing(self):
+        return 1
+
+    def isSatisfied(self):
+        return self.previous is not None and self.previous == self.total
+
+    def notify(self, kind, stuff):
+        pass
+
+    def beforeBuild(self):
+        self.previous = self.total
+
+    def afterBuild(self):
+        self.total = self._dossier_doc.page
+
+
+def _running(canvas, doc):
+    """Running head (from page 2) and foot with the page number, drawn after the page's content."""
+    n = doc.page
+    total = doc.page_count.previous
+    w, h = PAGE
+    canvas.saveState()
+    if n > 1:
+        canvas.setFont("Helvetica-Bold", 8)
+        canvas.setFillColor(INK)
+        canvas.drawString(MARGIN, h - 13 * mm, doc.head_text)
+        canvas.setFont("Helvetica", 8)
+        canvas.setFillColor(MUTED)
+        canvas.drawRightString(w - MARGIN, h - 13 * mm, "Design dossier")
+        canvas.setStrokeColor(RULE)
+        canvas.setLineWidth(0.5)
+        canvas.line(MARGIN, h - 15 * mm, w - MARGIN, h - 15 * mm)
+    canvas.setStrokeColor(RULE)
+    canvas.setLineWidth(0.5)
+    canvas.line(MARGIN, 13 * mm, w - MARGIN, 13 * mm)
+    canvas.setFont("Helvetica", 7.5)
+    canvas.setFillColor(MUTED)
+    canvas.drawString(MARGIN, 9 * mm, doc.foot_text)
+    canvas.setFillColor(INK)
+    canvas.drawRightString(w - MARGIN, 9 * mm, f"page {n} of {total}" if total else f"page {n}")
+    canvas.restoreState()
 
 
 class DossierDoc(BaseDocTemplate):
@@ -359,15 +370,23 @@ class DossierDoc(BaseDocTemplate):
         PDF metadata.
     """
 
-    def __init__(self, buffer, *, title: str, subject: str, creator: str, author: str = ""):
+    def __init__(self, buffer, *, title: str, subject: str, creator: str, author: str = "",
+                 head_text: str = "", foot_text: str = ""):
         super().__init__(buffer, pagesize=PAGE, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=TOP,
                          bottomMargin=BOTTOM, title=title, subject=subject, creator=creator,
                          author=author, invariant=1, pageCompression=1)
         self.overflow: list[str] = []
+        self.head_text = head_text
+        self.foot_text = foot_text
+        self.page_count = PageCount(self)
         frame = _CheckedFrame(MARGIN, BOTTOM, FRAME_WIDTH, FRAME_HEIGHT, id="body",
                               leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
         frame._dossier_overflow = self.overflow
-        self.addPageTemplates([PageTemplate(id="page", frames=[frame])])
+        self.addPageTemplates([PageTemplate(id="page", frames=[frame], onPageEnd=_running)])
+
+    def build_dossier(self, story, max_passes: int = 8):
+        """Build in as many passes as the contents and the page total need."""
+        return self.multiBuild([self.page_count] + list(story), maxPasses=max_passes)
 
     def afterFlowable(self, flowable):
         if isinstance(flowable, Heading):

@@ -39,7 +39,7 @@ __all__ = ["Unsuitable", "ladder", "graph_drawing", "schematic", "connection_row
 
 ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
-THROW = 120.0       # length of a switch throw [pt]
+THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
 _KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
 WHITE = colors.white
@@ -110,6 +110,8 @@ def _value_lines(e) -> list[str]:
         else:
             groups.append([t, 1])
     text = " + ".join(f"{k} x {t}" if k > 1 else t for t, k in groups)
+    if len(groups) == 1:
+        return [text]
     return [text, "= " + value_text(_value_of(e), "ohm")]
 
 
@@ -472,7 +474,7 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
     rows, row, columns = plan["rows"], plan["row"], plan["columns"]
     if len(columns) > 10 or len(rows) > 32:
         raise Unsuitable("too large for a ladder")
-    pitch = ROW if len(rows) <= 10 else 40.0
+    pitch = ROW if len(rows) <= 10 else 44.0
     g = Group()
     x_left = 60.0
     y_base = 40.0
@@ -548,13 +550,13 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             y = Y(row[tap])
             rs.append(y)
             x_start = max([X(ci) for ci in touch.get(tap, [])] + [x_spine])
-            cx = xp - THROW / 2 + 8 if len(poles) == 1 else (x_start + xp) / 2
+            cx = xp - 26.0
             g.add(Line(x_start, y, cx - 8.7, y, strokeColor=INK, strokeWidth=0.9))
             g.add(Line(cx + 8.7, y, xp, y, strokeColor=INK, strokeWidth=0.9))
             _contact(g, cx, y, vertical=False)
             g.add(String(cx, y + 9, c.name, fontName="Helvetica-Bold", fontSize=6.6, fillColor=INK,
                          textAnchor="middle"))
-            g.add(String(cx, y - 10, _clip(", ".join(c.closed_in), THROW - 12), fontName="Helvetica",
+            g.add(String(cx, y - 10, _clip(", ".join(c.closed_in), 48), fontName="Helvetica",
                          fontSize=6.2, fillColor=MUTED, textAnchor="middle"))
             _dot(g, xp, y)
         y_hi = max(rs)

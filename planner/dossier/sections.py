@@ -11,7 +11,7 @@ tables; a builder itself is not allowed to fail quietly.
 from __future__ import annotations
 
 import math
-from collections import OrderedDict, defaultdict
+from collections import defaultdict
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -240,7 +240,8 @@ def cover(ctx: Context) -> list:
     m = spec.movement
     ident = [
         ["Project file", esc(spec.path or "(text given directly)")],
-        ["SHA-256 of the file text", f"<font face='Courier' size='7.4'>{esc(ctx.sha256 or 'text not available')}</font>"],
+        ["SHA-256 of the file text",
+         f"<font face='Courier' size='7.4'>{esc(ctx.sha256 or 'text not available')}</font>"],
         ["Planner version", esc(ctx.version)],
         ["Dossier date", esc(f"{ctx.date} (from the {ctx.date_source})")],
         ["Movement", esc(f"{value_text(m.i_fs_a, 'A')} full scale, {value_text(m.r_coil_ohm, 'ohm')} coil, "
@@ -379,6 +380,12 @@ def summary(ctx: Context) -> list:
                      pct_abs(q.get("worst_case_error_pct"), 3), pct_abs(q.get("temperature_error_pct"), 3),
                      f"{100 * yf:.1f} %" if yf is not None else None, acc_cell, mis_cell])
         fills += [(7, i, acc_fill), (8, i, mis_fill)]
+    hz = [q.name for q in ctx.net.positions if _hazardous_position(q)] if ctx.net is not None else []
+    if hz or _hazardous_sources(spec):
+        title, lines = hazard_reminder(("Hazardous ranges: " + ", ".join(hz) + "." if hz else
+                                        "The foreseeable sources include hazardous voltages."))
+        out.append(caution_box(title, [esc(lines[0]), lines[1]]))
+        out.append(Spacer(1, 6))
     out.append(p(f"Accuracy class {cls:g} (limit of error {cls:g} % of full scale, IEC 60051). Errors are in % of "
                  "full scale. <i>Budget</i> = worst case + temperature; a position is within class when its budget "
                  "is at most the class index. <i>Worst misrange</i> is the worst verdict over every foreseeable "
@@ -449,7 +456,7 @@ def schematic(ctx: Context) -> list:
     if ctx.net is None:
         return out + _error_note(ctx, "Network", "network") + [PageBreak()]
     net = ctx.net
-    drawing, how, merged = sch.schematic(ctx.spec, net, FRAME_WIDTH, layout.FRAME_HEIGHT - 110)
+    drawing, how, merged = sch.schematic(ctx.spec, net, FRAME_WIDTH, layout.FRAME_HEIGHT - 100)
     out.append(drawing)
     if how == "ladder":
         out.append(p("Drawn from the network graph. Each circuit node is a horizontal line (its name in italics, "
@@ -573,7 +580,8 @@ def bom_rows(ctx: Context) -> list[dict]:
                 row["power_rated_w"] = d.max_power_w if math.isfinite(d.max_power_w) else None
                 row["voltage_rated_v"] = d.bv_v
                 row["notes"].append(f"I_s {value_text(d.i_s_a, 'A', 3)}, n {d.n:g}; I_F max "
-                                    f"{value_text(d.max_current_a, 'A', 3)}, surge {value_text(d.surge_current_a, 'A', 3)}")
+                                    f"{value_text(d.max_current_a, 'A', 3)}, "
+                                    f"surge {value_text(d.surge_current_a, 'A', 3)}")
                 row["notes"].append(f"anode {e.anode}, cathode {e.cathode}")
         elif isinstance(e, Fuse):
             f = spec.parts.fuses.get(e.model)
@@ -960,10 +968,10 @@ def misrange(ctx: Context) -> list:
         for n in c.get("notes") or []:
             block.append(p(esc(str(n)), "small"))
         if rows:
-            block.append(table(["Part", "Quantity", "Value", "Limit", "Ratio", "Kind of limit"], rows[:8],
+            block.append(table(["Part", "Quantity", "Value", "Limit", "Ratio", "Kind of limit"], rows[:6],
                                [0.1, 0.3, 0.17, 0.17, 0.11, 0.15], align="llrrrl"))
-            if len(rows) > 8:
-                block.append(p(f"... and {len(rows) - 8} more stresses beyond their limits (planner faults "
+            if len(rows) > 6:
+                block.append(p(f"... and {len(rows) - 6} more stresses beyond their limits (planner faults "
                                "--json lists them all).", "small"))
         after = c.get("after_fuse_opens")
         if isinstance(after, dict) and after.get("verdict"):
@@ -1172,7 +1180,8 @@ def methods(ctx: Context) -> list:
     out.append(p("Model parameters", "h2"))
     m, amb, r = spec.movement, spec.ambient, spec.parts.resistors
     rows = [
-        ["Movement", f"I_fs {value_text(m.i_fs_a, 'A')}, R_m {value_text(m.r_coil_ohm, 'ohm')}, class {m.class_index:g}, "
+        ["Movement", f"I_fs {value_text(m.i_fs_a, 'A')}, R_m {value_text(m.r_coil_ohm, 'ohm')}, "
+                     f"class {m.class_index:g}, "
                      f"coil tempco {m.tempco_per_k * 1e6:g} ppm/K, R_m tolerance {100 * m.tolerance:g} %, "
                      f"I_fs tolerance {100 * m.i_fs_tolerance:g} %"],
         ["Overload", f"end stop {m.overload.peg:g} x, short time {m.overload.short_time:g} x, continuous "
@@ -1186,7 +1195,8 @@ def methods(ctx: Context) -> list:
                      f"I_s {value_text(d.i_s_a, 'A', 3)}, n {d.n:g}, R_s {value_text(d.r_s_ohm, 'ohm', 3)}, "
                      f"R_p {value_text(d.r_p_ohm, 'ohm', 3)}, E_g {d.eg_ev:g} eV, XTI {d.xti:g}"
                      + (f", BV {value_text(d.bv_v, 'V')}" if d.bv_v is not None else "")
-                     + f"; I_F max {value_text(d.max_current_a, 'A', 3)}, surge {value_text(d.surge_current_a, 'A', 3)}, "
+                     + f"; I_F max {value_text(d.max_current_a, 'A', 3)}, "
+                       f"surge {value_text(d.surge_current_a, 'A', 3)}, "
                        f"P max {value_text(d.max_power_w, 'W', 3)}"])
     for f in spec.parts.fuses.values():
         rows.append([f"Fuse model {f.name}",

@@ -166,9 +166,9 @@ METHODS = (
       "The budget of a position is its worst-case error over the tolerance corners (the nominal offset "
       "included) plus its largest change of the full-scale reading over the ambient range."]),
     ("Temperature",
-     ["Resistors and the coil follow R(T) = R (1 + <font face='Symbol'>a</font> (T \u2013 T<sub>ref</sub>)). A copper coil has "
-      "<font face='Symbol'>a</font> = 0.00393 per K at 20 \u00b0C, the annealed copper standard of IEC 60028 [5]; the resistors' "
-      "tempcos are the project's."]),
+     ["Resistors and the coil follow R(T) = R (1 + <font face='Symbol'>a</font> (T \u2013 T<sub>ref</sub>)). "
+      "A copper coil has <font face='Symbol'>a</font> = 0.00393 per K at 20 \u00b0C, the annealed copper "
+      "standard of IEC 60028 [5]; the resistors' tempcos are the project's."]),
     ("Diodes",
      ["Each diode is a Shockley junction, I = I<sub>s</sub> (exp(V / (n V<sub>t</sub>)) \u2013 1), "
       "V<sub>t</sub> = kT/q with the exact SI constants, with a leakage resistance across the junction and "
