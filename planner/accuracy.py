@@ -46,6 +46,8 @@ from .model import ZERO_CELSIUS_K, Diode, Fuse, MovementElement, Resistor, Spec
 LINEARITY_FRACTIONS = np.arange(1, 11) / 10.0
 #: Largest number of varied parameters whose corners are all evaluated (2**12 = 4096).
 MAX_CORNER_PARAMETERS = 12
+#: Most Monte Carlo builds per check (a memory cap; the same as the project file's).
+MAX_SAMPLES = 200_000
 #: Random corners that check the sensitivity bound (besides its two aligned corners).
 VERIFY_CORNERS = 254
 #: Smallest number of ambient temperature points.
@@ -516,8 +518,8 @@ def check_project(spec: Spec, *, samples: int | None = None, seed: int | None = 
     """
     samples = spec.analysis.samples if samples is None else samples
     seed = spec.analysis.seed if seed is None else seed
-    if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) or samples < 2:
-        raise UsageError(f"samples must be a whole number of at least 2, not {samples!r}")
+    if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) or not 2 <= samples <= MAX_SAMPLES:
+        raise UsageError(f"samples must be a whole number from 2 to {MAX_SAMPLES}, not {samples!r}")
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
         raise UsageError(f"seed must be a whole number of at least 0, not {seed!r}")
     if source_impedance_ohm is not None:

@@ -91,6 +91,25 @@ def _quantity(text: str, dimension: str, option: str) -> float:
         raise UsageError(f"{option}: {' '.join(str(exc).split())}") from None
 
 
+def _check_output(path: str, project: str) -> None:
+    """Refuse an output path early (before any computing): the input itself, or a missing folder.
+
+    :func:`planner.fsio.write_atomic` checks both again when it writes.
+    """
+    import os
+
+    from .errors import UsageError
+    from .fsio import _same_file
+
+    if _same_file(path, project):
+        raise UsageError(f"{path}: refusing to overwrite the input file {project}; choose another output path")
+    folder = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(folder):
+        raise UsageError(f"{path}: the folder {folder} does not exist; create it or choose another output path")
+    if os.path.isdir(path):
+        raise UsageError(f"{path}: is a folder; give a file name for the output")
+
+
 def _cautions_tail(result: dict) -> str:
     cautions = result.get("cautions") or []
     if not cautions:
@@ -105,6 +124,8 @@ def cmd_size(args) -> int:
     from .fsio import write_atomic
     from .size import format_sizing_table, network_yaml, size, sizing_json
 
+    if args.write_network:
+        _check_output(args.write_network, args.project)
     spec = _load(args)
     sizing = size(spec)
     result = sizing_json(sizing)
@@ -180,6 +201,7 @@ def cmd_dossier(args) -> int:
 
     spec = _load(args)
     out = args.output or _default_pdf(args.project)
+    _check_output(out, args.project)
     show = _progress(args)
     try:
         path = build_dossier(spec, out, date=args.date, samples=args.samples, progress=show)

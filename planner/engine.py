@@ -172,7 +172,7 @@ class Engine:
             return name
         if name in self._states:
             return self._states[name]
-        return nw.state(self.net, name)  # raises a helpful error
+        return nw.state(self.net, name, self.spec.path)  # raises a helpful error
 
     def transitions(self) -> list[nw.SwitchState]:
         return nw.transition_states(self.net)

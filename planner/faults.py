@@ -37,7 +37,7 @@ from . import network as nw
 from .engine import Engine
 from .errors import ProjectError, SolveError
 from .model import Diode, Spec
-from .stress import (HAZARD_DC_V, HAZARD_PEAK_V, HAZARD_RMS_V, STANDARD_CAUTIONS, Stimulus, assess,
+from .stress import (HAZARD_DC_V, HAZARD_PEAK_V, HAZARD_RMS_V, STANDARD_CAUTIONS, Stimulus, _ratio_text, assess,
                      describe_stress, stimulus_cautions, wrap)
 
 #: Rated impulse voltages [V peak] by line-to-neutral voltage and category
@@ -435,10 +435,12 @@ def faults_project(spec: Spec, *, position: str | None = None, only_failing: boo
     def mark(case, pos_key):
         key = (pos_key, case["stimulus"])
         a = accept.get(key)
-        case["accepted"] = a is not None
-        case["accept_reason"] = a.reason if a else None
         if a is not None:
             used.add(key)
+            if a.expanded and case["verdict"] not in FAILING:
+                a = None  # an entry listing several cases accepts only the failing ones
+        case["accepted"] = a is not None
+        case["accept_reason"] = a.reason if a else None
         return case
 
     tstates = [s for s in transition_states(engine)
@@ -497,9 +499,17 @@ def faults_project(spec: Spec, *, position: str | None = None, only_failing: boo
     cautions = _all_cautions(spec, net, positions)
     accepted = [{"position": c["position"] if c in cases else c["state"], "stimulus": c["stimulus"],
                  "verdict": c["verdict"], "reason": c["accept_reason"]} for c in cases + transitions if c["accepted"]]
+    known_pos = {p.name for p in net.positions} | {st.name for st in transition_states(engine)}
+    known_stim = {c["stimulus"] for c in cases + transitions} | {c["name"] for c in columns}
+
+    def unmatched_entry(key, a):
+        if key in used or (position is not None and a.position != position):
+            return False
+        # a listed combination that does not apply is no typo; an unknown name is
+        return not a.expanded or a.position not in known_pos or a.stimulus not in known_stim
+
     unmatched = [{"position": a.position, "stimulus": a.stimulus, "reason": a.reason, "line": a.line}
-                 for key, a in accept.items() if key not in used and
-                 (position is None or a.position == position)]
+                 for key, a in accept.items() if unmatched_entry(key, a)]
     columns.sort(key=lambda c: rank.get(c["name"], len(rank)))
     if only_failing:
         cases = [c for c in cases if c["verdict"] in FAILING]
@@ -581,7 +591,21 @@ def format_faults(result: dict) -> str:
                 cells.append(txt.ljust(cell_w))
             lines.append(p.ljust(pos_w) + "".join(cells).rstrip())
         lines.append("")
-    for code, col in zip(codes, cols):
+    names = [c["name"] for c in cols]
+    k = 0
+    while k < len(cols):
+        col, code = cols[k], codes[k]
+        pair = {"range up": "range down", "max input": "max input reversed"}.get(col["name"])
+        if pair is not None and k + 1 < len(cols) and names[k + 1] == pair:
+            if col["name"] == "range up":
+                text = (f"{code}/{codes[k + 1]} = range up/down: full scale of the next higher/lower range of "
+                        "the same quantity")
+            else:
+                st = Stimulus(col["name"], col["kind"], col["value"], col["waveform"], col["r_source_ohm"] or 0.0)
+                text = f"{code}/{codes[k + 1]} = max input (reversed): +-{st.describe()}"
+            lines.append(f"  {text}"[:_WIDTH])
+            k += 2
+            continue
         if col["name"] in ("range up", "range down"):
             desc = col.get("detail", "")
         else:
@@ -589,82 +613,216 @@ def format_faults(result: dict) -> str:
                           col.get("current_limit_a"))
             desc = st.describe()
         lines.append(f"{code:>4} = {col['name']}: {desc}"[:_WIDTH])
-    lines.append("Cells: verdict and the largest stress / rating; ok, pegs (pointer past its stop), OVER (overstress),")
-    lines.append("HAZ (hazard); * accepted; - not applicable; . not shown (only failing).")
+        k += 1
+    marks = "".join(lines)
+    legend = "Cells: verdict and largest stress/rating; pegs: pointer past its stop; * accepted"
+    legend += "; - not applicable" if " - " in marks or marks.endswith("-") else ""
+    legend += "; . not shown (only failing)" if ". " in marks else ""
+    lines += _wrap_flat("", legend + ".")
 
-    bad = [c for c in result["cases"] if c["verdict"] in FAILING]
+    code_of = {col["name"]: code for code, col in zip(codes, cols)}
+    cases = result["cases"]
+    lines += [""] + _summary_lines(cases)
+    lines += _fuse_lines(cases, code_of)
+    bad = [c for c in cases if c["verdict"] in FAILING and not c.get("accepted")]
     if bad:
-        lines += ["", "Failing cases (the part that fails first):"]
-        for c in sorted(bad, key=lambda c: (c["accepted"], -_worst_ratio(c))):
-            acc = f"  [accepted: {c['accept_reason']}]" if c["accepted"] else ""
-            lines.append(f"  {c['position']} | {c['stimulus']}: {c['verdict'].upper()}{acc}")
-            lines += wrap("      ", describe_stress(c['deciding']))
-            others = [x for x in c["stresses"] if x["exceeded"] and x is not c["deciding"]
-                      and x["limit"] != "fuse trigger"][:1]
-            for x in others:
-                lines.append(f"      then {describe_stress(x)}")
-            for f in c.get("fuses", []):
-                if f["opens"] and not f.get("after"):
-                    t = f["pre_arcing_time_s"]
-                    tt = ("an unknown time" if not f.get("time_known", True) else
-                          "a long time (below its curve)" if t is None else f"{t:.3g} s")
-                    lines.append(f"      {f['name']} opens after {tt}; prospective "
-                                 f"{format_si(f['prospective_current_a'], 'A', 3)}, breaking capacity "
-                                 f"{format_si(f['breaking_capacity_a'], 'A', 3)}")
+        lines += ["", "Failing, grouped by the part that fails first (worst first):"]
+        lines += _failing_groups(bad, code_of)
+    acc = [c for c in cases if c.get("accepted")]
+    if acc:
+        lines += ["", f"Accepted ({len(acc)} case{'s' if len(acc) != 1 else ''}), by reason:"]
+        lines += _accepted_groups(acc, code_of)
 
+    lines.append("")
     if result["transitions"]:
-        lines += ["", "Switch transitions, turning from the first position with its stimuli still applied:"]
-        styles = (nw.MAKE_BEFORE_BREAK, nw.BREAK_BEFORE_MAKE)
-        tstims = list(dict.fromkeys(t["stimulus"] for t in result["transitions"]))
-        turns = list(dict.fromkeys(t["turn"] for t in result["transitions"]))
-        tb = {(t["turn"], t["style"], t["stimulus"]): t for t in result["transitions"]}
-        turn_w = max(len("turning"), *(len(x) for x in turns)) + 2
-        group_w = max(cell_w * len(tstims) + 2, max(len(x) for x in styles) + 2)
-        lines.append(" " * turn_w + "".join(x.replace("_", "-").ljust(group_w) for x in styles).rstrip())
-        lines.append("turning".ljust(turn_w) + "".join(
-            "".join(_SHORT.get(x, x)[:cell_w - 1].ljust(cell_w) for x in tstims).ljust(group_w)
-            for _ in styles).rstrip())
-        for turn in turns:
-            row = turn.ljust(turn_w)
-            for sty in styles:
-                row += "".join((_cell(tb[(turn, sty, x)]) if (turn, sty, x) in tb else ".").ljust(cell_w)
-                               for x in tstims).ljust(group_w)
-            lines.append(row.rstrip())
-        bad_t = [t for t in result["transitions"] if t["verdict"] in FAILING]
-        for t in sorted(bad_t, key=lambda t: -_worst_ratio(t))[:12]:
-            lines += wrap("  ", f"{t['state']} | {t['stimulus']}: {t['verdict'].upper()} - "
-                                f"{describe_stress(t['deciding'])}")
-        if len(bad_t) > 12:
-            lines.append(f"  ... and {len(bad_t) - 12} more failing transition cases (see --json)")
+        lines.append("Switch transitions (both ways, with the full scale and max input of the position left):")
+        lines += _transition_lines(result["transitions"])
     need = result["contact_style_needed"]
     text = {"either": "either contact style is safe", "make_before_break": "the switch needs make-before-break "
             "contacts", "break_before_make": "the switch needs break-before-make contacts",
             "neither": "neither contact style is safe: change the arrangement or protect the movement"}[need]
     decl = result.get("contact_style_declared")
-    lines += ["", f"Contact style: {text}" + (f" (declared: {decl.replace('_', '-')})" if decl else "") + "."]
+    lines += [f"Contact style: {text}" + (f" (declared: {decl.replace('_', '-')})" if decl else "") + "."]
 
     if result["protection_curves"]:
-        lines += ["", "Protection curves: input at which the clamps halve the unclamped movement current:"]
-        for c in result["protection_curves"]:
-            if not c["has_clamps"]:
-                lines.append(f"  {c['position']}: no clamps")
-                continue
-            hp = c["halving_input_positive"]
-            hn = c["halving_input_negative"]
-            f = (lambda v: "never in the sweep" if v is None else format_si(v, c["unit"], 3))  # noqa: E731
-            lines.append(f"  {c['position']}: {f(hp)} / {f(hn)} (sweep +-{format_si(c['applied'][-1], c['unit'], 3)})")
-    if result["accepted"]:
-        lines += ["", "Accepted cases:"]
-        for a in result["accepted"]:
-            lines.append(f"  {a['position']} | {a['stimulus']}: {a['verdict']} - {a['reason']}"[:_WIDTH])
+        lines += _curve_lines(result["protection_curves"])
     for a in result.get("accept_unmatched", []):
-        lines.append(f"Note: faults.accept names no case: {a['position']} | {a['stimulus']}")
+        lines.append(f"Note: faults.accept names no case: {a['position']} | {a['stimulus']}"[:_WIDTH])
     if result["cautions"]:
         lines += [""]
-        for c in result["cautions"]:
+        for c in _merged_cautions(result["cautions"]):
             lines += wrap("CAUTION: ", c)
-    lines += ["", "Requirements met." if result["requirements_met"] else "Requirements NOT met."]
+    lines += ["Requirements met." if result["requirements_met"] else "Requirements NOT met."]
     return "\n".join(lines)
+
+
+def _wrap_flat(prefix: str, text: str, indent: str | None = None) -> list[str]:
+    """``text`` wrapped to the terminal width, continuation lines indented like the first (or ``indent``)."""
+    import textwrap
+
+    return textwrap.wrap(text, width=_WIDTH, initial_indent=prefix, subsequent_indent=indent or " " * len(prefix),
+                         break_long_words=False, break_on_hyphens=False) or [prefix.rstrip()]
+
+
+def _quantity_head(q: str) -> str:
+    """A stress quantity without its phase words (``'power after F1 opens'`` -> ``'power'``)."""
+    for w in (" while ", " until ", " after "):
+        if w in q:
+            q = q.split(w)[0]
+    return q
+
+
+def _case_list(cases, code_of, with_ratio=False) -> str:
+    """``'10 V: S1 S3; 50 V: S1'``: cases by position, stimuli by their column codes."""
+    by: dict[str, list[str]] = {}
+    for c in cases:
+        code = code_of.get(c["stimulus"], c["stimulus"])
+        if with_ratio:
+            code += f" ({_short_ratio(_worst_ratio(c))}x)"
+        by.setdefault(c.get("state", c["position"]) if c.get("style") else c["position"], []).append(code)
+    return "; ".join(f"{p}: {' '.join(v)}" for p, v in by.items())
+
+
+def _summary_lines(cases) -> list[str]:
+    n = len(cases)
+    count = {v: sum(1 for c in cases if c["verdict"] == v) for v in ("ok", "pegs", "overstress", "hazard")}
+    acc = sum(1 for c in cases if c.get("accepted") and c["verdict"] in FAILING)
+    fail = count["overstress"] + count["hazard"] - acc
+    fused = sum(1 for c in cases if c.get("fuse_opens") and c["verdict"] not in FAILING)
+    text = (f"{n} cases: {count['ok'] + count['pegs']} survive ({count['ok']} ok, {count['pegs']} pegs"
+            + (f"; {fused} as a fuse opens" if fused else "") + f"), {acc} fail but are accepted, "
+            + (f"{fail} FAIL." if fail else "0 fail."))
+    return wrap("", text, _WIDTH)
+
+
+def _fuse_lines(cases, code_of) -> list[str]:
+    """The cases the instrument survives because a fuse opens: when, how much, the closest part."""
+    from .units import format_si
+
+    ok = [c for c in cases if c.get("fuse_opens") and c["verdict"] not in FAILING and c.get("event_time_s")]
+    if not ok:
+        return []
+    out = ["Survived because the fuse opens (replace the fuse afterwards):"]
+    by: dict[tuple, list[dict]] = {}
+    for c in ok:
+        by.setdefault((c["position"], c["fuse"]), []).append(c)
+    for (pos, fuse), group in by.items():
+        t = [c["event_time_s"] for c in group]
+        i2t = max(c["let_through_i2t_a2s"] for c in group)
+        close = [x for c in group for x in c["stresses"] if x["limit"] == "rating"]
+        worst = max(close, key=lambda x: x["ratio"]) if close else None
+        duty = [x for c in group for x in c["stresses"] if x["limit"] == "safety"]
+        when = format_si(min(t), "s", 3) + ("" if max(t) == min(t) else f" to {format_si(max(t), 's', 3)}")
+        stims = " ".join(code_of.get(c["stimulus"], c["stimulus"]) for c in group)
+        text = (f"{pos} ({stims}): {fuse} opens in {when}, let-through up to {i2t:.3g} A^2 s; closest part: "
+                f"{describe_stress(worst)}")
+        for q in ("prospective current", "voltage across the open fuse"):
+            xs = [x for x in duty if x["quantity"].startswith(q)]
+            if xs:
+                x = max(xs, key=lambda x: x["ratio"])
+                text += f"; {q} {format_si(x['value'], x['unit'], 3)} of {format_si(x['rating'], x['unit'], 3)}"
+        out += _wrap_flat("  ", text)
+    return out
+
+
+def _failing_groups(bad, code_of) -> list[str]:
+    groups: dict[tuple, list[dict]] = {}
+    for c in bad:
+        d = c["deciding"] or {}
+        groups.setdefault((d.get("part", "?"), _quantity_head(d.get("quantity", "?"))), []).append(c)
+    order = sorted(groups.items(), key=lambda kv: -max(_worst_ratio(c) for c in kv[1]))
+    out = []
+    for (part, q), group in order:
+        worst = max(group, key=_worst_ratio)
+        verdicts = "/".join(sorted({_WORD[c["verdict"]] for c in group}))
+        out += _wrap_flat("  ", f"{verdicts} {describe_stress(worst['deciding'])}")
+        out += _wrap_flat("      ", _case_list(sorted(group, key=lambda c: -_worst_ratio(c)), code_of, True))
+    return out
+
+
+def _accepted_groups(acc, code_of) -> list[str]:
+    groups: dict[str, list[dict]] = {}
+    for c in acc:
+        groups.setdefault(c["accept_reason"] or "", []).append(c)
+    out = []
+    for reason, group in groups.items():
+        failing = [c for c in group if c["verdict"] in FAILING]
+        out += _wrap_flat("  - ", reason, "    ")
+        tail = ""
+        if failing:
+            worst = max(failing, key=_worst_ratio)
+            d = worst["deciding"] or {}
+            tail = (f"; worst {d.get('part', '?')} {_quantity_head(d.get('quantity', '?'))} "
+                    f"{_ratio_text(d.get('ratio', 0.0))} ({worst['position']} "
+                    f"{code_of.get(worst['stimulus'], worst['stimulus'])})")
+        out += _wrap_flat("      ", _case_list(group, code_of) + tail)
+    return out
+
+
+def _transition_lines(transitions) -> list[str]:
+    out = []
+    for sty in (nw.MAKE_BEFORE_BREAK, nw.BREAK_BEFORE_MAKE):
+        ts = [t for t in transitions if t["style"] == sty]
+        if not ts:
+            continue
+        bad = [t for t in ts if t["verdict"] in FAILING and not t.get("accepted")]
+        name = sty.replace("_", "-")
+        if not bad:
+            out.append(f"  {name}: all {len(ts)} cases survive")
+            continue
+        worst = max(bad, key=_worst_ratio)
+        turns = len(set(t["turn"] for t in bad))
+        out += _wrap_flat("  ", f"{name}: {len(bad)} of {len(ts)} cases fail ({turns} turns); worst {worst['turn']} "
+                                f"| {worst['stimulus']}: {_WORD[worst['verdict']]} "
+                                f"{describe_stress(worst['deciding'])}", "    ")
+    return out
+
+
+_HAZ_CAUTION = re.compile(r"Hazardous voltage: (.+?) (?:exceeds|measures?) (?:voltages above )?the hazardous-live "
+                          r"limits of IEC 61010-1 \((.+?)\)\.")
+
+
+def _merged_cautions(cautions) -> list[str]:
+    """The cautions with the hazardous-voltage ones merged into one (for the terminal only)."""
+    items, limits, out, at = [], None, [], None
+    for c in cautions:
+        mt = _HAZ_CAUTION.fullmatch(c)
+        if mt is None:
+            out.append(c)
+            continue
+        if at is None:
+            at = len(out)
+        items.append(mt.group(1))
+        limits = mt.group(2)
+    if len(items) > 1:
+        out.insert(at, f"Hazardous voltages, beyond the hazardous-live limits of IEC 61010-1 ({limits}): "
+                       + "; ".join(items) + ".")
+        return out
+    return list(cautions)
+
+
+def _curve_lines(curves) -> list[str]:
+    from .units import format_si
+
+    halves, never, bare = [], [], []
+    for c in curves:
+        if not c["has_clamps"]:
+            bare.append(c["position"])
+            continue
+        hp, hn = c["halving_input_positive"], c["halving_input_negative"]
+        if hp is None and hn is None:
+            never.append(c["position"])
+            continue
+        f = (lambda v: "never" if v is None else format_si(abs(v), c["unit"], 3))  # noqa: E731
+        both = f"+-{f(hp)}" if (hp is not None and hn is not None and math.isclose(abs(hp), abs(hn), rel_tol=1e-3)) \
+            else f"+{f(hp)}/-{f(hn)}"
+        halves.append(f"{c['position']} {both}")
+    text = "Clamps halve the unclamped movement current at: " + (", ".join(halves) if halves else "no position")
+    if never:
+        text += "; not within the sweep on " + ", ".join(never)
+    if bare:
+        text += "; no clamps on " + ", ".join(bare)
+    return wrap("", text + ".", _WIDTH)
 
 
 __all__ = [

@@ -119,6 +119,13 @@ class ResistorParts:
         Power ratings the sizer may step up to, ascending [W].
     max_voltages_v : tuple of float
         Limiting element voltage belonging to each power rating [V].
+    pulse_energy_j : float or None
+        Single-pulse energy [J] a part of the default rating (``power_w``,
+        ``max_voltage_v``) survives for any pulse up to 5 s; None for the
+        conservative rule of :func:`planner.stress.resistor_pulse_limit_j`.
+    pulse_energies_j : tuple of (float or None)
+        The same for each power rating of ``power_ratings_w`` (empty, or one
+        entry per rating; None where the rating gives none).
     """
 
     series: str = "E96"
@@ -129,6 +136,8 @@ class ResistorParts:
     distribution: str = "uniform"
     power_ratings_w: tuple[float, ...] = ()
     max_voltages_v: tuple[float, ...] = ()
+    pulse_energy_j: float | None = None
+    pulse_energies_j: tuple[float | None, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -166,6 +175,10 @@ class DiodeModel:
         Maximum dissipation [W].
     i_s_spread : float
         Relative spread of ``i_s_a`` between parts (fraction; 0.5 is +-50 %).
+    i2t_a2s : float or None
+        Non-repetitive I^2 t for pulses shorter than one half-cycle of the surge
+        test [A^2 s] ("I^2 t for fusing"); None to derive it from
+        ``surge_current_a`` (see :func:`planner.stress.diode_i2t_a2s`).
     """
 
     name: str
@@ -182,6 +195,7 @@ class DiodeModel:
     surge_current_a: float = math.inf
     max_power_w: float = math.inf
     i_s_spread: float = 0.0
+    i2t_a2s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -203,6 +217,10 @@ class FuseModel:
         Time-current points, ascending current.
     max_voltage_v : float
         Rated voltage [V].
+    clearing_i2t_a2s : float or None
+        Total operating (clearing, let-through) I^2 t at high fault current:
+        pre-arcing plus arcing [A^2 s]; None when unknown (the pulse is then
+        counted over the pre-arcing time only).
     """
 
     name: str
@@ -212,6 +230,7 @@ class FuseModel:
     i2t_a2s: float | None = None
     curve: tuple[tuple[float, float], ...] = ()
     max_voltage_v: float = math.inf
+    clearing_i2t_a2s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -232,7 +251,10 @@ class Resistor:
 
     ``target_ohm`` is the ideal value the sizer aimed at (None for an explicit
     network). ``group`` names the segment a resistor belongs to when the sizer
-    built one segment from several parts.
+    built one segment from several parts. ``pulse_energy_j`` is the single-pulse
+    energy [J] the part survives (None: that of its rating in
+    ``parts.resistors``, else the conservative rule of
+    :func:`planner.stress.resistor_pulse_limit_j`).
     """
 
     name: str
@@ -249,6 +271,7 @@ class Resistor:
     trimmer: bool = False
     distribution: str = "uniform"
     line: int | None = None
+    pulse_energy_j: float | None = None
 
     kind = "resistor"
 
@@ -443,12 +466,19 @@ class FaultSource:
 
 @dataclass(frozen=True)
 class Acceptance:
-    """A fault case the designer accepts, with the reason."""
+    """A fault case the designer accepts, with the reason.
+
+    ``expanded`` is True when the case came from an entry that lists several
+    positions or stimuli: such an entry accepts only the failing cases among
+    them, and a combination that does not exist (a stimulus that does not apply
+    to that position) is not reported as naming no case.
+    """
 
     position: str
     stimulus: str
     reason: str
     line: int | None = None
+    expanded: bool = False
 
 
 @dataclass(frozen=True)

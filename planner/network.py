@@ -95,15 +95,31 @@ def transition_states(net: NetworkSpec) -> list[SwitchState]:
     return out
 
 
-def state(net: NetworkSpec, name: str) -> SwitchState:
-    """The state of a position (or transition) by name; a clear error otherwise."""
+def state(net: NetworkSpec, name: str, path: str | None = None) -> SwitchState:
+    """The state of a position (or transition) by name; a clear error otherwise.
+
+    ``path`` (the project file) is named in the error, which suggests the nearest
+    position name ignoring case and spaces.
+    """
     for s in position_states(net) + transition_states(net):
         if s.name == name:
             return s
     names = [p.name for p in net.positions]
-    hint = difflib.get_close_matches(name, names, n=1)
-    more = f" Did you mean '{hint[0]}'?" if hint else ""
-    raise ProjectError(f"no position named '{name}'.{more} Positions: {', '.join(names)}")
+    hint = _nearest_name(name, names)
+    more = f" (did you mean '{hint}'?)" if hint else ""
+    raise ProjectError(f"no switch position named '{name}'{more}; give one of: {', '.join(names)}", path)
+
+
+def _nearest_name(name: str, names: list[str]) -> str | None:
+    """The position name nearest to ``name``, ignoring case and spaces ('10v' -> '10 V')."""
+    def squash(s: str) -> str:
+        return "".join(s.split()).lower()
+
+    by_squash = {squash(n): n for n in names}
+    if squash(name) in by_squash:
+        return by_squash[squash(name)]
+    hint = difflib.get_close_matches(squash(name), list(by_squash), n=1, cutoff=0.6)
+    return by_squash[hint[0]] if hint else None
 
 
 def active_graph(net: NetworkSpec, st: SwitchState) -> nx.MultiGraph:
@@ -131,9 +147,10 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
     """Graph-level checks of a network, each error naming the element and its line.
 
     Checks: a node that only one element touches and that is no input terminal (a
-    dangling wire, usually a misspelt node name); a position that no contact serves;
-    a position whose input terminals are not joined by any path; a movement that is
-    not in the path of a position.
+    dangling wire, usually a misspelt node name); elements connected to no input
+    terminal (an island); a position that no contact serves; a position whose input
+    terminals are not joined by any path; a movement that is not in the current-carrying part of a
+    position (the block of the graph that holds the source).
 
     Raises
     ------
@@ -152,6 +169,19 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             hint = difflib.get_close_matches(node, others, n=1)
             more = f" Did you mean '{hint[0]}'?" if hint else " Connect it or remove the element."
             raise ProjectError(f"node '{node}' is floating: only {key} touches it.{more}", path, e.line)
+    reach: set = set()
+    for t in terminals:
+        if t in full:
+            reach |= nx.node_connected_component(full, t)
+    stray = [e for e in net.elements if e.nodes[0] not in reach]
+    if stray:  # an island: parts that no switch position can ever put in circuit
+        island = nx.node_connected_component(full, stray[0].nodes[0])
+        names = [e.name for e in stray if e.nodes[0] in island]
+        raise ProjectError(
+            f"{', '.join(names)} {'is' if len(names) == 1 else 'are'} connected to no input terminal "
+            f"(nodes {', '.join(sorted(map(str, island)))} form an island), so no position ever puts "
+            f"{'it' if len(names) == 1 else 'them'} in circuit; connect the island to the meter or remove it",
+            path, stray[0].line)
     has_contacts = any(isinstance(e, Contact) for e in net.elements)
     for st in position_states(net):
         p = st.position
@@ -165,10 +195,8 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             raise ProjectError(
                 f"position '{p.name}': no path joins its input terminals {plus} and {minus}; check the contacts closed in it",
                 path, p.line)
-        h = nx.MultiGraph(g)
-        h.remove_edge(movement.a, movement.b, key=movement.name)
-        h.add_edge(plus, minus, key="__source__")
-        if not (h.has_node(movement.a) and h.has_node(movement.b) and nx.has_path(h, movement.a, movement.b)):
+        main, _ = _current_carrying(g, plus, minus)
+        if movement.a not in main or movement.b not in main:
             raise ProjectError(
                 f"position '{p.name}': the movement {movement.name} is not in the path from {plus} to {minus}, "
                 f"so it would never deflect; check the contacts closed in it", path, p.line)

@@ -7,7 +7,9 @@ tree that keeps every node's position, so each error names the file and the
 :func:`planner.units.parse` and lands in the model as an SI float.
 
 Guards: files over 5 MB, bytes that are not UTF-8, nesting deeper than 64,
-more than 200 000 values after alias expansion (an "alias bomb"), duplicate
+more than 200 000 values after alias expansion (an "alias bomb"), more than
+64 positions (or ranges), 256 network elements, 64 fault sources or 200 000
+Monte Carlo samples, duplicate
 keys (YAML would silently keep the last one), unknown keys (with the nearest
 known key suggested) and tags outside plain YAML are all refused with a
 :class:`planner.errors.ProjectError`.
@@ -36,7 +38,10 @@ from planner import model, units
 from planner.errors import ProjectError
 from planner.units import QuantityError, format_si
 
-__all__ = ["load", "loads", "MAX_FILE_BYTES", "MAX_NODES", "MAX_DEPTH", "IEC_CLASSES", "E_SERIES"]
+__all__ = [
+    "load", "loads", "MAX_FILE_BYTES", "MAX_NODES", "MAX_DEPTH", "MAX_POSITIONS", "MAX_ELEMENTS", "MAX_SOURCES",
+    "MAX_SAMPLES", "IEC_CLASSES", "E_SERIES",
+]
 
 #: Largest project file accepted [bytes] (5 MB).
 MAX_FILE_BYTES = 5_000_000
@@ -44,6 +49,14 @@ MAX_FILE_BYTES = 5_000_000
 MAX_NODES = 200_000
 #: Deepest nesting of lists and mappings.
 MAX_DEPTH = 64
+#: Most switch positions (network positions, and voltage or current ranges each).
+MAX_POSITIONS = 64
+#: Most elements of an explicit network (the solver's matrices grow with its square).
+MAX_ELEMENTS = 256
+#: Most fault sources.
+MAX_SOURCES = 64
+#: Most Monte Carlo builds (``analysis.samples``).
+MAX_SAMPLES = 200_000
 
 #: IEC 60051 class indices (from memory, see /work/shared/references.md).
 IEC_CLASSES = (0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0, 5.0)
@@ -76,8 +89,10 @@ MOVEMENT_KEYS = (
 OVERLOAD_KEYS = ("peg", "short_time", "continuous")
 AMBIENT_KEYS = ("reference", "min", "max")
 PARTS_KEYS = ("resistors", "diodes", "fuses")
-RESISTOR_PARTS_KEYS = ("series", "tolerance", "tempco", "power", "max_voltage", "distribution", "ratings")
-RATING_KEYS = ("power", "max_voltage")
+RESISTOR_PARTS_KEYS = (
+    "series", "tolerance", "tempco", "power", "max_voltage", "pulse_energy", "distribution", "ratings"
+)
+RATING_KEYS = ("power", "max_voltage", "pulse_energy")
 DIODE_KEYS = (
     "saturation_current",
     "emission",
@@ -92,8 +107,9 @@ DIODE_KEYS = (
     "surge_current",
     "max_power",
     "saturation_current_spread",
+    "i2t",
 )
-FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "curve", "max_voltage")
+FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "clearing_i2t", "curve", "max_voltage")
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
@@ -116,6 +132,7 @@ ELEMENT_KEYS = {
         "target",
         "group",
         "trimmer",
+        "pulse_energy",
     ),
     "movement": ("name", "kind", "between"),
     "diode": ("name", "kind", "anode", "cathode", "model"),
@@ -784,9 +801,11 @@ def _resistor_parts(ctx: _Ctx, node: _Node | None) -> model.ResistorParts:
     _tempco_bound(ctx, tempco, m, "tempco")
     power = m.qty("power", "power", d.power_w, check="pos")
     vmax = m.qty("max_voltage", "voltage", d.max_voltage_v, check="pos")
+    pulse = m.qty("pulse_energy", "energy", None, check="pos")
     dist = m.choice("distribution", ("uniform", "normal"), d.distribution)
     powers: list[float] = []
     volts: list[float] = []
+    pulses: list[float | None] = []
     rn = m.get("ratings")
     if rn is not None:
         items = ctx.seq(
@@ -798,6 +817,7 @@ def _resistor_parts(ctx: _Ctx, node: _Node | None) -> model.ResistorParts:
             r = ctx.mapping(item, where, RATING_KEYS, "{power: 0.25 W, max_voltage: 250 V}")
             p = r.qty("power", "power", check="pos", example="0.25 W")
             v = r.qty("max_voltage", "voltage", check="pos")
+            pulses.append(r.qty("pulse_energy", "energy", None, check="pos"))
             if powers and p <= powers[-1]:
                 ctx.fail(
                     f"{where}.power {format_si(p, 'W')} is not above the one before "
@@ -816,6 +836,8 @@ def _resistor_parts(ctx: _Ctx, node: _Node | None) -> model.ResistorParts:
         distribution=dist,
         power_ratings_w=tuple(powers),
         max_voltages_v=tuple(volts),
+        pulse_energy_j=pulse,
+        pulse_energies_j=tuple(pulses) if any(x is not None for x in pulses) else (),
     )
 
 
@@ -850,6 +872,7 @@ def _diode_model(ctx: _Ctx, name: str, node: _Node) -> model.DiodeModel:
     i_surge = m.qty("surge_current", "current", d.surge_current_a, check="pos")
     p_max = m.qty("max_power", "power", d.max_power_w, check="pos")
     spread = m.qty("saturation_current_spread", "fraction", d.i_s_spread, check="frac")
+    d_i2t = m.qty("i2t", "i2t", None, check="pos")
     return model.DiodeModel(
         name=name,
         i_s_a=i_s,
@@ -865,6 +888,7 @@ def _diode_model(ctx: _Ctx, name: str, node: _Node) -> model.DiodeModel:
         surge_current_a=i_surge,
         max_power_w=p_max,
         i_s_spread=spread,
+        i2t_a2s=d_i2t,
     )
 
 
@@ -884,6 +908,14 @@ def _fuse_model(ctx: _Ctx, name: str, node: _Node) -> model.FuseModel:
             m.get("breaking_capacity").line,
         )
     i2t = m.qty("i2t", "i2t", None, check="pos")
+    clearing = m.qty("clearing_i2t", "i2t", None, check="pos")
+    if clearing is not None and i2t is not None and clearing < i2t:
+        ctx.fail(
+            f"{m.at('clearing_i2t')} ({clearing:.4g} A^2 s) is below the pre-arcing i2t "
+            f"({i2t:.4g} A^2 s); the clearing I2t is pre-arcing plus arcing, so it is the larger: "
+            "check the values",
+            m.get("clearing_i2t").line,
+        )
     vmax = m.qty("max_voltage", "voltage", math.inf, check="pos")
     curve: list[tuple[float, float]] = []
     cn = m.get("curve")
@@ -911,11 +943,19 @@ def _fuse_model(ctx: _Ctx, name: str, node: _Node) -> model.FuseModel:
         i2t_a2s=i2t,
         curve=tuple(curve),
         max_voltage_v=vmax,
+        clearing_i2t_a2s=clearing,
     )
 
 
+def _capped(ctx: _Ctx, items: list, limit: int, where: str, what: str, line: int) -> list:
+    """``items``, or a clear error when there are more than ``limit`` of them (a resource cap)."""
+    if len(items) > limit:
+        ctx.fail(f"{where} has {len(items)} {what}; the planner handles at most {limit}: split the design", line)
+    return items
+
+
 def _ascending(ctx: _Ctx, node: _Node, dim: str, where: str, example: str) -> tuple[list[float], list[_Node]]:
-    items = ctx.seq(node, where, example)
+    items = _capped(ctx, ctx.seq(node, where, example), MAX_POSITIONS, where, "ranges", node.line)
     if not items:
         ctx.fail(f"{where} is an empty list; give at least one range, e.g. {example}", node.line)
     values: list[float] = []
@@ -1031,7 +1071,8 @@ def _faults(ctx: _Ctx, node: _Node | None) -> model.Faults:
     sn = m.get("sources")
     if sn is not None:
         for i, item in enumerate(
-            ctx.seq(sn, "faults.sources", "[{name: wall outlet, voltage: 230 V, waveform: sine}]"), 1
+            _capped(ctx, ctx.seq(sn, "faults.sources", "[{name: wall outlet, voltage: 230 V, waveform: sine}]"),
+                    MAX_SOURCES, "faults.sources", "sources", sn.line), 1
         ):
             where = f"faults.sources[{i}]"
             s = ctx.mapping(item, where, SOURCE_KEYS, "{name: wall outlet, voltage: 230 V, waveform: sine}")
@@ -1078,16 +1119,38 @@ def _faults(ctx: _Ctx, node: _Node | None) -> model.Faults:
         for i, item in enumerate(ctx.seq(an, "faults.accept", f"[{ex}]"), 1):
             where = f"faults.accept[{i}]"
             a = ctx.mapping(item, where, ACCEPT_KEYS, ex)
-            pos = a.text("position", example="'2.5 V'")
-            stim = a.text("stimulus", example="wall outlet")
+            positions, many_p = _accept_names(ctx, a, "position", "'2.5 V'")
+            stimuli, many_s = _accept_names(ctx, a, "stimulus", "wall outlet")
             if not a.has("reason"):
                 ctx.fail(
                     f"{where} has no reason; say why this case is acceptable, e.g. reason: fused in the test lead",
                     a.line,
                 )
             reason = a.text("reason", example="fused in the test lead")
-            accept.append(model.Acceptance(position=pos, stimulus=stim, reason=reason, line=a.line))
+            for pos in positions:
+                for stim in stimuli:
+                    accept.append(
+                        model.Acceptance(
+                            position=pos, stimulus=stim, reason=reason, line=a.line, expanded=many_p or many_s
+                        )
+                    )
     return model.Faults(sources=tuple(sources), max_input_v=max_in, category=category, accept=tuple(accept))
+
+
+def _accept_names(ctx: _Ctx, a: "_Map", key: str, example: str) -> tuple[list[str], bool]:
+    """One name, or a list of names, of an accept entry; True when it was a list."""
+    n = a.req(key, example)
+    if n.kind != "seq":
+        return [ctx.text(n, a.at(key), example)], False
+    items = ctx.seq(n, a.at(key), f"[{example}]")
+    if not items:
+        ctx.fail(f"{a.at(key)} is an empty list; give a name or a list of names, e.g. [{example}]", n.line)
+    names: list[str] = []
+    for i, item in enumerate(items, 1):
+        name = ctx.text(item, f"{a.at(key)}[{i}]", example)
+        if name not in names:
+            names.append(name)
+    return names, True
 
 
 def _category(ctx: _Ctx, node: _Node) -> str:
@@ -1131,9 +1194,11 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
     el_ex = "[{name: R1, kind: resistor, between: [vin, t1], value: 9.8 kohm}, ...]"
     pos_ex = "[{name: '2.5 V', measures: voltage, full_scale: 2.5 V, input: [vin, com]}]"
     el_items = ctx.seq(m.req("elements", el_ex), "network.elements", el_ex)
+    _capped(ctx, el_items, MAX_ELEMENTS, "network.elements", "elements", m.key_line("elements"))
     if not el_items:
         ctx.fail(f"network.elements is empty; list the meter's parts, e.g. {el_ex}", m.key_line("elements"))
     pos_items = ctx.seq(m.req("positions", pos_ex), "network.positions", pos_ex)
+    _capped(ctx, pos_items, MAX_POSITIONS, "network.positions", "positions", m.key_line("positions"))
     if not pos_items:
         ctx.fail(f"network.positions is empty; list the switch positions, e.g. {pos_ex}", m.key_line("positions"))
 
@@ -1179,6 +1244,7 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
                     trimmer=e.boolean("trimmer", False),
                     distribution=rp.distribution,
                     line=e.line,
+                    pulse_energy_j=e.qty("pulse_energy", "energy", None, check="pos"),
                 )
             )
         elif kind == "movement":
@@ -1264,7 +1330,7 @@ def _analysis(ctx: _Ctx, node: _Node | None) -> model.Analysis:
     if node is None:
         return d
     m = ctx.mapping(node, "analysis", ANALYSIS_KEYS, "{samples: 2000, seed: 1}")
-    samples = m.integer("samples", d.samples, 1, 200_000, "2000")
+    samples = m.integer("samples", d.samples, 2, MAX_SAMPLES, "2000")
     seed = m.integer("seed", d.seed, 0, 2**63 - 1, "1")
     share = m.qty("allowed_share", "fraction", d.allowed_share, check="pos")
     if share > 1:

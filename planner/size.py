@@ -25,7 +25,7 @@ import itertools
 import math
 from dataclasses import dataclass, field
 
-from . import eseries
+from . import eseries, writer
 from .errors import ProjectError
 from .model import (
     Contact,
@@ -1340,93 +1340,6 @@ def sizing_json(sizing: Sizing) -> dict:
     }
 
 
-def _q(x: float, unit: str) -> str:
-    """A quantity as project-file text that parses back to the same float."""
-    from .units import format_si
-
-    for digits in range(4, 18):
-        text = format_si(x, unit, digits)
-        num, _, rest = text.partition(" ")
-        if "." in num and "e" not in num:
-            num = num.rstrip("0").rstrip(".")
-        out = f"{num} {rest}".strip()
-        if _parses_to(out, unit, x):
-            return out
-    return f"{x!r} {unit}"
-
-
-def _parses_to(text: str, unit: str, x: float) -> bool:
-    from .units import parse
-
-    dim = {"ohm": "resistance", "V": "voltage", "A": "current", "W": "power"}[unit]
-    try:
-        return parse(text, dim) == x
-    except Exception:
-        return False
-
-
-def _yaml_str(x) -> str:
-    return '"' + str(x).replace("\\", "\\\\").replace('"', '\\"') + '"'
-
-
-def _network_lines(net: NetworkSpec) -> list[str]:
-    lines = ["network:", "  elements:"]
-    for e in net.elements:
-        if isinstance(e, Resistor):
-            extra = [
-                f"value: {_q(e.value_ohm, 'ohm')}",
-                f"tolerance: {e.tolerance * 100:.10g} %",
-                f"tempco: {e.tempco_per_k * 1e6:.10g} ppm/K",
-                f"power: {_q(e.power_w, 'W')}",
-                f"max_voltage: {_q(e.max_voltage_v, 'V')}",
-            ]
-            if e.series is not None:
-                extra.append(f"series: {e.series}")
-            note = []
-            if e.group is not None:
-                note.append(f"segment '{e.group}'")
-            if e.target_ohm is not None:
-                note.append(f"share of target {_fmt(e.target_ohm, 'ohm')}")
-            comment = f"  # {', '.join(note)}" if note else ""
-            lines.append(
-                f"    - {{name: {e.name}, kind: resistor, between: [{e.a}, {e.b}], {', '.join(extra)}}}{comment}"
-            )
-        elif isinstance(e, MovementElement):
-            lines.append(f"    - {{name: {e.name}, kind: movement, between: [{e.a}, {e.b}]}}")
-        elif isinstance(e, Diode):
-            lines.append(f"    - {{name: {e.name}, kind: diode, anode: {e.anode}, cathode: {e.cathode}, model: {e.model}}}")
-        elif isinstance(e, Contact):
-            closed = ", ".join(_yaml_str(c) for c in e.closed_in)
-            extra = f", resistance: {_q(e.r_ohm, 'ohm')}" if e.r_ohm else ""
-            lines.append(f"    - {{name: {e.name}, kind: contact, between: [{e.a}, {e.b}], closed_in: [{closed}]{extra}}}")
-    lines.append("  positions:")
-    for p in net.positions:
-        lines.append(
-            f"    - {{name: {_yaml_str(p.name)}, measures: {p.measures}, full_scale: {_q(p.full_scale, p.unit)}, "
-            f"input: [{p.input[0]}, {p.input[1]}]}}"
-        )
-    return lines
-
-
-def _split_top_level(text: str, keys: tuple[str, ...]) -> tuple[list[str], list[str]]:
-    """Split YAML text into (kept lines, lines of the named top-level blocks).
-
-    A block runs from its ``key:`` line at column 0 to the next line at column 0
-    that is neither blank nor a comment.
-    """
-    kept, removed, skipping = [], [], False
-    for line in text.splitlines():
-        starts = line[:1] not in (" ", "\t", "#", "") and ":" in line
-        if starts:
-            skipping = line.split(":", 1)[0].strip() in keys
-        (removed if skipping else kept).append(line)
-    while kept and not kept[-1].strip():
-        kept.pop()
-    while removed and not removed[-1].strip():
-        removed.pop()
-    return kept, removed
-
-
 def network_yaml(spec: Spec, sizing: Sizing) -> str:
     """A project file holding the sized network explicitly.
 
@@ -1447,18 +1360,13 @@ def network_yaml(spec: Spec, sizing: Sizing) -> str:
             "the project has no file text to extend; load it from a file (planner.project.load) first",
             spec.path,
         )
-    kept, removed = _split_top_level(spec.text, ("voltage", "current", "clamps", "network"))
-    lines = kept + [""]
-    if removed:
-        lines.append("# The request the network below was sized from (kept for the record):")
-        lines += ["# " + x if x.strip() else "#" for x in removed]
-        lines.append("")
-    lines.append(
+    header = [
         f"# Network sized by 'planner size' from {sizing.series} values "
         f"(allowed error {sizing.allowed_error_pct:.3g} % per segment); edit the values freely."
-    )
-    lines += _network_lines(sizing.network)
-    return "\n".join(lines) + "\n"
+    ]
+    return writer.replace_sections(
+        spec.text, ("voltage", "current", "clamps", "network"), writer.network_lines(sizing.network),
+        header=header, record="# The request the network below was sized from (kept for the record):")
 
 
 def format_sizing_table(sizing: Sizing) -> str:

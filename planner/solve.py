@@ -51,6 +51,10 @@ MAX_ITER = 200
 STEP_TOL = 1e-10
 #: Upper bound on floats held by one chunk of the Newton loop (memory limit).
 CHUNK_FLOATS = 4_000_000
+#: Upper bound on floats in the results of one call (node voltages, branch and diode
+#: quantities of every case, about 0.8 GB); a larger batch is refused with a clear
+#: error instead of exhausting the memory.
+MAX_RESULT_FLOATS = 100_000_000
 
 
 def thermal_voltage(t_k):
@@ -237,8 +241,9 @@ def _limit(v_new, v_old, jn: Junctions):
     if finite.any():
         bv = np.where(finite, jn.bv, 0.0)
         vcr = jn.nvt * np.log(jn.nvt / (np.sqrt(2.0) * jn.ibv))
-        w = _pnjlim(-(out + bv), -(v_old + bv), jn.nvt, vcr)
-        out = np.where(finite, -(w + bv), out)
+        w_new = -(out + bv)
+        w = _pnjlim(w_new, -(v_old + bv), jn.nvt, vcr)
+        out = np.where(finite & (w != w_new), -(w + bv), out)  # round trip via -BV only where limited
     return out
 
 
@@ -446,8 +451,10 @@ class _Ports:
                     fin = np.isfinite(bv[d])
                     if fin.any():
                         bvd = np.where(fin, bv[d], 0.0)
-                        wl = _pnjlim(-(new + bvd), -(old + bvd), nvt[d], vcr_bv[d])
-                        new = np.where(fin, -(wl + bvd), new)
+                        w_new = -(new + bvd)
+                        wl = _pnjlim(w_new, -(old + bvd), nvt[d], vcr_bv[d])
+                        # map back only where limiting acted: the round trip via -BV costs ulp(BV)
+                        new = np.where(fin & (wl != w_new), -(wl + bvd), new)
                 small &= np.abs(new - old) <= STEP_TOL * (1.0 + np.abs(old))
                 VJ[d] = new
             finished = pending
@@ -507,8 +514,9 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
     Raises
     ------
     SolveError
-        For a singular linear part (a node with no path to the reference) or a
-        Newton iteration that did not converge after source and gmin stepping.
+        For a singular linear part (a node with no path to the reference), a
+        Newton iteration that did not converge after source and gmin stepping, or a
+        batch whose results would exceed :data:`MAX_RESULT_FLOATS`.
     """
     r = np.atleast_2d(np.asarray(r_branch, dtype=float))
     stim = np.atleast_2d(np.asarray(stimulus, dtype=float))
@@ -524,6 +532,12 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
         raise SolveError(f"{circuit.name}: a stimulus is not finite")
     n, k = circuit.n_nodes, circuit.n_ports
     s_count = stim.shape[1]
+    result_floats = p * s_count * (n + len(circuit.branches) + 2 * d)
+    if result_floats > MAX_RESULT_FLOATS:
+        raise SolveError(
+            f"{circuit.name}: {p * s_count} operating points in one batch would need about "
+            f"{result_floats * 8 / 1e9:.1f} GB for the results (limit {MAX_RESULT_FLOATS * 8 / 1e9:.1f} GB); "
+            "lower the Monte Carlo samples (--samples) or the number of stimuli")
     # chunk over parameter sets so that a chunk holds at most CHUNK_FLOATS floats
     per_set = max(1, s_count * (n + len(circuit.branches) + 8 * d + 4 * k + 2 * k * k) + 2 * n * n)
     step = max(1, CHUNK_FLOATS // per_set)
@@ -612,6 +626,13 @@ def _solve_chunk(circuit: Circuit, r, jn: Junctions, stim) -> Solution:
             raise SolveError(
                 f"{circuit.name}: no operating point found for stimulus {stim.reshape(-1)[bad]:g} "
                 f"(parameter set {bad // s_count}) after Newton, source stepping and gmin stepping")
+        beyond = vj > _EXP_MAX * jn_b.nvt
+        if beyond.any():
+            case, j = (int(x[0]) for x in np.nonzero(beyond))
+            raise SolveError(
+                f"{circuit.name}: diode {circuit.diodes[j]} would be driven {vj[case, j]:.3g} V into conduction "
+                f"at stimulus {stim.reshape(-1)[case]:g} (no resistance limits its current); give the diode model "
+                "a series_resistance or put a resistor in series with it")
         i_d, i_port = ports.currents(vj)
         i_inj = i_port - G_AUX * v  # what the linear part sees through each port
         v_node = stim[:, :, None] * x[:, None, :, 0] + np.einsum(

@@ -17,9 +17,12 @@ part       quantity                          rating
 resistor   mean power                        ``Resistor.power_w``
 resistor   peak voltage                      ``Resistor.max_voltage_v`` (limiting
                                              element voltage)
+resistor   pulse energy while a fuse opens   :func:`resistor_pulse_limit_j`
+resistor   peak voltage while a fuse opens   2 x ``max_voltage_v`` (short time)
 diode      average current (mean of |i|)     ``DiodeModel.max_current_a``
 diode      peak current                      ``DiodeModel.surge_current_a``
 diode      mean power                        ``DiodeModel.max_power_w``
+diode      I^2 t while a fuse opens          :func:`diode_i2t_allowed_a2s`
 movement   peak multiple of I_fs             ``Overload.short_time``
 movement   rms multiple (covers |mean|)      ``Overload.continuous`` (or
                                              ``short_time`` while a fuse opens)
@@ -28,6 +31,13 @@ fuse       rms current                       ``FuseModel.rated_current_a`` (open
 fuse       prospective current               ``FuseModel.breaking_capacity_a``
 fuse       voltage across it once open       ``FuseModel.max_voltage_v``
 ========== ================================= =====================================
+
+While a fuse opens (the pulse from the fault to the end of arcing, see
+:func:`fuse_let_through`) resistors and diodes are judged on their short-time
+(pulse) ratings instead of their continuous ones, and the movement on its
+short-time overload; a case whose parts all survive the pulse, whose fuse breaks
+the prospective current and stands the recovery voltage, is ``ok`` (or ``pegs``):
+the instrument survives, the fuse needs replacing.
 
 The verdict follows the design contract: ``ok``, ``pegs``, ``overstress`` or
 ``hazard``; see :func:`verdict_of` and ``docs/safety.md``.
@@ -67,6 +77,21 @@ HAZARD_DC_V = 70.0
 #: overload test of IEC 60051 applies the overload for about 0.5 s; verify it
 #: against the standard and the movement's data before relying on it.
 SHORT_TIME_S = 0.5
+
+#: Short-time overload of a fixed resistor, IEC 60115-1 (from memory; verify
+#: against the edition in use): 2.5 x the rated voltage sqrt(P R), but not above
+#: 2 x the limiting element voltage, for 5 s. The power factor is 2.5^2.
+SHORT_OVERLOAD_S = 5.0
+SHORT_OVERLOAD_POWER_FACTOR = 2.5 ** 2
+SHORT_OVERLOAD_VOLTAGE_FACTOR = 2.0
+
+#: Duration of a diode's non-repetitive surge-current rating: one half-cycle of
+#: 60 Hz (JEDEC 8.3 ms half-sine; common practice in diode data sheets) [s].
+SURGE_HALF_CYCLE_S = 1.0 / 120.0
+#: Shortest pulse for which a diode's I^2 t (for fusing) holds constant [s]; below
+#: it the current is held to the level that reaches that I^2 t in this time
+#: (from memory: data sheets quote I^2 t for 1 ms to 8.3 ms).
+DIODE_I2T_MIN_S = 1e-3
 
 #: Resistance [ohm] that stands in for a fuse once it has opened: the insulation
 #: of the open fuse, high enough that no part is stressed through it, low enough
@@ -438,6 +463,202 @@ def pre_arcing_time_s(fuse, i_rms_a: float) -> float | None:
     return None
 
 
+def _melting_i2t_a2s(fuse) -> float | None:
+    """Pre-arcing I^2 t of a fuse at high current [A^2 s]: ``i2t``, else the top of its curve."""
+    if fuse.i2t_a2s is not None:
+        return float(fuse.i2t_a2s)
+    if fuse.curve:
+        i_n, t_n = max(fuse.curve)
+        return float(i_n * i_n * t_n)
+    return None
+
+
+def fuse_let_through(fuse, i_rms_a: float) -> dict | None:
+    """The pulse a fuse lets through while it opens at an rms current.
+
+    Parameters
+    ----------
+    fuse : FuseModel
+    i_rms_a : float
+        RMS current through the fuse before it opens [A].
+
+    Returns
+    -------
+    dict or None
+        ``pre_arcing_time_s``, ``arcing_i2t_a2s``, ``let_through_i2t_a2s``,
+        ``event_time_s`` (the equivalent duration of the whole pulse at
+        ``i_rms_a``) and ``arcing_known``; None when the fuse does not open in a
+        known, finite time (no I^2 t or curve, or below its curve).
+
+    Notes
+    -----
+    Pre-arcing :math:`I^2t_{pa} = I_{rms}^2 t_{pa}` with :math:`t_{pa}` from
+    :func:`pre_arcing_time_s`. Arcing adds :math:`I^2t_{arc} = I^2t_{clear} -
+    I^2t_{melt}` (the clearing, i.e. total operating, I^2 t less the melting I^2 t
+    at high current; 0 when ``clearing_i2t_a2s`` is not given). The let-through
+    is :math:`I^2t = I^2t_{pa} + I^2t_{arc}` and the equivalent duration
+    :math:`t_{ev} = I^2t / I_{rms}^2`. A part carrying a fixed share of the fuse
+    current (a linear network) takes the energy :math:`E = \\bar P \\, t_{ev}`,
+    i.e. :math:`E = R \\, I^2t` for a resistor R in series with the fuse, whatever
+    the waveform; the arcing current is at most the current before the arc, so
+    this bounds the energy from above.
+
+    References
+    ----------
+    IEC 60127-1, *Miniature fuses*, and IEC 60269-1, *Low-voltage fuses*:
+    definitions of pre-arcing time, arcing time, operating time and I^2 t (Joule
+    integral). The additive split pre-arcing + arcing is the definition of the
+    operating I^2 t.
+    """
+    i = abs(float(i_rms_a))
+    t_pa = pre_arcing_time_s(fuse, i)
+    if t_pa is None or not math.isfinite(t_pa) or i <= 0.0:
+        return None
+    i2t_pa = i * i * t_pa
+    melt = _melting_i2t_a2s(fuse)
+    clear = fuse.clearing_i2t_a2s
+    arc = max(0.0, clear - melt) if (clear is not None and melt is not None) else 0.0
+    total = i2t_pa + arc
+    return {"pre_arcing_time_s": float(t_pa), "arcing_i2t_a2s": float(arc), "let_through_i2t_a2s": float(total),
+            "event_time_s": float(total / (i * i)), "arcing_known": clear is not None}
+
+
+def short_time_power_w(r: Resistor) -> float:
+    """Power a resistor stands for up to 5 s (IEC 60115-1 short-time overload) [W].
+
+    Parameters
+    ----------
+    r : Resistor
+
+    Returns
+    -------
+    float
+        :math:`P_{st} = \\min(6.25 P, (2 V_{max})^2 / R)` [W].
+
+    Notes
+    -----
+    The short-time overload test applies :math:`U = 2.5 \\sqrt{P R}`, capped at
+    :math:`2 V_{max}`, for 5 s; the power at that voltage is :math:`U^2 / R`.
+
+    References
+    ----------
+    IEC 60115-1, *Fixed resistors for use in electronic equipment - Part 1:
+    Generic specification*, short-time overload test (from memory: 2.5 x rated
+    voltage, not above 2 x limiting element voltage, 5 s; verify against the
+    edition in use).
+    """
+    p = SHORT_OVERLOAD_POWER_FACTOR * r.power_w
+    if math.isfinite(r.max_voltage_v) and r.value_ohm > 0:
+        p = min(p, (SHORT_OVERLOAD_VOLTAGE_FACTOR * r.max_voltage_v) ** 2 / r.value_ohm)
+    return float(p)
+
+
+def resistor_pulse_energy_j(spec, r: Resistor) -> float | None:
+    """The single-pulse energy of a resistor element [J], or None when none is given.
+
+    The element's own ``pulse_energy_j``; else that of the rating it carries in
+    ``parts.resistors`` (matched by power and limiting element voltage: the
+    ``ratings`` ladder, then the default rating).
+    """
+    if r.pulse_energy_j is not None:
+        return float(r.pulse_energy_j)
+    rp = spec.parts.resistors
+    for k, (pw, pe) in enumerate(zip(rp.power_ratings_w, rp.pulse_energies_j)):
+        vk = rp.max_voltages_v[k] if k < len(rp.max_voltages_v) else rp.max_voltage_v
+        if pe is not None and pw == r.power_w and vk == r.max_voltage_v:
+            return float(pe)
+    if rp.pulse_energy_j is not None and rp.power_w == r.power_w and rp.max_voltage_v == r.max_voltage_v:
+        return float(rp.pulse_energy_j)
+    return None
+
+
+def resistor_pulse_limit_j(r: Resistor, duration_s: float, pulse_energy_j: float | None = None) -> float:
+    """Energy a resistor survives in one pulse of a given duration (up to 5 s) [J].
+
+    Parameters
+    ----------
+    r : Resistor
+    duration_s : float
+        Duration of the pulse [s], at most ``SHORT_OVERLOAD_S``.
+    pulse_energy_j : float, optional
+        The part's single-pulse energy [J] (the maker's figure for the shortest
+        pulses; it holds for every duration up to 5 s).
+
+    Returns
+    -------
+    float
+        :math:`E_{allowed} = \\max(E_{pulse}, P_{st} t)` [J].
+
+    Notes
+    -----
+    Two lower bounds of what the part survives, so their maximum is one too:
+    the maker's single-pulse energy :math:`E_{pulse}`, and the short-time
+    overload :math:`P_{st}` (:func:`short_time_power_w`) held for the pulse's
+    duration t (a part that stands :math:`P_{st}` for 5 s stands it for any
+    shorter time). Without a maker's figure only the second applies; it is
+    conservative because the energy a resistor absorbs in a short pulse is
+    limited by the heat capacity that pulse reaches, which shrinks as the pulse
+    shortens: a constant energy taken from the 5 s test would not be.
+
+    References
+    ----------
+    IEC 60115-1, short-time overload test (from memory, see
+    :func:`short_time_power_w`); the maker's single-pulse energy or pulse-load
+    curve (common practice for pulse-withstanding resistors).
+    """
+    t = min(max(float(duration_s), 0.0), SHORT_OVERLOAD_S)
+    return float(max(pulse_energy_j or 0.0, short_time_power_w(r) * t))
+
+
+def diode_i2t_a2s(d) -> float:
+    """Non-repetitive I^2 t of a diode for pulses shorter than the surge half-cycle [A^2 s].
+
+    Parameters
+    ----------
+    d : DiodeModel
+
+    Returns
+    -------
+    float
+        ``d.i2t_a2s`` when given, else :math:`I_{FSM}^2 \\, t_{hs} / 2` with
+        :math:`t_{hs}` = 8.3 ms (``inf`` when the diode has no surge rating).
+
+    Notes
+    -----
+    The surge rating :math:`I_{FSM}` is the peak of one half-sine of 60 Hz;
+    its Joule integral is :math:`\\int_0^{t_{hs}} I_{FSM}^2 \\sin^2(\\pi t / t_{hs})
+    \\, dt = I_{FSM}^2 t_{hs} / 2`.
+
+    References
+    ----------
+    JEDEC 8.3 ms half-sine surge rating and the "I^2 t for fusing" figure of
+    rectifier data sheets (common practice: e.g. 30 A surge and about 3.7 A^2 s
+    for a 1 A rectifier, from memory).
+    """
+    if d.i2t_a2s is not None:
+        return float(d.i2t_a2s)
+    if not math.isfinite(d.surge_current_a):
+        return math.inf
+    return float(d.surge_current_a ** 2 * SURGE_HALF_CYCLE_S / 2.0)
+
+
+def diode_i2t_allowed_a2s(d, duration_s: float) -> float:
+    """I^2 t a diode survives in one pulse of a given duration (up to the surge half-cycle) [A^2 s].
+
+    Notes
+    -----
+    :math:`I^2t_{allowed} = I^2t_d \\min(1, t / 1\\,ms)`: the data-sheet figure
+    (:func:`diode_i2t_a2s`) from 1 ms to 8.3 ms; below 1 ms the current is held
+    to the level that reaches it in 1 ms, which is conservative (a junction
+    stands more current in a shorter pulse).
+
+    References
+    ----------
+    Rectifier data sheets, "I^2 t for fusing, 1 ms < t < 8.3 ms" (from memory).
+    """
+    return float(diode_i2t_a2s(d) * min(1.0, max(float(duration_s), 0.0) / DIODE_I2T_MIN_S))
+
+
 @dataclass
 class Judgement:
     """Stresses and verdict of one solved waveform."""
@@ -450,6 +671,7 @@ class Judgement:
     hazardous: bool
     movement: dict
     parts: list = field(default_factory=list)
+    event: dict | None = None
 
 
 def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
@@ -479,6 +701,16 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
     quasi-static cycle. The prospective current of a fuse is the largest
     |source current| of the cycle, which is the source's peak value over its
     impedance plus the cold network's resistance.
+
+    When fuses open in a known time (the *event*, :func:`fuse_let_through`; the
+    longest let-through of the fuses that open sets its duration
+    :math:`t_{ev}`), a resistor is judged on the energy
+    :math:`E = \\bar P t_{ev}` against :func:`resistor_pulse_limit_j` and its peak
+    voltage against twice its limiting element voltage (for :math:`t_{ev}` up
+    to 5 s), and a diode on :math:`I_{rms}^2 t_{ev}` against
+    :func:`diode_i2t_allowed_a2s` (for :math:`t_{ev}` up to 8.3 ms) instead of
+    their continuous ratings. Longer events, and fuses whose time is unknown,
+    leave every part judged on its continuous ratings.
     """
     spec = engine.spec
     s = wf.stimulus
@@ -521,10 +753,15 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
         opens = i_rms > fm.rated_current_a * _EXCEED
         t_pa = pre_arcing_time_s(fm, i_rms) if opens else None
         stresses.append(_entry(e.name, "fuse", f"rms current{sfx}", i_rms, fm.rated_current_a, "A", "fuse trigger"))
+        lt = fuse_let_through(fm, i_rms) if opens else None
         info = {"name": e.name, "model": fm.name, "current_rms_a": i_rms, "rated_current_a": fm.rated_current_a,
                 "opens": bool(opens), "pre_arcing_time_s": t_pa if (t_pa is None or math.isfinite(t_pa)) else None,
                 "time_known": t_pa is not None, "prospective_current_a": prospective,
-                "breaking_capacity_a": fm.breaking_capacity_a}
+                "breaking_capacity_a": fm.breaking_capacity_a,
+                "let_through_i2t_a2s": lt["let_through_i2t_a2s"] if lt else None,
+                "arcing_i2t_a2s": lt["arcing_i2t_a2s"] if lt else None,
+                "event_time_s": lt["event_time_s"] if lt else None,
+                "arcing_known": bool(lt and lt["arcing_known"])}
         fuses.append(info)
         if opens:
             newly.append(e.name)
@@ -537,9 +774,12 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
                 notes.append(f"{e.name} carries {i_rms:.4g} A rms, above its {fm.rated_current_a:g} A rating "
                              "but below its time-current curve: it may not open for a long time")
             else:
-                notes.append(f"{e.name} opens: {i_rms:.4g} A rms, pre-arcing time {t_pa:.3g} s")
-    fast = [f for f in fuses if f["opens"] and f["pre_arcing_time_s"] is not None
-            and f["pre_arcing_time_s"] <= SHORT_TIME_S]
+                arc = (f", arcing {lt['arcing_i2t_a2s']:.3g} A^2 s" if lt["arcing_known"] else
+                       "; no clearing_i2t given, so the pulse is counted over the pre-arcing time only")
+                notes.append(f"{e.name} opens: {i_rms:.4g} A rms, pre-arcing time {t_pa:.3g} s, let-through "
+                             f"{lt['let_through_i2t_a2s']:.3g} A^2 s{arc}")
+    fast = [f for f in fuses if f["opens"] and f["event_time_s"] is not None
+            and f["event_time_s"] <= SHORT_TIME_S]
     unknown = [f for f in fuses if f["opens"] and not f["time_known"]]
     if short_exposure is None:
         short_exposure = bool(fast or unknown)
@@ -552,6 +792,26 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
         notes.append(f"a fuse opens only after more than {SHORT_TIME_S:g} s, so the movement is judged "
                      "on its continuous overload")
 
+    # the event: every fuse that opens does so in a known, finite time
+    opening = [f for f in fuses if f["opens"]]
+    event = None
+    if opening and short_exposure is not False and all(f["event_time_s"] is not None for f in opening):
+        lead = max(opening, key=lambda f: f["event_time_s"])
+        names = " and ".join(f["name"] for f in opening)
+        event = {"fuses": [f["name"] for f in opening], "fuse": lead["name"],
+                 "pre_arcing_time_s": lead["pre_arcing_time_s"], "let_through_i2t_a2s": lead["let_through_i2t_a2s"],
+                 "event_time_s": lead["event_time_s"],
+                 "words": f"while {names} open{'s' if len(opening) == 1 else ''}"}
+    elif opening and short_exposure is not False:
+        notes.append("a fuse opens in an unknown or long time, so resistors and diodes are judged on their "
+                     "continuous ratings")
+    t_ev = event["event_time_s"] if event else math.inf
+    pulse_r = event is not None and t_ev <= SHORT_OVERLOAD_S
+    pulse_d = event is not None and t_ev <= SURGE_HALF_CYCLE_S
+    if event is not None and not pulse_r:
+        notes.append(f"the pulse lasts {t_ev:.3g} s, longer than the {SHORT_OVERLOAD_S:g} s short-time overload of "
+                     "a resistor: every part is judged on its continuous ratings")
+
     # resistors and diodes
     for e in _stress_elements(engine):
         if e.name in opened:
@@ -560,12 +820,27 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
         v = wf.voltage_v[e.name]
         i_st, v_st = cycle_stats(i), cycle_stats(v)
         p_mean = float(np.mean(i * v))
-        if isinstance(e, Resistor):
+        if isinstance(e, Resistor) and pulse_r:
+            pe = resistor_pulse_energy_j(spec, e)
+            lim = resistor_pulse_limit_j(e, t_ev, pe)
+            basis = "pulse_energy" if (pe is not None and pe >= short_time_power_w(e) * t_ev) else "short-time overload"
+            stresses.append(_entry(e.name, "resistor", f"pulse energy {event['words']}{sfx}", abs(p_mean) * t_ev, lim,
+                                   "J", "rating", duration_s=t_ev, basis=basis))
+            if math.isfinite(e.max_voltage_v):
+                stresses.append(_entry(e.name, "resistor", f"peak voltage {event['words']}{sfx}", v_st["peak"],
+                                       SHORT_OVERLOAD_VOLTAGE_FACTOR * e.max_voltage_v, "V", "rating"))
+        elif isinstance(e, Resistor):
             if not peak_only and math.isfinite(e.power_w):
                 stresses.append(_entry(e.name, "resistor", f"power{sfx}", p_mean, e.power_w, "W", "rating"))
             if math.isfinite(e.max_voltage_v):
                 stresses.append(_entry(e.name, "resistor", f"peak voltage{sfx}", v_st["peak"], e.max_voltage_v,
                                        "V", "rating"))
+        elif isinstance(e, Diode) and pulse_d:
+            d = spec.parts.diodes[e.model]
+            allowed = diode_i2t_allowed_a2s(d, t_ev)
+            if math.isfinite(allowed):
+                stresses.append(_entry(e.name, "diode", f"I2t {event['words']}{sfx}", i_st["rms"] ** 2 * t_ev, allowed,
+                                       "A^2 s", "rating", duration_s=t_ev))
         elif isinstance(e, Diode):
             d = spec.parts.diodes[e.model]
             if not peak_only and math.isfinite(d.max_current_a):
@@ -602,7 +877,8 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
     movement = {"current_a": float(ms["mean"] * i_fs) if s.waveform == "sine" else float(wf.movement_current_a[0]),
                 "multiple": ms["peak"], "rms_multiple": ms["rms"], "mean_multiple": ms["mean"],
                 "peak_current_a": ms["peak"] * i_fs, "rms_current_a": ms["rms"] * i_fs}
-    return Judgement(stresses, fuses, notes, frozenset(newly), bool(short_exposure), hazardous, movement, parts)
+    return Judgement(stresses, fuses, notes, frozenset(newly), bool(short_exposure), hazardous, movement, parts,
+                     event)
 
 
 def _fuse_model_of(engine: Engine, name: str):
@@ -737,6 +1013,8 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
             opened = opened | new
         verdict, deciding = verdict_of(stresses, hazardous)
         mv = j.movement
+        first = [f for f in j.fuses if f["opens"]]
+        ev = j.event
         case = {
             "position": st.position.name,
             "state": st.name,
@@ -756,11 +1034,35 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
             "fuses": fuses,
             "notes": notes,
             "after_fuse_opens": after,
+            "fuse_opens": bool(first),
+            "fuse": ev["fuse"] if ev else (first[0]["name"] if first else None),
+            "pre_arcing_time_s": ev["pre_arcing_time_s"] if ev else None,
+            "let_through_i2t_a2s": ev["let_through_i2t_a2s"] if ev else None,
+            "event_time_s": ev["event_time_s"] if ev else None,
+            "detail": _fuse_detail(first, ev, verdict),
         }
         if with_parts:
             case["parts"] = j.parts
         results.append(case)
     return results
+
+
+def _fuse_detail(opening: list, event: dict | None, verdict: str) -> str:
+    """A few words on the fuses of a case: ``'fuse opens: F1 in 301 ns, let-through 2.5 A^2 s; ...'``."""
+    from .units import format_si
+
+    if not opening:
+        return ""
+    names = " and ".join(f["name"] for f in opening)
+    if event is None:
+        if any(not f["time_known"] for f in opening):
+            return f"fuse opens: {names} in an unknown time (give its i2t or curve)"
+        return f"{names} above its rating but below its curve: it may not open for a long time"
+    text = (f"fuse opens: {names} in {format_si(event['event_time_s'], 's', 3)}, let-through "
+            f"{event['let_through_i2t_a2s']:.3g} A^2 s")
+    if verdict in ("ok", "pegs"):
+        text += "; every part survives the pulse: replace the fuse"
+    return text
 
 
 # --- one stimulus (planner apply) ---------------------------------------------------------
@@ -874,6 +1176,8 @@ def describe_stress(x: dict | None) -> str:
     unit = x["unit"]
     if unit == "x I_fs":
         val, rat = f"{x['value']:.3g}x I_fs", f"{x['rating']:.3g}x"
+    elif unit == "A^2 s":
+        val, rat = f"{x['value']:.4g} A^2 s", f"{x['rating']:.4g} A^2 s"
     else:
         val, rat = format_si(x["value"], unit, 4), format_si(x["rating"], unit, 4)
     word = {"rating": "rating", "end stop": "end stop", "safety": "limit", "fuse trigger": "rated current"}[x["limit"]]
@@ -963,7 +1267,10 @@ def wrap(prefix: str, text: str, width: int = 100) -> list[str]:
 
 
 __all__ = [
-    "PHASE_POINTS", "HAZARD_RMS_V", "HAZARD_PEAK_V", "HAZARD_DC_V", "SHORT_TIME_S", "Stimulus", "Waveform",
-    "hazardous_live", "solve_waveforms", "cycle_stats", "pre_arcing_time_s", "judge", "verdict_of", "assess",
+    "PHASE_POINTS", "HAZARD_RMS_V", "HAZARD_PEAK_V", "HAZARD_DC_V", "SHORT_TIME_S", "SHORT_OVERLOAD_S",
+    "SHORT_OVERLOAD_POWER_FACTOR", "SHORT_OVERLOAD_VOLTAGE_FACTOR", "SURGE_HALF_CYCLE_S", "DIODE_I2T_MIN_S",
+    "Stimulus", "Waveform", "hazardous_live", "solve_waveforms", "cycle_stats", "pre_arcing_time_s",
+    "fuse_let_through", "short_time_power_w", "resistor_pulse_energy_j", "resistor_pulse_limit_j",
+    "diode_i2t_a2s", "diode_i2t_allowed_a2s", "judge", "verdict_of", "assess",
     "apply_stimulus", "format_apply", "stimulus_cautions", "describe_stress", "STANDARD_CAUTIONS", "wrap",
 ]

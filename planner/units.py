@@ -71,6 +71,7 @@ _SPECS: dict[str, tuple[str, str, str, bool]] = {
     "temperature": ("K", "a temperature", "23 degC", False),
     "time": ("s", "a time", "10 ms", False),
     "i2t": ("A^2*s", "an I^2 t", "0.5 A^2 s", False),
+    "energy": ("J", "an energy", "2 J", False),
     "energy_ev": ("eV", "a band-gap energy", "1.11 eV", True),
     "dimensionless": ("dimensionless", "a plain number", "1.5", True),
     "voltage_or_current": ("", "a voltage or a current", "230 V", False),
@@ -81,7 +82,7 @@ DIMENSIONS: tuple[str, ...] = tuple(_SPECS)
 
 #: Dimensions whose magnitude is also checked against :data:`MAX_MAGNITUDE`
 #: with an electrical wording.
-_ELECTRICAL = frozenset({"current", "voltage", "resistance", "power", "i2t", "voltage_or_current"})
+_ELECTRICAL = frozenset({"current", "voltage", "resistance", "power", "i2t", "energy", "voltage_or_current"})
 
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$", re.S)
 _NONFINITE = re.compile(r"^\s*[+-]?\.?(nan|inf|infinity)\b", re.I)
@@ -208,7 +209,7 @@ def parse(value: Any, dimension: str, *, where: str | None = None) -> Any:
         One of :data:`DIMENSIONS`: ``current`` [A], ``voltage`` [V],
         ``resistance`` [ohm], ``power`` [W], ``fraction`` [1], ``tempco``
         [1/K], ``temperature`` [K], ``time`` [s], ``i2t`` [A^2 s],
-        ``energy_ev`` [eV], ``dimensionless`` [1], or ``voltage_or_current``.
+        ``energy`` [J], ``energy_ev`` [eV], ``dimensionless`` [1], or ``voltage_or_current``.
     where : str, optional
         What the value is for (``'movement.coil_resistance'``), used in
         messages.

@@ -235,6 +235,9 @@ def build_dossier(spec, out_path, *, date=None, csv: bool = True,
     if protect and out.exists() and _same(out, Path(spec.path)):
         raise UsageError(f"the dossier would overwrite the project file {spec.path}; choose another output, "
                          "e.g. -o dossier.pdf")
+    if csv and out.suffix.lower() == ".csv":
+        raise UsageError(f"the dossier is a PDF and its bill of materials goes beside it as CSV; name the output "
+                         f"{out.with_suffix('.pdf').name} instead of {out.name}")
     ctx = gather(spec, date=date, samples=samples, seed=seed, progress=progress)
     pdf = render(ctx, progress=progress)
     table_text = bom_csv(ctx) if csv else None

@@ -569,7 +569,7 @@ def bom_rows(ctx: Context) -> list[dict]:
             m = spec.movement
             row.update(value=f"{value_text(m.i_fs_a, 'A')} fs, {value_text(m.r_coil_ohm, 'ohm')}",
                        value_si=m.r_coil_ohm, tolerance_pct=100 * m.tolerance, tempco_ppm_per_k=1e6 * m.tempco_per_k,
-                       series="movement")
+                       series="meter")
             row["notes"].append(f"class {m.class_index:g}; peg {m.overload.peg:g}x, short time "
                                 f"{m.overload.short_time:g}x, continuous {m.overload.continuous:g}x I_fs")
             row["power_required_w"] = None
@@ -1093,7 +1093,8 @@ def build(ctx: Context) -> list:
     nodes, volts = _test_points(ctx)
     vmax = max([abs(v) for v in volts.values()] + [0.0])
     if is_hazardous(vmax):
-        title, lines = hazard_reminder(f"Test voltages reach {value_text(vmax, 'V')}.")
+        title, lines = hazard_reminder(f"Test voltages, here and in the acceptance tests below, reach "
+                                       f"{value_text(vmax, 'V')}.")
         out.append(caution_box(title, lines))
         out.append(Spacer(1, 4))
     out.append(p("Voltage of each node against the input's minus terminal with the full-scale value applied to each "
@@ -1109,37 +1110,40 @@ def build(ctx: Context) -> list:
         out.append(table(["Node"] + chunk, rows, [0.16] + [0.84 / per] * len(chunk), align="l" + "r" * len(chunk)))
         out.append(Spacer(1, 6))
     # acceptance
-    out.append(CondPageBreak(160))
+    out.append(CondPageBreak(220))
     out.append(p("Acceptance tests", "h2"))
+    if any(_hazardous_position(q) for q in net.positions) and not is_hazardous(vmax):
+        title, lines = hazard_reminder("The acceptance tests of the hazardous ranges apply hazardous voltages.")
+        out.append(caution_box(title, lines))
+        out.append(Spacer(1, 4))
     out.append(p(f"Apply each value from a source whose uncertainty is at most a quarter of the class "
                  f"({cls / 4:g} % of full scale); the reading must lie within the limits, which are the applied "
                  f"value \u00b1 the class ({cls:g} % of full scale, IEC 60051). <i>Expect</i> is the reading computed "
                  "with nominal parts at the reference temperature, clamp leakage included.", "small"))
-    rows, fills, outside = [], [], []
+    rows, fills, outside, groups = [], [], [], []
     for q in net.positions:
         fr = np.array([0.2, 0.5, 1.0])
         applied = fr * q.full_scale
         reading = np.asarray(ctx.engine.reading(q.name, applied)).ravel()
         tol = cls / 100.0 * q.full_scale
-        for a, r in zip(applied, reading):
+        groups.append(len(rows) + 1)
+        for k, (a, r) in enumerate(zip(applied, reading)):
             inside = abs(r - a) <= tol
             if not inside:
                 outside.append(f"{q.name} at {quantity(a, q.unit)}")
+            limits = f"{quantity(a - tol, q.unit)} to {quantity(a + tol, q.unit)}"
             rows.append([q.name, quantity(a, q.unit), quantity(r, q.unit) + ("" if inside else " !"),
-                         f"{quantity(a - tol, q.unit)} to {quantity(a + tol, q.unit)}", "", ""])
+                         "\u00b1 " + value_text(tol, q.unit), limits, "", ""])
             if not inside:
                 fills.append((2, len(rows), "overstress"))
-    out.append(table(["Position", "Apply", "Expect", "Accept (limits)", "Measured", "Pass"], rows,
-                     [0.13, 0.15, 0.15, 0.29, 0.16, 0.12], align="lrrrll",
-                     extra=[("GRID", (4, 1), (5, -1), 0.3, RULE)] + _verdict_fill(fills)))
+    rules = [("LINEABOVE", (0, g), (-1, g), 0.6, RULE) for g in groups[1:]]
+    out.append(table(["Position", "Apply", "Expect", "Tolerance", "Limits", "Measured", "Pass"], rows,
+                     [0.11, 0.13, 0.13, 0.12, 0.25, 0.15, 0.11], align="lrrrrll", zebra=False,
+                     extra=[("GRID", (5, 1), (6, -1), 0.3, RULE)] + rules + _verdict_fill(fills)))
     if outside:
         out.append(p(esc("'!': the computed reading is already outside the limits (" + ", ".join(outside) + "); "
                          "the built instrument will fail there unless the design is changed or trimmed."),
                      "caption"))
-    if any(_hazardous_position(q) for q in net.positions):
-        title, lines = hazard_reminder("Acceptance tests of the hazardous ranges apply hazardous voltages.")
-        out.append(Spacer(1, 4))
-        out.append(caution_box(title, lines))
     # instruments
     out.append(p("Instruments needed", "h2"))
     inst = []

@@ -166,8 +166,8 @@ METHODS = (
       "The budget of a position is its worst-case error over the tolerance corners (the nominal offset "
       "included) plus its largest change of the full-scale reading over the ambient range."]),
     ("Temperature",
-     ["Resistors and the coil follow R(T) = R (1 + <font face='Symbol'>a</font> (T \u2013 T<sub>ref</sub>)). "
-      "A copper coil has <font face='Symbol'>a</font> = 0.00393 per K at 20 \u00b0C, the annealed copper "
+     ["Resistors and the coil follow R(T) = R (1 + alpha (T \u2013 T<sub>ref</sub>)). "
+      "A copper coil has alpha = 0.00393 per K at 20 \u00b0C, the annealed copper "
       "standard of IEC 60028 [5]; the resistors' tempcos are the project's."]),
     ("Diodes",
      ["Each diode is a Shockley junction, I = I<sub>s</sub> (exp(V / (n V<sub>t</sub>)) \u2013 1), "
@@ -206,7 +206,7 @@ REFERENCES = (
     "IEC 60051-1, <i>Direct acting indicating analogue electrical measuring instruments and their "
     "accessories \u2013 Part 1: Definitions and general requirements common to all parts</i>.",
     "IEC 60028, <i>International standard of resistance for copper</i> (annealed copper, "
-    "<font face='Symbol'>a</font><sub>20</sub> = 0.00393 / K).",
+    "alpha<sub>20</sub> = 0.00393 / K).",
     "P. Antognetti and G. Massobrio, <i>Semiconductor Device Modeling with SPICE</i>, 2nd ed., "
     "McGraw-Hill, 1993 (diode model and its temperature law).",
     "T. C. Banwell and A. Jayakumar, \u201cExact analytical solution for current flow through diode with "
