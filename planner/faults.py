@@ -528,6 +528,7 @@ def faults_project(spec: Spec, *, position: str | None = None, only_failing: boo
         "accepted": accepted,
         "accept_unmatched": unmatched,
         "requirements_met": bool(met),
+        "only_failing": bool(only_failing),
     }
 
 
@@ -622,7 +623,7 @@ def format_faults(result: dict) -> str:
 
     code_of = {col["name"]: code for code, col in zip(codes, cols)}
     cases = result["cases"]
-    lines += [""] + _summary_lines(cases)
+    lines += [""] + _summary_lines(cases, result.get("only_failing", False))
     lines += _fuse_lines(cases, code_of)
     bad = [c for c in cases if c["verdict"] in FAILING and not c.get("accepted")]
     if bad:
@@ -672,19 +673,31 @@ def _quantity_head(q: str) -> str:
     return q
 
 
+def _deciding_ratio(case: dict) -> float:
+    d = case.get("deciding")
+    return float(d["ratio"]) if d else 0.0
+
+
 def _case_list(cases, code_of, with_ratio=False) -> str:
-    """``'10 V: S1 S3; 50 V: S1'``: cases by position, stimuli by their column codes."""
+    """``'10 V: S1 S3; 50 V: S1'``: cases by position, stimuli by their column codes.
+
+    With ``with_ratio``, each stimulus is followed by the ratio of the case's deciding stress.
+    """
     by: dict[str, list[str]] = {}
     for c in cases:
         code = code_of.get(c["stimulus"], c["stimulus"])
         if with_ratio:
-            code += f" ({_short_ratio(_worst_ratio(c))}x)"
+            code += f" ({_short_ratio(_deciding_ratio(c))}x)"
         by.setdefault(c.get("state", c["position"]) if c.get("style") else c["position"], []).append(code)
     return "; ".join(f"{p}: {' '.join(v)}" for p, v in by.items())
 
 
-def _summary_lines(cases) -> list[str]:
+def _summary_lines(cases, only_failing: bool = False) -> list[str]:
     n = len(cases)
+    if only_failing:
+        acc = sum(1 for c in cases if c.get("accepted"))
+        return wrap("", f"{n} failing case{'s' if n != 1 else ''} shown (only failing): {acc} accepted, "
+                        f"{n - acc} not.", _WIDTH)
     count = {v: sum(1 for c in cases if c["verdict"] == v) for v in ("ok", "pegs", "overstress", "hazard")}
     acc = sum(1 for c in cases if c.get("accepted") and c["verdict"] in FAILING)
     fail = count["overstress"] + count["hazard"] - acc
@@ -730,13 +743,13 @@ def _failing_groups(bad, code_of) -> list[str]:
     for c in bad:
         d = c["deciding"] or {}
         groups.setdefault((d.get("part", "?"), _quantity_head(d.get("quantity", "?"))), []).append(c)
-    order = sorted(groups.items(), key=lambda kv: -max(_worst_ratio(c) for c in kv[1]))
+    order = sorted(groups.items(), key=lambda kv: -max(_deciding_ratio(c) for c in kv[1]))
     out = []
     for (part, q), group in order:
-        worst = max(group, key=_worst_ratio)
+        worst = max(group, key=_deciding_ratio)
         verdicts = "/".join(sorted({_WORD[c["verdict"]] for c in group}))
         out += _wrap_flat("  ", f"{verdicts} {describe_stress(worst['deciding'])}")
-        out += _wrap_flat("      ", _case_list(sorted(group, key=lambda c: -_worst_ratio(c)), code_of, True))
+        out += _wrap_flat("      ", _case_list(sorted(group, key=lambda c: -_deciding_ratio(c)), code_of, True))
     return out
 
 
@@ -750,7 +763,7 @@ def _accepted_groups(acc, code_of) -> list[str]:
         out += _wrap_flat("  - ", reason, "    ")
         tail = ""
         if failing:
-            worst = max(failing, key=_worst_ratio)
+            worst = max(failing, key=_deciding_ratio)
             d = worst["deciding"] or {}
             tail = (f"; worst {d.get('part', '?')} {_quantity_head(d.get('quantity', '?'))} "
                     f"{_ratio_text(d.get('ratio', 0.0))} ({worst['position']} "
@@ -817,12 +830,15 @@ def _curve_lines(curves) -> list[str]:
         both = f"+-{f(hp)}" if (hp is not None and hn is not None and math.isclose(abs(hp), abs(hn), rel_tol=1e-3)) \
             else f"+{f(hp)}/-{f(hn)}"
         halves.append(f"{c['position']} {both}")
-    text = "Clamps halve the unclamped movement current at: " + (", ".join(halves) if halves else "no position")
+    parts = []
+    if halves:
+        parts.append("Clamps halve the unclamped movement current at: " + ", ".join(halves))
     if never:
-        text += "; not within the sweep on " + ", ".join(never)
+        parts.append(("not within the sweep on " if halves else
+                      "Clamps do not halve the unclamped movement current within the sweep on ") + ", ".join(never))
     if bare:
-        text += "; no clamps on " + ", ".join(bare)
-    return wrap("", text + ".", _WIDTH)
+        parts.append(("no clamps on " if parts else "No clamps on ") + ", ".join(bare))
+    return wrap("", "; ".join(parts) + ".", _WIDTH)
 
 
 __all__ = [

@@ -974,14 +974,24 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
         One case per stimulus with ``verdict``, ``deciding``, ``stresses``,
         ``movement_multiple`` (peak), ``movement_rms_multiple``,
         ``movement_mean_multiple``, ``movement_current_a``, ``fuses``, ``notes``,
-        ``hazardous_voltage`` and, with ``with_parts``, ``parts``.
+        ``hazardous_voltage``, ``fuse_opens``, ``fuse``, ``pre_arcing_time_s``,
+        ``let_through_i2t_a2s``, ``event_time_s``, ``detail`` and, with
+        ``with_parts``, ``parts``.
 
     Notes
     -----
-    When a fuse opens, the stresses before it opens are judged with the
-    movement's short-time overload (if it opens within ``SHORT_TIME_S``), then
-    the network with the fuse open is solved again under the same stimulus and
-    judged on the continuous ratings, until no further fuse opens.
+    When a fuse opens, the stresses before it opens are judged as a pulse: the
+    resistors and diodes on their short-time (pulse) ratings and the movement on
+    its short-time overload (if the fuse clears within ``SHORT_TIME_S``), see
+    :func:`judge`; then the network with the fuse open is solved again under the
+    same stimulus and judged on the continuous ratings, until no further fuse
+    opens.
+
+    References
+    ----------
+    IEC 60127-1 (fuse pre-arcing time and I^2 t); IEC 60115-1 (short-time
+    overload of resistors, from memory); see :func:`fuse_let_through`,
+    :func:`resistor_pulse_limit_j`, :func:`diode_i2t_allowed_a2s`.
     """
     st = engine.state(state)
     stimuli = list(stimuli)
@@ -1242,9 +1252,13 @@ def format_apply(result: dict) -> str:
         when = " (after " + ", ".join(f["after"]) + " opened)" if f.get("after") else ""
         state = "opens" if f["opens"] else "holds"
         extra = f", pre-arcing time {t:.3g} s" if (f["opens"] and t is not None) else ""
+        if f["opens"] and f.get("let_through_i2t_a2s") is not None:
+            extra += f", let-through {f['let_through_i2t_a2s']:.3g} A^2 s"
         lines += wrap("", f"Fuse {f['name']}{when}: {format_si(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
                           f"prospective {format_si(f['prospective_current_a'], 'A', 4)} vs breaking capacity "
                           f"{format_si(f['breaking_capacity_a'], 'A', 4)}")
+    if result.get("detail"):
+        lines += wrap("", result["detail"][:1].upper() + result["detail"][1:] + ".")
     bad = [x for x in result["stresses"] if x["exceeded"] and x["limit"] != "fuse trigger"]
     if bad:
         lines.append("")

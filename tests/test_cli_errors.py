@@ -212,18 +212,43 @@ MUTATIONS = [
 ]
 
 
+def run_in_process(args, cwd: Path, monkeypatch, capsys) -> Run:
+    """The same entry point as ``python -m planner.cli``, called in this process (fast)."""
+    from planner import cli
+
+    cwd.mkdir(parents=True, exist_ok=True)
+    monkeypatch.chdir(cwd)
+    monkeypatch.delenv("PLANNER_DEBUG", raising=False)
+    capsys.readouterr()
+    t0 = time.perf_counter()
+    try:
+        code = cli.main([str(a) for a in args])
+    except SystemExit as e:  # argparse exits
+        code = e.code
+    elapsed = time.perf_counter() - t0
+    out, err = capsys.readouterr()
+    return Run(tuple(map(str, args)), code, out, err, elapsed, sorted(os.listdir(cwd)))
+
+
+@pytest.mark.parametrize("case", MUTATIONS, ids=[m[0] for m in MUTATIONS])
+def test_hostile_value(case, tmp_path, monkeypatch, capsys):
+    name, old, new, expect, line = case
+    assert BASE.count(old) == 1
+    src = tmp_path / f"{name}.yaml"
+    src.write_text(BASE.replace(old, new), encoding="utf-8")
+    run = run_in_process(["check", src], tmp_path / "cwd", monkeypatch, capsys)
+    assert_one_line_error(run, must_name=f"{src}:{line}:")
+    assert expect in run.stderr, run.stderr
+    assert run.elapsed_s < LIMIT_S
+
+
 @pytest.fixture(scope="module")
 def hostile_runs(tmp_path_factory):
-    """Generated hostile files and their CLI runs, two at a time."""
+    """Hostile files made at test time and their CLI runs (subprocesses, two at a time)."""
     base = tmp_path_factory.mktemp("cli_hostile")
     src = base / "inputs"
     src.mkdir()
     jobs = {}
-    for name, old, new, _, _ in MUTATIONS:
-        assert BASE.count(old) == 1
-        p = src / f"{name}.yaml"
-        p.write_text(BASE.replace(old, new), encoding="utf-8")
-        jobs[name] = ["check", p]
     big = src / "fifty_megabytes.yaml"
     with open(big, "wb") as f:  # a 50 MB file: the size is refused before anything is read
         f.write(BASE.encode())
@@ -256,23 +281,13 @@ def hostile_runs(tmp_path_factory):
     return src, runs
 
 
-@pytest.mark.parametrize("case", MUTATIONS, ids=[m[0] for m in MUTATIONS])
-def test_hostile_value(case, hostile_runs, tmp_path):
-    name, _, _, expect, line = case
-    src, runs = hostile_runs
-    run = runs[name]
-    assert_one_line_error(run, must_name=f"{src / (name + '.yaml')}:{line}:")
-    assert expect in run.stderr, run.stderr
-    assert_quick(run, tmp_path)
-
-
 @pytest.mark.parametrize("name,expect,line", [
-    ("fifty_megabytes", "a project file is at most 5 MB", None),
+    ("fifty_megabytes", "file is 50.0 MB; a project file is at most 5 MB", None),
     ("folder", "is a folder, not a project file", None),
     ("missing", "no such file; check the path", None),
     ("latin1", "is not UTF-8 text; save the file as UTF-8", 1),
     ("utf16", "UTF-16 text; save it as UTF-8", 1),
-    ("binary", "not UTF-8 text", 1),
+    ("binary", "not UTF-8 text", 2),  # byte 0x0a of the noise ends line 1
     ("billion_laughs", "through YAML aliases", None),
 ])
 def test_hostile_file(name, expect, line, hostile_runs, tmp_path):
@@ -339,21 +354,35 @@ def test_range_list_cap():
 
 # --- usage errors ----------------------------------------------------------------------------------
 
-USAGE = [
+#: Usage errors the issue names: run as subprocesses.
+USAGE_SUBPROCESS = [
     ("unknown_subcommand", ["chek", VOLTMETER], "invalid choice: 'chek'"),
     ("missing_position", ["apply", VOLTMETER, "--volts", "1"], "the following arguments are required: --position"),
     ("unknown_position", ["apply", VOLTMETER, "--position", "10v", "--volts", "1"],
      "no switch position named '10v' (did you mean '10 V'?)"),
-    ("unknown_position_faults", ["faults", VOLTMETER, "--position", "25 V"], "no switch position named '25 V'"),
     ("volts_nan", ["apply", VOLTMETER, "--position", "10 V", "--volts", "nan"], "--volts: 'nan' is not a usable number"),
-    ("volts_text", ["apply", VOLTMETER, "--position", "10 V", "--volts", "10 A"], "--volts"),
-    ("amps_inf", ["apply", VOLTMETER, "--position", "10 V", "--amps", "-inf"], "--amps"),
     ("samples_zero", ["check", VOLTMETER, "--samples", "0"], "samples must be a whole number from 2 to"),
+]
+
+#: More usage and output errors: the same entry point, in-process.
+USAGE_IN_PROCESS = [
+    ("unknown_position_faults", ["faults", VOLTMETER, "--position", "25 V"], "no switch position named '25 V'"),
+    ("unknown_position_case", ["apply", VOLTMETER, "--position", "250v", "--volts", "1"], "did you mean '250 V'?"),
+    ("volts_text", ["apply", VOLTMETER, "--position", "10 V", "--volts", "10 A"], "--volts needs a voltage"),
+    ("volts_huge", ["apply", VOLTMETER, "--position", "10 V", "--volts", "1e300"], "--volts: '1e300' is not a usable"),
+    ("amps_inf", ["apply", VOLTMETER, "--position", "10 V", "--amps=-inf"], "--amps: '-inf' is not a usable"),
     ("samples_over_cap", ["check", VOLTMETER, "--samples", str(MAX_SAMPLES + 1)], f"from 2 to {MAX_SAMPLES}"),
+    ("samples_negative", ["check", VOLTMETER, "--samples", "-3"], f"from 2 to {MAX_SAMPLES}"),
     ("samples_not_a_number", ["check", VOLTMETER, "--samples", "many"], "invalid int value: 'many'"),
+    ("seed_negative", ["check", VOLTMETER, "--seed", "-1"], "seed must be a whole number of at least 0"),
     ("volts_and_amps", ["apply", VOLTMETER, "--position", "10 V", "--volts", "1", "--amps", "1"], "not allowed with"),
     ("source_impedance_negative", ["check", VOLTMETER, "--source-impedance", "-5"], "source impedance"),
-    ("output_in_missing_folder", ["dossier", VOLTMETER, "-o", "/nonexistent-folder/x.pdf"], "cannot write the file"),
+    ("source_impedance_unit", ["check", VOLTMETER, "--source-impedance", "5 V"], "needs a resistance"),
+    ("dossier_missing_folder", ["dossier", VOLTMETER, "-o", "/nonexistent-folder/x.pdf"],
+     "the folder /nonexistent-folder does not exist"),
+    ("dossier_over_input", ["dossier", VOLTMETER, "-o", VOLTMETER], "refusing to overwrite the input file"),
+    ("write_network_over_input", ["size", VOLTMETER, "--write-network", VOLTMETER],
+     "refusing to overwrite the input file"),
 ]
 
 
@@ -366,16 +395,24 @@ def usage_runs(tmp_path_factory):
         return name, run_cli(args, base / name)
 
     with ThreadPoolExecutor(max_workers=2) as pool:
-        return dict(pool.map(one, USAGE))
+        return dict(pool.map(one, USAGE_SUBPROCESS))
 
 
-@pytest.mark.parametrize("case", USAGE, ids=[u[0] for u in USAGE])
+@pytest.mark.parametrize("case", USAGE_SUBPROCESS, ids=[u[0] for u in USAGE_SUBPROCESS])
 def test_usage_error(case, usage_runs, tmp_path):
     name, _, expect = case
     run = usage_runs[name]
     assert_one_line_error(run)
     assert expect in run.stderr, run.stderr
     assert_quick(run, tmp_path)
+
+
+@pytest.mark.parametrize("case", USAGE_IN_PROCESS, ids=[u[0] for u in USAGE_IN_PROCESS])
+def test_usage_error_in_process(case, tmp_path, monkeypatch, capsys):
+    name, args, expect = case
+    run = run_in_process(args, tmp_path, monkeypatch, capsys)
+    assert_one_line_error(run)
+    assert expect in run.stderr, run.stderr
 
 
 def test_no_subcommand_prints_help_and_exits_2(tmp_path):

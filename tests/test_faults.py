@@ -254,3 +254,49 @@ def test_format_faults_fits_100_columns():
     assert "S1 = outlet" in text and "CAT III 300 V impulse" in text
     assert "Requirements NOT met." in text and "CAUTION" in text
     assert math.isfinite(max(c["movement_multiple"] for c in res_["cases"]))
+
+
+def test_accept_entry_listing_several_cases():
+    spec = voltmeter()
+    res_ = faults_project(spec)
+    failing = {(c["position"], c["stimulus"]) for c in res_["cases"] if c["verdict"] in ("overstress", "hazard")}
+    stims = sorted({c["stimulus"] for c in res_["cases"]})
+    # one entry for every position and every stimulus: only the failing cases are accepted, and the
+    # combinations that do not exist ("range up" on the top range) are not reported as typos
+    many = tuple(m.Acceptance(p, st, "clamped movement", expanded=True) for p in ("10 V", "50 V") for st in stims)
+    out = faults_project(replace(spec, faults=replace(spec.faults, accept=many)))
+    assert {(a["position"], a["stimulus"]) for a in out["accepted"]} == failing
+    assert all(c["accepted"] == ((c["position"], c["stimulus"]) in failing) for c in out["cases"])
+    assert out["accept_unmatched"] == [] and out["requirements_met"] is True
+    # an unknown name in a listed entry is still reported
+    typo = many + (m.Acceptance("10 V", "rnage up", "x", expanded=True),)
+    out = faults_project(replace(spec, faults=replace(spec.faults, accept=typo)))
+    assert [a["stimulus"] for a in out["accept_unmatched"]] == ["rnage up"]
+
+
+def test_example_multimeter_survives_up_to_its_max_input_except_accepted_cases():
+    from pathlib import Path
+
+    from planner.project import load
+
+    spec = load(Path(__file__).resolve().parents[1] / "projects" / "bench_multimeter.yaml")
+    res_ = faults_project(spec)
+    assert res_["requirements_met"] is True and res_["accept_unmatched"] == []
+    for c in res_["cases"]:
+        assert c["verdict"] in ("ok", "pegs") or (c["accepted"] and c["accept_reason"])
+    # on the 1 A range the fuse opens under the maximum input and every part survives its pulse
+    (c,) = [c for c in res_["cases"] if (c["position"], c["stimulus"]) == ("1 A", "max input")]
+    assert c["verdict"] in ("ok", "pegs") and c["fuse_opens"] and c["fuse"] == "F1"
+    assert c["pre_arcing_time_s"] < 1e-5 and "fuse opens" in c["detail"]
+    pulse = [x for x in c["stresses"] if "while F1 opens" in x["quantity"]]
+    assert pulse and not any(x["exceeded"] for x in pulse)
+    # the accepted "pointer pegs" cases keep the movement within its short-time overload, as the
+    # reason says
+    for c in res_["cases"]:
+        if c["accepted"] and c["accept_reason"].startswith("pointer pegs"):
+            assert c["deciding"]["part"] == "M1"
+            assert all(x["ratio"] <= 1.0 for x in c["stresses"] if x["quantity"].startswith("peak multiple"))
+    text = format_faults(res_)
+    lines = text.splitlines()
+    assert max(len(line) for line in lines) <= 100 and len(lines) <= 60  # about one screen
+    assert "Requirements met." in text and "F1 opens in" in text

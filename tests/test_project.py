@@ -406,3 +406,75 @@ def test_command_line(tmp_path):
 def test_bundled_projects_load(path):
     spec = load(path)
     assert spec.title and spec.movement.i_fs_a > 0
+
+
+PULSE = textwrap.dedent("""\
+    title: Pulse ratings
+    movement: {full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 1.5}
+    parts:
+      resistors:
+        power: 0.25 W
+        pulse_energy: 10 mJ
+        ratings:
+          - {power: 0.25 W, max_voltage: 250 V}
+          - {power: 1 W, max_voltage: 500 V, pulse_energy: 2 J}
+      diodes:
+        rect: {saturation_current: 10 nA, surge_current: 30 A, i2t: 3.7 A^2 s}
+      fuses:
+        f1: {cold_resistance: 80 mohm, rated_current: 1.6 A, breaking_capacity: 10 kA, i2t: 1.2 A2s,
+             clearing_i2t: 2.5 A^2*s}
+    faults:
+      accept:
+        - {position: [10 V, 50 V], stimulus: [range up, wall outlet], reason: clamped}
+        - {position: 1 mA, stimulus: range up, reason: ring rated at full scale}
+    network:
+      elements:
+        - {name: R1, kind: resistor, between: [vin, m], value: 198 kohm, pulse_energy: 50 mJ}
+        - {name: R2, kind: resistor, between: [vin, m], value: 198 kohm}
+        - {name: M1, kind: movement, between: [m, com]}
+      positions:
+        - {name: 10 V, measures: voltage, full_scale: 10 V, input: [vin, com]}
+    """)
+
+
+def test_pulse_ratings_and_clearing_i2t():
+    s = loads(PULSE, "p.yaml")
+    rp = s.parts.resistors
+    assert rp.pulse_energy_j == 0.01
+    assert rp.pulse_energies_j == (None, 2.0)
+    assert s.parts.diodes["rect"].i2t_a2s == 3.7
+    f = s.parts.fuses["f1"]
+    assert f.i2t_a2s == 1.2 and f.clearing_i2t_a2s == 2.5
+    r1, r2 = s.network.elements[:2]
+    assert r1.pulse_energy_j == 0.05 and r2.pulse_energy_j is None
+    # defaults: no pulse figures anywhere
+    d = loads(MINIMAL)
+    assert d.parts.resistors.pulse_energy_j is None and d.parts.resistors.pulse_energies_j == ()
+
+
+def test_accept_entries_listing_several_cases():
+    acc = loads(PULSE, "p.yaml").faults.accept
+    line = _line("{position: [10 V", PULSE)
+    assert acc[:4] == tuple(model.Acceptance(p, st, "clamped", line=line, expanded=True)
+                            for p in ("10 V", "50 V") for st in ("range up", "wall outlet"))
+    assert acc[4] == model.Acceptance("1 mA", "range up", "ring rated at full scale", line=line + 1)
+
+
+@pytest.mark.parametrize("old, new, line_of, expect", [
+    ("clearing_i2t: 2.5 A^2*s", "clearing_i2t: 1 A^2*s", "clearing_i2t", "below the pre-arcing i2t"),
+    ("pulse_energy: 10 mJ", "pulse_energy: 10 mW", "pulse_energy: 10 mW", "needs an energy"),
+    ("pulse_energy: 10 mJ", "pulse_energy: 0 J", "pulse_energy: 0 J", "must be above zero"),
+    ("pulse_energy: 2 J}", "pulse_enrgy: 2 J}", "pulse_enrgy", "did you mean 'pulse_energy'"),
+    ("pulse_energy: 50 mJ}", "pulse_energy: -1 J}", "pulse_energy: -1 J", "must be above zero"),
+    ("i2t: 3.7 A^2 s}", "i2t: 3.7 A}", "i2t: 3.7 A}", "needs an I^2 t"),
+    ("position: [10 V, 50 V]", "position: []", "position: []", "empty list"),
+    ("stimulus: [range up, wall outlet]", "stimulus: [range up, '']", "stimulus: [range up", "empty text"),
+])
+def test_pulse_and_accept_errors_point_at_the_line(old, new, line_of, expect):
+    text = PULSE.replace(old, new, 1)
+    assert text != PULSE
+    with pytest.raises(ProjectError) as ei:
+        loads(text, "p.yaml")
+    msg = ei.value.one_line()
+    assert expect in msg, msg
+    assert ei.value.line == _line(line_of, text), msg
