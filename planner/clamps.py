@@ -92,10 +92,11 @@ RANDOM_PROBES = 4
 SPLIT_LO = 0.01
 SPLIT_HI = 0.98
 #: Combinations whose split resistance is refined by scipy.optimize after the grid.
-REFINE_COMBOS = 4
+REFINE_COMBOS = 3
 #: Tolerance of the refined split resistance, as a fraction of it (finer than the
-#: 2.4 % steps of E96).
-REFINE_XTOL_REL = 0.01
+#: 2.4 % steps of E96), and the most evaluations each refinement may take.
+REFINE_XTOL_REL = 0.015
+REFINE_MAXITER = 8
 #: Phase points per sine cycle during the search. A multiple of 4 hits both crests
 #: exactly, and the movement current of this resistive network peaks at the
 #: crest, so the peak multiples are exact; the cycle means (diode current, power)
@@ -167,6 +168,10 @@ class Site:
         The resistor that is split (split sites).
     r_ohm : float
         Resistance above the movement (taps) or the split resistor's value [ohm].
+    pair : str or None
+        A diode model of which a one-diode pair (one each way) also stays across
+        the movement: two-level clamping, for networks where some positions (the
+        current ranges of a multimeter) do not pass through the tapped segment.
     """
 
     kind: str
@@ -174,6 +179,7 @@ class Site:
     node: str
     element: str | None = None
     r_ohm: float = 0.0
+    pair: str | None = None
 
 
 @dataclass(frozen=True)
@@ -186,7 +192,8 @@ class Combo:
 
     @property
     def diodes(self) -> int:
-        return (self.forward.count if self.forward else 0) + (self.reverse.count if self.reverse else 0)
+        return ((self.forward.count if self.forward else 0) + (self.reverse.count if self.reverse else 0)
+                + (2 if self.site.pair else 0))
 
     @property
     def parts_count(self) -> int:
@@ -260,6 +267,8 @@ class _Topology:
     bare_key: object = None  # None: readings without clamps are those of the base network
     bare: dict | None = None
     memo: dict = field(default_factory=dict)
+    carrying: dict | None = None  # position -> designators that carry current in it
+    static: dict = field(default_factory=dict)  # (position, phase points) -> figures that no row changes
 
 
 # =====================================================================================
@@ -410,7 +419,7 @@ class _Search:
                     if low in e.nodes and roles.get(e.group) == "multiplier":
                         out.append(Site("split", f"split {e.name}", low, e.name, float(min(e.value_ohm, seg.target_ohm))))
                         break
-            return out
+            return out + self._paired(out)
         terminals = {n for p in net.positions for n in p.input}
         g = nx.Graph()
         for e in net.elements:
@@ -427,7 +436,12 @@ class _Search:
         for e in net.elements:
             if isinstance(e, Resistor) and mov.a in e.nodes and mov.b not in e.nodes and e.a != e.b:
                 out.append(Site("split", f"split {e.name}", mov.a, e.name, float(e.value_ohm)))
-        return out
+        return out + self._paired(out)
+
+    def _paired(self, sites: list[Site]) -> list[Site]:
+        """Each tap and split site again, with a one-diode pair kept across the movement."""
+        pair = self.default_model()
+        return [replace(s, label=f"{s.label} + movement pair", pair=pair) for s in sites if s.kind != "movement"]
 
     def stacks(self, direction: str) -> list[Stack]:
         """Every stack of one direction, strongest (fewest diodes) first within a model."""
@@ -523,6 +537,9 @@ class _Search:
             else:
                 elements.append(e)
         diodes = []
+        if site.pair is not None:
+            diodes += self._stack_elements(mov.a, mov.b, Stack(site.pair, 1), "forward", d_names, taken)
+            diodes += self._stack_elements(mov.a, mov.b, Stack(site.pair, 1), "reverse", d_names, taken)
         if combo.forward is not None:
             diodes += self._stack_elements(node, mov.b, combo.forward, "forward", d_names, taken)
         if combo.reverse is not None:
@@ -623,104 +640,115 @@ class _Search:
         return {up: (total - r) / up0, lo: r / lo0}
 
     def _run(self, topo: _Topology, fac, rows: int, n_phase: int) -> Metrics:
-        spec = self.spec
-        eng = topo.engine
-        diodes = {n: spec.parts.diodes[topo.net.element(n).model] for n in topo.clamp}
-        fwd = np.zeros(rows)
-        rev = np.zeros(rows)
-        fcase = [None] * rows
-        rcase = [None] * rows
-        mi_f = np.zeros(rows)
-        mi_r = np.zeros(rows)
-        stress = np.zeros(rows)
-        scase = [None] * rows
-        power = np.zeros(rows)
-        err, tot, pf, pr = {}, {}, {}, {}
+        if topo.carrying is None:
+            from .accuracy import current_carrying
+
+            topo.carrying = {p.name: current_carrying(topo.engine, p.name) for p in self.positions}
         bare = self.bare_readings(topo)
+        fwd, rev, mi_f, mi_r, stress, power = (np.zeros(rows) for _ in range(6))
+        fcase, rcase, scase = [None] * rows, [None] * rows, [None] * rows
+        err, tot, pf, pr = {}, {}, {}, {}
         for p in self.positions:
-            stims = self.stimuli[p.name]
-            pf[p.name] = np.zeros(rows)
-            pr[p.name] = np.zeros(rows)
-            groups: dict[tuple, list[int]] = {}
-            for j, s in enumerate(stims):
-                groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
-            for (kind, has_r), idx in groups.items():
-                g = len(idx)
-                samples = [stims[j].samples(n_phase) for j in idx]
-                width = max(len(x) for x in samples)
-                block = np.array([np.resize(x, width) for x in samples])  # (G, W)
-                stim = np.tile(block, (rows, 1))  # (rows*G, W), row-major: row r, stimulus j
-                r_src = np.tile([stims[j].r_source_ohm for j in idx], rows) if has_r else 0.0
-                f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
-                if f_rows is None and not has_r:
-                    op = eng.operate(p.name, block, kind=kind)
-                    mult = np.tile(np.asarray(op.movement_multiple), (rows, 1))
-                    cur = {n: np.tile(op.element(n).current_a, (rows, 1)) for n in topo.watch}
-                    vol = {n: np.tile(op.element(n).voltage_v, (rows, 1)) for n in topo.watch}
-                    i_src = np.tile(np.asarray(op.source_current_a), (rows, 1))
-                else:
-                    op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
-                    mult = np.array(op.movement_multiple)
-                    cur = {n: np.array(op.element(n).current_a) for n in topo.watch}
-                    vol = {n: np.array(op.element(n).voltage_v) for n in topo.watch}
-                    i_src = np.array(op.source_current_a)
-                lims = np.tile([stims[j].current_limit_a or np.inf for j in idx], rows)
-                if kind == "voltage" and np.isfinite(lims).any():
-                    rr, kk = np.nonzero(np.abs(i_src) > lims[:, None])
-                    if rr.size:
-                        vals = np.copysign(lims[rr], i_src[rr, kk])
-                        f2 = None if f_rows is None else {k: v[rr] for k, v in f_rows.items()}
-                        op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2)
-                        mult[rr, kk] = np.asarray(op2.movement_multiple)[:, 0]
-                        for n in topo.watch:
-                            cur[n][rr, kk] = op2.element(n).current_a[:, 0]
-                            vol[n][rr, kk] = op2.element(n).voltage_v[:, 0]
-                mult = mult.reshape(rows, g, width)
-                impulse = np.array([stims[j].peak_only for j in idx])
-                mf = mult.max(axis=2)  # (rows, G)
-                mr = (-mult).max(axis=2)
-                for arr, cases, m in ((fwd, fcase, mf), (rev, rcase, mr)):
-                    jbest = np.argmax(m, axis=1)
-                    vbest = m[np.arange(rows), jbest]
-                    better = vbest > arr
-                    for i in np.nonzero(better)[0]:
-                        cases[i] = (p.name, stims[idx[jbest[i]]].name)
-                    arr[:] = np.where(better, vbest, arr)
-                pf[p.name] = np.maximum(pf[p.name], mf.max(axis=1))
-                pr[p.name] = np.maximum(pr[p.name], mr.max(axis=1))
-                for j, sj in enumerate(idx):
-                    if stims[sj].name in ("max input", "max input reversed"):
-                        mi_f[:] = np.maximum(mi_f, mf[:, j])
-                        mi_r[:] = np.maximum(mi_r, mr[:, j])
-                # parts: power of the watched parts, continuous ratings of the clamp diodes
-                tot_p = np.zeros((rows, g))
-                for n in topo.watch:
-                    i = cur[n].reshape(rows, g, width)
-                    v = vol[n].reshape(rows, g, width)
-                    pm = (i * v).mean(axis=2)
-                    tot_p += np.abs(pm)
-                    if n in diodes:
-                        d = diodes[n]
-                        ratio = np.maximum.reduce([
-                            np.abs(i).mean(axis=2) / d.max_current_a,
-                            np.abs(i).max(axis=2) / d.surge_current_a,
-                            np.abs(pm) / d.max_power_w])
-                        ratio[:, impulse] = 0.0
-                        jbest = np.argmax(ratio, axis=1)
-                        vbest = ratio[np.arange(rows), jbest]
-                        better = vbest > stress
-                        for i_row in np.nonzero(better)[0]:
-                            scase[i_row] = (p.name, stims[idx[jbest[i_row]]].name, n)
-                        stress[:] = np.where(better, vbest, stress)
-                tot_p[:, impulse] = 0.0
-                power[:] = np.maximum(power, tot_p.max(axis=1))
-            # accuracy at the hottest ambient
-            applied = FRACTIONS * p.full_scale
-            rd = eng.operate(p.name, applied, temperature_k=self.t_hot, factors=fac).reading()
-            rd = np.broadcast_to(rd, (rows, applied.size))
-            err[p.name] = np.max(np.abs(rd - bare[p.name][None, :]), axis=1) / p.full_scale * 100.0
-            tot[p.name] = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
+            # a position whose current-carrying part holds neither part of the split is
+            # the same for every row: solve it once
+            varies = fac is not None and any(n in topo.carrying[p.name] for n in fac)
+            if varies:
+                r = self._position(topo, p, fac, rows, n_phase, bare[p.name])
+            else:
+                key = (p.name, n_phase)
+                if key not in topo.static:
+                    topo.static[key] = self._position(topo, p, None, 1, n_phase, bare[p.name])
+                r = topo.static[key]
+            if not varies and rows > 1:
+                r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
+                     for key, v in r.items()}
+            pf[p.name], pr[p.name] = r["forward"], r["reverse"]
+            err[p.name], tot[p.name] = r["error"], r["total"]
+            for arr, cases, new, newc in ((fwd, fcase, r["forward"], r["forward_case"]),
+                                          (rev, rcase, r["reverse"], r["reverse_case"]),
+                                          (stress, scase, r["stress"], r["stress_case"])):
+                for i in np.nonzero(new > arr)[0]:
+                    cases[i] = newc[i]
+                arr[:] = np.maximum(arr, new)
+            mi_f[:] = np.maximum(mi_f, r["max_input_forward"])
+            mi_r[:] = np.maximum(mi_r, r["max_input_reverse"])
+            power[:] = np.maximum(power, r["power"])
         return Metrics(fwd, rev, fcase, rcase, mi_f, mi_r, err, tot, stress, scase, power, pf, pr)
+
+    def _position(self, topo: _Topology, p, fac, rows: int, n_phase: int, bare) -> dict:
+        """Every figure of one position for ``rows`` rows (see :meth:`run`)."""
+        eng = topo.engine
+        diodes = {n: self.spec.parts.diodes[topo.net.element(n).model] for n in topo.clamp}
+        out = {key: np.zeros(rows) for key in ("forward", "reverse", "max_input_forward", "max_input_reverse",
+                                                "stress", "power")}
+        for key in ("forward_case", "reverse_case", "stress_case"):
+            out[key] = [None] * rows
+        stims = self.stimuli[p.name]
+        groups: dict[tuple, list[int]] = {}
+        for j, s in enumerate(stims):
+            groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
+        for (kind, has_r), idx in groups.items():
+            g = len(idx)
+            samples = [stims[j].samples(n_phase) for j in idx]
+            width = max(len(x) for x in samples)
+            block = np.array([np.resize(x, width) for x in samples])  # (G, W)
+            stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
+            r_src = np.tile([stims[j].r_source_ohm for j in idx], rows) if has_r else 0.0
+            f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
+            op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
+            mult = np.array(op.movement_multiple)
+            cur = {n: np.array(op.element(n).current_a) for n in topo.watch}
+            vol = {n: np.array(op.element(n).voltage_v) for n in topo.watch}
+            i_src = np.array(op.source_current_a)
+            lims = np.tile([stims[j].current_limit_a or np.inf for j in idx], rows)
+            if kind == "voltage" and np.isfinite(lims).any():
+                rr, kk = np.nonzero(np.abs(i_src) > lims[:, None])
+                if rr.size:
+                    vals = np.copysign(lims[rr], i_src[rr, kk])
+                    f2 = None if f_rows is None else {k: v[rr] for k, v in f_rows.items()}
+                    op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2)
+                    mult[rr, kk] = np.asarray(op2.movement_multiple)[:, 0]
+                    for n in topo.watch:
+                        cur[n][rr, kk] = op2.element(n).current_a[:, 0]
+                        vol[n][rr, kk] = op2.element(n).voltage_v[:, 0]
+            mult = mult.reshape(rows, g, width)
+            impulse = np.array([stims[j].peak_only for j in idx])
+            for key, m in (("forward", mult.max(axis=2)), ("reverse", (-mult).max(axis=2))):
+                jbest = np.argmax(m, axis=1)
+                vbest = m[np.arange(rows), jbest]
+                for i in np.nonzero(vbest > out[key])[0]:
+                    out[key + "_case"][i] = (p.name, stims[idx[jbest[i]]].name)
+                out[key] = np.maximum(out[key], vbest)
+                at_max = [j for j, sj in enumerate(idx) if stims[sj].name in ("max input", "max input reversed")]
+                if at_max:
+                    out["max_input_" + key] = np.maximum(out["max_input_" + key], m[:, at_max].max(axis=1))
+            # the watched parts' power, the clamp diodes' continuous ratings
+            tot_p = np.zeros((rows, g))
+            for n in topo.watch:
+                i = cur[n].reshape(rows, g, width)
+                v = vol[n].reshape(rows, g, width)
+                pm = (i * v).mean(axis=2)
+                tot_p += np.abs(pm)
+                if n in diodes:
+                    d = diodes[n]
+                    ratio = np.maximum.reduce([np.abs(i).mean(axis=2) / d.max_current_a,
+                                               np.abs(i).max(axis=2) / d.surge_current_a,
+                                               np.abs(pm) / d.max_power_w])
+                    ratio[:, impulse] = 0.0
+                    jbest = np.argmax(ratio, axis=1)
+                    vbest = ratio[np.arange(rows), jbest]
+                    for i_row in np.nonzero(vbest > out["stress"])[0]:
+                        out["stress_case"][i_row] = (p.name, stims[idx[jbest[i_row]]].name, n)
+                    out["stress"] = np.maximum(out["stress"], vbest)
+            tot_p[:, impulse] = 0.0
+            out["power"] = np.maximum(out["power"], tot_p.max(axis=1))
+        # accuracy at the hottest ambient
+        applied = FRACTIONS * p.full_scale
+        rd = eng.operate(p.name, applied, temperature_k=self.t_hot, factors=fac).reading()
+        rd = np.broadcast_to(rd, (rows, applied.size))
+        out["error"] = np.max(np.abs(rd - bare[None, :]), axis=1) / p.full_scale * 100.0
+        out["total"] = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
+        return out
 
     # --- judging ---------------------------------------------------------------------------
     def accuracy_ok(self, m: Metrics) -> np.ndarray:
@@ -797,6 +825,7 @@ class _Point:
     lower: tuple | None = None
     stage: str = "grid"
     clamps: tuple | None = None  # the ``clamps:`` requests (sized projects)
+    net: NetworkSpec | None = None  # the sized network of those requests
 
     @property
     def worst(self) -> float:
@@ -855,8 +884,9 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
     and the first infeasible grid point. Otherwise the minimum is inside the
     feasible set and :func:`scipy.optimize.minimize_scalar` (bounded Brent)
     finds it between the grid neighbours of the best grid point, a penalty of
-    the constraint use keeping it feasible. Both stop at 1 % of r, finer than
-    the steps of the E96 series the split is then made of.
+    the constraint use keeping it feasible. Both stop at 1.5 % of r (or after
+    :data:`REFINE_MAXITER` evaluations), finer than the steps of the E96 series
+    the split is then made of.
 
     References
     ----------
@@ -886,7 +916,8 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
         falling = i == 0 or score[i] <= score[i - 1]
         if i + 1 < len(r) and not feas[i + 1] and falling and np.isfinite(ctx.slack(m.row(i + 1))[0]):
             a, b = float(r[i]), float(r[i + 1])
-            edge = brentq(lambda x: float(ctx.slack(at(x))[0]), a, b, xtol=xtol)
+            edge = brentq(lambda x: float(ctx.slack(at(x))[0]), a, b, xtol=xtol, maxiter=REFINE_MAXITER,
+                          disp=False)
             while edge > a and not ctx.feasible(at(edge))[0]:
                 edge = max(a, edge - xtol)
         elif 0 < i < len(r) - 1 or (i == 0 and len(r) > 1):
@@ -898,7 +929,8 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
                 phi = lex_score(mx.position_worst()[0])
                 return phi if s <= 0 else phi * (2.0 + s)
 
-            minimize_scalar(objective, bounds=(lo, hi), method="bounded", options={"xatol": xtol})
+            minimize_scalar(objective, bounds=(lo, hi), method="bounded",
+                            options={"xatol": xtol, "maxiter": REFINE_MAXITER})
     except _Stop:
         pass
     best = None
@@ -1113,6 +1145,9 @@ def _sized_clamps(ctx: _Search, combo: Combo, r: float | None) -> tuple[ClampReq
     forward direction is therefore a ``reverse`` request, and the other way round.
     """
     at = "movement" if combo.site.kind == "movement" else float(r)
+    pair = ()
+    if combo.site.pair is not None:
+        pair = (ClampRequest(at="movement", forward=combo.site.pair, reverse=combo.site.pair, count=1),)
     out = []
     for direction, st in (("forward", combo.forward), ("reverse", combo.reverse)):
         if st is None:
@@ -1123,9 +1158,11 @@ def _sized_clamps(ctx: _Search, combo: Combo, r: float | None) -> tuple[ClampReq
     if len(out) == 2 and out[0]["key"] != out[1]["key"] and out[0]["model"] == out[1]["model"] \
             and out[0]["count"] == out[1]["count"]:
         kw = {out[0]["key"]: out[0]["model"], out[1]["key"]: out[1]["model"]}
-        return (ClampRequest(at=at, forward=kw.get("forward"), reverse=kw.get("reverse"), count=out[0]["count"]),)
-    return tuple(ClampRequest(at=at, forward=o["model"] if o["key"] == "forward" else None,
-                              reverse=o["model"] if o["key"] == "reverse" else None, count=o["count"]) for o in out)
+        return pair + (ClampRequest(at=at, forward=kw.get("forward"), reverse=kw.get("reverse"),
+                                    count=out[0]["count"]),)
+    return pair + tuple(ClampRequest(at=at, forward=o["model"] if o["key"] == "forward" else None,
+                                     reverse=o["model"] if o["key"] == "reverse" else None, count=o["count"])
+                        for o in out)
 
 
 def _sized_network(ctx: _Search, clamps) -> NetworkSpec:
@@ -1148,7 +1185,7 @@ def _realise_sized(ctx: _Search, p: _Point) -> _Point | None:
         if not ctx.room(1):
             return p
         m = ctx.run(topo)
-        return _Point(p.combo, None, m, bool(ctx.feasible(m)[0]), stage="realised", clamps=clamps)
+        return _Point(p.combo, None, m, bool(ctx.feasible(m)[0]), stage="realised", clamps=clamps, net=net)
     best = None
     r = float(f"{p.r:.3g}")
     if r > p.r:
@@ -1164,8 +1201,12 @@ def _realise_sized(ctx: _Search, p: _Point) -> _Point | None:
         topo = ctx.topology_of(net, _sized_watch(net))
         m = ctx.run(topo)
         tap = [e for e in net.elements if isinstance(e, Resistor) and e.group == "tap 1"]
-        q = _Point(p.combo, r, m, bool(ctx.feasible(m)[0]), lower=tuple(e.value_ohm for e in tap),
-                   stage="realised", clamps=clamps)
+        # the sizer's node of the (only) clamp tap is "tap1"; the segment above it ends there
+        above = {e.group for e in net.elements if isinstance(e, Resistor) and e.group not in (None, "tap 1")
+                 and "tap1" in e.nodes}
+        upper = tuple(e.value_ohm for e in net.elements if isinstance(e, Resistor) and e.group in above)
+        q = _Point(p.combo, r, m, bool(ctx.feasible(m)[0]), upper=upper, lower=tuple(e.value_ohm for e in tap),
+                   stage="realised", clamps=clamps, net=net)
         if best is None or (q.feasible, -q.worst) > (best.feasible, -best.worst):
             best = q
         if q.feasible:
@@ -1319,7 +1360,7 @@ def _final(ctx: _Search, p: _Point) -> _Point:
     clamps = None
     if ctx.sized:
         clamps = p.clamps or _sized_clamps(ctx, p.combo, p.r)
-        net = _sized_network(ctx, clamps)
+        net = p.net if p.net is not None else _sized_network(ctx, clamps)
         topo = ctx.topology_of(net, _sized_watch(net))
     elif p.combo.site.kind == "split" and p.lower is not None:
         topo = ctx.topology(p.combo, upper=p.upper, lower=p.lower)
@@ -1662,9 +1703,16 @@ def protected_text(spec: Spec, result: dict) -> str:
         raise UsageError("the chosen split has no standard values; run the search again")
     net, clamp, watch, _ = ctx.build(combo, **kw)
     notes = {}
-    for n in clamp:
-        d = net.element(n)
-        notes[n] = "clamp " + ("forward" if (combo.forward and d.name in clamp[:combo.forward.count]) else "reverse")
+    names = list(clamp)
+    where = "across the movement" if combo.site.kind == "movement" else f"at {combo.site.label.split(' + ')[0]}"
+    if combo.site.pair is not None:
+        notes[names.pop(0)] = "clamp across the movement, forward"
+        notes[names.pop(0)] = "clamp across the movement, reverse"
+    for direction, st in (("forward", combo.forward), ("reverse", combo.reverse)):
+        for k in range(st.count if st else 0):
+            zener = ", zener in breakdown" if st.mode == "breakdown" else ""
+            notes[names.pop(0)] = f"clamp {where}, {direction}{zener}" + (f" ({k + 1} of {st.count})"
+                                                                           if st.count > 1 else "")
     for n in watch:
         if n not in clamp:
             e = net.element(n)

@@ -205,7 +205,9 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
 # --- compiling one state for the solver -----------------------------------------------------
 
 
-class _Union:
+class UnionFind:
+    """Disjoint sets of node names (merging nodes joined by ideal contacts)."""
+
     def __init__(self):
         self.parent = {}
 
@@ -297,7 +299,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     g = active_graph(net, st)
     plus, minus = st.position.input
     live, alias = _current_carrying(g, plus, minus)
-    uf = _Union()
+    uf = UnionFind()
     for n in live:
         uf.find(n)
     for e in net.elements:

@@ -1012,28 +1012,25 @@ def _current(
     )
 
 
-def _diode_ref(ctx: _Ctx, node: _Node, parts: model.Parts, where: str) -> str:
-    name = ctx.text(node, where, "si_generic")
-    if name not in parts.diodes:
-        defined = ", ".join(parts.diodes) or "none yet"
+def _model_ref(ctx: _Ctx, node: _Node, models, kind: str, where: str, example: str) -> str:
+    """A reference to a part model by name (``kind`` is ``diode`` or ``fuse``)."""
+    name = ctx.text(node, where, example)
+    if name not in models:
+        defined = ", ".join(models) or "none yet"
         ctx.fail(
-            f"{where}: diode model '{name}' is not defined in parts.diodes{_suggest(name, parts.diodes)}; "
-            f"defined models: {defined}. Add it under parts.diodes",
+            f"{where}: {kind} model '{name}' is not defined in parts.{kind}s{_suggest(name, models)}; "
+            f"defined models: {defined}. Add it under parts.{kind}s",
             node.line,
         )
     return name
+
+
+def _diode_ref(ctx: _Ctx, node: _Node, parts: model.Parts, where: str) -> str:
+    return _model_ref(ctx, node, parts.diodes, "diode", where, "si_generic")
 
 
 def _fuse_ref(ctx: _Ctx, node: _Node, parts: model.Parts, where: str) -> str:
-    name = ctx.text(node, where, "f_100ma")
-    if name not in parts.fuses:
-        defined = ", ".join(parts.fuses) or "none yet"
-        ctx.fail(
-            f"{where}: fuse model '{name}' is not defined in parts.fuses{_suggest(name, parts.fuses)}; "
-            f"defined models: {defined}. Add it under parts.fuses",
-            node.line,
-        )
-    return name
+    return _model_ref(ctx, node, parts.fuses, "fuse", where, "f_100ma")
 
 
 def _clamps(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> tuple[model.ClampRequest, ...]:

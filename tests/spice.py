@@ -73,6 +73,7 @@ from typing import Mapping, Sequence
 import networkx as nx
 import numpy as np
 
+from planner.network import UnionFind
 from planner.model import Contact, Diode, Fuse, MovementElement, Resistor, ZERO_CELSIUS_K
 from planner.solve import BOLTZMANN, CHARGE
 
@@ -143,23 +144,6 @@ def ngspice_k_over_q() -> float:
     if abs(ratio - 1.0) > 1e-4:
         raise SpiceError(f"ngspice's k/q {kq!r} is far from k/q = {BOLTZMANN / CHARGE!r}")
     return kq
-
-
-class _Union:
-    def __init__(self):
-        self.parent: dict = {}
-
-    def find(self, x):
-        self.parent.setdefault(x, x)
-        while self.parent[x] != x:
-            self.parent[x] = self.parent[self.parent[x]]
-            x = self.parent[x]
-        return x
-
-    def union(self, a, b):
-        ra, rb = self.find(a), self.find(b)
-        if ra != rb:
-            self.parent[rb] = ra
 
 
 def _sweep_lines(stimuli: np.ndarray, source: str):
@@ -239,7 +223,7 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
     live = nx.node_connected_component(g, plus) | nx.node_connected_component(g, minus)
     present = [e for e in present if e.nodes[0] in live]
 
-    uf = _Union()
+    uf = UnionFind()
     for n in sorted(live):
         uf.find(n)
     for e in present:
