@@ -14,7 +14,9 @@ trade-off for a project:
 
 * **sites**: across the movement; each existing tap of the multiplier string
   (nearest first); a split of each resistor next to the movement at a resistance
-  ``r`` above it (continuous);
+  ``r`` above it (continuous); each tap and split again with a one-diode pair
+  kept across the movement (two-level clamping, for the positions - the current
+  ranges of a multimeter - that do not pass through the tapped segment);
 * **parts**: the project's diode models, as series stacks of 1 to 3, chosen
   separately for the forward (over-range) and the reverse (reversed leads)
   direction; a model with a breakdown voltage also as a zener stack working in
@@ -22,8 +24,9 @@ trade-off for a project:
 * **objective**: the worst movement-current multiple over the project's fault
   stimuli (:func:`planner.faults.stimuli_for`: ``faults.sources``, each DC
   source also reversed, the declared maximum input in both polarities, the range
-  up/down misranges, the impulse of the measurement category), with the power in
-  the clamp's parts as the tie-breaker;
+  up/down misranges, the impulse of the measurement category); where it ties
+  (within :data:`TIE`), the next worst position's, and so on (leximax,
+  :func:`lex_compare`); then the least power in the clamp's parts;
 * **constraints**: on every position, the change of reading the clamps cause
   at the hottest ambient, at 10 % ... 100 % of full scale, within a share of
   the class index (1/4 by default); every clamp diode within its continuous
@@ -49,8 +52,6 @@ Public API
 
 from __future__ import annotations
 
-import dataclasses
-import heapq
 import math
 import re
 from collections import Counter
@@ -64,11 +65,15 @@ from . import eseries
 from . import network as nw
 from .engine import Engine
 from .errors import ProjectError, SolveError, UsageError
-from .model import ZERO_CELSIUS_K, ClampRequest, Contact, Diode, MovementElement, NetworkSpec, Resistor, Spec
+from .model import ZERO_CELSIUS_K, ClampRequest, Contact, Diode, NetworkSpec, Resistor, Spec
 
 __all__ = [
     "DEFAULT_SHARE",
     "MAX_CANDIDATES",
+    "clamp_diodes",
+    "lex_compare",
+    "lex_best",
+    "lex_score",
     "protect_project",
     "format_protect",
     "protected_text",
@@ -97,6 +102,8 @@ REFINE_COMBOS = 3
 #: 2.4 % steps of E96), and the most evaluations each refinement may take.
 REFINE_XTOL_REL = 0.015
 REFINE_MAXITER = 8
+#: Least relative gain an interior refinement must promise (see :func:`_worth_refining`).
+REFINE_GAIN = 0.005
 #: Phase points per sine cycle during the search. A multiple of 4 hits both crests
 #: exactly, and the movement current of this resistive network peaks at the
 #: crest, so the peak multiples are exact; the cycle means (diode current, power)
@@ -197,7 +204,7 @@ class Combo:
 
     @property
     def parts_count(self) -> int:
-        """Parts the clamp adds: its diodes, plus one resistor for a split."""
+        """Parts the clamp adds: its diodes (a movement pair included), plus one resistor for a split."""
         return self.diodes + (1 if self.site.kind == "split" else 0)
 
     def key(self) -> tuple:
@@ -269,6 +276,7 @@ class _Topology:
     memo: dict = field(default_factory=dict)
     carrying: dict | None = None  # position -> designators that carry current in it
     static: dict = field(default_factory=dict)  # (position, phase points) -> figures that no row changes
+    bare_engine: Engine | None = None  # the same network without its clamp diodes
 
 
 # =====================================================================================
@@ -332,6 +340,7 @@ class _Search:
         self.say = progress or (lambda message: None)
         self.max_candidates = int(max_candidates)
         self.evaluated = 0
+        self.reevaluated = 0
         self.pruned = 0
         self.truncated = False
         self.seed = spec.analysis.seed if seed is None else seed
@@ -371,7 +380,6 @@ class _Search:
         for p in self.positions:
             s = share.get(p.name, DEFAULT_SHARE) if isinstance(share, Mapping) else share
             self.limits[p.name] = float(s) * self.class_index
-        self.shares = {p.name: self.limits[p.name] / self.class_index for p in self.positions}
         # fault stimuli: the matrix's own, and each DC project source reversed
         self.stimuli = {}
         for p in self.positions:
@@ -406,18 +414,15 @@ class _Search:
         out = [Site("movement", "movement", mov.a)]
         net = self.base
         if self.sized:
+            # the sizer's clamp taps split the first multiplier segment (docs/sizing.md)
             roles = {s.name: s.role for s in self.base_sizing.segments}
-            first = {}
-            for s in self.base_sizing.segments:
-                if s.role == "multiplier" and s.parts:
-                    first.setdefault("seg", s)
-            seg = first.get("seg")
+            seg = next((s for s in self.base_sizing.segments if s.role == "multiplier" and s.parts), None)
             if seg is not None:
                 low = seg.low
                 for p in seg.parts:
                     e = net.element(p.name)
                     if low in e.nodes and roles.get(e.group) == "multiplier":
-                        out.append(Site("split", f"split {e.name}", low, e.name, float(min(e.value_ohm, seg.target_ohm))))
+                        out.append(Site("split", "chain tap", low, e.name, float(min(e.value_ohm, seg.target_ohm))))
                         break
             return out + self._paired(out)
         terminals = {n for p in net.positions for n in p.input}
@@ -597,11 +602,13 @@ class _Search:
                 for p in self.positions}
 
     # --- evaluation ----------------------------------------------------------------------
-    def run(self, topo: _Topology, r_rows=None, *, pairs=None, n_phase: int = SEARCH_PHASE_POINTS) -> Metrics:
+    def run(self, topo: _Topology, r_rows=None, *, pairs=None, n_phase: int = SEARCH_PHASE_POINTS,
+            count: bool = True) -> Metrics:
         """Evaluate a topology for a batch of split resistances (one row when None).
 
         ``pairs`` = (upper values, lower values) [ohm] gives the two parts of a
-        grid split row by row instead (standard values).
+        grid split row by row instead (standard values). ``count`` False leaves
+        the evaluation out of the candidate count (the reported rows' final pass).
 
         Notes
         -----
@@ -616,9 +623,12 @@ class _Search:
             rows = len(pairs[0])
         else:
             rows = 1 if r_rows is None else len(r_rows)
-        self.evaluated += rows
+        if count:
+            self.evaluated += rows
+        else:
+            self.reevaluated += rows
         try:
-            return self._run(topo, self._factors(topo, r_rows, pairs), rows, n_phase)
+            return self._run(topo, self._factors(topo, r_rows, pairs), rows, n_phase, pairs is not None)
         except SolveError as e:
             inf = np.full(rows, np.inf)
             none = [None] * rows
@@ -639,12 +649,21 @@ class _Search:
         r = np.asarray(r_rows, dtype=float)
         return {up: (total - r) / up0, lo: r / lo0}
 
-    def _run(self, topo: _Topology, fac, rows: int, n_phase: int) -> Metrics:
+    def _run(self, topo: _Topology, fac, rows: int, n_phase: int, own_bare: bool = False) -> Metrics:
         if topo.carrying is None:
             from .accuracy import current_carrying
 
             topo.carrying = {p.name: current_carrying(topo.engine, p.name) for p in self.positions}
-        bare = self.bare_readings(topo)
+        if own_bare and fac is not None:
+            # standard values: the two parts no longer sum to the resistor exactly, so
+            # the readings without clamps are those of the same parts, row by row
+            if topo.bare_engine is None:
+                net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+                topo.bare_engine = Engine(self.spec, net, check=False)
+            bare = {p.name: topo.bare_engine.operate(p.name, FRACTIONS * p.full_scale, temperature_k=self.t_hot,
+                                                     factors=fac).reading() for p in self.positions}
+        else:
+            bare = self.bare_readings(topo)
         fwd, rev, mi_f, mi_r, stress, power = (np.zeros(rows) for _ in range(6))
         fcase, rcase, scase = [None] * rows, [None] * rows, [None] * rows
         err, tot, pf, pr = {}, {}, {}, {}
@@ -657,7 +676,7 @@ class _Search:
             else:
                 key = (p.name, n_phase)
                 if key not in topo.static:
-                    topo.static[key] = self._position(topo, p, None, 1, n_phase, bare[p.name])
+                    topo.static[key] = self._position(topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1])
                 r = topo.static[key]
             if not varies and rows > 1:
                 r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
@@ -746,7 +765,7 @@ class _Search:
         applied = FRACTIONS * p.full_scale
         rd = eng.operate(p.name, applied, temperature_k=self.t_hot, factors=fac).reading()
         rd = np.broadcast_to(rd, (rows, applied.size))
-        out["error"] = np.max(np.abs(rd - bare[None, :]), axis=1) / p.full_scale * 100.0
+        out["error"] = np.max(np.abs(rd - np.broadcast_to(bare, rd.shape)), axis=1) / p.full_scale * 100.0
         out["total"] = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
         return out
 
@@ -771,36 +790,71 @@ class _Search:
         return np.max(np.vstack([m.error_pct[p.name] for p in self.positions]), axis=0) / self.class_index
 
 
-def protection_key(multiples) -> tuple:
-    """Leximax key of per-position worst multiples: smaller is better protection.
-
-    The multiples sorted from the largest down, each on a logarithmic grid of
-    step :data:`TIE` (so multiples within about 2 % compare equal); tuples compare
-    lexicographically: the worst position first, then the next worst, ...
+def lex_compare(a, b, tol: float = TIE) -> int:
+    """Compare the protection of two placements, worst position first.
 
     Parameters
     ----------
-    multiples : sequence of float
+    a, b : sequence of float
         Worst movement multiple of each position.
+    tol : float
+        Relative difference below which two multiples count as equal.
 
     Returns
     -------
-    tuple of float
-    """
-    out = []
-    for x in sorted((float(v) for v in multiples), reverse=True):
-        out.append(math.inf if not math.isfinite(x) else float(round(math.log(max(x, 1e-12)) / math.log1p(TIE))))
-    return tuple(out)
-
-
-def lex_score(multiples) -> float:
-    """A scalar that orders placements like :func:`protection_key` to first order.
+    int
+        -1 when a protects better, +1 when b does, 0 when every multiple of the
+        two (each sorted from the largest down) is within ``tol``.
 
     Notes
     -----
-    :math:`\phi = \sum_k \epsilon^k v_{(k)}` with the multiples sorted from the
-    largest down, :math:`v_{(0)} \ge v_{(1)} \ge \dots` and
-    :math:`\epsilon` = :data:`LEX_WEIGHT`: the worst position dominates, and
+    Leximax order: minimise the largest multiple; where two placements tie on
+    it (within ``tol``), the next largest decides, and so on. It lets a clamp
+    that only helps the voltage ranges win over one that helps nothing, when a
+    current range (which no multiplier split touches) sets the worst case.
+    """
+    for x, y in zip(sorted(map(float, a), reverse=True), sorted(map(float, b), reverse=True)):
+        if x > y * (1.0 + tol):
+            return 1
+        if y > x * (1.0 + tol):
+            return -1
+    return 0
+
+
+def lex_best(items, vector, tol: float = TIE) -> list:
+    """The items that protect best: filtered rank by rank to within ``tol`` of the best.
+
+    Parameters
+    ----------
+    items : sequence
+    vector : callable
+        Gives the per-position multiples of an item.
+
+    Returns
+    -------
+    list
+        The items whose largest multiple is within ``tol`` of the least largest
+        multiple, then, among those, whose second largest is within ``tol`` of
+        the least second largest, and so on (in the order given).
+    """
+    cands = list(items)
+    if not cands:
+        return cands
+    vecs = {id(c): sorted(map(float, vector(c)), reverse=True) for c in cands}
+    for k in range(len(next(iter(vecs.values())))):
+        best = min(vecs[id(c)][k] for c in cands)
+        cands = [c for c in cands if vecs[id(c)][k] <= best * (1.0 + tol)]
+    return cands
+
+
+def lex_score(multiples) -> float:
+    """A scalar that orders placements like :func:`lex_compare` to first order.
+
+    Notes
+    -----
+    :math:`\\phi = \\sum_k \\epsilon^k v_{(k)}` with the multiples sorted from the
+    largest down, :math:`v_{(0)} \\ge v_{(1)} \\ge \\dots` and
+    :math:`\\epsilon` = :data:`LEX_WEIGHT`: the worst position dominates, and
     where it cannot change (a current range the split does not touch) the next
     ones decide. Used where a scalar objective is needed (scipy's minimisers).
     """
@@ -832,9 +886,9 @@ class _Point:
         return float(self.metrics.worst[0])
 
     @property
-    def key(self) -> tuple:
-        """Leximax protection key (see :func:`protection_key`)."""
-        return protection_key(self.metrics.position_worst()[0])
+    def multiples(self) -> np.ndarray:
+        """Worst movement multiple of each position."""
+        return self.metrics.position_worst()[0]
 
     @property
     def score(self) -> float:
@@ -854,17 +908,13 @@ def _evaluate_combo(ctx: _Search, combo: Combo) -> tuple[_Topology, np.ndarray |
     return topo, r, m
 
 
-def _row_order(m: Metrics, i: int) -> tuple:
-    v = m.position_worst()[i]
-    return (protection_key(v), lex_score(v))
-
-
 def _best_point(ctx: _Search, combo: Combo, r, m: Metrics, stage="grid") -> _Point:
     """The feasible row that protects best (leximax), else the row nearest feasibility."""
     feas = ctx.feasible(m)
     if feas.any():
-        i = min(np.nonzero(feas)[0], key=lambda k: _row_order(m, int(k)))
-        i = int(i)
+        pw = m.position_worst()
+        best = lex_best([int(k) for k in np.nonzero(feas)[0]], lambda k: pw[k])
+        i = min(best, key=lambda k: (lex_score(pw[k]), k))
     else:
         i = int(np.argmin(ctx.slack(m)))
     return _Point(combo, None if r is None else float(r[i]), m.row(i), bool(feas[i]), stage=stage)
@@ -901,7 +951,7 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
         return None
     pw = m.position_worst()
     score = np.array([lex_score(v) for v in pw])
-    i = int(min(np.nonzero(feas)[0], key=lambda k: (protection_key(pw[k]), score[k])))
+    i = min(lex_best([int(k) for k in np.nonzero(feas)[0]], lambda k: pw[k]), key=lambda k: (score[k], k))
     xtol = REFINE_XTOL_REL * float(r[i])
 
     def at(x: float) -> Metrics:
@@ -920,7 +970,7 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
                           disp=False)
             while edge > a and not ctx.feasible(at(edge))[0]:
                 edge = max(a, edge - xtol)
-        elif 0 < i < len(r) - 1 or (i == 0 and len(r) > 1):
+        elif (0 < i < len(r) - 1 or (i == 0 and len(r) > 1)) and _worth_refining(r, score, i):
             lo, hi = float(r[max(i - 1, 0)]), float(r[i + 1])
 
             def objective(x):
@@ -933,21 +983,65 @@ def _refine(ctx: _Search, topo: _Topology, combo: Combo, r: np.ndarray, m: Metri
                             options={"xatol": xtol, "maxiter": REFINE_MAXITER})
     except _Stop:
         pass
-    best = None
-    for x in sorted(topo.memo):
-        mx = topo.memo[x]
-        if ctx.feasible(mx)[0]:
-            v = mx.position_worst()[0]
-            order = (protection_key(v), lex_score(v))
-            if best is None or order < best[0]:
-                best = (order, x, mx)
-    if best is None:
+    ok = [x for x in sorted(topo.memo) if ctx.feasible(topo.memo[x])[0]]
+    if not ok:
         return None
-    return _Point(combo, best[1], best[2], True, stage="refined")
+    x = min(lex_best(ok, lambda x: topo.memo[x].position_worst()[0]),
+            key=lambda x: (lex_score(topo.memo[x].position_worst()[0]), x))
+    return _Point(combo, x, topo.memo[x], True, stage="refined")
+
+
+def _worth_refining(r: np.ndarray, score: np.ndarray, i: int) -> bool:
+    """Whether an interior minimum can gain more than :data:`REFINE_GAIN` over grid point i.
+
+    Notes
+    -----
+    The parabola :math:`\\phi(x) = a x^2 + b x + c` through the grid point and its
+    two neighbours, :math:`x = \\ln r`, has its vertex at :math:`\\phi_{min} = c -
+    b^2 / (4 a)` when :math:`a > 0`; when :math:`\\phi_i - \\phi_{min}` is below the
+    share, the grid point stands (the steps of the E96 series are coarser
+    anyway). At the end of the grid, or with non-finite or non-convex
+    neighbours, the refinement runs.
+    """
+    if i == 0 or i + 1 >= len(r):
+        return True
+    x = np.log(np.asarray(r[i - 1:i + 2], dtype=float))
+    y = np.asarray(score[i - 1:i + 2], dtype=float)
+    if not np.all(np.isfinite(y)):
+        return True
+    a, b, c = np.polyfit(x - x[1], y, 2)
+    if a <= 0:
+        return True
+    gain = float(y[1] - (c - b * b / (4.0 * a)))
+    return gain > REFINE_GAIN * float(y[1])
+
+
+def _ranked(points: list) -> list:
+    """Points best first: the best protection (:func:`lex_best`), then score, parts, combo."""
+    rest, out = list(points), []
+    while rest:
+        best = min(lex_best(rest, lambda p: p.multiples),
+                   key=lambda p: (p.score, p.combo.parts_count, p.combo.key(), -1.0 if p.r is None else p.r))
+        out.append(best)
+        rest.remove(best)
+    return out
 
 
 class _Stop(Exception):
     """The candidate cap was reached."""
+
+
+def _signature(c: Combo) -> tuple:
+    """The diodes a combo places, as oriented stacks: two combos with one signature are one circuit.
+
+    A forward zener working in breakdown (cathodes toward the tap) is the same
+    part the same way round as a reverse junction stack of that model.
+    """
+    out = []
+    for direction, st in (("forward", c.forward), ("reverse", c.reverse)):
+        if st is not None:
+            out.append((st.model, st.count, (direction == "forward") == (st.mode == "junction")))
+    return (c.site.label, tuple(sorted(out)))
 
 
 def _search(ctx: _Search) -> tuple[list[_Point], dict, dict]:
@@ -956,18 +1050,50 @@ def _search(ctx: _Search) -> tuple[list[_Point], dict, dict]:
     Returns the best point of every combo evaluated, a record of the sites and
     bounds, and the evaluations by combo key (topology with its memo of split
     resistances, grid, metrics).
+
+    Notes
+    -----
+    1. *Bounds.* At every site the strongest stack of each kind - one diode
+       each way of every model, one zener in breakdown each way - is evaluated
+       (on the split grid). A longer stack needs more voltage for the same
+       current, :math:`V_{stack}(I) = k\\,V_j(I)`, so it clamps later: the
+       multiples of the one-diode stack bound those of every stack of its model
+       and mode from below, position by position (up to the leakage of the
+       other direction's reverse-biased stack and the grid's resolution).
+    2. *Branching.* Sites in the order of their bound; a site, or a combo,
+       whose bound does not beat the best feasible placement so far
+       (:func:`lex_compare`) is pruned. At a site every forward stack is tried
+       with the strongest reverse stack; then every reverse stack with the two
+       best forward stacks (the reverse stack hardly changes the forward
+       figures: reverse-biased, it only leaks). A reverse stack of more than
+       one diode only clamps later, so it is tried only when the one-diode
+       stack fails the accuracy requirement. Combos that place the same
+       diodes the same way round are evaluated once.
+    3. *Refinement* of the split resistance of the best :data:`REFINE_COMBOS`
+       split combos (:func:`_refine`).
+
+    References
+    ----------
+    A. H. Land and A. G. Doig, "An automatic method of solving discrete
+    programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
     """
     points: dict[tuple, _Point] = {}
     evaluated: dict[tuple, tuple] = {}
-    bounds: dict[str, float] = {}
+    seen: set = set()
+    bounds: dict[str, np.ndarray] = {}
+    fb: dict[tuple, np.ndarray] = {}  # (site, model, mode) -> per-position forward bound
+    rb: dict[tuple, np.ndarray] = {}  # (site, model, mode) -> per-position reverse bound
     info = {"sites": [], "pruned_sites": [], "pruned_combos": 0}
     sites = ctx.sites()
     fwd_stacks = ctx.stacks("forward")
     rev_stacks = ctx.stacks("reverse")
+    n_pos = len(ctx.positions)
 
     def visit(combo: Combo):
-        if combo.key() in evaluated or combo.key() in points:
+        sig = _signature(combo)
+        if combo.key() in evaluated or sig in seen:
             return evaluated.get(combo.key())
+        seen.add(sig)
         ctx.say(f"{combo.site.label}: forward {combo.forward.label() if combo.forward else 'none'}, "
                 f"reverse {combo.reverse.label() if combo.reverse else 'none'}")
         res = _evaluate_combo(ctx, combo)
@@ -978,76 +1104,87 @@ def _search(ctx: _Search) -> tuple[list[_Point], dict, dict]:
         points[combo.key()] = _best_point(ctx, combo, r, m)
         return evaluated[combo.key()]
 
-    def incumbent() -> tuple:
-        keys = [p.key for p in points.values() if p.feasible]
-        return min(keys) if keys else (math.inf,)
-
-    def bound_of(ms_f, ms_r) -> np.ndarray:
-        """Per-position lower bound: the larger of the forward and the reverse bound."""
-        return np.maximum(ms_f, ms_r)
+    def beats_incumbent(lb) -> bool:
+        """Whether a bound leaves room for better protection than every feasible point so far."""
+        ok = [p for p in points.values() if p.feasible]
+        return not ok or all(lex_compare(lb, p.multiples) < 0 for p in lex_best(ok, lambda p: p.multiples))
 
     def per_position_min(m: Metrics, which: str) -> np.ndarray:
         d = m.pos_forward if which == "forward" else m.pos_reverse
         return np.array([float(np.min(d[q.name])) for q in ctx.positions])
 
+    def combo_bound(c: Combo) -> np.ndarray:
+        zero = np.zeros(n_pos)
+        f = fb.get((c.site.label, c.forward.model, c.forward.mode), zero) if c.forward else zero
+        r = rb.get((c.site.label, c.reverse.model, c.reverse.mode), zero) if c.reverse else zero
+        return np.maximum(f, r)
+
+    def prune(c: Combo) -> bool:
+        if c.key() in points or _signature(c) in seen:
+            return True
+        # a reverse stack longer than one diode: only if the one-diode stack fails
+        if c.reverse is not None and c.reverse.count > 1:
+            one = points.get(Combo(c.site, c.forward, replace(c.reverse, count=1)).key())
+            if one is None or one.feasible:
+                info["pruned_combos"] += 1
+                ctx.pruned += 1
+                return True
+        if not beats_incumbent(combo_bound(c)):
+            info["pruned_combos"] += 1
+            ctx.pruned += 1
+            return True
+        return False
+
     try:
-        # 1. bounds: the strongest clamp of each kind at every site (one diode each way)
+        # 1. bounds: the strongest stack of each kind at every site
         for site in sites:
-            lb = np.full(len(ctx.positions), np.inf)
+            lb = np.full(n_pos, np.inf)
             for mdl in ctx.models:
-                topo, r, m = visit(Combo(site, Stack(mdl, 1), Stack(mdl, 1)))
+                _, _, m = visit(Combo(site, Stack(mdl, 1), Stack(mdl, 1)))
+                fb[(site.label, mdl, "junction")] = per_position_min(m, "forward")
+                rb[(site.label, mdl, "junction")] = per_position_min(m, "reverse")
                 lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
             for z in ctx.zeners:
-                topo, r, m = visit(Combo(site, Stack(z, 1, "breakdown"), None))
-                lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
-            bounds[site.label] = protection_key(lb)
+                for c, which, store in ((Combo(site, Stack(z, 1, "breakdown"), None), "forward", fb),
+                                        (Combo(site, None, Stack(z, 1, "breakdown")), "reverse", rb)):
+                    _, _, m = visit(c)
+                    store[(site.label, z, "breakdown")] = per_position_min(m, which)
+                    lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
+            bounds[site.label] = lb
             info["sites"].append({"site": site.label, "kind": site.kind, "node": site.node, "element": site.element,
                                   "r_ohm": site.r_ohm if site.kind != "movement" else 0.0,
                                   "bound_multiple": float(np.max(lb)),
                                   "bound_multiples": {q.name: float(x) for q, x in zip(ctx.positions, lb)}})
         # 2. branch: sites in the order of their bound
-        for site in sorted(sites, key=lambda s: (bounds[s.label], s.label)):
-            if site.kind != "movement" and bounds[site.label] >= incumbent():
+        for site in sorted(sites, key=lambda s: (lex_score(bounds[s.label]), s.label)):
+            if not beats_incumbent(bounds[site.label]):
                 info["pruned_sites"].append(site.label)
                 ctx.pruned += 1
                 continue
-            combos = [Combo(site, f, rv) for f in fwd_stacks for rv in rev_stacks]
-            combos += [Combo(site, f, None) for f in fwd_stacks if f.mode == "breakdown"]
-            combos += [Combo(site, None, rv) for rv in rev_stacks if rv.mode == "breakdown"]
-            for c in combos:
-                if c.key() in points:
-                    continue
-                # a longer reverse stack than one diode only weakens the reverse clamp,
-                # adds a part and leaves the forward error about the same: try it only
-                # when the one-diode reverse stack of the same forward choice fails the
-                # accuracy requirement everywhere
-                if c.reverse is not None and c.reverse.mode == "junction" and c.reverse.count > 1:
-                    one = points.get(Combo(site, c.forward, Stack(c.reverse.model, 1)).key())
-                    if one is None or one.feasible:
-                        info["pruned_combos"] += 1
-                        ctx.pruned += 1
-                        continue
-                # bound: a stack clamps no earlier than the one-diode stack of its model
-                f1 = points.get(Combo(site, Stack(c.forward.model, 1), Stack(c.forward.model, 1)).key()) \
-                    if c.forward is not None and c.forward.mode == "junction" else None
-                r1 = points.get(Combo(site, Stack(c.reverse.model, 1), Stack(c.reverse.model, 1)).key()) \
-                    if c.reverse is not None and c.reverse.mode == "junction" else None
-                zero = np.zeros(len(ctx.positions))
-                lbc = bound_of(per_position_min(evaluated[f1.combo.key()][2], "forward") if f1 else zero,
-                               per_position_min(evaluated[r1.combo.key()][2], "reverse") if r1 else zero)
-                if site.kind != "movement" and protection_key(lbc) >= incumbent():
-                    info["pruned_combos"] += 1
-                    ctx.pruned += 1
-                    continue
-                visit(c)
+            ones = [st for st in rev_stacks if st.count == 1]
+            rv0 = min(lex_best(ones, lambda st: rb[(site.label, st.model, st.mode)]),
+                      key=lambda st: (lex_score(rb[(site.label, st.model, st.mode)]), st.mode, st.model))
+            for f in fwd_stacks:
+                for rv in ((rv0, None) if f.mode == "breakdown" else (rv0,)):
+                    c = Combo(site, f, rv)
+                    if not prune(c):
+                        visit(c)
+            here = [p for p in points.values() if p.combo.site == site and p.feasible and p.combo.forward]
+            for p in _ranked(here)[:2]:
+                f = p.combo.forward
+                for rv in list(rev_stacks) + ([None] if f.mode == "breakdown" else []):
+                    c = Combo(site, f, rv)
+                    if not prune(c):
+                        visit(c)
         # 3. refine the split resistance of the most promising split combos
         splits = [p for p in points.values() if p.combo.site.kind == "split" and p.feasible]
-        for p in sorted(splits, key=lambda p: (p.key, p.score, p.combo.parts_count, p.combo.key()))[:REFINE_COMBOS]:
+        for p in _ranked(splits)[:REFINE_COMBOS]:
             topo, r, m = evaluated[p.combo.key()]
             ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
                     f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
             q = _refine(ctx, topo, p.combo, r, m)
-            if q is not None and (q.key, q.score) < (p.key, p.score):
+            if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
+                                  (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
                 points[p.combo.key()] = q
     except _Stop:
         pass
@@ -1134,7 +1271,9 @@ def _realise_explicit(ctx: _Search, p: _Point, topo: _Topology | None) -> _Point
         out.append(_Point(p.combo, float(sum(lower)), m, bool(ctx.feasible(m)[0]), upper, lower, stage="realised"))
     if not out:
         return None
-    return max(out, key=lambda q: (q.feasible, -q.worst, -abs(sum(q.upper) + sum(q.lower) - p.combo.site.r_ohm)))
+    pool = [q for q in out if q.feasible] or out
+    return min(lex_best(pool, lambda q: q.multiples),
+               key=lambda q: (q.score, abs(sum(q.upper) + sum(q.lower) - p.combo.site.r_ohm), q.r))
 
 
 def _sized_clamps(ctx: _Search, combo: Combo, r: float | None) -> tuple[ClampRequest, ...]:
@@ -1172,8 +1311,11 @@ def _sized_network(ctx: _Search, clamps) -> NetworkSpec:
 
 
 def _sized_watch(net: NetworkSpec) -> tuple:
-    """The parts of the sizer's clamp-tap segments (their power counts with the diodes')."""
-    return tuple(e.name for e in net.elements if isinstance(e, Resistor) and e.group and e.group.startswith("tap "))
+    """The parts of the sizer's clamp-tap segment and of the segment it splits off (their power counts)."""
+    tap = {e.name: e for e in net.elements if isinstance(e, Resistor) and e.group and e.group.startswith("tap ")}
+    nodes = {n for e in tap.values() for n in e.nodes if n.startswith("tap")}
+    above = {e.group for e in net.elements if isinstance(e, Resistor) and e.name not in tap and set(e.nodes) & nodes}
+    return tuple(e.name for e in net.elements if isinstance(e, Resistor) and (e.name in tap or e.group in above))
 
 
 def _realise_sized(ctx: _Search, p: _Point) -> _Point | None:
@@ -1187,9 +1329,8 @@ def _realise_sized(ctx: _Search, p: _Point) -> _Point | None:
         m = ctx.run(topo)
         return _Point(p.combo, None, m, bool(ctx.feasible(m)[0]), stage="realised", clamps=clamps, net=net)
     best = None
-    r = float(f"{p.r:.3g}")
-    if r > p.r:
-        r = float(f"{p.r * 0.995:.3g}")
+    # a standard value for the tap, so the sizer makes the tap segment of one part
+    r = eseries.at_or_below(ctx.series, p.r)
     for _ in range(REALISE_TRIES):
         if not ctx.room(1):
             break
@@ -1207,11 +1348,11 @@ def _realise_sized(ctx: _Search, p: _Point) -> _Point | None:
         upper = tuple(e.value_ohm for e in net.elements if isinstance(e, Resistor) and e.group in above)
         q = _Point(p.combo, r, m, bool(ctx.feasible(m)[0]), upper=upper, lower=tuple(e.value_ohm for e in tap),
                    stage="realised", clamps=clamps, net=net)
-        if best is None or (q.feasible, -q.worst) > (best.feasible, -best.worst):
+        if best is None or (q.feasible and not best.feasible):
             best = q
         if q.feasible:
             break
-        r = float(f"{r * 0.97:.3g}")
+        r = eseries.at_or_below(ctx.series, r * (1.0 - 1e-9))
     return best
 
 
@@ -1240,16 +1381,21 @@ def _pareto(rows: list[dict]) -> list[dict]:
     return [r for r in rows if not any(_dominates(o, r) for o in rows if o is not r)]
 
 
-def _order(row: dict) -> tuple:
-    """Best protection first (leximax over the positions), then the least power and parts."""
-    m = _multiples(row)
-    return (protection_key(m), row["power_w"], row["parts_count"], lex_score(m), row["key"])
+def _ordered(rows: list[dict]) -> list[dict]:
+    """Rows best first: the best protection (:func:`lex_best`), then the least power, parts, score."""
+    rest, out = list(rows), []
+    while rest:
+        best = min(lex_best(rest, _multiples),
+                   key=lambda r: (r["power_w"], r["parts_count"], lex_score(_multiples(r)), r["key"]))
+        out.append(best)
+        rest.remove(best)
+    return out
 
 
 def _choose(rows: list[dict]) -> dict | None:
-    """The feasible row that protects best (leximax, 2 % steps), then with the least power and parts."""
-    ok = [r for r in rows if r["feasible"]]
-    return min(ok, key=_order) if ok else None
+    """The feasible row that protects best (leximax within :data:`TIE`), then with the least power and parts."""
+    ok = _ordered([r for r in rows if r["feasible"]])
+    return ok[0] if ok else None
 
 
 def _num(x):
@@ -1322,7 +1468,7 @@ def _row(ctx: _Search, label: str, p: _Point, combo: Combo | None = None, *, cla
 
 def _as_given_row(ctx: _Search) -> dict:
     topo = ctx.topology_of(ctx.orig_net)
-    m = ctx.run(topo, n_phase=REPORT_PHASE_POINTS)
+    m = ctx.run(topo, n_phase=REPORT_PHASE_POINTS, count=False)
     clamp = topo.clamp
     d = [ctx.orig_net.element(n) for n in clamp]
     row = {
@@ -1356,7 +1502,7 @@ def _as_given_row(ctx: _Search) -> dict:
 
 
 def _final(ctx: _Search, p: _Point) -> _Point:
-    """The point evaluated again with every phase point of the faults matrix."""
+    """The point evaluated again on its realised network, :data:`REPORT_PHASE_POINTS` per sine cycle."""
     clamps = None
     if ctx.sized:
         clamps = p.clamps or _sized_clamps(ctx, p.combo, p.r)
@@ -1366,7 +1512,7 @@ def _final(ctx: _Search, p: _Point) -> _Point:
         topo = ctx.topology(p.combo, upper=p.upper, lower=p.lower)
     else:
         topo = ctx.topology(p.combo)
-    m = ctx.run(topo, n_phase=REPORT_PHASE_POINTS)
+    m = ctx.run(topo, n_phase=REPORT_PHASE_POINTS, count=False)
     return _Point(p.combo, p.r, m, bool(ctx.feasible(m)[0]), p.upper, p.lower, stage="final", clamps=clamps)
 
 
@@ -1387,7 +1533,9 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
     seed : int, optional
         Seed of the random probes of the split grid; ``analysis.seed`` by default.
     max_candidates : int
-        Cap on the evaluations (each split resistance of a grid counts one).
+        Cap on the search's evaluations: each split resistance of a grid, each
+        refinement step and each standard-value split counts one. The final pass
+        over the reported rows is counted apart (``rows_reevaluated``).
     progress : callable(str), optional
         Receives a short message before each batch.
 
@@ -1474,8 +1622,7 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
     ctx.say("standard values for the best placements")
-    best_first = sorted((p for p in points if p.feasible),
-                        key=lambda p: (p.key, p.score, p.combo.parts_count, p.combo.key()))
+    best_first = _ranked([p for p in points if p.feasible])
     for p in best_first[:2 * PARETO_ROWS]:
         if p.combo.key() == across.key():
             continue
@@ -1485,14 +1632,14 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
             q = _realise_sized(ctx, p)
         else:
             q = _realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
-        if q is None or not ctx.room(1):
+        if q is None:
             continue
         q = _final(ctx, q)
         row = _row(ctx, "candidate", q, clamps=q.clamps)
         if row["key"] not in seen:
             seen.add(row["key"])
             finals.append(row)
-    pareto = sorted(_pareto([r for r in finals if r["feasible"]]), key=_order)[:PARETO_ROWS]
+    pareto = _ordered(_pareto([r for r in finals if r["feasible"]]))[:PARETO_ROWS]
     chosen = _choose(pareto)
     for i, r in enumerate(pareto, 1):
         r["rank"] = i
@@ -1512,6 +1659,7 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
         "seed": int(ctx.seed),
         "max_candidates": int(max_candidates),
         "candidates_evaluated": int(ctx.evaluated),
+        "rows_reevaluated": int(ctx.reevaluated),
         "pruned": int(ctx.pruned),
         "truncated": bool(ctx.truncated),
         "sites": info["sites"],
@@ -1523,8 +1671,21 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
     }
     result["requirements_met"] = bool(chosen is not None and chosen["feasible"])
     result["improves_on_across_movement"] = bool(
-        chosen is not None and protection_key(_multiples(chosen)) < protection_key(_multiples(across_row)))
-    return result
+        chosen is not None and lex_compare(_multiples(chosen), _multiples(across_row)) < 0)
+    return _finite(result)
+
+
+def _finite(obj):
+    """A JSON-safe copy: numpy scalars to Python numbers, non-finite floats to None."""
+    if isinstance(obj, dict):
+        return {str(k): _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
 
 
 # =====================================================================================
@@ -1542,6 +1703,14 @@ def _mult(x) -> str:
     return "-" if x is None else (f"{x:.3g}" if x < 1000 else f"{x:.0f}")
 
 
+def _hundred(x):
+    return None if x is None else 100.0 * x
+
+
+def _pct(x, fmt: str = ".3f") -> str:
+    return "-" if x is None else format(x, fmt)
+
+
 def _split_text(row: dict) -> str:
     if row.get("site_kind") != "split":
         return "-"
@@ -1554,7 +1723,10 @@ def _parts_text(row: dict) -> str:
         return ""
     up = " + ".join(_fmt(v, "ohm", 4) for v in parts["upper"])
     lo = " + ".join(_fmt(v, "ohm", 4) for v in parts["lower"])
-    return f"{row['split_element']} ({_fmt(row['split_of_ohm'], 'ohm', 4)}) made of {up} above the tap and {lo} below it"
+    if row.get("clamps") is not None:  # sized: the sizer lays the two segments out
+        return f"sized as {lo} from the movement to the tap and {up} from the tap to the first range"
+    whole = _fmt(row["split_of_ohm"], "ohm", 4)
+    return f"{row['split_element']} ({whole}) made of {up} above the tap and {lo} below it"
 
 
 def format_protect(result: dict) -> str:
@@ -1577,28 +1749,36 @@ def format_protect(result: dict) -> str:
              f"Requirement: clamp error at {t_hot_c:.1f} degC (hottest ambient) within {req} "
              f"(class {result['class_index']:g}).",
              "Fault stimuli: " + ", ".join(result["stimuli"]) + ".", ""]
-    head = (f"{'#':>2}  {'site':<14}{'split':<11}{'forward':<16}{'reverse':<16}"
+    head = (f"{'#':>2}  {'site':<16}{'split':<11}{'forward':<15}{'reverse':<15}"
             f"{'worst x':>8}{'fwd x':>7}{'rev x':>7}{'err %':>7}{'class':>7}{'parts':>6}{'power':>10}")
     lines += [head, "-" * len(head)]
 
     def line(tag, r):
-        return (f"{tag:>2}  {r['site']:<14}{_split_text(r):<11}{(r.get('forward_part') or '-'):<16}"
-                f"{(r.get('reverse_part') or '-'):<16}{_mult(r['worst_movement_multiple']):>8}"
+        site = r["site"].replace(" + movement pair", " +pair")
+        return (f"{tag:>2}  {site:<16}{_split_text(r):<11}{(r.get('forward_part') or '-'):<15}"
+                f"{(r.get('reverse_part') or '-'):<15}{_mult(r['worst_movement_multiple']):>8}"
                 f"{_mult(r['worst_movement_multiple_forward']):>7}{_mult(r['worst_movement_multiple_reverse']):>7}"
-                f"{r['hot_linearity_error_pct']:>7.3f}{100 * r['share_of_class']:>6.1f}%{r['parts_count']:>6}"
+                f"{_pct(r['hot_linearity_error_pct']):>7}{_pct(_hundred(r['share_of_class']), '.1f'):>6}%"
+                f"{r['parts_count']:>6}"
                 f"{_fmt(r['power_w'], 'W'):>10}")
 
     for r in result["pareto"]:
         lines.append(line(str(r["rank"]), r) + ("  <- chosen" if r.get("chosen") else ""))
     if not result["pareto"]:
         lines.append("   no placement meets the accuracy requirement and the clamp diodes' ratings")
+    lines += ["Columns: split = resistance from the movement to the clamp tap; worst / fwd / rev x = largest movement",
+              "current over the fault stimuli in multiples of full scale (both polarities / reading up / reading",
+              "down); err % = change of reading the clamps cause at the hottest ambient, % of full scale; class =",
+              "that as a share of the class index; power = largest power in the clamp's parts (diodes, split",
+              "resistors) under a fault. +pair: a one-diode pair also stays across the movement."]
     lines += ["", "Baselines:"]
     for key, tag in (("as_given", "as given"), ("across_movement", "across movement, one diode each way")):
         b = result["baseline"][key]
         ok = "meets" if b["feasible"] else "misses"
-        lines.append(f"  {tag}: worst {_mult(b['worst_movement_multiple'])} x (forward "
-                     f"{_mult(b['worst_movement_multiple_forward'])}, reverse {_mult(b['worst_movement_multiple_reverse'])}), "
-                     f"clamp error {b['hot_linearity_error_pct']:.3f} % ({100 * b['share_of_class']:.1f} % of class), "
+        fwd, rev = _mult(b["worst_movement_multiple_forward"]), _mult(b["worst_movement_multiple_reverse"])
+        err, cls = _pct(b["hot_linearity_error_pct"]), _pct(_hundred(b["share_of_class"]), ".1f")
+        lines.append(f"  {tag}: worst {_mult(b['worst_movement_multiple'])} x (forward {fwd}, reverse {rev}), "
+                     f"clamp error {err} % ({cls} % of class), "
                      f"{ok} the requirement")
     c = result["chosen"]
     lines.append("")
@@ -1607,7 +1787,9 @@ def format_protect(result: dict) -> str:
                      "diodes, or accept the protection of the project as given.")
     else:
         b = result["baseline"]["across_movement"]
-        where = c["site"] + (f" at {_fmt(c['split_ohm'], 'ohm')} above the movement" if c["site_kind"] == "split" else "")
+        where = c["site"]
+        if c["site_kind"] == "split":
+            where += f" at {_fmt(c['split_ohm'], 'ohm')} above the movement"
         lines.append(f"Chosen: {where}, forward {c.get('forward_part') or 'none'}, reverse "
                      f"{c.get('reverse_part') or 'none'}.")
         if _parts_text(c):
@@ -1619,13 +1801,14 @@ def format_protect(result: dict) -> str:
         lines.append(f"  worst movement multiple {_mult(b['worst_movement_multiple'])} -> "
                      f"{_mult(c['worst_movement_multiple'])} x full scale (clamps across the movement -> chosen)")
         if c.get("max_input_multiple_forward") is not None:
-            lines.append(f"  at the declared maximum input: forward {_mult(b['max_input_multiple_forward'])} -> "
-                         f"{_mult(c['max_input_multiple_forward'])}, reverse {_mult(b['max_input_multiple_reverse'])} -> "
-                         f"{_mult(c['max_input_multiple_reverse'])}")
-        wc = c.get("worst_case_forward") or {}
+            bf, cf = _mult(b["max_input_multiple_forward"]), _mult(c["max_input_multiple_forward"])
+            br, cr = _mult(b["max_input_multiple_reverse"]), _mult(c["max_input_multiple_reverse"])
+            lines.append(f"  at the declared maximum input: forward {bf} -> {cf}, reverse {br} -> {cr}")
+        fwd_worse = (c["worst_movement_multiple_forward"] or 0.0) >= (c["worst_movement_multiple_reverse"] or 0.0)
+        wc = (c.get("worst_case_forward") if fwd_worse else c.get("worst_case_reverse")) or {}
+        err, cls = _pct(c["hot_linearity_error_pct"]), _pct(_hundred(c["share_of_class"]), ".1f")
         lines.append(f"  worst case: {wc.get('position')} | {wc.get('stimulus')}; clamp error at the hottest ambient "
-                     f"{c['hot_linearity_error_pct']:.3f} % ({100 * c['share_of_class']:.1f} % of class); "
-                     f"diode stress {c['clamp_stress_ratio']:.2f} of rating")
+                     f"{err} % ({cls} % of class); diode stress {_pct(c['clamp_stress_ratio'], '.2f')} of rating")
         lines.append("RESULT: " + ("the chosen placement protects better than clamps across the movement"
                                    if result["improves_on_across_movement"] else
                                    "no placement protects better than clamps across the movement"))
@@ -1704,7 +1887,8 @@ def protected_text(spec: Spec, result: dict) -> str:
     net, clamp, watch, _ = ctx.build(combo, **kw)
     notes = {}
     names = list(clamp)
-    where = "across the movement" if combo.site.kind == "movement" else f"at {combo.site.label.split(' + ')[0]}"
+    node = combo.site.node if combo.site.kind == "tap" else ctx.tap_node
+    where = "across the movement" if combo.site.kind == "movement" else f"at {node}"
     if combo.site.pair is not None:
         notes[names.pop(0)] = "clamp across the movement, forward"
         notes[names.pop(0)] = "clamp across the movement, reverse"

@@ -211,6 +211,29 @@ def cmd_dossier(args) -> int:
     return EXIT_OK
 
 
+def cmd_protect(args) -> int:
+    from .clamps import format_protect, protect_project, write_protected
+
+    spec = _load(args)
+    share = 0.25
+    if args.share is not None:
+        share = _quantity(args.share, "fraction", "--share")
+        if not 0.0 < share <= 1.0:
+            from .errors import UsageError
+
+            raise UsageError(f"--share: {args.share!r} must lie between 0 and 1 (a share of the class index)")
+    show = _progress(args)
+    try:
+        result = protect_project(spec, share=share, seed=args.seed, max_candidates=args.max_candidates, progress=show)
+    finally:
+        _end_progress(show)
+    if args.write:
+        write_protected(spec, result, args.write)
+        print(f"wrote {args.write}", file=sys.stderr)
+    _emit(args, result, format_protect(result))
+    return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
 def cmd_fit_diode(args) -> int:
     from .diodefit import fit, fit_json, format_fit, read_points
 
@@ -284,6 +307,15 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
+
+    sp = sub.add_parser("protect", help="search clamp placements and multiplier splits; write the chosen plan")
+    common(sp)
+    sp.add_argument("--share", metavar="S", help="share of the class the clamps may cost in linearity (default 0.25)")
+    sp.add_argument("--seed", type=int, help="seed of the search (default from the file)")
+    sp.add_argument("--max-candidates", type=int, default=2000, metavar="N", help="bound on candidates (default 2000)")
+    sp.add_argument("-o", "--write", metavar="OUT.yaml", help="write the project with the chosen placement")
+    sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    sp.set_defaults(func=cmd_protect)
 
     sp = sub.add_parser("fit-diode", help="fit a diode model to measured (V, I) points from a CSV file")
     sp.add_argument("points", metavar="POINTS.csv", help="CSV with header voltage_v,current_a[,temperature_c]")

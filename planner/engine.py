@@ -60,18 +60,18 @@ class Operating:
 
     @property
     def shape(self):
-        return self.solution.v_node.shape[:2]
+        return self.solution.shape
 
     def node_voltage(self, node: str) -> np.ndarray:
         """Voltage of a node against the input's minus terminal [V], shape (P, S)."""
         i = self.circuit.node_index.get(node)
         if i is None:
             return np.zeros(self.shape)
-        return self.solution.v_node[:, :, i]
+        return self.solution.node_voltage(i)
 
     def _branch_current(self, name, role):
         j = self._branch_of.get((name, role))
-        return None if j is None else self.solution.i_branch[:, :, j]
+        return None if j is None else self.solution.branch_current(j)
 
     @property
     def movement_current_a(self) -> np.ndarray:
@@ -98,14 +98,14 @@ class Operating:
             return np.broadcast_to(self._stimulus, self.shape)
         j = self._branch_of.get(("__source__", "source"))
         if j is not None:
-            return sol.i_branch[:, :, j]
+            return sol.branch_current(j)
         held = c.held
         out = np.zeros(self.shape)
         for j, (a, b) in enumerate(zip(c.lin_a, c.lin_b)):
             if a == held:
-                out = out + sol.i_branch[:, :, j]
+                out = out + sol.branch_current(j)
             elif b == held:
-                out = out - sol.i_branch[:, :, j]
+                out = out - sol.branch_current(j)
         for j, name in enumerate(c.diodes):
             e = self.engine.elements[name]
             if c.node_index.get(e.anode) == held:
@@ -129,8 +129,9 @@ class Operating:
             i = self._branch_current(name, role)
             if i is None:
                 i = np.zeros(self.shape)
-                if isinstance(e, Contact) and name in self.state.closed:
+                if isinstance(e, Contact) and name in self.state.closed and e.r_ohm == 0.0:
                     i = np.full(self.shape, np.nan)  # an ideal closed contact: current not tracked
+                # (a closed contact with resistance that is no branch hangs in a dead part: no current)
         return ElementStress(name, e.kind, i, v, v * i)
 
     def stresses(self) -> list[ElementStress]:
@@ -277,7 +278,7 @@ class Engine:
         jn = self.junctions(circuit, t, factors)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
         sol = solve(circuit, r, jn, stim)
-        i_fs = self.spec.movement.i_fs_a * np.ones((sol.v_node.shape[0], 1))
+        i_fs = self.spec.movement.i_fs_a * np.ones((sol.shape[0], 1))
         if factors and "i_fs" in factors:
             i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)
         op = Operating(self, st, circuit, sol, i_fs)

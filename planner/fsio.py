@@ -5,11 +5,18 @@ Every file the planner writes (JSON, PDF, generated YAML) goes through
 folder, flushed to disk, then renamed over the target in one step, so a reader
 sees either the old file or the whole new one, never half of it. An input file
 named in ``protect`` is never overwritten.
+
+Temporary files are hidden and name their writer: ``.<name>.<pid>-<random>.tmp``
+beside the target. A writer removes its own temporary file on every failure it
+lives through; one killed outright (SIGKILL, a power cut) leaves it behind, and the
+next write to the same target removes it once no process with that id is running
+(POSIX only; elsewhere such files are left for the user to delete).
 """
 
 from __future__ import annotations
 
 import os
+import re
 import secrets
 from typing import Sequence
 
@@ -54,11 +61,12 @@ def write_atomic(
 
     Notes
     -----
-    Steps: create ``.<name>.<random>.tmp`` beside the target (``O_EXCL``, mode
+    Steps: create ``.<name>.<pid>-<random>.tmp`` beside the target (``O_EXCL``, mode
     0666 less the umask, so the result has ordinary permissions), write,
     ``fsync``, ``os.replace`` onto the target (atomic on POSIX and Windows
     within one file system), then ``fsync`` the folder where the system allows
-    it so that the rename itself survives a power cut.
+    it so that the rename itself survives a power cut. Last, temporary files of the
+    same target left by writers that no longer run are removed.
     """
     target = os.fspath(path)
     for p in protect:
@@ -75,7 +83,7 @@ def write_atomic(
     try:
         fd = -1
         for _ in range(100):
-            tmp = os.path.join(folder, f".{base}.{secrets.token_hex(6)}.tmp")
+            tmp = os.path.join(folder, f".{base}.{os.getpid()}-{secrets.token_hex(6)}.tmp")
             try:
                 fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0), 0o666)
                 break
@@ -105,6 +113,39 @@ def write_atomic(
             except OSError:
                 pass
     _fsync_folder(folder)
+    _remove_stale_temps(folder, base)
+
+
+def _remove_stale_temps(folder: str, base: str) -> None:
+    """Remove ``.<base>.<pid>-<hex>.tmp`` files whose writer process no longer runs."""
+    if os.name != "posix":  # no safe way to probe a process id
+        return
+    pattern = re.compile(r"\." + re.escape(base) + r"\.(\d+)-[0-9a-f]{12}\.tmp")
+    try:
+        names = os.listdir(folder)
+    except OSError:
+        return
+    for name in names:
+        m = pattern.fullmatch(name)
+        if m is None or _running(int(m.group(1))):
+            continue
+        try:
+            os.unlink(os.path.join(folder, name))
+        except OSError:
+            pass
+
+
+def _running(pid: int) -> bool:
+    """Whether a process with this id exists (POSIX: signal 0 probes without sending)."""
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # e.g. another user's process: it exists
+        return True
+    return True
 
 
 def _fsync_folder(folder: str) -> None:

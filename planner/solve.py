@@ -11,6 +11,13 @@ them for every stimulus at once, the junction unknowns eliminated inside each
 step, with junction-voltage limiting; source stepping and gmin stepping take
 over for the cases that do not converge.
 
+Speed (see ``docs/performance.md``): the cases run through Newton in blocks of
+:data:`NEWTON_BLOCK`, sized so that a block's rows stay in the processor cache;
+a parameter that is the same for every case is a number, not a row; big batches
+start from a solved subset (:func:`solve` explains which); and the result is
+lazy: node voltages and branch currents are formed only when asked for, and
+only for the nodes and branches asked for.
+
 Shapes: ``P`` parameter sets (tolerance samples x temperatures), ``S`` stimuli per
 set, ``N`` nodes, ``L`` linear branches, ``K`` ports, ``D`` diodes.
 """
@@ -18,7 +25,7 @@ set, ``N`` nodes, ``L`` linear branches, ``K`` ports, ``D`` diodes.
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -49,12 +56,26 @@ MAX_ITER = 200
 #: Newton converges quadratically there, so the extra step takes the error from
 #: about 1e-10 V to round-off (about 1e-16 V).
 STEP_TOL = 1e-10
-#: Upper bound on floats held by one chunk of the Newton loop (memory limit).
+#: Upper bound on floats held by one chunk of the linear solve (memory limit).
 CHUNK_FLOATS = 4_000_000
 #: Upper bound on floats in the results of one call (node voltages, branch and diode
 #: quantities of every case, about 0.8 GB); a larger batch is refused with a clear
 #: error instead of exhausting the memory.
 MAX_RESULT_FLOATS = 100_000_000
+#: Cases per block of the Newton loop: a block's rows (8192 floats, 64 kB each) stay
+#: in the processor's cache, where numpy runs several times faster per element than
+#: on rows of 100 000 cases, and the interpreter's cost per operation stays small.
+NEWTON_BLOCK = 8192
+#: Batches of at least this many cases whose parameter sets share their stimuli start
+#: from the solution of one representative parameter set.
+WARM_MIN_CASES = 512
+#: Sweeps of at least this many stimuli start from a solved coarse subset,
+#: interpolated.
+SWEEP_MIN = 96
+#: Every how many (sorted) stimuli of a sweep the coarse subset takes one.
+SWEEP_STRIDE = 8
+#: Newton iterations allowed from a warm start before a case is restarted cold.
+WARM_MAX_ITER = 40
 
 
 def thermal_voltage(t_k):
@@ -162,16 +183,18 @@ class Junctions:
         return Junctions(*(fn(x) for x in (self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p)))
 
 
-@dataclass
 class Solution:
-    """Operating points of a batch.
+    """Operating points of a batch (lazy: node voltages and branch currents on demand).
 
     Attributes
     ----------
+    shape : tuple
+        ``(P, S)``.
     v_node : ndarray, shape (P, S, N)
-        Node voltages [V] against the input's minus terminal.
+        Node voltages [V] against the input's minus terminal (formed on first use).
     i_branch : ndarray, shape (P, S, L)
-        Current in each linear branch from its first to its second node [A].
+        Current in each linear branch from its first to its second node [A] (formed
+        on first use).
     v_junction : ndarray, shape (P, S, D)
         Junction voltage of each diode [V] (terminal voltage less R_s drop).
     i_diode : ndarray, shape (P, S, D)
@@ -180,14 +203,85 @@ class Solution:
         Largest Newton iteration count used.
     fallbacks : dict
         How many cases needed source stepping or gmin stepping.
+
+    Notes
+    -----
+    Node voltages are the superposition of the linear part's responses:
+
+    .. math:: v_n = s\\,x_{n,0} + \\sum_m x_{n,m}\\, j_m
+
+    with ``s`` the stimulus, ``x`` the responses to a unit stimulus and to a unit
+    current into each node that a port touches, and ``j_m`` the net current the
+    diodes feed into node m (summed before the superposition, so that the large
+    and opposite currents of diodes in series cancel exactly where they meet, not
+    after multiplication by large responses); a branch current is
+    the difference of its nodes' voltages over its resistance. :meth:`node_voltage`
+    and :meth:`branch_current` form one column only; the full arrays are formed (and
+    kept) on first access to ``v_node`` or ``i_branch``.
     """
 
-    v_node: np.ndarray
-    i_branch: np.ndarray
-    v_junction: np.ndarray
-    i_diode: np.ndarray
-    iterations: int = 0
-    fallbacks: dict = field(default_factory=dict)
+    def __init__(self, circuit: Circuit, stim, x, r, j_node, v_junction, i_diode, iterations=0, fallbacks=None):
+        self.circuit = circuit
+        self._stim = stim  # (P, S)
+        self._x = x  # (P, N, 1 + T): responses to the stimulus and to a unit current into each port node
+        self._r = r  # (P, L)
+        self._j = j_node  # (P, S, T): current the diodes (and auxiliary conductances) feed into each port node
+        self.v_junction = v_junction
+        self.i_diode = i_diode
+        self.iterations = int(iterations)
+        self.fallbacks = dict(fallbacks or {"source_stepping": 0, "gmin_stepping": 0})
+        self._nodes: dict = {}
+        self._branch: dict = {}
+        self._v_node = None
+        self._i_branch = None
+
+    @property
+    def shape(self) -> tuple:
+        return self._stim.shape
+
+    def node_voltage(self, i: int) -> np.ndarray:
+        """Voltage of node ``i`` [V], shape (P, S)."""
+        i = int(i)
+        if self._v_node is not None:
+            return self._v_node[:, :, i]
+        v = self._nodes.get(i)
+        if v is None:
+            x = self._x
+            v = self._stim * x[:, i, 0][:, None]
+            for k in range(x.shape[2] - 1):
+                v = v + x[:, i, 1 + k][:, None] * self._j[:, :, k]
+            self._nodes[i] = v
+        return v
+
+    def branch_current(self, j: int) -> np.ndarray:
+        """Current of linear branch ``j`` from its first to its second node [A], shape (P, S)."""
+        j = int(j)
+        if self._i_branch is not None:
+            return self._i_branch[:, :, j]
+        i = self._branch.get(j)
+        if i is None:
+            c = self.circuit
+            i = (self.node_voltage(c.lin_a[j]) - self.node_voltage(c.lin_b[j])) / self._r[:, j][:, None]
+            self._branch[j] = i
+        return i
+
+    @property
+    def v_node(self) -> np.ndarray:
+        if self._v_node is None:
+            x = self._x
+            v = self._stim[:, :, None] * x[:, None, :, 0]
+            for k in range(x.shape[2] - 1):
+                v = v + x[:, None, :, 1 + k] * self._j[:, :, k, None]
+            self._v_node = v
+        return self._v_node
+
+    @property
+    def i_branch(self) -> np.ndarray:
+        if self._i_branch is None:
+            c = self.circuit
+            v = self.v_node
+            self._i_branch = (v[:, :, c.lin_a] - v[:, :, c.lin_b]) / self._r[:, None, :]
+        return self._i_branch
 
 
 def _junction(v, jn: Junctions):
@@ -233,21 +327,50 @@ def _pnjlim(v_new, v_old, nvt, vcrit):
     return np.where(big, np.where(v_old > 0, from_pos, from_neg), v_new)
 
 
-def _limit(v_new, v_old, jn: Junctions):
-    """Junction-voltage limiting, forward and (mirrored about -BV) in breakdown."""
-    vcrit = jn.nvt * np.log(jn.nvt / (np.sqrt(2.0) * jn.i_s))
-    out = _pnjlim(v_new, v_old, jn.nvt, vcrit)
-    finite = np.isfinite(jn.bv)
-    if finite.any():
-        bv = np.where(finite, jn.bv, 0.0)
-        vcr = jn.nvt * np.log(jn.nvt / (np.sqrt(2.0) * jn.ibv))
-        w_new = -(out + bv)
-        w = _pnjlim(w_new, -(v_old + bv), jn.nvt, vcr)
-        out = np.where(finite & (w != w_new), -(w + bv), out)  # round trip via -BV only where limited
-    return out
+def wright_omega(z):
+    """The Wright omega function for real arguments: the w with w + ln w = z.
+
+    Parameters
+    ----------
+    z : ndarray
+
+    Returns
+    -------
+    ndarray
+        omega(z), to about 1e-15 relative.
+
+    Notes
+    -----
+    Start from :math:`e^z` (z < 1), :math:`(z + 1)/2` (1 <= z < 3) or
+    :math:`z - \\ln z`, then three steps of the fourth-order iteration of Fritsch,
+    Shafer and Crowley:
+
+    .. math:: r = z - w - \\ln w, \\quad t = 2 (1 + w)(1 + w + 2r/3), \\quad
+              w \\leftarrow w \\left(1 + \\frac{r}{1 + w} \\frac{t - r}{t - 2r}\\right)
+
+    Below z = -700 omega(z) = e^z to double precision; above 1e12, z - ln z.
+
+    References
+    ----------
+    R. M. Corless and D. J. Jeffrey, "The Wright omega function", in *Artificial
+    Intelligence, Automated Reasoning, and Symbolic Computation*, LNCS 2385, 2002;
+    F. N. Fritsch, R. E. Shafer and W. P. Crowley, "Algorithm 443: solution of the
+    transcendental equation w e^w = x", Communications of the ACM 16(2), 1973.
+    """
+    z = np.asarray(z, dtype=float)
+    zc = np.clip(z, -700.0, 1e12)
+    w = np.where(zc < 1.0, np.exp(np.minimum(zc, 1.0)), zc - np.log(np.maximum(zc, 1.0)))
+    w = np.where((zc >= 1.0) & (zc < 3.0), 0.5 * (zc + 1.0), w)
+    for _ in range(3):
+        r = zc - w - np.log(w)
+        wp1 = w + 1.0
+        t = 2.0 * wp1 * (wp1 + 2.0 * r / 3.0)
+        w = w * (1.0 + r / wp1 * (t - r) / (t - 2.0 * r))
+    w = np.where(z < -700.0, np.exp(np.maximum(z, -800.0)), w)
+    return np.where(z > 1e12, z - np.log(np.maximum(z, 1.0)), w)
 
 
-def _single_diode(v_oc, r, jn: Junctions):
+def _single_diode(v_oc, r, i_s, nvt):
     r"""Terminal current of a junction behind a resistance, exactly [A].
 
     Notes
@@ -261,237 +384,551 @@ def _single_diode(v_oc, r, jn: Junctions):
     T. C. Banwell and A. Jayakumar, "Exact analytical solution for current flow
     through diode with series resistance", Electronics Letters 36(4), 291-292, 2000.
     """
-    from scipy.special import wrightomega
-
-    arg = np.log(jn.i_s * r / jn.nvt) + (v_oc + jn.i_s * r) / jn.nvt
-    return (jn.nvt / r) * np.real(wrightomega(arg)) - jn.i_s
+    arg = np.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt
+    return (nvt / r) * wright_omega(arg) - i_s
 
 
-def _port_sum(values, circuit: Circuit, groups):
-    """Sum per-diode values (..., D) onto ports (..., K)."""
-    out = np.zeros(values.shape[:-1] + (circuit.n_ports,))
-    for k, idx in enumerate(groups):
-        out[..., k] = values[..., idx].sum(axis=-1)
-    return out
+# --- the reduced problem, one row per port or diode ----------------------------------------------
+
+_FIELDS = ("i_s", "nvt", "bv", "ibv", "r_s", "g_p")
+
+
+def _column(a):
+    """A float when every parameter set has the same value, else the contiguous column."""
+    a = np.asarray(a, dtype=float)
+    if a.size == 0 or np.all(a == a[0]):
+        return float(a[0]) if a.size else 0.0
+    return np.ascontiguousarray(a)
+
+
+def _take(a, idx):
+    """Rows of a per-case array; a float stands for every case."""
+    return a[idx] if isinstance(a, np.ndarray) else a
+
+
+def _nonzero(a) -> bool:
+    return isinstance(a, np.ndarray) or a != 0.0
+
+
+class _Rows:
+    """The reduced equations of ``n`` cases: one row (or one float) per port, port pair or diode.
+
+    ``drive[q]``: open-circuit voltage of port q; ``z[q][j]``: voltage of port q per
+    unit current out through port j; ``y``: the inverse of ``-z`` (only with three
+    or more ports, for the Newton step's symmetric form); then the junction
+    parameters per diode and their derived rows.
+    """
+
+    def __init__(self, port, sign, drive, z, y, params):
+        self.port, self.sign = port, sign
+        self.k, self.nd = len(drive), len(port)
+        self.n = len(drive[0]) if drive else 0
+        self.drive, self.z, self.y = drive, z, y
+        self.params = params
+        self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p = (params[f] for f in _FIELDS)
+        self.inv_nvt = [1.0 / v for v in self.nvt]
+        self.isv = [a * b for a, b in zip(self.i_s, self.inv_nvt)]
+        self.two_nvt = [2.0 * v for v in self.nvt]
+        self.vcrit = [v * np.log(v / (np.sqrt(2.0) * s)) for v, s in zip(self.nvt, self.i_s)]
+        self.has_bv = [bool(np.any(np.isfinite(b))) for b in self.bv]
+        with np.errstate(divide="ignore"):
+            self.vcr_bv = [v * np.log(v / (np.sqrt(2.0) * ib)) if h else 0.0
+                           for v, ib, h in zip(self.nvt, self.ibv, self.has_bv)]
+        self.groups = [[d for d in range(self.nd) if port[d] == q] for q in range(self.k)]
+
+    def subset(self, idx) -> "_Rows":
+        z = [[_take(a, idx) for a in row] for row in self.z]
+        y = None if self.y is None else [[_take(a, idx) for a in row] for row in self.y]
+        params = {f: [_take(a, idx) for a in v] for f, v in self.params.items()}
+        return _Rows(self.port, self.sign, [d[idx] for d in self.drive], z, y, params)
+
+
+class _Problem:
+    """The reduced port equations of a whole batch: P parameter sets x S stimuli.
+
+    Cases are numbered ``p * S + s``. :meth:`rows` gathers the rows of any set of
+    cases; the per-set quantities (port responses, junction parameters) are kept
+    per parameter set, not per case.
+    """
+
+    def __init__(self, circuit: Circuit, x, inc, jn: Junctions, stim, r):
+        self.circuit = circuit
+        self.inc = inc
+        self.stim = stim
+        self.r = r
+        self.jn = jn
+        self.p, self.s = stim.shape
+        k = circuit.n_ports
+        self.k, self.nd = k, len(circuit.diodes)
+        self.u = np.ascontiguousarray(x[:, circuit.port_a, 0] - x[:, circuit.port_c, 0])  # (P, K)
+        self.zd = np.ascontiguousarray((x[:, circuit.port_a, 1:] - x[:, circuit.port_c, 1:]) @ inc)  # (P, K, K)
+        self.yd = None
+        if k >= 3:
+            # the symmetric form of the Newton step needs -Z invertible (no loop of ports)
+            with np.errstate(all="ignore"):
+                cond = np.linalg.cond(-self.zd)
+            if np.all(np.isfinite(cond)) and cond.max() < 1e10:
+                yd = np.linalg.inv(-self.zd)
+                self.yd = 0.5 * (yd + np.swapaxes(yd, 1, 2))  # symmetric: only the Newton step uses it
+        self.port = [int(v) for v in circuit.diode_port]
+        self.sign = [float(v) for v in circuit.diode_sign]
+        self.cols = {f: [_column(getattr(jn, f)[:, d]) for d in range(self.nd)] for f in _FIELDS}
+        self.iterations = 0
+        self.fallbacks = {"source_stepping": 0, "gmin_stepping": 0}
+
+    def rows(self, cases) -> _Rows:
+        s_count = self.s
+        p = cases // s_count
+        stim = self.stim[p, cases - p * s_count]
+        k = self.k
+        drive = [stim * self.u[p, q] for q in range(k)]
+        z = [[self.zd[p, q, j] for j in range(k)] for q in range(k)]
+        y = None if self.yd is None else [[self.yd[p, q, j] for j in range(k)] for q in range(k)]
+        params = {f: [_take(c, p) for c in cols] for f, cols in self.cols.items()}
+        return _Rows(self.port, self.sign, drive, z, y, params)
+
+    # --- strategies ----------------------------------------------------------------------------
+    def solve(self):
+        """Port and junction voltages of every case, shapes (P*S, K) and (P*S, D)."""
+        p, s = self.p, self.s
+        b = p * s
+        if p > 1 and b >= WARM_MIN_CASES and np.all(self.stim == self.stim[:1]):
+            # one representative parameter set first; every set starts from it
+            rep = self.representative()
+            v_r, vj_r = self.solve_sweep(np.array([rep]))
+            return self.solve_cases(np.arange(b), lambda c: (v_r[c % s].T, vj_r[c % s].T))
+        if s >= SWEEP_MIN:
+            return self.solve_sweep(np.arange(p))
+        return self.solve_cases(np.arange(b))
+
+    def representative(self) -> int:
+        """The parameter set nearest the median of all of them (log resistances, log I_s, n V_t)."""
+        feats = [np.log(self.r)]
+        if self.nd:
+            feats += [np.log(np.maximum(self.jn.i_s, 1e-300)), self.jn.nvt / np.maximum(self.jn.nvt.mean(), 1e-300)]
+        f = np.concatenate(feats, axis=1)
+        dev = f - np.median(f, axis=0)
+        scale = np.std(f, axis=0) + 1e-300
+        return int(np.argmin(np.sum((dev / scale) ** 2, axis=1)))
+
+    def solve_sweep(self, sets):
+        """Every stimulus of the given parameter sets, shapes (len(sets) * S, K) and (.., D).
+
+        With at least :data:`SWEEP_MIN` stimuli, every :data:`SWEEP_STRIDE`-th stimulus in
+        ascending order (and the last) is solved first; the others start from the
+        straight-line interpolation of its port and junction voltages in the stimulus.
+        """
+        s = self.s
+        sets = np.asarray(sets)
+        base = sets[:, None] * s
+        if s < SWEEP_MIN:
+            return self.solve_cases((base + np.arange(s)).ravel())
+        stim = self.stim[sets]  # (M, S)
+        order = np.argsort(stim, axis=1, kind="stable")
+        ranks = np.unique(np.append(np.arange(0, s, SWEEP_STRIDE), s - 1))
+        coarse = order[:, ranks]  # (M, C) stimulus indices
+        v_c, vj_c = self.solve_cases((base + coarse).ravel())
+        m, c = coarse.shape
+        v_c = v_c.reshape(m, c, -1)
+        vj_c = vj_c.reshape(m, c, -1)
+        xs = np.take_along_axis(stim, order, axis=1)  # sorted stimuli
+        seg = np.minimum(np.searchsorted(ranks, np.arange(s), side="right") - 1, c - 2)  # (S,) by rank
+        lo, hi = ranks[seg], ranks[seg + 1]
+        x_lo, x_hi = xs[:, lo], xs[:, hi]
+        span = x_hi - x_lo
+        w = np.where(span > 0, (xs - x_lo) / np.where(span > 0, span, 1.0), 0.0)[:, :, None]  # (M, S, 1)
+        rows = np.arange(m)[:, None]
+        v_s = v_c[rows, seg[None, :]] * (1.0 - w) + v_c[rows, seg[None, :] + 1] * w  # by rank
+        vj_s = vj_c[rows, seg[None, :]] * (1.0 - w) + vj_c[rows, seg[None, :] + 1] * w
+        v0 = np.empty_like(v_s)
+        vj0 = np.empty_like(vj_s)
+        np.put_along_axis(v0, order[:, :, None], v_s, axis=1)
+        np.put_along_axis(vj0, order[:, :, None], vj_s, axis=1)
+        v0 = v0.reshape(m * s, -1)
+        vj0 = vj0.reshape(m * s, -1)
+        cases = (base + np.arange(s)).ravel()
+        return self.solve_cases(cases, lambda c: (v0[_local(c, sets, s)].T, vj0[_local(c, sets, s)].T))
+
+    def solve_cases(self, cases, start=None):
+        """Solve the given cases block by block; ``start(cases)`` gives warm starting rows."""
+        n = len(cases)
+        v_out = np.empty((n, self.k))
+        vj_out = np.empty((n, self.nd))
+        for lo in range(0, n, NEWTON_BLOCK):
+            blk = cases[lo:lo + NEWTON_BLOCK]
+            rows = self.rows(blk)
+            if start is not None:
+                v0, vj0 = _zero_where_undriven(rows, *start(blk))
+                v, vj, ok, it = _newton(rows, v0, vj0, max_iter=WARM_MAX_ITER)
+                self.iterations = max(self.iterations, it)
+                if not ok.all():
+                    bad = np.nonzero(~ok)[0]
+                    sub = rows.subset(bad)
+                    v2, vj2 = _initial(sub)
+                    v2, vj2, ok2, it = _newton(sub, v2, vj2)
+                    self.iterations = max(self.iterations, it)
+                    v[:, bad], vj[:, bad], ok[bad] = v2, vj2, ok2
+            else:
+                v, vj = _initial(rows)
+                v, vj, ok, it = _newton(rows, v, vj)
+                self.iterations = max(self.iterations, it)
+            if not ok.all():
+                v, vj, ok = self._fallbacks(rows, v, vj, ok)
+            if not ok.all():
+                bad = int(blk[np.nonzero(~ok)[0][0]])
+                raise SolveError(
+                    f"{self.circuit.name}: no operating point found for stimulus "
+                    f"{self.stim.reshape(-1)[bad]:g} (parameter set {bad // self.s}) after Newton, "
+                    "source stepping and gmin stepping")
+            v_out[lo:lo + NEWTON_BLOCK] = v.T
+            vj_out[lo:lo + NEWTON_BLOCK] = vj.T
+        return v_out, vj_out
+
+    def _fallbacks(self, rows: _Rows, v, vj, ok):
+        """Source stepping, then gmin stepping, on the cases Newton left unconverged."""
+        idx = np.nonzero(~ok)[0]
+        self.fallbacks["source_stepping"] += len(idx)
+        log.info("%s: source stepping on %d cases", self.circuit.name, len(idx))
+        sub = rows.subset(idx)
+        vs, vjs = np.zeros((sub.k, len(idx))), np.zeros((sub.nd, len(idx)))
+        good = np.zeros(len(idx), dtype=bool)
+        for alpha in np.linspace(0.02, 1.0, 50):
+            vs, vjs, good, _ = _newton(sub, vs, vjs, scale=alpha)
+        if not good.all():
+            sel = np.nonzero(~good)[0]
+            self.fallbacks["gmin_stepping"] += len(sel)
+            log.info("%s: gmin stepping on %d cases", self.circuit.name, len(sel))
+            sub2 = sub.subset(sel)
+            vg, vjg = np.zeros((sub2.k, len(sel))), np.zeros((sub2.nd, len(sel)))
+            g_ok = np.zeros(len(sel), dtype=bool)
+            for gm in [1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8, 1e-9, 1e-10, 1e-11, 1e-12, 0.0]:
+                vg, vjg, g_ok, _ = _newton(sub2, vg, vjg, extra_g=gm)
+            vs[:, sel], vjs[:, sel] = vg, vjg
+            good[sel] = g_ok
+        v, vj, ok = v.copy(), vj.copy(), ok.copy()
+        v[:, idx], vj[:, idx], ok[idx] = vs, vjs, good
+        return v, vj, ok
+
+    def currents(self, v, vj):
+        """Exact diode terminal currents (B, D) and the net current into each port node (B, T)."""
+        b = v.shape[0]
+        i_d = np.empty((b, self.nd))
+        j_node = np.empty((b, self.inc.shape[0]))
+        for lo in range(0, b, NEWTON_BLOCK):
+            sl = slice(lo, lo + NEWTON_BLOCK)
+            cases = np.arange(lo, min(b, lo + NEWTON_BLOCK))
+            p = cases // self.s
+            jn = self.jn.map(lambda a: a[p])
+            vjb = vj[sl]
+            i, _ = _junction(vjb, jn)
+            i = i + vjb * jn.g_p
+            i_d[sl] = i
+            i_sum = np.zeros((len(cases), self.k))
+            for d in range(self.nd):
+                i_sum[:, self.port[d]] += self.sign[d] * i[:, d]
+            # the auxiliary conductances' share, from Newton's port voltages, then twice from the
+            # port voltages the linear part itself forms from these currents: each pass shrinks
+            # their difference by G_AUX |Z| <= 1, so KCL holds at every node to rounding
+            inj = i_sum - G_AUX * v[sl]
+            drive = self.stim[p, cases - p * self.s][:, None] * self.u[p]
+            z = self.zd[p]
+            for _ in range(2):
+                inj = i_sum - G_AUX * (drive + np.einsum("bkj,bj->bk", z, inj))
+            j_node[sl] = inj @ self.inc.T
+        return i_d, j_node
+
+
+def _local(cases, sets, s):
+    """Position of global cases among the cases of the given parameter sets (in order)."""
+    p = cases // s
+    if len(sets) == 1:
+        return cases - int(sets[0]) * s
+    where = np.searchsorted(sets, p)
+    return where * s + (cases - p * s)
+
+
+def _initial(rows: _Rows, sweeps: int = 3):
+    """A starting point: each port behind its Thevenin equivalent, solved exactly.
+
+    The most forward diode of each port is solved exactly behind the port's
+    Thevenin resistance (Wright omega); with several ports, a few Gauss-Seidel
+    sweeps add the other ports' currents to each port's open-circuit voltage.
+    Returns port rows (K, n) and junction rows (D, n).
+    """
+    k, nd, n = rows.k, rows.nd, rows.n
+    z, drive, s = rows.z, rows.drive, rows.sign
+    with np.errstate(all="ignore"):
+        zself = [np.broadcast_to(-z[q][q], (n,)) for q in range(k)]  # includes the auxiliary conductance
+        gth = [1.0 / np.maximum(zs, 1e-300) - G_AUX for zs in zself]
+        ok = [g > 1e-15 for g in gth]
+        r_th = [np.where(o, 1.0 / np.where(o, g, 1.0), 1e15) for o, g in zip(ok, gth)]
+        ratio = [np.where(o, rt / np.maximum(zs, 1e-300), 1.0) for o, rt, zs in zip(ok, r_th, zself)]
+        i_port = [np.zeros(n) for _ in range(k)]
+        v_port = [np.array(d, dtype=float) for d in drive]
+        i_d = [np.zeros(n) for _ in range(nd)]
+        for _ in range(sweeps if k > 1 else 1):
+            for q in range(k):
+                coupled = drive[q]
+                for j in range(k):
+                    if j != q:
+                        coupled = coupled + z[q][j] * i_port[j]
+                v_oc = coupled * ratio[q]
+                best = np.full(n, -np.inf)
+                for d in rows.groups[q]:
+                    i = _single_diode(s[d] * v_oc, r_th[q] + rows.r_s[d], rows.i_s[d], rows.nvt[d])
+                    i = np.where(np.isfinite(i), i, 0.0)
+                    i_d[d] = i
+                    better = i > best  # the port voltage follows the most forward diode
+                    v_port[q] = np.where(better, v_oc - s[d] * r_th[q] * i, v_port[q])
+                    best = np.where(better, i, best)
+                total = np.zeros(n)
+                for d in rows.groups[q]:
+                    total = total + s[d] * i_d[d]
+                i_port[q] = total
+        vj = []
+        for d in range(nd):
+            vd = s[d] * v_port[rows.port[d]]
+            x = np.where(i_d[d] > 0, vd - rows.r_s[d] * np.maximum(i_d[d], 0.0), vd)
+            x = np.minimum(x, np.maximum(rows.vcrit[d], 1.5))
+            if rows.has_bv[d]:
+                x = np.maximum(x, -rows.bv[d])
+            vj.append(np.where(np.isfinite(x), x, 0.0))
+        v = [np.where(np.isfinite(x), x, 0.0) for x in v_port]
+    return _zero_where_undriven(rows, np.array(v).reshape(k, n), np.array(vj).reshape(nd, n))
+
+
+def _zero_where_undriven(rows: _Rows, v, vj):
+    """Start cases without drive (a zero stimulus) at exactly zero, their exact solution
+    without breakdown terms (the Wright-omega start leaves rounding residue there)."""
+    undriven = np.ones(rows.n, dtype=bool)
+    for d in rows.drive:
+        undriven &= d == 0.0
+    if undriven.any():
+        v = np.where(undriven, 0.0, v)
+        vj = np.where(undriven, 0.0, vj)
+    return v, vj
 
 
 def _small_solve(a, b):
-    """Solve a batch of small systems a x = b, a (B, K, K), b (B, K); closed form for K <= 2."""
-    k = b.shape[-1]
-    if k == 1:
-        return b / a[:, :, 0]
-    if k == 2:
-        det = a[:, 0, 0] * a[:, 1, 1] - a[:, 0, 1] * a[:, 1, 0]
-        x0 = (b[:, 0] * a[:, 1, 1] - a[:, 0, 1] * b[:, 1]) / det
-        x1 = (a[:, 0, 0] * b[:, 1] - b[:, 0] * a[:, 1, 0]) / det
-        return np.stack([x0, x1], axis=-1)
+    """Solve a batch of small systems a x = b, a (B, K, K), b (B, K)."""
     try:
         return np.linalg.solve(a, b[..., None])[..., 0]
     except np.linalg.LinAlgError:  # a singular Jacobian somewhere in the batch
         return np.einsum("bkj,bj->bk", np.linalg.pinv(a), b)
 
 
-class _Ports:
-    """The reduced problem of one chunk, flattened over cases: B = P * S."""
+def _sym_solve(a, b, k):
+    """Solve symmetric positive definite systems, one per case, by elimination over rows.
 
-    def __init__(self, circuit: Circuit, drive, z, jn: Junctions):
-        self.circuit = circuit
-        self.drive = drive  # (B, K) open-circuit port voltages
-        self.z = z  # (B, K, K) port voltage per unit port current (anode to cathode)
-        self.jn = jn  # (B, D)
-        self.port = circuit.diode_port
-        self.sign = circuit.diode_sign.astype(float)
-        self.groups = [np.nonzero(circuit.diode_port == k)[0] for k in range(circuit.n_ports)]
+    ``a[i][j]`` (j >= i) and ``b[i]`` are rows; no pivoting is needed for a symmetric
+    positive definite matrix.
+    """
+    a = [list(r) for r in a]
+    b = list(b)
+    for c in range(k):
+        piv = a[c][c]
+        # a zero pivot (a direction the step cannot see): no step along it, as a pseudo-inverse would
+        inv = np.divide(1.0, piv, out=np.zeros_like(piv), where=piv > 0.0)
+        a[c][c] = inv
+        for i in range(c + 1, k):
+            f = a[c][i] * inv
+            for j in range(i, k):
+                a[i][j] = a[i][j] - f * a[c][j]
+            b[i] = b[i] - f * b[c]
+    x = [None] * k
+    for i in range(k - 1, -1, -1):
+        acc = b[i]
+        for j in range(i + 1, k):
+            acc = acc - a[i][j] * x[j]
+        x[i] = acc * a[i][i]
+    return x
 
-    def subset(self, idx) -> "_Ports":
-        return _Ports(self.circuit, self.drive[idx], self.z[idx], self.jn.map(lambda x: x[idx]))
 
-    def currents(self, vj):
-        """Diode terminal currents (B, D) and port currents (B, K) at junction voltages."""
-        i, _ = _junction(vj, self.jn)
-        i_d = i + vj * self.jn.g_p
-        return i_d, _port_sum(self.sign * i_d, self.circuit, self.groups)
+def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
+    """Newton iteration on port voltages with the junction voltages eliminated.
 
-    def initial(self, sweeps: int = 3):
-        """A starting point: each port behind its Thevenin equivalent, solved exactly.
+    Unknowns: port voltages V (K rows) and junction voltages v_j (D rows). Equations:
+    ``V = scale * drive + Z I(V)`` and ``sign V = v_j + R_s i_d(v_j)`` per diode,
+    with ``i_d = I_s(e^{v_j/nV_t} - 1) + G_p v_j`` (+ ``extra_g v_j`` in gmin stepping).
+    Each step linearises every diode, eliminates its junction voltage into an
+    equivalent conductance at its port, solves the K x K port system, then updates
+    the junction voltages with limiting. Cases leave the loop one polishing step
+    after their step falls below tolerance. Returns V (K, n), v_j (D, n), a
+    convergence mask (n,) and the iteration count.
 
-        The most forward diode of each port is solved exactly behind the port's
-        Thevenin resistance (Wright omega); with several ports, a few Gauss-Seidel
-        sweeps add the other ports' currents to each port's open-circuit voltage.
-        """
-        jn = self.jn
-        zself = -np.diagonal(self.z, axis1=1, axis2=2)  # (B, K), includes the auxiliary conductance
-        gth = 1.0 / np.maximum(zself, 1e-300) - G_AUX
-        ok = gth > 1e-15
-        r_th = np.where(ok, 1.0 / np.where(ok, gth, 1.0), 1e15)
-        ratio = np.where(ok, r_th / np.maximum(zself, 1e-300), 1.0)
-        s = self.sign
-        k = self.drive.shape[1]
-        i_port = np.zeros_like(self.drive)
-        v_port = self.drive.copy()
-        i_d = np.zeros_like(jn.i_s)
-        for _ in range(sweeps if k > 1 else 1):
-            for q, idx in enumerate(self.groups):
-                coupled = self.drive[:, q] + sum(self.z[:, q, j] * i_port[:, j] for j in range(k) if j != q)
-                v_oc = coupled * ratio[:, q]
-                best = np.full(v_oc.shape, -np.inf)
-                for d in idx:
-                    i = _single_diode(s[d] * v_oc, r_th[:, q] + jn.r_s[:, d], jn.map(lambda a: a[:, d]))
-                    i = np.where(np.isfinite(i), i, 0.0)
-                    i_d[:, d] = i
-                    better = i > best  # the port voltage follows the most forward diode
-                    v_port[:, q] = np.where(better, v_oc - s[d] * r_th[:, q] * i, v_port[:, q])
-                    best = np.where(better, i, best)
-                i_port[:, q] = (s[idx] * i_d[:, idx]).sum(axis=1)
-        vd = s * v_port[:, self.port]
-        vj = np.where(i_d > 0, vd - jn.r_s * np.maximum(i_d, 0.0), vd)
-        vcrit = jn.nvt * np.log(jn.nvt / (np.sqrt(2.0) * jn.i_s))
-        vj = np.minimum(vj, np.maximum(vcrit, 1.5))
-        vj = np.where(np.isfinite(jn.bv), np.maximum(vj, -jn.bv), vj)
-        return np.where(np.isfinite(v_port), v_port, 0.0), np.where(np.isfinite(vj), vj, 0.0)
+    Notes
+    -----
+    One row per port or diode, so that every operation is a vector operation over
+    the cases; the rows are compacted when fewer than half of the cases remain.
+    With three or more ports the port system :math:`(1 - Z G) \\Delta V = e` is solved
+    in its symmetric form :math:`(Y + G) \\Delta V = Y e` with :math:`Y = (-Z)^{-1}`
+    (the linear part's port admittance, symmetric positive definite with the
+    auxiliary conductance), by elimination without pivoting; where ports form a loop
+    (``Z`` singular), by ``numpy.linalg.solve`` on the unsymmetric form.
+    """
+    n0 = v.shape[1]
+    k, nd = rows.k, rows.nd
+    port, sign = rows.port, rows.sign
+    v_out = np.array(v, dtype=float)
+    vj_out = np.array(vj, dtype=float)
+    ok = np.zeros(n0, dtype=bool)
+    if n0 == 0:
+        return v_out, vj_out, ok, 0
+    V = [np.array(r, dtype=float) for r in v]
+    VJ = [np.array(r, dtype=float) for r in vj]
+    idx = np.arange(n0)
+    R = rows
 
-    def newton(self, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
-        """Newton iteration on port voltages with the junction voltages eliminated.
+    def setup(R):
+        drive = R.drive if scale == 1.0 else [d * scale for d in R.drive]
+        tolv = [STEP_TOL * (1.0 + np.abs(d)) for d in drive]
+        gp = [g + extra_g for g in R.g_p]
+        return drive, tolv, gp
 
-        Unknowns: port voltages V (B, K) and junction voltages v_j (B, D). Equations:
-        ``V = scale * drive + Z I(V)`` and ``sign V = v_j + R_s i_d(v_j)`` per diode,
-        with ``i_d = I_s(e^{v_j/nV_t} - 1) + G_p v_j`` (+ ``extra_g v_j`` in gmin stepping).
-        Each step linearises every diode, eliminates its junction voltage into an
-        equivalent conductance at its port, solves the K x K port system, then updates
-        the junction voltages with limiting. Cases leave the loop one polishing step
-        after their step falls below tolerance. Returns V, v_j, a convergence mask (B,)
-        and the iteration count.
-
-        Notes
-        -----
-        Arrays are held transposed, one contiguous row per port or diode, so that every
-        operation is a long vector operation; the batch is compacted when fewer than
-        half of its cases remain.
-        """
-        circuit = self.circuit
-        b, k = v.shape
-        nd = len(circuit.diodes)
-        port = [int(x) for x in circuit.diode_port]
-        sign = [float(x) for x in circuit.diode_sign]
-        v_out, vj_out = v.copy(), vj.copy()
-        ok = np.zeros(b, dtype=bool)
-        jn = self.jn
-
-        def rows(a):
-            return np.ascontiguousarray(a.T)
-
-        idx = np.arange(b)
-        V, VJ = rows(v), rows(vj)
-        drive = rows(self.drive) * scale
-        Z = [[np.ascontiguousarray(self.z[:, i, j]) for j in range(k)] for i in range(k)]
-        i_s, nvt, r_s = rows(jn.i_s), rows(jn.nvt), rows(jn.r_s)
-        g_p = rows(jn.g_p) + extra_g
-        inv_nvt = 1.0 / nvt
-        vcrit = nvt * np.log(nvt / (np.sqrt(2.0) * i_s))
-        has_bv = bool(np.isfinite(jn.bv).any())
-        if has_bv:
-            bv, ibv = rows(np.where(np.isfinite(jn.bv), jn.bv, np.inf)), rows(jn.ibv)
-            vcr_bv = nvt * np.log(nvt / (np.sqrt(2.0) * ibv))
-        pending = np.zeros(b, dtype=bool)
-        it = 0
-        for it in range(1, max_iter + 1):
-            i_port = [-G_AUX * V[q] for q in range(k)]
-            g_port = [np.full(V.shape[1], -G_AUX) for _ in range(k)]
-            c_port = [np.zeros(V.shape[1]) for _ in range(k)]
-            rr, dens = [], []
-            for d in range(nd):
-                vjd = VJ[d]
-                x = vjd * inv_nvt[d]
+    drive, tolv, gp = setup(R)
+    pending = np.zeros(n0, dtype=bool)
+    it = 0
+    for it in range(1, max_iter + 1):
+        ip = [V[q] * (-G_AUX) for q in range(k)]
+        gq = [-G_AUX] * k
+        cq = [0.0] * k
+        rr = [None] * nd
+        dens = [None] * nd
+        for d in range(nd):
+            q = port[d]
+            vjd = VJ[d]
+            x = vjd * R.inv_nvt[d]
+            if x.max() > _EXP_MAX:
                 xe = np.minimum(x, _EXP_MAX)
-                ex = np.exp(xe)
-                i = i_s[d] * (np.expm1(xe) + ex * (x - xe))  # e^x - 1 without cancellation near 0
-                y = i_s[d] * ex * inv_nvt[d]
-                if has_bv:
-                    w = -(vjd + bv[d]) * inv_nvt[d]
-                    we = np.minimum(w, _EXP_MAX)
-                    ew = np.exp(we)
-                    i = i - ibv[d] * ew * (1.0 + np.fmax(w - we, 0.0))  # no BV: -inf - -inf -> 0
-                    y = y + ibv[d] * ew * inv_nvt[d]
-                i += g_p[d] * vjd
-                y += g_p[d]
-                den = 1.0 + r_s[d] * y
-                r = sign[d] * V[port[d]] - vjd - r_s[d] * i
-                geq = y / den
-                q = port[d]
-                i_port[q] += sign[d] * i
-                g_port[q] += geq
-                c_port[q] += sign[d] * geq * r
-                rr.append(r)
-                dens.append(den)
-            # port system: (I - Z diag(g)) dV = -(V - drive - Z i) + Z c
-            rhs = [-(V[q] - drive[q]) + sum(Z[q][j] * (i_port[j] + c_port[j]) for j in range(k)) for q in range(k)]
-            if k == 1:
-                dV = [rhs[0] / (1.0 - Z[0][0] * g_port[0])]
-            elif k == 2:
-                a00, a01 = 1.0 - Z[0][0] * g_port[0], -Z[0][1] * g_port[1]
-                a10, a11 = -Z[1][0] * g_port[0], 1.0 - Z[1][1] * g_port[1]
-                det = a00 * a11 - a01 * a10
-                dV = [(rhs[0] * a11 - a01 * rhs[1]) / det, (a00 * rhs[1] - rhs[0] * a10) / det]
+                em = np.expm1(xe)
+                ex = em + 1.0
+                i = em + ex * (x - xe)
             else:
-                jac = np.empty((V.shape[1], k, k))
+                i = np.expm1(x)  # e^x - 1 without cancellation near 0
+                ex = i + 1.0
+            y = ex * R.isv[d]
+            i *= R.i_s[d]
+            if R.has_bv[d]:
+                w = (vjd + R.bv[d]) * (-R.inv_nvt[d])
+                we = np.minimum(w, _EXP_MAX)
+                ew = np.exp(we)
+                i -= R.ibv[d] * ew * (1.0 + np.fmax(w - we, 0.0))  # no BV: -inf - -inf -> 0
+                y += ew * (R.ibv[d] * R.inv_nvt[d])
+            g = gp[d]
+            if _nonzero(g):
+                i += g * vjd
+                y += g
+            vq = V[q] if sign[d] > 0 else -V[q]
+            rs = R.r_s[d]
+            if _nonzero(rs):
+                den = rs * y
+                den += 1.0
+                geq = y / den
+                r = vq - vjd
+                r -= rs * i
+            else:
+                den = None
+                geq = y
+                r = vq - vjd
+            if sign[d] > 0:
+                ip[q] = ip[q] + i
+                cq[q] = cq[q] + geq * r
+            else:
+                ip[q] = ip[q] - i
+                cq[q] = cq[q] - geq * r
+            gq[q] = gq[q] + geq
+            rr[d] = r
+            dens[d] = den
+        ic = [ip[q] + cq[q] for q in range(k)]
+        Z = R.z
+        # port system: (I - Z diag(g)) dV = -(V - drive - Z i) + Z c
+        if k == 1:
+            dV = [(drive[0] - V[0] + Z[0][0] * ic[0]) / (1.0 - Z[0][0] * gq[0])]
+        elif k == 2:
+            rhs0 = drive[0] - V[0] + Z[0][0] * ic[0] + Z[0][1] * ic[1]
+            rhs1 = drive[1] - V[1] + Z[1][0] * ic[0] + Z[1][1] * ic[1]
+            a00, a01 = 1.0 - Z[0][0] * gq[0], -Z[0][1] * gq[1]
+            a10, a11 = -Z[1][0] * gq[0], 1.0 - Z[1][1] * gq[1]
+            det = a00 * a11 - a01 * a10
+            dV = [(rhs0 * a11 - a01 * rhs1) / det, (a00 * rhs1 - rhs0 * a10) / det]
+        else:
+            e = []
+            for q in range(k):
+                acc = drive[q] - V[q]
+                for j in range(k):
+                    acc = acc + Z[q][j] * ic[j]
+                e.append(acc)
+            Y = R.y
+            if Y is None:  # ports in a loop: the unsymmetric form, one small solve per case
+                jac = np.empty((len(e[0]), k, k))
                 for q in range(k):
                     for j in range(k):
-                        jac[:, q, j] = (q == j) - Z[q][j] * g_port[j]
-                sol = _small_solve(jac, np.stack(rhs, axis=-1))
+                        jac[:, q, j] = (q == j) - Z[q][j] * gq[j]
+                sol = _small_solve(jac, np.stack(e, axis=-1))
                 dV = [sol[:, q] for q in range(k)]
-            small = np.ones(V.shape[1], dtype=bool)
+                Y = ()
+            if len(Y):
+                b = []
+                for q in range(k):
+                    acc = Y[q][0] * e[0]
+                    for j in range(1, k):
+                        acc = acc + Y[q][j] * e[j]
+                    b.append(acc)
+                a = [[(Y[i][j] + gq[i]) if i == j else Y[i][j] for j in range(k)] for i in range(k)]
+                dV = _sym_solve(a, b, k)
+        small = None
+        for q in range(k):
+            V[q] += dV[q]
+            sq = np.abs(dV[q]) <= tolv[q] + STEP_TOL * np.abs(V[q])
+            small = sq if small is None else (small & sq)
+        for d in range(nd):
+            q = port[d]
+            step = dV[q] + rr[d] if sign[d] > 0 else rr[d] - dV[q]
+            if dens[d] is not None:
+                step /= dens[d]
+            old = VJ[d]
+            new = old + step
+            ad = np.abs(step)
+            if (ad > R.two_nvt[d]).any():
+                new = _pnjlim(new, old, R.nvt[d], R.vcrit[d])
+                if R.has_bv[d]:
+                    bvd = R.bv[d]
+                    fin = np.isfinite(bvd)
+                    bv0 = np.where(fin, bvd, 0.0)
+                    w_new = -(new + bv0)
+                    wl = _pnjlim(w_new, -(old + bv0), R.nvt[d], R.vcr_bv[d])
+                    # map back only where limiting acted: the round trip via -BV costs ulp(BV)
+                    new = np.where(fin & (wl != w_new), -(wl + bv0), new)
+                ad = np.abs(new - old)
+            sd = ad <= STEP_TOL * (1.0 + np.abs(old))
+            small = sd if small is None else (small & sd)
+            VJ[d] = new
+        finished = pending
+        pending = small | finished
+        if finished.any():
+            done = idx[finished]
+            ok[done] = True
             for q in range(k):
-                small &= np.abs(dV[q]) <= STEP_TOL * (1.0 + np.abs(V[q]) + np.abs(drive[q]))
-                V[q] += dV[q]
+                v_out[q, done] = V[q][finished]
             for d in range(nd):
-                old = VJ[d]
-                new = old + (sign[d] * dV[port[d]] + rr[d]) / dens[d]
-                new = _pnjlim(new, old, nvt[d], vcrit[d])
-                if has_bv:
-                    fin = np.isfinite(bv[d])
-                    if fin.any():
-                        bvd = np.where(fin, bv[d], 0.0)
-                        w_new = -(new + bvd)
-                        wl = _pnjlim(w_new, -(old + bvd), nvt[d], vcr_bv[d])
-                        # map back only where limiting acted: the round trip via -BV costs ulp(BV)
-                        new = np.where(fin & (wl != w_new), -(wl + bvd), new)
-                small &= np.abs(new - old) <= STEP_TOL * (1.0 + np.abs(old))
-                VJ[d] = new
-            finished = pending
-            pending = small | finished
-            if finished.any():
-                done = idx[finished]
-                ok[done] = True
-                v_out[done] = V[:, finished].T
-                vj_out[done] = VJ[:, finished].T
-            keep = ~finished
-            if not keep.any():
-                break
-            if keep.sum() < 0.5 * len(keep):  # compact the batch
-                idx, pending = idx[keep], pending[keep]
-                V, VJ, drive = V[:, keep], VJ[:, keep], drive[:, keep]
-                Z = [[z[keep] for z in zr] for zr in Z]
-                i_s, nvt, r_s, g_p, inv_nvt, vcrit = (a[:, keep] for a in (i_s, nvt, r_s, g_p, inv_nvt, vcrit))
-                if has_bv:
-                    bv, ibv, vcr_bv = bv[:, keep], ibv[:, keep], vcr_bv[:, keep]
-        rest = ~ok[idx]
-        if rest.any():
-            v_out[idx[rest]] = V[:, rest].T
-            vj_out[idx[rest]] = VJ[:, rest].T
-        ok &= np.all(np.isfinite(v_out), axis=1) & np.all(np.isfinite(vj_out), axis=1)
-        return v_out, vj_out, ok, it
-
-
-def _stamp(circuit: Circuit, n: int):
-    """Stamp matrix S (L, N*N) with G.flat = g @ S."""
-    lin = len(circuit.branches)
-    s = np.zeros((lin, n * n))
-    for j, (a, b) in enumerate(zip(circuit.lin_a, circuit.lin_b)):
-        s[j, a * n + a] += 1.0
-        s[j, b * n + b] += 1.0
-        s[j, a * n + b] -= 1.0
-        s[j, b * n + a] -= 1.0
-    return s
+                vj_out[d, done] = VJ[d][finished]
+        keep = ~finished
+        if not keep.any():
+            break
+        if keep.sum() < 0.5 * len(keep):  # compact the rows
+            idx, pending = idx[keep], pending[keep]
+            V = [r[keep] for r in V]
+            VJ = [r[keep] for r in VJ]
+            R = R.subset(keep)
+            drive, tolv, gp = setup(R)
+    rest = ~ok[idx]
+    if rest.any():
+        for q in range(k):
+            v_out[q, idx[rest]] = V[q][rest]
+        for d in range(nd):
+            vj_out[d, idx[rest]] = VJ[d][rest]
+    ok &= np.all(np.isfinite(v_out), axis=0) & np.all(np.isfinite(vj_out), axis=0)
+    return v_out, vj_out, ok, it
 
 
 def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solution:
@@ -517,6 +954,26 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
         For a singular linear part (a node with no path to the reference), a
         Newton iteration that did not converge after source and gmin stepping, or a
         batch whose results would exceed :data:`MAX_RESULT_FLOATS`.
+
+    Notes
+    -----
+    Where Newton starts, by batch:
+
+    * parameter sets that share their stimuli (Monte Carlo builds, tolerance
+      corners), at least :data:`WARM_MIN_CASES` cases: the representative set
+      (nearest the median parameters) is solved first and every case starts from
+      its port and junction voltages at the same stimulus: a 0.25 % tolerance moves
+      a conducting junction by about 0.1 mV, which Newton removes in two or three
+      steps;
+    * sweeps of at least :data:`SWEEP_MIN` stimuli: a coarse subset first, the rest
+      from its straight-line interpolation;
+    * otherwise, and for any case that a warm start leaves unconverged after
+      :data:`WARM_MAX_ITER` steps: each port's most forward diode solved exactly
+      behind the port's Thevenin equivalent (Banwell and Jayakumar, *Electronics
+      Letters* 36(4), 2000, Wright-omega form).
+
+    The solution does not depend on the start: every case is iterated to the same
+    step tolerance.
     """
     r = np.atleast_2d(np.asarray(r_branch, dtype=float))
     stim = np.atleast_2d(np.asarray(stimulus, dtype=float))
@@ -524,8 +981,8 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
     jn = junctions.map(lambda x: np.atleast_2d(np.asarray(x, dtype=float)))
     p = max(r.shape[0], stim.shape[0], jn.i_s.shape[0])
     jn = jn.map(lambda x: np.broadcast_to(x, (p, d)))
-    r = np.broadcast_to(r, (p, r.shape[1]))
-    stim = np.broadcast_to(stim, (p, stim.shape[1]))
+    r = np.ascontiguousarray(np.broadcast_to(r, (p, r.shape[1])))
+    stim = np.ascontiguousarray(np.broadcast_to(stim, (p, stim.shape[1])))
     if not np.all(np.isfinite(r)) or np.any(r <= 0):
         raise SolveError(f"{circuit.name}: a branch resistance is zero, negative or not finite")
     if not np.all(np.isfinite(stim)):
@@ -538,51 +995,107 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
             f"{circuit.name}: {p * s_count} operating points in one batch would need about "
             f"{result_floats * 8 / 1e9:.1f} GB for the results (limit {MAX_RESULT_FLOATS * 8 / 1e9:.1f} GB); "
             "lower the Monte Carlo samples (--samples) or the number of stimuli")
-    # chunk over parameter sets so that a chunk holds at most CHUNK_FLOATS floats
-    per_set = max(1, s_count * (n + len(circuit.branches) + 8 * d + 4 * k + 2 * k * k) + 2 * n * n)
-    step = max(1, CHUNK_FLOATS // per_set)
-    parts = []
-    for lo in range(0, p, step):
-        hi = min(p, lo + step)
-        parts.append(_solve_chunk(circuit, r[lo:hi], jn.map(lambda x: x[lo:hi]), stim[lo:hi]))
-    if len(parts) == 1:
-        return parts[0]
-    return Solution(
-        np.concatenate([q.v_node for q in parts]),
-        np.concatenate([q.i_branch for q in parts]),
-        np.concatenate([q.v_junction for q in parts]),
-        np.concatenate([q.i_diode for q in parts]),
-        max(q.iterations for q in parts),
-        {key: sum(q.fallbacks.get(key, 0) for q in parts) for key in ("source_stepping", "gmin_stepping")},
-    )
+    x, inc = _linear_responses(circuit, r)
+    if not k or s_count == 0:
+        return Solution(circuit, stim, x, r, np.zeros((p, s_count, inc.shape[0])), np.zeros((p, s_count, d)),
+                        np.zeros((p, s_count, d)))
+    prob = _Problem(circuit, x, inc, jn, stim, r)
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        v, vj = prob.solve()
+    vj3, nvt3 = vj.reshape(p, s_count, d), jn.nvt[:, None, :]
+    with np.errstate(invalid="ignore"):  # forward, or (for a finite BV) into breakdown
+        beyond = (vj3 > _EXP_MAX * nvt3) | (-(vj3 + jn.bv[:, None, :]) > _EXP_MAX * nvt3)
+    beyond = beyond.reshape(p * s_count, d)
+    if beyond.any():
+        case, j = (int(q[0]) for q in np.nonzero(beyond))
+        way = "conduction" if vj[case, j] > 0 else "breakdown"
+        raise SolveError(
+            f"{circuit.name}: diode {circuit.diodes[j]} would be driven {vj[case, j]:.3g} V into {way} "
+            f"at stimulus {stim.reshape(-1)[case]:g} (no resistance limits its current); give the diode model "
+            "a series_resistance or put a resistor in series with it")
+    with np.errstate(over="ignore", invalid="ignore"):
+        i_d, j_node = prob.currents(v, vj)
+    return Solution(circuit, stim, x, r, j_node.reshape(p, s_count, inc.shape[0]), vj.reshape(p, s_count, d),
+                    i_d.reshape(p, s_count, d), prob.iterations, prob.fallbacks)
 
 
 def _linear_responses(circuit: Circuit, r):
-    """Node voltages (P, N, 1 + K) for a unit stimulus and a unit current through each port."""
+    """Node voltages for a unit stimulus and for a unit current into each port node.
+
+    Returns
+    -------
+    x : ndarray, shape (P, N, 1 + T)
+        Column 0: the response to a unit stimulus; column 1 + m: to a unit current
+        into the m-th free node that a port touches.
+    inc : ndarray, shape (T, K)
+        Current into each such node per unit current through each port (-1 at
+        the port's anode side, +1 at its cathode side).
+
+    Notes
+    -----
+    The nodal conductance matrix is stamped directly onto the free nodes (all but
+    the reference and a held node) by one matrix product per chunk of parameter
+    sets, and solved by one batched ``numpy.linalg.solve``.
+    """
     p = r.shape[0]
     n, k = circuit.n_nodes, circuit.n_ports
-    big_g = ((1.0 / r) @ _stamp(circuit, n)).reshape(p, n, n)
-    for a, c in zip(circuit.port_a, circuit.port_c):
-        big_g[:, a, a] += G_AUX
-        big_g[:, c, c] += G_AUX
-        big_g[:, a, c] -= G_AUX
-        big_g[:, c, a] -= G_AUX
-    fixed = [0] + ([circuit.held] if circuit.held is not None else [])
+    held = circuit.held
+    fixed = {0} | ({held} if held is not None else set())
     free = np.array([i for i in range(n) if i not in fixed], dtype=np.intp)
-    pos = {int(node): j for j, node in enumerate(free)}
-    rhs = np.zeros((p, len(free), 1 + k))
-    if circuit.source_kind == "voltage":
-        rhs[:, :, 0] = -big_g[:, free, circuit.held]
-    elif circuit.inject in pos:
-        rhs[:, pos[circuit.inject], 0] = 1.0
-    for j, (a, c) in enumerate(zip(circuit.port_a, circuit.port_c)):
-        if int(a) in pos:
-            rhs[:, pos[int(a)], 1 + j] -= 1.0
-        if int(c) in pos:
-            rhs[:, pos[int(c)], 1 + j] += 1.0
-    x = np.zeros((p, n, 1 + k))
-    if len(free):
-        gff = big_g[:, free][:, :, free]
+    f = len(free)
+    pos = np.full(n, -1, dtype=np.intp)
+    pos[free] = np.arange(f)
+    lin = len(circuit.branches)
+    s_ff = np.zeros((lin, f * f))
+    s_h = np.zeros((lin, f))
+    a_ff = np.zeros(f * f)
+    a_h = np.zeros(f)
+
+    def stamp(sff, sh, a, b, g):
+        ia, ib = pos[a], pos[b]
+        if ia >= 0:
+            sff[ia * f + ia] += g
+        if ib >= 0:
+            sff[ib * f + ib] += g
+        if ia >= 0 and ib >= 0:
+            sff[ia * f + ib] -= g
+            sff[ib * f + ia] -= g
+        if held is not None:  # the held node at 1 V drives its neighbours: -G[free, held]
+            if b == held and ia >= 0:
+                sh[ia] += g
+            if a == held and ib >= 0:
+                sh[ib] += g
+
+    for j, (a, b) in enumerate(zip(circuit.lin_a, circuit.lin_b)):
+        stamp(s_ff[j], s_h[j], int(a), int(b), 1.0)
+    for a, c in zip(circuit.port_a, circuit.port_c):
+        stamp(a_ff, a_h, int(a), int(c), G_AUX)
+    touched = sorted({int(a) for a in circuit.port_a if pos[a] >= 0} | {int(c) for c in circuit.port_c if pos[c] >= 0})
+    t = len(touched)
+    inc = np.zeros((t, k))
+    e_nodes = np.zeros((f, t))
+    for m, node in enumerate(touched):
+        e_nodes[pos[node], m] = 1.0
+        for j, (a, c) in enumerate(zip(circuit.port_a, circuit.port_c)):
+            inc[m, j] = float(int(c) == node) - float(int(a) == node)
+    x = np.zeros((p, n, 1 + t))
+    if held is not None:
+        x[:, held, 0] = 1.0
+    if not f:
+        return x, inc
+    step = max(1, CHUNK_FLOATS // (3 * f * f + 4 * f * (1 + k) + lin))
+    for lo in range(0, p, step):
+        hi = min(p, lo + step)
+        g = 1.0 / r[lo:hi]
+        gff = (g @ s_ff + a_ff).reshape(hi - lo, f, f)
+        rhs = np.empty((hi - lo, f, 1 + t))
+        if circuit.source_kind == "voltage":
+            rhs[:, :, 0] = g @ s_h + a_h
+        else:
+            rhs[:, :, 0] = 0.0
+            if pos[circuit.inject] >= 0:
+                rhs[:, pos[circuit.inject], 0] = 1.0
+        rhs[:, :, 1:] = e_nodes
         with np.errstate(all="ignore"):
             try:
                 xf = np.linalg.solve(gff, rhs)
@@ -590,85 +1103,15 @@ def _linear_responses(circuit: Circuit, r):
                 xf = np.full_like(rhs, np.nan)
             bad = ~np.all(np.isfinite(xf), axis=(1, 2))
             if not bad.any():
-                resid = np.abs(np.einsum("pij,pjk->pik", gff, xf) - rhs).max(axis=(1, 2))
+                resid = np.abs(np.matmul(gff, xf) - rhs).max(axis=(1, 2))
                 scale = np.abs(gff).max(axis=(1, 2)) * np.abs(xf).max(axis=(1, 2)) + np.abs(rhs).max(axis=(1, 2))
                 bad = resid > 1e-6 * scale
         if bad.any():
             raise SolveError(
                 f"{circuit.name}: the network is singular (a node has no resistive path to the "
                 f"reference: {_isolated_hint(circuit)}); connect it or give the diode a leakage resistance")
-        x[:, free, :] = xf
-    if circuit.held is not None:
-        x[:, circuit.held, 0] = 1.0
-    return x
-
-
-def _solve_chunk(circuit: Circuit, r, jn: Junctions, stim) -> Solution:
-    p, s_count = stim.shape
-    k, d = circuit.n_ports, len(circuit.diodes)
-    x = _linear_responses(circuit, r)
-    iterations, fallbacks = 0, {"source_stepping": 0, "gmin_stepping": 0}
-    if k:
-        u = x[:, circuit.port_a, 0] - x[:, circuit.port_c, 0]  # (P, K)
-        zd = x[:, circuit.port_a, 1:] - x[:, circuit.port_c, 1:]  # (P, K, K)
-        b = p * s_count
-        drive = (stim[:, :, None] * u[:, None, :]).reshape(b, k)
-        z = np.broadcast_to(zd[:, None], (p, s_count, k, k)).reshape(b, k, k)
-        jn_b = jn.map(lambda a: np.broadcast_to(a[:, None, :], (p, s_count, d)).reshape(b, d))
-        ports = _Ports(circuit, drive, z, jn_b)
-        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            v, vj = ports.initial()
-            v, vj, ok, iterations = ports.newton(v, vj)
-            if not ok.all():
-                v, vj, ok, fallbacks = _fallbacks(ports, v, vj, ok)
-        if not ok.all():
-            bad = int(np.nonzero(~ok)[0][0])
-            raise SolveError(
-                f"{circuit.name}: no operating point found for stimulus {stim.reshape(-1)[bad]:g} "
-                f"(parameter set {bad // s_count}) after Newton, source stepping and gmin stepping")
-        beyond = vj > _EXP_MAX * jn_b.nvt
-        if beyond.any():
-            case, j = (int(x[0]) for x in np.nonzero(beyond))
-            raise SolveError(
-                f"{circuit.name}: diode {circuit.diodes[j]} would be driven {vj[case, j]:.3g} V into conduction "
-                f"at stimulus {stim.reshape(-1)[case]:g} (no resistance limits its current); give the diode model "
-                "a series_resistance or put a resistor in series with it")
-        i_d, i_port = ports.currents(vj)
-        i_inj = i_port - G_AUX * v  # what the linear part sees through each port
-        v_node = stim[:, :, None] * x[:, None, :, 0] + np.einsum(
-            "pnk,psk->psn", x[:, :, 1:], i_inj.reshape(p, s_count, k))
-        vj = vj.reshape(p, s_count, d)
-        i_d = i_d.reshape(p, s_count, d)
-    else:
-        vj = i_d = np.zeros((p, s_count, 0))
-        v_node = stim[:, :, None] * x[:, None, :, 0]
-    i_branch = (v_node[:, :, circuit.lin_a] - v_node[:, :, circuit.lin_b]) / r[:, None, :]
-    return Solution(v_node, i_branch, vj, i_d, iterations, fallbacks)
-
-
-def _fallbacks(ports: _Ports, v, vj, ok):
-    """Source stepping, then gmin stepping, on the cases Newton left unconverged."""
-    counts = {"source_stepping": 0, "gmin_stepping": 0}
-    idx = np.nonzero(~ok)[0]
-    counts["source_stepping"] = len(idx)
-    log.info("%s: source stepping on %d cases", ports.circuit.name, len(idx))
-    sub = ports.subset(idx)
-    vs, vjs = np.zeros_like(v[idx]), np.zeros_like(vj[idx])
-    for alpha in np.linspace(0.02, 1.0, 50):
-        vs, vjs, good, _ = sub.newton(vs, vjs, scale=alpha)
-    if not good.all():
-        sel = np.nonzero(~good)[0]
-        counts["gmin_stepping"] = len(sel)
-        log.info("%s: gmin stepping on %d cases", ports.circuit.name, len(sel))
-        sub2 = sub.subset(sel)
-        vg, vjg = np.zeros_like(vs[sel]), np.zeros_like(vjs[sel])
-        for gm in [1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8, 1e-9, 1e-10, 1e-11, 1e-12, 0.0]:
-            vg, vjg, g_ok, _ = sub2.newton(vg, vjg, extra_g=gm)
-        vs[sel], vjs[sel] = vg, vjg
-        good[sel] = g_ok
-    v, vj, ok = v.copy(), vj.copy(), ok.copy()
-    v[idx], vj[idx], ok[idx] = vs, vjs, good
-    return v, vj, ok, counts
+        x[lo:hi, free, :] = xf
+    return x, inc
 
 
 def _isolated_hint(circuit: Circuit) -> str:

@@ -164,10 +164,9 @@ def network_lines(net: NetworkSpec, notes: Mapping[str, str] | None = None) -> l
         lines.append(f"    - {text}")
     lines.append("  positions:")
     for p in net.positions:
-        lines.append(
-            f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, full_scale: {quantity(p.full_scale, p.unit)}, "
-            f"input: [{p.input[0]}, {p.input[1]}]}}"
-        )
+        fs = quantity(p.full_scale, p.unit)
+        lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, full_scale: {fs}, "
+                     f"input: [{p.input[0]}, {p.input[1]}]}}")
     return lines
 
 
@@ -190,7 +189,10 @@ def clamp_lines(clamps: Sequence[ClampRequest], notes: Sequence[str | None] = ()
         return ["clamps: []"]
     lines = ["clamps:"]
     for i, c in enumerate(clamps):
-        where = "across: movement" if isinstance(c.at, str) else f"at: {{above_movement: {quantity(float(c.at), 'ohm')}}}"
+        if isinstance(c.at, str):
+            where = "across: movement"
+        else:
+            where = f"at: {{above_movement: {quantity(float(c.at), 'ohm')}}}"
         parts = [where]
         if c.forward is not None:
             parts.append(f"forward: {c.forward}")
