@@ -121,12 +121,12 @@ def _cautions_tail(result: dict) -> str:
 
 
 def cmd_size(args) -> int:
+    if args.write_network:
+        _check_output(args.write_network, args.project)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .fsio import write_atomic
     from .size import format_sizing_table, network_yaml, size, sizing_json
 
-    if args.write_network:
-        _check_output(args.write_network, args.project)
-    spec = _load(args)
     sizing = size(spec)
     result = sizing_json(sizing)
     if args.write_network:
@@ -137,9 +137,9 @@ def cmd_size(args) -> int:
 
 
 def cmd_check(args) -> int:
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .accuracy import check_project, format_check
 
-    spec = _load(args)
     r_src = None if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
     show = _progress(args)
     try:
@@ -160,9 +160,9 @@ def _add_cautions(spec, result: dict) -> None:
 
 
 def cmd_faults(args) -> int:
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .faults import faults_project, format_faults
 
-    spec = _load(args)
     show = _progress(args)
     try:
         result = faults_project(spec, position=args.position, only_failing=args.only_failing, progress=show)
@@ -177,10 +177,10 @@ def cmd_faults(args) -> int:
 
 
 def cmd_apply(args) -> int:
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .model import ZERO_CELSIUS_K
     from .stress import apply_stimulus, format_apply
 
-    spec = _load(args)
     volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
     amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
     r_src = 0.0 if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
@@ -197,9 +197,9 @@ def cmd_apply(args) -> int:
 
 
 def cmd_dossier(args) -> int:
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .dossier import build_dossier
 
-    spec = _load(args)
     out = args.output or _default_pdf(args.project)
     _check_output(out, args.project)
     show = _progress(args)
@@ -212,9 +212,11 @@ def cmd_dossier(args) -> int:
 
 
 def cmd_protect(args) -> int:
+    if args.write:
+        _check_output(args.write, args.project)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .clamps import format_protect, protect_project, write_protected
 
-    spec = _load(args)
     share = 0.25
     if args.share is not None:
         share = _quantity(args.share, "fraction", "--share")

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import csv
 import math
+import os
 import re
 from dataclasses import dataclass, field
 
@@ -54,6 +55,8 @@ DEFAULT_XTI = 3.0
 
 #: Columns a points file may have, in the units their names give.
 COLUMNS = ("voltage_v", "current_a", "temperature_c")
+#: Largest points file accepted [bytes] (5 MB, as for a project file).
+MAX_POINTS_BYTES = 5_000_000
 
 #: Order of the internal parameter vector.
 _KEYS = (
@@ -165,8 +168,12 @@ def read_points(path) -> Points:
     """
     path = str(path)
     try:
+        size = os.stat(path).st_size
+        if size > MAX_POINTS_BYTES:
+            raise ProjectError(f"the points file is {size / 1e6:.1f} MB; a file of measured points is at most "
+                               f"{MAX_POINTS_BYTES / 1e6:g} MB: give the points of one diode", path)
         with open(path, encoding="utf-8-sig", newline="") as fh:
-            text = fh.read()
+            text = fh.read(MAX_POINTS_BYTES + 1)
     except FileNotFoundError:
         raise ProjectError("no such file; give the path of a CSV file of measured points", path) from None
     except (OSError, UnicodeDecodeError) as exc:

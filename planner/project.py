@@ -1165,6 +1165,12 @@ def _category(ctx: _Ctx, node: _Node) -> str:
         ctx.fail(e.message, node.line)
     if not v > 0:
         ctx.fail(f"faults.category voltage '{mt.group(2)}' must be above zero, e.g. 'CAT II 300 V'", node.line)
+    if v > 1000.0 * (1 + 1e-12):  # the impulse table of planner.faults ends at 1000 V
+        ctx.fail(
+            f"faults.category '{s}': measurement categories cover mains up to 1000 V line to neutral; "
+            "give 150 V, 300 V, 600 V or 1000 V",
+            node.line,
+        )
     return f"CAT {mt.group(1).upper()} {mt.group(2)}"
 
 

@@ -112,7 +112,8 @@ def test_outputs_refuse_the_input_under_other_names(how, tmp_path, monkeypatch, 
     elif how == "hardlink":
         os.link(project, other)
     before = project.read_bytes()
-    for argv in (["size", str(project), "--write-network", other], ["dossier", str(project), "-o", other]):
+    for argv in (["size", str(project), "--write-network", other], ["dossier", str(project), "-o", other],
+                 ["protect", str(project), "-o", other]):
         assert cli.main(argv) == 2
         err = capsys.readouterr().err
         assert "refusing to overwrite the input file" in err and err.count("\n") == 1
