@@ -56,11 +56,16 @@ MAX_ITER = 200
 #: Newton converges quadratically there, so the extra step takes the error from
 #: about 1e-10 V to round-off (about 1e-16 V).
 STEP_TOL = 1e-10
+#: A case whose step falls below this [V, relative], also against the size of its port
+#: voltages and drives alone, is converged at once: after a step of 1e-12 the quadratic
+#: error is far below round-off, and even a linearly converging case is within STEP_TOL.
+STEP_TINY = 1e-12
 #: Upper bound on floats held by one chunk of the linear solve (memory limit).
 CHUNK_FLOATS = 4_000_000
-#: Upper bound on floats in the results of one call (node voltages, branch and diode
-#: quantities of every case, about 0.8 GB); a larger batch is refused with a clear
-#: error instead of exhausting the memory.
+#: Upper bound on floats in the results of one call (what :class:`Solution` holds for
+#: every case, and the full node-voltage and branch-current arrays when they are asked
+#: for; about 0.8 GB); a larger batch is refused with a clear error instead of
+#: exhausting the memory.
 MAX_RESULT_FLOATS = 100_000_000
 #: Cases per block of the Newton loop: a block's rows (8192 floats, 64 kB each) stay
 #: in the processor's cache, where numpy runs several times faster per element than
@@ -269,6 +274,7 @@ class Solution:
     def v_node(self) -> np.ndarray:
         if self._v_node is None:
             x = self._x
+            _check_batch(self.circuit.name, self._stim.size, self._stim.size * x.shape[1])
             v = self._stim[:, :, None] * x[:, None, :, 0]
             for k in range(x.shape[2] - 1):
                 v = v + x[:, None, :, 1 + k] * self._j[:, :, k, None]
@@ -279,6 +285,7 @@ class Solution:
     def i_branch(self) -> np.ndarray:
         if self._i_branch is None:
             c = self.circuit
+            _check_batch(c.name, self._stim.size, self._stim.size * (c.n_nodes + len(c.branches)))
             v = self.v_node
             self._i_branch = (v[:, :, c.lin_a] - v[:, :, c.lin_b]) / self._r[:, None, :]
         return self._i_branch
@@ -377,7 +384,9 @@ def _single_diode(v_oc, r, i_s, nvt):
     -----
     .. math:: I = \frac{nV_t}{R}\,\omega\!\left(\ln\frac{I_s R}{nV_t} + \frac{V + I_s R}{nV_t}\right) - I_s
 
-    with :math:`\omega` the Wright omega function (the Lambert-W form without overflow).
+    with :math:`\omega` the Wright omega function (the Lambert-W form without overflow);
+    for :math:`|V| < 10^{-4} nV_t`, :math:`I = V I_s / (nV_t + I_s R)` (the first-order term,
+    free of the cancellation above).
 
     References
     ----------
@@ -385,7 +394,12 @@ def _single_diode(v_oc, r, i_s, nvt):
     through diode with series resistance", Electronics Letters 36(4), 291-292, 2000.
     """
     arg = np.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt
-    return (nvt / r) * wright_omega(arg) - i_s
+    exact = (nvt / r) * wright_omega(arg) - i_s
+    # near zero the difference above cancels to rounding residue; there the junction's
+    # small-signal conductance I_s / nV_t in series with R (relative error ~ V / nV_t) keeps
+    # the current proportional to V, so that a tiny stimulus gets a tiny start
+    small = np.abs(v_oc) < 1e-4 * nvt
+    return np.where(small, v_oc * i_s / (nvt + i_s * r), exact)
 
 
 # --- the reduced problem, one row per port or diode ----------------------------------------------
@@ -414,16 +428,20 @@ class _Rows:
     """The reduced equations of ``n`` cases: one row (or one float) per port, port pair or diode.
 
     ``drive[q]``: open-circuit voltage of port q; ``z[q][j]``: voltage of port q per
-    unit current out through port j; ``y``: the inverse of ``-z`` (only with three
-    or more ports, for the Newton step's symmetric form); then the junction
-    parameters per diode and their derived rows.
+    unit current out through port j; ``y``: with three or more ports, the linear
+    part's admittance between the free nodes the ports touch (``inc``: current into
+    each such node per unit current through each port), for the Newton step's
+    symmetric form; then the junction parameters per diode and their derived rows.
     """
 
-    def __init__(self, port, sign, drive, z, y, params):
+    def __init__(self, port, sign, drive, z, y, inc, params):
         self.port, self.sign = port, sign
         self.k, self.nd = len(drive), len(port)
         self.n = len(drive[0]) if drive else 0
-        self.drive, self.z, self.y = drive, z, y
+        self.drive, self.z, self.y, self.inc = drive, z, y, inc
+        t = inc.shape[0]
+        self.port_nodes = [[(m, float(inc[m, q])) for m in range(t) if inc[m, q] != 0.0] for q in range(self.k)]
+        self.node_ports = [[(q, float(inc[m, q])) for q in range(self.k) if inc[m, q] != 0.0] for m in range(t)]
         self.params = params
         self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p = (params[f] for f in _FIELDS)
         self.inv_nvt = [1.0 / v for v in self.nvt]
@@ -440,7 +458,7 @@ class _Rows:
         z = [[_take(a, idx) for a in row] for row in self.z]
         y = None if self.y is None else [[_take(a, idx) for a in row] for row in self.y]
         params = {f: [_take(a, idx) for a in v] for f, v in self.params.items()}
-        return _Rows(self.port, self.sign, [d[idx] for d in self.drive], z, y, params)
+        return _Rows(self.port, self.sign, [d[idx] for d in self.drive], z, y, self.inc, params)
 
 
 class _Problem:
@@ -451,7 +469,7 @@ class _Problem:
     per parameter set, not per case.
     """
 
-    def __init__(self, circuit: Circuit, x, inc, jn: Junctions, stim, r):
+    def __init__(self, circuit: Circuit, x, inc, touched, jn: Junctions, stim, r):
         self.circuit = circuit
         self.inc = inc
         self.stim = stim
@@ -463,13 +481,12 @@ class _Problem:
         self.u = np.ascontiguousarray(x[:, circuit.port_a, 0] - x[:, circuit.port_c, 0])  # (P, K)
         self.zd = np.ascontiguousarray((x[:, circuit.port_a, 1:] - x[:, circuit.port_c, 1:]) @ inc)  # (P, K, K)
         self.yd = None
-        if k >= 3:
-            # the symmetric form of the Newton step needs -Z invertible (no loop of ports)
-            with np.errstate(all="ignore"):
-                cond = np.linalg.cond(-self.zd)
-            if np.all(np.isfinite(cond)) and cond.max() < 1e10:
-                yd = np.linalg.inv(-self.zd)
-                self.yd = 0.5 * (yd + np.swapaxes(yd, 1, 2))  # symmetric: only the Newton step uses it
+        if k >= 3 and len(touched):
+            # admittance between the port nodes: the inverse of their (symmetric positive
+            # definite) impedance matrix; only the Newton step's direction depends on it
+            w = x[:, touched, 1:]
+            yd = np.linalg.inv(0.5 * (w + np.swapaxes(w, 1, 2)))
+            self.yd = 0.5 * (yd + np.swapaxes(yd, 1, 2))
         self.port = [int(v) for v in circuit.diode_port]
         self.sign = [float(v) for v in circuit.diode_sign]
         self.cols = {f: [_column(getattr(jn, f)[:, d]) for d in range(self.nd)] for f in _FIELDS}
@@ -483,23 +500,24 @@ class _Problem:
         k = self.k
         drive = [stim * self.u[p, q] for q in range(k)]
         z = [[self.zd[p, q, j] for j in range(k)] for q in range(k)]
-        y = None if self.yd is None else [[self.yd[p, q, j] for j in range(k)] for q in range(k)]
+        t = self.inc.shape[0]
+        y = None if self.yd is None else [[self.yd[p, m, j] for j in range(t)] for m in range(t)]
         params = {f: [_take(c, p) for c in cols] for f, cols in self.cols.items()}
-        return _Rows(self.port, self.sign, drive, z, y, params)
+        return _Rows(self.port, self.sign, drive, z, y, self.inc, params)
 
     # --- strategies ----------------------------------------------------------------------------
     def solve(self):
-        """Port and junction voltages of every case, shapes (P*S, K) and (P*S, D)."""
+        """Every case: junction voltages (P*S, D), diode currents (P*S, D) and port-node currents (P*S, T)."""
         p, s = self.p, self.s
         b = p * s
         if p > 1 and b >= WARM_MIN_CASES and np.all(self.stim == self.stim[:1]):
             # one representative parameter set first; every set starts from it
             rep = self.representative()
             v_r, vj_r = self.solve_sweep(np.array([rep]))
-            return self.solve_cases(np.arange(b), lambda c: (v_r[c % s].T, vj_r[c % s].T))
+            return self.solve_cases(np.arange(b), lambda c: (v_r[c % s].T, vj_r[c % s].T), finish=True)
         if s >= SWEEP_MIN:
-            return self.solve_sweep(np.arange(p))
-        return self.solve_cases(np.arange(b))
+            return self.solve_sweep(np.arange(p), finish=True)
+        return self.solve_cases(np.arange(b), finish=True)
 
     def representative(self) -> int:
         """The parameter set nearest the median of all of them (log resistances, log I_s, n V_t)."""
@@ -511,7 +529,7 @@ class _Problem:
         scale = np.std(f, axis=0) + 1e-300
         return int(np.argmin(np.sum((dev / scale) ** 2, axis=1)))
 
-    def solve_sweep(self, sets):
+    def solve_sweep(self, sets, finish=False):
         """Every stimulus of the given parameter sets, shapes (len(sets) * S, K) and (.., D).
 
         With at least :data:`SWEEP_MIN` stimuli, every :data:`SWEEP_STRIDE`-th stimulus in
@@ -522,7 +540,7 @@ class _Problem:
         sets = np.asarray(sets)
         base = sets[:, None] * s
         if s < SWEEP_MIN:
-            return self.solve_cases((base + np.arange(s)).ravel())
+            return self.solve_cases((base + np.arange(s)).ravel(), finish=finish)
         stim = self.stim[sets]  # (M, S)
         order = np.argsort(stim, axis=1, kind="stable")
         ranks = np.unique(np.append(np.arange(0, s, SWEEP_STRIDE), s - 1))
@@ -547,13 +565,20 @@ class _Problem:
         v0 = v0.reshape(m * s, -1)
         vj0 = vj0.reshape(m * s, -1)
         cases = (base + np.arange(s)).ravel()
-        return self.solve_cases(cases, lambda c: (v0[_local(c, sets, s)].T, vj0[_local(c, sets, s)].T))
+        return self.solve_cases(cases, lambda c: (v0[_local(c, sets, s)].T, vj0[_local(c, sets, s)].T), finish)
 
-    def solve_cases(self, cases, start=None):
-        """Solve the given cases block by block; ``start(cases)`` gives warm starting rows."""
+    def solve_cases(self, cases, start=None, finish=False):
+        """Solve the given cases block by block; ``start(cases)`` gives warm starting rows.
+
+        Returns port voltages (n, K) and junction voltages (n, D); with ``finish``,
+        junction voltages, diode currents (n, D) and port-node currents (n, T).
+        """
         n = len(cases)
         v_out = np.empty((n, self.k))
         vj_out = np.empty((n, self.nd))
+        if finish:
+            i_out = np.empty((n, self.nd))
+            j_out = np.empty((n, self.inc.shape[0]))
         for lo in range(0, n, NEWTON_BLOCK):
             blk = cases[lo:lo + NEWTON_BLOCK]
             rows = self.rows(blk)
@@ -580,8 +605,15 @@ class _Problem:
                     f"{self.circuit.name}: no operating point found for stimulus "
                     f"{self.stim.reshape(-1)[bad]:g} (parameter set {bad // self.s}) after Newton, "
                     "source stepping and gmin stepping")
-            v_out[lo:lo + NEWTON_BLOCK] = v.T
             vj_out[lo:lo + NEWTON_BLOCK] = vj.T
+            if finish:
+                i_d, j_node = self._currents(rows, v, vj)
+                i_out[lo:lo + NEWTON_BLOCK] = i_d.T
+                j_out[lo:lo + NEWTON_BLOCK] = j_node.T
+            else:
+                v_out[lo:lo + NEWTON_BLOCK] = v.T
+        if finish:
+            return vj_out, i_out, j_out
         return v_out, vj_out
 
     def _fallbacks(self, rows: _Rows, v, vj, ok):
@@ -609,34 +641,41 @@ class _Problem:
         v[:, idx], vj[:, idx], ok[idx] = vs, vjs, good
         return v, vj, ok
 
-    def currents(self, v, vj):
-        """Exact diode terminal currents (B, D) and the net current into each port node (B, T)."""
-        b = v.shape[0]
-        i_d = np.empty((b, self.nd))
-        j_node = np.empty((b, self.inc.shape[0]))
-        for lo in range(0, b, NEWTON_BLOCK):
-            sl = slice(lo, lo + NEWTON_BLOCK)
-            cases = np.arange(lo, min(b, lo + NEWTON_BLOCK))
-            p = cases // self.s
-            jn = self.jn.map(lambda a: a[p])
-            vjb = vj[sl]
-            i, _ = _junction(vjb, jn)
-            i = i + vjb * jn.g_p
-            i_d[sl] = i
-            i_sum = np.zeros((len(cases), self.k))
-            for d in range(self.nd):
-                i_sum[:, self.port[d]] += self.sign[d] * i[:, d]
-            # the auxiliary conductances' share, from Newton's port voltages, then twice from the
-            # port voltages the linear part itself forms from these currents: each pass shrinks
-            # their difference by G_AUX |Z| <= 1, so KCL holds at every node to rounding
-            inj = i_sum - G_AUX * v[sl]
-            drive = self.stim[p, cases - p * self.s][:, None] * self.u[p]
-            z = self.zd[p]
-            for _ in range(2):
-                inj = i_sum - G_AUX * (drive + np.einsum("bkj,bj->bk", z, inj))
-            j_node[sl] = inj @ self.inc.T
-        return i_d, j_node
+    def _currents(self, rows: _Rows, v, vj):
+        """Exact diode terminal currents (D, n) and the net current into each port node (T, n).
 
+        The junction law as in :func:`_junction` (with ``expm1``), plus the leakage;
+        what the linear part sees at a port is the diodes' current less the
+        auxiliary conductance's.
+        """
+        n = rows.n
+        i_d = np.empty((rows.nd, n))
+        i_port = [v[q] * (-G_AUX) for q in range(rows.k)]
+        for d in range(rows.nd):
+            vjd = vj[d]
+            x = vjd * rows.inv_nvt[d]
+            xe = np.minimum(x, _EXP_MAX)
+            em = np.expm1(xe)
+            i = em + (em + 1.0) * (x - xe)
+            i *= rows.i_s[d]
+            if rows.has_bv[d]:
+                w = (vjd + rows.bv[d]) * (-rows.inv_nvt[d])
+                we = np.minimum(w, _EXP_MAX)
+                i -= rows.ibv[d] * np.exp(we) * (1.0 + np.fmax(w - we, 0.0))  # no BV: -inf - -inf -> 0
+            if _nonzero(rows.g_p[d]):
+                i += rows.g_p[d] * vjd
+            i_d[d] = i
+            q = rows.port[d]
+            i_port[q] = i_port[q] + i if rows.sign[d] > 0 else i_port[q] - i
+        inc = self.inc
+        j_node = np.zeros((inc.shape[0], n))
+        for m in range(inc.shape[0]):
+            for q in range(rows.k):
+                if inc[m, q] > 0:
+                    j_node[m] += i_port[q]
+                elif inc[m, q] < 0:
+                    j_node[m] -= i_port[q]
+        return i_d, j_node
 
 def _local(cases, sets, s):
     """Position of global cases among the cases of the given parameter sets (in order)."""
@@ -709,12 +748,53 @@ def _zero_where_undriven(rows: _Rows, v, vj):
     return v, vj
 
 
-def _small_solve(a, b):
-    """Solve a batch of small systems a x = b, a (B, K, K), b (B, K)."""
-    try:
-        return np.linalg.solve(a, b[..., None])[..., 0]
-    except np.linalg.LinAlgError:  # a singular Jacobian somewhere in the batch
-        return np.einsum("bkj,bj->bk", np.linalg.pinv(a), b)
+def _node_step(rows: _Rows, e, gq):
+    r"""The Newton step of three or more ports from the port residuals, in node form.
+
+    Notes
+    -----
+    The port system :math:`(1 - Z G)\,\Delta V = e` (``G`` the ports' linearised
+    conductances) is singular-prone in this form when ports form a loop (stacked
+    clamp diodes: then ``Z`` itself is singular). With the ports' node incidence
+    ``A`` and the linear part's impedance ``W`` between the port nodes,
+    :math:`Z = -A^T W A`; substituting :math:`u = W A G \Delta V` gives
+
+    .. math:: (W^{-1} + A G A^T)\,u = A G e, \qquad \Delta V = e - A^T u,
+
+    whose matrix is the nodal admittance of the linear part plus the diodes'
+    conductances: symmetric positive definite, solved by elimination without
+    pivoting. The residual ``e`` is the port form's, so the solution is the same.
+    """
+    k = rows.k
+    y = rows.y
+    if not y:
+        return e
+    t = len(y)
+    ge = [gq[q] * e[q] for q in range(k)]
+    a = [[y[m][j] if j >= m else None for j in range(t)] for m in range(t)]
+    for q in range(k):
+        nodes = rows.port_nodes[q]
+        for m, _ in nodes:
+            a[m][m] = a[m][m] + gq[q]
+        if len(nodes) == 2:
+            (m1, s1), (m2, s2) = nodes
+            lo, hi = min(m1, m2), max(m1, m2)
+            a[lo][hi] = a[lo][hi] + (s1 * s2) * gq[q]
+    rhs = []
+    for m in range(t):
+        acc = None
+        for q, sq in rows.node_ports[m]:
+            term = ge[q] if sq > 0 else -ge[q]
+            acc = term if acc is None else acc + term
+        rhs.append(acc if acc is not None else np.zeros_like(e[0]))
+    u = _sym_solve(a, rhs, t)
+    dv = []
+    for q in range(k):
+        acc = e[q]
+        for m, sm in rows.port_nodes[q]:
+            acc = acc - u[m] if sm > 0 else acc + u[m]
+        dv.append(acc)
+    return dv
 
 
 def _sym_solve(a, b, k):
@@ -753,18 +833,17 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     Each step linearises every diode, eliminates its junction voltage into an
     equivalent conductance at its port, solves the K x K port system, then updates
     the junction voltages with limiting. Cases leave the loop one polishing step
-    after their step falls below tolerance. Returns V (K, n), v_j (D, n), a
+    after their largest relative step falls below :data:`STEP_TOL`, or at once
+    when it falls below :data:`STEP_TINY` (port steps relative to 1 + |V| +
+    |drive|, junction steps to 1 + |v_j|). Returns V (K, n), v_j (D, n), a
     convergence mask (n,) and the iteration count.
 
     Notes
     -----
     One row per port or diode, so that every operation is a vector operation over
     the cases; the rows are compacted when fewer than half of the cases remain.
-    With three or more ports the port system :math:`(1 - Z G) \\Delta V = e` is solved
-    in its symmetric form :math:`(Y + G) \\Delta V = Y e` with :math:`Y = (-Z)^{-1}`
-    (the linear part's port admittance, symmetric positive definite with the
-    auxiliary conductance), by elimination without pivoting; where ports form a loop
-    (``Z`` singular), by ``numpy.linalg.solve`` on the unsymmetric form.
+    With one or two ports the port system :math:`(1 - Z G) \\Delta V = e` is solved
+    in closed form; with three or more in node form (:func:`_node_step`).
     """
     n0 = v.shape[1]
     k, nd = rows.k, rows.nd
@@ -781,11 +860,11 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
 
     def setup(R):
         drive = R.drive if scale == 1.0 else [d * scale for d in R.drive]
-        tolv = [STEP_TOL * (1.0 + np.abs(d)) for d in drive]
+        abs_drive = [np.abs(d) for d in drive]
         gp = [g + extra_g for g in R.g_p]
-        return drive, tolv, gp
+        return drive, abs_drive, gp
 
-    drive, tolv, gp = setup(R)
+    drive, abs_drive, gp = setup(R)
     pending = np.zeros(n0, dtype=bool)
     it = 0
     for it in range(1, max_iter + 1):
@@ -858,29 +937,20 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
                 for j in range(k):
                     acc = acc + Z[q][j] * ic[j]
                 e.append(acc)
-            Y = R.y
-            if Y is None:  # ports in a loop: the unsymmetric form, one small solve per case
-                jac = np.empty((len(e[0]), k, k))
-                for q in range(k):
-                    for j in range(k):
-                        jac[:, q, j] = (q == j) - Z[q][j] * gq[j]
-                sol = _small_solve(jac, np.stack(e, axis=-1))
-                dV = [sol[:, q] for q in range(k)]
-                Y = ()
-            if len(Y):
-                b = []
-                for q in range(k):
-                    acc = Y[q][0] * e[0]
-                    for j in range(1, k):
-                        acc = acc + Y[q][j] * e[j]
-                    b.append(acc)
-                a = [[(Y[i][j] + gq[i]) if i == j else Y[i][j] for j in range(k)] for i in range(k)]
-                dV = _sym_solve(a, b, k)
-        small = None
+            dV = _node_step(R, e, gq)
+        # the largest step of each case, relative to its scale
+        worst = None
+        worst_nf = None  # port steps relative to |V| + |drive| alone, without the floor of 1 V
         for q in range(k):
             V[q] += dV[q]
-            sq = np.abs(dV[q]) <= tolv[q] + STEP_TOL * np.abs(V[q])
-            small = sq if small is None else (small & sq)
+            adv = np.abs(dV[q])
+            mag = np.abs(V[q])
+            mag += abs_drive[q]
+            rel = adv / mag
+            worst_nf = rel if worst_nf is None else np.maximum(worst_nf, rel, out=worst_nf)
+            mag += 1.0
+            adv /= mag
+            worst = adv if worst is None else np.maximum(worst, adv, out=worst)
         for d in range(nd):
             q = port[d]
             step = dV[q] + rr[d] if sign[d] > 0 else rr[d] - dV[q]
@@ -889,7 +959,8 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
             old = VJ[d]
             new = old + step
             ad = np.abs(step)
-            if (ad > R.two_nvt[d]).any():
+            two = R.two_nvt[d]
+            if (ad.max() > two) if not isinstance(two, np.ndarray) else (ad > two).any():
                 new = _pnjlim(new, old, R.nvt[d], R.vcrit[d])
                 if R.has_bv[d]:
                     bvd = R.bv[d]
@@ -900,11 +971,15 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
                     # map back only where limiting acted: the round trip via -BV costs ulp(BV)
                     new = np.where(fin & (wl != w_new), -(wl + bv0), new)
                 ad = np.abs(new - old)
-            sd = ad <= STEP_TOL * (1.0 + np.abs(old))
-            small = sd if small is None else (small & sd)
+            scale_j = np.abs(old)
+            scale_j += 1.0
+            ad /= scale_j
+            worst = ad if worst is None else np.maximum(worst, ad, out=worst)
             VJ[d] = new
-        finished = pending
-        pending = small | finished
+        # done: one step after a small step, or at once after a tiny one (tiny also against the
+        # solution's own size, so that a case whose whole solution is tiny still gets its polish)
+        finished = pending | ((worst <= STEP_TINY) & (worst_nf <= STEP_TINY))
+        pending = (worst <= STEP_TOL) | finished
         if finished.any():
             done = idx[finished]
             ok[done] = True
@@ -920,7 +995,7 @@ def _newton(rows: _Rows, v, vj, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
             V = [r[keep] for r in V]
             VJ = [r[keep] for r in VJ]
             R = R.subset(keep)
-            drive, tolv, gp = setup(R)
+            drive, abs_drive, gp = setup(R)
     rest = ~ok[idx]
     if rest.any():
         for q in range(k):
@@ -989,19 +1064,16 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
         raise SolveError(f"{circuit.name}: a stimulus is not finite")
     n, k = circuit.n_nodes, circuit.n_ports
     s_count = stim.shape[1]
-    result_floats = p * s_count * (n + len(circuit.branches) + 2 * d)
-    if result_floats > MAX_RESULT_FLOATS:
-        raise SolveError(
-            f"{circuit.name}: {p * s_count} operating points in one batch would need about "
-            f"{result_floats * 8 / 1e9:.1f} GB for the results (limit {MAX_RESULT_FLOATS * 8 / 1e9:.1f} GB); "
-            "lower the Monte Carlo samples (--samples) or the number of stimuli")
-    x, inc = _linear_responses(circuit, r)
+    # held per case: port currents, junction voltages, diode currents and a few columns an
+    # analysis forms; per parameter set: the linear responses
+    _check_batch(circuit.name, p * s_count, p * s_count * (k + 2 * d + 2) + p * n * (1 + k))
+    x, inc, touched = _linear_responses(circuit, r)
     if not k or s_count == 0:
         return Solution(circuit, stim, x, r, np.zeros((p, s_count, inc.shape[0])), np.zeros((p, s_count, d)),
                         np.zeros((p, s_count, d)))
-    prob = _Problem(circuit, x, inc, jn, stim, r)
+    prob = _Problem(circuit, x, inc, touched, jn, stim, r)
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        v, vj = prob.solve()
+        vj, i_d, j_node = prob.solve()
     vj3, nvt3 = vj.reshape(p, s_count, d), jn.nvt[:, None, :]
     with np.errstate(invalid="ignore"):  # forward, or (for a finite BV) into breakdown
         beyond = (vj3 > _EXP_MAX * nvt3) | (-(vj3 + jn.bv[:, None, :]) > _EXP_MAX * nvt3)
@@ -1013,10 +1085,17 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus) -> Solutio
             f"{circuit.name}: diode {circuit.diodes[j]} would be driven {vj[case, j]:.3g} V into {way} "
             f"at stimulus {stim.reshape(-1)[case]:g} (no resistance limits its current); give the diode model "
             "a series_resistance or put a resistor in series with it")
-    with np.errstate(over="ignore", invalid="ignore"):
-        i_d, j_node = prob.currents(v, vj)
     return Solution(circuit, stim, x, r, j_node.reshape(p, s_count, inc.shape[0]), vj.reshape(p, s_count, d),
                     i_d.reshape(p, s_count, d), prob.iterations, prob.fallbacks)
+
+
+def _check_batch(name: str, points: int, floats: int) -> None:
+    """Refuse a batch whose results would exceed :data:`MAX_RESULT_FLOATS` (a memory limit)."""
+    if floats > MAX_RESULT_FLOATS:
+        raise SolveError(
+            f"{name}: {points} operating points in one batch would need about {floats * 8 / 1e9:.1f} GB for "
+            f"the results (limit {MAX_RESULT_FLOATS * 8 / 1e9:.1f} GB); lower the Monte Carlo samples "
+            "(--samples) or the number of stimuli")
 
 
 def _linear_responses(circuit: Circuit, r):
@@ -1030,6 +1109,8 @@ def _linear_responses(circuit: Circuit, r):
     inc : ndarray, shape (T, K)
         Current into each such node per unit current through each port (-1 at
         the port's anode side, +1 at its cathode side).
+    touched : list of int
+        Those nodes' indices.
 
     Notes
     -----
@@ -1082,7 +1163,7 @@ def _linear_responses(circuit: Circuit, r):
     if held is not None:
         x[:, held, 0] = 1.0
     if not f:
-        return x, inc
+        return x, inc, touched
     step = max(1, CHUNK_FLOATS // (3 * f * f + 4 * f * (1 + k) + lin))
     for lo in range(0, p, step):
         hi = min(p, lo + step)
@@ -1111,7 +1192,7 @@ def _linear_responses(circuit: Circuit, r):
                 f"{circuit.name}: the network is singular (a node has no resistive path to the "
                 f"reference: {_isolated_hint(circuit)}); connect it or give the diode a leakage resistance")
         x[lo:hi, free, :] = xf
-    return x, inc
+    return x, inc, touched
 
 
 def _isolated_hint(circuit: Circuit) -> str:

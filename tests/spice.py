@@ -68,6 +68,7 @@ import re
 import shutil
 import subprocess
 import tempfile
+import time
 from typing import Mapping, Sequence
 
 import networkx as nx
@@ -75,7 +76,7 @@ import numpy as np
 
 from planner.network import UnionFind
 from planner.model import Contact, Diode, Fuse, MovementElement, Resistor, ZERO_CELSIUS_K
-from planner.solve import BOLTZMANN, CHARGE
+from planner.solve import BOLTZMANN, CHARGE, saturation_current
 
 #: The ngspice executable, or None when it is not installed.
 NGSPICE = shutil.which("ngspice")
@@ -160,7 +161,8 @@ def _sweep_lines(stimuli: np.ndarray, source: str):
 def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | None = None,
             r_source_ohm: float = 0.0, *, factors: Mapping[str, float] | None = None,
             nodes: Sequence[str] | None = None, exact_reverse: bool = True,
-            gmin: float | None = None, out_file: str = OUT_FILE) -> str:
+            gmin: float | None = None, out_file: str = OUT_FILE, options: str = OPTIONS,
+            reverse_constants: bool = False) -> str:
     """An ngspice deck of one switch state swept over the stimuli.
 
     Parameters
@@ -188,8 +190,23 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
         exact exponential (see the module notes).
     gmin : float, optional
         ngspice's gmin [S]; by default 0 when every diode has a finite R_p, else 1e-15.
+        A diode's R_p is written less gmin's share, so that the leakage stays exact
+        (some decks, e.g. two-diode stacks swept through zero, converge only with
+        gmin > 0).
     out_file : str
         The data file the deck writes.
+    options : str
+        The simulator options (:data:`OPTIONS` by default; the benchmark loosens
+        them to the tolerance it needs).
+    reverse_constants : bool
+        Write the reverse correction with numbers instead of expressions: I_s(T) by
+        the contract's law (:func:`planner.solve.saturation_current`) instead of
+        ngspice's probe diode, n V_t at the deck's temperature. ngspice evaluates
+        the correction at every iteration; with numbers it runs about twice as fast.
+        I_s(T) then differs from ngspice's own by rounding only (ngspice's law is the
+        contract's after the N/XTI scaling), and it only scales a correction of at
+        most 0.4 % of I_s. Not with :func:`run_many`'s diode-factor variants (the
+        number would not follow an ``altermod``).
 
     Returns
     -------
@@ -198,6 +215,10 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
         (the stimulus as ngspice applied it), ``movement`` (the movement current from
         its first to its second node [A]), ``input`` (current delivered into input[0]
         [A]), then ``v:<node>`` for each node voltage against input[1] [V].
+        ``* value:`` comments give each resistor's and the coil's designator,
+        instance and resistance at the deck's temperature before ``factors``, and
+        ``* diode:`` comments each diode's designator, model and I_s before
+        ``factors`` (for :func:`run_many`'s variants).
     """
     spec = engine.spec
     net = engine.net
@@ -250,6 +271,7 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
 
     lines = [f"* planner deck: state '{st.name}', {kind} stimulus, T = {t_k!r} K, r_source = {r_source_ohm!r} ohm"]
     body = []
+    values = []
     vectors = []
     movement = engine.movement
     t_ref = spec.ambient.t_ref_k
@@ -257,13 +279,15 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
         tag = re.sub(r"\W", "_", e.name)
         a, b = e.nodes
         if isinstance(e, Resistor):
-            val = e.value_ohm * (1.0 + e.tempco_per_k * dt) * factors.get(e.name, 1.0)
-            body.append(f"R{j}_{tag} {node(a)} {node(b)} {_num(val)}")
+            val = e.value_ohm * (1.0 + e.tempco_per_k * dt)
+            values.append(f"* value: {e.name} R{j}_{tag} {_num(val)}")
+            body.append(f"R{j}_{tag} {node(a)} {node(b)} {_num(val * factors.get(e.name, 1.0))}")
         elif isinstance(e, MovementElement):
             m = spec.movement
-            val = m.r_coil_ohm * (1.0 + m.tempco_per_k * dt) * factors.get(e.name, 1.0)
+            val = m.r_coil_ohm * (1.0 + m.tempco_per_k * dt)
+            values.append(f"* value: {e.name} R{j}_{tag} {_num(val)}")
             body.append(f"Vm{j}_{tag} {node(a)} m{j} DC 0")
-            body.append(f"R{j}_{tag} m{j} {node(b)} {_num(val)}")
+            body.append(f"R{j}_{tag} m{j} {node(b)} {_num(val * factors.get(e.name, 1.0))}")
             if e.name == movement.name:
                 vectors.append(("movement", f"i(Vm{j}_{tag})"))
         elif isinstance(e, Fuse):
@@ -275,19 +299,31 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
             d = spec.parts.diodes[e.model]
             t_nom = d.t_nom_k if d.t_nom_k is not None else t_ref
             i_s = d.i_s_a * factors.get(e.name, 1.0)
+            values.append(f"* diode: {e.name} dm{j} {_num(d.i_s_a)}" + (" fixed" if reverse_constants else ""))
             an, ca = node(e.anode), node(e.cathode)
             jn = an
             if d.r_s_ohm > 0.0:
                 jn = f"j{j}"
                 body.append(f"Rs{j}_{tag} {an} {jn} {_num(d.r_s_ohm)}")
             if math.isfinite(d.r_p_ohm):
-                body.append(f"Rp{j}_{tag} {jn} {ca} {_num(d.r_p_ohm)}")
+                # ngspice's gmin sits across the junction beside R_p: R_p is written so that
+                # the two together are the model's leakage conductance exactly
+                g_leak = 1.0 / d.r_p_ohm - gmin
+                if g_leak <= 0.0:
+                    raise ValueError(f"diode {e.name}: gmin {gmin!r} S exceeds its leakage conductance")
+                body.append(f"Rp{j}_{tag} {jn} {ca} {_num(1.0 / g_leak)}")
             body.append(f"D{j}_{tag} {jn} {ca} dm{j}")
             body.append(f".model dm{j} D(IS={_num(i_s)} N={_num(d.n * r_ratio)} RS=0 "
                         f"EG={_num(d.eg_ev)} XTI={_num(d.xti * r_ratio)} TNOM={_celsius(t_nom)})")
             # n V_t at the deck's temperature, in the SI constants (= N V_t of ngspice)
             nvt = f"({_num(d.n * BOLTZMANN / CHARGE)}*(temper+{_num(ZERO_CELSIUS_K)}))"
-            if exact_reverse:
+            if exact_reverse and reverse_constants:
+                nvt_t = d.n * BOLTZMANN / CHARGE * t_k
+                isat_t = float(saturation_current(i_s, d.n, d.eg_ev, d.xti, t_k, t_nom))
+                u = f"min(v({jn},{ca}),{_num(-3.0 * nvt_t)})"
+                w = f"({_num(3.0 * nvt_t / _E)}/{u})"  # negative: cubed as a product
+                body.append(f"Bc{j}_{tag} {jn} {ca} I={_num(isat_t)}*(exp({u}*{_num(1.0 / nvt_t)})+{w}*{w}*{w})")
+            elif exact_reverse:
                 body.append(f"Vp{j} p{j} 0 DC {_num(-PROBE_V)}")
                 body.append(f"Dp{j} p{j} 0 dm{j}")
                 # probe: i = csat (1 - (3 nVt/(e V))^3) + gmin V  ->  csat
@@ -340,7 +376,8 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
         distinct.setdefault(expr, []).append(name)
     lines.append("* columns: " + " ".join("=".join(v) for v in distinct.values()))
     lines.append(f"* points: {n_s}")
-    lines.append(f".options temp={_celsius(t_k)} gmin={_num(gmin)} {OPTIONS}")
+    lines += values
+    lines.append(f".options temp={_celsius(t_k)} gmin={_num(gmin)} {options}")
     lines += body
     lines.append(dc)
     lets = ["let iinput = -i(Vstim)"] if "iinput" in distinct else []
@@ -406,38 +443,105 @@ def run(deck: str, timeout: float = 120.0) -> np.ndarray:
     return _check(deck, _run_raw(deck, timeout), "")
 
 
-def run_many(decks: Sequence[str], timeout: float = 600.0) -> list[np.ndarray]:
+def run_many(decks: Sequence[str], timeout: float = 600.0, *, variants: Sequence | None = None,
+             stats: dict | None = None, partial: bool = False) -> list:
     """Run many decks in one ngspice process (``source`` each, run, write), in order.
 
-    Returns a list of arrays as :func:`run` returns them.
+    Parameters
+    ----------
+    decks : sequence of str
+    timeout : float
+        Seconds before the ngspice process is stopped.
+    variants : sequence, optional
+        One entry per deck: None (run the deck as written), or a list of variants,
+        each a mapping of factors by designator (resistors and the coil: ``alter``
+        of the deck's ``* value:`` resistance; diodes: ``altermod`` of I_s). The deck
+        is read once and run once per variant (a designator the deck does not
+        contain is ignored, as the engine ignores it).
+    stats : dict, optional
+        Receives ``seconds``: the wall time of the ngspice process.
+    partial : bool
+        Return None for a run that did not converge (fewer points than asked for)
+        instead of raising :class:`SpiceError`.
+
+    Returns
+    -------
+    list
+        Per deck: an array as :func:`run` returns it, or, with variants, a list of
+        such arrays, one per variant.
     """
+    variants = list(variants) if variants is not None else [None] * len(decks)
+    if len(variants) != len(decks):
+        raise ValueError("variants needs one entry per deck")
     with tempfile.TemporaryDirectory(prefix="planner-spice-") as tmp:
         script = ["planner batch", ".control", "set wr_singlescale", "set wr_vecnames", "option numdgt=17"]
-        for i, deck in enumerate(decks):
+        for i, (deck, var) in enumerate(zip(decks, variants)):
             body, ctrl = _split_control(deck)
             with open(os.path.join(tmp, f"deck{i}.cir"), "w") as f:
                 f.write(body)
             script.append(f"source deck{i}.cir")
-            for line in ctrl:
-                if line.startswith("wrdata "):
-                    line = line.replace(OUT_FILE, f"out{i}.data", 1)
-                script.append(line)
-            script.append("destroy all")
+            runs = [None] if var is None else [_alter_lines(deck, v) for v in var]
+            for k, alters in enumerate(runs):
+                script += alters or []
+                name = f"out{i}.data" if var is None else f"out{i}_{k}.data"
+                for line in ctrl:
+                    if line.startswith("wrdata "):
+                        line = line.replace(OUT_FILE, name, 1)
+                    script.append(line)
+                script.append("destroy all")
             script.append("remcirc")
         script += [".endc", ".end", ""]
         main = os.path.join(tmp, "main.cir")
         with open(main, "w") as f:
             f.write("\n".join(script))
+        t0 = time.perf_counter()
         proc = subprocess.run([NGSPICE or "ngspice", "-b", main], cwd=tmp, capture_output=True,
                               text=True, timeout=timeout)
+        if stats is not None:
+            stats["seconds"] = time.perf_counter() - t0
+
+        def one(name, deck, what):
+            out = os.path.join(tmp, name)
+            try:
+                if not os.path.exists(out):
+                    raise SpiceError(f"ngspice wrote nothing for {what} (exit {proc.returncode}):\n"
+                                     f"{proc.stdout[-2000:]}\n{proc.stderr[-2000:]}")
+                return _check(deck, _read(out, proc), f"{what}: ")
+            except SpiceError:
+                if partial:
+                    return None
+                raise
+
         results = []
-        for i, deck in enumerate(decks):
-            out = os.path.join(tmp, f"out{i}.data")
-            if not os.path.exists(out):
-                raise SpiceError(f"ngspice wrote nothing for deck {i} (exit {proc.returncode}):\n"
-                                 f"{proc.stdout[-2000:]}\n{proc.stderr[-2000:]}")
-            results.append(_check(deck, _read(out, proc), f"deck {i}: "))
+        for i, (deck, var) in enumerate(zip(decks, variants)):
+            if var is None:
+                results.append(one(f"out{i}.data", deck, f"deck {i}"))
+            else:
+                results.append([one(f"out{i}_{k}.data", deck, f"deck {i} variant {k}") for k in range(len(var))])
         return results
+
+
+def _alter_lines(deck: str, factors: Mapping[str, float]) -> list[str]:
+    """ngspice ``alter``/``altermod`` commands that apply factors to a deck's nominal values."""
+    values, diodes = {}, {}
+    for line in deck.splitlines():
+        if line.startswith("* value: "):
+            name, inst, val = line[len("* value: "):].split()
+            values[name] = (inst, float(val))
+        elif line.startswith("* diode: "):
+            parts = line[len("* diode: "):].split()
+            diodes[parts[0]] = (parts[1], float(parts[2]), len(parts) > 3)
+    out = []
+    for name, f in factors.items():
+        if name in values:
+            inst, val = values[name]
+            out.append(f"alter {inst} = {_num(val * float(f))}")
+        elif name in diodes:
+            model, i_s, fixed = diodes[name]
+            if fixed:
+                raise ValueError(f"diode {name}: a deck written with reverse_constants=True cannot vary I_s")
+            out.append(f"altermod {model} IS = {_num(i_s * float(f))}")
+    return out
 
 
 def _points(deck: str) -> int | None:
