@@ -80,7 +80,10 @@ SWEEP_MIN = 96
 #: Every how many (sorted) stimuli of a sweep the coarse subset takes one.
 SWEEP_STRIDE = 8
 #: Newton iterations allowed from a warm start before a case is restarted cold.
-WARM_MAX_ITER = 40
+WARM_MAX_ITER = 15
+#: Parameter sets start from a representative one only when every resistance and
+#: saturation current spans less than this factor across them.
+WARM_SPREAD = 1.5
 
 
 def thermal_voltage(t_k):
@@ -510,7 +513,7 @@ class _Problem:
         """Every case: junction voltages (P*S, D), diode currents (P*S, D) and port-node currents (P*S, T)."""
         p, s = self.p, self.s
         b = p * s
-        if p > 1 and b >= WARM_MIN_CASES and np.all(self.stim == self.stim[:1]):
+        if p > 1 and b >= WARM_MIN_CASES and np.all(self.stim == self.stim[:1]) and self.close_sets():
             # one representative parameter set first; every set starts from it
             rep = self.representative()
             v_r, vj_r = self.solve_sweep(np.array([rep]))
@@ -518,6 +521,23 @@ class _Problem:
         if s >= SWEEP_MIN:
             return self.solve_sweep(np.arange(p), finish=True)
         return self.solve_cases(np.arange(b), finish=True)
+
+    def close_sets(self) -> bool:
+        """Whether the parameter sets are close enough for one of them to start all the others.
+
+        Within a factor WARM_SPREAD in every resistance and in every saturation current,
+        and within 10 K of temperature (n V_t within 3.5 %): tolerance draws and corners
+        are, a sweep of source impedances or of the ambient over its full range is not
+        (there a warm start would cost more iterations than it saves).
+        """
+        r = self.r
+        if np.any(r.max(axis=0) > WARM_SPREAD * r.min(axis=0)):
+            return False
+        if self.nd:
+            i_s, nvt = self.jn.i_s, self.jn.nvt
+            if np.any(i_s.max(axis=0) > WARM_SPREAD * i_s.min(axis=0)) or np.any(nvt.max(axis=0) > 1.035 * nvt.min(axis=0)):
+                return False
+        return True
 
     def representative(self) -> int:
         """The parameter set nearest the median of all of them (log resistances, log I_s, n V_t)."""

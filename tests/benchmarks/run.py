@@ -22,14 +22,22 @@ One run, on one machine, with the two simulators taking turns inside each repeti
   are recorded in-process and written as decks.
 
 Both simulators use the same element equations (``tests/spice.py``: ngspice's own
-diode model with the contract's reverse law added, N and XTI matched to the SI
-constants). ngspice runs in one batch process per measurement, each circuit read once
-and re-run per build with ``alter`` (its fastest way here), tolerances tightened
-(``reltol=1e-9 abstol=1e-15 vntol=1e-12``) so that it agrees to about 1e-9; its time
-is the wall time of that process. The planner's time is in-process: the engine calls
-and the movement currents, from parameters to answers. Agreement is measured on the
-movement current of every circuit, relative to max(|I|, 1e-3 I_fs) (the zero crossing
-of a sweep divides by nothing otherwise); the script exits 1 if it is worse than 1e-6.
+diode model with the contract's reverse law added as a behavioural source, N and XTI
+matched to the SI constants, gmin of 1e-15 S taken out of each R_p). ngspice runs in
+one batch process per measurement, each circuit read once and re-run per build with
+``alter`` (its fastest way here), tolerances tightened (``reltol=1e-9 abstol=1e-15
+vntol=1e-12``) so that it agrees to about 1e-9; its time is the wall time of that
+process. On the example's two-diode stacks ngspice often does not converge with those:
+an untimed calibration run tries a few builds of every deck and falls back to tolerances
+near ngspice's defaults (``reltol=1e-6``), or leaves a deck out that fails even so; the
+check's decks run at the looser tolerances throughout (at the tight ones ngspice spends
+minutes failing). What ngspice solved how, and what it could not solve, is reported;
+what it could not solve is not in its time. The planner's time is in-process for the
+decks (the engine calls and the movement currents, from parameters to answers) and the
+whole ``planner check`` process for the check. Agreement is measured on the movement
+current of every circuit, relative to max(|I|, 1e-3 I_fs) (the zero crossing of a
+sweep divides by nothing otherwise); the script exits 1 if it is worse than 1e-6 on
+the circuits ngspice solved at its tight tolerances.
 
 Also measured: ngspice with its native diode model (no reverse correction; faster, but
 it then agrees only to about 1e-7), the scaling of the check with the builds (500,
@@ -416,8 +424,10 @@ def main(argv=None) -> int:
         summary, d = agreement(c_ours, c_theirs, c_tags, calls[0][0].spec.movement.i_fs_a)
         tight_diffs.append(d)
         check.update(summary)
+        which = "tight" if summary["circuits_tight"] else "loose"
         check.update({"ngspice_median_s": med(check["ngspice_s"]), "check_time_over_ngspice_raw": med(check["ratio"]),
-                      "max_rel_diff": summary["max_rel_diff_tight"], "median_rel_diff": summary["median_rel_diff_tight"]})
+                      "max_rel_diff": summary[f"max_rel_diff_{which}"],
+                      "median_rel_diff": summary[f"median_rel_diff_{which}"], "rel_diff_tolerances": which})
     results["check"] = check
 
     # scaling with the builds ------------------------------------------------------------------------
