@@ -294,32 +294,6 @@ class Solution:
         return self._i_branch
 
 
-def _junction(v, jn: Junctions):
-    """Junction current and its derivative.
-
-    Notes
-    -----
-    Shockley law with an exponential reverse breakdown:
-
-    .. math:: i = I_s (e^{v/nV_t} - 1) - I_{BV} e^{-(v + BV)/nV_t}
-
-    continued linearly beyond an exponent of 80 (reached only by Newton iterates).
-    """
-    x = v / jn.nvt
-    xe = np.minimum(x, _EXP_MAX)
-    ex = np.exp(xe)
-    i = jn.i_s * (np.expm1(xe) + ex * (x - xe))  # = e^x - 1 below the cap, without cancellation
-    d = jn.i_s * ex / jn.nvt
-    if np.any(np.isfinite(jn.bv)):
-        finite = np.isfinite(jn.bv)
-        y = -(v + np.where(finite, jn.bv, 0.0)) / jn.nvt  # no BV: a finite stand-in, zeroed below
-        ye = np.minimum(y, _EXP_MAX)
-        ey = np.where(finite, np.exp(ye), 0.0)
-        i = i - jn.ibv * ey * (1.0 + (y - ye))
-        d = d + jn.ibv * ey / jn.nvt
-    return i, d
-
-
 def _pnjlim(v_new, v_old, nvt, vcrit):
     """One-sided junction-voltage limiting (the classic SPICE ``pnjlim``).
 
@@ -664,9 +638,12 @@ class _Problem:
     def _currents(self, rows: _Rows, v, vj):
         """Exact diode terminal currents (D, n) and the net current into each port node (T, n).
 
-        The junction law as in :func:`_junction` (with ``expm1``), plus the leakage;
-        what the linear part sees at a port is the diodes' current less the
-        auxiliary conductance's.
+        The contract's junction law with ``expm1`` (no cancellation near zero) and
+        the exponential breakdown term, continued linearly beyond an exponent of 80
+        (reached only by Newton iterates), plus the leakage; what the linear part
+        sees at a port is the diodes' current less the auxiliary conductance's.
+
+        .. math:: i = I_s (e^{v/nV_t} - 1) - I_{BV} e^{-(v + BV)/nV_t} + G_p v
         """
         n = rows.n
         i_d = np.empty((rows.nd, n))
