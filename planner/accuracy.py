@@ -34,10 +34,8 @@ import math
 from dataclasses import dataclass
 from typing import Callable
 
-import networkx as nx
 import numpy as np
 
-from . import network as nw
 from .engine import Engine
 from .errors import SolveError, UsageError
 from .model import ZERO_CELSIUS_K, Diode, Fuse, MovementElement, Resistor, Spec
@@ -131,15 +129,11 @@ def current_carrying(engine: Engine, state) -> set:
 
     Notes
     -----
-    Add the source as an edge between the input terminals. An element can carry
-    current only when it lies on a common cycle with the source edge, that is,
-    in the same biconnected component (block) of the graph. Any other block hangs
-    from the source's block by a single cut vertex, so by Kirchhoff's current law
-    no net current enters it, and a block of passive parts without a source of its
-    own carries none. Such parts (the unused end of a multiplier chain, a shunt
-    ring switched out on the voltage ranges) cannot change the reading, so the
-    tolerance analyses leave them out. Every edge is split by a midpoint node so
-    that parallel elements are handled in a simple graph.
+    The compiled state holds only the biconnected block of the graph that contains
+    the source (see :func:`planner.network.compile_state`): any other block hangs on
+    it by a single node and, being passive, carries no current. Such parts (the
+    unused end of a multiplier chain, a shunt ring switched out on the voltage
+    ranges) cannot change the reading, so the tolerance analyses leave them out.
 
     References
     ----------
@@ -148,21 +142,8 @@ def current_carrying(engine: Engine, state) -> set:
     components, as networkx implements them).
     """
     st = engine.state(state)
-    g = nw.active_graph(engine.net, st)
-    plus, minus = st.position.input
-    h = nx.Graph()
-    for a, b, key in g.edges(keys=True):
-        mid = ("mid", key)
-        h.add_edge(a, mid)
-        h.add_edge(mid, b)
-    src = ("mid", "__source__")
-    h.add_edge(plus, src)
-    h.add_edge(src, minus)
-    for block in nx.biconnected_component_edges(h):
-        if (plus, src) in block or (src, plus) in block:
-            nodes = {x for edge in block for x in edge}
-            return {key for _, _, key in g.edges(keys=True) if ("mid", key) in nodes}
-    return set()
+    circuit = engine.circuit(st, st.position.measures, False)
+    return {br.element for br in circuit.branches} | set(circuit.diodes)
 
 
 def _error_pct(reading, full_scale):

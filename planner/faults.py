@@ -568,8 +568,6 @@ def format_faults(result: dict) -> str:
     contact style they call for, the protection curves, the accepted cases and
     the cautions.
     """
-    from .units import format_si
-
     lines = [f"Misrange survival: {result.get('title', '')}".rstrip(), ""]
     cols = result["stimuli"]
     codes = [f"S{i + 1}" for i in range(len(cols))]

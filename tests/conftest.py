@@ -7,6 +7,8 @@ for the purpose (a multiplier, a shunt, an Ayrton ring, a diode behind a resisto
 
 from __future__ import annotations
 
+import re
+
 import os
 import shutil
 from pathlib import Path
@@ -86,3 +88,25 @@ def ngspice():
         pytest.skip("ngspice is not installed (Debian package 'ngspice'); the independent check cannot run")
     return exe
 
+
+
+def bad_file_header(path) -> tuple[str, int]:
+    """The ``# expect: ...`` message and ``# line: N`` of a malformed project file in tests/bad/."""
+    first, second = path.read_bytes().split(b"\n")[:2]
+    m1 = re.fullmatch(rb"# expect: (.+)", first)
+    m2 = re.fullmatch(rb"# line: (\d+)", second)
+    assert m1 and m2, f"{path.name} must start with '# expect: ...' and '# line: N'"
+    return m1.group(1).decode("utf-8"), int(m2.group(1))
+
+
+def supernodes(spec, closed) -> dict:
+    """Nodes joined by closed zero-resistance contacts, as a node -> representative map."""
+    from planner.network import UnionFind
+
+    uf = UnionFind()
+    for e in spec.network.elements:
+        for node in e.nodes:
+            uf.find(node)
+        if isinstance(e, model.Contact) and e.name in closed and e.r_ohm == 0.0:
+            uf.union(e.a, e.b)
+    return {x: uf.find(x) for x in uf.parent}

@@ -38,6 +38,7 @@ from pathlib import Path
 
 import pytest
 
+from conftest import bad_file_header
 from planner.errors import ProjectError
 from planner.project import MAX_ELEMENTS, MAX_POSITIONS, MAX_SAMPLES, MAX_SOURCES, loads
 
@@ -82,14 +83,6 @@ def run_cli(args, cwd: Path, timeout: float = 60.0) -> Run:
                        capture_output=True, text=True, errors="replace", timeout=timeout)
     elapsed = time.perf_counter() - t0
     return Run(tuple(map(str, args)), r.returncode, r.stdout, r.stderr, elapsed, sorted(os.listdir(cwd)))
-
-
-def header(path: Path) -> tuple[str, int]:
-    first, second = path.read_bytes().split(b"\n")[:2]
-    m1 = re.fullmatch(rb"# expect: (.+)", first)
-    m2 = re.fullmatch(rb"# line: (\d+)", second)
-    assert m1 and m2, f"{path.name} must start with '# expect: ...' and '# line: N'"
-    return m1.group(1).decode("utf-8"), int(m2.group(1))
 
 
 def _jobs():
@@ -148,7 +141,7 @@ def assert_quick(run: Run, cwd: Path):
 
 def test_catalogue_is_large_and_distinct():
     files = LOADER_FILES + NETWORK_FILES
-    expects = {header(p)[0] for p in files}
+    expects = {bad_file_header(p)[0] for p in files}
     assert len(files) >= 40 and len(expects) >= 40
     assert len(NETWORK_FILES) >= 4
 
@@ -157,7 +150,7 @@ def test_catalogue_is_large_and_distinct():
 def test_bad_file_through_the_cli(job, catalogue_runs, tmp_path):
     cmd, path = job
     run = catalogue_runs[_job_id(job)]
-    expect, line = header(path)
+    expect, line = bad_file_header(path)
     assert_one_line_error(run, must_name=f"{path}:{line}:")
     assert expect in run.stderr, run.stderr
     assert_quick(run, tmp_path / "again")
@@ -169,7 +162,7 @@ def test_loader_and_validator_agree_with_the_headers():
     from planner.project import load
 
     for path in NETWORK_FILES:
-        expect, line = header(path)
+        expect, line = bad_file_header(path)
         spec = load(path)
         with pytest.raises(ProjectError) as ei:
             Engine(spec)

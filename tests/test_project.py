@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-import re
 import subprocess
 import sys
 import textwrap
@@ -12,6 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from conftest import bad_file_header
 from planner import model
 from planner.errors import ProjectError
 from planner.project import MAX_FILE_BYTES, load, loads
@@ -296,22 +296,14 @@ def test_load_from_path(tmp_path):
 # --- malformed files -------------------------------------------------------------------------
 
 
-def _header(path: Path) -> tuple[str, int]:
-    first, second = path.read_bytes().split(b"\n")[:2]
-    m1 = re.fullmatch(rb"# expect: (.+)", first)
-    m2 = re.fullmatch(rb"# line: (\d+)", second)
-    assert m1 and m2, f"{path.name} must start with '# expect: ...' and '# line: N'"
-    return m1.group(1).decode("utf-8"), int(m2.group(1))
-
-
 def test_enough_distinct_bad_files():
-    expects = {_header(p)[0] for p in BAD_FILES}
+    expects = {bad_file_header(p)[0] for p in BAD_FILES}
     assert len(BAD_FILES) >= 20 and len(expects) >= 20
 
 
 @pytest.mark.parametrize("path", BAD_FILES, ids=[p.stem for p in BAD_FILES])
 def test_bad_file(path):
-    expect, line = _header(path)
+    expect, line = bad_file_header(path)
     with pytest.raises(ProjectError) as ei:
         load(path)
     msg = ei.value.one_line()

@@ -17,7 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.special import lambertw, wrightomega
 
-from conftest import make_spec
+from conftest import make_spec, supernodes
 from planner import network as nw
 from planner.engine import Engine
 from planner.errors import SolveError
@@ -363,33 +363,13 @@ def random_networks(draw):
     return spec, kind, np.array(stimuli), r_source, t_k
 
 
-def _supernodes(spec, closed):
-    """Nodes joined by closed zero-resistance contacts, as a node -> representative map."""
-    parent = {}
-
-    def find(x):
-        parent.setdefault(x, x)
-        while parent[x] != x:
-            x = parent[x]
-        return x
-
-    for e in spec.network.elements:
-        for node in e.nodes:
-            find(node)
-        if isinstance(e, Contact) and e.name in closed and e.r_ohm == 0.0:
-            ra, rb = find(e.a), find(e.b)
-            if ra != rb:
-                parent[rb] = ra
-    return {x: find(x) for x in parent}
-
-
 @settings(max_examples=200, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(random_networks())
 def test_kirchhoff_current_law_random_networks(case):
     spec, kind, stimuli, r_source, t_k = case
     eng = Engine(spec)
     st_ = eng.state("P")
-    rep = _supernodes(spec, st_.closed)
+    rep = supernodes(spec, st_.closed)
     shorted = rep["plus"] == rep["com"]
     if kind == "voltage" and shorted and r_source == 0.0:
         with pytest.raises(SolveError):
