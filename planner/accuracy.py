@@ -31,14 +31,15 @@ class index.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 
+from .design import Design, as_design
 from .engine import Engine
 from .errors import SolveError, UsageError
-from .model import ZERO_CELSIUS_K, Diode, Fuse, MovementElement, Resistor, Spec
+from .model import ZERO_CELSIUS_K, Spec
+from .parts import Parameter
 
 #: Points of the linearity tables, fractions of full scale.
 LINEARITY_FRACTIONS = np.arange(1, 11) / 10.0
@@ -58,39 +59,6 @@ BUDGET_RULE = ("budget = worst case (largest |error| at full scale over the tole
                "ambient range); within class when budget <= class index")
 
 
-@dataclass(frozen=True)
-class Parameter:
-    """One toleranced quantity of the network.
-
-    Attributes
-    ----------
-    key : str
-        Key of :meth:`Engine.operate` ``factors`` (a designator, or ``"i_fs"``).
-    label : str
-        What people read: the designator, ``"M1 coil"`` or ``"I_fs"``.
-    kind : str
-        ``resistor``, ``coil``, ``i_fs`` or ``diode``.
-    element : str or None
-        The designator whose presence in a switch state makes it matter (None:
-        always matters).
-    tolerance : float
-        Relative half-width of the spread (fraction).
-    distribution : str
-        ``uniform`` or ``normal`` (tolerance = 3 sigma).
-    """
-
-    key: str
-    label: str
-    kind: str
-    element: str | None
-    tolerance: float
-    distribution: str = "uniform"
-
-    def extremes(self) -> tuple[float, float]:
-        """Low and high factor of the nominal value at the tolerance extremes."""
-        return (max(1.0 - self.tolerance, 1e-6), 1.0 + self.tolerance)
-
-
 def parameters(engine: Engine) -> list[Parameter]:
     """Every toleranced parameter of the engine's network, in network order.
 
@@ -108,17 +76,7 @@ def parameters(engine: Engine) -> list[Parameter]:
     """
     spec = engine.spec
     mov = spec.movement
-    out = []
-    for e in engine.net.elements:
-        if isinstance(e, Resistor) and e.tolerance > 0:
-            dist = e.distribution if e.distribution in ("uniform", "normal") else "uniform"
-            out.append(Parameter(e.name, e.name, "resistor", e.name, float(e.tolerance), dist))
-        elif isinstance(e, MovementElement) and mov.tolerance > 0:
-            out.append(Parameter(e.name, f"{e.name} coil", "coil", e.name, float(mov.tolerance)))
-        elif isinstance(e, Diode):
-            spread = spec.parts.diodes[e.model].i_s_spread
-            if spread > 0:
-                out.append(Parameter(e.name, f"{e.name} I_s", "diode", e.name, float(spread)))
+    out = [q for e in engine.net.elements for q in e.parameters(spec)]
     if mov.i_fs_tolerance > 0:
         out.append(Parameter("i_fs", "I_fs", "i_fs", None, float(mov.i_fs_tolerance)))
     return out
@@ -142,7 +100,7 @@ def current_carrying(engine: Engine, state) -> set:
     components, as networkx implements them).
     """
     st = engine.state(state)
-    circuit = engine.circuit(st, st.position.measures, False)
+    circuit = engine.circuit(st, st.position.kind.source, False)
     return {br.element for br in circuit.branches} | set(circuit.diodes)
 
 
@@ -368,16 +326,10 @@ def _check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors
     i_src = float(op.source_current_a[i_ref, -1])
     plus, minus = pos.input
     v_in = float(op.node_voltage(plus)[i_ref, -1] - op.node_voltage(minus)[i_ref, -1])
-    if pos.measures == "voltage":
-        out["input_resistance_ohm"] = fs / i_src
-        out["ohms_per_volt"] = out["input_resistance_ohm"] / fs
-        out["source_current_a"] = i_src
-    else:
-        out["burden_voltage_v"] = v_in
-        out["input_resistance_ohm"] = v_in / fs
+    out.update(pos.kind.input_figures(fs, i_src, v_in))
 
     # loading: a full-scale source with an internal resistance
-    if source_impedance_ohm is not None and pos.measures == "voltage":
+    if source_impedance_ohm is not None and pos.kind.source == "voltage":
         say(f"{pos.name}: loading")
         loaded = float(run.operate(pos.name, [fs], r_source_ohm=source_impedance_ohm).reading()[0, 0])
         out["source_impedance_ohm"] = float(source_impedance_ohm)
@@ -415,25 +367,9 @@ def _check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors
 
 
 def _parts(engine: Engine) -> list[dict]:
-    spec = engine.spec
-    out = []
-    for e in engine.net.elements:
-        if isinstance(e, Resistor):
-            out.append({"name": e.name, "kind": "resistor", "value_ohm": float(e.value_ohm),
-                        "target_ohm": float(e.target_ohm if e.target_ohm is not None else e.value_ohm),
-                        "target_given": e.target_ohm is not None, "tolerance_pct": float(e.tolerance * 100.0),
-                        "tempco_ppm_per_k": float(e.tempco_per_k * 1e6), "distribution": e.distribution})
-        elif isinstance(e, MovementElement):
-            m = spec.movement
-            out.append({"name": e.name, "kind": "movement", "value_ohm": float(m.r_coil_ohm),
-                        "target_ohm": float(m.r_coil_ohm), "target_given": False,
-                        "tolerance_pct": float(m.tolerance * 100.0), "tempco_ppm_per_k": float(m.tempco_per_k * 1e6),
-                        "full_scale_current_a": float(m.i_fs_a), "i_fs_tolerance_pct": float(m.i_fs_tolerance * 100.0)})
-        elif isinstance(e, Fuse):
-            r = float(spec.parts.fuses[e.model].r_cold_ohm)
-            out.append({"name": e.name, "kind": "fuse", "value_ohm": r, "target_ohm": r, "target_given": False,
-                        "tolerance_pct": 0.0, "tempco_ppm_per_k": 0.0})
-    return out
+    """The ``parts[]`` rows of the check: every part that has one (:meth:`planner.parts.Part.part_row`)."""
+    rows = (e.part_row(engine.spec) for e in engine.net.elements)
+    return [r for r in rows if r is not None]
 
 
 def _assert_finite(obj, where="result"):
@@ -448,15 +384,16 @@ def _assert_finite(obj, where="result"):
                          "check the network for open or shorted paths")
 
 
-def check_project(spec: Spec, *, samples: int | None = None, seed: int | None = None,
+def check_project(design: Design | Spec, *, samples: int | None = None, seed: int | None = None,
                   source_impedance_ohm: float | None = None,
                   progress: Callable[[str], None] | None = None) -> dict:
     """The accuracy proof of every switch position of a project.
 
     Parameters
     ----------
-    spec : Spec
-        A loaded project (explicit network, or sized by :mod:`planner.size`).
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one).
     samples : int, optional
         Monte Carlo builds; ``spec.analysis.samples`` by default.
     seed : int, optional
@@ -497,6 +434,8 @@ def check_project(spec: Spec, *, samples: int | None = None, seed: int | None = 
     IEC 60051-1: class index as the limit of intrinsic error in percent of the
     fiducial value, which is the upper range limit for a scale with zero at one end.
     """
+    design = as_design(design)
+    spec = design.spec
     samples = spec.analysis.samples if samples is None else samples
     seed = spec.analysis.seed if seed is None else seed
     if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) or not 2 <= samples <= MAX_SAMPLES:
@@ -510,7 +449,7 @@ def check_project(spec: Spec, *, samples: int | None = None, seed: int | None = 
                              f"not {source_impedance_ohm!r}")
     say = progress or (lambda message: None)
     say("preparing the network")
-    engine = Engine(spec)
+    engine = Engine(design)
     run = CountingEngine(engine)
     params = parameters(engine)
     mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))

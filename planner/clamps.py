@@ -63,6 +63,7 @@ import numpy as np
 
 from . import eseries
 from . import network as nw
+from .design import Design, as_design, build
 from .engine import Engine
 from .errors import ProjectError, SolveError, UsageError
 from .model import ZERO_CELSIUS_K, ClampRequest, Contact, Diode, NetworkSpec, Resistor, Spec
@@ -332,10 +333,12 @@ def clamp_diodes(net: NetworkSpec) -> list[str]:
 class _Search:
     """Everything the search needs about one project, prepared once."""
 
-    def __init__(self, spec: Spec, share, seed, max_candidates, progress):
+    def __init__(self, design: Design, share, seed, max_candidates, progress):
         from .faults import stimuli_for
         from .stress import Stimulus
 
+        spec = design.spec
+        self.design = design
         self.spec = spec
         self.say = progress or (lambda message: None)
         self.max_candidates = int(max_candidates)
@@ -361,13 +364,12 @@ class _Search:
             if spec.voltage is None and spec.current is None:
                 raise ProjectError("the project has neither a network nor voltage/current ranges to protect",
                                    spec.path)
-            self.orig_net = size(spec).network
+            self.orig_net = design.net
             self.base_sizing = size(replace(spec, clamps=()))
             base = self.base_sizing.network
         else:
-            self.orig_net = spec.network
+            self.orig_net = design.net
             base = None
-        nw.validate(spec, self.orig_net)
         self.movement = nw.movement_element(self.orig_net)
         self.orig_clamp = clamp_diodes(self.orig_net)
         if base is None:
@@ -568,7 +570,7 @@ class _Search:
 
     def topology(self, combo: Combo, **kw) -> _Topology:
         net, clamp, watch, factor = self.build(combo, **kw)
-        eng = Engine(self.spec, net, check=False)
+        eng = Engine(self.design.variant(net))
         # a grid split keeps the sum of its two parts, hence the readings without
         # clamps, those of the base network exactly
         key = None if (factor is not None or combo.site.kind != "split") else tuple(
@@ -579,7 +581,7 @@ class _Search:
         """A topology around a whole network (the project as given, a sized candidate)."""
         clamp = tuple(clamp_diodes(net))
         key = tuple((e.name, e.value_ohm) for e in net.elements if isinstance(e, Resistor))
-        return _Topology(net, Engine(self.spec, net, check=False), clamp, clamp + tuple(watch_extra), None, key)
+        return _Topology(net, Engine(self.design.variant(net)), clamp, clamp + tuple(watch_extra), None, key)
 
     def bare_readings(self, topo: _Topology) -> dict:
         """Readings at the hottest ambient with the clamp diodes taken out, per position (10,)."""
@@ -597,7 +599,7 @@ class _Search:
         return topo.bare
 
     def _readings(self, net: NetworkSpec) -> dict:
-        eng = Engine(self.spec, net, check=False)
+        eng = Engine(self.design.variant(net))
         return {p.name: eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=self.t_hot).reading()[0]
                 for p in self.positions}
 
@@ -659,7 +661,7 @@ class _Search:
             # the readings without clamps are those of the same parts, row by row
             if topo.bare_engine is None:
                 net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
-                topo.bare_engine = Engine(self.spec, net, check=False)
+                topo.bare_engine = Engine(self.design.variant(net))
             bare = {p.name: topo.bare_engine.operate(p.name, FRACTIONS * p.full_scale, temperature_k=self.t_hot,
                                                      factors=fac).reading() for p in self.positions}
         else:
@@ -1516,16 +1518,17 @@ def _final(ctx: _Search, p: _Point) -> _Point:
     return _Point(p.combo, p.r, m, bool(ctx.feasible(m)[0]), p.upper, p.lower, stage="final", clamps=clamps)
 
 
-def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_SHARE, seed: int | None = None,
+def protect_project(design: Design | Spec, *, share: float | Mapping[str, float] = DEFAULT_SHARE, seed: int | None = None,
                     max_candidates: int = MAX_CANDIDATES,
                     progress: Callable[[str], None] | None = None) -> dict:
     """Search the clamp placement that best protects the movement within an accuracy share.
 
     Parameters
     ----------
-    spec : Spec
-        A loaded project: an explicit network, or ``voltage``/``current``
-        sections the sizer builds the network from.
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one): an explicit network, or the one the sizer built from
+        the ``voltage``/``current`` sections.
     share : float or mapping of str to float
         Share of the class index the clamps may cost at the hottest ambient, for
         every position, or per position name (positions not named get
@@ -1600,7 +1603,9 @@ def protect_project(spec: Spec, *, share: float | Mapping[str, float] = DEFAULT_
         raise UsageError(f"max_candidates must be a whole number of at least 10, not {max_candidates!r}")
     if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0):
         raise UsageError(f"seed must be a whole number of at least 0, not {seed!r}")
-    ctx = _Search(spec, share if isinstance(share, Mapping) else float(share), seed, max_candidates, progress)
+    design = as_design(design)
+    spec = design.spec
+    ctx = _Search(design, share if isinstance(share, Mapping) else float(share), seed, max_candidates, progress)
     if isinstance(share, Mapping):
         unknown = [k for k in share if k not in ctx.limits]
         if unknown:
@@ -1827,13 +1832,13 @@ def _stack_of(d: dict | None) -> Stack | None:
     return None if d is None else Stack(d["model"], int(d["count"]), d.get("mode", "junction"))
 
 
-def protected_text(spec: Spec, result: dict) -> str:
+def protected_text(design: Design | Spec, result: dict) -> str:
     """The project file with the chosen clamp placement written in.
 
     Parameters
     ----------
-    spec : Spec
-        The project the search ran on (loaded from a file: its text is kept).
+    design : Design
+        The design the search ran on (its project loaded from a file: the text is kept).
     result : dict
         What :func:`protect_project` returned for it.
 
@@ -1854,6 +1859,8 @@ def protected_text(spec: Spec, result: dict) -> str:
     """
     from . import writer
 
+    design = as_design(design)
+    spec = design.spec
     if not spec.text:
         raise ProjectError("the project has no file text to extend; load it from a file (planner.project.load) first",
                            spec.path)
@@ -1861,7 +1868,7 @@ def protected_text(spec: Spec, result: dict) -> str:
     if not row:
         raise UsageError("the search found no placement that meets the requirement, so there is nothing to write; "
                          "raise the share of the class or add lower-leakage diode models")
-    ctx = _Search(spec, DEFAULT_SHARE, None, MAX_CANDIDATES, None)
+    ctx = _Search(design, DEFAULT_SHARE, None, MAX_CANDIDATES, None)
     b = result["baseline"]["across_movement"]
     where = row["site"] + (f" at {_fmt(row['split_ohm'], 'ohm', 4)} above the movement"
                            if row["site_kind"] == "split" else "")
@@ -1905,13 +1912,13 @@ def protected_text(spec: Spec, result: dict) -> str:
                                    record="# The network before the protection search (kept for the record):")
 
 
-def write_protected(spec: Spec, result: dict, out_path) -> str:
+def write_protected(design: Design | Spec, result: dict, out_path) -> str:
     """Write the project with the chosen clamp placement to a new file.
 
     Parameters
     ----------
-    spec : Spec
-        The project the search ran on, loaded from its file.
+    design : Design
+        The design the search ran on (its project loaded from a file).
     result : dict
         What :func:`protect_project` returned.
     out_path : str or path-like
@@ -1937,13 +1944,9 @@ def write_protected(spec: Spec, result: dict, out_path) -> str:
     from .fsio import write_atomic
     from .project import loads
 
-    text = protected_text(spec, result)
-    back = loads(text, str(out_path))
-    if back.network is not None:
-        nw.validate(back, back.network)
-    else:
-        from .size import size
-
-        size(back)
+    design = as_design(design)
+    spec = design.spec
+    text = protected_text(design, result)
+    build(loads(text, str(out_path)))  # sizes and checks it as any command would
     write_atomic(out_path, text, protect=[spec.path] if spec.path else [])
     return text

@@ -72,6 +72,13 @@ def _load(args):
     return load(args.project)
 
 
+def _design(spec):
+    """The command's one Design (sized where the file asks, its graph checked)."""
+    from .design import build
+
+    return build(spec)
+
+
 def _quantity(text: str, dimension: str, option: str) -> float:
     """A command-line quantity: a bare number in SI units or a number with a unit."""
     from .errors import UsageError
@@ -127,7 +134,7 @@ def cmd_size(args) -> int:
     from .fsio import write_atomic
     from .size import format_sizing_table, network_yaml, size, sizing_json
 
-    sizing = size(spec)
+    sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)
     if args.write_network:
         write_atomic(args.write_network, network_yaml(spec, sizing), protect=[args.project])
@@ -141,9 +148,10 @@ def cmd_check(args) -> int:
     from .accuracy import check_project, format_check
 
     r_src = None if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
+    design = _design(spec)
     show = _progress(args)
     try:
-        result = check_project(spec, samples=args.samples, seed=args.seed, source_impedance_ohm=r_src, progress=show)
+        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=r_src, progress=show)
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
@@ -165,7 +173,7 @@ def cmd_faults(args) -> int:
 
     show = _progress(args)
     try:
-        result = faults_project(spec, position=args.position, only_failing=args.only_failing, progress=show)
+        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=show)
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
@@ -190,7 +198,7 @@ def cmd_apply(args) -> int:
             temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC
         except ValueError:
             temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = apply_stimulus(spec, args.position, volts=volts, amps=amps, r_source_ohm=r_src,
+    result = apply_stimulus(_design(spec), args.position, volts=volts, amps=amps, r_source_ohm=r_src,
                             temperature_k=temp, waveform=args.waveform)
     _emit(args, result, format_apply(result))
     return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
@@ -202,9 +210,10 @@ def cmd_dossier(args) -> int:
 
     out = args.output or _default_pdf(args.project)
     _check_output(out, args.project)
+    design = _design(spec)
     show = _progress(args)
     try:
-        path = build_dossier(spec, out, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, date=args.date, samples=args.samples, progress=show)
     finally:
         _end_progress(show)
     print(f"wrote {path}", file=sys.stderr)
@@ -224,13 +233,14 @@ def cmd_protect(args) -> int:
             from .errors import UsageError
 
             raise UsageError(f"--share: {args.share!r} must lie between 0 and 1 (a share of the class index)")
+    design = _design(spec)
     show = _progress(args)
     try:
-        result = protect_project(spec, share=share, seed=args.seed, max_candidates=args.max_candidates, progress=show)
+        result = protect_project(design, share=share, seed=args.seed, max_candidates=args.max_candidates, progress=show)
     finally:
         _end_progress(show)
     if args.write:
-        write_protected(spec, result, args.write)
+        write_protected(design, result, args.write)
         print(f"wrote {args.write}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT

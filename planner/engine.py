@@ -1,15 +1,17 @@
-"""Operating points of a project: spec + network + solver, element by element.
+"""Operating points of a design: parts, tolerances and temperatures through the solver.
 
-:class:`Engine` is the library entry point for every analysis. It validates the
-network once, compiles each switch state once, turns the parts' values,
-tolerance draws and temperatures into the solver's branch resistances and
-junction parameters, and hands back per-element currents, voltages and powers.
+:class:`Engine` is what every analysis solves with. It takes a
+:class:`planner.design.Design` (the network already sized, checked and its states
+compiled once), turns the parts' values, tolerance draws and temperatures into
+the solver's branch resistances and junction parameters (each part says its own:
+:mod:`planner.parts`), and hands back per-element currents, voltages and powers.
 
 Examples
 --------
->>> from planner.project import load                       # doctest: +SKIP
->>> eng = Engine(load("projects/pocket_voltmeter.yaml"))     # doctest: +SKIP
->>> eng.reading("10 V", [10.0])                              # doctest: +SKIP
+>>> from planner.design import build                             # doctest: +SKIP
+>>> from planner.project import load                             # doctest: +SKIP
+>>> eng = Engine(build(load("projects/pocket_voltmeter.yaml")))  # doctest: +SKIP
+>>> eng.reading("10 V", [10.0])                                  # doctest: +SKIP
 """
 
 from __future__ import annotations
@@ -20,18 +22,9 @@ from typing import Mapping
 import numpy as np
 
 from . import network as nw
+from .design import Design
 from .errors import UsageError
-from .model import Contact, Diode, Fuse, MovementElement, Resistor, Spec
-from .solve import Junctions, Solution, saturation_current, solve, thermal_voltage
-
-
-def resolve_network(spec: Spec):
-    """The explicit network, or the one the sizer builds from ``voltage``/``current``."""
-    if spec.network is not None:
-        return spec.network
-    from .size import sized_spec
-
-    return sized_spec(spec).network
+from .solve import Junctions, Solution, solve
 
 
 @dataclass
@@ -87,7 +80,8 @@ class Operating:
 
     def reading(self) -> np.ndarray:
         """What the pointer reads on this state's position, in its unit [V] or [A]."""
-        return self.movement_multiple * self.state.position.full_scale
+        p = self.state.position
+        return p.kind.reading(self.movement_multiple, p.full_scale)
 
     @property
     def source_current_a(self) -> np.ndarray:
@@ -119,49 +113,43 @@ class Operating:
         e = self.engine.elements[name]
         a, b = e.nodes
         v = self.node_voltage(a) - self.node_voltage(b)
-        if isinstance(e, Diode):
+        if e.stamp == "junction":
             if name in self.circuit.diodes:
                 i = self.solution.i_diode[:, :, self.circuit.diodes.index(name)]
             else:
                 i = np.zeros(self.shape)
         else:
-            role = {Resistor: "resistor", MovementElement: "movement", Fuse: "fuse", Contact: "contact"}[type(e)]
-            i = self._branch_current(name, role)
+            i = self._branch_current(name, e.kind)
             if i is None:
                 i = np.zeros(self.shape)
-                if isinstance(e, Contact) and name in self.state.closed and e.r_ohm == 0.0:
+                if e.merges(self.state.closed):
                     i = np.full(self.shape, np.nan)  # an ideal closed contact: current not tracked
                 # (a closed contact with resistance that is no branch hangs in a dead part: no current)
         return ElementStress(name, e.kind, i, v, v * i)
 
     def stresses(self) -> list[ElementStress]:
-        """Every non-contact element's stress, in network order."""
-        return [self.element(e.name) for e in self.engine.net.elements if not isinstance(e, Contact)]
+        """Every rated element's stress (contacts are not rated), in network order."""
+        return [self.element(e.name) for e in self.engine.net.elements if e.rated]
 
 
 class Engine:
-    """Operating points of every switch state of a project.
+    """Operating points of every switch state of a design.
 
     Parameters
     ----------
-    spec : Spec
-        A loaded project; when it has no explicit network the sizer's is used.
-    net : NetworkSpec, optional
-        Solve this network instead.
-    check : bool
-        Run the graph-level checks of :func:`planner.network.validate` (default);
-        internal callers that build a variant of a checked network may skip them.
+    design : Design
+        The project with its network (:func:`planner.design.build`), checked and
+        with its states compiled once for every engine on it.
     """
 
-    def __init__(self, spec: Spec, net=None, *, check: bool = True):
-        self.spec = spec
-        self.net = net if net is not None else resolve_network(spec)
-        if check:
-            nw.validate(spec, self.net)
-        self.elements = {e.name: e for e in self.net.elements}
-        self.movement = nw.movement_element(self.net)
-        self._circuits = {}
-        self._states = {s.name: s for s in nw.position_states(self.net) + nw.transition_states(self.net)}
+    def __init__(self, design: Design):
+        if not isinstance(design, Design):
+            raise TypeError("Engine takes a Design: Engine(planner.design.build(spec))")
+        self.design = design
+        self.spec = design.spec
+        self.net = design.net
+        self.elements = design.elements
+        self.movement = design.movement
 
     # --- states -------------------------------------------------------------------
     @property
@@ -169,21 +157,13 @@ class Engine:
         return self.net.positions
 
     def state(self, name) -> nw.SwitchState:
-        if isinstance(name, nw.SwitchState):
-            return name
-        if name in self._states:
-            return self._states[name]
-        return nw.state(self.net, name, self.spec.path)  # raises a helpful error
+        return self.design.state(name)
 
     def transitions(self) -> list[nw.SwitchState]:
-        return nw.transition_states(self.net)
+        return self.design.transitions()
 
     def circuit(self, st: nw.SwitchState, kind: str, with_source_r: bool):
-        key = (st.name, kind, with_source_r)
-        if key not in self._circuits:
-            self._circuits[key] = nw.compile_state(self.spec, st, stimulus=kind,
-                                                   source_resistance=with_source_r, net=self.net)
-        return self._circuits[key]
+        return self.design.circuit(st, kind, with_source_r)
 
     # --- parameters -------------------------------------------------------------------
     def branch_resistances(self, circuit, temperature_k, factors: Mapping[str, np.ndarray] | None,
@@ -192,9 +172,10 @@ class Engine:
 
         Notes
         -----
-        Resistors and the coil follow :math:`R(T) = R (1 + \\alpha (T - T_{ref}))`
-        (design contract); ``factors`` multiplies the nominal value (a tolerance
-        draw). Fuses and contacts are held constant.
+        Each part gives its own value at temperature (:meth:`planner.parts.Part.resistance`):
+        resistors and the coil follow :math:`R(T) = R (1 + \\alpha (T - T_{ref}))`
+        (design contract), fuses and contacts are held constant; ``factors``
+        multiplies the nominal value of a resistor or the coil (a tolerance draw).
         """
         spec = self.spec
         t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
@@ -202,18 +183,10 @@ class Engine:
         factors = factors or {}
         cols = []
         for br in circuit.branches:
-            e = self.elements.get(br.element)
-            if br.role == "resistor":
-                val = e.value_ohm * (1.0 + e.tempco_per_k * dt)
-            elif br.role == "movement":
-                m = spec.movement
-                val = m.r_coil_ohm * (1.0 + m.tempco_per_k * dt)
-            elif br.role == "fuse":
-                val = spec.parts.fuses[e.model].r_cold_ohm + 0.0 * dt
-            elif br.role == "contact":
-                val = e.r_ohm + 0.0 * dt
-            else:  # source
+            if br.role == "source":
                 val = np.asarray(r_source_ohm, dtype=float).reshape(-1, 1) + 0.0 * dt
+            else:
+                val = self.elements[br.element].resistance(spec, dt)
             if br.role in ("resistor", "movement") and br.element in factors:
                 val = val * np.asarray(factors[br.element], dtype=float).reshape(-1, 1)
             cols.append(val)
@@ -228,14 +201,10 @@ class Engine:
         factors = factors or {}
         cols = []
         for name in circuit.diodes:
-            d = spec.parts.diodes[self.elements[name].model]
-            t_nom = d.t_nom_k if d.t_nom_k is not None else spec.ambient.t_ref_k
-            isat = saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, t, t_nom)
+            isat, *rest = self.elements[name].junction(spec, t)
             if name in factors:
                 isat = isat * np.asarray(factors[name], dtype=float).reshape(-1, 1)
-            cols.append((isat, d.n * thermal_voltage(t),
-                         np.full_like(t, np.inf if d.bv_v is None else d.bv_v), np.full_like(t, d.ibv_a),
-                         np.full_like(t, d.r_s_ohm), np.full_like(t, 1.0 / d.r_p_ohm)))
+            cols.append((isat, *rest))
         if not cols:
             z = np.zeros((t.shape[0], 0))
             return Junctions(z, z, z, z, z, z)
@@ -268,7 +237,7 @@ class Engine:
         Operating
         """
         st = self.state(state)
-        kind = kind or st.position.measures
+        kind = kind or st.position.kind.source
         if kind not in ("voltage", "current"):
             raise UsageError(f"stimulus kind must be 'voltage' or 'current', not {kind!r}")
         t = self.spec.ambient.t_ref_k if temperature_k is None else temperature_k

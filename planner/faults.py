@@ -34,9 +34,11 @@ import networkx as nx
 import numpy as np
 
 from . import network as nw
+from .design import Design, as_design
 from .engine import Engine
 from .errors import ProjectError, SolveError
-from .model import Diode, Spec
+from .model import Spec
+from .ranges.dc_current import MAINS_SOURCE_OHM, MAINS_V_RMS  # noqa: F401  (re-exported)
 from .stress import (HAZARD_DC_V, HAZARD_PEAK_V, HAZARD_RMS_V, STANDARD_CAUTIONS, Stimulus, _ratio_text, assess,
                      describe_stress, stimulus_cautions, wrap)
 
@@ -52,12 +54,6 @@ IMPULSE_TABLE_V = {
 #: Test source impedance of the impulse [ohm] by category (secondary source, verify).
 IMPULSE_SOURCE_OHM = {"II": 12.0, "III": 2.0, "IV": 2.0}
 _CATS = ("II", "III", "IV")
-
-#: Built-in "voltage on a current range" stimulus when no maximum input is declared:
-#: a wall outlet, 230 V rms, 0.5 ohm (common practice for a European outlet's
-#: loop impedance; an assumption of this planner).
-MAINS_V_RMS = 230.0
-MAINS_SOURCE_OHM = 0.5
 
 #: Points of each protection-curve sweep.
 CURVE_POINTS = 201
@@ -158,18 +154,16 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     lower, higher = _same_kind_neighbours(net, position)
     unit = position.unit
     if higher:
-        out.append(Stimulus("range up", position.measures, higher[0],
+        out.append(Stimulus("range up", position.kind.source, higher[0],
                             detail=f"{format_si(higher[0], unit, 4)}, full scale of '{higher[1]}'"))
     if lower:
-        out.append(Stimulus("range down", position.measures, lower[0],
+        out.append(Stimulus("range down", position.kind.source, lower[0],
                             detail=f"{format_si(lower[0], unit, 4)}, full scale of '{lower[1]}'"))
     if f.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
         out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
                             detail="declared maximum input, reverse polarity"))
-    elif position.measures == "current":
-        out.append(Stimulus("mains on A range", "voltage", MAINS_V_RMS, "sine", MAINS_SOURCE_OHM,
-                            detail="wall outlet on a current range (no maximum input declared)"))
+    out += position.kind.misrange(position, f)
     if f.category:
         v, r, label = category_impulse(f.category)
         out.append(Stimulus(f"{label} impulse", "voltage", v, "impulse", r,
@@ -206,7 +200,7 @@ def cautions_for(spec: Spec) -> list[str]:
     out = []
     ranges = set()
     if spec.network is not None:
-        ranges |= {(p.name, p.full_scale) for p in spec.network.positions if p.measures == "voltage"}
+        ranges |= {(p.name, p.full_scale) for p in spec.network.positions if p.kind.source == "voltage"}
     if spec.voltage is not None:
         ranges |= {(format_si(v, "V", 4), v) for v in spec.voltage.full_scales}
     hot = sorted({v for _, v in ranges if v > HAZARD_DC_V})
@@ -250,7 +244,7 @@ def _all_cautions(spec, net, positions) -> list[str]:
 
 def _without_diodes(net):
     """The network with every diode removed, and any element left dangling by it."""
-    elems = [e for e in net.elements if not isinstance(e, Diode)]
+    elems = [e for e in net.elements if not e.clamp]
     terminals = {n for p in net.positions for n in p.input}
     while True:
         g = nx.MultiGraph()
@@ -289,7 +283,7 @@ def protection_curve(engine: Engine, bare: Engine | None, position, *, span=None
     """
     spec = engine.spec
     if span is None:
-        if position.measures == "voltage" and spec.faults.max_input_v is not None:
+        if position.kind.source == "voltage" and spec.faults.max_input_v is not None:
             span = spec.faults.max_input_v
         else:
             span = 10.0 * position.full_scale
@@ -346,7 +340,7 @@ def transition_states(engine: Engine) -> list[nw.SwitchState]:
 
 
 def _transition_stimuli(spec, p) -> list[Stimulus]:
-    out = [Stimulus("full scale", p.measures, p.full_scale, detail="full scale of the position being left")]
+    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left")]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
     return out
@@ -380,13 +374,15 @@ def _worst_ratio(case: dict) -> float:
     return max(r) if r else 0.0
 
 
-def faults_project(spec: Spec, *, position: str | None = None, only_failing: bool = False, progress=None,
+def faults_project(design: Design | Spec, *, position: str | None = None, only_failing: bool = False, progress=None,
                    engine: Engine | None = None) -> dict:
     """The misrange matrix, protection curves and switch transitions of a project.
 
     Parameters
     ----------
-    spec : Spec
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one).
     position : str, optional
         Only this position (and the transitions that leave or reach it).
     only_failing : bool
@@ -395,7 +391,7 @@ def faults_project(spec: Spec, *, position: str | None = None, only_failing: boo
     progress : callable, optional
         Called as ``progress(done, total, label)`` after each position and state.
     engine : Engine, optional
-        A ready engine of ``spec``.
+        A ready engine on ``design``.
 
     Returns
     -------
@@ -419,15 +415,17 @@ def faults_project(spec: Spec, *, position: str | None = None, only_failing: boo
     All stimuli of one kind on a position are solved in one batched call of
     :meth:`Engine.operate` (see :func:`planner.stress.solve_waveforms`).
     """
-    engine = engine or Engine(spec)
+    design = engine.design if engine is not None else as_design(design)
+    spec = design.spec
+    engine = engine or Engine(design)
     net = engine.net
     positions = list(net.positions)
     if position is not None:
         positions = [engine.state(position).position]
     src_names = [s.name for s in spec.faults.sources]
     rank = {n: i for i, n in enumerate(src_names + list(BUILT_IN_ORDER))}
-    has_diodes = any(isinstance(e, Diode) for e in net.elements)
-    bare = Engine(spec, net=_without_diodes(net)) if has_diodes else None
+    has_clamps = any(e.clamp for e in net.elements)
+    bare = Engine(design.variant(_without_diodes(net), validate=True)) if has_clamps else None
 
     accept = {(a.position.strip(), a.stimulus.strip()): a for a in spec.faults.accept}
     used = set()

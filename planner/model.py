@@ -17,6 +17,23 @@ import math
 from dataclasses import dataclass, field
 from typing import Mapping
 
+from . import ranges
+from .parts import (  # noqa: F401  (the element kinds, re-exported for callers of planner.model)
+    KINDS,
+    Contact,
+    Diode,
+    DiodeModel,
+    Fuse,
+    FuseModel,
+    MovementElement,
+    Part,
+    Resistor,
+    ResistorParts,
+)
+
+#: Any network element (see :mod:`planner.parts`).
+Element = Part
+
 #: Temperature coefficient of resistance of annealed copper at 20 degC [1/K].
 #: IEC 60028 (International Annealed Copper Standard): alpha_20 = 0.00393 per K.
 COPPER_TEMPCO_PER_K = 3.93e-3
@@ -98,257 +115,12 @@ class Ambient:
 
 
 @dataclass(frozen=True)
-class ResistorParts:
-    """What the project's resistors are like when an element does not say.
-
-    Attributes
-    ----------
-    series : str
-        IEC 60063 series the sizer picks from (``E6`` ... ``E192``).
-    tolerance : float
-        Tolerance (fraction).
-    tempco_per_k : float
-        Temperature coefficient [1/K].
-    power_w : float
-        Power rating [W].
-    max_voltage_v : float
-        Limiting element voltage [V].
-    distribution : str
-        ``uniform`` or ``normal`` (tolerance = 3 sigma) for Monte Carlo.
-    power_ratings_w : tuple of float
-        Power ratings the sizer may step up to, ascending [W].
-    max_voltages_v : tuple of float
-        Limiting element voltage belonging to each power rating [V].
-    pulse_energy_j : float or None
-        Single-pulse energy [J] a part of the default rating (``power_w``,
-        ``max_voltage_v``) survives for any pulse up to 5 s; None for the
-        conservative rule of :func:`planner.stress.resistor_pulse_limit_j`.
-    pulse_energies_j : tuple of (float or None)
-        The same for each power rating of ``power_ratings_w`` (empty, or one
-        entry per rating; None where the rating gives none).
-    """
-
-    series: str = "E96"
-    tolerance: float = 0.01
-    tempco_per_k: float = 100e-6
-    power_w: float = 0.25
-    max_voltage_v: float = 250.0
-    distribution: str = "uniform"
-    power_ratings_w: tuple[float, ...] = ()
-    max_voltages_v: tuple[float, ...] = ()
-    pulse_energy_j: float | None = None
-    pulse_energies_j: tuple[float | None, ...] = ()
-
-
-@dataclass(frozen=True)
-class DiodeModel:
-    """Shockley junction with series and leakage resistance.
-
-    Attributes
-    ----------
-    name : str
-        Model name used by diode elements.
-    i_s_a : float
-        Saturation current at ``t_nom_k`` [A].
-    n : float
-        Emission coefficient.
-    r_s_ohm : float
-        Series resistance [ohm] (0 for none).
-    r_p_ohm : float
-        Leakage resistance across the junction [ohm] (``inf`` for none).
-    eg_ev : float
-        Band gap for the temperature law [eV].
-    xti : float
-        Saturation-current temperature exponent.
-    t_nom_k : float or None
-        Temperature at which the parameters hold [K]; None means the project's
-        reference temperature.
-    bv_v : float or None
-        Reverse breakdown voltage [V] (zener, TVS); None for none.
-    ibv_a : float
-        Current at the breakdown voltage [A].
-    max_current_a : float
-        Maximum average forward current [A].
-    surge_current_a : float
-        Non-repetitive surge current [A].
-    max_power_w : float
-        Maximum dissipation [W].
-    i_s_spread : float
-        Relative spread of ``i_s_a`` between parts (fraction; 0.5 is +-50 %).
-    i2t_a2s : float or None
-        Non-repetitive I^2 t for pulses shorter than one half-cycle of the surge
-        test [A^2 s] ("I^2 t for fusing"); None to derive it from
-        ``surge_current_a`` (see :func:`planner.stress.diode_i2t_a2s`).
-    """
-
-    name: str
-    i_s_a: float
-    n: float = 1.0
-    r_s_ohm: float = 0.0
-    r_p_ohm: float = math.inf
-    eg_ev: float = 1.11
-    xti: float = 3.0
-    t_nom_k: float | None = None
-    bv_v: float | None = None
-    ibv_a: float = 1e-3
-    max_current_a: float = math.inf
-    surge_current_a: float = math.inf
-    max_power_w: float = math.inf
-    i_s_spread: float = 0.0
-    i2t_a2s: float | None = None
-
-
-@dataclass(frozen=True)
-class FuseModel:
-    """A fuse: cold resistance, ratings and its time-current behaviour.
-
-    Attributes
-    ----------
-    name : str
-    r_cold_ohm : float
-        Cold resistance [ohm].
-    rated_current_a : float
-        Rated current [A].
-    breaking_capacity_a : float
-        Largest prospective current it can interrupt safely [A].
-    i2t_a2s : float or None
-        Pre-arcing (melting) I^2 t [A^2 s].
-    curve : tuple of (current [A], time [s])
-        Time-current points, ascending current.
-    max_voltage_v : float
-        Rated voltage [V].
-    clearing_i2t_a2s : float or None
-        Total operating (clearing, let-through) I^2 t at high fault current:
-        pre-arcing plus arcing [A^2 s]; None when unknown (the pulse is then
-        counted over the pre-arcing time only).
-    """
-
-    name: str
-    r_cold_ohm: float
-    rated_current_a: float
-    breaking_capacity_a: float
-    i2t_a2s: float | None = None
-    curve: tuple[tuple[float, float], ...] = ()
-    max_voltage_v: float = math.inf
-    clearing_i2t_a2s: float | None = None
-
-
-@dataclass(frozen=True)
 class Parts:
     """The parts available to the project."""
 
     resistors: ResistorParts = field(default_factory=ResistorParts)
     diodes: Mapping[str, DiodeModel] = field(default_factory=dict)
     fuses: Mapping[str, FuseModel] = field(default_factory=dict)
-
-
-# --- network elements -------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Resistor:
-    """A resistor element between nodes ``a`` and ``b``.
-
-    ``target_ohm`` is the ideal value the sizer aimed at (None for an explicit
-    network). ``group`` names the segment a resistor belongs to when the sizer
-    built one segment from several parts. ``pulse_energy_j`` is the single-pulse
-    energy [J] the part survives (None: that of its rating in
-    ``parts.resistors``, else the conservative rule of
-    :func:`planner.stress.resistor_pulse_limit_j`).
-    """
-
-    name: str
-    a: str
-    b: str
-    value_ohm: float
-    tolerance: float = 0.01
-    tempco_per_k: float = 100e-6
-    power_w: float = 0.25
-    max_voltage_v: float = 250.0
-    series: str | None = None
-    target_ohm: float | None = None
-    group: str | None = None
-    trimmer: bool = False
-    distribution: str = "uniform"
-    line: int | None = None
-    pulse_energy_j: float | None = None
-
-    kind = "resistor"
-
-    @property
-    def nodes(self) -> tuple[str, str]:
-        return (self.a, self.b)
-
-
-@dataclass(frozen=True)
-class MovementElement:
-    """The meter movement as a network element (current from ``a`` to ``b`` reads up)."""
-
-    name: str
-    a: str
-    b: str
-    line: int | None = None
-
-    kind = "movement"
-
-    @property
-    def nodes(self) -> tuple[str, str]:
-        return (self.a, self.b)
-
-
-@dataclass(frozen=True)
-class Diode:
-    """A diode element; ``model`` names a :class:`DiodeModel` in ``parts.diodes``."""
-
-    name: str
-    anode: str
-    cathode: str
-    model: str
-    line: int | None = None
-
-    kind = "diode"
-
-    @property
-    def nodes(self) -> tuple[str, str]:
-        return (self.anode, self.cathode)
-
-
-@dataclass(frozen=True)
-class Contact:
-    """A switch contact, closed in the positions named in ``closed_in``."""
-
-    name: str
-    a: str
-    b: str
-    closed_in: tuple[str, ...]
-    r_ohm: float = 0.0
-    line: int | None = None
-
-    kind = "contact"
-
-    @property
-    def nodes(self) -> tuple[str, str]:
-        return (self.a, self.b)
-
-
-@dataclass(frozen=True)
-class Fuse:
-    """A fuse element; ``model`` names a :class:`FuseModel` in ``parts.fuses``."""
-
-    name: str
-    a: str
-    b: str
-    model: str
-    line: int | None = None
-
-    kind = "fuse"
-
-    @property
-    def nodes(self) -> tuple[str, str]:
-        return (self.a, self.b)
-
-
-Element = Resistor | MovementElement | Diode | Contact | Fuse
 
 
 @dataclass(frozen=True)
@@ -360,7 +132,7 @@ class Position:
     name : str
         As printed on the dial, e.g. ``"2.5 V"``.
     measures : str
-        ``voltage`` or ``current``.
+        The range kind: ``voltage`` or ``current`` (:mod:`planner.ranges`).
     full_scale : float
         Full-scale value [V] or [A].
     input : tuple of str
@@ -374,8 +146,13 @@ class Position:
     line: int | None = None
 
     @property
+    def kind(self) -> "ranges.RangeKind":
+        """What kind of range it is (:mod:`planner.ranges`)."""
+        return ranges.of(self.measures)
+
+    @property
     def unit(self) -> str:
-        return "V" if self.measures == "voltage" else "A"
+        return self.kind.unit
 
 
 @dataclass(frozen=True)

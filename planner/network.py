@@ -15,14 +15,14 @@ ports: the node pairs they join (an antiparallel pair shares one port).
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass
 
 import networkx as nx
 import numpy as np
 
 from .errors import ProjectError, SolveError
-from .model import Contact, Diode, Fuse, MovementElement, NetworkSpec, Position, Resistor, Spec
+from .model import MovementElement, NetworkSpec, Position, Spec
+from .tools import nearest
 
 POSITION = "position"
 MAKE_BEFORE_BREAK = "make_before_break"
@@ -69,7 +69,7 @@ def graph(net: NetworkSpec) -> nx.MultiGraph:
 
 def closed_contacts(net: NetworkSpec, position: str) -> frozenset:
     """Designators of the contacts closed in ``position``."""
-    return frozenset(e.name for e in net.elements if isinstance(e, Contact) and position in e.closed_in)
+    return frozenset(e.name for e in net.elements if e.stamp == "switch" and position in e.closed_in)
 
 
 def position_states(net: NetworkSpec) -> list[SwitchState]:
@@ -105,28 +105,16 @@ def state(net: NetworkSpec, name: str, path: str | None = None) -> SwitchState:
         if s.name == name:
             return s
     names = [p.name for p in net.positions]
-    hint = _nearest_name(name, names)
+    hint = nearest(name, names, forgiving=True)
     more = f" (did you mean '{hint}'?)" if hint else ""
     raise ProjectError(f"no switch position named '{name}'{more}; give one of: {', '.join(names)}", path)
-
-
-def _nearest_name(name: str, names: list[str]) -> str | None:
-    """The position name nearest to ``name``, ignoring case and spaces ('10v' -> '10 V')."""
-    def squash(s: str) -> str:
-        return "".join(s.split()).lower()
-
-    by_squash = {squash(n): n for n in names}
-    if squash(name) in by_squash:
-        return by_squash[squash(name)]
-    hint = difflib.get_close_matches(squash(name), list(by_squash), n=1, cutoff=0.6)
-    return by_squash[hint[0]] if hint else None
 
 
 def active_graph(net: NetworkSpec, st: SwitchState) -> nx.MultiGraph:
     """The elements present in a switch state: every non-contact element and the closed contacts."""
     g = nx.MultiGraph()
     for e in net.elements:
-        if isinstance(e, Contact) and e.name not in st.closed:
+        if not e.present(st.closed):
             continue
         a, b = e.nodes
         g.add_edge(a, b, key=e.name, element=e)
@@ -166,8 +154,8 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             (a, b, key, data), = full.edges(node, keys=True, data=True)
             e = data["element"]
             others = sorted(n for n in full.nodes if n != node)
-            hint = difflib.get_close_matches(node, others, n=1)
-            more = f" Did you mean '{hint[0]}'?" if hint else " Connect it or remove the element."
+            hint = nearest(node, others)
+            more = f" Did you mean '{hint}'?" if hint else " Connect it or remove the element."
             raise ProjectError(f"node '{node}' is floating: only {key} touches it.{more}", path, e.line)
     reach: set = set()
     for t in terminals:
@@ -182,7 +170,7 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             f"(nodes {', '.join(sorted(map(str, island)))} form an island), so no position ever puts "
             f"{'it' if len(names) == 1 else 'them'} in circuit; connect the island to the meter or remove it",
             path, stray[0].line)
-    has_contacts = any(isinstance(e, Contact) for e in net.elements)
+    has_contacts = any(e.stamp == "switch" for e in net.elements)
     for st in position_states(net):
         p = st.position
         if has_contacts and not st.closed:
@@ -228,8 +216,8 @@ class UnionFind:
 class Branch:
     """A linear branch of a compiled circuit and where its value comes from.
 
-    ``role`` is ``resistor``, ``movement``, ``fuse``, ``contact`` or ``source``;
-    ``element`` the designator it belongs to.
+    ``role`` is the element's kind (``resistor``, ``movement``, ``fuse``,
+    ``contact`` ...) or ``source``; ``element`` the designator it belongs to.
     """
 
     element: str
@@ -295,7 +283,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     from .solve import Circuit
 
     net = net if net is not None else spec.network
-    kind = stimulus or st.position.measures
+    kind = stimulus or st.position.kind.source
     g = active_graph(net, st)
     plus, minus = st.position.input
     live, alias = _current_carrying(g, plus, minus)
@@ -303,8 +291,8 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     for n in live:
         uf.find(n)
     for e in net.elements:
-        if isinstance(e, Contact) and e.name in st.closed and e.r_ohm == 0.0 and e.a in live:
-            uf.union(e.a, e.b)
+        if e.merges(st.closed) and e.nodes[0] in live:
+            uf.union(*e.nodes)
 
     branches: list[Branch] = []
     diodes: list[tuple[str, str, str]] = []  # (designator, anode, cathode)
@@ -312,18 +300,12 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
         a, b = e.nodes
         if a not in live or b not in live:
             continue
-        if isinstance(e, Contact):
-            if e.name not in st.closed or e.r_ohm == 0.0:
-                continue
-            branches.append(Branch(e.name, "contact", a, b))
-        elif isinstance(e, Resistor):
-            branches.append(Branch(e.name, "resistor", a, b))
-        elif isinstance(e, MovementElement):
-            branches.append(Branch(e.name, "movement", a, b))
-        elif isinstance(e, Fuse):
-            branches.append(Branch(e.name, "fuse", a, b))
-        elif isinstance(e, Diode):
-            diodes.append((e.name, e.anode, e.cathode))
+        if not e.present(st.closed) or e.merges(st.closed):
+            continue
+        if e.stamp == "junction":
+            diodes.append((e.name, a, b))
+        else:
+            branches.append(Branch(e.name, e.kind, a, b))
 
     ground = uf.find(minus)
     top = uf.find(plus)

@@ -25,8 +25,13 @@ import itertools
 import math
 from dataclasses import dataclass, field
 
-from . import eseries, writer
-from .errors import ProjectError
+import numpy as np
+
+from . import eseries
+from . import network as nw
+from . import writer
+from .errors import ProjectError, SolveError
+from .solve import Junctions, solve
 from .model import (
     Contact,
     Diode,
@@ -889,34 +894,41 @@ def _build(spec: Spec, lay: _Layout, choices: list[Choice], ratings: list[tuple[
 class _Linear:
     """The sized network with its diodes open, or with clamp nodes shorted to common.
 
-    The same engine as every analysis solves it (nominal values, reference
-    temperature); with the diodes taken out the network is linear, so the result is
-    the bound the rating rules need.
+    Solved by the same compiler and solver as every analysis (nominal values,
+    reference temperature), without an engine: with the diodes taken out the
+    network is linear, so the result is the bound the rating rules need.
     """
 
     def __init__(self, spec: Spec, net: NetworkSpec):
         self.spec = spec
-        self.elements = tuple(e for e in net.elements if not isinstance(e, Diode))
+        self.elements = tuple(e for e in net.elements if e.stamp != "junction")
         self.positions = net.positions
-        self._engines: dict[tuple, object] = {}
+        self._nets: dict[tuple, NetworkSpec] = {}
 
     def solve(self, pos: Position, value: float, shorted=()):
         """Voltage across every element [V] for ``value`` on ``pos``; None when the input is shorted."""
-        from .engine import Engine
-        from .errors import SolveError
-
         key = tuple(shorted)
-        if key not in self._engines:
+        if key not in self._nets:
             shorts = tuple(Contact(f"__short{j}", node, COM, tuple(p.name for p in self.positions))
                            for j, node in enumerate(shorted))
-            net = NetworkSpec(self.elements + shorts, self.positions, None)
-            self._engines[key] = Engine(self.spec, net, check=False)
-        eng = self._engines[key]
+            self._nets[key] = NetworkSpec(self.elements + shorts, self.positions, None)
+        net = self._nets[key]
+        st = nw.position_states(net)[[p.name for p in net.positions].index(pos.name)]
         try:
-            op = eng.operate(pos.name, [value])
+            c = nw.compile_state(self.spec, st, net=net)
+            dt = np.zeros((1, 1))
+            r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
+                                for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
+            z = np.zeros((1, 0))
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]))
         except SolveError:
             return None
-        return {e.name: float(op.element(e.name).voltage_v[0, 0]) for e in self.elements if not isinstance(e, Contact)}
+
+        def v(node):
+            i = c.node_index.get(node)
+            return np.zeros((1, 1)) if i is None else sol.node_voltage(i)
+
+        return {e.name: float((v(e.nodes[0]) - v(e.nodes[1]))[0, 0]) for e in self.elements if e.rated}
 
 
 def _cases(spec: Spec, lay: _Layout):

@@ -57,20 +57,12 @@ import networkx as nx
 import numpy as np
 
 from . import network as nw
+from .design import Design, as_design
 from .engine import Engine
 from .errors import UsageError
-from .model import Contact, Diode, Fuse, Resistor
-
-#: Phase points per sine cycle. A multiple of 4, so the samples hit both crests
-#: exactly; the cycle mean of a half-wave-rectified branch is then within
-#: pi^2 / (3 N^2) (1.3e-5 of its value) of the integral.
-PHASE_POINTS = 512
-
-#: Hazardous-live limits of IEC 61010-1:2010, clause 6.3.1 (normal condition):
-#: 33 V rms, 46.7 V peak, 70 V DC [V].
-HAZARD_RMS_V = 33.0
-HAZARD_PEAK_V = 46.7
-HAZARD_DC_V = 70.0
+from .model import Diode, Fuse, Resistor
+from .stimulus import (HAZARD_DC_V, HAZARD_PEAK_V, HAZARD_RMS_V, PHASE_POINTS, WAVEFORMS, Stimulus,  # noqa: F401
+                       hazardous_live)
 
 #: Longest pre-arcing time [s] for which the movement is judged on its short-time
 #: overload rather than its continuous one. From memory: the short-duration
@@ -101,145 +93,7 @@ OPEN_FUSE_OHM = 1e9
 #: Ratio above which a rating counts as exceeded (guards round-off at exactly 1).
 _EXCEED = 1.0 + 1e-9
 
-WAVEFORMS = ("dc", "sine", "impulse")
 VERDICTS = ("ok", "pegs", "overstress", "hazard")
-
-
-# --- stimuli -------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Stimulus:
-    """A source applied to the input terminals.
-
-    Attributes
-    ----------
-    name : str
-        Name shown in tables (``'wall outlet'``, ``'range up'``).
-    kind : {'voltage', 'current'}
-        What the source holds.
-    value : float
-        DC value, rms of a sine, or peak of an impulse [V] or [A]; the sign of a DC
-        value is its polarity.
-    waveform : {'dc', 'sine', 'impulse'}
-    r_source_ohm : float
-        Source impedance of a voltage source [ohm].
-    current_limit_a : float or None
-        Current limit of a voltage source [A] (a bench supply), None for none.
-    detail : str
-        Extra words for tables (``'10 V, the 10 V range's full scale'``).
-    """
-
-    name: str
-    kind: str
-    value: float
-    waveform: str = "dc"
-    r_source_ohm: float = 0.0
-    current_limit_a: float | None = None
-    detail: str = ""
-
-    def __post_init__(self):
-        if self.kind not in ("voltage", "current"):
-            raise UsageError(f"stimulus '{self.name}': kind must be 'voltage' or 'current', not {self.kind!r}")
-        if self.waveform not in WAVEFORMS:
-            raise UsageError(f"stimulus '{self.name}': waveform must be one of {', '.join(WAVEFORMS)}, "
-                             f"not {self.waveform!r}")
-        if not math.isfinite(self.value):
-            raise UsageError(f"stimulus '{self.name}': the applied value must be a finite number")
-        if not (self.r_source_ohm >= 0.0 and math.isfinite(self.r_source_ohm)):
-            raise UsageError(f"stimulus '{self.name}': the source impedance must be zero or positive")
-        if self.current_limit_a is not None and not self.current_limit_a > 0.0:
-            raise UsageError(f"stimulus '{self.name}': a current limit must be above zero")
-
-    @property
-    def unit(self) -> str:
-        return "V" if self.kind == "voltage" else "A"
-
-    @property
-    def peak(self) -> float:
-        """Largest instantaneous |value| of the source [V] or [A]."""
-        return abs(self.value) * (math.sqrt(2.0) if self.waveform == "sine" else 1.0)
-
-    @property
-    def peak_only(self) -> bool:
-        """True for an impulse: judged on peak quantities only."""
-        return self.waveform == "impulse"
-
-    def samples(self, n_phase: int | None = None) -> np.ndarray:
-        """Instantaneous source values over the stimulus [V] or [A].
-
-        A DC stimulus is one point; a sine is ``n_phase`` equally spaced phases of
-        one cycle, :math:`\\sqrt 2 X_{rms} \\sin(2 \\pi k / N)`; an impulse is its
-        peak in both polarities.
-        """
-        if self.waveform == "dc":
-            return np.array([float(self.value)])
-        if self.waveform == "impulse":
-            return np.array([abs(self.value), -abs(self.value)])
-        n = n_phase or PHASE_POINTS
-        k = np.arange(n)
-        return math.sqrt(2.0) * self.value * np.sin(2.0 * np.pi * k / n)
-
-    def describe(self) -> str:
-        """A short human description: ``'230 V rms sine, 0.5 ohm source'``."""
-        from .units import format_si
-
-        wave = {"dc": "DC", "sine": "rms sine", "impulse": "peak impulse"}[self.waveform]
-        text = f"{format_si(self.value, self.unit, 4)} {wave}"
-        if self.kind == "voltage":
-            text += f", {format_si(self.r_source_ohm, 'ohm', 3)} source" if self.r_source_ohm > 0 else ", ideal source"
-            if self.current_limit_a is not None:
-                text += f", limited to {format_si(self.current_limit_a, 'A', 3)}"
-        return text
-
-    def as_dict(self) -> dict:
-        d = {
-            "name": self.name,
-            "kind": self.kind,
-            "waveform": self.waveform,
-            "unit": self.unit,
-            "value": self.value,
-            "peak": self.peak,
-            "r_source_ohm": self.r_source_ohm if self.kind == "voltage" else None,
-            "current_limit_a": self.current_limit_a,
-        }
-        if self.detail:
-            d["detail"] = self.detail
-        return d
-
-
-def hazardous_live(waveform: str, samples_v) -> bool:
-    """Whether a voltage waveform exceeds the hazardous-live limits.
-
-    Parameters
-    ----------
-    waveform : {'dc', 'sine', 'impulse'}
-    samples_v : array_like
-        Instantaneous voltages over the stimulus [V].
-
-    Returns
-    -------
-    bool
-
-    Notes
-    -----
-    DC: :math:`\\max |v| > 70` V. AC (sine) and impulse: rms above 33 V or peak
-    above 46.7 V.
-
-    References
-    ----------
-    IEC 61010-1:2010, *Safety requirements for electrical equipment for
-    measurement, control and laboratory use*, clause 6.3.1 (levels of accessible
-    parts in normal condition).
-    """
-    v = np.abs(np.asarray(samples_v, dtype=float))
-    if v.size == 0:
-        return False
-    if waveform == "dc":
-        return bool(v.max() > HAZARD_DC_V)
-    if waveform == "impulse":
-        return bool(v.max() > HAZARD_PEAK_V)
-    return bool(v.max() > HAZARD_PEAK_V or math.sqrt(float(np.mean(v ** 2))) > HAZARD_RMS_V)
 
 
 # --- solved waveforms ----------------------------------------------------------------
@@ -289,7 +143,7 @@ def _input_connected(engine: Engine, st: nw.SwitchState) -> bool:
 
 
 def _stress_elements(engine: Engine) -> list:
-    return [e for e in engine.net.elements if not isinstance(e, Contact)]
+    return [e for e in engine.net.elements if e.rated]
 
 
 def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
@@ -742,7 +596,7 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
         if e.name in opened:
             fm = _fuse_model_of(engine, e.name)
             if fm is not None and math.isfinite(fm.max_voltage_v):
-                v_rec = v_st["rms"] if s.waveform == "sine" else v_st["peak"]
+                v_rec = v_st["rms"] if s.waveform.cyclic else v_st["peak"]
                 stresses.append(_entry(e.name, "fuse", f"voltage across the open fuse{sfx}", v_rec,
                                        fm.max_voltage_v, "V", "safety"))
             continue
@@ -863,7 +717,7 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
             rating, words = ov.short_time, " until the fuse opens"
         else:
             rating, words = ov.continuous, ""
-        q = "rms multiple" if s.waveform == "sine" else "multiple"
+        q = "rms multiple" if s.waveform.cyclic else "multiple"
         stresses.append(_entry(m.name, "movement", f"{q}{words}{sfx}", ms["rms"], rating, "x I_fs", "rating"))
         # the pointer: forward end stop at `peg`, zero-end stop assumed as far below zero
         # as the forward stop is beyond full scale (common practice: a few percent)
@@ -874,7 +728,7 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
             back = max(ov.peg - 1.0, 1e-3)
             stresses.append(_entry(m.name, "movement", f"pointer below zero (mean multiple){sfx}", -ms["mean"], back,
                                    "x I_fs", "end stop"))
-    movement = {"current_a": float(ms["mean"] * i_fs) if s.waveform == "sine" else float(wf.movement_current_a[0]),
+    movement = {"current_a": float(ms["mean"] * i_fs) if s.waveform.cyclic else float(wf.movement_current_a[0]),
                 "multiple": ms["peak"], "rms_multiple": ms["rms"], "mean_multiple": ms["mean"],
                 "peak_current_a": ms["peak"] * i_fs, "rms_current_a": ms["rms"] * i_fs}
     return Judgement(stresses, fuses, notes, frozenset(newly), bool(short_exposure), hazardous, movement, parts,
@@ -944,7 +798,7 @@ def _open_fuse_engine(engine: Engine, opened: frozenset) -> Engine:
                                       power_w=math.inf, max_voltage_v=math.inf, line=e.line))
             else:
                 elems.append(e)
-        eng = Engine(engine.spec, net=replace(engine.net, elements=tuple(elems)))
+        eng = Engine(engine.design.variant(replace(engine.net, elements=tuple(elems)), validate=True))
         eng._planner_original_net = orig
         cache[opened] = eng
     return cache[opened]
@@ -1078,13 +932,14 @@ def _fuse_detail(opening: list, event: dict | None, verdict: str) -> str:
 # --- one stimulus (planner apply) ---------------------------------------------------------
 
 
-def apply_stimulus(engine_or_spec, position, *, volts=None, amps=None, r_source_ohm=0.0, temperature_k=None,
+def apply_stimulus(design, position, *, volts=None, amps=None, r_source_ohm=0.0, temperature_k=None,
                    waveform="dc", current_limit_a=None, n_phase: int | None = None) -> dict:
     """Apply one stimulus to one position (or transition) and judge every part.
 
     Parameters
     ----------
-    engine_or_spec : Engine or Spec
+    design : Design or Engine
+        The project's design (a loaded Spec is built into one), or an engine on it.
     position : str
         Position (or transition state) name.
     volts, amps : float
@@ -1122,14 +977,14 @@ def apply_stimulus(engine_or_spec, position, *, volts=None, amps=None, r_source_
     """
     if (volts is None) == (amps is None):
         raise UsageError("give exactly one of --volts and --amps")
-    engine = engine_or_spec if isinstance(engine_or_spec, Engine) else Engine(engine_or_spec)
+    engine = design if isinstance(design, Engine) else Engine(as_design(design))
     kind = "voltage" if volts is not None else "current"
     value = float(volts if volts is not None else amps)
     stim = Stimulus("applied", kind, value, waveform, float(r_source_ohm), current_limit_a)
     case = assess(engine, position, [stim], temperature_k=temperature_k, with_parts=True, n_phase=n_phase)[0]
     parts = []
     for p in case["parts"]:
-        if waveform == "dc":
+        if stim.waveform.single:
             cur, vol = p["current_mean_a"], p["voltage_mean_v"]
         else:
             cur, vol = p["current_rms_a"], p["voltage_rms_v"]
@@ -1147,7 +1002,7 @@ def apply_stimulus(engine_or_spec, position, *, volts=None, amps=None, r_source_
 
 
 def _stim_hazardous(s: Stimulus) -> bool:
-    return s.kind == "voltage" and hazardous_live(s.waveform, s.samples())
+    return s.hazardous()
 
 
 STANDARD_CAUTIONS = (

@@ -20,7 +20,8 @@ from __future__ import annotations
 
 from typing import Iterable, Mapping, Sequence
 
-from .model import ClampRequest, Contact, Diode, Fuse, MovementElement, NetworkSpec, Resistor
+from .model import ClampRequest, NetworkSpec
+from .tools import quantity, yaml_string
 
 __all__ = [
     "quantity",
@@ -31,58 +32,6 @@ __all__ = [
     "split_top_level",
     "replace_sections",
 ]
-
-#: Dimension of :func:`planner.units.parse` for each unit the writer emits.
-_DIMENSION = {"ohm": "resistance", "V": "voltage", "A": "current", "W": "power", "J": "energy"}
-
-
-def _parses_to(text: str, unit: str, x: float) -> bool:
-    from .units import parse
-
-    try:
-        return parse(text, _DIMENSION[unit]) == x
-    except Exception:  # any text that does not parse back is simply not the one to write
-        return False
-
-
-def quantity(x: float, unit: str) -> str:
-    """A quantity as project-file text that parses back to the same float.
-
-    Parameters
-    ----------
-    x : float
-        The value in SI units [ohm], [V], [A], [W] or [J].
-    unit : {'ohm', 'V', 'A', 'W', 'J'}
-
-    Returns
-    -------
-    str
-        The shortest SI-prefixed text (4 to 17 significant digits) that
-        :func:`planner.units.parse` reads back as exactly ``x``, e.g.
-        ``'8 kohm'``, ``'3.01 kohm'``; ``repr(x)`` with the unit when none does.
-    """
-    from .units import format_si
-
-    for digits in range(4, 18):
-        text = format_si(x, unit, digits)
-        num, _, rest = text.partition(" ")
-        if "." in num and "e" not in num:
-            num = num.rstrip("0").rstrip(".")
-        out = f"{num} {rest}".strip()
-        if _parses_to(out, unit, x):
-            return out
-    return f"{x!r} {unit}"
-
-
-def yaml_string(x) -> str:
-    """A double-quoted YAML scalar (backslashes and quotes escaped)."""
-    return '"' + str(x).replace("\\", "\\\\").replace('"', '\\"') + '"'
-
-
-def _fmt(x: float, unit: str) -> str:
-    from .units import format_si
-
-    return format_si(x, unit, 4)
 
 
 def element_line(e) -> str:
@@ -95,46 +44,15 @@ def element_line(e) -> str:
 
     Parameters
     ----------
-    e : Resistor, MovementElement, Diode, Contact or Fuse
+    e : planner.parts.Part
+        Any network element (each kind writes itself: :meth:`planner.parts.Part.yaml`).
 
     Returns
     -------
     str
         ``'{name: R1, kind: resistor, between: [t1, m_plus], value: 8 kohm, ...}'``.
     """
-    if isinstance(e, Resistor):
-        extra = [
-            f"value: {quantity(e.value_ohm, 'ohm')}",
-            f"tolerance: {e.tolerance * 100:.10g} %",
-            f"tempco: {e.tempco_per_k * 1e6:.10g} ppm/K",
-            f"power: {quantity(e.power_w, 'W')}",
-            f"max_voltage: {quantity(e.max_voltage_v, 'V')}",
-        ]
-        if e.series is not None:
-            extra.append(f"series: {e.series}")
-        if e.trimmer:
-            extra.append("trimmer: true")
-        pulse = getattr(e, "pulse_energy_j", None)
-        if pulse is not None:
-            extra.append(f"pulse_energy: {quantity(pulse, 'J')}")
-        note = []
-        if e.group is not None:
-            note.append(f"segment '{e.group}'")
-        if e.target_ohm is not None:
-            note.append(f"share of target {_fmt(e.target_ohm, 'ohm')}")
-        comment = f"  # {', '.join(note)}" if note else ""
-        return f"{{name: {e.name}, kind: resistor, between: [{e.a}, {e.b}], {', '.join(extra)}}}{comment}"
-    if isinstance(e, MovementElement):
-        return f"{{name: {e.name}, kind: movement, between: [{e.a}, {e.b}]}}"
-    if isinstance(e, Diode):
-        return f"{{name: {e.name}, kind: diode, anode: {e.anode}, cathode: {e.cathode}, model: {e.model}}}"
-    if isinstance(e, Contact):
-        closed = ", ".join(yaml_string(c) for c in e.closed_in)
-        extra = f", resistance: {quantity(e.r_ohm, 'ohm')}" if e.r_ohm else ""
-        return f"{{name: {e.name}, kind: contact, between: [{e.a}, {e.b}], closed_in: [{closed}]{extra}}}"
-    if isinstance(e, Fuse):
-        return f"{{name: {e.name}, kind: fuse, between: [{e.a}, {e.b}], model: {e.model}}}"
-    raise TypeError(f"no project-file form for element {e!r}")
+    return e.yaml()
 
 
 def network_lines(net: NetworkSpec, notes: Mapping[str, str] | None = None) -> list[str]:

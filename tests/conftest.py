@@ -16,6 +16,7 @@ from pathlib import Path
 import pytest
 
 from planner import model
+from planner.design import build
 from planner.engine import Engine
 from planner.project import load
 
@@ -39,12 +40,12 @@ def ammeter_spec() -> model.Spec:
 
 @pytest.fixture(scope="session")
 def voltmeter(voltmeter_spec) -> Engine:
-    return Engine(voltmeter_spec)
+    return Engine(build(voltmeter_spec))
 
 
 @pytest.fixture(scope="session")
 def ammeter(ammeter_spec) -> Engine:
-    return Engine(ammeter_spec)
+    return Engine(build(ammeter_spec))
 
 
 def make_spec(elements, positions, *, i_fs_a=1e-3, r_coil_ohm=500.0, coil_tempco=0.0,

@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 
 from planner import accuracy as acc
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import UsageError
 from planner.model import (Ambient, Analysis, Contact, Diode, DiodeModel, Movement, MovementElement,
@@ -168,7 +169,7 @@ def test_loading_divider_built_into_the_network():
     )
     net = NetworkSpec(elements, (Position("10 V", "voltage", 10.0, ("src", "com")),))
     spec = Spec("divider", Movement(i_fs_a=100e-6, r_coil_ohm=500.0, class_index=1.5), network=net)
-    reading = Engine(spec).reading("10 V", [20.0])
+    reading = Engine(build(spec)).reading("10 V", [20.0])
     np.testing.assert_allclose(reading, [6.6666667], rtol=1e-7)  # 20/3 V by the divider formula
 
 

@@ -20,7 +20,8 @@ from planner import model as m
 from planner.accuracy import check_project
 from planner.clamps import (Combo, Site, Stack, _Search, _signature, clamp_diodes, format_protect, lex_best,
                             lex_compare, protect_project, protected_text, write_protected)
-from planner.engine import Engine, resolve_network
+from planner.design import build
+from planner.engine import Engine
 from planner.errors import ProjectError, UsageError
 from planner.faults import faults_project
 from planner.project import load, loads
@@ -74,7 +75,7 @@ def _max_input_multiple(faults: dict) -> float:
 
 def _bare(spec: m.Spec) -> m.Spec:
     """The same instrument with its clamp diodes taken out (an explicit network)."""
-    net = resolve_network(spec)
+    net = build(spec).net
     keep = tuple(e for e in net.elements if e.name not in clamp_diodes(net))
     return replace(spec, network=replace(net, elements=keep), voltage=None, current=None, clamps=())
 
@@ -85,7 +86,7 @@ def _clamp_error_by_check(spec: m.Spec) -> dict:
     From two runs of ``check_project`` (the ``linearity_hot`` tables with and
     without the clamp diodes).
     """
-    net = resolve_network(spec)
+    net = build(spec).net
     with_clamps = check_project(replace(spec, network=net, voltage=None, current=None, clamps=()), samples=20)
     without = check_project(_bare(spec), samples=20)
     out = {}
@@ -183,7 +184,7 @@ def test_clamp_error_across_movement_matches_shockley_hand_computation(pocket):
 def test_written_file_loads_validates_and_uses_fresh_designators(pocket, written):
     ref = pytest.importorskip("eseries")  # independent IEC 60063 tables (PyPI package 'eseries')
     spec, result = pocket
-    Engine(written)  # graph checks pass
+    Engine(build(written))  # graph checks pass
     chosen = result["chosen"]
     names = {e.name for e in written.network.elements}
     old = {e.name for e in spec.network.elements}
@@ -307,7 +308,7 @@ def test_share_per_position(pocket):
     spec, _ = pocket
     with pytest.raises(UsageError, match="no position"):
         protect_project(spec, share={"0.7 V": 0.2})
-    ctx = _Search(spec, {"0.5 V": 0.5}, None, 100, None)
+    ctx = _Search(build(spec), {"0.5 V": 0.5}, None, 100, None)
     assert ctx.limits["0.5 V"] == 0.5 * spec.movement.class_index
     assert ctx.limits["10 V"] == 0.25 * spec.movement.class_index
 
@@ -335,7 +336,7 @@ def test_stack_orientation_junction_and_breakdown(pocket):
     spec, _ = pocket
     zener = m.DiodeModel("z", i_s_a=1e-12, n=1.2, r_s_ohm=2.0, bv_v=2.4)
     spec2 = replace(spec, parts=replace(spec.parts, diodes={**spec.parts.diodes, "z": zener}))
-    ctx = _Search(spec2, 0.25, None, 100, None)
+    ctx = _Search(build(spec2), 0.25, None, 100, None)
     site = Site("movement", "movement", "m_plus")
     cases = {
         # (direction, mode): is the anode at the clamp node?  A forward clamp conducts for a
@@ -354,7 +355,7 @@ def test_stack_orientation_junction_and_breakdown(pocket):
         at_node = [d for d in diodes if "m_plus" in (d.anode, d.cathode)]
         assert len(at_node) == 1
         assert (at_node[0].anode == "m_plus") is anode_at_node
-        Engine(spec2, net)  # a valid network: the stack's middle node joins two diodes
+        Engine(build(replace(spec2, network=net)))  # a valid network: the stack's middle node joins two diodes
     # a forward zener in breakdown is the same part the same way round as a reverse junction stack
     assert _signature(Combo(site, Stack("z", 1, "breakdown"), None)) == \
         _signature(Combo(site, None, Stack("z", 1, "junction")))
@@ -362,7 +363,7 @@ def test_stack_orientation_junction_and_breakdown(pocket):
 
 def test_clamp_diodes_of_the_examples():
     spec = load(PROJECTS / "bench_multimeter.yaml")
-    net = resolve_network(spec)
+    net = build(spec).net
     # the movement pair and the two two-diode stacks at the chain tap
     assert sorted(clamp_diodes(net)) == sorted(e.name for e in net.elements if isinstance(e, m.Diode))
     assert len(clamp_diodes(net)) == 6

@@ -158,6 +158,7 @@ def test_bad_file_through_the_cli(job, catalogue_runs, tmp_path):
 
 def test_loader_and_validator_agree_with_the_headers():
     """The network files pass the loader and fail only in validation (so they test it)."""
+    from planner.design import build
     from planner.engine import Engine
     from planner.project import load
 
@@ -165,7 +166,7 @@ def test_loader_and_validator_agree_with_the_headers():
         expect, line = bad_file_header(path)
         spec = load(path)
         with pytest.raises(ProjectError) as ei:
-            Engine(spec)
+            Engine(build(spec))
         assert ei.value.line == line and expect in ei.value.one_line(), path.name
 
 

@@ -61,15 +61,15 @@ def built(tmp_path_factory):
 
 
 def _designators(spec) -> list[str]:
-    from planner.engine import resolve_network
+    from planner.design import build
 
-    return [e.name for e in resolve_network(spec).elements]
+    return [e.name for e in build(spec).net.elements]
 
 
 def _positions(spec) -> list[str]:
-    from planner.engine import resolve_network
+    from planner.design import build
 
-    return [p.name for p in resolve_network(spec).positions]
+    return [p.name for p in build(spec).net.positions]
 
 
 def _check_text(text: str, spec, designators) -> None:

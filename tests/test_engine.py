@@ -14,6 +14,7 @@ import pytest
 from scipy.optimize import brentq
 
 from conftest import make_spec
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import PlannerError
 from planner.model import Contact, MovementElement, Position, Resistor
@@ -73,7 +74,7 @@ def linear_voltmeter(tempco_r=50e-6, tempco_coil=3.93e-3):
         Contact("S1", "plus", "t1", ("10 V",)),
     ]
     positions = [Position("10 V", "voltage", 10.0, ("plus", "com"))]
-    return Engine(make_spec(elements, positions, i_fs_a=1e-3, r_coil_ohm=500.0, coil_tempco=tempco_coil))
+    return Engine(build(make_spec(elements, positions, i_fs_a=1e-3, r_coil_ohm=500.0, coil_tempco=tempco_coil)))
 
 
 def test_temperature_law_of_resistors_and_coil():

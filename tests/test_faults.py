@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from planner import model as m
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import ProjectError
 from planner.faults import (cautions_for, category_impulse, faults_project, format_faults, stimuli_for)
@@ -102,7 +103,7 @@ def test_built_in_stimuli_per_position():
 def test_impulse_is_judged_on_peak_quantities_only():
     spec = replace(voltmeter(clamps=False), faults=m.Faults(category="CAT II 300 V"))
     imp = [s for s in stimuli_for(spec, spec.network, spec.network.positions[0]) if s.waveform == "impulse"]
-    (case,) = assess(Engine(spec), "10 V", imp)
+    (case,) = assess(Engine(build(spec)), "10 V", imp)
     quantities = {x["quantity"] for x in case["stresses"]}
     assert quantities == {"peak voltage", "peak multiple"}  # no power, average or pointer checks
     r1 = [x for x in case["stresses"] if x["part"] == "R1"][0]
@@ -156,7 +157,7 @@ def test_only_failing_and_position_filters():
 
 def test_protection_curve_halving_input():
     spec = voltmeter(series_clamp=True, faults=m.Faults(max_input_v=500.0))
-    eng = Engine(spec)
+    eng = Engine(build(spec))
     res_ = faults_project(spec, engine=eng)
     curve = [c for c in res_["protection_curves"] if c["position"] == "10 V"][0]
     assert curve["has_clamps"]

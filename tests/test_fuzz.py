@@ -37,6 +37,7 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from planner import network as nw
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import PlannerError, ProjectError
 from planner.model import (DEFAULT_T_REF_K, Ambient, Contact, Diode, DiodeModel, Movement, MovementElement,
@@ -370,7 +371,7 @@ def check_operating_points(eng: Engine, op, spec, stimuli, r_source):
 def test_random_networks_converge_or_fail_by_name(case):
     spec, stimuli, r_source = case
     try:
-        eng = Engine(spec)
+        eng = Engine(build(spec))
     except PlannerError as e:
         msg = e.one_line()
         assert isinstance(e, ProjectError) and e.path == "fuzz.yaml", msg

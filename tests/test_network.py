@@ -13,6 +13,7 @@ import pytest
 
 from conftest import make_spec
 from planner import network as nw
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import PlannerError, ProjectError
 from planner.model import Contact, Diode, DiodeModel, MovementElement, Position, Resistor
@@ -201,7 +202,7 @@ def test_break_before_make_leaves_movement_dead(voltmeter):
 def test_shared_contact_carries_current_in_transition():
     # the common-lead contact SC stays closed in break-before-make: with the multiplier
     # contacts open the movement still carries nothing (no path from plus)
-    eng = Engine(spec_of(voltmeter_elements()))
+    eng = Engine(build(spec_of(voltmeter_elements())))
     assert np.all(eng.operate("10 V -> 100 V (break-before-make)", [10.0]).movement_current_a == 0.0)
     # make-before-break bypasses R2: the 100 V stimulus drives the 10 V multiplier
     op = eng.operate("10 V -> 100 V (make-before-break)", [100.0])
@@ -217,7 +218,7 @@ def test_antiparallel_clamp_pair(build_spec):
         Diode("D1", "m", "com", "si"),
         Diode("D2", "com", "m", "si"),
     ]
-    eng = Engine(build_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], diodes=[d]))
+    eng = Engine(build(build_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], diodes=[d])))
     op = eng.operate("P", [-100.0, 100.0])
     i1, i2 = op.element("D1").current_a[0], op.element("D2").current_a[0]
     assert i1[1] > 1e-3 and i2[0] > 1e-3  # the forward one carries the fault current

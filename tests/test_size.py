@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 
 from planner import size as sz
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import ProjectError
 from planner.model import (
@@ -200,7 +201,7 @@ def test_ring_across_voltage_ranges_see_shunted_movement():
     s = sz.size(spec)
     np.testing.assert_allclose(targets(s, "multiplier"), [1.0 / 1e-3 - r_meter, 9.0 / 1e-3], rtol=1e-12)
     # and the solver agrees: full-scale input reads full scale (within the allowed share)
-    eng = Engine(sz.sized_spec(spec))
+    eng = Engine(build(sz.sized_spec(spec)))
     for p in eng.positions:
         r = eng.reading(p.name, np.array([p.full_scale]))
         assert abs(r[0] / p.full_scale - 1) * 100 <= s.allowed_error_pct
@@ -399,7 +400,7 @@ def test_intended_path_closed_in_every_position():
         spec = make_spec(volts=[0.5, 10.0, 250.0], amps=[1e-3, 100e-3], i_arr=i_arr, ring_on_voltage=ring_mode,
                          swamp=2000.0)
         s = sz.size(spec)
-        eng = Engine(sz.sized_spec(spec))
+        eng = Engine(build(sz.sized_spec(spec)))
         for p, ideal in zip(eng.positions, s.positions):
             op = eng.operate(p.name, np.array([p.full_scale]))
             if p.measures == "voltage":
@@ -424,7 +425,7 @@ def test_nominal_error_within_allowed_share_through_the_solver():
     for spec in specs:
         s = sz.size(spec)
         allowed = spec.analysis.allowed_share * spec.movement.class_index
-        eng = Engine(sz.sized_spec(spec))
+        eng = Engine(build(sz.sized_spec(spec)))
         for p in eng.positions:
             r = eng.reading(p.name, np.array([p.full_scale]))
             err = (r[0] - p.full_scale) / p.full_scale * 100

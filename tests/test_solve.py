@@ -19,6 +19,7 @@ from scipy.special import lambertw, wrightomega
 
 from conftest import make_spec, supernodes
 from planner import network as nw
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import SolveError
 from planner.model import Contact, Diode, DiodeModel, MovementElement, Position, Resistor
@@ -62,7 +63,7 @@ def diode_behind_resistor(model, r_ohm, tempco=0.0, t_ref_k=300.0):
     positions = [Position("P", "voltage", 1.0, ("plus", "com"))]
     spec = make_spec(elements, positions, i_fs_a=1e-3, r_coil_ohm=r_ohm, coil_tempco=tempco,
                      diodes=[model], t_ref_k=t_ref_k)
-    return Engine(spec)
+    return Engine(build(spec))
 
 
 # --- constants and the temperature law --------------------------------------------------------
@@ -163,7 +164,7 @@ def test_diode_with_series_resistance_exact(model, r_ohm, t_k):
     # negative polarity: the same diode turned round, driven by -V
     flipped = dataclasses.replace(eng.net, elements=(MovementElement("M1", "plus", "a"),
                                                      Diode("D1", "com", "a", model.name)))
-    eng_neg = Engine(dataclasses.replace(eng.spec, network=flipped))
+    eng_neg = Engine(build(dataclasses.replace(eng.spec, network=flipped)))
     check(eng_neg.operate("P", -v_fwd, temperature_k=t_k).movement_current_a[0], -exact_fwd, v_fwd)
 
     # reverse bias from 1 mV to 1000 V: the current tends to -I_s
@@ -185,7 +186,7 @@ def voltmeter_separate(i_fs, r_m, full_scales, values):
         elements.append(Resistor(f"R{k}", f"t{k}", "m", r))
         elements.append(Contact(f"S{k}", "plus", f"t{k}", (f"{v:g} V",)))
         positions.append(Position(f"{v:g} V", "voltage", v, ("plus", "com")))
-    return Engine(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m))
+    return Engine(build(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m)))
 
 
 def voltmeter_chain(i_fs, r_m, full_scales, segments):
@@ -196,7 +197,7 @@ def voltmeter_chain(i_fs, r_m, full_scales, segments):
         elements.append(Resistor(f"R{k}", f"t{k}", f"t{k - 1}", r))
         elements.append(Contact(f"S{k}", "plus", f"t{k}", (f"{v:g} V",)))
         positions.append(Position(f"{v:g} V", "voltage", v, ("plus", "com")))
-    return Engine(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m))
+    return Engine(build(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m)))
 
 
 def test_lessons_voltmeter_multipliers():
@@ -229,7 +230,7 @@ def test_army_course_multiplier():
 def shunted_ammeter(i_fs, r_m, full_scale, r_sh):
     elements = [MovementElement("M1", "plus", "com"), Resistor("RSH", "plus", "com", r_sh)]
     positions = [Position("P", "current", full_scale, ("plus", "com"))]
-    return Engine(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m))
+    return Engine(build(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m)))
 
 
 @pytest.mark.parametrize("i_fs,r_m,i_range,published,digits_rtol", [
@@ -256,7 +257,7 @@ def ayrton(i_fs, r_m, ranges, segments):
         name = f"{i * 1e3:g} mA"
         elements.append(Contact(f"S{k}", "plus", f"t{k}", (name,)))
         positions.append(Position(name, "current", i, ("plus", "com")))
-    return Engine(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m))
+    return Engine(build(make_spec(elements, positions, i_fs_a=i_fs, r_coil_ohm=r_m)))
 
 
 def ayrton_segments(i_fs, r_m, ranges):
@@ -367,7 +368,7 @@ def random_networks(draw):
 @given(random_networks())
 def test_kirchhoff_current_law_random_networks(case):
     spec, kind, stimuli, r_source, t_k = case
-    eng = Engine(spec)
+    eng = Engine(build(spec))
     st_ = eng.state("P")
     rep = supernodes(spec, st_.closed)
     shorted = rep["plus"] == rep["com"]
@@ -387,7 +388,7 @@ def test_kirchhoff_current_law_random_networks(case):
     eps = np.finfo(float).eps
     linear = dataclasses.replace(spec.network, elements=tuple(e for e in spec.network.elements
                                                               if not isinstance(e, Diode)))
-    eng_lin = Engine(dataclasses.replace(spec, network=linear))
+    eng_lin = Engine(build(dataclasses.replace(spec, network=linear)))
     op_lin = eng_lin.operate("P", stimuli, temperature_k=t_k, r_source_ohm=r_source)
     all_nodes = sorted(rep)
     v_scale = (np.max([np.abs(op_lin.node_voltage(x)[0]) for x in all_nodes], axis=0)
@@ -520,7 +521,7 @@ def test_voltage_onto_shorted_inputs():
         Contact("S1", "plus", "com", ("A",)),
     ]
     positions = [Position("A", "current", 0.1, ("plus", "com"))]
-    eng = Engine(make_spec(elements, positions))
+    eng = Engine(build(make_spec(elements, positions)))
     with pytest.raises(SolveError) as err:
         eng.operate("A", [1.0], kind="voltage")
     assert "A" in err.value.one_line() and "impedance" in err.value.one_line()

@@ -16,6 +16,7 @@ import pytest
 
 import spice
 from conftest import make_spec
+from planner.design import build
 from planner.engine import Engine
 from planner.model import Contact, Diode, DiodeModel, MovementElement, Position, Resistor
 from planner.solve import BOLTZMANN, CHARGE, saturation_current, thermal_voltage
@@ -53,9 +54,9 @@ def test_k_over_q_calibration():
     assert abs(kq / (BOLTZMANN / CHARGE) - 1.0) < 1e-5
     # after the N/XTI scaling of the deck, a forward junction follows the SI-constant law
     d = DiodeModel("d", 1e-12, n=1.3, r_p_ohm=1e12)  # finite R_p: the deck sets gmin = 0
-    eng = Engine(make_spec([MovementElement("M1", "plus", "a"), Diode("D1", "a", "com", "d")],
+    eng = Engine(build(make_spec([MovementElement("M1", "plus", "a"), Diode("D1", "a", "com", "d")],
                            [Position("P", "voltage", 1.0, ("plus", "com"))], r_coil_ohm=1e3,
-                           diodes=[d], t_ref_k=300.0))
+                           diodes=[d], t_ref_k=300.0)))
     col = spice.simulate(eng, "P", None, np.linspace(0.3, 3.0, 10), 300.0, nodes=["a"])
     vj = col["v:a"]
     law = 1e-12 * np.expm1(vj / (1.3 * thermal_voltage(300.0))) + vj / 1e12
@@ -76,9 +77,9 @@ def test_ngspice_diode_law_and_temperature_law(t_k):
     # forward and reverse (the reverse through the deck's correction of SPICE2's
     # approximation)
     d = DiodeModel("s", 2e-7, n=1.05, r_s_ohm=1.5, eg_ev=0.69, xti=2.0)
-    eng = Engine(make_spec([MovementElement("M1", "plus", "a"), Diode("D1", "a", "com", "s")],
+    eng = Engine(build(make_spec([MovementElement("M1", "plus", "a"), Diode("D1", "a", "com", "s")],
                            [Position("P", "voltage", 1.0, ("plus", "com"))], r_coil_ohm=100.0,
-                           diodes=[d], t_ref_k=296.15))
+                           diodes=[d], t_ref_k=296.15)))
     v = np.linspace(-5.0, 5.0, 201)
     col = spice.simulate(eng, "P", None, v, t_k)
     i_s = saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, t_k, 296.15)
@@ -163,9 +164,9 @@ def test_uneven_stimuli_and_single_run(voltmeter, ammeter):
 
 def test_shorted_inputs_need_source_resistance():
     # the writer refuses what the solver refuses: an ideal voltage across shorted inputs
-    eng = Engine(make_spec([MovementElement("M1", "plus", "com"), Resistor("R1", "plus", "com", 10.0),
+    eng = Engine(build(make_spec([MovementElement("M1", "plus", "com"), Resistor("R1", "plus", "com", 10.0),
                             Contact("S1", "plus", "com", ("P",))],
-                           [Position("P", "current", 1e-3, ("plus", "com"))]))
+                           [Position("P", "current", 1e-3, ("plus", "com"))])))
     with pytest.raises(ValueError):
         spice.netlist(eng, "P", "voltage", [1.0], None)
     col = spice.simulate(eng, "P", "voltage", [1.0, 2.0], None, 0.5)
@@ -178,9 +179,9 @@ def test_zener_breakdown_against_ngspice(t_k):
     # a zener across the movement: the reverse breakdown branch of the contract's law
     # (written into the deck as a behavioural source, ngspice's own BV model differing)
     z = DiodeModel("z", 1e-14, n=1.0, r_s_ohm=1.0, r_p_ohm=1e10, bv_v=5.6, ibv_a=1e-3)
-    eng = Engine(make_spec([Resistor("R1", "plus", "a", 1e3), MovementElement("M1", "a", "com"),
+    eng = Engine(build(make_spec([Resistor("R1", "plus", "a", 1e3), MovementElement("M1", "a", "com"),
                             Diode("D1", "com", "a", "z")],
-                           [Position("P", "voltage", 10.0, ("plus", "com"))], r_coil_ohm=2e3, diodes=[z]))
+                           [Position("P", "voltage", 10.0, ("plus", "com"))], r_coil_ohm=2e3, diodes=[z])))
     cases = [(eng, "P", "voltage", t_k, 0.0)]
     sweeps = [np.linspace(-1000.0, 1000.0, 401)]
     decks, results = run_cases(cases, sweeps)

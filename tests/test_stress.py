@@ -13,6 +13,7 @@ import pytest
 from scipy.special import wrightomega
 
 from planner import model as m
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import UsageError
 from planner.stress import (SHORT_OVERLOAD_S, SHORT_TIME_S, Stimulus, apply_stimulus, assess, cycle_stats,
@@ -295,7 +296,7 @@ def test_current_limit_turns_the_source_into_a_current_source():
     spec, rs2 = separate_ammeter(None)
     r_in = rs2 * 1e3 / (rs2 + 1e3)
     stim = Stimulus("bench", "voltage", 30.0, r_source_ohm=0.05, current_limit_a=0.5)
-    (case,) = assess(Engine(spec), "10 mA", [stim], with_parts=True)
+    (case,) = assess(Engine(build(spec)), "10 mA", [stim], with_parts=True)
     parts = {p["name"]: p for p in case["parts"]}
     np.testing.assert_allclose(parts["RS2"]["current_mean_a"] + parts["M1"]["current_mean_a"], 0.5, rtol=1e-12)
     np.testing.assert_allclose(parts["M1"]["voltage_mean_v"], 0.5 * r_in, rtol=1e-12)

@@ -27,6 +27,7 @@ from scipy.special import lambertw
 
 from conftest import VOLTMETER, make_spec
 from planner import cli, solve
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import SolveError
 from planner.model import DEFAULT_T_REF_K, Contact, Diode, DiodeModel, MovementElement, Position, Resistor
@@ -95,7 +96,7 @@ def _chain_engine(n_diodes=10):
     nodes = ["plus"] + [f"x{k}" for k in range(1, n_diodes)] + ["m_plus"]
     els = [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], "j") for k in range(n_diodes)]
     els.append(MovementElement("M1", "m_plus", "com"))
-    return Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=10.0, diodes=[d]))
+    return Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=10.0, diodes=[d])))
 
 
 @pytest.mark.parametrize("n_diodes", [2, 3, 10])
@@ -125,7 +126,7 @@ def test_clamp_pair_at_1000_volts():
     si = DiodeModel("si", 5e-9, n=1.9, r_s_ohm=0.5, r_p_ohm=1e9)
     els = [Resistor("R1", "plus", "m_plus", 198e3), MovementElement("M1", "m_plus", "com"),
            Diode("D1", "m_plus", "com", "si"), Diode("D2", "com", "m_plus", "si")]
-    eng = Engine(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[si]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[si])))
     volts = np.array([0.1, 10.0, 100.0, 1000.0, -1000.0])
     op = eng.operate("P", volts)
     got = op.node_voltage("m_plus")[0]
@@ -154,7 +155,7 @@ def test_diode_behind_a_resistor_at_1000_volts_matches_the_closed_form():
     d = DiodeModel("j", 1e-12, n=1.0)
     els = [Resistor("R1", "plus", "a", 1.0), Diode("D1", "a", "m_plus", "j"),
            MovementElement("M1", "m_plus", "com")]
-    eng = Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e-3, diodes=[d]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e-3, diodes=[d])))
     volts = np.array([0.5, 1.0, 10.0, 1000.0])
     got = eng.operate("P", volts).movement_current_a[0]
     r, nvt, i_s = 1.0 + 1e-3, VT, 1e-12
@@ -178,7 +179,7 @@ def test_microamp_movement_with_gigaohm_leakage():
     r_m = 5e3
     els = [Resistor("R1", "plus", "m_plus", 1e9 - r_m), MovementElement("M1", "m_plus", "com"),
            Diode("D1", "m_plus", "com", "lk"), Diode("D2", "com", "m_plus", "lk")]
-    eng = Engine(make_spec(els, [P(fs=1000.0)], i_fs_a=1e-6, r_coil_ohm=r_m, diodes=[lk]))
+    eng = Engine(build(make_spec(els, [P(fs=1000.0)], i_fs_a=1e-6, r_coil_ohm=r_m, diodes=[lk])))
     volts = np.array([1e-3, 1.0, 100.0, 1000.0])
     op = eng.operate("P", volts)
 
@@ -199,7 +200,7 @@ def test_zener_clamp_in_breakdown():
     z = DiodeModel("z", 1e-14, n=1.0, r_s_ohm=1.0, bv_v=5.6, ibv_a=1e-3)
     els = [Resistor("R1", "plus", "z", 1e3), Diode("Z1", "com", "z", "z"),
            Resistor("R2", "z", "m_plus", 100e3), MovementElement("M1", "m_plus", "com")]
-    eng = Engine(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=1e3, diodes=[z]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=1e3, diodes=[z])))
     volts = np.array([1.0, 5.0, 6.0, 10.0, 100.0, -10.0])
     op = eng.operate("P", volts)
 
@@ -225,7 +226,7 @@ def test_full_wave_bridge_a_loop_of_diode_ports():
     els = [Resistor("R1", "plus", "a", 500.0), Resistor("R2", "b", "com", 500.0),
            Diode("D1", "a", "p", "b"), Diode("D2", "b", "p", "b"), Diode("D3", "q", "a", "b"),
            Diode("D4", "q", "b", "b"), MovementElement("M1", "p", "q")]
-    eng = Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=100.0, diodes=[d]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=100.0, diodes=[d])))
     volts = np.array([1.0, 2.0, 10.0, 100.0])  # from 3 uA up: the blocking pair is below 1e-8 of it
     both = eng.operate("P", np.concatenate([volts, -volts])).movement_current_a[0]
 
@@ -247,7 +248,7 @@ def test_loops_of_ideal_contacts():
            Contact("S3", "t2", "plus", ("P", "Q")), Contact("S4", "t1", "t2", ("P",)),
            Resistor("R1", "t2", "m_plus", 9e3), Resistor("R2", "m_plus", "m2", 10e3),
            Contact("S5", "m_plus", "m2", ("P",)), MovementElement("M1", "m2", "com")]
-    eng = Engine(make_spec(els, [P("P"), P("Q")], i_fs_a=1e-3, r_coil_ohm=1e3))
+    eng = Engine(build(make_spec(els, [P("P"), P("Q")], i_fs_a=1e-3, r_coil_ohm=1e3)))
     got_p = eng.operate("P", [10.0]).movement_current_a[0, 0]
     got_q = eng.operate("Q", [10.0]).movement_current_a[0, 0]
     # Ohm's law: S5 shorts R2 on P only; tolerance: a few ulp of a linear solve
@@ -306,7 +307,7 @@ def test_near_singular_ladder(kind):
         prev = node
     els.append(MovementElement("M1", prev, "com"))
     branches.append((prev, "com", 1e3))
-    eng = Engine(make_spec(els, [P(kind=kind, fs=1.0)], i_fs_a=1e-3, r_coil_ohm=1e3))
+    eng = Engine(build(make_spec(els, [P(kind=kind, fs=1.0)], i_fs_a=1e-3, r_coil_ohm=1e3)))
     stim = 1.0 if kind == "voltage" else 1e-3
     op = eng.operate("P", [stim])
     exact = _exact_nodal(nodes, branches, "plus", held_v=stim if kind == "voltage" else None,
@@ -336,7 +337,7 @@ def _clamp_engine():
     els = [Resistor("R1", "plus", "m_plus", 198e3), MovementElement("M1", "m_plus", "com"),
            Diode("D1", "m_plus", "com", "si"), Diode("D2", "com", "m_plus", "si"),
            Diode("D3", "m_plus", "x", "si"), Resistor("R3", "x", "com", 50.0)]
-    return Engine(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[si]))
+    return Engine(build(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[si])))
 
 
 def _cripple_newton(monkeypatch, fails):
@@ -446,7 +447,7 @@ def test_full_node_arrays_respect_the_batch_memory_limit(monkeypatch):
     els += [Resistor("RIN", "plus", "n0", 1e3), MovementElement("M1", "n30", "com"),
             Diode("D1", "n30", "com", "si")]
     si = DiodeModel("si", 5e-9, n=1.9, r_s_ohm=0.5)
-    eng = Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[si]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[si])))
     monkeypatch.setattr(solve, "MAX_RESULT_FLOATS", 10_000)
     op = eng.operate("P", np.linspace(0, 10, 1000))  # 1000 cases x 5 held values: within the limit
     assert op.movement_current_a.shape == (1, 1000)  # one column at a time: fine

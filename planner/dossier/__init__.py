@@ -32,7 +32,11 @@ import re
 from pathlib import Path
 from typing import Callable
 
+from ..design import as_design
+from ..engine import Engine
 from ..errors import PlannerError, UsageError
+from .. import accuracy, faults
+from ..size import sizing_json
 from . import layout, sections
 from .sections import Context
 
@@ -66,14 +70,16 @@ def _date(spec, date) -> tuple[str, str]:
     return "undated", "project file (no date given: add 'date: YYYY-MM-DD')"
 
 
-def gather(spec, *, date=None, samples: int | None = None, seed: int | None = None,
+def gather(design, *, date=None, samples: int | None = None, seed: int | None = None,
            progress: Callable[[str], None] | None = None) -> Context:
-    """Run the analyses for a dossier; each failure is kept as text, never raised.
+    """Run the analyses of a dossier on one design; an analysis that fails is kept as text.
 
     Parameters
     ----------
-    spec : Spec
-        A loaded project.
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one, and a project whose network cannot be built or checked
+        raises here, as every command does).
     date : str or datetime.date, optional
         The dossier's date (YYYY-MM-DD); the project's ``date`` by default.
     samples, seed : int, optional
@@ -88,55 +94,31 @@ def gather(spec, *, date=None, samples: int | None = None, seed: int | None = No
     from .. import __version__
 
     say = progress or (lambda message: None)
+    design = as_design(design)
+    spec = design.spec
     text, source = _date(spec, date)
     sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
     ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
                   samples=int(spec.analysis.samples if samples is None else samples),
                   seed=int(spec.analysis.seed if seed is None else seed))
-
-    if spec.network is None:
-        say("dossier: sizing")
-        try:
-            from ..size import size, sizing_json
-
-            sizing = size(spec)
-            ctx.sizing = sizing_json(sizing)
-            ctx.net = sizing.network
-            ctx.cautions += list(ctx.sizing.get("cautions", []))
-        except Exception as exc:  # noqa: BLE001 - shown in the dossier
-            ctx.errors["sizing"] = _error_text(exc)
-            ctx.errors["network"] = "no network: the sizing failed (" + _error_text(exc) + ")"
-    else:
-        ctx.net = spec.network
-    if ctx.net is not None:
-        try:
-            from ..engine import Engine
-
-            ctx.engine = Engine(spec, net=ctx.net)
-        except Exception as exc:  # noqa: BLE001
-            ctx.errors["network"] = _error_text(exc)
+    ctx.net = design.net
+    ctx.engine = Engine(design)
+    if design.sizing is not None:
+        ctx.sizing = sizing_json(design.sizing)
+        ctx.cautions += list(ctx.sizing.get("cautions", []))
     say("dossier: accuracy check")
     try:
-        from ..accuracy import check_project
-
-        ctx.check = check_project(spec, samples=ctx.samples, seed=ctx.seed,
-                                  progress=(lambda m: say(f"dossier: check {m}")))
-    except Exception as exc:  # noqa: BLE001
+        ctx.check = accuracy.check_project(design, samples=ctx.samples, seed=ctx.seed,
+                                           progress=(lambda m: say(f"dossier: check {m}")))
+    except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["check"] = _error_text(exc)
     say("dossier: misrange faults")
     try:
-        from ..faults import faults_project
-
-        ctx.faults = faults_project(spec)
-    except Exception as exc:  # noqa: BLE001
+        ctx.faults = faults.faults_project(design)
+    except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["faults"] = _error_text(exc)
-    try:
-        from ..faults import cautions_for
-
-        extra = [c for c in cautions_for(spec) if c not in ctx.cautions]
-        ctx.cautions += extra
-    except Exception as exc:  # noqa: BLE001
-        ctx.errors["cautions"] = _error_text(exc)
+    extra = [c for c in faults.cautions_for(spec) if c not in ctx.cautions]
+    ctx.cautions += extra
     return ctx
 
 
@@ -194,15 +176,16 @@ def bom_csv(ctx: Context) -> str:
     return out.getvalue()
 
 
-def build_dossier(spec, out_path, *, date=None, csv: bool = True,
+def build_dossier(design, out_path, *, date=None, csv: bool = True,
                   progress: Callable[[str], None] | None = None, samples: int | None = None,
                   seed: int | None = None) -> Path:
     """Build the design dossier of a project and write it atomically.
 
     Parameters
     ----------
-    spec : Spec
-        A loaded project (:func:`planner.project.load`).
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec,
+        :func:`planner.project.load`, is built into one).
     out_path : str or path-like
         The PDF to write. The CSV bill of materials goes beside it (same stem,
         ``.csv``) when ``csv`` is true.
@@ -230,6 +213,8 @@ def build_dossier(spec, out_path, *, date=None, csv: bool = True,
     """
     from ..fsio import write_atomic
 
+    design = as_design(design)
+    spec = design.spec
     out = Path(out_path)
     protect = [spec.path] if getattr(spec, "path", None) else []
     if protect and out.exists() and _same(out, Path(spec.path)):
@@ -238,7 +223,7 @@ def build_dossier(spec, out_path, *, date=None, csv: bool = True,
     if csv and out.suffix.lower() == ".csv":
         raise UsageError(f"the dossier is a PDF and its bill of materials goes beside it as CSV; name the output "
                          f"{out.with_suffix('.pdf').name} instead of {out.name}")
-    ctx = gather(spec, date=date, samples=samples, seed=seed, progress=progress)
+    ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress)
     pdf = render(ctx, progress=progress)
     table_text = bom_csv(ctx) if csv else None
     write_atomic(out, pdf, protect=protect)

@@ -18,13 +18,13 @@ ROOT = Path(__file__).resolve().parents[2]
 
 def largest_example():
     """The example project with the most positions (ties: the larger file)."""
-    from planner.engine import resolve_network
+    from planner.design import build
     from planner.project import load
 
     best = None
     for path in sorted((ROOT / "projects").glob("*.yaml")):
         spec = load(str(path))
-        key = (len(resolve_network(spec).positions), path.stat().st_size)
+        key = (len(build(spec).net.positions), path.stat().st_size)
         if best is None or key > best[0]:
             best = (key, spec, path)
     return best[1], best[2]

@@ -12,7 +12,7 @@ One run, on one machine, with the two simulators taking turns inside each repeti
   +1000 V on the 10 V range (both clamp pairs conduct hard over most of the sweep):
   201 000 circuits.
 * **Deck B, the largest example**: ``projects/bench_multimeter.yaml`` through
-  :func:`planner.engine.resolve_network` (29 resistors, six diodes with two-diode
+  :func:`planner.design.build` (29 resistors, six diodes with two-diode
   stacks, a fuse, ten positions); the project's own toleranced parameters in 100
   builds (seed 1); 201 points per position over +/-1000 V (voltage ranges) or
   +/-5 A (current ranges): 201 000 circuits.
@@ -110,9 +110,10 @@ def meter_deck_spec():
 
 def deck_a(builds: int):
     """Engine and jobs of deck A: [(position, stimuli, factors)]."""
+    from planner.design import build
     from planner.engine import Engine
 
-    eng = Engine(meter_deck_spec())
+    eng = Engine(build(meter_deck_spec()))
     rng = np.random.default_rng(1)
     factors = {f"R{k}": 1.0 + 0.0025 * rng.uniform(-1.0, 1.0, builds) for k in range(1, 9)}
     return eng, [("10 V", np.linspace(-1000.0, 1000.0, 201), factors)]
@@ -121,10 +122,11 @@ def deck_a(builds: int):
 def deck_b(builds: int):
     """Engine and jobs of deck B: every position of the largest example, the project's tolerances."""
     from planner.accuracy import draw_factors, parameters
+    from planner.design import build
     from planner.engine import Engine
     from planner.project import load
 
-    eng = Engine(load(str(EXAMPLE)))
+    eng = Engine(build(load(str(EXAMPLE))))
     factors = draw_factors(parameters(eng), builds, np.random.default_rng(1))
     jobs = []
     for p in eng.positions:
@@ -442,9 +444,9 @@ def main(argv=None) -> int:
             ts = [timed(lambda: check_project(spec, samples=n))[0] for _ in range(repeat)]
             seconds.append(med(ts))
         exponent, a, b = fit_scaling(counts, seconds)
-        from planner.engine import resolve_network
+        from planner.design import build
 
-        positions = len(resolve_network(spec).positions)
+        positions = len(build(spec).net.positions)
         results["scaling"] = {"builds": counts, "check_in_process_s": seconds, "positions": positions,
                               "scaling_exponent": exponent, "fit_intercept_s": a, "fit_per_build_s": b,
                               "fit_per_build_position_s": b / max(positions, 1)}

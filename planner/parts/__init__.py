@@ -1,0 +1,20 @@
+"""Part kinds: one file per kind of network element (and its catalogue model).
+
+Each kind is a frozen dataclass mixing in :class:`Part` (see :mod:`.base` for the
+questions every part answers). :data:`KINDS` maps the project file's ``kind`` to
+the class. To add a kind, add a file here and register its class below (see the
+contributor guide, ``DEVELOPERS.md``).
+"""
+
+from .base import Parameter, Part
+from .contact import Contact
+from .diode import Diode, DiodeModel
+from .fuse import Fuse, FuseModel
+from .movement import MovementElement
+from .resistor import Resistor, ResistorParts
+
+#: Element classes by the project file's ``kind``.
+KINDS = {cls.kind: cls for cls in (Resistor, MovementElement, Diode, Contact, Fuse)}
+
+__all__ = ["Part", "Parameter", "KINDS", "Resistor", "ResistorParts", "MovementElement", "Diode", "DiodeModel",
+           "Contact", "Fuse", "FuseModel"]

@@ -1,0 +1,48 @@
+"""Switch contacts: closed in a named set of positions, with a contact resistance.
+
+A contact is a resistor of its contact resistance in the positions that close it
+and absent otherwise (design contract); a closed contact of zero resistance joins
+its two nodes into one, so it adds no stiff conductance to the solver.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import ClassVar
+
+import numpy as np
+
+from ..tools import quantity, yaml_string
+from .base import Part
+
+
+@dataclass(frozen=True)
+class Contact(Part):
+    """A switch contact, closed in the positions named in ``closed_in``."""
+
+    name: str
+    a: str
+    b: str
+    closed_in: tuple[str, ...]
+    r_ohm: float = 0.0
+    line: int | None = None
+
+    kind: ClassVar[str] = "contact"
+    stamp: ClassVar[str] = "switch"
+    symbol: ClassVar[str] = "contact"
+    rated: ClassVar[bool] = False
+
+    def present(self, closed: frozenset) -> bool:
+        return self.name in closed
+
+    def merges(self, closed: frozenset) -> bool:
+        return self.name in closed and self.r_ohm == 0.0
+
+    def resistance(self, spec, dt_k) -> np.ndarray:
+        """Its contact resistance, independent of temperature [ohm]."""
+        return self.r_ohm + 0.0 * dt_k
+
+    def yaml(self) -> str:
+        closed = ", ".join(yaml_string(c) for c in self.closed_in)
+        extra = f", resistance: {quantity(self.r_ohm, 'ohm')}" if self.r_ohm else ""
+        return f"{{name: {self.name}, kind: contact, between: [{self.a}, {self.b}], closed_in: [{closed}]{extra}}}"

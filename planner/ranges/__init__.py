@@ -1,0 +1,24 @@
+"""Range kinds: one file per kind of switch position (what it measures).
+
+:data:`KINDS` maps a position's ``measures`` to its :class:`RangeKind`;
+:func:`of` looks one up. To add a kind, add a file here and register it below
+(see the contributor guide, ``DEVELOPERS.md``).
+"""
+
+from .base import RangeKind
+from .dc_current import DCCurrent
+from .dc_voltage import DCVoltage
+
+#: Range kinds by a position's ``measures``.
+KINDS = {k.measures: k for k in (DCVoltage(), DCCurrent())}
+
+
+def of(measures: str) -> RangeKind:
+    """The range kind of a position's ``measures`` (``voltage``, ``current``)."""
+    try:
+        return KINDS[measures]
+    except KeyError:
+        raise ValueError(f"no range kind measures {measures!r}; known: {', '.join(KINDS)}") from None
+
+
+__all__ = ["RangeKind", "KINDS", "of", "DCVoltage", "DCCurrent"]
