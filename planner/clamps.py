@@ -1915,7 +1915,7 @@ def write_protected(spec: Spec, result: dict, out_path) -> str:
     result : dict
         What :func:`protect_project` returned.
     out_path : str or path-like
-        Where to write; never the project file itself.
+        Where to write (``-``: standard output); never the project file itself.
 
     Returns
     -------
@@ -1932,9 +1932,9 @@ def write_protected(spec: Spec, result: dict, out_path) -> str:
     -----
     The text is loaded and validated (:func:`planner.project.loads`, the graph
     checks; for a sized project the sizer runs on it) before it is written,
-    through :func:`planner.fsio.write_atomic`.
+    through :func:`planner.fsio.emit` (atomically to a file, or to standard output).
     """
-    from .fsio import write_atomic
+    from .fsio import emit
     from .project import loads
 
     text = protected_text(spec, result)
@@ -1945,5 +1945,5 @@ def write_protected(spec: Spec, result: dict, out_path) -> str:
         from .size import size
 
         size(back)
-    write_atomic(out_path, text, protect=[spec.path] if spec.path else [])
+    emit(out_path, text, protect=[spec.path] if spec.path else [])
     return text

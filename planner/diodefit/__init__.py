@@ -29,6 +29,7 @@ points), :mod:`.quality` (the gate), :mod:`.result` (:class:`Fit`),
 
 from __future__ import annotations
 
+from . import quality
 from .fitting import _Problem, fit
 from .junction import diode_current
 from .params import COLUMNS, DEFAULT_EG_EV, DEFAULT_XTI, MAX_POINTS_BYTES

@@ -17,6 +17,22 @@ DEFAULT_XTI = 3.0
 COLUMNS = ("voltage_v", "current_a", "temperature_c")
 #: Largest points file accepted [bytes] (5 MB, as for a project file).
 MAX_POINTS_BYTES = 5_000_000
+#: Largest |voltage| of a measured point [V]: 10 kV covers the reverse test of a
+#: high-voltage rectifier stack; more is a typing error (a unit or an exponent).
+MAX_VOLTAGE_V = 10e3
+#: Smallest nonzero |voltage| of a measured point [V]: 1 nV, below what a bench meter
+#: resolves (common practice: a 6 1/2 digit meter resolves about 100 nV); 0 is allowed
+#: (such points are left out of the fit).
+MIN_VOLTAGE_V = 1e-9
+#: Largest |current| of a measured point [A]: 1 kA covers a stud rectifier's surge.
+MAX_CURRENT_A = 1e3
+#: Smallest nonzero |current| of a measured point [A]: 1e-18 A (an aA), below what any
+#: electrometer resolves (from memory: about 1e-16 A for the best); 0 means "below
+#: the meter's resolution" and is allowed.
+MIN_CURRENT_A = 1e-18
+#: Temperature range of a measurement [degC]: above absolute zero, at most 500 degC
+#: (no junction works there; a larger number is a unit or typing error).
+MAX_TEMPERATURE_C = 500.0
 
 #: Order of the internal parameter vector.
 _KEYS = (

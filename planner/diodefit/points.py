@@ -11,7 +11,8 @@ import numpy as np
 
 from ..errors import ProjectError
 from ..model import ZERO_CELSIUS_K
-from .params import COLUMNS, MAX_POINTS_BYTES
+from .params import (COLUMNS, MAX_CURRENT_A, MAX_POINTS_BYTES, MAX_TEMPERATURE_C, MAX_VOLTAGE_V,
+                     MIN_CURRENT_A, MIN_VOLTAGE_V)
 
 @dataclass(frozen=True)
 class Points:
@@ -76,8 +77,8 @@ def read_points(path) -> Points:
     ------
     ProjectError
         For a missing or unreadable file, a missing or wrong header, a row with
-        the wrong number of cells, a cell that is not a finite number, a
-        temperature below absolute zero, or no points at all. The message names
+        the wrong number of cells, a cell that is not a finite number, a value
+        no diode measurement gives (see :func:`check_value`), or no points at all. The message names
         the file and line and says what to write instead.
     """
     path = str(path)
@@ -138,13 +139,7 @@ def read_points(path) -> Points:
                 raise ProjectError(
                     f"{name}: {what}; write a plain number in {_column_unit(name)} "
                     f"(e.g. {_column_example(name)}), no unit text", path, number) from None
-            if not math.isfinite(value):
-                raise ProjectError(f"{name}: '{cell}' is not a finite number; give a measured value",
-                                   path, number)
-            if name == "temperature_c" and value <= -ZERO_CELSIUS_K:
-                raise ProjectError(
-                    f"temperature_c: {cell} degC is at or below absolute zero; give the temperature in "
-                    "degrees Celsius", path, number)
+            check_value(name, value, path, number, cell)
             data[name][k] = value
     temps = data.get("temperature_c")
     return Points(
@@ -155,6 +150,74 @@ def read_points(path) -> Points:
         path=path,
         header_line=header_line,
     )
+
+
+def check_value(name: str, value: float, path: str | None, line: int | None, cell: str | None = None) -> None:
+    """Refuse a measured value no bench measurement of a diode can give.
+
+    Parameters
+    ----------
+    name : str
+        The column: ``voltage_v`` [V], ``current_a`` [A] or ``temperature_c`` [degC].
+    value : float
+        The value in that unit.
+    path : str or None
+        The points file, for the message.
+    line : int or None
+        The 1-based line, for the message.
+    cell : str, optional
+        The text of the cell as written (default: the value).
+
+    Raises
+    ------
+    ProjectError
+        For a value that is not finite, a voltage beyond ``MAX_VOLTAGE_V`` or
+        nonzero below ``MIN_VOLTAGE_V``, a
+        current beyond ``MAX_CURRENT_A`` or nonzero below ``MIN_CURRENT_A``, or a
+        temperature at or below absolute zero or above ``MAX_TEMPERATURE_C``. The
+        message names the column and says what to check (units, exponent).
+    """
+    text = cell if cell is not None else f"{value:g}"
+    if not math.isfinite(value):
+        raise ProjectError(f"{name}: '{text}' is not a finite number; give a measured value", path, line)
+    if name == "voltage_v" and abs(value) > MAX_VOLTAGE_V:
+        raise ProjectError(
+            f"voltage_v: {text} V is beyond the {MAX_VOLTAGE_V:g} V a diode measurement reaches; write the "
+            "voltage in volts (0.652, not 652) and check the exponent", path, line)
+    if name == "voltage_v" and value != 0.0 and abs(value) < MIN_VOLTAGE_V:
+        raise ProjectError(
+            f"voltage_v: {text} V is below the {MIN_VOLTAGE_V:g} V any meter resolves; check the exponent, "
+            "or write 0 for a reading below the meter's resolution", path, line)
+    if name == "current_a" and abs(value) > MAX_CURRENT_A:
+        raise ProjectError(
+            f"current_a: {text} A is beyond the {MAX_CURRENT_A:g} A a diode measurement reaches; write the "
+            "current in amperes (1.5e-3 for 1.5 mA) and check the exponent", path, line)
+    if name == "current_a" and value != 0.0 and abs(value) < MIN_CURRENT_A:
+        raise ProjectError(
+            f"current_a: {text} A is below the {MIN_CURRENT_A:g} A any meter resolves; check the exponent, "
+            "or write 0 for a reading below the meter's resolution", path, line)
+    if name == "temperature_c" and value <= -ZERO_CELSIUS_K:
+        raise ProjectError(
+            f"temperature_c: {text} degC is at or below absolute zero; give the temperature in "
+            "degrees Celsius", path, line)
+    if name == "temperature_c" and value > MAX_TEMPERATURE_C:
+        raise ProjectError(
+            f"temperature_c: {text} degC is above the {MAX_TEMPERATURE_C:g} degC at which any junction "
+            "still works; give the temperature in degrees Celsius", path, line)
+
+
+def check_values(name: str, values: np.ndarray, path: str | None, lines) -> None:
+    """:func:`check_value` on a whole column; raises for its first bad value."""
+    x = np.asarray(values, dtype=float)
+    with np.errstate(invalid="ignore"):
+        if name == "voltage_v":
+            bad = ~(np.abs(x) <= MAX_VOLTAGE_V) | ((x != 0.0) & (np.abs(x) < MIN_VOLTAGE_V))
+        elif name == "current_a":
+            bad = ~(np.abs(x) <= MAX_CURRENT_A) | ((x != 0.0) & (np.abs(x) < MIN_CURRENT_A))
+        else:
+            bad = ~((x > -ZERO_CELSIUS_K) & (x <= MAX_TEMPERATURE_C))
+    for k in np.flatnonzero(bad):
+        check_value(name, float(x[k]), path, int(lines[k]))
 
 
 def _column_unit(name: str) -> str:

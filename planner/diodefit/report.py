@@ -19,8 +19,10 @@ def fit_json(f: Fit) -> dict:
     same keys, plus ``band_gap_ev`` and ``xti`` when fitted; null for a value the
     data do not determine), ``residual_rms``, ``n_points``. Also ``band_gap_ev``,
     ``xti``, ``temperature_k``, ``temperatures_k``, ``residual_max``, ``fitted``,
-    ``unresolved``, ``notes``, ``yaml``. A leakage resistance the points do not
-    show is null (no leakage); an unresolved series resistance is 0.
+    ``unresolved``, ``notes``, ``yaml``, ``usable`` and ``problems``. A leakage
+    resistance the points do not show is null (no leakage); an unresolved series
+    resistance is 0. A fit that failed the quality gate has ``usable`` false,
+    its reasons in ``problems`` and ``yaml`` null.
     """
     keys = _KEYS[:4] + tuple(k for k in _KEYS[4:] if k in f.fitted)
     out = {"name": f.name}
@@ -38,7 +40,9 @@ def fit_json(f: Fit) -> dict:
         "fitted": list(f.fitted),
         "unresolved": list(f.unresolved),
         "notes": list(f.notes),
-        "yaml": yaml_block(f),
+        "usable": f.usable,
+        "problems": list(f.problems),
+        "yaml": yaml_block(f) if f.usable else None,
     })
     return out
 
@@ -71,8 +75,16 @@ def yaml_block(f: Fit, name: str | None = None) -> str:
         A series resistance the data do not resolve is written as ``0 ohm``; an
         unresolved leakage resistance and a band gap / XTI that were not fitted are
         left out (the model's defaults apply), with a comment saying so.
+
+    Raises
+    ------
+    UsageError
+        For a fit that is not usable (``f.problems``): there is no model to
+        paste; or for a name that is not a plain name.
     """
     name = name or f.name
+    if not f.usable:
+        raise UsageError(f"the fit is not usable: {f.problems[0]}")
     if not _NAME_RE.match(name):
         raise UsageError(f"model name {name!r} is not a plain name; use letters, digits and '_'")
     src = f.path.rsplit("/", 1)[-1] if f.path else "measured points"
@@ -110,7 +122,7 @@ def yaml_block(f: Fit, name: str | None = None) -> str:
 
 
 def format_fit(f: Fit) -> str:
-    """A readable report of the fit followed by the YAML block."""
+    """A readable report of the fit followed by the YAML block (or, for a fit that is not usable, its problems)."""
     src = f.path or "measured points"
     t_text = ", ".join(_celsius(x) for x in f.temperatures)
     out = [
@@ -151,5 +163,9 @@ def format_fit(f: Fit) -> str:
         out.append(f"  reverse and near-zero points on the asinh scale, floor {floor}")
     for note in f.notes:
         out.append(f"  note: {note}")
+    if not f.usable:
+        out += ["", "NOT USABLE: the points do not follow the diode law; no model to paste."]
+        out += [f"  - {p}" for p in f.problems]
+        return "\n".join(out) + "\n"
     out += ["", yaml_block(f).rstrip("\n")]
     return "\n".join(out) + "\n"

@@ -53,6 +53,9 @@ class Fit:
         Remarks for the reader (held parameters, assumed temperature, ...).
     path : str or None
         The points file.
+    problems : tuple of str
+        Why the fit is not usable (:func:`planner.diodefit.quality.problems`):
+        the points do not follow the diode law. Empty for a usable fit.
     """
 
     name: str
@@ -72,6 +75,12 @@ class Fit:
     correlation: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
     notes: tuple = ()
     path: str | None = None
+    problems: tuple = ()
+
+    @property
+    def usable(self) -> bool:
+        """Whether the fit passed the quality gate (a model one may paste)."""
+        return not self.problems
 
     def model(self, name: str | None = None) -> DiodeModel:
         """The fit as a :class:`planner.model.DiodeModel` (ratings left at their defaults)."""
