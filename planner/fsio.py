@@ -17,7 +17,9 @@ module. Four rules:
   meant unchanged and silently turn the link into a copy; writing through is what
   the shell's ``>`` does. A link that points nowhere (dangling) or to something
   other than a regular file is refused, so a link cannot make the planner create a
-  file somewhere the user did not look.
+  file somewhere the user did not look. A target with other hard links is replaced
+  by a new file under the name given; its other names keep the old content (an
+  input is never among them: ``protect`` compares files, not names).
 * **Several outputs are one act** (:func:`write_all`): every target is checked
   first (kind, not an input, folder exists, targets distinct, also through links),
   every file's data is written to its temporary file and flushed, and only then are
