@@ -1922,7 +1922,7 @@ def write_protected(design: Design | Spec, result: dict, out_path) -> str:
     result : dict
         What :func:`protect_project` returned.
     out_path : str or path-like
-        Where to write; never the project file itself.
+        Where to write (``-``: standard output); never the project file itself.
 
     Returns
     -------
@@ -1939,14 +1939,14 @@ def write_protected(design: Design | Spec, result: dict, out_path) -> str:
     -----
     The text is loaded and validated (:func:`planner.project.loads`, the graph
     checks; for a sized project the sizer runs on it) before it is written,
-    through :func:`planner.fsio.write_atomic`.
+    through :func:`planner.fsio.emit` (atomically to a file, or to standard output).
     """
-    from .fsio import write_atomic
+    from .fsio import emit
     from .project import loads
 
     design = as_design(design)
     spec = design.spec
     text = protected_text(design, result)
     build(loads(text, str(out_path)))  # sizes and checks it as any command would
-    write_atomic(out_path, text, protect=[spec.path] if spec.path else [])
+    emit(out_path, text, protect=[spec.path] if spec.path else [])
     return text

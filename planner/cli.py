@@ -98,23 +98,21 @@ def _quantity(text: str, dimension: str, option: str) -> float:
         raise UsageError(f"{option}: {' '.join(str(exc).split())}") from None
 
 
-def _check_output(path: str, project: str) -> None:
-    """Refuse an output path early (before any computing): the input itself, or a missing folder.
+def _check_output(path: str, project: str, args=None) -> None:
+    """Refuse an output early (before any computing): see :func:`planner.fsio.check_target`.
 
-    :func:`planner.fsio.write_atomic` checks both again when it writes.
+    ``-`` is standard output (written with :func:`planner.fsio.emit`); it cannot
+    share stdout with ``--json``. The writer checks the file again when it writes.
     """
-    import os
-
     from .errors import UsageError
-    from .fsio import _same_file
+    from .fsio import STDOUT, check_target
 
-    if _same_file(path, project):
-        raise UsageError(f"{path}: refusing to overwrite the input file {project}; choose another output path")
-    folder = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(folder):
-        raise UsageError(f"{path}: the folder {folder} does not exist; create it or choose another output path")
-    if os.path.isdir(path):
-        raise UsageError(f"{path}: is a folder; give a file name for the output")
+    if path == STDOUT:
+        if args is not None and getattr(args, "json", False):
+            raise UsageError("--json and an output to standard output ('-') cannot share stdout; "
+                             "write the output to a file, or drop --json")
+        return
+    check_target(path, protect=[project])
 
 
 def _cautions_tail(result: dict) -> str:
@@ -129,16 +127,18 @@ def _cautions_tail(result: dict) -> str:
 
 def cmd_size(args) -> int:
     if args.write_network:
-        _check_output(args.write_network, args.project)
+        _check_output(args.write_network, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .fsio import write_atomic
+    from .fsio import emit
     from .size import format_sizing_table, network_yaml, size, sizing_json
 
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)
     if args.write_network:
-        write_atomic(args.write_network, network_yaml(spec, sizing), protect=[args.project])
-        print(f"wrote {args.write_network}", file=sys.stderr)
+        if emit(args.write_network, network_yaml(spec, sizing), protect=[args.project]):
+            print(f"wrote {args.write_network}", file=sys.stderr)
+        else:  # '-': stdout carries the network alone
+            return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
     _emit(args, result, format_sizing_table(sizing))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 
@@ -207,22 +207,23 @@ def cmd_apply(args) -> int:
 def cmd_dossier(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .dossier import build_dossier
+    from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
-    _check_output(out, args.project)
+    check_targets([out] + ([args.bom] if args.bom else []), protect=[args.project])
     design = _design(spec)
     show = _progress(args)
     try:
-        path = build_dossier(design, out, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
     finally:
         _end_progress(show)
-    print(f"wrote {path}", file=sys.stderr)
+    print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
     return EXIT_OK
 
 
 def cmd_protect(args) -> int:
     if args.write:
-        _check_output(args.write, args.project)
+        _check_output(args.write, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .clamps import format_protect, protect_project, write_protected
 
@@ -241,6 +242,8 @@ def cmd_protect(args) -> int:
         _end_progress(show)
     if args.write:
         write_protected(design, result, args.write)
+        if args.write == "-":  # stdout carries the project alone
+            return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
         print(f"wrote {args.write}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
@@ -248,12 +251,21 @@ def cmd_protect(args) -> int:
 
 def cmd_fit_diode(args) -> int:
     from .diodefit import fit, fit_json, format_fit, read_points
+    from .model import ZERO_CELSIUS_K
 
     temp = None
     if args.temperature is not None:
-        temp = _quantity(args.temperature, "temperature", "--temperature")
+        try:
+            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC, as in the CSV
+        except ValueError:
+            temp = _quantity(args.temperature, "temperature", "--temperature")
     result = fit(read_points(args.points), name=args.name, temperature_k=temp, xti=args.xti)
     _emit(args, fit_json(result), format_fit(result))
+    if not result.usable:  # a verdict: the points are not a diode's; no model to paste
+        more = len(result.problems) - 1
+        tail = f" ({more} more reason{'s' if more > 1 else ''} in the report)" if more else ""
+        print(f"planner: {args.points}: the fit is not usable: {result.problems[0]}{tail}", file=sys.stderr)
+        return EXIT_SHORT
     return EXIT_OK
 
 
@@ -283,7 +295,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     sp = sub.add_parser("size", help="synthesize multipliers and shunts from standard values")
     common(sp)
-    sp.add_argument("--write-network", metavar="OUT.yaml", help="write the sized network as an editable project file")
+    sp.add_argument("--write-network", metavar="OUT.yaml",
+                    help="write the sized network as an editable project file ('-': to stdout, instead of the table)")
     sp.set_defaults(func=cmd_size)
 
     sp = sub.add_parser("check", help="accuracy per position: nominal, linearity, tolerance, temperature, loading")
@@ -312,9 +325,10 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")
     sp.set_defaults(func=cmd_apply)
 
-    sp = sub.add_parser("dossier", help="write the PDF design dossier (and the BOM as CSV beside it)")
+    sp = sub.add_parser("dossier", help="write the PDF design dossier (and, with --bom, the BOM as CSV)")
     common(sp, json_flag=False)
     sp.add_argument("-o", "--output", metavar="OUT.pdf", help="output file (default: <project>-dossier.pdf)")
+    sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
     sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
@@ -325,7 +339,8 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--share", metavar="S", help="share of the class the clamps may cost in linearity (default 0.25)")
     sp.add_argument("--seed", type=int, help="seed of the search (default from the file)")
     sp.add_argument("--max-candidates", type=int, default=2000, metavar="N", help="bound on candidates (default 2000)")
-    sp.add_argument("-o", "--write", metavar="OUT.yaml", help="write the project with the chosen placement")
+    sp.add_argument("-o", "--write", metavar="OUT.yaml",
+                    help="write the project with the chosen placement ('-': to stdout, instead of the table)")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_protect)
 
@@ -333,11 +348,35 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("points", metavar="POINTS.csv", help="CSV with header voltage_v,current_a[,temperature_c]")
     sp.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
     sp.add_argument("--name", default="fitted", help="model name for the YAML block (default: fitted)")
-    sp.add_argument("--temperature", metavar="T", help="temperature of points without a temperature column")
+    sp.add_argument("--temperature", metavar="T",
+                    help="temperature of points without a temperature column, degC as a bare number or with a unit")
     sp.add_argument("--xti", type=float, help="hold the saturation-current temperature exponent at this value")
     sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
     sp.set_defaults(func=cmd_fit_diode)
     return p
+
+
+def _log_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Send a Python warning to the log (shown with -v) instead of the terminal."""
+    import logging
+
+    logging.getLogger("planner.warnings").info("%s:%s: %s: %s", filename, lineno, category.__name__, message)
+
+
+def _run(args) -> int:
+    """Run a subcommand with warnings sent to the log.
+
+    The numeric core guards its own floating-point edge cases with local
+    ``np.errstate``; a numpy ``RuntimeWarning`` that still escapes (an overflow the
+    code then handles) must not print source lines on the terminal, so every
+    warning of the command goes to the ``planner.warnings`` log, which ``-v``
+    shows. Filters set from outside (``python -W error``) still apply.
+    """
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.showwarning = _log_warning
+        return args.func(args)
 
 
 def main(argv=None) -> int:
@@ -353,7 +392,7 @@ def main(argv=None) -> int:
     from .errors import PlannerError
 
     try:
-        return args.func(args)
+        return _run(args)
     except PlannerError as exc:
         print(f"planner: {exc.one_line()}", file=sys.stderr)
         return exc.exit_code

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import math
+import warnings
 
 import numpy as np
 import pytest
@@ -311,6 +312,13 @@ GOOD = "voltage_v,current_a\n0.3,1e-7\n0.4,1e-6\n0.5,1e-5\n0.6,1e-4\n0.7,1e-3\n0
     ("voltage_v,current_a\n0.3,1 uA\n", 2, "no unit text"),
     ("voltage_v,current_a,temperature_c\n0.3,1e-7,23\n0.4,1e-6,-300\n", 3, "absolute zero"),
     ("voltage_v,current_a,temperature_c\n0.3,1e-7,23\n0.4,1e-6,\n", 3, "blank"),
+    # values no bench measurement of a diode gives: a unit or an exponent typed wrong
+    ("voltage_v,current_a\n0.3,1e-7\n1e6,1e-3\n", 3, "1e6 V is beyond the 10000 V"),
+    ("voltage_v,current_a\n0.3,1e-7\n0.7,1e300\n", 3, "1e300 A is beyond the 1000 A"),
+    ("voltage_v,current_a\n0.3,1e-7\n0.7,-2e3\n", 3, "-2e3 A is beyond"),
+    ("voltage_v,current_a\n0.3,1e-300\n", 2, "below the 1e-18 A any meter resolves"),
+    ("voltage_v,current_a\n1e-300,1e-7\n", 2, "below the 1e-09 V any meter resolves"),
+    ("voltage_v,current_a,temperature_c\n0.3,1e-7,23\n0.4,1e-6,1e9\n", 3, "above the 500 degC"),
 ])
 def test_bad_files_name_the_line_and_the_remedy(tmp_path, text, line, words):
     path = _write(tmp_path, text)
@@ -346,6 +354,92 @@ def test_unfittable_points_name_the_line_and_the_remedy(tmp_path, text, line, wo
     assert err.value.path == str(path)
     assert err.value.line == line
     assert words in err.value.message
+
+
+def test_values_at_the_limits_fit_without_warnings(tmp_path):
+    # the largest and smallest values read_points accepts must reach the fit's verdict without
+    # an overflow: an error (or a verdict), never a numpy warning or a crash
+    text = ("voltage_v,current_a\n1e4,1e3\n-1e4,-1e3\n0.5,1e-18\n0.6,1e-9\n0.7,1e-3\n1e-9,0\n"
+            "0.65,1e-6\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fit = df.fit(df.read_points(_write(tmp_path, text)))
+    assert not fit.usable  # these points follow no diode law
+
+
+def test_points_made_in_code_are_checked_like_the_file():
+    v, i = make_points(3e-9, 1.85, 0.7, 2e9, forward_grid(3e-9, 1.85))
+    i = i.copy()
+    i[4] = 1e300
+    with pytest.raises(ProjectError, match="current_a: 1e\\+300 A is beyond the 1000 A") as err:
+        df.fit(df.Points(v, i))
+    assert err.value.line == 5  # the default line numbers count the points from 1
+
+
+@pytest.mark.parametrize("xti", [math.nan, math.inf, -math.inf, -1.0, 20.5, "three"])
+def test_a_held_xti_must_be_a_number_from_0_to_20(xti):
+    v, i = make_points(3e-9, 1.85, 0.7, 2e9, forward_grid(3e-9, 1.85))
+    with pytest.raises(UsageError, match="--xti: .* give a number from 0 to 20"):
+        df.fit(df.Points(v, i), xti=xti)
+
+
+@pytest.mark.parametrize("t_k", [0.0, -5.0, math.nan, math.inf, 1e9])
+def test_a_measurement_temperature_must_be_plausible(t_k):
+    v, i = make_points(3e-9, 1.85, 0.7, 2e9, forward_grid(3e-9, 1.85))
+    with pytest.raises(UsageError, match="--temperature: .* is not a measurement temperature"):
+        df.fit(df.Points(v, i), temperature_k=t_k)
+
+
+# --- the quality gate ----------------------------------------------------------------------
+
+
+def test_shuffled_points_are_not_usable():
+    # the Shockley law makes the current rise monotonically with the voltage (W. Shockley,
+    # Bell System Technical Journal 28, 1949): currents shuffled against their voltages
+    # cannot follow it, whatever the parameters
+    v, i = make_points(3e-9, 1.85, 0.7, 2e9, forward_grid(3e-9, 1.85))
+    i = i[np.random.default_rng(3).permutation(i.size)]
+    fit = df.fit(df.Points(v, i, path="bench/mixed.csv"))
+    assert not fit.usable and fit.problems
+    out = df.fit_json(fit)
+    assert out["usable"] is False and out["yaml"] is None and out["problems"] == list(fit.problems)
+    json.dumps(out, allow_nan=False)
+    text = df.format_fit(fit)
+    assert "NOT USABLE" in text and "saturation_current:" not in text
+    with pytest.raises(UsageError, match="the fit is not usable"):
+        df.yaml_block(fit)
+
+
+def test_a_resistor_is_not_a_diode():
+    # Ohm's law, I = V / 100 ohm: the junction carries none of the current
+    v = np.linspace(0.1, 0.6, 6)
+    fit = df.fit(df.Points(v, v / 100.0))
+    assert not fit.usable
+    assert any("resistor of about 100 ohm" in p for p in fit.problems)
+
+
+def test_scatter_beyond_the_gate_is_not_usable_below_it_is():
+    # multiplicative scatter exp(s N(0,1)) of rms s on the ln scale (seeded): 15 % passes, 60 % fails;
+    # the gate is rms 0.25 on the ln scale, exp(0.25) - 1 = 28 % of current
+    v, i = make_points(3e-9, 1.85, 0.7, 2e9, forward_grid(3e-9, 1.85, count=35))
+    noise = np.random.default_rng(5).standard_normal(i.size)
+    ok = df.fit(df.Points(v, i * np.exp(0.15 * noise)))
+    assert ok.usable and ok.residual_rms < df.quality.MAX_RMS
+    bad = df.fit(df.Points(v, i * np.exp(0.6 * noise)))
+    assert not bad.usable and any("scatter about the best fit" in p for p in bad.problems)
+    np.testing.assert_allclose(math.expm1(df.quality.MAX_RMS), 0.284, atol=5e-4)  # the documented 28 %
+
+
+def test_the_gate_names_pinned_parameters_and_low_emission():
+    from planner.diodefit import quality
+
+    msgs = quality.problems({"emission": 10.0}, {"emission": "upper", "series_resistance_ohm": "lower"}, 0.01, [3])
+    assert len(msgs) == 1 and "emission coefficient ended on its search bound" in msgs[0]
+    # none: R_s at its lower bound and R_p at its upper bound mean "not shown", an ordinary outcome
+    assert quality.problems({"emission": 1.8}, {"series_resistance_ohm": "lower",
+                                                "leakage_resistance_ohm": "upper"}, 0.01, [3]) == ()
+    # an ideal junction has n = 1 (Shockley 1949): 0.5 is no junction's
+    assert "below any junction's" in quality.problems({"emission": 0.5}, {}, 0.01, [3])[0]
 
 
 def test_missing_file_is_a_project_error(tmp_path):

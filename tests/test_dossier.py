@@ -52,8 +52,8 @@ def built(tmp_path_factory):
         if stem not in _BUILT:
             spec = load(ROOT / "projects" / f"{stem}.yaml")
             folder = tmp_path_factory.mktemp(stem)
-            pdf = build_dossier(spec, folder / f"{stem}.pdf", samples=SAMPLES)
-            _BUILT[stem] = (spec, pdf, pdf.with_suffix(".csv"), _designators(spec))
+            pdf = build_dossier(spec, folder / f"{stem}.pdf", bom_path=folder / f"{stem}-bom.csv", samples=SAMPLES)
+            _BUILT[stem] = (spec, pdf, folder / f"{stem}-bom.csv", _designators(spec))
         return _BUILT[stem]
 
     yield get
@@ -134,9 +134,9 @@ def test_every_page_renders_and_none_is_blank(built, stem, tmp_path):
 
 
 @pytest.mark.parametrize("stem", STEMS)
-def test_bom_csv_beside_pdf_lists_every_element(built, stem):
+def test_bom_csv_lists_every_element(built, stem):
     spec, pdf, csv_path, designators = built(stem)
-    assert csv_path.exists() and csv_path.stem == pdf.stem
+    assert csv_path.exists() and sorted(p.name for p in pdf.parent.iterdir()) == sorted([pdf.name, csv_path.name])
     rows = list(csv.DictReader(io.StringIO(csv_path.read_text(encoding="utf-8"))))
     assert sorted(r["designator"] for r in rows) == sorted(designators)
     for r in rows:
@@ -150,10 +150,10 @@ def test_two_builds_are_byte_identical(tmp_path):
     import sys
 
     for path in [ROOT / "projects" / "bench_ammeter.yaml"]:
-        a = build_dossier(load(path), tmp_path / "a.pdf", samples=SAMPLES).read_bytes()
+        a = build_dossier(load(path), tmp_path / "a.pdf", bom_path=tmp_path / "a.csv", samples=SAMPLES).read_bytes()
         # the second build in a fresh interpreter with another hash seed (set and dict orders differ)
         code = ("import sys; from planner.project import load; from planner.dossier import build_dossier; "
-                f"build_dossier(load(sys.argv[1]), sys.argv[2], samples={SAMPLES})")
+                f"build_dossier(load(sys.argv[1]), sys.argv[2], bom_path=sys.argv[2][:-4] + '.csv', samples={SAMPLES})")
         env = dict(os.environ, PYTHONHASHSEED="12345")
         subprocess.run([sys.executable, "-c", code, str(path), str(tmp_path / "b.pdf")], check=True, env=env,
                        cwd=ROOT)
@@ -163,10 +163,10 @@ def test_two_builds_are_byte_identical(tmp_path):
 
 def test_date_comes_from_the_argument_or_the_project(tmp_path):
     spec = load(ROOT / "projects" / "bench_ammeter.yaml")
-    pdf = build_dossier(spec, tmp_path / "d.pdf", date="2031-02-03", csv=False, samples=20)
+    pdf = build_dossier(spec, tmp_path / "d.pdf", date="2031-02-03", samples=20)
     text = _norm("\n".join(p.extract_text() for p in PdfReader(str(pdf)).pages[:1]))
     assert "2031-02-03" in text and spec.date not in text
-    assert not (tmp_path / "d.csv").exists()
+    assert not (tmp_path / "d.csv").exists()  # the CSV only when named
     with pytest.raises(UsageError):
         build_dossier(spec, tmp_path / "e.pdf", date="03/02/2031", samples=20)
     with pytest.raises(UsageError):
@@ -183,13 +183,13 @@ def test_failed_build_leaves_no_file_and_keeps_an_existing_one(tmp_path, monkeyp
     monkeypatch.setattr(sections, "misrange", broken)
     out = tmp_path / "new.pdf"
     with pytest.raises(RuntimeError, match="section builder failed"):
-        build_dossier(spec, out, samples=20)
+        build_dossier(spec, out, bom_path=out.with_suffix(".csv"), samples=20)
     assert not out.exists() and not out.with_suffix(".csv").exists()
     old = tmp_path / "old.pdf"
     old.write_bytes(b"previous dossier")
     old.with_suffix(".csv").write_text("previous table")
     with pytest.raises(RuntimeError):
-        build_dossier(spec, old, samples=20)
+        build_dossier(spec, old, bom_path=old.with_suffix(".csv"), samples=20)
     assert old.read_bytes() == b"previous dossier"
     assert old.with_suffix(".csv").read_text() == "previous table"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["old.csv", "old.pdf"]  # no temporary files left
@@ -216,6 +216,37 @@ def test_project_file_is_never_overwritten(tmp_path):
     with pytest.raises(UsageError):
         build_dossier(spec, src, samples=20)
     assert src.read_text() == (ROOT / "projects" / "bench_ammeter.yaml").read_text()
+
+
+def test_the_csv_is_written_only_when_named(tmp_path):
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    mine = tmp_path / "drawer_diode.csv"  # a file of the user's that happens to share the PDF's stem
+    mine.write_text("voltage_v,current_a\n0.6,1e-3\n", encoding="utf-8")
+    build_dossier(spec, tmp_path / "drawer_diode.pdf", samples=20)
+    assert mine.read_text(encoding="utf-8") == "voltage_v,current_a\n0.6,1e-3\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["drawer_diode.csv", "drawer_diode.pdf"]
+
+
+def test_pdf_and_csv_are_checked_together_before_anything_is_written(tmp_path):
+    src = tmp_path / "meter.csv"  # a project whose file name ends in .csv
+    src.write_text((ROOT / "projects" / "pocket_voltmeter.yaml").read_text())
+    spec = load(src)
+    with pytest.raises(UsageError, match="refusing to overwrite the input file"):
+        build_dossier(spec, tmp_path / "meter.pdf", bom_path=src, samples=20)
+    with pytest.raises(UsageError, match="named for two outputs"):
+        build_dossier(spec, tmp_path / "x.pdf", bom_path=tmp_path / "x.pdf", samples=20)
+    with pytest.raises(UsageError, match="the dossier is a PDF: name its output x.pdf"):
+        build_dossier(spec, tmp_path / "x.csv", samples=20)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["meter.csv"]
+
+
+def test_an_invalid_network_is_bad_input_and_writes_nothing(tmp_path):
+    from planner.errors import ProjectError
+
+    spec = load(ROOT / "tests" / "bad" / "network" / "floating_node.yaml")
+    with pytest.raises(ProjectError, match="is floating"):
+        build_dossier(spec, tmp_path / "f.pdf", bom_path=tmp_path / "f.csv", samples=20)
+    assert list(tmp_path.iterdir()) == []
 
 
 def test_overflow_detector_rejects_a_flowable_wider_than_the_frame():

@@ -3,8 +3,8 @@
 :func:`build_dossier` runs the analyses (sizing where the file asks for it, the
 accuracy check, the misrange faults), lays the results out with reportlab's
 platypus (:mod:`.layout`, :mod:`.sections`), draws the charts and the schematic
-as vector graphics (:mod:`.charts`, :mod:`.schematic`) and writes the PDF, and a
-CSV bill of materials beside it, atomically.
+as vector graphics (:mod:`.charts`, :mod:`.schematic`) and writes the PDF, and,
+when asked for by name, the bill of materials as CSV, atomically and together.
 
 The PDF is byte-identical for the same input: reportlab's invariant mode, the
 date from the project (or the caller), never the clock, standard fonts only,
@@ -13,6 +13,8 @@ seeded Monte Carlo, and every ordering by name or computed value.
 An analysis that raises does not stop the dossier: its section prints the
 error. A failure of the dossier itself (a section builder, the layout) raises
 and leaves no file behind; an existing file at the output path is untouched.
+An explicit network that fails validation is bad input (exit 2), not a section
+error: nothing is written.
 
 Examples
 --------
@@ -32,7 +34,7 @@ import re
 from pathlib import Path
 from typing import Callable
 
-from ..design import as_design
+from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
@@ -176,7 +178,7 @@ def bom_csv(ctx: Context) -> str:
     return out.getvalue()
 
 
-def build_dossier(design, out_path, *, date=None, csv: bool = True,
+def build_dossier(design, out_path, *, bom_path=None, date=None,
                   progress: Callable[[str], None] | None = None, samples: int | None = None,
                   seed: int | None = None) -> Path:
     """Build the design dossier of a project and write it atomically.
@@ -187,13 +189,15 @@ def build_dossier(design, out_path, *, date=None, csv: bool = True,
         The project's design (:func:`planner.design.build`; a loaded Spec,
         :func:`planner.project.load`, is built into one).
     out_path : str or path-like
-        The PDF to write. The CSV bill of materials goes beside it (same stem,
-        ``.csv``) when ``csv`` is true.
+        The PDF to write.
+    bom_path : str or path-like, optional
+        Where to write the bill of materials as CSV as well. Written only when
+        given: the planner never picks a file name of its own beside the PDF, so
+        it cannot replace a file the caller did not name (the PDF holds the bill
+        of materials in any case).
     date : str or datetime.date, optional
         The date printed on the dossier (YYYY-MM-DD); the project's ``date`` by
         default. The clock is never read, so the same input gives the same bytes.
-    csv : bool
-        Also write the bill of materials as CSV.
     progress : callable(str), optional
         Receives a short message before each step.
     samples, seed : int, optional
@@ -207,33 +211,32 @@ def build_dossier(design, out_path, *, date=None, csv: bool = True,
     Raises
     ------
     UsageError
-        For a bad date or an output path that is the project file itself.
+        For a bad date, or an output refused by :func:`planner.fsio.check_targets`
+        (the project file itself, a device or other non-regular file, a missing
+        folder, the PDF and the CSV being one file). Both outputs are checked
+        before anything is computed, and written together by
+        :func:`planner.fsio.write_all`: nothing is written unless both can be.
+    ProjectError
+        For an explicit network that fails :func:`planner.network.validate`
+        (a floating node, an island, ...), as ``check`` and ``faults`` report it;
+        nothing is written.
     DossierLayoutError
         When the layout fails (a bug; nothing is written).
     """
-    from ..fsio import write_atomic
+    from ..fsio import check_targets, write_all
 
-    design = as_design(design)
-    spec = design.spec
+    spec = design.spec if isinstance(design, Design) else design
     out = Path(out_path)
     protect = [spec.path] if getattr(spec, "path", None) else []
-    if protect and out.exists() and _same(out, Path(spec.path)):
-        raise UsageError(f"the dossier would overwrite the project file {spec.path}; choose another output, "
-                         "e.g. -o dossier.pdf")
-    if csv and out.suffix.lower() == ".csv":
-        raise UsageError(f"the dossier is a PDF and its bill of materials goes beside it as CSV; name the output "
-                         f"{out.with_suffix('.pdf').name} instead of {out.name}")
+    if out.suffix.lower() == ".csv":
+        raise UsageError(f"the dossier is a PDF: name its output {out.with_suffix('.pdf').name} instead of "
+                         f"{out.name}, and give --bom {out.name} for the bill of materials as CSV")
+    outputs = [out] + ([Path(bom_path)] if bom_path is not None else [])
+    check_targets(outputs, protect)
+    _date(spec, date)
+    design = as_design(design)  # a project whose network cannot be built or checked is bad input
     ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress)
     pdf = render(ctx, progress=progress)
-    table_text = bom_csv(ctx) if csv else None
-    write_atomic(out, pdf, protect=protect)
-    if table_text is not None:
-        write_atomic(out.with_suffix(".csv"), table_text, protect=protect)
+    items = [(out, pdf)] + ([(bom_path, bom_csv(ctx))] if bom_path is not None else [])
+    write_all(items, protect=protect)
     return out
-
-
-def _same(a: Path, b: Path) -> bool:
-    try:
-        return a.resolve() == b.resolve() or a.samefile(b)
-    except OSError:
-        return False
