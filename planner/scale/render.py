@@ -140,17 +140,15 @@ def plate_pdf(plate: Plate, *, title: str = "scale plate", creator: str = "plann
     from reportlab.graphics import renderPDF
     from reportlab.pdfgen.canvas import Canvas
 
-    buf = io.BytesIO()
     w, h = plate.page_mm
-    c = Canvas(buf, pagesize=(w * PT_PER_MM, h * PT_PER_MM), invariant=1, pageCompression=1)
+    c = Canvas(io.BytesIO(), pagesize=(w * PT_PER_MM, h * PT_PER_MM), invariant=1, pageCompression=1)
     c.setTitle(title)
     c.setSubject("scale plate at 1:1")
     c.setCreator(creator)
     c.setAuthor("")
     renderPDF.draw(plate_drawing(plate), c, 0, 0)
     c.showPage()
-    c.save()
-    return buf.getvalue()
+    return c.getpdfdata()  # the bytes, not a file: the caller writes them atomically
 
 
 def _n(x: float) -> str:
