@@ -34,8 +34,9 @@ from planner.engine import Engine
 from planner.errors import ProjectError
 from planner.model import Contact, MovementElement, NetworkSpec, Position, Resistor
 from planner.project import load, loads
-from planner.scale import (PlateInfo, fit_scale, Response, ScaleDef, ScalePosition, ScaleResult, build_plate, linear_definitions,
-                           plate_drawing, plate_pdf, plate_svg, sampled_response, scale_json, scale_project)
+from planner.scale import (PlateInfo, Response, ScaleDef, ScalePosition, ScaleResult, build_plate, fit_scale,
+                           linear_definitions, plate_drawing, plate_pdf, plate_svg, sampled_response, scale_json,
+                           scale_project)
 from planner.scale.plate import Line, Poly
 from planner.scale.text import Text
 
@@ -411,9 +412,8 @@ def test_pdf_holds_the_arc_at_the_stated_radius(tmp_path, arc, radius, with_all)
     if with_all:
         plate = demo_plate(arc, radius)
     else:
-        spec = loads(MULTIMETER.read_text().replace("class: 1.5",
-                                                    f"class: 1.5\n  scale: {{arc: {arc:g} deg, radius: {radius:g} mm}}"),
-                     str(MULTIMETER))
+        key = f"class: 1.5\n  scale: {{arc: {arc:g} deg, radius: {radius:g} mm}}"
+        spec = loads(MULTIMETER.read_text().replace("class: 1.5", key, 1), str(MULTIMETER))
         plate = scale_project(spec).plate
     pdf = tmp_path / "plate.pdf"
     pdf.write_bytes(plate_pdf(plate))

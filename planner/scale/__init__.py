@@ -25,6 +25,7 @@ from .ticks import Band, Response, Scale, ScaleDef, ScalePosition, Tick, place
 
 __all__ = [
     "Band", "Plate", "PlateError", "PlateInfo", "PositionCheck", "Response", "Scale", "ScaleDef", "ScalePosition",
-    "ScaleResult", "Tick", "build_plate", "fit_scale", "format_scale", "has_junction", "linear_definitions", "nominal_response",
-    "place", "plate_drawing", "plate_pdf", "plate_svg", "sampled_response", "scale_json", "scale_project",
+    "ScaleResult", "Tick", "build_plate", "fit_scale", "format_scale", "has_junction", "linear_definitions",
+    "nominal_response", "place", "plate_drawing", "plate_pdf", "plate_svg", "sampled_response", "scale_json",
+    "scale_project",
 ]
