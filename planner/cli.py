@@ -269,6 +269,30 @@ def cmd_fit_diode(args) -> int:
     return EXIT_OK
 
 
+def cmd_scale(args) -> int:
+    import os
+
+    from .fsio import check_targets
+
+    out = args.output or os.path.splitext(os.path.basename(args.project))[0] + "-scale.pdf"
+    check_targets([out] + ([args.svg] if args.svg else []), protect=[args.project])
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from . import __version__
+    from .fsio import write_all
+    from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
+
+    result = scale_project(_design(spec))
+    title = f"{spec.title} \u2013 scale plate"
+    items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
+    if args.svg:
+        items.append((args.svg, plate_svg(result.plate, title=title)))
+    write_all(items, protect=[args.project])
+    for path, _ in items:
+        print(f"wrote {path}", file=sys.stderr)
+    _emit(args, scale_json(result), format_scale(result))
+    return EXIT_OK
+
+
 def _default_pdf(project: str) -> str:
     import os
 
@@ -353,6 +377,12 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--xti", type=float, help="hold the saturation-current temperature exponent at this value")
     sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
     sp.set_defaults(func=cmd_fit_diode)
+
+    sp = sub.add_parser("scale", help="printable scale plate at 1:1, ticks placed by the solved response")
+    common(sp)
+    sp.add_argument("-o", "--output", metavar="PLATE.pdf", help="output PDF (default: <project>-scale.pdf)")
+    sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
+    sp.set_defaults(func=cmd_scale)
     return p
 
 

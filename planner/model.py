@@ -65,6 +65,29 @@ class Overload:
 
 
 @dataclass(frozen=True)
+class ScaleGeometry:
+    """Where the scale plate's arcs lie: the movement's pointer swing and length.
+
+    Attributes
+    ----------
+    arc_deg : float
+        Angle the pointer swings through from rest to full deflection [deg].
+    radius_m : float
+        Radius of the outermost scale's base line, measured from the pivot [m];
+        the other scales nest inside it.
+    mirror : bool
+        Draw an anti-parallax mirror band (a cut-out for a mirror strip).
+    line : int or None
+        Line of ``movement.scale`` in the project file (for messages).
+    """
+
+    arc_deg: float = 90.0
+    radius_m: float = 0.060
+    mirror: bool = False
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class Movement:
     """A moving-coil movement.
 
@@ -84,6 +107,8 @@ class Movement:
         Tolerance of the full-scale current (fraction), 0 when it is calibrated.
     overload : Overload
         Overload limits.
+    scale : ScaleGeometry
+        Arc and radius of the scale plate (``movement.scale``).
     """
 
     i_fs_a: float
@@ -93,6 +118,7 @@ class Movement:
     tolerance: float = 0.0
     i_fs_tolerance: float = 0.0
     overload: Overload = field(default_factory=Overload)
+    scale: ScaleGeometry = field(default_factory=ScaleGeometry)
 
     @property
     def v_fs_v(self) -> float:

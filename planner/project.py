@@ -85,8 +85,13 @@ MOVEMENT_KEYS = (
     "tolerance",
     "full_scale_tolerance",
     "overload",
+    "scale",
 )
 OVERLOAD_KEYS = ("peg", "short_time", "continuous")
+SCALE_KEYS = ("arc", "radius", "mirror")
+#: Limits of movement.scale: the pointer swing [deg] and the outer scale radius [m].
+SCALE_ARC_DEG = (30.0, 300.0)
+SCALE_RADIUS_M = (0.010, 0.500)
 AMBIENT_KEYS = ("reference", "min", "max")
 PARTS_KEYS = ("resistors", "diodes", "fuses")
 RESISTOR_PARTS_KEYS = (
@@ -705,6 +710,7 @@ def _movement(ctx: _Ctx, node: _Node) -> model.Movement:
                 n.line if n is not None else ov.line,
             )
         overload = model.Overload(peg=peg, short_time=short, continuous=cont)
+    scale = _scale_geometry(ctx, m)
     return model.Movement(
         i_fs_a=i_fs,
         r_coil_ohm=r_m,
@@ -713,7 +719,39 @@ def _movement(ctx: _Ctx, node: _Node) -> model.Movement:
         tolerance=tol,
         i_fs_tolerance=fs_tol,
         overload=overload,
+        scale=scale,
     )
+
+
+_ANGLE = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(deg|degrees?|°|rad)?\s*$")
+
+
+def _scale_geometry(ctx: _Ctx, m: _Map) -> model.ScaleGeometry:
+    """``movement.scale``: the pointer's swing (arc) and the outer scale radius."""
+    d = model.ScaleGeometry()
+    sc = m.sub("scale", SCALE_KEYS, "{arc: 90 deg, radius: 60 mm}")
+    if sc is None:
+        return d
+    arc = d.arc_deg
+    n = sc.get("arc")
+    if n is not None:
+        ctx.scalar(n, sc.at("arc"), "'90 deg'")
+        mt = _ANGLE.match(n.text or "")
+        if mt is None:
+            ctx.fail(f"{sc.at('arc')} is '{' '.join((n.text or '').split())}'; give an angle in degrees, e.g. "
+                     "'90 deg' (a bare number is read as degrees; 'rad' is accepted too)", n.line)
+        arc = float(mt.group(1)) * (180.0 / math.pi if mt.group(2) == "rad" else 1.0)
+        lo, hi = SCALE_ARC_DEG
+        if not lo <= arc <= hi:
+            ctx.fail(f"{sc.at('arc')} is {arc:g} deg; give the pointer's swing from {lo:g} to {hi:g} deg, "
+                     "e.g. '90 deg' (most panel meters) or '250 deg' (long-scale meters)", n.line)
+    radius = sc.qty("radius", "length", d.radius_m, check="pos")
+    lo, hi = SCALE_RADIUS_M
+    if not lo <= radius <= hi:
+        ctx.fail(f"{sc.at('radius')} is {radius * 1e3:g} mm; give the outer scale radius between "
+                 f"{lo * 1e3:g} mm and {hi * 1e3:g} mm, e.g. '60 mm'", sc.get("radius").line)
+    mirror = sc.boolean("mirror", d.mirror)
+    return model.ScaleGeometry(arc_deg=arc, radius_m=radius, mirror=mirror, line=sc.line)
 
 
 def _tempco_bound(ctx: _Ctx, x: float, m: _Map, key: str) -> None:

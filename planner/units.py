@@ -73,6 +73,7 @@ _SPECS: dict[str, tuple[str, str, str, bool]] = {
     "i2t": ("A^2*s", "an I^2 t", "0.5 A^2 s", False),
     "energy": ("J", "an energy", "2 J", False),
     "energy_ev": ("eV", "a band-gap energy", "1.11 eV", True),
+    "length": ("m", "a length", "60 mm", False),
     "dimensionless": ("dimensionless", "a plain number", "1.5", True),
     "voltage_or_current": ("", "a voltage or a current", "230 V", False),
 }
@@ -209,7 +210,8 @@ def parse(value: Any, dimension: str, *, where: str | None = None) -> Any:
         One of :data:`DIMENSIONS`: ``current`` [A], ``voltage`` [V],
         ``resistance`` [ohm], ``power`` [W], ``fraction`` [1], ``tempco``
         [1/K], ``temperature`` [K], ``time`` [s], ``i2t`` [A^2 s],
-        ``energy`` [J], ``energy_ev`` [eV], ``dimensionless`` [1], or ``voltage_or_current``.
+        ``energy`` [J], ``energy_ev`` [eV], ``length`` [m], ``dimensionless`` [1], or
+        ``voltage_or_current``.
     where : str, optional
         What the value is for (``'movement.coil_resistance'``), used in
         messages.
