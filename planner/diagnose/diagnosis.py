@@ -242,6 +242,21 @@ def diagnose(spec: Spec, readings, *, resolution: float | None = None, share: fl
     Returns
     -------
     Diagnosis
+
+    Notes
+    -----
+    The steps and their equations are in :func:`planner.diagnose.estimate.estimate`
+    (least squares with the tolerances as prior, 95 % intervals),
+    :func:`planner.diagnose.identify.identify` (groups from the singular values of
+    the sensitivity matrix) and :func:`planner.diagnose.replace.plan_replacements`;
+    the method as a whole is in ``docs/diagnose.md``.
+
+    References
+    ----------
+    J. J. More, "The Levenberg-Marquardt algorithm: implementation and theory",
+    Lecture Notes in Mathematics 630, Springer, 1978, doi:10.1007/BFb0067700;
+    G. H. Golub, C. F. Van Loan, *Matrix Computations*, 4th ed., Johns Hopkins
+    University Press, 2013, sec. 2.4.
     """
     meter = Meter(spec)
     if not isinstance(readings, Readings):

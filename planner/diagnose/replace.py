@@ -221,7 +221,16 @@ def plan_replacements(meter: Meter, present: dict, candidates, must, target_pct,
     replaced minimise :math:`\\sum_k (e_k/t_k)^2 + \\lambda^2 \\sum_j \\varphi_j^2`
     with :math:`\\lambda` = :data:`LEAST_CHANGE`; a part's rounding
     :math:`\\delta` costs about :math:`g\\,\\delta` with
-    :math:`g = \\max_k |\\partial e_k / \\partial \\varphi|`.
+    :math:`g = \\max_k |\\partial e_k / \\partial \\varphi|`. A pair in series makes
+    :math:`R_a + R_b`, in parallel :math:`R_a R_b / (R_a + R_b)`.
+
+    References
+    ----------
+    IEC 60063:2015, *Preferred number series for resistors and capacitors* (the
+    E-series values); IEC 60051-1:2016, clause 3 (class index, % of the fiducial
+    value); J. J. More, "The Levenberg-Marquardt algorithm: implementation and
+    theory", Lecture Notes in Mathematics 630, Springer, 1978,
+    doi:10.1007/BFb0067700 (the continuous values).
     """
     positions = tuple(p.name for p in meter.positions)
     target = np.broadcast_to(np.asarray(target_pct, dtype=float), (len(positions),)).copy()
