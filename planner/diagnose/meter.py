@@ -24,7 +24,7 @@ import numpy as np
 from ..engine import Engine
 from ..model import MovementElement, Resistor, Spec
 
-__all__ = ["I_FS_KEY", "MOVEMENT_PRIOR", "Unknown", "Meter", "open_engine", "jacobian"]
+__all__ = ["I_FS_KEY", "MOVEMENT_PRIOR", "Unknown", "Meter", "open_engine", "jacobian", "tolerance_band"]
 
 #: Key of the full-scale current in the engine's ``factors``.
 I_FS_KEY = "i_fs"
@@ -215,11 +215,6 @@ def jacobian(fn, theta: np.ndarray, step: float = STEP) -> tuple[np.ndarray, np.
     rows[1:] += np.eye(k) * step
     out = fn(rows)
     return out[0], (out[1:] - out[0]).T / step
-
-
-def log_change_pct(theta) -> np.ndarray:
-    """Relative change in % of a log factor: 100 (exp(theta) - 1)."""
-    return 100.0 * np.expm1(np.asarray(theta, dtype=float))
 
 
 def tolerance_band(tolerance: float) -> tuple[float, float]:
