@@ -126,6 +126,8 @@ def _cautions_tail(result: dict) -> str:
 
 
 def cmd_size(args) -> int:
+    if args.retrim:
+        return cmd_retrim(args)
     if args.write_network:
         _check_output(args.write_network, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
@@ -321,6 +323,10 @@ def build_parser() -> argparse.ArgumentParser:
     common(sp)
     sp.add_argument("--write-network", metavar="OUT.yaml",
                     help="write the sized network as an editable project file ('-': to stdout, instead of the table)")
+    sp.add_argument("--retrim", action="store_true",
+                    help="keep the file's explicit network; propose the fewest new values that bring every "
+                         "position within a tenth of the class")
+    sp.add_argument("--series", metavar="E96", help="with --retrim: E-series of the new parts (default: each part's own)")
     sp.set_defaults(func=cmd_size)
 
     sp = sub.add_parser("check", help="accuracy per position: nominal, linearity, tolerance, temperature, loading")
@@ -383,6 +389,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("-o", "--output", metavar="PLATE.pdf", help="output PDF (default: <project>-scale.pdf)")
     sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
     sp.set_defaults(func=cmd_scale)
+    _add_diagnose(sub)
     return p
 
 
@@ -442,6 +449,63 @@ def main(argv=None) -> int:
         if os.environ.get("PLANNER_DEBUG"):
             raise
         return EXIT_INTERNAL
+
+
+# --- restoration: planner diagnose, planner size --retrim ----------------------------------
+
+
+def _series_option(text):
+    """An E-series name from the command line, or None."""
+    if text is None:
+        return None
+    from . import eseries
+    from .errors import UsageError
+
+    try:
+        return eseries.normalise(text)
+    except ValueError:
+        raise UsageError(f"--series: unknown E-series '{text}'; use one of {', '.join(eseries.series_names())}") from None
+
+
+def cmd_retrim(args) -> int:
+    from .errors import UsageError
+
+    if args.write_network:
+        raise UsageError("--write-network writes a sized network; with --retrim the file keeps its network: fit the "
+                         "parts listed and change their values in the file")
+    series = _series_option(args.series)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from .retrim import format_retrim, retrim, retrim_json
+
+    result = retrim(spec, series=series)
+    _emit(args, retrim_json(result), format_retrim(result))
+    return EXIT_OK if result.requirements_met else EXIT_SHORT
+
+
+def cmd_diagnose(args) -> int:
+    series = _series_option(args.series)
+    resolution = None if args.resolution is None else _quantity(args.resolution, "fraction", "--resolution")
+    share = 0.25 if args.share is None else _quantity(args.share, "fraction", "--share")
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from .diagnose import diagnose, diagnosis_json, format_diagnosis
+
+    result = diagnose(spec, args.readings, resolution=resolution, share=share, series=series)
+    _emit(args, diagnosis_json(result), format_diagnosis(result))
+    return EXIT_OK if result.requirements_met else EXIT_SHORT
+
+
+def _add_diagnose(sub) -> None:
+    sp = sub.add_parser("diagnose", help="find the drifted parts of an existing meter from its readings; propose "
+                                         "replacements")
+    sp.add_argument("project", metavar="FILE", help="project file (YAML) with the meter's network")
+    sp.add_argument("readings", metavar="READINGS.csv", help="CSV with header position,applied,reading")
+    sp.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
+    sp.add_argument("--resolution", metavar="R", help="reading resolution, share of full scale, e.g. '0.5 %%' "
+                                                      "(default: the class index)")
+    sp.add_argument("--share", metavar="S", help="share of the class the replacements aim within (default 0.25)")
+    sp.add_argument("--series", metavar="E96", help="E-series of the replacements (default: each part's own)")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
+    sp.set_defaults(func=cmd_diagnose)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -601,7 +601,8 @@ def _validate(spec: Spec) -> str:
             raise _err(
                 spec,
                 "nothing to size: the project gives an explicit network and no 'voltage'/'current' ranges; "
-                "check it with 'planner check', or add ranges for the sizer",
+                "check it with 'planner check', retrim its values with 'planner size --retrim', or add ranges "
+                "for the sizer",
                 None,
             )
         raise _err(
