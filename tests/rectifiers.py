@@ -25,6 +25,7 @@ from scipy.optimize import brentq
 
 from planner import model as m
 from planner.accuracy import draw_factors, parameters
+from planner.design import build
 from planner.engine import Engine
 
 I_FS = 50e-6
@@ -77,11 +78,11 @@ def sized(kind: str, full_scale: float = 2.5) -> Engine:
     make = SPECS[kind]
 
     def excess(r):
-        return float(sine_mean_4096(Engine(make(r, full_scale)), full_scale)[0]) - I_FS
+        return float(sine_mean_4096(Engine(build(make(r, full_scale))), full_scale)[0]) - I_FS
 
     guess = (0.9003 if kind == "bridge" else 0.4502) * full_scale / I_FS
     r = brentq(excess, 0.05 * guess, 1.2 * guess, xtol=1e-3)
-    return Engine(make(r, full_scale))
+    return Engine(build(make(r, full_scale)))
 
 
 def monte_carlo(engine: Engine, builds: int, seed: int = 1) -> tuple[dict, np.ndarray]:

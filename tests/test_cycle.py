@@ -16,6 +16,7 @@ from planner.cycle import (DC, FlatTopMains, Impulse, OddHarmonics, Sine, Square
                            extreme_rows, fixed_rule, gauss_kronrod, joule_integral_sine, pre_arcing_on_grid,
                            pre_arcing_sine, pre_arcing_time_sine, shape_named)
 from planner.cycle.shared import Target, adapt_shared
+from planner.design import build
 from planner.engine import Engine
 from planner.errors import UsageError
 from planner.solve import saturation_current, thermal_voltage
@@ -237,7 +238,7 @@ def _series_diode_spec(r1):
 @pytest.mark.parametrize("rms", [0.5, 1.5, 2.5])
 def test_half_wave_mean_against_wright_omega_quad(rms, temperature_k):
     spec, d = _series_diode_spec(20e3)
-    eng = Engine(spec)
+    eng = Engine(build(spec))
     r_total = 20e3 + rx.R_COIL
     # the SPICE temperature law of I_s (Antognetti and Massobrio; references.md), V_t = k T / q (exact SI)
     i_s = float(saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, temperature_k, rx.T_REF))
