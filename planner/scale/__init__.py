@@ -21,7 +21,8 @@ from .plate import Plate, PlateError, PlateInfo, build_plate
 from .render import fit_scale, plate_drawing, plate_pdf, plate_svg
 from .solved import (PositionCheck, ScaleResult, format_scale, has_junction, linear_definitions, nominal_response,
                      sampled_response, scale_json, scale_project)
-from .ticks import Band, Response, Scale, ScaleDef, ScalePosition, Tick, place
+from .place import place
+from .ticks import Band, Response, Scale, ScaleDef, ScalePosition, Tick
 
 __all__ = [
     "Band", "Plate", "PlateError", "PlateInfo", "PositionCheck", "Response", "Scale", "ScaleDef", "ScalePosition",

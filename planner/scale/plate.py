@@ -18,7 +18,8 @@ from dataclasses import dataclass, field
 
 from .text import (ASCENT_EM, DIGIT_DESCENT_EM, MIN_TEXT_PT, PT_PER_MM, Text, centred, overlap, runs_for, upright,
                    width_mm)
-from .ticks import Band, Scale, ScaleDef, number_text, place, rows_of
+from .place import place
+from .ticks import Band, Scale, ScaleDef, number_text, rows_of
 
 __all__ = ["PlateError", "PlateInfo", "Plate", "build_plate", "Line", "Arc", "Poly", "Sector", "Circle", "Rect",
            "label_pt_for", "COLOURS"]

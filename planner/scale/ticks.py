@@ -360,7 +360,7 @@ def _choose_divisions(labels_fs, spacing: Callable[[int], float], band: Band) ->
     return n1225 or 1
 
 
-def _uniform(defn: ScaleDef, band: Band, curve: Curve | None, colour: str) -> Scale:
+def uniform(defn: ScaleDef, band: Band, curve: Curve | None, colour: str) -> Scale:
     """A uniform grid of values: the shared linear scale (``curve`` None) or an AC scale of its own.
 
     Notes
@@ -465,34 +465,3 @@ def _uniform(defn: ScaleDef, band: Band, curve: Curve | None, colour: str) -> Sc
         ticks.append(Tick(f, size, labels, _values(defn.positions, i, n)))
     return Scale(defn, band, tuple(rows), tuple(ticks), (), tuple(notes))
 
-
-# --- entry point ---------------------------------------------------------------------------------
-
-
-def place(defn: ScaleDef, band: Band, colour: str = "#000000") -> Scale:
-    """Choose and place the ticks and labels of one scale.
-
-    Parameters
-    ----------
-    defn : ScaleDef
-        What the scale serves and, for ``ac`` and ``ohms``, its nominal response.
-    band : Band
-        Base-line radius, label-row radii [mm], arc [deg] and type size [pt].
-    colour : str
-        Colour of its labels (``#rrggbb``), carried into the label boxes.
-
-    Returns
-    -------
-    Scale
-        Ticks sorted by fraction (rest end first). On a ``linear`` scale the
-        fraction of tick i of N divisions is i / N exactly and its value on
-        each position is full scale x i / N (decimal arithmetic, rounded once).
-    """
-    if defn.kind == "linear":
-        return _uniform(defn, band, None, colour)
-    curve = Curve(defn.kind, defn.response, defn.positions[0].full_scale)
-    if defn.kind == "ac":
-        return _uniform(defn, band, curve, colour)
-    from .ohms import place_ohms
-
-    return place_ohms(defn, band, curve, colour)
