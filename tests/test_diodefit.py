@@ -1,7 +1,7 @@
 """Checks of planner.diodefit: the exact diode current, the fit, its uncertainty, input errors.
 
 Synthetic points are generated explicitly from the element equations of the design
-contract (/work/shared/design.md, "Element equations"): pick junction voltages V_j,
+contract (docs/solver.md, "Element equations"): pick junction voltages V_j,
 then I = I_s (exp(V_j / n V_t) - 1) + V_j / R_p and V = V_j + I R_s. No solver is
 involved, so the generator is independent of the code under test.
 """
@@ -61,7 +61,7 @@ def forward_grid(i_s, n, i_lo=1e-7, i_hi=0.1, count=28, t_k=T_REF):
 ])
 def test_current_matches_banwell_jayakumar_values(v, r, expected):
     # Banwell & Jayakumar, Electronics Letters 36(4) 2000, values computed from their closed
-    # form with I_s = 1e-14 A, n = 1, 300 K [calc in /work/shared/references.md]
+    # form with I_s = 1e-14 A, n = 1, 300 K [calc; tests/reference/diode.md]
     i = df.diode_current(v, 1e-14, vt(300.0), r, math.inf)
     np.testing.assert_allclose(i, expected, rtol=2e-7)  # the references give 7 digits
 

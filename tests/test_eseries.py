@@ -1,7 +1,7 @@
 """Checks of planner.eseries against the PyPI package ``eseries`` and IEC 60063 facts.
 
 The package ``eseries`` is an independent implementation of the IEC 60063 tables
-(listed as the reference in /work/shared/references.md); every table here must equal
+(PyPI ``eseries``, tables E3 to E192); every table here must equal
 its table, value for value.
 """
 
