@@ -41,17 +41,22 @@ def _node(i: int) -> str:
 
 
 def netlist(circuit, r, stimuli, *, emf=None, junctions=None, varistors=None, options: str = OPTIONS,
-            gmin: float = 0.0) -> str:
+            gmin: float = 0.0, movement: int | None = None) -> str:
     """A deck of one flat circuit for one parameter set, swept over ``stimuli``.
 
     ``r``, ``emf``: (L,) arrays; ``junctions``: a :class:`planner.solve.Junctions` of (D,)
-    arrays; ``varistors``: a :class:`planner.solve.Varistors` of (M,) arrays.
+    arrays; ``varistors``: a :class:`planner.solve.Varistors` of (M,) arrays; ``movement``:
+    a branch whose current column is also named ``movement``. Each branch's resistance is
+    listed in a ``* value:`` comment under its element name (for :func:`spice.run_many`'s
+    variants).
     """
     stimuli = np.atleast_1d(np.asarray(stimuli, dtype=float))
     r = np.asarray(r, dtype=float)
     e = np.zeros_like(r) if emf is None else np.asarray(emf, dtype=float)
     body, cols = [], []
+    values = []
     for j, (a, b) in enumerate(zip(circuit.lin_a, circuit.lin_b)):
+        values.append(f"* value: {circuit.branches[j].element} R{j} {spice._num(r[j])}")
         body.append(f"R{j} {_node(a)} x{j} {spice._num(r[j])}")
         body.append(f"Vb{j} x{j} {_node(b)} DC {spice._num(e[j])}")
     if len(circuit.diodes):
@@ -106,10 +111,10 @@ def netlist(circuit, r, stimuli, *, emf=None, junctions=None, varistors=None, op
     for i in range(1, circuit.n_nodes):
         cols.append((f"v:{i}", f"v({_node(i)})"))
     for j in range(len(circuit.branches)):
-        cols.append((f"i:{j}", f"i(Vb{j})"))
+        cols.append((f"i:{j}" + ("=movement" if j == movement else ""), f"i(Vb{j})"))
     lines = [f"* flat deck: {circuit.name}",
              "* columns: " + " ".join(name for name, _ in cols),
-             f"* points: {len(stimuli)}",
+             f"* points: {len(stimuli)}", *values,
              f".options temp={TEMP_C!r} tnom={TEMP_C!r} gmin={spice._num(gmin)} {options}"]
     lines += body
     lines.append(dc)
@@ -121,4 +126,8 @@ def netlist(circuit, r, stimuli, *, emf=None, junctions=None, varistors=None, op
 def simulate(circuit, r, stimuli, **kwargs) -> dict:
     """:func:`netlist` run by ngspice, as a dict of columns by name (arrays of shape (S,))."""
     deck = netlist(circuit, r, stimuli, **kwargs)
-    return dict(zip(spice.columns(deck), spice.run(deck).T))
+    out = {}
+    for names, col in zip(spice.columns(deck), spice.run(deck).T):
+        for name in names.split("="):
+            out[name] = col
+    return out

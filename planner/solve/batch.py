@@ -108,12 +108,16 @@ class Problem:
         self.t, self.nd = self.st.t, len(self.st.kinds)
         self.dcols = columns(lin.d)
         self.decols = columns(lin.de) if lin.de is not None else None
-        # for the starting point: the anchors' impedance and open-circuit voltages
+        # for the starting point: the anchors' impedance and open-circuit voltages. An anchor in an
+        # island (no linear path to the reference) gets a conductance of 1e-6 of the largest to the
+        # reference for the start only: a current driven into the island then meets a Thevenin
+        # source of about that current; the island takes no part in the voltage scale below
         na = len(anchors)
         if na:
             ys = lin.ys
-            reg = 1e-12 * np.abs(np.einsum("pii->pi", ys)).max(axis=1) + 1e-300
-            wmat = np.linalg.inv(ys + reg[:, None, None] * np.eye(na))
+            level = (1.0 / r).max(axis=1)[:, None]  # the largest branch conductance
+            reg = np.maximum(1e-12 * level, np.where(lin.grounded[None, :], 0.0, 1e-6 * level))
+            wmat = np.linalg.inv(ys + reg[:, :, None] * np.eye(na))
             oc = np.einsum("pij,pj->pi", wmat, lin.d[:, anchors])
             oce = np.einsum("pij,pj->pi", wmat, lin.de[:, anchors]) if lin.de is not None else np.zeros_like(oc)
         else:
@@ -121,10 +125,11 @@ class Problem:
             oc = oce = np.zeros((self.p, 0))
         self.wcols = {(i, j): column(wmat[:, ia, ja]) for ia, i in enumerate(anchors) for ja, j in enumerate(anchors)}
         self.occols = {i: (column(oc[:, ia]), column(oce[:, ia])) for ia, i in enumerate(anchors)}
-        sigma = np.abs(oc).max(axis=1) if na else np.zeros(self.p)
-        sigma_d = np.abs(lin.d).max(axis=1) if self.t else np.zeros(self.p)
-        self.sigma = sigma + 1.0 + sigma_d * 0.0
-        self.eps = np.abs(oce).max(axis=1) if na else np.zeros(self.p)
+        ground_oc = np.abs(oc[:, lin.grounded]) if na else np.zeros((self.p, 0))
+        ground_oce = np.abs(oce[:, lin.grounded]) if na else np.zeros((self.p, 0))
+        self.sigma = (ground_oc.max(axis=1) if ground_oc.shape[1] else np.zeros(self.p)) + (1.0 if self.voltage else 0.0)
+        self.eps = ground_oce.max(axis=1) if ground_oce.shape[1] else np.zeros(self.p)
+        self.has_emf = np.any(emf != 0.0, axis=1) if emf is not None else np.zeros(self.p, dtype=bool)
         self.jcols = {f: columns(getattr(jn, f)) for f in nt.JUNCTION_FIELDS}
         self.vcols = {f: columns(getattr(var, f)) for f in nt.VARISTOR_FIELDS} if var is not None else None
         self.iterations = 0
@@ -149,7 +154,8 @@ class Problem:
             parts += [nt.Varistor(*(nt.take(self.vcols[f][m], p) for f in nt.VARISTOR_FIELDS))
                       for m in range(len(self.circuit.varistors))]
         vscale = np.abs(stim) * self.sigma[p] + self.eps[p]
-        return nt.Rows(self.st, held, drive, y, parts, vscale)
+        undriven = (stim == 0.0) & ~self.has_emf[p]
+        return nt.Rows(self.st, held, drive, y, parts, vscale, undriven)
 
     def start(self, rows: nt.Rows, cases):
         p = cases // self.s

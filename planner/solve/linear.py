@@ -62,6 +62,20 @@ class LinearPart:
         self.interior = [i for i in range(n) if i not in fixed and i not in tset and i not in skip]
         self.floating = np.array([m not in lin_nodes for m in self.touched], dtype=bool)
         self.anchors = np.nonzero(~self.floating)[0]
+        # anchors whose linear part reaches the reference or the held node (the others hang in an
+        # island that only nonlinear parts join to the rest: its open-circuit voltage is undefined)
+        parent = list(range(n))
+
+        def find(x):
+            while parent[x] != x:
+                parent[x] = parent[parent[x]]
+                x = parent[x]
+            return x
+
+        for a, b in zip(circuit.lin_a.tolist(), circuit.lin_b.tolist()):
+            parent[find(a)] = find(b)
+        roots = {find(x) for x in fixed}
+        self.grounded = np.array([find(self.touched[k]) in roots for k in self.anchors], dtype=bool)
         self.circuit = circuit
         self.held = held
         t, ni, na = len(self.touched), len(self.interior), len(self.anchors)

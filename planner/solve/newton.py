@@ -38,8 +38,9 @@ GROUND, HELD = -1, -2
 
 #: Least slope of a varistor in the Newton step, relative to alpha I_1 / V_1.
 VARISTOR_FLOOR = 1e-12
-#: A node that no linear branch reaches is converged only when its current balance, relative
-#: to its largest current, is below this (a vanishing slope gives no step, not convergence).
+#: A case is converged only when the current balance of every touched node, relative to the
+#: node's largest current term, is below this at the start of its last step (a vanishing slope
+#: or a start far off gives a small step, not convergence).
 BALANCE_TOL = 1e-6
 
 JUNCTION_FIELDS = ("i_s", "nvt", "bv", "ibv", "r_s", "g_p")
@@ -193,11 +194,13 @@ class Rows:
     ``drive[m]``: current into touched node m from the stimulus and the EMFs;
     ``y[(i, j)]``: the reduced admittance between anchors i and j; ``parts``: the
     per-case parameters of each part; ``vscale``: each case's size of voltages
-    (for the convergence test of a case whose whole solution is tiny).
+    (for the convergence test of a case whose whole solution is tiny); ``undriven``:
+    the cases with neither stimulus nor EMF (their solution is zero).
     """
 
-    def __init__(self, st: Structure, held, drive, y, parts, vscale):
+    def __init__(self, st: Structure, held, drive, y, parts, vscale, undriven):
         self.st = st
+        self.undriven = undriven
         self.held = held
         self.drive = drive
         self.y = y
@@ -208,7 +211,7 @@ class Rows:
     def subset(self, idx) -> "Rows":
         return Rows(self.st, take(self.held, idx), [take(d, idx) for d in self.drive],
                     {k: take(v, idx) for k, v in self.y.items()}, [p.subset(idx) for p in self.parts],
-                    self.vscale[idx])
+                    self.vscale[idx], self.undriven[idx])
 
 
 def part_voltage(st: Structure, u, held, d):
@@ -350,13 +353,18 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
             ev.append((i, y, ell, const, aux, den, r))
         # residuals and Jacobian, anchors first (unscaled)
         res = [None] * t
+        size = {}  # each anchor's largest current term, for the balance test
         a = {}
         for m in st.anchors:
             acc = -drive[m]
+            mag = np.abs(drive[m])
             for (i2, j2) in st.ys_pattern:
                 if i2 == m:
-                    acc = acc + R.y[(i2, j2)] * U[j2]
+                    term = R.y[(i2, j2)] * U[j2]
+                    acc = acc + term
+                    mag = np.maximum(mag, np.abs(term))
             res[m] = acc
+            size[m] = mag
         for key, val in R.y.items():
             a[key] = val
         for d in range(nd):
@@ -367,6 +375,7 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
             flow = i + geq * r
             for m, s in st.plain_ends[d]:
                 res[m] = res[m] + flow if s > 0 else res[m] - flow
+                size[m] = np.maximum(size[m], np.abs(flow))
                 a[(m, m)] = a.get((m, m), 0.0) + geq
             a_, c_ = st.pos[d], st.neg[d]
             if a_ >= 0 and c_ >= 0:
@@ -374,8 +383,13 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
                     a[(a_, c_)] = a.get((a_, c_), 0.0) - geq
                 if not st.floating[c_]:
                     a[(c_, a_)] = a.get((c_, a_), 0.0) - geq
-        # floating rows, each divided by its largest term
+        # Kirchhoff's law must hold at the end, not only the steps be small (a start far off, a
+        # vanishing slope): the residual against the node's largest current term
         unbalanced = None
+        for m in st.anchors:
+            off = np.abs(res[m]) > BALANCE_TOL * size[m]
+            unbalanced = off if unbalanced is None else unbalanced | off
+        # floating rows, each divided by its largest term
         for m in fl_nodes:
             big_l = None
             c_sum = 0.0

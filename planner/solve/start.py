@@ -309,7 +309,7 @@ def _share(rows, sg, v_dir, o, chosen, cur, nvt_eq, r, w):
 def zero_where_undriven(rows: Rows, u, w):
     """Start cases without drive (zero stimulus, no EMF) at exactly zero, their exact solution
     without breakdown terms (the Wright-omega start leaves rounding residue there)."""
-    undriven = np.asarray(rows.vscale == 0.0)
+    undriven = rows.undriven
     if undriven.any():
         u = np.where(undriven, 0.0, u)
         w = np.where(undriven, 0.0, w)
