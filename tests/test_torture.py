@@ -146,6 +146,88 @@ def test_fifty_ideal_junctions_in_series(volts):
     np.testing.assert_allclose(op.node_voltage("x25")[0], [volts - 25 * (volts - 1e3 * want_i) / n], rtol=1e-9)
 
 
+def _fifty_chain_engine():
+    n = 50
+    d = DiodeModel("ideal", 1e-30, n=1.0)
+    nodes = ["plus"] + [f"x{k}" for k in range(1, n)] + ["m_plus"]
+    els = [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], "ideal") for k in range(n)]
+    els.append(MovementElement("M1", "m_plus", "com"))
+    return Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[d]))
+
+
+@pytest.mark.parametrize("volts", [-1000.0, -30.0, 2.0, 1000.0])
+def test_fifty_different_ideal_junctions_in_series(volts):
+    """The same stack with each I_s drawn within a factor 3 (a Monte Carlo spread): solved junction
+    by junction, no stack shortcut. One current I through all: forward, V = R I + sum nV_t
+    ln(1 + I/I_s,k), brentq on ln I; reverse, with the least I_s (index j) and r_k = I_s,j / I_s,k,
+    V = R I + nV_t x_j + sum_k nV_t ln((1 - r_k) + r_k e^{x_j}), I = I_s,j (e^{x_j} - 1), brentq
+    on x_j: the junction with the least I_s takes nearly all of a reverse voltage.
+    """
+    rng = np.random.default_rng(11)
+    n = 50
+    f = 3.0 ** rng.uniform(-1.0, 1.0, n)
+    i_s = 1e-30 * f
+    op = _fifty_chain_engine().operate("P", [volts], factors={f"D{k + 1}": f[k:k + 1] for k in range(n)})
+    assert op.solution.fallbacks == {"source_stepping": 0, "gmin_stepping": 0}
+    if volts > 0:
+        g = lambda li: 1e3 * math.exp(li) + VT * sum(math.log1p(math.exp(li) / s) for s in i_s) - volts  # noqa: E731
+        i = math.exp(brentq(g, -300.0, math.log(volts / 1e3), xtol=1e-300, rtol=4 * np.finfo(float).eps))
+        vj = VT * np.log1p(i / i_s)
+    else:
+        j = int(np.argmin(i_s))
+        ratio = i_s[j] / i_s
+
+        def g(xj):
+            cur = i_s[j] * math.expm1(xj)
+            others = sum(math.log((1.0 - r) + r * math.exp(xj)) for k, r in enumerate(ratio) if k != j)
+            return 1e3 * cur + VT * (xj + others) - volts
+
+        xj = brentq(g, volts / VT - 1.0, 0.0, xtol=1e-300, rtol=4 * np.finfo(float).eps)
+        i = i_s[j] * math.expm1(xj)
+        with np.errstate(divide="ignore"):  # the weakest junction's own term: log(e^x_j), set below
+            vj = VT * np.log((1.0 - ratio) + ratio * math.exp(xj))
+        vj[j] = VT * xj
+        assert vj[j] < 0.9 * volts  # the weakest junction blocks
+    # tolerance: 1e-9 relative (the solver's step tolerance is 1e-10 V, then one polishing step), and
+    # 1e-10 (1 + |V|) V absolute for the small voltages across the junctions that barely block
+    got = op.solution.v_junction[0, 0]
+    assert np.all(np.abs(got - vj) <= 1e-9 * np.abs(vj) + 1e-10 * (1.0 + abs(volts)))
+    np.testing.assert_allclose(op.movement_current_a[0], [i], rtol=1e-9)
+
+
+def test_fifty_stack_project_answers():
+    """The reliability project (tests/reliability/ideal_stack_50.yaml): a 50-stack clamp each way at
+    a tap, 1000 V maximum input. faults answers (exit 0 or 1, not 2) and, at the declared maximum
+    input on the lowest range, every junction of the conducting stack holds the same voltage and
+    carries the stack's current by its own law (the contract's junction law)."""
+    import contextlib
+    import io
+    import json
+    from pathlib import Path
+
+    from planner.project import load
+
+    path = Path(__file__).resolve().parent / "reliability" / "ideal_stack_50.yaml"
+    spec = load(str(path))
+    eng = Engine(spec)
+    pos = eng.positions[0].name
+    op = eng.operate(pos, [1000.0, -1000.0])
+    nvt = solve.thermal_voltage(spec.ambient.t_ref_k)
+    for col in (0, 1):
+        cur = op.solution.i_diode[0, col]
+        vj = op.solution.v_junction[0, col]
+        on = cur > 1e-6  # the conducting stack's 50 junctions (the other stack's at +1000 V)
+        assert on.sum() == 50
+        np.testing.assert_allclose(vj[on], vj[on][0], rtol=1e-12)  # one law, one current: equal shares
+        np.testing.assert_allclose(cur[on], 1e-30 * np.expm1(vj[on] / nvt), rtol=1e-9)
+        np.testing.assert_allclose(vj[~on], -vj[on][0], rtol=1e-12)  # the other stack blocks, equally
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        code = cli.main(["faults", str(path), "--json"])
+    assert code in (0, 1)
+    assert json.loads(out.getvalue())["cases"]
+
+
 def test_clamp_pair_at_1000_volts():
     """A voltmeter's silicon clamp pair across the movement takes 1000 V through the multiplier."""
     si = DiodeModel("si", 5e-9, n=1.9, r_s_ohm=0.5, r_p_ohm=1e9)

@@ -149,14 +149,11 @@ def pnjlim(v_new, v_old, nvt, vcrit):
 def limit(new, old, p):
     """Junction-voltage limiting of one diode's Newton update, forward and into breakdown.
 
-    ``p`` holds the diode's rows (:class:`planner.solve.newton.Device`): the forward
+    ``p`` holds the diode's rows (:class:`planner.solve.newton.Junction`): the forward
     limit is :func:`pnjlim` at ``vcrit``; with a finite breakdown voltage the same
-    limit acts on -(v + BV) at the breakdown's own critical voltage.
+    limit acts on -(v + BV) at the breakdown's own critical voltage. (Neither acts on a
+    step of at most 2 nV_t; the caller skips those.)
     """
-    step = np.abs(new - old)
-    two = p.two_nvt
-    if not ((step.max() > two) if not isinstance(two, np.ndarray) else (step > two).any()):
-        return new
     new = pnjlim(new, old, p.nvt, p.vcrit)
     if p.has_bv:
         bvd = p.bv

@@ -150,7 +150,7 @@ class LinearPart:
             if bad.any():
                 raise SolveError(
                     f"{self.circuit.name}: the network is singular (a node has no resistive path to the "
-                    f"reference: {isolated_hint(self.circuit)}); connect it or give the diode a leakage resistance")
+                    f"reference: {isolated_hint(self.circuit)}); connect it to the rest of the network")
             na = len(anchor_nodes)
             self.hu[lo:hi] = x[:, :, :na]
             self.h[lo:hi] = x[:, :, na]

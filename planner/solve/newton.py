@@ -86,6 +86,11 @@ class Junction:
     def limit(self, new, old):
         return jl.limit(new, old, self)
 
+    def may_limit(self, step_abs) -> bool:
+        """Whether a step of these sizes can meet the limiting (one larger than 2 nV_t)."""
+        two = self.two_nvt
+        return bool((step_abs.max() > two) if not isinstance(two, np.ndarray) else (step_abs > two).any())
+
     def start_limits(self, w):
         """Keep a starting junction voltage off the far exponential (forward) and out of deep breakdown."""
         w = np.minimum(w, np.maximum(self.vcrit, 1.5))
@@ -128,6 +133,9 @@ class Varistor:
 
     def limit(self, new, old):
         return vl.limit(new, old, self)
+
+    def may_limit(self, step_abs) -> bool:
+        return True
 
     def start_limits(self, w):
         return w
@@ -237,8 +245,9 @@ def _evaluate(p, w, need_plain, need_log):
             em = np.expm1(xe)
             ex = em + 1.0
             i = em + ex * (x - xe) if xe is not x else em
-            i = i * p.i_s
-            y = ex * (p.i_s * p.inv_nvt)
+            i *= p.i_s
+            ex *= p.i_s * p.inv_nvt
+            y = ex
         we = wv = None
         if p.has_bv:
             wv = (w + p.bv) * (-p.inv_nvt)
@@ -248,8 +257,8 @@ def _evaluate(p, w, need_plain, need_log):
                 i = i - p.ibv * ew * (1.0 + np.fmax(wv - we, 0.0))  # no BV: -inf - -inf -> 0
                 y = y + ew * (p.ibv * p.inv_nvt)
         if need_plain and nonzero(p.g_p):
-            i = i + p.g_p * w
-            y = y + p.g_p
+            i += p.g_p * w
+            y += p.g_p
         ell = const = None
         if need_log:
             ell = p.ln_is + xe
@@ -301,14 +310,172 @@ def _scaled(p, w, aux, big_l, e_l):
     return part, ysc
 
 
+def _linearise(st: Structure, parts, U, W, held):
+    """Every part at its voltage: (i, y, ell, const, aux, den, r) per part.
+
+    ``r`` is the residual of the part's own equation V = w + R_s i(w) and ``den``
+    1 + R_s y (None without R_s): eliminating w, the part conducts i + (y/den)(r + dV).
+    """
+    ev = []
+    for d, p in enumerate(parts):
+        vq = part_voltage(st, U, held, d)
+        i, y, ell, const, aux = _evaluate(p, W[d], bool(st.plain_ends[d]) or nonzero(p.r_s), bool(st.scaled_ends[d]))
+        if nonzero(p.r_s):
+            den = p.r_s * y
+            den += 1.0
+            r = vq - W[d]
+            r -= p.r_s * i
+        else:
+            den = None
+            r = vq - W[d]
+        ev.append((i, y, ell, const, aux, den, r))
+    return ev
+
+
+def _anchor_rows(st: Structure, R: Rows, U, drive, ev, res, a):
+    """Residuals and Jacobian rows of the nodes with a linear branch; each row's current terms."""
+    terms = {}  # for the balance test
+    for m in st.anchors:
+        acc = -drive[m]
+        mine = [drive[m]]
+        for (i2, j2) in st.ys_pattern:
+            if i2 == m:
+                term = R.y[(i2, j2)] * U[j2]
+                acc = acc + term
+                mine.append(term)
+        res[m] = acc
+        terms[m] = mine
+    a.update(R.y)
+    for d, (i, y, ell, const, aux, den, r) in enumerate(ev):
+        if not st.plain_ends[d]:
+            continue
+        geq = y if den is None else y / den
+        flow = i + geq * r
+        for m, s in st.plain_ends[d]:
+            res[m] = res[m] + flow if s > 0 else res[m] - flow
+            terms[m].append(flow)
+            a[(m, m)] = a.get((m, m), 0.0) + geq
+        a_, c_ = st.pos[d], st.neg[d]
+        if a_ >= 0 and c_ >= 0:
+            if not st.floating[a_]:
+                a[(a_, c_)] = a.get((a_, c_), 0.0) - geq
+            if not st.floating[c_]:
+                a[(c_, a_)] = a.get((c_, a_), 0.0) - geq
+    return terms
+
+
+def _unbalanced(res, terms, sel):
+    """Cases ``sel`` (a mask) whose residual at some node with a linear branch exceeds
+    BALANCE_TOL of the node's largest current term: Kirchhoff's law must hold at the end, not
+    only the steps be small (a start far off, a vanishing slope)."""
+    out = None
+    for m, mine in terms.items():
+        size = None
+        for x in mine:
+            ax = np.abs(x[sel]) if isinstance(x, np.ndarray) else abs(x)
+            size = ax if size is None else np.maximum(size, ax)
+        r = res[m]
+        off = (np.abs(r[sel]) if isinstance(r, np.ndarray) else abs(r)) > BALANCE_TOL * size
+        out = off if out is None else out | off
+    return out
+
+
+def _floating_rows(st: Structure, parts, W, drive, ev, res, a):
+    """Residuals and Jacobian rows of the nodes only parts reach, each divided by its largest term;
+    the cases where one of them is out of balance (beyond BALANCE_TOL of that term)."""
+    unbalanced = None
+    for m in st.floating_nodes:
+        big_l = None
+        c_sum = 0.0
+        for d, s in st.node_parts[m]:
+            ell, const = ev[d][2], ev[d][3]
+            big_l = ell if big_l is None else np.maximum(big_l, ell)
+            if nonzero(const):
+                c_sum = c_sum + const if s > 0 else c_sum - const
+        dm = drive[m]
+        tot = c_sum - dm if nonzero(dm) else c_sum
+        with np.errstate(divide="ignore"):
+            if nonzero(tot):
+                big_l = np.maximum(big_l, np.log(np.abs(tot)))
+        big_l = np.where(np.isfinite(big_l), big_l, 0.0)
+        e_l = np.exp(np.minimum(-big_l, 709.0))
+        acc = tot * e_l if nonzero(tot) else 0.0
+        diag = 0.0
+        for d, s in st.node_parts[m]:
+            i, y, ell, const, aux, den, r = ev[d]
+            part, ysc = _scaled(parts[d], W[d], aux, big_l, e_l)
+            geq = ysc if den is None else ysc / den
+            flow = part + geq * r
+            acc = acc + flow if s > 0 else acc - flow
+            diag = diag + geq
+            other = st.neg[d] if s > 0 else st.pos[d]
+            if other >= 0:
+                a[(m, other)] = a.get((m, other), 0.0) - geq
+        res[m] = acc
+        a[(m, m)] = a.get((m, m), 0.0) + diag
+        off = np.abs(acc) > BALANCE_TOL
+        unbalanced = off if unbalanced is None else unbalanced | off
+    return unbalanced
+
+
+def _node_step(st: Structure, a, res):
+    """The node voltages' Newton step from the assembled rows."""
+    if st.t == 1:
+        piv = a[(0, 0)]
+        if isinstance(piv, np.ndarray):
+            return [-np.divide(res[0], piv, out=np.zeros_like(piv), where=piv > 0.0)]
+        return [-res[0] / piv if piv > 0.0 else 0.0 * res[0]]
+    if st.t:
+        return st.elim.solve(a, [-x for x in res])
+    return []
+
+
+def _apply(st: Structure, parts, U, W, du, ev, vs, n):
+    """Take the step: nodes in full, each part's voltage limited; the largest relative steps."""
+    worst = worst_nf = None
+    for m in range(st.t):
+        dm = du[m]
+        if not isinstance(dm, np.ndarray):
+            dm = np.full(n, dm)
+        U[m] = U[m] + dm
+        adv = np.abs(dm)
+        mag = np.abs(U[m])
+        mag += vs
+        rel = adv / mag
+        worst_nf = rel if worst_nf is None else np.maximum(worst_nf, rel, out=worst_nf)
+        mag += 1.0
+        adv /= mag
+        worst = adv if worst is None else np.maximum(worst, adv, out=worst)
+    for d, (i, y, ell, const, aux, den, r) in enumerate(ev):
+        a_, c_ = st.pos[d], st.neg[d]
+        dv = (du[a_] if a_ >= 0 else 0.0) - (du[c_] if c_ >= 0 else 0.0)
+        step = r + dv
+        if den is not None:
+            step /= den
+        old = W[d]
+        new = old + step
+        ad = np.abs(step)
+        p = parts[d]
+        if p.may_limit(ad):
+            new = p.limit(new, old)
+            ad = np.abs(new - old)
+        scale = np.abs(old)
+        scale += 1.0
+        ad /= scale
+        worst = ad if worst is None else np.maximum(worst, ad, out=worst)
+        W[d] = new
+    return worst, (worst_nf if worst_nf is not None else np.zeros(n))
+
+
 def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     """Newton iteration on the touched nodes' voltages with the parts' voltages eliminated.
 
     Returns u (T, n), w (D, n), a convergence mask (n,) and the iteration count. Cases
     leave the loop one polishing step after their largest relative step falls below
     :data:`STEP_TOL`, or at once when it falls below :data:`STEP_TINY` (node steps
-    relative to 1 + |u| + the case's voltage scale, part steps to 1 + |w|); the rows
-    are compacted when fewer than half of the cases remain. ``scale`` multiplies the
+    relative to 1 + |u| + the case's voltage scale, part steps to 1 + |w|), provided
+    every touched node's current balance is within :data:`BALANCE_TOL`; the rows are
+    compacted when fewer than half of the cases remain. ``scale`` multiplies the
     stimulus and the EMFs (source stepping); ``extra_g`` adds a conductance across
     every part (gmin stepping).
     """
@@ -335,137 +502,25 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     held, drive, parts, vs = setup(R)
     pending = np.zeros(n0, dtype=bool)
     it = 0
-    fl_nodes = st.floating_nodes
     for it in range(1, max_iter + 1):
-        # the parts: voltages, currents, conductances
-        ev = []
-        for d in range(nd):
-            p = parts[d]
-            vq = part_voltage(st, U, held, d)
-            need_log = bool(st.scaled_ends[d])
-            i, y, ell, const, aux = _evaluate(p, W[d], bool(st.plain_ends[d]) or nonzero(p.r_s), need_log)
-            if nonzero(p.r_s):
-                den = 1.0 + p.r_s * y
-                r = vq - W[d] - p.r_s * i
-            else:
-                den = None
-                r = vq - W[d]
-            ev.append((i, y, ell, const, aux, den, r))
-        # residuals and Jacobian, anchors first (unscaled)
-        res = [None] * t
-        size = {}  # each anchor's largest current term, for the balance test
-        a = {}
-        for m in st.anchors:
-            acc = -drive[m]
-            mag = np.abs(drive[m])
-            for (i2, j2) in st.ys_pattern:
-                if i2 == m:
-                    term = R.y[(i2, j2)] * U[j2]
-                    acc = acc + term
-                    mag = np.maximum(mag, np.abs(term))
-            res[m] = acc
-            size[m] = mag
-        for key, val in R.y.items():
-            a[key] = val
-        for d in range(nd):
-            i, y, ell, const, aux, den, r = ev[d]
-            if not st.plain_ends[d]:
-                continue
-            geq = y if den is None else y / den
-            flow = i + geq * r
-            for m, s in st.plain_ends[d]:
-                res[m] = res[m] + flow if s > 0 else res[m] - flow
-                size[m] = np.maximum(size[m], np.abs(flow))
-                a[(m, m)] = a.get((m, m), 0.0) + geq
-            a_, c_ = st.pos[d], st.neg[d]
-            if a_ >= 0 and c_ >= 0:
-                if not st.floating[a_]:
-                    a[(a_, c_)] = a.get((a_, c_), 0.0) - geq
-                if not st.floating[c_]:
-                    a[(c_, a_)] = a.get((c_, a_), 0.0) - geq
-        # Kirchhoff's law must hold at the end, not only the steps be small (a start far off, a
-        # vanishing slope): the residual against the node's largest current term
-        unbalanced = None
-        for m in st.anchors:
-            off = np.abs(res[m]) > BALANCE_TOL * size[m]
-            unbalanced = off if unbalanced is None else unbalanced | off
-        # floating rows, each divided by its largest term
-        for m in fl_nodes:
-            big_l = None
-            c_sum = 0.0
-            for d, s in st.node_parts[m]:
-                ell, const = ev[d][2], ev[d][3]
-                big_l = ell if big_l is None else np.maximum(big_l, ell)
-                if nonzero(const):
-                    c_sum = c_sum + const if s > 0 else c_sum - const
-            dm = drive[m]
-            tot = c_sum - dm if nonzero(dm) else c_sum
-            with np.errstate(divide="ignore"):
-                if nonzero(tot):
-                    big_l = np.maximum(big_l, np.log(np.abs(tot)))
-            big_l = np.where(np.isfinite(big_l), big_l, 0.0)
-            e_l = np.exp(np.minimum(-big_l, 709.0))
-            acc = tot * e_l if nonzero(tot) else 0.0
-            diag = 0.0
-            for d, s in st.node_parts[m]:
-                i, y, ell, const, aux, den, r = ev[d]
-                part, ysc = _scaled(parts[d], W[d], aux, big_l, e_l)
-                geq = ysc if den is None else ysc / den
-                flow = part + geq * r
-                acc = acc + flow if s > 0 else acc - flow
-                diag = diag + geq
-                other = st.neg[d] if s > 0 else st.pos[d]
-                if other >= 0:
-                    a[(m, other)] = a.get((m, other), 0.0) - geq
-            res[m] = acc
-            a[(m, m)] = a.get((m, m), 0.0) + diag
-            off = np.abs(acc) > BALANCE_TOL
-            unbalanced = off if unbalanced is None else unbalanced | off
-        if t == 1:
-            piv = a[(0, 0)]
-            if isinstance(piv, np.ndarray):
-                du = [-np.divide(res[0], piv, out=np.zeros_like(piv), where=piv > 0.0)]
-            else:
-                du = [-res[0] / piv if piv > 0.0 else 0.0 * res[0]]
-        elif t:
-            du = st.elim.solve(a, [-x for x in res])
-        else:
-            du = []
-        # node updates and the step sizes
-        worst = worst_nf = None
-        for m in range(t):
-            dm = du[m]
-            if not isinstance(dm, np.ndarray):
-                dm = np.full(R.n, dm)
-            U[m] = U[m] + dm
-            adv = np.abs(dm)
-            mag = np.abs(U[m]) + vs
-            rel = adv / mag
-            worst_nf = rel if worst_nf is None else np.maximum(worst_nf, rel)
-            mag += 1.0
-            adv /= mag
-            worst = adv if worst is None else np.maximum(worst, adv)
-        # the parts' own voltages, limited
-        for d in range(nd):
-            i, y, ell, const, aux, den, r = ev[d]
-            a_, c_ = st.pos[d], st.neg[d]
-            dv = (du[a_] if a_ >= 0 else 0.0) - (du[c_] if c_ >= 0 else 0.0)
-            step = r + dv
-            if den is not None:
-                step = step / den
-            old = W[d]
-            new = old + step
-            p = parts[d]
-            new = p.limit(new, old)
-            ad = np.abs(new - old) / (np.abs(old) + 1.0)
-            worst = ad if worst is None else np.maximum(worst, ad)
-            W[d] = new
-        if worst_nf is None:
-            worst_nf = np.zeros(R.n)
+        ev = _linearise(st, parts, U, W, held)
+        res, a = [None] * t, {}
+        terms = _anchor_rows(st, R, U, drive, ev, res, a)
+        unbalanced = _floating_rows(st, parts, W, drive, ev, res, a)
+        du = _node_step(st, a, res)
+        worst, worst_nf = _apply(st, parts, U, W, du, ev, vs, R.n)
         finished = pending | ((worst <= STEP_TINY) & (worst_nf <= STEP_TINY))
+        pending = (worst <= STEP_TOL) | finished
         if unbalanced is not None:
             finished &= ~unbalanced
-        pending = ((worst <= STEP_TOL) | finished) & (~unbalanced if unbalanced is not None else True)
+            pending &= ~unbalanced
+        if terms and pending.any():  # the balance at the other nodes, only where a case may finish
+            sel = np.nonzero(pending)[0]
+            off = _unbalanced(res, terms, sel)
+            if off.any():
+                bad = sel[off]
+                finished[bad] = False
+                pending[bad] = False
         if finished.any():
             done = idx[finished]
             ok[done] = True
