@@ -195,6 +195,32 @@ def test_fifty_different_ideal_junctions_in_series(volts):
     np.testing.assert_allclose(op.movement_current_a[0], [i], rtol=1e-9)
 
 
+@pytest.mark.parametrize("model", [DiodeModel("si", 5e-9, n=1.9, r_s_ohm=0.5, r_p_ohm=1e9),
+                                   DiodeModel("z", 1e-14, n=1.0, r_s_ohm=2.0, r_p_ohm=1e10, bv_v=5.6, ibv_a=1e-3)],
+                         ids=["silicon", "zener"])
+def test_identical_stack_as_one_junction_agrees_with_each_junction_solved(model):
+    """A stack of 8 identical junctions is solved as one composite junction (N nV_t, N BV, N R_s,
+    G_p / N: the contract's law for the N junctions exactly); making one junction's I_s differ by
+    1e-12 forces the junction-by-junction solve. Both must agree to the solver's tolerance
+    (a 1e-12 change of one I_s moves the answer by far less)."""
+    n = 8
+    nodes = ["tap"] + [f"s{k}" for k in range(1, n)] + ["com"]
+    els = [Resistor("R1", "plus", "tap", 10e3), MovementElement("M1", "tap", "com")]
+    els += [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], model.name) for k in range(n)]
+    eng = Engine(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[model]))
+    volts = np.linspace(-1000.0, 1000.0, 41)
+    one = eng.operate("P", volts)
+    each = eng.operate("P", volts, factors={"D3": np.array([1.0 + 1e-12])})
+    # white-box: the shortcut took the stack's inner nodes out of the node system, the other did not
+    assert "s3" not in [one.circuit.node_names[i] for i in one.solution._lin.touched]
+    assert "s3" in [each.circuit.node_names[i] for i in each.solution._lin.touched]
+    # tolerance: the solver's step tolerance, 1e-10 relative, then one polishing step
+    np.testing.assert_allclose(one.movement_current_a, each.movement_current_a, rtol=1e-9, atol=1e-18)
+    np.testing.assert_allclose(one.solution.v_junction, each.solution.v_junction, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(one.node_voltage("s5"), each.node_voltage("s5"), rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(one.solution.v_node, each.solution.v_node, rtol=1e-9, atol=1e-12)
+
+
 def test_fifty_stack_project_answers():
     """The reliability project (tests/reliability/ideal_stack_50.yaml): a 50-stack clamp each way at
     a tap, 1000 V maximum input. faults answers (exit 0 or 1, not 2) and, at the declared maximum
