@@ -23,7 +23,7 @@ CHUNK_FLOATS = 4_000_000
 
 
 class LinearPart:
-    """The reduced linear part of one circuit for P parameter sets.
+    r"""The reduced linear part of one circuit for P parameter sets.
 
     Attributes
     ----------
@@ -45,6 +45,24 @@ class LinearPart:
         Interior node voltages per unit stimulus and from the EMFs (``he`` None without).
     hu : ndarray, shape (P, I, A)
         Interior node voltages per volt at each anchor.
+    grounded : ndarray of bool, shape (A,)
+        Anchors whose linear part reaches the reference or the held node.
+
+    Notes
+    -----
+    With the free nodes split into interior (I) and anchors (A), the nodal matrix G and
+    the injections b (per unit stimulus) and e (the EMFs, g_j e_j into a branch's first
+    node and out of its second):
+
+    .. math:: H = -G_{II}^{-1} G_{IA}, \quad h = G_{II}^{-1} b_I, \quad h_e = G_{II}^{-1} e_I,
+              \quad Y_s = G_{AA} + G_{AI} H, \quad d = b_A - G_{AI} h, \quad d_e = e_A - G_{AI} h_e
+
+    References
+    ----------
+    G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed., Johns Hopkins, 2013
+    (block elimination, the Schur complement); C.-W. Ho, A. E. Ruehli and P. A. Brennan,
+    "The modified nodal approach to network analysis", IEEE Transactions on Circuits and
+    Systems 22(6), 1975.
     """
 
     def __init__(self, circuit, r, emf=None, skip=()):

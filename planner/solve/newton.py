@@ -23,6 +23,7 @@ import numpy as np
 
 from . import junction as jl
 from . import varistor as vl
+from .sparse import Elimination
 
 MAX_ITER = 200
 #: A case is converged one Newton step after its step falls below this [V, relative]:
@@ -190,8 +191,6 @@ class Structure:
             if self.pos[d] >= 0 and self.neg[d] >= 0:
                 edges.add((self.pos[d], self.neg[d]))
         self.ys_pattern = [(i, j) for i, j in ys_pattern]
-        from .sparse import Elimination
-
         self.elim = Elimination(self.t, edges, first=self.floating_nodes)
 
 
@@ -468,7 +467,7 @@ def _apply(st: Structure, parts, U, W, du, ev, vs, n):
 
 
 def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
-    """Newton iteration on the touched nodes' voltages with the parts' voltages eliminated.
+    r"""Newton iteration on the touched nodes' voltages with the parts' voltages eliminated.
 
     Returns u (T, n), w (D, n), a convergence mask (n,) and the iteration count. Cases
     leave the loop one polishing step after their largest relative step falls below
@@ -478,6 +477,25 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     compacted when fewer than half of the cases remain. ``scale`` multiplies the
     stimulus and the EMFs (source stepping); ``extra_g`` adds a conductance across
     every part (gmin stepping).
+
+    Notes
+    -----
+    Per step, with G_d = y_d / (1 + R_s y_d) each part's conductance seen at its nodes
+    (y_d its law's slope) and r_d = V_d - w_d - R_s i_d(w_d) the residual of its own
+    equation:
+
+    .. math:: (Y_s + A\,\mathrm{diag}(G)\,A^T)\,\Delta u = -(Y_s u - d\,s - d_e + A (i + G r)),
+              \qquad \Delta w_d = (r_d + \Delta V_d) / (1 + R_s y_d)
+
+    (A: each part's node incidence), then w limited (:func:`planner.solve.junction.pnjlim`,
+    :func:`planner.solve.varistor.limit`).
+
+    References
+    ----------
+    C.-W. Ho, A. E. Ruehli and P. A. Brennan, "The modified nodal approach to network
+    analysis", IEEE Transactions on Circuits and Systems 22(6), 504-509, 1975 (nodal
+    analysis); L. W. Nagel, *SPICE2: A Computer Program to Simulate Semiconductor
+    Circuits*, UC Berkeley ERL-M520, 1975 (Newton's method on junctions, limiting).
     """
     st = rows.st
     t, nd = st.t, len(st.kinds)
