@@ -260,8 +260,12 @@ def cycle_stats(x) -> dict:
     trigonometric polynomial of degree below N; a DC stimulus is one sample).
     """
     x = np.asarray(x, dtype=float)
-    return {"peak": float(np.max(np.abs(x))), "mean": float(np.mean(x)), "rms": float(np.sqrt(np.mean(x * x))),
-            "mean_abs": float(np.mean(np.abs(x)))}
+    n = x.size
+    ax = np.abs(x)
+    # sums over n, not np.mean: the same pairwise sums (the same numbers), without np.mean's
+    # per-call cost (this runs once per part, quantity and case: 22 000 times for a 50-stack)
+    return {"peak": float(ax.max()), "mean": float(x.sum() / n), "rms": float(np.sqrt((x * x).sum() / n)),
+            "mean_abs": float(ax.sum() / n)}
 
 
 def _entry(part, kind, quantity, value, rating, unit, limit, **extra):

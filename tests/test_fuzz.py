@@ -43,7 +43,7 @@ from planner.errors import PlannerError, ProjectError
 from planner.model import (DEFAULT_T_REF_K, Ambient, Contact, Diode, DiodeModel, Movement, MovementElement,
                            NetworkSpec, Parts, Position, Resistor, Spec)
 from planner.project import loads
-from planner.solve import G_AUX, STEP_TOL, thermal_voltage
+from planner.solve import STEP_TOL, thermal_voltage
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = {p.name: p.read_text(encoding="utf-8") for p in sorted((ROOT / "projects").glob("*.yaml"))}
@@ -309,13 +309,9 @@ def check_operating_points(eng: Engine, op, spec, stimuli, r_source):
     eps = np.finfo(float).eps
     v_all = [np.abs(op.node_voltage(x)[0]) for e in spec.network.elements for x in e.nodes]
     v_scale = np.max(v_all, axis=0) + (np.abs(stimuli) if kind == "voltage" else 0.0)
-    # Node voltages are sums of port responses (up to 1 / G_AUX = 1 Mohm, G_AUX the solver's
-    # auxiliary conductance) times port currents, terms that can exceed the node voltages by
-    # orders of magnitude; their rounding leaves up to about 1e3 ulp of (largest diode current)
-    # / G_AUX (observed: 2.6e-7 V at 0.82 A, 1400 ulp). The floor allows 1e4 ulp, 2.2e-6 V per
-    # ampere, besides a thousand ulp of the largest node voltage.
-    i_diodes = [np.abs(op.element(e.name).current_a[0]) for e in spec.network.elements if isinstance(e, Diode)]
-    v_floor = 1e3 * eps * v_scale + (1e4 * eps * np.max(i_diodes, axis=0) / G_AUX if i_diodes else 0.0)
+    # Node voltages are the touched nodes' own values or the linear part's gains (between 0 and 1)
+    # times them: their rounding is a few ulp of the largest node voltage; the floor allows 1e3.
+    v_floor = 1e3 * eps * v_scale
     net_out, mags, g_sum = {}, [], np.zeros_like(stimuli)
     for e in spec.network.elements:
         if isinstance(e, Contact) and (e.name not in closed or e.r_ohm == 0.0):

@@ -189,3 +189,74 @@ def test_zener_breakdown_against_ngspice(t_k):
     # the clamp holds the movement near BV + a few n V_t at 1000 V (sanity: it clamps)
     col = by_name(decks[0], results[0][-1:])
     assert 5.6 / 2e3 < col["movement"][0] < 7.0 / 2e3
+
+
+# --- solver-level circuits: varistors and batteries (tests/spice_flat.py) ----------------------
+
+
+def _flat_compare(circuit, sol, col, v_floor, i_floor, rtol=1e-9):
+    """Every node voltage and branch current of a sweep against ngspice's columns.
+
+    Relative to max(|value|, floor): rtol 1e-9 (ngspice runs at reltol 1e-10; the solver's step
+    tolerance is 1e-10, then one polishing step). ngspice's accuracy on a small branch current is
+    that of the largest current at its nodes (its convergence test), hence the current floor; its
+    node voltages converge to vntol = 1e-12 V absolute, hence 1e-3 V as the voltage floor.
+    """
+    worst = 0.0
+    for k in range(1, circuit.n_nodes):
+        ours = sol.node_voltage(k)[0]
+        err = np.abs(ours - col[f"v:{k}"]) / np.maximum(np.abs(ours), v_floor)
+        worst = max(worst, float(err.max()))
+    for j in range(len(circuit.branches)):
+        ours = sol.branch_current(j)[0]
+        err = np.abs(ours - col[f"i:{j}"]) / np.maximum(np.abs(ours), i_floor)
+        worst = max(worst, float(err.max()))
+    assert worst <= rtol, worst
+    return worst
+
+
+@pytest.mark.parametrize("alpha", [5.0, 30.0, 60.0])
+def test_varistor_network_against_ngspice(alpha):
+    """A varistor at the input of a voltmeter with a clamp pair across its movement, +/-1000 V.
+
+    ngspice's side: the law I = I_1 sgn(V) (|V|/V_1)^alpha as a behavioural current source
+    (tests/spice_flat.py), the junctions as in the example decks.
+    """
+    from flat_circuits import build
+    from planner.solve import Junctions, Varistors, solve
+    import spice_flat
+
+    c = build([("R1", "plus", "x"), ("R2", "x", "m"), ("M1", "m", "com")],
+              diodes=[("D1", "m", "com"), ("D2", "com", "m")], varistors=[("RV1", "x", "com")])
+    r = np.array([470.0, 98e3, 2e3])
+    nvt = 1.9 * thermal_voltage(300.0)
+    jn = Junctions(*(np.array([v, v]) for v in (5e-9, nvt, math.inf, 1e-3, 0.5, 1e-9)))
+    var = Varistors(np.array([120.0]), np.array([alpha]))
+    sweep = np.linspace(-1000.0, 1000.0, 201)
+    col = spice_flat.simulate(c, r, sweep, junctions=jn, varistors=var)
+    sol = solve(c, r, jn, col["applied"], varistors=var)
+    _flat_compare(c, sol, col, v_floor=1e-3, i_floor=1e-6)
+    # the varistor holds the line: at 1000 V it carries (1000 - V) / 470 ohm, its own law
+    v_var = sol.v_varistor[0, -1, 0]
+    np.testing.assert_allclose(sol.i_varistor[0, -1, 0], 1e-3 * (v_var / 120.0) ** alpha, rtol=1e-12)  # round-off
+
+
+@pytest.mark.parametrize("r_x", [0.5, 150.0, 1.5e3, 1e5])
+def test_ohmmeter_battery_network_against_ngspice(r_x):
+    """A shunt-zeroed series ohmmeter with a range shunt and a clamp pair across the movement: the
+    battery an EMF in its branch, the unknown R_x the resistance in series with the stimulus,
+    which sweeps from -30 V to 30 V through 0 V (a voltage applied to an ohms range, and none)."""
+    from flat_circuits import build
+    from planner.solve import Junctions, solve
+    import spice_flat
+
+    c = build([("RX", "plus", "t"), ("RSH", "t", "com"), ("R1", "t", "a"), ("RZ", "a", "m"), ("M1", "a", "m"),
+               ("R2", "m", "bp"), ("B1", "bp", "com")], diodes=[("D1", "a", "m"), ("D2", "m", "a")])
+    r = np.array([r_x, 13.6, 10.0, 4.7e3, 2e3, 9.1e3, 0.8])
+    emf = np.array([0.0, 0.0, 0.0, 0.0, 0.0, 0.0, -1.5])  # plus of the battery at com: v_com - v_bp = 1.5 V
+    nvt = 1.9 * thermal_voltage(300.0)
+    jn = Junctions(*(np.array([v, v]) for v in (5e-9, nvt, math.inf, 1e-3, 0.5, 1e-9)))
+    sweep = np.linspace(-30.0, 30.0, 121)
+    col = spice_flat.simulate(c, r, sweep, emf=emf, junctions=jn)
+    sol = solve(c, r, jn, col["applied"], emf=emf)
+    _flat_compare(c, sol, col, v_floor=1e-3, i_floor=1e-6)

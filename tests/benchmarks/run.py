@@ -16,6 +16,12 @@ One run, on one machine, with the two simulators taking turns inside each repeti
   stacks, a fuse, ten positions); the project's own toleranced parameters in 100
   builds (seed 1); 201 points per position over +/-1000 V (voltage ranges) or
   +/-5 A (current ranges): 201 000 circuits.
+* **Decks V and O, the newer parts** (``tests/benchmarks/parts.py``): a varistor at the
+  input of a voltmeter and a battery-driven ohms range with a clamp pair, against ngspice
+  on solver-level decks (``tests/spice_flat.py``), 1000 builds of 201 points each.
+* **The stack**: ``planner faults`` of ``tests/reliability/ideal_stack_50.yaml`` (a clamp of
+  50 ideal junctions per direction at a tap, 1000 V maximum input) as a whole process, with
+  the same project at one junction per direction beside it; the target is under 2 s.
 * **The check**: ``planner check projects/bench_multimeter.yaml`` (every position, 2000
   builds, the temperature points, linearity tables, worst case) as a whole process,
   against ngspice solving the same operating points: the engine calls of the check
@@ -67,6 +73,9 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests"))
 
 import spice  # noqa: E402  (tests/spice.py: the deck writer and runner)
+
+sys.path.insert(0, str(ROOT / "tests" / "benchmarks"))
+import parts  # noqa: E402  (the newer parts' decks and the ideal-junction stack)
 
 EXAMPLE = ROOT / "projects" / "bench_multimeter.yaml"
 #: ngspice options of the benchmark: tight enough for agreement to about 1e-9.
@@ -354,21 +363,27 @@ def main(argv=None) -> int:
                "repeat": repeat, "quick": bool(args.quick)}
     tight_diffs = []
 
-    # decks A and B -----------------------------------------------------------------------------------
+    # decks A and B, and the newer parts' decks V and O ------------------------------------------------
+    decks = []
     for key, build, builds in (("deck_a", deck_a, builds_a), ("deck_b", deck_b, builds_b)):
         eng, jobs = build(builds)
-        i_fs = eng.spec.movement.i_fs_a
-        circuits = sum(len(s) * len(next(iter(f.values()))) for _, s, f in jobs)
-        solve_jobs(eng, jobs)  # warm the engine's compiled states and numpy
+        decks.append((key, (lambda eng=eng, jobs=jobs: solve_jobs(eng, jobs)),
+                      (lambda native=False, eng=eng, jobs=jobs: spice_jobs(eng, jobs, native=native)),
+                      eng.spec.movement.i_fs_a, sum(len(s) * len(next(iter(f.values()))) for _, s, f in jobs)))
+    for key, build in (("deck_v", parts.deck_v), ("deck_o", parts.deck_o)):
+        fd = build(builds_a)
+        decks.append((key, fd.solve, (lambda native=False, fd=fd: fd.spice()), fd.i_fs, fd.circuits))
+    for key, solve_fn, spice_fn, i_fs, circuits in decks:
+        solve_fn()  # warm the engine's compiled states and numpy
         entry = {"circuits": circuits, "planner_s": [], "ngspice_s": [], "ngspice_native_s": [], "ratio": []}
         if have_spice:
             print(f"{key}: calibrating ngspice ...", flush=True)
-            side = SpiceSide(*spice_jobs(eng, jobs))
-            native = SpiceSide(*spice_jobs(eng, jobs, native=True)) if key == "deck_a" else None
+            side = SpiceSide(*spice_fn())
+            native = SpiceSide(*spice_fn(native=True)) if key == "deck_a" else None
             entry["ngspice_decks"] = {m: side.mode.count(m) for m in ("tight", "loose", "skip")}
         for rep in range(repeat):
             print(f"{key}: repetition {rep + 1} of {repeat}", flush=True)
-            t_p, ours = timed(lambda: solve_jobs(eng, jobs))
+            t_p, ours = timed(solve_fn)
             entry["planner_s"].append(t_p)
             if have_spice:
                 t_s, theirs, tags = side.run()
@@ -451,6 +466,15 @@ def main(argv=None) -> int:
                               "scaling_exponent": exponent, "fit_intercept_s": a, "fit_per_build_s": b,
                               "fit_per_build_position_s": b / max(positions, 1)}
 
+    # the 50-junction ideal stack: planner faults as a whole process, beside one junction ---------------
+    cmd_50, cmd_1 = parts.stack_commands(planner_exe())
+    t50, t1 = [], []
+    for _ in range(max(3, repeat)):
+        t50.append(process_seconds(cmd_50))
+        t1.append(process_seconds(cmd_1))
+    results["stack"] = {"faults_50_s": t50, "faults_1_s": t1, "faults_50_median_s": med(t50),
+                        "faults_1_median_s": med(t1), "target_s": 2.0, "met": med(t50) < 2.0}
+
     # planner --help ------------------------------------------------------------------------------------
     help_s = [process_seconds(planner_exe() + ["--help"]) for _ in range(max(3, repeat))]
     results["planner_help_s"] = med(help_s)
@@ -504,7 +528,8 @@ def _solved(e) -> str:
 def table(r) -> str:
     """The summary table."""
     lines = ["", f"{'':34}{'planner':>14}{'ngspice':>14}{'ratio':>9}{'max diff':>11}{'median diff':>13}"]
-    for key, title in (("deck_a", "deck A: meter deck, 201 points"), ("deck_b", "deck B: bench_multimeter")):
+    for key, title in (("deck_a", "deck A: meter deck, 201 points"), ("deck_b", "deck B: bench_multimeter"),
+                       ("deck_v", "deck V: varistor at the input"), ("deck_o", "deck O: ohms range, battery")):
         e = r[key]
         lines.append(f"{title:<34}{_fmt(e['planner_circuits_per_s']) + '/s':>14}"
                      f"{_fmt(e.get('ngspice_circuits_per_s')) + '/s':>14}{_fmt(e.get('throughput_ratio')) + 'x':>9}"
@@ -530,6 +555,9 @@ def table(r) -> str:
         lines.append(f"check scaling: builds {s['builds']} -> {', '.join(f'{t:.2f} s' for t in s['check_in_process_s'])}"
                      f"; log-log slope {s['scaling_exponent']:.2f}; {s['fit_per_build_position_s'] * 1e6:.2f} us "
                      f"per build x position + {s['fit_intercept_s']:.2f} s")
+    st = r["stack"]
+    lines.append(f"planner faults, 50-junction ideal stack: {st['faults_50_median_s']:.2f} s (one junction: "
+                 f"{st['faults_1_median_s']:.2f} s; target < {st['target_s']:.0f} s: {'met' if st['met'] else 'NOT met'})")
     lines.append(f"planner --help: {r['planner_help_s'] * 1e3:.0f} ms; load {r['machine']['load_before'][0]:.2f} "
                  f"before, {r['machine']['load_after'][0]:.2f} after")
     return "\n".join(lines)
