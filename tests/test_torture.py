@@ -136,7 +136,7 @@ def test_fifty_ideal_junctions_in_series(volts):
     nodes = ["plus"] + [f"x{k}" for k in range(1, n)] + ["m_plus"]
     els = [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], "ideal") for k in range(n)]
     els.append(MovementElement("M1", "m_plus", "com"))
-    eng = Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[d]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[d])))
     op = eng.operate("P", [volts])
     g = lambda vj: n * vj + 1e-30 * math.expm1(min(vj / VT, 700.0)) * 1e3 - volts  # noqa: E731
     vj = brentq(g, min(volts / n, 0.0) - 1.0, max(volts / n, 0.0) + 1.0, xtol=1e-300, rtol=4 * np.finfo(float).eps)
@@ -153,7 +153,7 @@ def _fifty_chain_engine():
     nodes = ["plus"] + [f"x{k}" for k in range(1, n)] + ["m_plus"]
     els = [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], "ideal") for k in range(n)]
     els.append(MovementElement("M1", "m_plus", "com"))
-    return Engine(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[d]))
+    return Engine(build(make_spec(els, [P()], i_fs_a=1e-3, r_coil_ohm=1e3, diodes=[d])))
 
 
 @pytest.mark.parametrize("volts", [-1000.0, -30.0, 2.0, 1000.0])
@@ -208,7 +208,7 @@ def test_identical_stack_as_one_junction_agrees_with_each_junction_solved(model)
     nodes = ["tap"] + [f"s{k}" for k in range(1, n)] + ["com"]
     els = [Resistor("R1", "plus", "tap", 10e3), MovementElement("M1", "tap", "com")]
     els += [Diode(f"D{k + 1}", nodes[k], nodes[k + 1], model.name) for k in range(n)]
-    eng = Engine(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[model]))
+    eng = Engine(build(make_spec(els, [P()], i_fs_a=50e-6, r_coil_ohm=2e3, diodes=[model])))
     volts = np.linspace(-1000.0, 1000.0, 41)
     one = eng.operate("P", volts)
     each = eng.operate("P", volts, factors={"D3": np.array([1.0 + 1e-12])})
@@ -236,7 +236,7 @@ def test_fifty_stack_project_answers():
 
     path = Path(__file__).resolve().parent / "reliability" / "ideal_stack_50.yaml"
     spec = load(str(path))
-    eng = Engine(spec)
+    eng = Engine(build(spec))
     pos = eng.positions[0].name
     op = eng.operate(pos, [1000.0, -1000.0])
     nvt = solve.thermal_voltage(spec.ambient.t_ref_k)
