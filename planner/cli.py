@@ -227,7 +227,7 @@ def cmd_protect(args) -> int:
     if args.write:
         _check_output(args.write, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .clamps import format_protect, protect_project, write_protected
+    from .protect import format_protect, protect_project, write_protected
 
     share = 0.25
     if args.share is not None:

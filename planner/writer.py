@@ -2,7 +2,7 @@
 
 The planner writes project files in two places: ``planner size --write-network``
 (the sized network made explicit) and the protection search
-(:mod:`planner.clamps`: the chosen clamp placement written back). Both keep the
+(:mod:`planner.protect`: the chosen clamp placement written back). Both keep the
 user's file as it is - comments, order, every other section - and replace only
 the sections they change; the replaced text stays in the file as comments, the
 record of what was there. Every quantity is written with its unit and parses

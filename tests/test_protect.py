@@ -1,15 +1,16 @@
-"""Tests of planner.clamps: the clamp placement search, checked on the written project.
+"""Tests of planner.protect end to end: the clamp placement search, checked on the written project.
 
 The decisive checks run the planner's own misrange matrix (``faults_project``)
 and accuracy proof (``check_project``) on the project file the search wrote,
-never the search's bookkeeping.
+never the search's bookkeeping. The building blocks are tested in
+``test_protect_candidates.py``, ``test_protect_context.py``,
+``test_protect_ordering.py``; the written file in ``test_protect_write.py``.
 """
 
 from __future__ import annotations
 
 import json
 import math
-import shutil
 from dataclasses import replace
 
 import numpy as np
@@ -18,15 +19,13 @@ from scipy.optimize import brentq
 
 from planner import model as m
 from planner.accuracy import check_project
-from planner.clamps import (Combo, Site, Stack, _Search, _signature, clamp_diodes, format_protect, lex_best,
-                            lex_compare, protect_project, protected_text, write_protected)
 from planner.design import build
-from planner.engine import Engine
-from planner.errors import ProjectError, UsageError
+from planner.errors import UsageError
 from planner.faults import faults_project
 from planner.project import load, loads
+from planner.protect import clamp_diodes, format_protect, protect_project, write_protected
 
-from conftest import PROJECTS, VOLTMETER
+from conftest import VOLTMETER
 
 SHARE = 0.25  # the issue's default requirement: a quarter of the class at the hottest ambient
 
@@ -178,54 +177,6 @@ def test_clamp_error_across_movement_matches_shockley_hand_computation(pocket):
     np.testing.assert_allclose(row["250 V"]["hot_linearity_error_pct"], lost_pct, rtol=1e-5)
 
 
-# --- the written file ------------------------------------------------------------------------------
-
-
-def test_written_file_loads_validates_and_uses_fresh_designators(pocket, written):
-    ref = pytest.importorskip("eseries")  # independent IEC 60063 tables (PyPI package 'eseries')
-    spec, result = pocket
-    Engine(build(written))  # graph checks pass
-    chosen = result["chosen"]
-    names = {e.name for e in written.network.elements}
-    old = {e.name for e in spec.network.elements}
-    for n in clamp_diodes(spec.network):
-        assert n not in names  # the old clamps are gone...
-    new_diodes = set(clamp_diodes(written.network))
-    assert new_diodes and not (new_diodes & old)  # ...and the new ones have fresh designators
-    assert len(new_diodes) == chosen["parts_count"] - (1 if chosen["site_kind"] == "split" else 0)
-    if chosen["site_kind"] == "split":
-        assert chosen["split_element"] not in names
-        split = [e for e in written.network.elements if isinstance(e, m.Resistor) and e.name not in old]
-        assert len(split) == 2  # the split resistor replaced by two parts
-        values = [e.value_ohm for e in split]
-        for v in values:
-            # IEC 60063 E96 value, per the PyPI package 'eseries' (find_nearest returns the value itself)
-            assert math.isclose(ref.find_nearest(ref.E96, v), v, rel_tol=1e-9), v
-        target = spec.network.element(chosen["split_element"]).value_ohm
-        allowed = spec.analysis.allowed_share * spec.movement.class_index / 100.0
-        assert abs(sum(values) - target) <= allowed * target
-        assert min(values) == chosen["split_ohm"]
-
-
-def test_write_never_overwrites_the_input(pocket, tmp_path):
-    spec, result = pocket
-    copy = tmp_path / "pocket.yaml"
-    shutil.copy(VOLTMETER, copy)
-    original = copy.read_bytes()
-    local = load(copy)
-    with pytest.raises(UsageError):
-        write_protected(local, result, copy)
-    assert copy.read_bytes() == original
-
-
-def test_text_keeps_the_old_network_as_comments(pocket):
-    spec, result = pocket
-    text = protected_text(spec, result)
-    assert "Fenwick Street teaching workshop" in text  # the file's own comments survive
-    assert "# The network before the protection search" in text
-    assert text.count("\nnetwork:") == 1
-
-
 # --- determinism, output ----------------------------------------------------------------------
 
 
@@ -298,82 +249,14 @@ def test_sized_project_gets_a_new_clamps_section(tmp_path):
 
 
 @pytest.mark.parametrize("share", [0.0, -0.1, 1.5, float("nan"), "a quarter", True])
-def test_bad_share_is_a_usage_error(pocket, share):
-    spec, _ = pocket
+def test_bad_share_is_a_usage_error(voltmeter_spec, share):
+    spec = voltmeter_spec
     with pytest.raises(UsageError):
         protect_project(spec, share=share)
 
 
-def test_share_per_position(pocket):
-    spec, _ = pocket
-    with pytest.raises(UsageError, match="no position"):
-        protect_project(spec, share={"0.7 V": 0.2})
-    ctx = _Search(build(spec), {"0.5 V": 0.5}, None, 100, None)
-    assert ctx.limits["0.5 V"] == 0.5 * spec.movement.class_index
-    assert ctx.limits["10 V"] == 0.25 * spec.movement.class_index
-
-
-def test_project_without_diode_models_is_a_project_error(pocket):
-    spec, _ = pocket
-    net = spec.network
-    bare = replace(spec, network=replace(net, elements=tuple(e for e in net.elements if not isinstance(e, m.Diode))),
-                   parts=replace(spec.parts, diodes={}))
-    with pytest.raises(ProjectError, match="no diode models"):
-        protect_project(bare)
-
-
-def test_candidate_cap_stops_the_search(pocket):
-    spec, _ = pocket
+def test_candidate_cap_stops_the_search(voltmeter_spec):
+    spec = voltmeter_spec
     result = protect_project(spec, max_candidates=30)
     assert result["truncated"] is True
     assert result["candidates_evaluated"] <= 30
-
-
-# --- building blocks -----------------------------------------------------------------------------------
-
-
-def test_stack_orientation_junction_and_breakdown(pocket):
-    spec, _ = pocket
-    zener = m.DiodeModel("z", i_s_a=1e-12, n=1.2, r_s_ohm=2.0, bv_v=2.4)
-    spec2 = replace(spec, parts=replace(spec.parts, diodes={**spec.parts.diodes, "z": zener}))
-    ctx = _Search(build(spec2), 0.25, None, 100, None)
-    site = Site("movement", "movement", "m_plus")
-    cases = {
-        # (direction, mode): is the anode at the clamp node?  A forward clamp conducts for a
-        # positive clamp node: forward-biased with its anode there, in breakdown with its cathode
-        ("forward", "junction"): True,
-        ("forward", "breakdown"): False,
-        ("reverse", "junction"): False,
-        ("reverse", "breakdown"): True,
-    }
-    for (direction, mode), anode_at_node in cases.items():
-        st = Stack("z", 2, mode)
-        combo = Combo(site, st if direction == "forward" else None, st if direction == "reverse" else None)
-        net, clamp, _, _ = ctx.build(combo)
-        diodes = [net.element(n) for n in clamp]
-        assert len(diodes) == 2
-        at_node = [d for d in diodes if "m_plus" in (d.anode, d.cathode)]
-        assert len(at_node) == 1
-        assert (at_node[0].anode == "m_plus") is anode_at_node
-        Engine(build(replace(spec2, network=net)))  # a valid network: the stack's middle node joins two diodes
-    # a forward zener in breakdown is the same part the same way round as a reverse junction stack
-    assert _signature(Combo(site, Stack("z", 1, "breakdown"), None)) == \
-        _signature(Combo(site, None, Stack("z", 1, "junction")))
-
-
-def test_clamp_diodes_of_the_examples():
-    spec = load(PROJECTS / "bench_multimeter.yaml")
-    net = build(spec).net
-    # the movement pair and the two two-diode stacks at the chain tap
-    assert sorted(clamp_diodes(net)) == sorted(e.name for e in net.elements if isinstance(e, m.Diode))
-    assert len(clamp_diodes(net)) == 6
-
-
-def test_lex_compare_and_lex_best():
-    assert lex_compare([5.0, 1.0], [6.0, 0.5]) == -1  # the worst position decides
-    assert lex_compare([6.0, 1.0], [5.0, 0.5]) == 1
-    assert lex_compare([10.0, 3.0], [10.1, 6.0]) == -1  # worst within 2 %: the next decides
-    assert lex_compare([10.0, 3.0], [10.1, 3.05]) == 0
-    assert lex_compare([1.0, 9.0], [9.0, 1.0]) == 0  # order of the positions does not matter
-    items = [("a", [10.0, 6.0]), ("b", [10.1, 3.0]), ("c", [12.0, 1.0])]
-    assert [x[0] for x in lex_best(items, lambda x: x[1])] == ["b"]

@@ -1,0 +1,442 @@
+"""Evaluating candidates: a topology run over the fault stimuli and positions, batched, and judged.
+
+A :class:`Topology` is a candidate network with its Engine and the parts to
+watch; :func:`run` solves it for a batch of split resistances (or standard-value
+pairs) under every fault stimulus of every position and at the linearity points
+at the hottest ambient, and returns :class:`Metrics` (one entry per row).
+:func:`feasible`, :func:`slack`, :func:`accuracy_ok` and :func:`share_of_class`
+judge them against the requirement; a :class:`Point` is one evaluated placement.
+
+Public API
+----------
+:class:`Metrics`, :class:`Topology`, :class:`Point`, :func:`topology`,
+:func:`topology_of`, :func:`bare_readings`, :func:`run`, :func:`accuracy_ok`,
+:func:`feasible`, :func:`slack`, :func:`share_of_class`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from ..accuracy import current_carrying
+from ..engine import Engine
+from ..errors import SolveError
+from ..model import NetworkSpec, Resistor
+from .candidates import Combo, clamp_diodes, place_clamp
+from .context import SearchContext
+from .ordering import lex_score
+
+__all__ = [
+    "FRACTIONS",
+    "SEARCH_PHASE_POINTS",
+    "REPORT_PHASE_POINTS",
+    "EXCEED",
+    "Metrics",
+    "Topology",
+    "Point",
+    "topology",
+    "topology_of",
+    "bare_readings",
+    "run",
+    "accuracy_ok",
+    "feasible",
+    "slack",
+    "share_of_class",
+]
+
+#: Linearity points, fractions of full scale (those of ``planner check``).
+FRACTIONS = np.arange(1, 11) / 10.0
+#: Phase points per sine cycle during the search. A multiple of 4 hits both crests
+#: exactly, and the movement current of this resistive network peaks at the
+#: crest, so the peak multiples are exact; the cycle means (diode current, power)
+#: carry the rectangle rule's error, which the reported rows cut to below 0.1 %
+#: with :data:`REPORT_PHASE_POINTS`.
+SEARCH_PHASE_POINTS = 16
+REPORT_PHASE_POINTS = 64
+#: A figure counts as over its limit only beyond this factor (round-off).
+EXCEED = 1.0 + 1e-9
+
+
+@dataclass
+class Metrics:
+    """What one batch of candidates does, one entry per row (split resistance).
+
+    Multiples are |I_m| / I_fs; errors in % of full scale; power [W].
+    """
+
+    forward: np.ndarray
+    reverse: np.ndarray
+    forward_case: list
+    reverse_case: list
+    max_input_forward: np.ndarray
+    max_input_reverse: np.ndarray
+    error_pct: dict  # position -> (P,) clamp error at the hottest ambient
+    total_pct: dict  # position -> (P,) whole error at the hottest ambient
+    stress: np.ndarray
+    stress_case: list
+    power_w: np.ndarray
+    pos_forward: dict  # position -> (P,) worst forward multiple on that position
+    pos_reverse: dict  # position -> (P,) worst reverse multiple on that position
+    failed: str | None = None
+
+    @property
+    def worst(self) -> np.ndarray:
+        return np.maximum(self.forward, self.reverse)
+
+    def position_worst(self) -> np.ndarray:
+        """Worst multiple of each position, shape (P, positions), in position order."""
+        return np.column_stack([np.maximum(self.pos_forward[k], self.pos_reverse[k]) for k in self.pos_forward])
+
+    def row(self, i: int) -> "Metrics":
+        def pick(x):
+            return x[i:i + 1]
+
+        def pick_all(d):
+            return {k: pick(v) for k, v in d.items()}
+
+        return Metrics(pick(self.forward), pick(self.reverse), self.forward_case[i:i + 1], self.reverse_case[i:i + 1],
+                       pick(self.max_input_forward), pick(self.max_input_reverse), pick_all(self.error_pct),
+                       pick_all(self.total_pct), pick(self.stress), self.stress_case[i:i + 1], pick(self.power_w),
+                       pick_all(self.pos_forward), pick_all(self.pos_reverse), self.failed)
+
+
+@dataclass
+class Topology:
+    """A candidate network, its engine and what to watch in it."""
+
+    net: NetworkSpec
+    engine: Engine
+    clamp: tuple  # clamp diode designators
+    watch: tuple  # clamp diodes and split resistors: the parts whose power counts
+    factor: tuple | None = None  # (upper, lower, R_total, upper_nominal, lower_nominal) for a split on a grid
+    bare_key: object = None  # None: readings without clamps are those of the base network
+    bare: dict | None = None
+    memo: dict = field(default_factory=dict)
+    carrying: dict | None = None  # position -> designators that carry current in it
+    static: dict = field(default_factory=dict)  # (position, phase points) -> figures that no row changes
+    bare_engine: Engine | None = None  # the same network without its clamp diodes
+
+
+@dataclass
+class Point:
+    """One evaluated placement: a combo at a split resistance (None off splits)."""
+
+    combo: Combo
+    r: float | None
+    metrics: Metrics  # one row
+    feasible: bool
+    upper: tuple | None = None
+    lower: tuple | None = None
+    stage: str = "grid"
+    clamps: tuple | None = None  # the ``clamps:`` requests (sized projects)
+    net: NetworkSpec | None = None  # the sized network of those requests
+
+    @property
+    def worst(self) -> float:
+        return float(self.metrics.worst[0])
+
+    @property
+    def multiples(self) -> np.ndarray:
+        """Worst movement multiple of each position."""
+        return self.metrics.position_worst()[0]
+
+    @property
+    def score(self) -> float:
+        return lex_score(self.metrics.position_worst()[0])
+
+
+# --- topologies -------------------------------------------------------------------------------
+
+
+def topology(ctx: SearchContext, combo: Combo, **kw) -> Topology:
+    """The base network with a combo placed (:func:`planner.protect.candidates.place_clamp`), ready to run."""
+    net, clamp, watch, factor = place_clamp(ctx, combo, **kw)
+    eng = Engine(ctx.design.variant(net))
+    # a grid split keeps the sum of its two parts, hence the readings without
+    # clamps, those of the base network exactly
+    key = None if (factor is not None or combo.site.kind != "split") else tuple(
+        (e.name, e.value_ohm) for e in net.elements if isinstance(e, Resistor))
+    return Topology(net, eng, clamp, watch, factor, key)
+
+
+def topology_of(ctx: SearchContext, net: NetworkSpec, watch_extra=()) -> Topology:
+    """A topology around a whole network (the project as given, a sized candidate)."""
+    clamp = tuple(clamp_diodes(net))
+    key = tuple((e.name, e.value_ohm) for e in net.elements if isinstance(e, Resistor))
+    return Topology(net, Engine(ctx.design.variant(net)), clamp, clamp + tuple(watch_extra), None, key)
+
+
+def bare_readings(ctx: SearchContext, topo: Topology) -> dict:
+    """Readings at the hottest ambient with the clamp diodes taken out, per position (10,)."""
+    if topo.bare is not None:
+        return topo.bare
+    if topo.bare_key is None:
+        if ctx.bare_base is None:
+            ctx.bare_base = _readings(ctx, ctx.base)
+        topo.bare = ctx.bare_base
+    else:
+        if topo.bare_key not in ctx.bare_cache:
+            net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+            ctx.bare_cache[topo.bare_key] = _readings(ctx, net)
+        topo.bare = ctx.bare_cache[topo.bare_key]
+    return topo.bare
+
+
+def _readings(ctx: SearchContext, net: NetworkSpec) -> dict:
+    """Readings of a network at the linearity points at the hottest ambient, per position."""
+    eng = Engine(ctx.design.variant(net))
+    return {p.name: eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot).reading()[0]
+            for p in ctx.positions}
+
+
+# --- running a batch ----------------------------------------------------------------------------
+
+
+def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase: int = SEARCH_PHASE_POINTS,
+        count: bool = True) -> Metrics:
+    """Evaluate a topology for a batch of split resistances (one row when None).
+
+    Parameters
+    ----------
+    ctx : SearchContext
+    topo : Topology
+    r_rows : array_like, optional
+        Split resistances below the tap [ohm] of a grid topology, one row each.
+    pairs : (sequence, sequence), optional
+        (upper values, lower values) [ohm]: the two parts of a grid split row by
+        row instead (standard values).
+    n_phase : int
+        Phase points per sine cycle.
+    count : bool
+        False leaves the evaluation out of the candidate count (the reported
+        rows' final pass).
+
+    Returns
+    -------
+    Metrics
+        One entry per row; every figure infinite (``failed`` set) when the
+        solver fails.
+
+    Notes
+    -----
+    Per position, the fault stimuli are solved in one call of
+    :meth:`Engine.operate` per stimulus kind and source impedance (rows:
+    split resistances x stimuli; columns: the samples of one sine cycle, a DC
+    value repeated), a source's current limit by solving its limited samples
+    again as a current source (as :func:`planner.stress.solve_waveforms` does);
+    the linearity points at the hottest ambient in one more call.
+    """
+    if pairs is not None:
+        rows = len(pairs[0])
+    else:
+        rows = 1 if r_rows is None else len(r_rows)
+    if count:
+        ctx.evaluated += rows
+    else:
+        ctx.reevaluated += rows
+    try:
+        return _run_rows(ctx, topo, _factors(topo, r_rows, pairs), rows, n_phase, pairs is not None)
+    except SolveError as e:
+        inf = np.full(rows, np.inf)
+        none = [None] * rows
+
+        def per():
+            return {p.name: inf.copy() for p in ctx.positions}
+
+        return Metrics(inf, inf.copy(), none, none, inf.copy(), inf.copy(), per(), per(), inf.copy(), none,
+                       inf.copy(), per(), per(), failed=e.one_line())
+
+
+def _factors(topo: Topology, r_rows, pairs):
+    """Factors of the split's two parts: nominal value x factor = the row's value."""
+    if topo.factor is None or (r_rows is None and pairs is None):
+        return None
+    up, lo, total, up0, lo0 = topo.factor
+    if pairs is not None:
+        return {up: np.asarray(pairs[0], dtype=float) / up0, lo: np.asarray(pairs[1], dtype=float) / lo0}
+    r = np.asarray(r_rows, dtype=float)
+    return {up: (total - r) / up0, lo: r / lo0}
+
+
+def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, own_bare: bool = False) -> Metrics:
+    """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`)."""
+    if topo.carrying is None:
+        topo.carrying = {p.name: current_carrying(topo.engine, p.name) for p in ctx.positions}
+    if own_bare and fac is not None:
+        # standard values: the two parts no longer sum to the resistor exactly, so
+        # the readings without clamps are those of the same parts, row by row
+        if topo.bare_engine is None:
+            net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+            topo.bare_engine = Engine(ctx.design.variant(net))
+        bare = {p.name: topo.bare_engine.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot,
+                                                 factors=fac).reading() for p in ctx.positions}
+    else:
+        bare = bare_readings(ctx, topo)
+    fwd, rev, mi_f, mi_r, stress, power = (np.zeros(rows) for _ in range(6))
+    fcase, rcase, scase = [None] * rows, [None] * rows, [None] * rows
+    err, tot, pf, pr = {}, {}, {}, {}
+    for p in ctx.positions:
+        # a position whose current-carrying part holds neither part of the split is
+        # the same for every row: solve it once
+        varies = fac is not None and any(n in topo.carrying[p.name] for n in fac)
+        if varies:
+            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name])
+        else:
+            key = (p.name, n_phase)
+            if key not in topo.static:
+                topo.static[key] = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1])
+            r = topo.static[key]
+        if not varies and rows > 1:
+            r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
+                 for key, v in r.items()}
+        pf[p.name], pr[p.name] = r["forward"], r["reverse"]
+        err[p.name], tot[p.name] = r["error"], r["total"]
+        for arr, cases, new, newc in ((fwd, fcase, r["forward"], r["forward_case"]),
+                                      (rev, rcase, r["reverse"], r["reverse_case"]),
+                                      (stress, scase, r["stress"], r["stress_case"])):
+            for i in np.nonzero(new > arr)[0]:
+                cases[i] = newc[i]
+            arr[:] = np.maximum(arr, new)
+        mi_f[:] = np.maximum(mi_f, r["max_input_forward"])
+        mi_r[:] = np.maximum(mi_r, r["max_input_reverse"])
+        power[:] = np.maximum(power, r["power"])
+    return Metrics(fwd, rev, fcase, rcase, mi_f, mi_r, err, tot, stress, scase, power, pf, pr)
+
+
+def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare) -> dict:
+    """Every figure of one position for ``rows`` rows (see :func:`run`)."""
+    eng = topo.engine
+    diodes = {n: ctx.spec.parts.diodes[topo.net.element(n).model] for n in topo.clamp}
+    out = {key: np.zeros(rows) for key in ("forward", "reverse", "max_input_forward", "max_input_reverse",
+                                            "stress", "power")}
+    for key in ("forward_case", "reverse_case", "stress_case"):
+        out[key] = [None] * rows
+    stims = ctx.stimuli[p.name]
+    groups: dict[tuple, list[int]] = {}
+    for j, s in enumerate(stims):
+        groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
+    for (kind, has_r), idx in groups.items():
+        group = [stims[j] for j in idx]
+        mult, cur, vol, width = _solve_group(eng, topo, p, group, kind, has_r, fac, rows, n_phase)
+        mult = mult.reshape(rows, len(group), width)
+        _record_multiples(out, p, group, mult, rows)
+        _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
+    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare)
+    return out
+
+
+def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
+                 n_phase: int):
+    """Solve one group of stimuli (one kind, one source-impedance flag) for every row.
+
+    Returns the movement multiples (rows x G, W), the watched parts' currents and
+    voltages by designator (same shape) and the samples per stimulus W; samples
+    over a source's current limit are solved again as a current source at the limit.
+    """
+    g = len(group)
+    samples = [s.samples(n_phase) for s in group]
+    width = max(len(x) for x in samples)
+    block = np.array([np.resize(x, width) for x in samples])  # (G, W)
+    stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
+    r_src = np.tile([s.r_source_ohm for s in group], rows) if has_r else 0.0
+    f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
+    op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
+    mult = np.array(op.movement_multiple)
+    cur = {n: np.array(op.element(n).current_a) for n in topo.watch}
+    vol = {n: np.array(op.element(n).voltage_v) for n in topo.watch}
+    i_src = np.array(op.source_current_a)
+    lims = np.tile([s.current_limit_a or np.inf for s in group], rows)
+    if kind == "voltage" and np.isfinite(lims).any():
+        rr, kk = np.nonzero(np.abs(i_src) > lims[:, None])
+        if rr.size:
+            vals = np.copysign(lims[rr], i_src[rr, kk])
+            f2 = None if f_rows is None else {k: v[rr] for k, v in f_rows.items()}
+            op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2)
+            mult[rr, kk] = np.asarray(op2.movement_multiple)[:, 0]
+            for n in topo.watch:
+                cur[n][rr, kk] = op2.element(n).current_a[:, 0]
+                vol[n][rr, kk] = op2.element(n).voltage_v[:, 0]
+    return mult, cur, vol, width
+
+
+def _record_multiples(out: dict, p, group: list, mult: np.ndarray, rows: int) -> None:
+    """Fold one group's worst forward and reverse multiples (rows x G x W) into ``out``."""
+    for key, m in (("forward", mult.max(axis=2)), ("reverse", (-mult).max(axis=2))):
+        jbest = np.argmax(m, axis=1)
+        vbest = m[np.arange(rows), jbest]
+        for i in np.nonzero(vbest > out[key])[0]:
+            out[key + "_case"][i] = (p.name, group[jbest[i]].name)
+        out[key] = np.maximum(out[key], vbest)
+        at_max = [j for j, s in enumerate(group) if s.name in ("max input", "max input reversed")]
+        if at_max:
+            out["max_input_" + key] = np.maximum(out["max_input_" + key], m[:, at_max].max(axis=1))
+
+
+def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: dict, vol: dict, rows: int,
+                  width: int) -> None:
+    """Fold one group's power in the watched parts and the clamp diodes' continuous ratings into ``out``.
+
+    Impulses are judged on peak quantities only, so they add neither power nor stress here.
+    """
+    g = len(group)
+    impulse = np.array([s.peak_only for s in group])
+    tot_p = np.zeros((rows, g))
+    for n in topo.watch:
+        i = cur[n].reshape(rows, g, width)
+        v = vol[n].reshape(rows, g, width)
+        pm = (i * v).mean(axis=2)
+        tot_p += np.abs(pm)
+        if n in diodes:
+            d = diodes[n]
+            ratio = np.maximum.reduce([np.abs(i).mean(axis=2) / d.max_current_a,
+                                       np.abs(i).max(axis=2) / d.surge_current_a,
+                                       np.abs(pm) / d.max_power_w])
+            ratio[:, impulse] = 0.0
+            jbest = np.argmax(ratio, axis=1)
+            vbest = ratio[np.arange(rows), jbest]
+            for i_row in np.nonzero(vbest > out["stress"])[0]:
+                out["stress_case"][i_row] = (p.name, group[jbest[i_row]].name, n)
+            out["stress"] = np.maximum(out["stress"], vbest)
+    tot_p[:, impulse] = 0.0
+    out["power"] = np.maximum(out["power"], tot_p.max(axis=1))
+
+
+def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare) -> tuple[np.ndarray, np.ndarray]:
+    """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale]."""
+    applied = FRACTIONS * p.full_scale
+    rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac).reading()
+    rd = np.broadcast_to(rd, (rows, applied.size))
+    error = np.max(np.abs(rd - np.broadcast_to(bare, rd.shape)), axis=1) / p.full_scale * 100.0
+    total = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
+    return error, total
+
+
+# --- judging ------------------------------------------------------------------------------------
+
+
+def accuracy_ok(ctx: SearchContext, m: Metrics) -> np.ndarray:
+    """Per row: every position's clamp error within its limit."""
+    ok = np.ones(m.forward.shape, dtype=bool)
+    for p in ctx.positions:
+        ok &= m.error_pct[p.name] <= ctx.limits[p.name] * EXCEED
+    return ok
+
+
+def feasible(ctx: SearchContext, m: Metrics) -> np.ndarray:
+    """Per row: accuracy within the limits, the clamp diodes within their ratings, a finite solve."""
+    return accuracy_ok(ctx, m) & (m.stress <= EXCEED) & np.isfinite(m.worst)
+
+
+def slack(ctx: SearchContext, m: Metrics) -> np.ndarray:
+    """Largest use of a constraint, minus one: <= 0 when feasible."""
+    use = m.stress.copy()
+    for p in ctx.positions:
+        use = np.maximum(use, m.error_pct[p.name] / ctx.limits[p.name])
+    return use - 1.0
+
+
+def share_of_class(ctx: SearchContext, m: Metrics) -> np.ndarray:
+    """Per row: the largest clamp error over the positions as a share of the class index."""
+    return np.max(np.vstack([m.error_pct[p.name] for p in ctx.positions]), axis=0) / ctx.class_index

@@ -1,0 +1,226 @@
+"""The protection search end to end: :func:`protect_project`.
+
+The steps, each in its own module: the project prepared once
+(:class:`planner.protect.context.SearchContext`); the branch-and-bound over
+sites and stacks (:func:`planner.protect.search.branch_and_bound`); the best
+placements made of standard values (:mod:`planner.protect.realise`) and
+evaluated again at the reported resolution; the Pareto set and the choice on
+those final numbers (:mod:`planner.protect.ordering`); the JSON result
+(:mod:`planner.protect.report`).
+
+Public API
+----------
+:func:`protect_project`.
+"""
+
+from __future__ import annotations
+
+from typing import Callable, Mapping
+
+import numpy as np
+
+from ..design import Design, as_design
+from ..errors import UsageError
+from ..model import Spec
+from ..tools import json_safe
+from .candidates import Combo, Site, Stack
+from .context import DEFAULT_SHARE, MAX_CANDIDATES, SearchContext
+from .evaluate import Point
+from .ordering import PARETO_ROWS, choose, lex_compare, ordered, pareto, ranked, row_multiples
+from .realise import final, realise_explicit, realise_sized
+from .report import as_given_row, placement_row
+from .search import branch_and_bound
+
+__all__ = ["protect_project"]
+
+
+def protect_project(design: Design | Spec, *, share: float | Mapping[str, float] = DEFAULT_SHARE,
+                    seed: int | None = None, max_candidates: int = MAX_CANDIDATES,
+                    progress: Callable[[str], None] | None = None) -> dict:
+    """Search the clamp placement that best protects the movement within an accuracy share.
+
+    Parameters
+    ----------
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one): an explicit network, or the one the sizer built from
+        the ``voltage``/``current`` sections.
+    share : float or mapping of str to float
+        Share of the class index the clamps may cost at the hottest ambient, for
+        every position, or per position name (positions not named get
+        :data:`DEFAULT_SHARE`); each in (0, 1].
+    seed : int, optional
+        Seed of the random probes of the split grid; ``analysis.seed`` by default.
+    max_candidates : int
+        Cap on the search's evaluations: each split resistance of a grid, each
+        refinement step and each standard-value split counts one. The final pass
+        over the reported rows is counted apart (``rows_reevaluated``).
+    progress : callable(str), optional
+        Receives a short message before each batch.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``candidates_evaluated``; ``pareto[]`` (rows: ``site``,
+        ``split_ohm``, ``forward_part``, ``forward_count``, ``reverse_part``,
+        ``reverse_count``, ``worst_movement_multiple`` with its ``_forward`` and
+        ``_reverse`` polarity, ``max_input_multiple_forward``/``_reverse``,
+        ``hot_linearity_error_pct``, ``share_of_class``, ``parts_count``,
+        ``power_w``, ``clamp_stress_ratio``, ``feasible``, ``positions[]``);
+        ``chosen`` (a row, or None when no placement meets the requirements);
+        ``baseline`` with ``as_given`` (the project's own clamps) and
+        ``across_movement`` (one diode each way across the movement);
+        ``requirements_met``; the settings (``share``, ``limits_pct``,
+        ``hot_temperature_k``, ``stimuli``, ``seed``) and the search's record
+        (``sites[]``, ``pruned``, ``truncated``).
+
+    Raises
+    ------
+    ProjectError
+        A project without diode models or without anything to protect.
+    UsageError
+        A share outside (0, 1] or a bad cap.
+
+    Notes
+    -----
+    Objective: minimise :math:`W = \\max_{p,s,t} |I_m(t)| / I_{fs}` over the
+    positions p, the fault stimuli s and the samples t of each stimulus
+    (reported separately for :math:`I_m > 0`, forward, and :math:`I_m < 0`,
+    reverse). Constraint on every position p, at the hottest ambient
+    :math:`T_{hot}` and the linearity points :math:`a_k = 0.1 k\\,FS`:
+
+    .. math:: E_p = \\max_k |r_{clamped}(a_k, T_{hot}) - r_{bare}(a_k, T_{hot})| / FS
+              \\times 100 \\le s_p \\cdot \\text{class}
+
+    with the diodes' junction law :math:`I = I_s(T) (e^{V_j / (n V_t)} - 1) + V_j/R_p`
+    (Shockley; SPICE temperature law for :math:`I_s(T)`), and every clamp diode
+    within its average-current, surge-current and power ratings.
+
+    References
+    ----------
+    W. Shockley, "The theory of p-n junctions in semiconductors and p-n junction
+    transistors", Bell System Technical Journal 28(3), 435-489, 1949.
+    P. Antognetti and G. Massobrio, *Semiconductor Device Modeling with SPICE*,
+    2nd ed., McGraw-Hill, 1993 (diode temperature law).
+    A. H. Land and A. G. Doig, "An automatic method of solving discrete
+    programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
+    R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall,
+    1973. IEC 60051-1 (class index); IEC 60063 (preferred values).
+    """
+    _check_settings(share, max_candidates, seed)
+    design = as_design(design)
+    ctx = SearchContext(design, share if isinstance(share, Mapping) else float(share), seed, max_candidates, progress)
+    if isinstance(share, Mapping):
+        unknown = [k for k in share if k not in ctx.limits]
+        if unknown:
+            raise UsageError(f"the accuracy share names no position '{unknown[0]}'; positions: "
+                             f"{', '.join(ctx.limits)}")
+    ctx.say("the project as given")
+    as_given = as_given_row(ctx)
+    model = ctx.default_model()
+    movement = Site("movement", "movement", ctx.movement.a)
+    across = Combo(movement, Stack(model, 1), Stack(model, 1))
+
+    points, info, evaluated = branch_and_bound(ctx)
+
+    # every feasible placement found, best first -> standard values -> the faults
+    # matrix's phase points -> Pareto set and choice on those final numbers
+    ctx.say("clamps across the movement")
+    pa = final(ctx, Point(across, None, None, False))
+    across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
+    finals = _final_rows(ctx, points, evaluated, across, across_row)
+    table, chosen = _pareto_table(finals)
+    result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
+    return json_safe(result)
+
+
+def _check_settings(share, max_candidates, seed) -> None:
+    """The share, the cap and the seed as the search needs them, else a :class:`UsageError`."""
+    if isinstance(share, Mapping):
+        shares = dict(share)
+    else:
+        shares = {"*": share}
+    for k, v in shares.items():
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not (0.0 < float(v) <= 1.0):
+            raise UsageError(f"the accuracy share must be a number in (0, 1], e.g. 0.25 for a quarter of the class; "
+                             f"got {v!r}" + ("" if k == "*" else f" for position '{k}'"))
+    if isinstance(max_candidates, bool) or not isinstance(max_candidates, (int, np.integer)) or max_candidates < 10:
+        raise UsageError(f"max_candidates must be a whole number of at least 10, not {max_candidates!r}")
+    if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0):
+        raise UsageError(f"seed must be a whole number of at least 0, not {seed!r}")
+
+
+def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict) -> list[dict]:
+    """The rows of the best feasible placements, made of standard values and evaluated again.
+
+    The clamps across the movement come first (as a candidate); then up to
+    twice :data:`PARETO_ROWS` placements, best first, each realised
+    (:mod:`planner.protect.realise`) and evaluated at the reported resolution;
+    a placement that realises to a row already there is left out.
+    """
+    finals = [dict(across_row, label="candidate")]
+    seen = {across_row["key"]}
+    ctx.say("standard values for the best placements")
+    best_first = ranked([p for p in points if p.feasible])
+    for p in best_first[:2 * PARETO_ROWS]:
+        if p.combo.key() == across.key():
+            continue
+        if p.combo.site.kind != "split":
+            q = p
+        elif ctx.sized:
+            q = realise_sized(ctx, p)
+        else:
+            q = realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
+        if q is None:
+            continue
+        q = final(ctx, q)
+        row = placement_row(ctx, "candidate", q, clamps=q.clamps)
+        if row["key"] not in seen:
+            seen.add(row["key"])
+            finals.append(row)
+    return finals
+
+
+def _pareto_table(finals: list[dict]) -> tuple[list[dict], dict | None]:
+    """The Pareto set of the feasible rows, best first and ranked, and the chosen row (a copy) or None."""
+    table = ordered(pareto([r for r in finals if r["feasible"]]))[:PARETO_ROWS]
+    chosen = choose(table)
+    for i, r in enumerate(table, 1):
+        r["rank"] = i
+        r["chosen"] = chosen is not None and r["key"] == chosen["key"]
+        r["label"] = "chosen" if r["chosen"] else "pareto"
+    if chosen is not None:
+        chosen = dict(chosen)
+    return table, chosen
+
+
+def _result(ctx: SearchContext, share, max_candidates: int, info: dict, table: list[dict], chosen: dict | None,
+            as_given: dict, across_row: dict) -> dict:
+    """The search's result: settings, record, Pareto table, choice and baselines."""
+    spec = ctx.spec
+    result = {
+        "title": spec.title,
+        "project": spec.path,
+        "sized": ctx.sized,
+        "class_index": ctx.class_index,
+        "share": share if not isinstance(share, Mapping) else dict(share),
+        "limits_pct": dict(ctx.limits),
+        "hot_temperature_k": ctx.t_hot,
+        "stimuli": sorted({s.name for st in ctx.stimuli.values() for s in st}),
+        "seed": int(ctx.seed),
+        "max_candidates": int(max_candidates),
+        "candidates_evaluated": int(ctx.evaluated),
+        "rows_reevaluated": int(ctx.reevaluated),
+        "pruned": int(ctx.pruned),
+        "truncated": bool(ctx.truncated),
+        "sites": info["sites"],
+        "pruned_sites": info["pruned_sites"],
+        "tap_node": ctx.tap_node,
+        "pareto": table,
+        "chosen": chosen,
+        "baseline": {"as_given": as_given, "across_movement": across_row},
+    }
+    result["requirements_met"] = bool(chosen is not None and chosen["feasible"])
+    result["improves_on_across_movement"] = bool(
+        chosen is not None and lex_compare(row_multiples(chosen), row_multiples(across_row)) < 0)
+    return result

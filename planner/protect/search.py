@@ -1,0 +1,382 @@
+"""The search: a branch-and-bound over sites and stacks, a grid over each split, then refinement.
+
+:func:`branch_and_bound` bounds every site by its strongest stacks, branches over
+the sites in the order of their bounds and prunes what cannot beat the best
+feasible placement so far; every split combo is evaluated on a batched grid of
+split resistances (:func:`split_grid`), and the most promising are refined by
+:func:`refine` (scipy's Brent root finder and bounded minimiser).
+
+Public API
+----------
+:func:`branch_and_bound`, :func:`split_grid`, :func:`evaluate_combo`,
+:func:`best_point`, :func:`refine`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+from scipy.optimize import brentq, minimize_scalar
+
+from .candidates import Combo, Site, Stack, sites, stacks
+from .context import SearchContext
+from .evaluate import Metrics, Point, Topology, feasible, run, slack, topology
+from .ordering import lex_best, lex_compare, lex_score, ranked
+
+__all__ = [
+    "GRID_POINTS",
+    "RANDOM_PROBES",
+    "SPLIT_LO",
+    "SPLIT_HI",
+    "REFINE_COMBOS",
+    "REFINE_XTOL_REL",
+    "REFINE_MAXITER",
+    "REFINE_GAIN",
+    "split_grid",
+    "evaluate_combo",
+    "best_point",
+    "refine",
+    "branch_and_bound",
+]
+
+#: Points of the split grid: geometric from SPLIT_LO to SPLIT_HI of the split resistor.
+GRID_POINTS = 16
+#: Extra split resistances drawn at random (log-uniform, seeded) besides the grid.
+RANDOM_PROBES = 4
+SPLIT_LO = 0.01
+SPLIT_HI = 0.98
+#: Combinations whose split resistance is refined by scipy.optimize after the grid.
+REFINE_COMBOS = 3
+#: Tolerance of the refined split resistance, as a fraction of it (finer than the
+#: 2.4 % steps of E96), and the most evaluations each refinement may take.
+REFINE_XTOL_REL = 0.015
+REFINE_MAXITER = 8
+#: Least relative gain an interior refinement must promise (see :func:`_worth_refining`).
+REFINE_GAIN = 0.005
+
+
+class _Stop(Exception):
+    """The candidate cap was reached."""
+
+
+# --- one combo --------------------------------------------------------------------------------
+
+
+def split_grid(ctx: SearchContext, site: Site) -> np.ndarray:
+    """Split resistances of the batched grid [ohm], ascending (seeded random probes included)."""
+    r = site.r_ohm
+    lo, hi = math.log(SPLIT_LO * r), math.log(SPLIT_HI * r)
+    pts = list(np.exp(np.linspace(lo, hi, GRID_POINTS)))
+    pts += list(np.exp(ctx.rng.uniform(lo, hi, RANDOM_PROBES)))
+    if ctx.sized:
+        pts += [float(c.at) for c in ctx.spec.clamps
+                if not isinstance(c.at, str) and SPLIT_LO * r <= float(c.at) <= SPLIT_HI * r]
+    return np.unique(np.asarray(pts, dtype=float))
+
+
+def evaluate_combo(ctx: SearchContext, combo: Combo) -> tuple[Topology, np.ndarray | None, Metrics] | None:
+    """A combo evaluated on its split grid (one row off splits); None when the cap leaves no room."""
+    topo = topology(ctx, combo)
+    r = split_grid(ctx, combo.site) if combo.site.kind == "split" else None
+    rows = 1 if r is None else len(r)
+    if not ctx.room(rows):
+        return None
+    m = run(ctx, topo, r)
+    if r is not None:
+        for i, ri in enumerate(r):
+            topo.memo[float(ri)] = m.row(i)
+    return topo, r, m
+
+
+def best_point(ctx: SearchContext, combo: Combo, r, m: Metrics, stage="grid") -> Point:
+    """The feasible row that protects best (leximax), else the row nearest feasibility."""
+    feas = feasible(ctx, m)
+    if feas.any():
+        pw = m.position_worst()
+        best = lex_best([int(k) for k in np.nonzero(feas)[0]], lambda k: pw[k])
+        i = min(best, key=lambda k: (lex_score(pw[k]), k))
+    else:
+        i = int(np.argmin(slack(ctx, m)))
+    return Point(combo, None if r is None else float(r[i]), m.row(i), bool(feas[i]), stage=stage)
+
+
+def refine(ctx: SearchContext, topo: Topology, combo: Combo, r: np.ndarray, m: Metrics) -> Point | None:
+    """Refine the split resistance of a combo between its grid neighbours.
+
+    Notes
+    -----
+    The clamp's error grows with the split resistance r (the junction sees
+    :math:`I_{fs} (R_m + r)` at full scale), so the feasible set is an interval
+    from the lowest grid point up to an edge. When the worst multiple still
+    falls at the last feasible grid point, the optimum is on that edge: it is
+    found by :func:`scipy.optimize.brentq` on the constraint use (largest
+    error / limit, diode stress / rating) minus one between the last feasible
+    and the first infeasible grid point. Otherwise the minimum is inside the
+    feasible set and :func:`scipy.optimize.minimize_scalar` (bounded Brent)
+    finds it between the grid neighbours of the best grid point, a penalty of
+    the constraint use keeping it feasible. Both stop at 1.5 % of r (or after
+    :data:`REFINE_MAXITER` evaluations), finer than the steps of the E96 series
+    the split is then made of.
+
+    References
+    ----------
+    R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall,
+    1973 (ch. 4 root finding, ch. 5 bounded one-dimensional minimisation; the
+    methods of scipy.optimize.brentq and minimize_scalar(method='bounded')).
+    """
+    feas = feasible(ctx, m)
+    if not feas.any():
+        return None
+    pw = m.position_worst()
+    score = np.array([lex_score(v) for v in pw])
+    i = min(lex_best([int(k) for k in np.nonzero(feas)[0]], lambda k: pw[k]), key=lambda k: (score[k], k))
+    xtol = REFINE_XTOL_REL * float(r[i])
+
+    def at(x: float) -> Metrics:
+        x = float(x)
+        if x not in topo.memo:
+            if not ctx.room(1):
+                raise _Stop
+            topo.memo[x] = run(ctx, topo, np.array([x]))
+        return topo.memo[x]
+
+    try:
+        falling = i == 0 or score[i] <= score[i - 1]
+        if i + 1 < len(r) and not feas[i + 1] and falling and np.isfinite(slack(ctx, m.row(i + 1))[0]):
+            a, b = float(r[i]), float(r[i + 1])
+            edge = brentq(lambda x: float(slack(ctx, at(x))[0]), a, b, xtol=xtol, maxiter=REFINE_MAXITER,
+                          disp=False)
+            while edge > a and not feasible(ctx, at(edge))[0]:
+                edge = max(a, edge - xtol)
+        elif (0 < i < len(r) - 1 or (i == 0 and len(r) > 1)) and _worth_refining(r, score, i):
+            lo, hi = float(r[max(i - 1, 0)]), float(r[i + 1])
+
+            def objective(x):
+                mx = at(x)
+                s = float(slack(ctx, mx)[0])
+                phi = lex_score(mx.position_worst()[0])
+                return phi if s <= 0 else phi * (2.0 + s)
+
+            minimize_scalar(objective, bounds=(lo, hi), method="bounded",
+                            options={"xatol": xtol, "maxiter": REFINE_MAXITER})
+    except _Stop:
+        pass
+    ok = [x for x in sorted(topo.memo) if feasible(ctx, topo.memo[x])[0]]
+    if not ok:
+        return None
+    x = min(lex_best(ok, lambda x: topo.memo[x].position_worst()[0]),
+            key=lambda x: (lex_score(topo.memo[x].position_worst()[0]), x))
+    return Point(combo, x, topo.memo[x], True, stage="refined")
+
+
+def _worth_refining(r: np.ndarray, score: np.ndarray, i: int) -> bool:
+    """Whether an interior minimum can gain more than :data:`REFINE_GAIN` over grid point i.
+
+    Notes
+    -----
+    The parabola :math:`\\phi(x) = a x^2 + b x + c` through the grid point and its
+    two neighbours, :math:`x = \\ln r`, has its vertex at :math:`\\phi_{min} = c -
+    b^2 / (4 a)` when :math:`a > 0`; when :math:`\\phi_i - \\phi_{min}` is below the
+    share, the grid point stands (the steps of the E96 series are coarser
+    anyway). At the end of the grid, or with non-finite or non-convex
+    neighbours, the refinement runs.
+    """
+    if i == 0 or i + 1 >= len(r):
+        return True
+    x = np.log(np.asarray(r[i - 1:i + 2], dtype=float))
+    y = np.asarray(score[i - 1:i + 2], dtype=float)
+    if not np.all(np.isfinite(y)):
+        return True
+    a, b, c = np.polyfit(x - x[1], y, 2)
+    if a <= 0:
+        return True
+    gain = float(y[1] - (c - b * b / (4.0 * a)))
+    return gain > REFINE_GAIN * float(y[1])
+
+
+# --- branch and bound -------------------------------------------------------------------------
+
+
+class _BranchAndBound:
+    """The state of one branch-and-bound run and its three steps (see :func:`branch_and_bound`)."""
+
+    def __init__(self, ctx: SearchContext):
+        self.ctx = ctx
+        self.points: dict[tuple, Point] = {}
+        self.evaluated: dict[tuple, tuple] = {}
+        self.seen: set = set()
+        self.bounds: dict[str, np.ndarray] = {}
+        self.fb: dict[tuple, np.ndarray] = {}  # (site, model, mode) -> per-position forward bound
+        self.rb: dict[tuple, np.ndarray] = {}  # (site, model, mode) -> per-position reverse bound
+        self.info = {"sites": [], "pruned_sites": [], "pruned_combos": 0}
+        self.sites = sites(ctx)
+        self.fwd_stacks = stacks(ctx, "forward")
+        self.rev_stacks = stacks(ctx, "reverse")
+        self.n_pos = len(ctx.positions)
+
+    # --- evaluating and pruning one combo ---------------------------------------------------
+    def visit(self, combo: Combo):
+        """Evaluate a combo once (a combo with the signature of one seen is skipped); stop at the cap."""
+        sig = combo.signature()
+        if combo.key() in self.evaluated or sig in self.seen:
+            return self.evaluated.get(combo.key())
+        self.seen.add(sig)
+        self.ctx.say(f"{combo.site.label}: forward {combo.forward.label() if combo.forward else 'none'}, "
+                     f"reverse {combo.reverse.label() if combo.reverse else 'none'}")
+        res = evaluate_combo(self.ctx, combo)
+        if res is None:
+            raise _Stop
+        topo, r, m = res
+        self.evaluated[combo.key()] = (topo, r, m)
+        self.points[combo.key()] = best_point(self.ctx, combo, r, m)
+        return self.evaluated[combo.key()]
+
+    def beats_incumbent(self, lb) -> bool:
+        """Whether a bound leaves room for better protection than every feasible point so far."""
+        ok = [p for p in self.points.values() if p.feasible]
+        return not ok or all(lex_compare(lb, p.multiples) < 0 for p in lex_best(ok, lambda p: p.multiples))
+
+    def per_position_min(self, m: Metrics, which: str) -> np.ndarray:
+        """Least multiple over a combo's rows, per position, of one polarity (a bound of its stacks)."""
+        d = m.pos_forward if which == "forward" else m.pos_reverse
+        return np.array([float(np.min(d[q.name])) for q in self.ctx.positions])
+
+    def combo_bound(self, c: Combo) -> np.ndarray:
+        """Per position: the larger of the bounds of the combo's forward and reverse stacks."""
+        zero = np.zeros(self.n_pos)
+        f = self.fb.get((c.site.label, c.forward.model, c.forward.mode), zero) if c.forward else zero
+        r = self.rb.get((c.site.label, c.reverse.model, c.reverse.mode), zero) if c.reverse else zero
+        return np.maximum(f, r)
+
+    def prune(self, c: Combo) -> bool:
+        """Whether to skip a combo: seen, a needless longer reverse stack, or a bound that cannot win."""
+        if c.key() in self.points or c.signature() in self.seen:
+            return True
+        # a reverse stack longer than one diode: only if the one-diode stack fails
+        if c.reverse is not None and c.reverse.count > 1:
+            one = self.points.get(Combo(c.site, c.forward, replace(c.reverse, count=1)).key())
+            if one is None or one.feasible:
+                self.info["pruned_combos"] += 1
+                self.ctx.pruned += 1
+                return True
+        if not self.beats_incumbent(self.combo_bound(c)):
+            self.info["pruned_combos"] += 1
+            self.ctx.pruned += 1
+            return True
+        return False
+
+    # --- the three steps --------------------------------------------------------------------
+    def bound_sites(self) -> None:
+        """Step 1: the strongest stack of each kind at every site, and each site's bound."""
+        ctx = self.ctx
+        for site in self.sites:
+            lb = np.full(self.n_pos, np.inf)
+            for mdl in ctx.models:
+                _, _, m = self.visit(Combo(site, Stack(mdl, 1), Stack(mdl, 1)))
+                self.fb[(site.label, mdl, "junction")] = self.per_position_min(m, "forward")
+                self.rb[(site.label, mdl, "junction")] = self.per_position_min(m, "reverse")
+                lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
+            for z in ctx.zeners:
+                for c, which, store in ((Combo(site, Stack(z, 1, "breakdown"), None), "forward", self.fb),
+                                        (Combo(site, None, Stack(z, 1, "breakdown")), "reverse", self.rb)):
+                    _, _, m = self.visit(c)
+                    store[(site.label, z, "breakdown")] = self.per_position_min(m, which)
+                    lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
+            self.bounds[site.label] = lb
+            self.info["sites"].append({"site": site.label, "kind": site.kind, "node": site.node,
+                                       "element": site.element,
+                                       "r_ohm": site.r_ohm if site.kind != "movement" else 0.0,
+                                       "bound_multiple": float(np.max(lb)),
+                                       "bound_multiples": {q.name: float(x) for q, x in zip(ctx.positions, lb)}})
+
+    def branch(self) -> None:
+        """Step 2: sites in the order of their bound; forward stacks, then reverse stacks with the best two."""
+        for site in sorted(self.sites, key=lambda s: (lex_score(self.bounds[s.label]), s.label)):
+            if not self.beats_incumbent(self.bounds[site.label]):
+                self.info["pruned_sites"].append(site.label)
+                self.ctx.pruned += 1
+                continue
+            ones = [st for st in self.rev_stacks if st.count == 1]
+            rv0 = min(lex_best(ones, lambda st: self.rb[(site.label, st.model, st.mode)]),
+                      key=lambda st: (lex_score(self.rb[(site.label, st.model, st.mode)]), st.mode, st.model))
+            for f in self.fwd_stacks:
+                for rv in ((rv0, None) if f.mode == "breakdown" else (rv0,)):
+                    c = Combo(site, f, rv)
+                    if not self.prune(c):
+                        self.visit(c)
+            here = [p for p in self.points.values() if p.combo.site == site and p.feasible and p.combo.forward]
+            for p in ranked(here)[:2]:
+                f = p.combo.forward
+                for rv in list(self.rev_stacks) + ([None] if f.mode == "breakdown" else []):
+                    c = Combo(site, f, rv)
+                    if not self.prune(c):
+                        self.visit(c)
+
+    def refine_splits(self) -> None:
+        """Step 3: refine the split resistance of the most promising split combos."""
+        splits = [p for p in self.points.values() if p.combo.site.kind == "split" and p.feasible]
+        for p in ranked(splits)[:REFINE_COMBOS]:
+            topo, r, m = self.evaluated[p.combo.key()]
+            self.ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
+                         f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
+            q = refine(self.ctx, topo, p.combo, r, m)
+            if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
+                                  (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
+                self.points[p.combo.key()] = q
+
+
+def branch_and_bound(ctx: SearchContext) -> tuple[list[Point], dict, dict]:
+    """Branch-and-bound over sites and stacks.
+
+    Parameters
+    ----------
+    ctx : SearchContext
+
+    Returns
+    -------
+    points : list of Point
+        The best point of every combo evaluated.
+    info : dict
+        A record of the sites and bounds (``sites``, ``pruned_sites``, ``pruned_combos``).
+    evaluated : dict
+        The evaluations by combo key: (topology with its memo of split
+        resistances, grid, metrics).
+
+    Notes
+    -----
+    1. *Bounds.* At every site the strongest stack of each kind - one diode
+       each way of every model, one zener in breakdown each way - is evaluated
+       (on the split grid). A longer stack needs more voltage for the same
+       current, :math:`V_{stack}(I) = k\\,V_j(I)`, so it clamps later: the
+       multiples of the one-diode stack bound those of every stack of its model
+       and mode from below, position by position (up to the leakage of the
+       other direction's reverse-biased stack and the grid's resolution).
+    2. *Branching.* Sites in the order of their bound; a site, or a combo,
+       whose bound does not beat the best feasible placement so far
+       (:func:`planner.protect.ordering.lex_compare`) is pruned. At a site every
+       forward stack is tried with the strongest reverse stack; then every
+       reverse stack with the two best forward stacks (the reverse stack hardly
+       changes the forward figures: reverse-biased, it only leaks). A reverse
+       stack of more than one diode only clamps later, so it is tried only when
+       the one-diode stack fails the accuracy requirement. Combos that place the
+       same diodes the same way round (:meth:`Combo.signature`) are evaluated once.
+    3. *Refinement* of the split resistance of the best :data:`REFINE_COMBOS`
+       split combos (:func:`refine`).
+
+    The candidate cap may stop any step; what was evaluated until then stands.
+
+    References
+    ----------
+    A. H. Land and A. G. Doig, "An automatic method of solving discrete
+    programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
+    """
+    bb = _BranchAndBound(ctx)
+    try:
+        bb.bound_sites()
+        bb.branch()
+        bb.refine_splits()
+    except _Stop:
+        pass
+    return list(bb.points.values()), bb.info, bb.evaluated
