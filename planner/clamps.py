@@ -359,7 +359,7 @@ class _Search:
         self.allowed = spec.analysis.allowed_share * self.class_index / 100.0
         self.sized = spec.network is None
         if self.sized:
-            from .size import size
+            from .sizing import size
 
             if spec.voltage is None and spec.current is None:
                 raise ProjectError("the project has neither a network nor voltage/current ranges to protect",
@@ -1207,7 +1207,7 @@ def _split_values(ctx: _Search, site: Site, r_star: float, r_cap: float) -> list
     value keeps the sum within the sizer's allowed error, the pair
     :func:`planner.size.choose_value` makes).
     """
-    from .size import choose_value
+    from .sizing import choose_value
 
     total = site.r_ohm
     series = ctx.series
@@ -1307,7 +1307,7 @@ def _sized_clamps(ctx: _Search, combo: Combo, r: float | None) -> tuple[ClampReq
 
 
 def _sized_network(ctx: _Search, clamps) -> NetworkSpec:
-    from .size import size
+    from .sizing import size
 
     return size(replace(ctx.spec, clamps=tuple(clamps))).network
 
