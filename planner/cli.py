@@ -132,7 +132,7 @@ def cmd_size(args) -> int:
         _check_output(args.write_network, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .fsio import emit
-    from .size import format_sizing_table, network_yaml, size, sizing_json
+    from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 
 from . import network as nw
 from .model import NetworkSpec, Spec
-from .size import size
+from .sizing import size
 
 
 @dataclass(eq=False)
@@ -34,7 +34,7 @@ class Design:
         The project.
     net : NetworkSpec
         The network: the file's explicit one, or the sizer's.
-    sizing : planner.size.Sizing or None
+    sizing : planner.sizing.Sizing or None
         The sizer's result when the network was sized.
 
     Attributes

@@ -6,7 +6,7 @@ powers in [W], temperatures in [K], tolerances and tempcos as plain fractions
 (``0.5 %`` is ``0.005``, ``50 ppm/K`` is ``5e-5`` [1/K]).
 
 The project loader (:mod:`planner.project`) builds a :class:`Spec`; the sizer
-(:mod:`planner.size`) turns the high-level ``voltage``/``current`` sections into a
+(:mod:`planner.sizing`) turns the high-level ``voltage``/``current`` sections into a
 :class:`NetworkSpec`; the graph model (:mod:`planner.network`) and the solver
 take it from there. Nothing here parses text or formats output.
 """

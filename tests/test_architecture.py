@@ -35,7 +35,11 @@ def _imports(path: Path, name: str, known: set[str]) -> set[str]:
     tree = ast.parse(path.read_text(encoding="utf-8"))
     pkg = name if path.name == "__init__.py" else name.rsplit(".", 1)[0]
     out = set()
+    typing_only = {id(n) for stmt in ast.walk(tree) if isinstance(stmt, ast.If)
+                   and ast.unparse(stmt.test).endswith("TYPE_CHECKING") for n in ast.walk(stmt)}
     for node in ast.walk(tree):
+        if id(node) in typing_only:  # imports for annotations only are no dependency at run time
+            continue
         if isinstance(node, ast.Import):
             targets = [a.name for a in node.names]
         elif isinstance(node, ast.ImportFrom):

@@ -122,7 +122,7 @@ def test_outputs_refuse_the_input_under_other_names(how, tmp_path, monkeypatch, 
 
 def test_write_network_replaces_an_existing_output_whole(tmp_path, monkeypatch, capsys):
     from planner.project import load
-    from planner.size import network_yaml, size
+    from planner.sizing import network_yaml, size
 
     out = tmp_path / "sized.yaml"
     out.write_text("an old file that must go entirely\n" * 1000, encoding="utf-8")

@@ -14,7 +14,7 @@ is kept: only resistor values change, as few as will do.
    is the least).
 3. **Which parts to buy.** Part by part, the nearest E-series value when its
    rounding costs at most half the target, else the best series or parallel pair
-   (:func:`planner.size.choose_value`); after each part the values still free are
+   (:func:`planner.sizing.choose_value`); after each part the values still free are
    solved again, so they make up for its rounding. Where a position still misses,
    the part that matters most to it becomes a fixed part and a trimmer (1-2-5
    values, common practice) set on the bench.
@@ -176,7 +176,7 @@ def _nominal(meter: Meter, name: str) -> float:
 
 
 def _choose(series: str, wanted: float, allowed: float):
-    from ..size import choose_value  # the sizer's part choice: a single value or the best pair
+    from ..sizing import choose_value  # the sizer's part choice: a single value or the best pair
 
     return choose_value(series, wanted, allowed)
 

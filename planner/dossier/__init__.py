@@ -38,7 +38,7 @@ from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
-from ..size import sizing_json
+from ..sizing import sizing_json
 from . import layout, sections
 from .sections import Context
 

@@ -38,7 +38,7 @@ over sites and stacks, with bounds from the monotonicity of a stack's clamping
 voltage in its diode count); the continuous split by a batched grid, then
 :func:`scipy.optimize.brentq` for the edge of the feasible range and
 :func:`scipy.optimize.minimize_scalar` (bounded Brent) inside it; the split is
-then made of standard values (:func:`planner.size.choose_value`) and the result
+then made of standard values (:func:`planner.sizing.choose_value`) and the result
 evaluated again on the realised network. Every evaluation is a batched call of
 :meth:`planner.engine.Engine.operate` (one call per position and stimulus
 group solves every split resistance of a grid at once). ``docs/protection.md``

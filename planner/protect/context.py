@@ -25,7 +25,7 @@ from .. import network as nw
 from ..design import Design
 from ..errors import ProjectError
 from ..faults import stimuli_for
-from ..size import size
+from ..sizing import size
 from ..stimulus import Stimulus
 from .candidates import clamp_diodes, fresh_node, fresh_number
 

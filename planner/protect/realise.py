@@ -21,7 +21,7 @@ from dataclasses import replace
 from .. import eseries
 from ..errors import ProjectError
 from ..model import ClampRequest, NetworkSpec, Resistor
-from ..size import choose_value, size
+from ..sizing import choose_value, size
 from .candidates import Combo, Site
 from .context import SearchContext
 from .evaluate import EXCEED, REPORT_PHASE_POINTS, Point, Topology, feasible, run, topology, topology_of
@@ -53,7 +53,7 @@ def split_values(ctx: SearchContext, site: Site, r_star: float, r_cap: float) ->
     value nearest ``r_star`` first, never above ``r_cap``: the lower part a single
     value of the project's series, the upper a single value (or, when no single
     value keeps the sum within the sizer's allowed error, the pair
-    :func:`planner.size.choose_value` makes).
+    :func:`planner.sizing.choose_value` makes).
 
     References
     ----------

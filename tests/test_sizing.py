@@ -1,4 +1,4 @@
-"""Checks of planner.size: handbook targets, E-series choice, ratings, topology, outputs.
+"""Checks of planner.sizing: handbook targets, E-series choice, ratings, topology, outputs.
 
 Each check against an outside source names it beside the check; the sources are listed
 in /work/shared/references.md. Specs are built from planner.model dataclasses; the example
@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from planner import size as sz
+from planner import sizing as sz
 from planner.design import build
 from planner.engine import Engine
 from planner.errors import ProjectError
@@ -391,6 +391,41 @@ def test_designator_order_and_contacts():
             assert len(closed) == 1  # only its own tap of the chain
         else:
             assert len(closed) == 2  # its ring tap, and the ring joined to the movement branch
+
+
+class _BleederAcrossMovement(sz.SizingSection):
+    """A section added through the registry alone: a bleeder resistor and a diode across the movement."""
+
+    key = "voltage"
+
+    def validate(self, spec):
+        if spec.movement.r_coil_ohm > 1e5:
+            raise sz.request_error(spec, "bleeder: coil too large", None)
+
+    def lay_out(self, spec, layout):
+        layout.segments.append(sz.SegmentPlan("bleeder", "bleeder", 1e4 * spec.movement.r_coil_ohm, "com", "m_plus"))
+        layout.devices.append(sz.Device("D", Diode, ("m_plus", "com", "si", None)))
+
+
+def test_a_registered_section_adds_parts_after_the_others(monkeypatch):
+    # Designator rule of docs/sizing.md section 6 (the project's own): parts are numbered in the
+    # order of the registered sections, so a new section's parts follow and the others keep theirs.
+    spec = make_spec(volts=[0.5, 2.5], amps=[1e-3], clamps=[ClampRequest("movement", "si", "si")])
+    plain = sz.size(spec)
+    monkeypatch.setattr("planner.sizing.sizer.SECTIONS", sz.SECTIONS + (_BleederAcrossMovement(),))
+    s = sz.size(spec)
+    assert [seg.name for seg in s.segments] == [seg.name for seg in plain.segments] + ["bleeder"]
+    np.testing.assert_allclose([seg.target_ohm for seg in s.segments[:-1]],
+                               [seg.target_ohm for seg in plain.segments], rtol=0)  # targets untouched
+    bleeder = s.segment("bleeder")
+    assert [p.name for p in bleeder.parts] == [f"R{sum(len(x.parts) for x in plain.segments) + 1}"]
+    # 20 Mohm from E96 within 0.15 % (class 1.5 x allowed share 0.1): 20.0 M is an E96 value (IEC 60063)
+    np.testing.assert_allclose(bleeder.achieved_ohm, 20e6, rtol=1e-12)
+    diodes = [e for e in s.network.elements if isinstance(e, Diode)]
+    assert [d.name for d in diodes] == ["D1", "D2", "D3"] and (diodes[2].anode, diodes[2].cathode) == ("m_plus", "com")
+    assert [p.name for p in s.network.positions] == [p.name for p in plain.network.positions]
+    with pytest.raises(ProjectError, match="bleeder: coil too large"):
+        sz.size(make_spec(r_m=2e5, volts=[50.0]))  # the section's own validation runs too
 
 
 def test_intended_path_closed_in_every_position():

@@ -1,0 +1,280 @@
+"""Part ratings: the linear estimate of stresses, the rating ladder and the splits.
+
+The stresses come from the sized network with its diodes left out (or a clamp
+node shorted to common), solved by the same compiler and solver as every
+analysis (:func:`planner.network.compile_state`, :func:`planner.solve.solve`)
+without an Engine: the sizer never builds one. The rules are in
+``docs/sizing.md`` (section 4).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .. import network as nw
+from ..errors import SolveError
+from ..model import Contact, NetworkSpec, Position, Resistor, ResistorParts, Spec
+from ..solve import Junctions, solve
+from ..tools import fmt
+from .assemble import PartRow
+from .layout import COM, Layout, SegmentPlan
+from .request import line_of_key, request_error
+from .values import CATALOG_MAX_OHM
+
+__all__ = [
+    "MAX_SPLIT",
+    "LinearNetwork",
+    "rating_cases",
+    "Stress",
+    "stresses",
+    "rating_ladder",
+    "Rate",
+    "initial_rate",
+    "revise_rates",
+]
+
+#: Most parts in series one segment is split into.
+MAX_SPLIT = 64
+
+
+class LinearNetwork:
+    """The sized network with its diodes open, or with clamp nodes shorted to common.
+
+    Solved by the same compiler and solver as every analysis (nominal values,
+    reference temperature), without an engine: with the diodes taken out the
+    network is linear, so the result is the bound the rating rules need.
+    """
+
+    def __init__(self, spec: Spec, net: NetworkSpec):
+        self.spec = spec
+        self.elements = tuple(e for e in net.elements if e.stamp != "junction")
+        self.positions = net.positions
+        self._nets: dict[tuple, NetworkSpec] = {}
+
+    def _net(self, shorted) -> NetworkSpec:
+        key = tuple(shorted)
+        if key not in self._nets:
+            shorts = tuple(Contact(f"__short{j}", node, COM, tuple(p.name for p in self.positions))
+                           for j, node in enumerate(shorted))
+            self._nets[key] = NetworkSpec(self.elements + shorts, self.positions, None)
+        return self._nets[key]
+
+    def solve(self, pos: Position, value: float, shorted=()):
+        """Voltage across every rated element [V] for ``value`` on ``pos``; None when the input is shorted.
+
+        Parameters
+        ----------
+        pos : Position
+        value : float
+            The source at the input [V] or [A], as the position's kind drives it.
+        shorted : sequence of str
+            Nodes joined to common for this case.
+        """
+        net = self._net(shorted)
+        st = nw.position_states(net)[[p.name for p in net.positions].index(pos.name)]
+        try:
+            c = nw.compile_state(self.spec, st, net=net)
+            dt = np.zeros((1, 1))
+            r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
+                                for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
+            z = np.zeros((1, 0))
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]))
+        except SolveError:
+            return None
+
+        def v(node):
+            i = c.node_index.get(node)
+            return np.zeros((1, 1)) if i is None else sol.node_voltage(i)
+
+        return {e.name: float((v(e.nodes[0]) - v(e.nodes[1]))[0, 0]) for e in self.elements if e.rated}
+
+
+def rating_cases(spec: Spec, layout: Layout):
+    """(label, position, value, shorted nodes, is_full_scale) of every rating case.
+
+    Every position at its full scale; every position driven by a voltage under
+    ``faults.max_input`` (when it exceeds the full scale) with each clamp node
+    open and shorted to common, in every combination.
+    """
+    out = []
+    vmax = spec.faults.max_input_v
+    corners = [
+        tuple(s) for r in range(len(layout.clamp_nodes) + 1) for s in itertools.combinations(layout.clamp_nodes, r)
+    ]
+    for p in layout.positions:
+        unit = p.unit
+        out.append((f"full scale on {p.name}", p, p.full_scale, (), True))
+        if p.kind.source == "voltage" and vmax is not None and vmax > p.full_scale:
+            for sh in corners:
+                how = "" if not sh else f", clamp at {'+'.join(sh)} shorted"
+                out.append((f"{fmt(vmax, unit)} max input on {p.name}{how}", p, vmax, sh, False))
+    return out
+
+
+@dataclass
+class Stress:
+    """Worst stresses over the rating cases, per part and per segment [V], [W]."""
+
+    v: dict[str, float] = field(default_factory=dict)  # worst |V| per element
+    p: dict[str, float] = field(default_factory=dict)  # worst P per element
+    v_fs: dict[str, float] = field(default_factory=dict)
+    p_fs: dict[str, float] = field(default_factory=dict)
+    seg_v: list[float] = field(default_factory=list)
+    seg_p: list[float] = field(default_factory=list)
+    seg_v_fs: list[float] = field(default_factory=list)
+    seg_p_fs: list[float] = field(default_factory=list)
+    seg_case: list[str] = field(default_factory=list)
+    errors: dict[str, float] = field(default_factory=dict)  # position -> relative error
+
+
+def _add_parts(st: Stress, dv: dict, values: dict, fs: bool) -> None:
+    for name, r in values.items():
+        vv = abs(dv.get(name, 0.0))
+        pp = vv * vv / r
+        st.v[name] = max(st.v.get(name, 0.0), vv)
+        st.p[name] = max(st.p.get(name, 0.0), pp)
+        if fs:
+            st.v_fs[name] = max(st.v_fs.get(name, 0.0), vv)
+            st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
+
+
+def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool) -> None:
+    for j, parts in enumerate(seg_parts):
+        # voltage across the whole segment: sum of the series units' voltages
+        seen_units = {}
+        for name, val, a, b in parts:
+            seen_units.setdefault((a, b), dv.get(name, 0.0))
+        sv = abs(sum(seen_units.values()))
+        sp = sum(dv.get(name, 0.0) ** 2 / val for name, val, _, _ in parts)
+        if sp > st.seg_p[j]:
+            st.seg_p[j] = sp
+            st.seg_case[j] = label
+        st.seg_v[j] = max(st.seg_v[j], sv)
+        if fs:
+            st.seg_v_fs[j] = max(st.seg_v_fs[j], sv)
+            st.seg_p_fs[j] = max(st.seg_p_fs[j], sp)
+
+
+def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[PartRow]]) -> Stress:
+    """The worst voltage and power of every part and segment, and each position's nominal error.
+
+    Notes
+    -----
+    P = V^2 / R per resistor; a segment's voltage is the sum over its series units,
+    its power the sum over its parts. The nominal error of a position is
+    I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m.
+    """
+    lin = LinearNetwork(spec, net)
+    st = Stress()
+    nseg = len(seg_parts)
+    st.seg_v, st.seg_p = [0.0] * nseg, [0.0] * nseg
+    st.seg_v_fs, st.seg_p_fs = [0.0] * nseg, [0.0] * nseg
+    st.seg_case = [""] * nseg
+    values = {e.name: e.value_ohm for e in net.elements if isinstance(e, Resistor)}
+    m = spec.movement
+    for label, pos, value, shorted, fs in rating_cases(spec, layout):
+        dv = lin.solve(pos, value, shorted)
+        if dv is None:
+            continue
+        if fs:
+            i_m = dv["M1"] / m.r_coil_ohm
+            st.errors[pos.name] = i_m / m.i_fs_a - 1.0
+        _add_parts(st, dv, values, fs)
+        _add_segments(st, dv, seg_parts, label, fs)
+    return st
+
+
+def rating_ladder(spec: Spec) -> list[tuple[float, float]]:
+    """(power [W], limiting element voltage [V]) the sizer may use, ascending."""
+    rp: ResistorParts = spec.parts.resistors
+    pw = tuple(rp.power_ratings_w)
+    if not pw:
+        return [(rp.power_w, rp.max_voltage_v)]
+    vs = tuple(rp.max_voltages_v)
+    if not vs:
+        vs = (rp.max_voltage_v,) * len(pw)
+    if len(vs) != len(pw):
+        raise request_error(
+            spec,
+            f"parts.resistors lists {len(pw)} power ratings but {len(vs)} max voltages; give one voltage per rating",
+            line_of_key(spec, "ratings"),
+        )
+    pairs = sorted(zip(pw, vs))
+    out = [(p, v) for p, v in pairs if p >= rp.power_w * (1 - 1e-12)]
+    if not out or out[0][0] > rp.power_w * (1 + 1e-12):
+        out.insert(0, (rp.power_w, rp.max_voltage_v))
+    return out
+
+
+@dataclass
+class Rate:
+    """A segment's place on the ladder: rating ``index``, split into ``k`` parts, and what decided it.
+
+    ``basis`` is ``worst`` (the misrange is carried), ``full scale`` (no rating
+    carries the misrange) or ``none`` (not even full scale is carried).
+    """
+
+    index: int
+    k: int
+    basis: str
+
+
+def _k_for(v: float, v_max: float) -> int:
+    return max(1, math.ceil(v / v_max * (1 - 1e-12)))
+
+
+def initial_rate(ladder, v, p, v_fs, p_fs, target, *, misrange: bool = True) -> Rate:
+    """The smallest rating (and split) that carries the worst case, else full scale.
+
+    A misrange that no rating carries is not designed for (splitting a part that
+    burns anyway buys nothing): the full-scale stress decides, and a caution is noted.
+
+    Notes
+    -----
+    k = max(ceil(V / V_limit), ceil(R / R_catalogue_max)); a rating carries the
+    case when k <= MAX_SPLIT and P / k <= P_rated.
+    """
+    k_cat = max(1, math.ceil(target / CATALOG_MAX_OHM * (1 - 1e-12)))
+    bases = (("worst", v, p), ("full scale", v_fs, p_fs)) if misrange else (("full scale", v_fs, p_fs),)
+    for basis, vv, pp in bases:
+        for i, (pr, vr) in enumerate(ladder):
+            k = max(_k_for(vv, vr), k_cat)
+            if k <= MAX_SPLIT and pp / k <= pr:
+                return Rate(i, k, basis)
+    return Rate(len(ladder) - 1, min(MAX_SPLIT, max(_k_for(v_fs, ladder[-1][1]), k_cat)), "none")
+
+
+def revise_rates(rates: list[Rate], ladder, st: Stress, st0: Stress, seg_parts: list[list[PartRow]],
+                 segments: list[SegmentPlan]) -> bool:
+    """One step on the chosen parts: a part past its voltage limit gets one more split, past its power one rating.
+
+    ``rates`` is changed in place; ``st`` are the stresses on the chosen parts,
+    ``st0`` those of the ideal network (for a segment that falls back to full
+    scale). Returns True when any rate changed.
+    """
+    changed = False
+    for j, r in enumerate(rates):
+        pr, vr = ladder[r.index]
+        if r.basis == "worst":
+            vmap, pmap = st.v, st.p
+        else:
+            vmap, pmap = st.v_fs, st.p_fs
+        names = [x[0] for x in seg_parts[j]]
+        if any(vmap.get(n, 0.0) > vr * (1 + 1e-9) for n in names) and r.k < MAX_SPLIT:
+            r.k += 1
+            changed = True
+        elif r.basis != "none" and any(pmap.get(n, 0.0) > pr * (1 + 1e-9) for n in names):
+            changed = True
+            if r.index + 1 < len(ladder):
+                r.index += 1
+            elif r.basis == "worst":
+                rates[j] = initial_rate(
+                    ladder, 0.0, 0.0, st0.seg_v_fs[j], st0.seg_p_fs[j], segments[j].target, misrange=False
+                )
+            else:
+                r.basis = "none"
+    return changed
