@@ -19,8 +19,9 @@ from ..stress import FAILING, describe_stress, ratio_text, worst_ratio, wrap
 from ..tools import fmt
 from .families import NEIGHBOUR_COLUMNS
 
-_SHORT = {"full scale": "FS", "max input": "max in"}
+#: Verdict words of the matrix cells.
 _WORD = {"ok": "ok", "pegs": "pegs", "overstress": "OVER", "hazard": "HAZ"}
+#: Width of the terminal report [columns].
 _WIDTH = 100
 
 
