@@ -16,11 +16,40 @@ How the solver sees an element (:attr:`Part.stamp`):
 ``switch``
     a contact: a branch of its contact resistance in the states that close it,
     its nodes merged when that resistance is zero, absent otherwise.
+
+How the misrange analysis judges it (:mod:`planner.stress`): :meth:`Part.checks`
+returns its stress entries under one solved stimulus, :meth:`Part.trip` says
+whether a protective part opens (and what that asks of it), :meth:`Part.opened`
+gives the element that stands in for it once open and :meth:`Part.open_checks`
+judges that stand-in. Each receives a *judging context* (built by
+:func:`planner.stress.judge`, see :class:`planner.stress.judge.JudgingContext`):
+
+``ctx.spec``
+    the project (catalogue models, the movement);
+``ctx.stimulus``
+    the applied :class:`planner.stimulus.Stimulus` (``ctx.peak_only`` for an impulse);
+``ctx.current``, ``ctx.voltage``, ``ctx.power_w``
+    the element's cycle statistics (``peak``, ``mean``, ``rms``, ``mean_abs``)
+    of its current [A] and voltage [V], and its mean power [W];
+``ctx.movement_multiple``
+    the same statistics of the movement current as a multiple of I_fs;
+``ctx.prospective_a``
+    the largest |source current| of the cycle [A];
+``ctx.event``
+    the pulse while fuses open (:class:`planner.stress.fuses.FuseEvent`: its
+    ``event_time_s`` and ``words``), or None;
+``ctx.short_exposure``
+    True when the movement is judged on its short-time overload;
+``ctx.phase``
+    words appended to every quantity (``' after F1 opens'`` or ``''``);
+``ctx.entry(...)``, ``ctx.exceeds(value, rating)``
+    a stress entry (:func:`planner.stress.verdict.stress_entry`) and the
+    comparison every limit uses.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import ClassVar
 
 import numpy as np
@@ -58,6 +87,29 @@ class Parameter:
     def extremes(self) -> tuple[float, float]:
         """Low and high factor of the nominal value at the tolerance extremes."""
         return (max(1.0 - self.tolerance, 1e-6), 1.0 + self.tolerance)
+
+
+@dataclass
+class Trip:
+    """What a protective part does under one stimulus (see :meth:`Part.trip`).
+
+    Attributes
+    ----------
+    record : dict
+        Its row in a case's ``fuses[]`` (``name``, ``opens``, ``pre_arcing_time_s``,
+        ``let_through_i2t_a2s``, ``event_time_s``, ...; see ``docs/safety.md``).
+    opens : bool
+        True when it opens.
+    stresses : list of dict
+        Its stress entries (the trigger, and what opening asks of it).
+    notes : list of str
+        Words for the case's ``notes[]``.
+    """
+
+    record: dict
+    opens: bool
+    stresses: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
 
 
 class Part:
@@ -121,3 +173,33 @@ class Part:
     def yaml(self) -> str:
         """The element as a project-file flow mapping (see :mod:`planner.writer`)."""
         raise NotImplementedError(f"no project-file form for element kind {self.kind!r}")
+
+    # --- misrange ratings (planner.stress) -----------------------------------------
+    def checks(self, ctx) -> list[dict]:
+        """Its stress entries under one solved stimulus (none by default).
+
+        Parameters
+        ----------
+        ctx : JudgingContext
+            The element's cycle statistics, the event, the project and the phase
+            words (see the module docstring).
+        """
+        return []
+
+    def trip(self, ctx) -> Trip | None:
+        """Whether a protective part opens under the stimulus (None: it is no protective part)."""
+        return None
+
+    def opened(self, r_open_ohm: float) -> "Part | None":
+        """The element that stands in for it once it has opened (None: it cannot open).
+
+        Parameters
+        ----------
+        r_open_ohm : float
+            Resistance of the open part [ohm] (its insulation).
+        """
+        return None
+
+    def open_checks(self, ctx) -> list[dict]:
+        """Stress entries of its stand-in once it has opened (``ctx`` holds the stand-in's statistics)."""
+        return []

@@ -1,8 +1,11 @@
 """Fuses: the catalogue model (cold resistance, ratings, time-current behaviour) and the element.
 
-In the solver a fuse is its cold resistance (design contract); how it opens,
-what it lets through and whether it can break the prospective current are
-judged in :mod:`planner.stress` (IEC 60127-1, IEC 60269-1 definitions).
+In the solver a fuse is its cold resistance (design contract). How long it takes
+to open (:func:`pre_arcing_time_s`), what it lets through while it does
+(:func:`fuse_let_through`), whether it opens under a stimulus and can break the
+prospective current (:meth:`Fuse.trip`) and whether it stands the voltage across
+it once open (:meth:`Fuse.open_checks`) follow the definitions of IEC 60127-1 and
+IEC 60269-1; :mod:`planner.stress` asks these of every part.
 """
 
 from __future__ import annotations
@@ -13,7 +16,8 @@ from typing import ClassVar
 
 import numpy as np
 
-from .base import Part
+from .base import Part, Trip
+from .resistor import Resistor
 
 
 @dataclass(frozen=True)
@@ -76,3 +80,186 @@ class Fuse(Part):
 
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: fuse, between: [{self.a}, {self.b}], model: {self.model}}}"
+
+    # --- misrange (planner.stress) -------------------------------------------------------
+    def trip(self, ctx) -> Trip | None:
+        """Whether it opens (rms current above its rating), how fast, and what opening asks of it.
+
+        Notes
+        -----
+        Its rms current is a ``fuse trigger`` stress against ``rated_current_a``
+        (the trigger, not an overstress). When it opens, the prospective current
+        (the largest |source current| of the cycle) is a ``safety`` stress against
+        ``breaking_capacity_a``, and :func:`pre_arcing_time_s` and
+        :func:`fuse_let_through` give the time and the pulse. An impulse is
+        judged on peak quantities only: no fuse opens.
+
+        References
+        ----------
+        IEC 60127-1 and IEC 60269-1: rated current, breaking capacity, pre-arcing
+        time and I^2 t.
+        """
+        if ctx.peak_only:
+            return None
+        fm = ctx.spec.parts.fuses[self.model]
+        ph = ctx.phase
+        i_rms = ctx.current["rms"]
+        opens = ctx.exceeds(i_rms, fm.rated_current_a)
+        t_pa = pre_arcing_time_s(fm, i_rms) if opens else None
+        stresses = [ctx.entry(self.name, self.kind, f"rms current{ph}", i_rms, fm.rated_current_a, "A", "fuse trigger")]
+        lt = fuse_let_through(fm, i_rms) if opens else None
+        record = {"name": self.name, "model": fm.name, "current_rms_a": i_rms, "rated_current_a": fm.rated_current_a,
+                  "opens": bool(opens), "pre_arcing_time_s": t_pa if (t_pa is None or math.isfinite(t_pa)) else None,
+                  "time_known": t_pa is not None, "prospective_current_a": ctx.prospective_a,
+                  "breaking_capacity_a": fm.breaking_capacity_a,
+                  "let_through_i2t_a2s": lt["let_through_i2t_a2s"] if lt else None,
+                  "arcing_i2t_a2s": lt["arcing_i2t_a2s"] if lt else None,
+                  "event_time_s": lt["event_time_s"] if lt else None,
+                  "arcing_known": bool(lt and lt["arcing_known"])}
+        notes = []
+        if opens:
+            stresses.append(ctx.entry(self.name, self.kind, f"prospective current{ph}", ctx.prospective_a,
+                                      fm.breaking_capacity_a, "A", "safety"))
+            notes.append(self._opening_note(fm, i_rms, t_pa, lt))
+        return Trip(record, bool(opens), stresses, notes)
+
+    def _opening_note(self, fm: FuseModel, i_rms: float, t_pa: float | None, lt: dict | None) -> str:
+        """How it opens, in words for the case's notes."""
+        if t_pa is None:
+            return (f"{self.name} opens at {i_rms:.4g} A rms; its model gives no I2t or curve, "
+                    "so the pre-arcing time is unknown: give i2t or curve")
+        if math.isinf(t_pa):
+            return (f"{self.name} carries {i_rms:.4g} A rms, above its {fm.rated_current_a:g} A rating "
+                    "but below its time-current curve: it may not open for a long time")
+        arc = (f", arcing {lt['arcing_i2t_a2s']:.3g} A^2 s" if lt["arcing_known"] else
+               "; no clearing_i2t given, so the pulse is counted over the pre-arcing time only")
+        return (f"{self.name} opens: {i_rms:.4g} A rms, pre-arcing time {t_pa:.3g} s, let-through "
+                f"{lt['let_through_i2t_a2s']:.3g} A^2 s{arc}")
+
+    def opened(self, r_open_ohm: float) -> Resistor:
+        """A resistor of ``r_open_ohm`` between its nodes, rated for anything (judged by :meth:`open_checks`)."""
+        return Resistor(self.name, self.a, self.b, r_open_ohm, tolerance=0.0, tempco_per_k=0.0,
+                        power_w=math.inf, max_voltage_v=math.inf, line=self.line)
+
+    def open_checks(self, ctx) -> list[dict]:
+        """The voltage across it once open (rms of a periodic wave, else peak) against its rated voltage.
+
+        References
+        ----------
+        IEC 60127-1 and IEC 60269-1, rated voltage (the recovery voltage a fuse
+        withstands after breaking).
+        """
+        fm = ctx.spec.parts.fuses.get(self.model)
+        if fm is None or not math.isfinite(fm.max_voltage_v):
+            return []
+        v_rec = ctx.voltage["rms"] if ctx.stimulus.waveform.cyclic else ctx.voltage["peak"]
+        return [ctx.entry(self.name, self.kind, f"voltage across the open fuse{ctx.phase}", v_rec, fm.max_voltage_v,
+                          "V", "safety")]
+
+
+# --- time-current behaviour ---------------------------------------------------------------
+
+
+def pre_arcing_time_s(fuse: FuseModel, i_rms_a: float) -> float | None:
+    """Pre-arcing (melting) time of a fuse at an rms current [s].
+
+    Parameters
+    ----------
+    fuse : FuseModel
+    i_rms_a : float
+        RMS current through the fuse [A].
+
+    Returns
+    -------
+    float or None
+        ``inf`` below the lowest current of its time-current curve; None when the
+        model has neither curve nor I^2 t.
+
+    Notes
+    -----
+    With time-current points, log-log interpolation between the points,
+    :math:`\\log t = \\log t_1 + (\\log t_2 - \\log t_1)
+    \\frac{\\log I - \\log I_1}{\\log I_2 - \\log I_1}`, and beyond the highest point the
+    adiabatic law :math:`t = t_n (I_n / I)^2` (constant I^2 t). With only the
+    pre-arcing integral, :math:`t = I^2t / I_{rms}^2`.
+
+    References
+    ----------
+    IEC 60127-1, *Miniature fuses*, definitions of pre-arcing time and I^2 t;
+    the log-log plot of time-current characteristics is common practice.
+    """
+    i = abs(float(i_rms_a))
+    if i <= 0.0:
+        return math.inf
+    if fuse.curve:
+        pts = sorted(fuse.curve)
+        cur = np.array([p[0] for p in pts], dtype=float)
+        t = np.array([p[1] for p in pts], dtype=float)
+        if i < cur[0]:
+            return math.inf
+        if i >= cur[-1]:
+            return float(t[-1] * (cur[-1] / i) ** 2)
+        return float(np.exp(np.interp(np.log(i), np.log(cur), np.log(t))))
+    if fuse.i2t_a2s is not None:
+        return float(fuse.i2t_a2s / (i * i))
+    return None
+
+
+def melting_i2t_a2s(fuse: FuseModel) -> float | None:
+    """Pre-arcing I^2 t of a fuse at high current [A^2 s]: ``i2t``, else the top of its curve."""
+    if fuse.i2t_a2s is not None:
+        return float(fuse.i2t_a2s)
+    if fuse.curve:
+        i_n, t_n = max(fuse.curve)
+        return float(i_n * i_n * t_n)
+    return None
+
+
+def fuse_let_through(fuse: FuseModel, i_rms_a: float) -> dict | None:
+    """The pulse a fuse lets through while it opens at an rms current.
+
+    Parameters
+    ----------
+    fuse : FuseModel
+    i_rms_a : float
+        RMS current through the fuse before it opens [A].
+
+    Returns
+    -------
+    dict or None
+        ``pre_arcing_time_s``, ``arcing_i2t_a2s``, ``let_through_i2t_a2s``,
+        ``event_time_s`` (the equivalent duration of the whole pulse at
+        ``i_rms_a``) and ``arcing_known``; None when the fuse does not open in a
+        known, finite time (no I^2 t or curve, or below its curve).
+
+    Notes
+    -----
+    Pre-arcing :math:`I^2t_{pa} = I_{rms}^2 t_{pa}` with :math:`t_{pa}` from
+    :func:`pre_arcing_time_s`. Arcing adds :math:`I^2t_{arc} = I^2t_{clear} -
+    I^2t_{melt}` (the clearing, i.e. total operating, I^2 t less the melting I^2 t
+    at high current; 0 when ``clearing_i2t_a2s`` is not given). The let-through
+    is :math:`I^2t = I^2t_{pa} + I^2t_{arc}` and the equivalent duration
+    :math:`t_{ev} = I^2t / I_{rms}^2`. A part carrying a fixed share of the fuse
+    current (a linear network) takes the energy :math:`E = \\bar P \\, t_{ev}`,
+    i.e. :math:`E = R \\, I^2t` for a resistor R in series with the fuse, whatever
+    the waveform; the arcing current is at most the current before the arc, so
+    this bounds the energy from above.
+
+    References
+    ----------
+    IEC 60127-1, *Miniature fuses*, and IEC 60269-1, *Low-voltage fuses*:
+    definitions of pre-arcing time, arcing time, operating time and I^2 t (Joule
+    integral). The additive split pre-arcing + arcing is the definition of the
+    operating I^2 t.
+    """
+    i = abs(float(i_rms_a))
+    t_pa = pre_arcing_time_s(fuse, i)
+    if t_pa is None or not math.isfinite(t_pa) or i <= 0.0:
+        return None
+    i2t_pa = i * i * t_pa
+    melt = melting_i2t_a2s(fuse)
+    clear = fuse.clearing_i2t_a2s
+    arc = max(0.0, clear - melt) if (clear is not None and melt is not None) else 0.0
+    total = i2t_pa + arc
+    return {"pre_arcing_time_s": float(t_pa), "arcing_i2t_a2s": float(arc), "let_through_i2t_a2s": float(total),
+            "event_time_s": float(total / (i * i)), "arcing_known": clear is not None}

@@ -4,7 +4,8 @@ The coil obeys Ohm's law at temperature with the movement's own tempco (copper b
 default); the reading of a position is :math:`I_m / I_{fs}` times its full scale,
 positive for current from the element's first node to its second (design
 contract). The movement's data (full-scale current, coil resistance, class,
-overload limits) are :class:`planner.model.Movement`.
+overload limits) are :class:`planner.model.Movement`; :meth:`MovementElement.checks`
+judges its current against those limits for :mod:`planner.stress`.
 """
 
 from __future__ import annotations
@@ -49,3 +50,37 @@ class MovementElement(Part):
 
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: movement, between: [{self.a}, {self.b}]}}"
+
+    def checks(self, ctx) -> list[dict]:
+        """Peak and rms multiples of I_fs against its overload limits; the pointer against its stops.
+
+        Notes
+        -----
+        The peak multiple against ``overload.short_time`` always; for a DC or
+        periodic stimulus also the rms multiple (heating follows the rms, and
+        :math:`|\\bar I| \\le I_{rms}`, so it covers the mean too) against
+        ``short_time`` while a fuse opens fast (``ctx.short_exposure``) or
+        ``continuous`` otherwise, and the mean multiple (what the pointer follows)
+        against the end stop ``peg``; a negative mean against the zero-end stop,
+        assumed as far below zero as the forward stop is beyond full scale
+        (common practice: a few percent).
+        """
+        ov = ctx.spec.movement.overload
+        ms, ph = ctx.movement_multiple, ctx.phase
+        out = [ctx.entry(self.name, self.kind, f"peak multiple{ph}", ms["peak"], ov.short_time, "x I_fs", "rating")]
+        if ctx.peak_only:
+            return out
+        if ctx.short_exposure:
+            rating, words = ov.short_time, " until the fuse opens"
+        else:
+            rating, words = ov.continuous, ""
+        q = "rms multiple" if ctx.stimulus.waveform.cyclic else "multiple"
+        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", ms["rms"], rating, "x I_fs", "rating"))
+        if ms["mean"] >= 0.0:
+            out.append(ctx.entry(self.name, self.kind, f"pointer (mean multiple){ph}", ms["mean"], ov.peg,
+                                 "x I_fs", "end stop"))
+        else:
+            back = max(ov.peg - 1.0, 1e-3)
+            out.append(ctx.entry(self.name, self.kind, f"pointer below zero (mean multiple){ph}", -ms["mean"], back,
+                                 "x I_fs", "end stop"))
+        return out

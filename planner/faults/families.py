@@ -1,0 +1,168 @@
+"""The stimuli of the misrange matrix: the project's own sources and the built-in families.
+
+Generic families, for every kind of range, are built here: the next range's full
+scale (``range up`` / ``range down``), the declared maximum input in both
+polarities and the impulse of the measurement category. Families that belong to
+one kind of range (``mains on A range`` for current ranges) are that range kind's
+own (:meth:`planner.ranges.RangeKind.misrange`); :func:`stimuli_for` puts them in
+column order.
+"""
+
+from __future__ import annotations
+
+import re
+
+from ..errors import ProjectError
+from ..model import Spec
+from ..stimulus import Stimulus
+from ..tools import fmt
+from ..units import QuantityError, parse
+
+#: Rated impulse voltages [V peak] by line-to-neutral voltage and category
+#: (CAT II, CAT III, CAT IV). IEC 61010-1 / IEC 61010-2-030 as quoted in
+#: secondary sources: verify against the standard before relying on them.
+IMPULSE_TABLE_V = {
+    150.0: (1500.0, 2500.0, 4000.0),
+    300.0: (2500.0, 4000.0, 6000.0),
+    600.0: (4000.0, 6000.0, 8000.0),
+    1000.0: (6000.0, 8000.0, 12000.0),
+}
+#: Test source impedance of the impulse [ohm] by category (secondary source, verify).
+IMPULSE_SOURCE_OHM = {"II": 12.0, "III": 2.0, "IV": 2.0}
+_CATS = ("II", "III", "IV")
+
+#: Column order of the built-in stimuli (after the project's own sources); the
+#: impulse column, named after the category, comes last.
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range")
+
+#: What the matrix column of a neighbouring range's full scale says (each
+#: position's own stimulus names its range).
+NEIGHBOUR_COLUMNS = {
+    "range up": "full scale of the next higher range of the same quantity",
+    "range down": "full scale of the next lower range of the same quantity",
+}
+
+
+def category_impulse(category: str) -> tuple[float, float, str]:
+    """Rated impulse voltage and test source impedance of a measurement category.
+
+    Parameters
+    ----------
+    category : str
+        ``'CAT II 300 V'``, ``'CAT III 600 V'``, ... (any voltage up to 1000 V: the
+        next higher tabulated line-to-neutral voltage applies).
+
+    Returns
+    -------
+    peak_v : float
+        Rated impulse voltage [V].
+    r_source_ohm : float
+        Test source impedance [ohm].
+    label : str
+        The category as used for the column name.
+
+    Raises
+    ------
+    ProjectError
+        An unknown category or a voltage above 1000 V.
+
+    References
+    ----------
+    IEC 61010-1:2010 and IEC 61010-2-030:2017, rated impulse voltages by
+    measurement category, as quoted in secondary sources (manufacturers'
+    application notes): 150 V: 1500/2500/4000 V, 300 V: 2500/4000/6000 V, 600 V:
+    4000/6000/8000 V, 1000 V: 6000/8000/12000 V for CAT II/III/IV; test source
+    impedance 12 ohm (CAT II), 2 ohm (CAT III, IV). Secondary source: verify.
+    """
+    text = " ".join(str(category).split())
+    m = re.fullmatch(r"(?i)CAT\s*(II|III|IV)\s+(.+)", text)
+    if m is None:
+        raise ProjectError(f"faults.category is '{text}'; write the measurement category and its voltage, "
+                           "e.g. 'CAT II 300 V' (CAT II, CAT III or CAT IV)")
+    cat = m.group(1).upper()
+    try:
+        v = float(parse(m.group(2), "voltage", where="faults.category"))
+    except QuantityError as e:
+        raise ProjectError(e.message) from None
+    rows = [k for k in sorted(IMPULSE_TABLE_V) if k >= v * (1.0 - 1e-12)]
+    if not rows or v <= 0:
+        raise ProjectError(f"faults.category '{text}': the impulse table covers line-to-neutral voltages up to "
+                           "1000 V; give 150 V, 300 V, 600 V or 1000 V")
+    row = rows[0]
+    return IMPULSE_TABLE_V[row][_CATS.index(cat)], IMPULSE_SOURCE_OHM[cat], f"CAT {cat} {row:g} V"
+
+
+def impulse_stimulus(category: str) -> Stimulus:
+    """The rated impulse of a measurement category as a stimulus (see :func:`category_impulse`)."""
+    v, r, label = category_impulse(category)
+    return Stimulus(f"{label} impulse", "voltage", v, "impulse", r,
+                    detail=f"rated impulse {v:g} V peak through {r:g} ohm, both polarities (secondary source, verify)")
+
+
+def same_kind_neighbours(net, p):
+    """Next lower and next higher full scale among positions measuring the same quantity.
+
+    Returns
+    -------
+    lower, higher : (float, str) or None
+        Full scale and name of the neighbouring position, None at either end.
+    """
+    same = sorted({q.full_scale for q in net.positions if q.measures == p.measures})
+    lower = [x for x in same if x < p.full_scale]
+    higher = [x for x in same if x > p.full_scale]
+    name = {q.full_scale: q.name for q in net.positions if q.measures == p.measures}
+    return ((lower[-1], name[lower[-1]]) if lower else None), ((higher[0], name[higher[0]]) if higher else None)
+
+
+def project_sources(spec: Spec) -> list[Stimulus]:
+    """The project's own ``faults.sources`` as stimuli (a current source has no impedance or limit)."""
+    return [Stimulus(s.name, s.kind, s.value, s.waveform, s.r_source_ohm if s.kind == "voltage" else 0.0,
+                     s.current_limit_a if s.kind == "voltage" else None) for s in spec.faults.sources]
+
+
+def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
+    """Every stimulus of the matrix that applies to one position, in column order.
+
+    Parameters
+    ----------
+    spec : Spec
+    net : NetworkSpec
+    position : Position
+
+    Returns
+    -------
+    list of Stimulus
+        The project's sources, ``range up`` and ``range down``, ``max input`` and
+        ``max input reversed``, the range kind's own families, the category's impulse.
+    """
+    f = spec.faults
+    out = project_sources(spec)
+    lower, higher = same_kind_neighbours(net, position)
+    unit = position.unit
+    if higher:
+        out.append(Stimulus("range up", position.kind.source, higher[0],
+                            detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'"))
+    if lower:
+        out.append(Stimulus("range down", position.kind.source, lower[0],
+                            detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'"))
+    if f.max_input_v is not None:
+        out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
+        out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
+                            detail="declared maximum input, reverse polarity"))
+    out += position.kind.misrange(position, f)
+    if f.category:
+        out.append(impulse_stimulus(f.category))
+    return out
+
+
+def column_of(s: Stimulus) -> dict:
+    """A stimulus as a matrix column (its JSON, with words that fit every position it applies to)."""
+    return dict(s.as_dict(), detail=NEIGHBOUR_COLUMNS.get(s.name, s.detail))
+
+
+def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
+    """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
+    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left")]
+    if spec.faults.max_input_v is not None:
+        out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
+    return out

@@ -1,0 +1,263 @@
+"""The misrange matrix of a project: every position under every stimulus, the switch transitions.
+
+:func:`faults_project` in named steps: the cases of each position
+(:func:`_position_cases`, judged by :func:`planner.stress.assess`) with its
+protection curve, the transition states (:func:`transition_states`,
+:func:`_transition_cases`), the accepted cases (:class:`_Acceptance`), the
+contact style the transitions call for (:func:`contact_style`) and the cautions.
+"""
+
+from __future__ import annotations
+
+from .. import network as nw
+from ..design import Design, as_design
+from ..engine import Engine
+from ..errors import SolveError
+from ..model import Spec
+from ..stress import FAILING, assess
+from .cautions import matrix_cautions
+from .curves import protection_curve, without_clamps
+from .families import BUILT_IN_ORDER, column_of, stimuli_for, transition_stimuli
+
+#: Stresses kept in each case of the matrix: every one at or above this share of
+#: its limit, and always the largest few.
+KEEP_RATIO = 0.5
+KEEP_AT_LEAST = 3
+
+
+def transition_states(engine: Engine) -> list[nw.SwitchState]:
+    """Both transition states of each adjacent pair, turning either way.
+
+    Turning up (A -> B) leaves A with A's stimulus applied; turning down (B -> A)
+    leaves B with B's. The closed contacts are those of :func:`planner.network.
+    transition_states` (make-before-break: the union of both positions' contacts;
+    break-before-make: their intersection).
+    """
+    out = []
+    for st in engine.transitions():
+        out.append(st)
+        back = st.name.replace(f"{st.position.name} -> {st.target.name}", f"{st.target.name} -> {st.position.name}", 1)
+        out.append(nw.SwitchState(back, st.kind, st.target, st.closed, st.position))
+    return out
+
+
+def faults_project(design: Design | Spec, *, position: str | None = None, only_failing: bool = False, progress=None,
+                   engine: Engine | None = None) -> dict:
+    """The misrange matrix, protection curves and switch transitions of a project.
+
+    Parameters
+    ----------
+    design : Design
+        The project's design (:func:`planner.design.build`; a loaded Spec is
+        built into one).
+    position : str, optional
+        Only this position (and the transitions that leave or reach it).
+    only_failing : bool
+        Keep only the cases and transitions judged ``overstress`` or ``hazard``
+        (``requirements_met`` still counts every case).
+    progress : callable, optional
+        Called as ``progress(done, total, label)`` after each position and state.
+    engine : Engine, optional
+        A ready engine on ``design``.
+
+    Returns
+    -------
+    dict
+        The ``faults`` JSON of the design contract: ``cases[]`` (``position``,
+        ``stimulus``, ``movement_multiple``, ``movement_rms_multiple``,
+        ``movement_mean_multiple``, ``verdict``, ``deciding``, ``stresses[]``
+        (``part``, ``quantity``, ``value``, ``rating``, ``ratio``, ...), ``accepted``,
+        ``accept_reason``), ``transitions[]`` (the same fields plus ``style`` and
+        ``target``), ``stimuli[]`` (the matrix columns), ``matrix`` (position -> the
+        stimuli that apply to it), ``protection_curves[]``,
+        ``cautions[]``, ``accepted[]``, ``accept_unmatched[]``,
+        ``contact_style_needed`` (``either``, ``make_before_break``,
+        ``break_before_make`` or ``neither``), ``contact_style_declared`` and
+        ``requirements_met`` (False when a case that is not accepted is
+        ``overstress`` or ``hazard``, or when the switch's declared contact style,
+        or with none declared every style, fails a transition).
+
+    Notes
+    -----
+    All stimuli of one kind on a position are solved in one batched call of
+    :meth:`Engine.operate` (see :func:`planner.stress.solve_waveforms`).
+    """
+    design = engine.design if engine is not None else as_design(design)
+    spec = design.spec
+    engine = engine or Engine(design)
+    net = engine.net
+    positions = [engine.state(position).position] if position is not None else list(net.positions)
+    tstates = [s for s in transition_states(engine)
+               if position is None or position in (s.position.name, s.target.name)]
+    acceptance = _Acceptance(spec)
+    tick = _progress(progress, len(positions) + len(tstates))
+
+    cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
+    transitions = _transition_cases(engine, tstates, acceptance, tick)
+    needed, transitions_ok = contact_style(transitions, bool(tstates), net.contact_style)
+    met = not any(_failing(c) for c in cases) and transitions_ok
+
+    accepted = [{"position": c["position"] if c in cases else c["state"], "stimulus": c["stimulus"],
+                 "verdict": c["verdict"], "reason": c["accept_reason"]} for c in cases + transitions if c["accepted"]]
+    known_pos = {p.name for p in net.positions} | {st.name for st in transition_states(engine)}
+    known_stim = {c["stimulus"] for c in cases + transitions} | {c["name"] for c in columns}
+    unmatched = acceptance.unmatched(known_pos, known_stim, position)
+    rank = {n: i for i, n in enumerate([s.name for s in spec.faults.sources] + list(BUILT_IN_ORDER))}
+    columns.sort(key=lambda c: rank.get(c["name"], len(rank)))
+    if only_failing:
+        cases = [c for c in cases if c["verdict"] in FAILING]
+        transitions = [t for t in transitions if t["verdict"] in FAILING]
+    return {
+        "title": spec.title,
+        "positions": [p.name for p in positions],
+        "stimuli": columns,
+        "matrix": matrix,
+        "cases": cases,
+        "transitions": transitions,
+        "contact_style_needed": needed,
+        "contact_style_declared": net.contact_style,
+        "protection_curves": curves,
+        "cautions": matrix_cautions(spec, positions),
+        "accepted": accepted,
+        "accept_unmatched": unmatched,
+        "requirements_met": bool(met),
+        "only_failing": bool(only_failing),
+    }
+
+
+def _progress(progress, total: int):
+    """A callable ``tick(label)`` that reports ``progress(done, total, label)`` (or nothing)."""
+    done = [0]
+
+    def tick(label):
+        done[0] += 1
+        if progress:
+            progress(done[0], total, label)
+
+    return tick
+
+
+def _failing(case: dict) -> bool:
+    return case["verdict"] in FAILING and not case["accepted"]
+
+
+class _Acceptance:
+    """The project's ``faults.accept`` entries: marking the cases they accept, finding those that name none."""
+
+    def __init__(self, spec: Spec):
+        self.entries = {(a.position.strip(), a.stimulus.strip()): a for a in spec.faults.accept}
+        self.used: set = set()
+
+    def mark(self, case: dict, pos_key: str) -> dict:
+        """Set ``accepted`` and ``accept_reason`` of a case judged on position or state ``pos_key``."""
+        key = (pos_key, case["stimulus"])
+        a = self.entries.get(key)
+        if a is not None:
+            self.used.add(key)
+            if a.expanded and case["verdict"] not in FAILING:
+                a = None  # an entry listing several cases accepts only the failing ones
+        case["accepted"] = a is not None
+        case["accept_reason"] = a.reason if a else None
+        return case
+
+    def unmatched(self, known_pos: set, known_stim: set, position: str | None) -> list[dict]:
+        """The entries that accepted no case (a listed combination that does not apply is no typo;
+        an unknown name is)."""
+        out = []
+        for key, a in self.entries.items():
+            if key in self.used or (position is not None and a.position != position):
+                continue
+            if not a.expanded or a.position not in known_pos or a.stimulus not in known_stim:
+                out.append({"position": a.position, "stimulus": a.stimulus, "reason": a.reason, "line": a.line})
+        return out
+
+
+def _assess_named(engine: Engine, state, stims) -> list[dict]:
+    """:func:`planner.stress.assess`, naming the position and stimulus of a case the solver fails on."""
+    try:
+        return assess(engine, state, stims)
+    except SolveError as e:
+        name = state if isinstance(state, str) else state.name
+        for s in stims:
+            try:
+                assess(engine, state, [s])
+            except SolveError as e1:
+                raise SolveError(f"misrange case '{name}' | '{s.name}' ({s.describe()}): {e1.one_line()}") from None
+        raise SolveError(f"misrange cases of '{name}': {e.one_line()}") from None
+
+
+def _trim(case: dict) -> dict:
+    """The case with the stresses worth keeping: every one from ``KEEP_RATIO`` of its limit, the largest few."""
+    ss = sorted(case["stresses"], key=lambda x: -x["ratio"])
+    keep = [x for i, x in enumerate(ss) if i < KEEP_AT_LEAST or x["ratio"] >= KEEP_RATIO or x["exceeded"]]
+    return dict(case, stresses=keep)
+
+
+def _position_cases(engine: Engine, design: Design, positions, acceptance: _Acceptance, tick):
+    """Each position under its stimuli, and its protection curve.
+
+    Returns
+    -------
+    cases, curves, columns : list
+    matrix : dict of position name -> the names of its stimuli
+    """
+    spec, net = design.spec, engine.net
+    bare = Engine(design.variant(without_clamps(net), validate=True)) if any(e.clamp for e in net.elements) else None
+    cases, curves, columns, matrix = [], [], [], {}
+    for p in positions:
+        stims = stimuli_for(spec, net, p)
+        matrix[p.name] = [s.name for s in stims]
+        for s in stims:
+            if s.name not in [c["name"] for c in columns]:
+                columns.append(column_of(s))
+        for c in _assess_named(engine, p.name, stims):
+            cases.append(acceptance.mark(_trim(c), p.name))
+        curves.append(protection_curve(engine, bare, p))
+        tick(p.name)
+    return cases, curves, columns, matrix
+
+
+def _transition_cases(engine: Engine, tstates, acceptance: _Acceptance, tick) -> list[dict]:
+    """Each transition state under what stays applied from the position being left."""
+    out = []
+    for st in tstates:
+        for c in _assess_named(engine, st, transition_stimuli(engine.spec, st.position)):
+            c = acceptance.mark(_trim(c), st.name)
+            c.update(style=st.kind, target=st.target.name, position=st.position.name, state=st.name,
+                     turn=f"{st.position.name} -> {st.target.name}")
+            out.append(c)
+        tick(st.name)
+    return out
+
+
+def contact_style(transitions: list, any_states: bool, declared: str | None) -> tuple[str, bool]:
+    """The contact style the transitions call for, and whether the switch's transitions pass.
+
+    Parameters
+    ----------
+    transitions : list of dict
+        The judged transition cases (``style``, ``verdict``, ``accepted``).
+    any_states : bool
+        Whether there are transition states at all.
+    declared : str or None
+        The switch's declared contact style.
+
+    Returns
+    -------
+    needed : {'either', 'make_before_break', 'break_before_make', 'neither'}
+        A style free of failing cases that are not accepted.
+    ok : bool
+        The declared style passes, or with none declared some style does.
+    """
+    style_ok = {sty: not any(_failing(t) for t in transitions if t["style"] == sty)
+                for sty in (nw.MAKE_BEFORE_BREAK, nw.BREAK_BEFORE_MAKE)}
+    if not any_states or all(style_ok.values()):
+        needed = "either"
+    elif style_ok[nw.MAKE_BEFORE_BREAK]:
+        needed = nw.MAKE_BEFORE_BREAK
+    elif style_ok[nw.BREAK_BEFORE_MAKE]:
+        needed = nw.BREAK_BEFORE_MAKE
+    else:
+        needed = "neither"
+    ok = style_ok[declared] if declared in style_ok else needed != "neither"
+    return needed, ok
