@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 
-from .. import model, units
+from .. import model, units, values
 from ..units import QuantityError
 from .limits import MAX_SAMPLES, MAX_SEED, MAX_SOURCES
 from .reader import Reader, Section, capped
@@ -52,11 +52,10 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
             kind = "voltage" if s.has("voltage") else "current"
             value = ctx.qty(s.get(kind), kind, f"{where}.{kind}", "nonzero")
             waveform = s.choice("waveform", ("dc", "sine"), "dc")
-            if waveform == "sine" and value < 0:
-                ctx.fail(
-                    f"{where}: a sine is given by its rms value, which is positive; drop the minus sign",
-                    s.get(kind).line,
-                )
+            try:
+                values.sine_rms(value, waveform, where)
+            except QuantityError as e:
+                ctx.fail(e.message, s.get(kind).line)
             r_src = s.qty("impedance", "resistance", 0.0, check="nonneg")
             i_lim = s.qty("current_limit", "current", None, check="pos")
             sources.append(

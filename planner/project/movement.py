@@ -10,7 +10,8 @@ from __future__ import annotations
 import math
 import re
 
-from .. import model
+from .. import model, values
+from ..units import QuantityError
 from .limits import IEC_CLASSES
 from .reader import Reader, Section, tempco_bound
 from .tree import Node
@@ -128,10 +129,10 @@ def read_ambient(ctx: Reader, node: Node | None) -> model.Ambient:
     lo = m.qty("min", "temperature", d.t_min_k, check="pos")
     hi = m.qty("max", "temperature", d.t_max_k, check="pos")
     for key, v in (("reference", ref), ("min", lo), ("max", hi)):
-        if v > 1000.0:
-            ctx.fail(
-                f"ambient.{key} is {v:g} K; an ambient temperature is below 1000 K: check the unit", m.get(key).line
-            )
+        try:
+            values.ambient_temperature(v, f"ambient.{key}")
+        except QuantityError as e:
+            ctx.fail(e.message, m.get(key).line)
     if not lo <= ref <= hi:
         if lo > hi:
             culprit, what = "min", "min is above max"

@@ -12,13 +12,13 @@ from __future__ import annotations
 
 from typing import Any, Mapping, NoReturn, Sequence
 
-from .. import units
+from .. import units, values
 from ..errors import ProjectError
 from ..tools import did_you_mean as suggest
 from ..units import QuantityError
 from .tree import Node
 
-__all__ = ["Reader", "Section", "suggest", "check_range", "capped", "tempco_bound", "node_name", "pair", "model_ref"]
+__all__ = ["Reader", "Section", "suggest", "capped", "tempco_bound", "node_name", "pair", "model_ref"]
 
 
 class Reader:
@@ -67,12 +67,9 @@ class Reader:
         ex = f"'{units.example(dim)}'"
         self.scalar(node, where, ex)
         try:
-            x = units.parse(node.text, dim, where=where)
+            return values.quantity(node.text, dim, where, check)
         except QuantityError as e:
             self.fail(e.message, node.line)
-        if check is not None:
-            check_range(self, x, check, where, node, dim)
-        return x
 
     def choice(self, node: Node, options: Sequence[str], where: str) -> str:
         s = self.text(node, where, options[0])
@@ -85,30 +82,10 @@ class Reader:
         v = node.value
         if type(v) is not int:
             self.fail(f"{where} is {node.describe()}; give a whole number, e.g. {example}", node.line)
-        if v < lo or (hi is not None and v > hi):
-            rng = f"from {lo} to {hi}" if hi is not None else f"of at least {lo}"
-            self.fail(f"{where} is {v}; give a whole number {rng}", node.line)
-        return v
-
-
-def check_range(ctx: Reader, x: float, check: str, where: str, node: Node, dim: str) -> None:
-    shown = f"'{' '.join((node.text or '').split())}'"
-    ex = units.example(dim)
-    if check == "pos" and not x > 0:
-        ctx.fail(f"{where} is {shown}; it must be above zero: give a positive value, e.g. '{ex}'", node.line)
-    elif check == "nonneg" and x < 0:
-        ctx.fail(f"{where} is {shown}; it cannot be negative: give zero or more, e.g. '{ex}'", node.line)
-    elif check == "nonzero" and x == 0:
-        ctx.fail(f"{where} is {shown}; give a value other than zero, e.g. '{ex}'", node.line)
-    elif check == "frac":
-        if x < 0:
-            ctx.fail(f"{where} is {shown}; it cannot be negative: give e.g. '{ex}'", node.line)
-        if x >= 1:
-            ctx.fail(
-                f"{where} is {shown}, that is {x * 100:g} %; it must be below 100 %: "
-                f"write a percentage with its sign, e.g. '{ex}'",
-                node.line,
-            )
+        try:
+            return values.whole(v, where, lo, hi)
+        except QuantityError as e:
+            self.fail(e.message, node.line)
 
 
 class Section:
