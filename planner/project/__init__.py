@@ -97,6 +97,9 @@ def load(path: str | os.PathLike[str]) -> model.Spec:
         raise ProjectError(f"cannot read the file ({e.strerror}); check the path and its permissions", p) from None
     if stat.S_ISDIR(st.st_mode):
         raise ProjectError("is a folder, not a project file; give the path of a .yaml project file", p)
+    if not stat.S_ISREG(st.st_mode):  # reading a FIFO without a writer would wait for ever
+        kind = "a FIFO (named pipe)" if stat.S_ISFIFO(st.st_mode) else "a device or a socket"
+        raise ProjectError(f"is {kind}, not a project file; save the project as a .yaml file and give its path", p)
     if st.st_size > MAX_FILE_BYTES:
         raise ProjectError(too_big(st.st_size), p)
     try:
