@@ -80,9 +80,11 @@ def _end_progress(show) -> None:
 
 
 def _load(args):
-    from .project import load
+    from .project import load, same_meter
 
-    return load(args.project)
+    spec = load(args.project)
+    same_meter(spec)  # ranges and a network in one file: the same meter, or say which to remove
+    return spec
 
 
 def _design(spec):

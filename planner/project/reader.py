@@ -290,8 +290,8 @@ def distinct_name(ctx: Reader, name: str, line: int, seen: dict[str, tuple[str, 
         other, other_line = seen[key]
         ctx.fail(
             f"{what} name '{name}' looks the same as '{other}' (line {other_line}): they differ only by case, "
-            "spacing or look-alike characters, so reports, accept entries and --position cannot tell them "
-            "apart; rename one of them",
+            "spacing or look-alike characters, so reports, accept entries and the command line cannot tell "
+            "them apart; rename one of them",
             line,
         )
     seen[key] = (name, line)

@@ -8,10 +8,9 @@ that the first mistake is the one reported.
 from __future__ import annotations
 
 import datetime
-import math
 
 from .. import model, values
-from ..units import QuantityError, format_si
+from ..units import QuantityError
 from .catalogue import read_parts
 from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
@@ -57,8 +56,6 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
     network = read_network(ctx, top.get("network"), parts)
     faults = read_faults(ctx, top.get("faults"))
     analysis = read_analysis(ctx, top.get("analysis"))
-    if network is not None and (voltage is not None or current is not None):
-        _same_meter(ctx, top, voltage, current, network)
     if voltage is None and current is None and network is None:
         ctx.fail(
             "nothing to plan: give 'voltage:' or 'current:' ranges for the planner to size, or an explicit "
@@ -93,41 +90,3 @@ def read_date(ctx: Reader, node: Node | None) -> str | None:
         return values.calendar_date(node.text or "", "date")
     except QuantityError as e:
         ctx.fail(e.message, node.line)
-
-
-def _same_meter(ctx: Reader, top, voltage, current, network: model.NetworkSpec) -> None:
-    """Ranges to size and an explicit network in one file must describe the same meter.
-
-    The contract allows both sections in one file: the ranges are the request
-    ``planner size`` sizes, the network the meter the other commands analyse.
-    When the network's positions are not the positions the ranges ask for (each
-    measured quantity and full scale), the file describes two meters and every
-    command would silently pick one: refused, saying which to remove.
-    """
-    asked = [("voltage", x) for x in (voltage.full_scales if voltage else ())]
-    asked += [("current", x) for x in (current.full_scales if current else ())]
-    given = [(p.measures, p.full_scale) for p in network.positions]
-
-    def missing(a, b):
-        return [m for m in a if not any(m[0] == n[0] and math.isclose(m[1], n[1], rel_tol=1e-9) for n in b)]
-
-    only_asked, only_given = missing(asked, given), missing(given, asked)
-    if not only_asked and not only_given:
-        return
-    unit = {"voltage": "V", "current": "A"}
-    parts = []
-    if only_asked:
-        parts.append("the ranges ask for " + ", ".join(format_si(x, unit[k]) for k, x in only_asked[:4])
-                     + " that the network has no position for")
-    if only_given:
-        parts.append("the network has " + ", ".join(format_si(x, unit[k]) for k, x in only_given[:4])
-                     + " that the ranges do not ask for")
-    sections = " and ".join(f"'{k}:'" for k in ("voltage", "current") if top.has(k))
-    ctx.fail(
-        f"the file gives both {sections} ranges to size (line "
-        f"{top.key_line('voltage' if voltage is not None else 'current')}) and an explicit 'network:', and they "
-        f"describe different meters ({'; '.join(parts)}); remove {sections} to work on the network as it is, "
-        "or remove 'network:' to size the ranges",
-        top.key_line("network"),
-    )
-
