@@ -562,3 +562,14 @@ def test_project_file_property(site, value, tmp_path, monkeypatch):
     _held(res)
     if res.code == 2:
         assert res.stderr.startswith(f"planner: {P}:"), res.stderr
+
+
+def test_fifty_junction_stack_answers_within_two_seconds(monkeypatch):
+    """``planner faults`` of a clamp of 50 ideal junctions each way (saturation current 1e-30 A,
+    no series or leakage resistance) at a tap, 1000 V maximum input: an answer (a verdict, not
+    a refusal) within 2 s of processor time, the requirement for this stiff case."""
+    monkeypatch.chdir(ROOT)
+    res = run_in_process(["faults", "tests/reliability/ideal_stack_50.yaml", "--quiet", "--json"])
+    assert res.code in (0, 1), res.stderr
+    assert json.loads(res.stdout)["cases"]
+    assert res.cpu_s < 2.0, f"{res.cpu_s:.2f} s of processor time"
