@@ -390,6 +390,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
     sp.set_defaults(func=cmd_scale)
     _add_diagnose(sub)
+    _add_netlist(sub)
     return p
 
 
@@ -506,6 +507,66 @@ def _add_diagnose(sub) -> None:
     sp.add_argument("--series", metavar="E96", help="E-series of the replacements (default: each part's own)")
     sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
     sp.set_defaults(func=cmd_diagnose)
+
+
+# --- planner netlist -----------------------------------------------------------------------
+
+
+def _temperature_option(text):
+    """``--temperature``: degC as a bare number, or a quantity with its unit [K]; None when not given."""
+    if text is None:
+        return None
+    from .model import ZERO_CELSIUS_K
+
+    try:
+        return float(text) + ZERO_CELSIUS_K  # a bare number is in degC
+    except ValueError:
+        return _quantity(text, "temperature", "--temperature")
+
+
+def cmd_netlist(args) -> int:
+    out = args.output or "-"
+    _check_output(out, args.project)
+    volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
+    amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
+    ohms = None if args.ohms is None else _quantity(args.ohms, "resistance", "--ohms")
+    temp = _temperature_option(args.temperature)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from . import __version__
+    from .engine import Engine
+    from .export import spice_deck, stimulus_for
+    from .fsio import emit
+
+    design = _design(spec)
+    st = design.state(args.position)  # an unknown name: exit 2 with the nearest one
+    stim = stimulus_for(st.position, volts=volts, amps=amps, ohms=ohms)
+    expected = None
+    if stim.kind in ("voltage", "current"):  # the planner's own answer, for the reader to compare
+        op = Engine(design).operate(st, [stim.value], kind=stim.kind, temperature_k=temp)
+        expected = float(op.movement_current_a[0, 0])
+    deck = spice_deck(design, st.name, stim, temperature_k=temp, expected_a=expected, source=args.project,
+                      version=__version__)
+    if emit(out, deck, protect=[args.project]):
+        print(f"wrote {out}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_netlist(sub) -> None:
+    sp = sub.add_parser("netlist", help="a SPICE deck of one position (ngspice runs it as written; i(vmove) is "
+                                        "the movement current)")
+    sp.add_argument("project", metavar="FILE", help="project file (YAML)")
+    sp.add_argument("--position", required=True, metavar="NAME", help="switch position, e.g. '10 V'")
+    g = sp.add_mutually_exclusive_group()
+    g.add_argument("--volts", metavar="V", help="applied voltage, e.g. 12 or '12 V' (default: the position's full "
+                                                "scale)")
+    g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="resistor across the terminals of a resistance position, e.g. '1 kohm'")
+    sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit "
+                                                       "(default: the reference temperature)")
+    sp.add_argument("-o", "--output", metavar="OUT.cir", help="write the deck to this file (default, or '-': "
+                                                              "standard output)")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
+    sp.set_defaults(func=cmd_netlist)
 
 
 if __name__ == "__main__":  # pragma: no cover

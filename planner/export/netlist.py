@@ -50,6 +50,7 @@ from ..errors import UsageError
 from ..model import ZERO_CELSIUS_K
 from ..network import UnionFind, active_graph
 from ..solve import BOLTZMANN, CHARGE
+from ..units import format_si
 
 __all__ = ["Deck", "DeckStimulus", "spice_deck", "stimulus_for", "SIMULATOR_BOLTZMANN", "SIMULATOR_CHARGE", "VT_RATIO",
            "OPTIONS"]
@@ -330,8 +331,8 @@ def spice_deck(design: Design, position: str, stimulus: DeckStimulus | None = No
     head = [
         f"{spec.title} - position {st.name}",
         f"* planner netlist{f' {version}' if version else ''}: position '{st.name}' ({what}, full scale "
-        f"{_num(pos.full_scale)} {pos.kind.unit or ''})".rstrip() + (f", from {source}" if source else ""),
-        f"* stimulus: {stim_words} = {_num(stim.value)} {stim.unit}"
+        f"{format_si(pos.full_scale, pos.kind.unit)})" + (f", from {source}" if source else ""),
+        f"* stimulus: {stim_words} = {format_si(stim.value, stim.unit)}"
         + (" (the position's full scale)" if stim.full_scale else ""),
         f"* temperature: {deck.celsius(t_k)} degC (.options temp); reference {deck.celsius(deck.t_ref_k)} degC (tnom)",
         f"* VMOVE: 0 V in series with the movement {movement.name}: i(vmove) is the movement current from "
@@ -343,8 +344,8 @@ def spice_deck(design: Design, position: str, stimulus: DeckStimulus | None = No
     head += [
         "* element equations of the planner (docs/netlist.md): R(T) = R (1 + tc1 (T - tnom)); diodes: Shockley",
         "*   junction with R_s in series and R_p across it, the SPICE temperature law, k/q of SI 2019 (N, XTI",
-        f"*   scaled by {_num(VT_RATIO)} for the simulator's CODATA 2014 constants), behavioural sources where",
-        "*   the simulator's own law differs (reverse region, breakdown)",
+        f"*   scaled by {_num(VT_RATIO)} for the simulator's CODATA 2014 constants), a behavioural source",
+        "*   where the simulator's own law differs (the SPICE2 reverse approximation)",
         "* run: ngspice -b <this file>",
     ]
     for root in roots:

@@ -142,14 +142,14 @@ class Diode(Part):
         scaled by ``deck.vt_ratio`` so that ``N`` V_t in the simulator's constants is
         n V_t in the exact SI ones (ngspice uses CODATA 2014 k and q) and XTI/N =
         xti/n: SPICE's saturation-current law is then the contract's,
-        :math:`I_s(T) = I_s(T_0) (T/T_0)^{XTI/n} \exp((T/T_0 - 1) E_g / (n V_t))`,
+        :math:`I_s(T) = I_s(T_0) (T/T_0)^{XTI/n} \\exp((T/T_0 - 1) E_g / (n V_t))`,
         with ``TNOM`` at the model's temperature. Two behavioural current sources
         across the junction finish the contract's law:
 
         * below :math:`-3 n V_t` SPICE replaces the exponential by the SPICE2
           approximation :math:`-I_s (1 + (3 n V_t / (e V))^3)`; the source adds
           :math:`I_s(T) (e^{u/(n V_t)} + (3 n V_t/(e u))^3)` with
-          :math:`u = \min(V, -3 n V_t)`, which is zero above that voltage;
+          :math:`u = \\min(V, -3 n V_t)`, which is zero above that voltage;
         * reverse breakdown (a model with ``bv_v``):
           :math:`-I_{BV} e^{-(V + BV)/(n V_t)}` (SPICE's own BV model refits BV).
 
@@ -169,7 +169,7 @@ class Diode(Part):
         t_nom = d.t_nom_k if d.t_nom_k is not None else deck.t_ref_k
         an, ca = deck.node(self.anode), deck.node(self.cathode)
         words = [f"I_s {num(d.i_s_a)} A at {deck.celsius(t_nom)} degC", f"n {num(d.n)}", f"R_s {num(d.r_s_ohm)} ohm",
-                 f"R_p {num(d.r_p_ohm)} ohm", f"E_g {num(d.eg_ev)} eV", f"XTI {num(d.xti)}"]
+                 f"R_p {num(d.r_p_ohm) + ' ohm' if math.isfinite(d.r_p_ohm) else 'none'}", f"E_g {num(d.eg_ev)} eV", f"XTI {num(d.xti)}"]
         if d.bv_v is not None:
             words.append(f"breakdown {num(d.bv_v)} V at {num(d.ibv_a)} A")
         out = [f"* {self.name}: diode, model {self.model} ({', '.join(words)})"]
@@ -177,12 +177,14 @@ class Diode(Part):
         if d.r_s_ohm > 0.0:
             j = deck.inner(self.name, "j")
             out.append(f"{deck.instance('R', self.name, 's')} {an} {j} {num(d.r_s_ohm)}")
+        # the simulator's gmin across the junction stands in for a leakage below it
         if math.isfinite(d.r_p_ohm) and 1.0 / d.r_p_ohm > deck.gmin:
             r_p = d.r_p_ohm if deck.gmin == 0.0 else 1.0 / (1.0 / d.r_p_ohm - deck.gmin)
             out.append(f"{deck.instance('R', self.name, 'p')} {j} {ca} {num(r_p)}")
+        breakdown = "" if d.bv_v is None else f" BV={num(d.bv_v)} IBV={num(d.ibv_a)}"
         model = deck.model(f"d_{self.model}", f"D(IS={num(d.i_s_a)} N={num(d.n * deck.vt_ratio)} RS=0 "
                                               f"EG={num(d.eg_ev)} XTI={num(d.xti * deck.vt_ratio)} "
-                                              f"TNOM={deck.celsius(t_nom)})")
+                                              f"TNOM={deck.celsius(t_nom)}{breakdown})")
         out.append(f"{deck.instance('D', self.name)} {j} {ca} {model}")
         # the behavioural sources hold n V_t and I_s(T) at the deck's temperature as numbers
         nvt = d.n * BOLTZMANN / CHARGE * deck.temperature_k
@@ -192,9 +194,6 @@ class Diode(Part):
         w = f"({num(3.0 * nvt / math.e)}/{u})"  # negative: cubed as a product
         out.append(f"{deck.instance('B', self.name, 'rev')} {j} {ca} I={num(isat)}*(exp({u}*{num(1.0 / nvt)})"
                    f"+{w}*{w}*{w})")
-        if d.bv_v is not None:
-            out.append(f"{deck.instance('B', self.name, 'bv')} {j} {ca} "
-                       f"I=-{num(d.ibv_a)}*exp(-({v}+{num(d.bv_v)})*{num(1.0 / nvt)})")
         return out
 
     def checks(self, ctx) -> list[dict]:
