@@ -212,15 +212,34 @@ def cmd_dossier(args) -> int:
     from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
-    check_targets([out] + ([args.bom] if args.bom else []), protect=[args.project])
+    inputs = [args.project] + ([args.readings] if args.readings else [])
+    check_targets([out] + ([args.bom] if args.bom else []), protect=inputs)
     design = _design(spec)
+    diagnosis = None
+    if args.readings:  # bad readings are bad input: exit 2 before anything is written
+        from .diagnose import diagnose, diagnosis_json
+
+        diagnosis = diagnosis_json(diagnose(spec, args.readings))
+    plate = _dossier_plate(design)
     show = _progress(args)
     try:
-        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,
+                             plate=plate, diagnosis=diagnosis, readings=args.readings, protect=inputs[1:])
     finally:
         _end_progress(show)
     print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
     return EXIT_OK
+
+
+def _dossier_plate(design):
+    """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
+    from .errors import PlannerError
+    from .scale import scale_project
+
+    try:
+        return scale_project(design)
+    except PlannerError as exc:
+        return exc.one_line()
 
 
 def cmd_protect(args) -> int:
@@ -361,6 +380,8 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
     sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--readings", metavar="READINGS.csv",
+                    help="readings of the meter (position,applied,reading): adds the restoration section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
 
