@@ -185,13 +185,13 @@ def cmd_size(args) -> int:
 
 def cmd_check(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .accuracy import check_project, format_check
+    from .accuracy import check, format_check
 
     design = _design(spec)
     show = _progress(args)
     try:
-        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
-                               progress=show)
+        result = check(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
+                       progress=show).json
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
