@@ -32,7 +32,7 @@ Carlo draws, worst case), :mod:`.position` (the analyses of one position),
 """
 
 from .check import MAX_SAMPLES, check, check_project
-from .classes import BUDGET_RULE, class_figures
+from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, class_figures, variation_per_10k_pct
 from .position import LINEARITY_FRACTIONS, MIN_TEMPERATURE_POINTS, PERCENTILES, temperature_points
 from .report import format_check
 from .result import CheckResult, PositionArrays
@@ -43,4 +43,5 @@ from .tolerances import (
 __all__ = ["check", "check_project", "format_check", "CheckResult", "PositionArrays", "parameters",
            "current_carrying", "draw_factors", "worst_case", "temperature_points", "class_figures",
            "CountingEngine", "LINEARITY_FRACTIONS", "MAX_CORNER_PARAMETERS", "MAX_SAMPLES",
-           "MIN_TEMPERATURE_POINTS", "PERCENTILES", "VERIFY_CORNERS", "BUDGET_RULE"]
+           "MIN_TEMPERATURE_POINTS", "PERCENTILES", "VERIFY_CORNERS", "BUDGET_RULE",
+           "TEMPERATURE_SHARE_PER_10K", "variation_per_10k_pct"]

@@ -17,7 +17,7 @@ from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import SolveError, UsageError
 from ..model import Spec
-from .classes import BUDGET_RULE
+from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, TEMPERATURE_SOURCE
 from .position import check_position
 from .result import CheckResult
 from .tolerances import CountingEngine, draw_factors, parameters
@@ -72,7 +72,10 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
         ``worst_case_error_pct``, ``temperature_error_pct``, ``yield_fraction``,
         ``linearity[]`` (``applied``, ``reading``, ``error_pct``),
         ``input_resistance_ohm``, ``burden_voltage_v`` (current positions),
-        ``budget_pct``, ``verdict`` and more; ``parts[]`` with ``name``, ``kind``,
+        ``intrinsic_error_pct``, ``intrinsic_within_class``,
+        ``temperature_variation_per_10k_pct``, ``temperature_permitted_per_10k_pct``,
+        ``temperature_within_limit``, ``budget_pct``, ``budget_margin_pct``,
+        ``verdict`` and more (:func:`planner.accuracy.classes.class_figures`); ``parts[]`` with ``name``, ``kind``,
         ``value_ohm``, ``target_ohm``; ``requirements_met``. ``positions``: the
         arrays behind each position's figures (the sweep over the scale and the
         ambient range, the Monte Carlo builds and their errors, node voltages
@@ -88,9 +91,12 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     Notes
     -----
     Errors are in % of full scale: :math:`e = (r - a) / FS \\times 100` with the
-    reading :math:`r = I_m / I_{fs} \\times FS`. Budget rule:
-    :math:`B = e_{wc} + e_T` (the worst case already includes the nominal
-    offset); a position is within class when :math:`B \\le` class index.
+    reading :math:`r = I_m / I_{fs} \\times FS`. A position is within class
+    when its intrinsic error (the worst case at the reference temperature,
+    nominal offset included) is at most the class index and its variation due
+    to temperature per 10 K is at most the permitted variation
+    (:mod:`planner.accuracy.classes`); the budget :math:`B = e_{wc} + e_T` is
+    reported as a margin.
 
     References
     ----------
@@ -134,6 +140,8 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
         "samples": int(samples),
         "seed": int(seed),
         "budget_rule": BUDGET_RULE,
+        "temperature_share_per_10k": float(TEMPERATURE_SHARE_PER_10K),
+        "temperature_rule_source": TEMPERATURE_SOURCE,
         "positions": positions,
         "parts": _parts(engine),
         "instrument_yield_fraction": float(np.mean(np.all(np.vstack(oks), axis=0))) if oks else 1.0,

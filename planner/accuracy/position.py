@@ -176,5 +176,5 @@ def check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors,
     out.update(worst_case(run, pos.name, fs, params, rng_corners))
     say(f"{pos.name}: Monte Carlo, {samples} builds")
     ok = _monte_carlo(run, pos, params, mc_factors, samples, cls, out, arrays)
-    out.update(class_figures(spec, out))
+    out.update(class_figures(spec, out, arrays))
     return out, ok, arrays

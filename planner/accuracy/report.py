@@ -26,9 +26,10 @@ def format_check(result: dict) -> str:
     Returns
     -------
     str
-        Per position: full scale, nominal, worst case, temperature, budget
-        against the class index, verdict, yield and input resistance or burden
-        voltage; then the linearity errors at the reference and the hottest
+        Per position: full scale, nominal, intrinsic error (worst case) against
+        the class index, variation due to temperature per 10 K against its
+        permitted variation, verdict, yield, the budget and its margin, and
+        input resistance or burden voltage; then the linearity errors at the reference and the hottest
         ambient, the Monte Carlo spread, and the overall verdict.
     """
     t_ref_c = result["reference_temperature_k"] - ZERO_CELSIUS_K
@@ -40,8 +41,8 @@ def format_check(result: dict) -> str:
         f"{t_lo_c:.1f} to {t_hi_c:.1f} degC; Monte Carlo {result['samples']} builds, seed {result['seed']}",
         "",
     ]
-    head = (f"{'position':<12}{'full scale':>12}{'nominal %':>11}{'worst %':>9}{'temp %':>8}"
-            f"{'budget %':>10}{'class %':>9}  {'verdict':<14}{'yield':>7}  {'input':<s}")
+    head = (f"{'position':<12}{'full scale':>12}{'nominal %':>11}{'intrinsic %':>13}{'temp/10K %':>12}"
+            f"{'permitted':>11}{'class %':>9}  {'verdict':<14}{'yield':>7}{'budget %':>10}{'margin':>8}  {'input':<s}")
     lines += [head, "-" * (len(head) + 24)]
     for p in result["positions"]:
         if p["measures"] == "voltage":
@@ -50,10 +51,19 @@ def format_check(result: dict) -> str:
         else:
             inp = (f"burden {format_si(p['burden_voltage_v'], 'V')} "
                    f"({format_si(p['input_resistance_ohm'], 'ohm')})")
+        mark_i = "" if p["intrinsic_within_class"] else "!"
+        mark_t = "" if p["temperature_within_limit"] else "!"
         lines.append(
             f"{p['name']:<12}{_fs_text(p['full_scale'], p['unit']):>12}{p['nominal_error_pct']:>+11.3f}"
-            f"{p['worst_case_error_pct']:>9.3f}{p['temperature_error_pct']:>8.3f}{p['budget_pct']:>10.3f}"
-            f"{p['class_index']:>9g}  {p['verdict']:<14}{p['yield_fraction'] * 100:>6.1f}%  {inp}")
+            f"{p['intrinsic_error_pct']:>12.3f}{mark_i:1}{p['temperature_variation_per_10k_pct']:>11.3f}{mark_t:1}"
+            f"{p['temperature_permitted_per_10k_pct']:>11.3f}{p['class_index']:>9g}  {p['verdict']:<14}"
+            f"{p['yield_fraction'] * 100:>6.1f}%{p['budget_pct']:>10.3f}{p['budget_margin_pct']:>+8.3f}  {inp}")
+    lines.append("")
+    lines.append("intrinsic: worst case over the tolerances at the reference temperature, against the class; "
+                 "temp/10K: variation due to temperature per 10 K, against the permitted variation "
+                 f"({result.get('temperature_share_per_10k', 1.0):g} x class per 10 K, IEC 60051, from memory); "
+                 "'!' marks the figure outside its limit. budget = worst case + the whole temperature change "
+                 "over the ambient range, a margin only (margin = class - budget).")
     lines.append("")
     lines.append("worst case method: " + "; ".join(
         f"{p['name']} {p['worst_case_method']} ({p['worst_case_corners']} corners, "

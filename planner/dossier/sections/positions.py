@@ -126,18 +126,27 @@ def _accuracy_table(ctx: Context, q: dict) -> Table:
     amb = ctx.spec.ambient
     rows = [["Nominal error at full scale", pct(q.get("nominal_error_pct")),
              "nominal parts, reference temperature, clamp leakage included"],
-            ["Worst-case error", pct_abs(q.get("worst_case_error_pct")),
+            ["Intrinsic error (worst case)", pct_abs(q.get("intrinsic_error_pct", q.get("worst_case_error_pct"))),
              f"{q.get('worst_case_method', '')} over {len(q.get('worst_case_parameters') or [])} toleranced "
-             "parameters (nominal offset included)"],
-            ["Temperature error", pct_abs(q.get("temperature_error_pct")),
+             f"parameters at the reference temperature (nominal offset included); class index {cls:g} %: "
+             + ("within" if q.get("intrinsic_within_class") else "OUTSIDE")],
+            ["Variation due to temperature", pct_abs(q.get("temperature_variation_per_10k_pct")) + " / 10 K",
+             f"largest change of the reading per 10 K of ambient; permitted "
+             f"{q.get('temperature_permitted_per_10k_pct', cls):g} % per 10 K (IEC 60051-2, from memory): "
+             + ("within" if q.get("temperature_within_limit") else "OUTSIDE")],
+            ["Class verdict", str(q.get("verdict", "")), "intrinsic error and temperature variation both within"],
+            ["Temperature change over the ambient range", pct_abs(q.get("temperature_error_pct")),
              f"largest change of the full-scale reading, {celsius(amb.t_min_k)} to {celsius(amb.t_max_k)}"],
-            ["Budget (worst case + temperature)", pct_abs(q.get("budget_pct")),
-             f"class {cls:g}: {q.get('verdict', '')}"]]
+            ["Budget margin (extra)", pct(q.get("budget_margin_pct")),
+             f"class index minus budget {pct_abs(q.get('budget_pct'))} (worst case + the whole temperature "
+             "change); decides nothing by itself"]]
     mc = (q.get("monte_carlo") or {}).get("full_scale_error_pct") or {}
     if q.get("yield_fraction") is not None:
         rows.append(["Monte Carlo yield", f"{100 * q['yield_fraction']:.1f} %",
-                     f"{(q.get('monte_carlo') or {}).get('samples', ctx.samples)} builds; 1 % to 99 %: "
-                     f"{pct(mc.get('p1'))} to {pct(mc.get('p99'))}"])
+                     f"{(q.get('monte_carlo') or {}).get('samples', ctx.samples)} builds at the reference "
+                     f"temperature; 1 % to 99 %: {pct(mc.get('p1'))} to {pct(mc.get('p99'))}"
+                     + (f"; 99 % of builds within \u00b1{pct_abs(q['intrinsic_monte_carlo_pct'])}"
+                        if q.get("intrinsic_monte_carlo_pct") is not None else "")])
     if q.get("measures") == "voltage" and q.get("input_resistance_ohm") is not None:
         rows.append(["Input resistance", value_text(q["input_resistance_ohm"], "ohm"),
                      f"{value_text(q.get('ohms_per_volt'), 'ohm/V')} at full scale"])

@@ -15,6 +15,13 @@ from .common import (
 )
 
 
+def _against(value, limit, within) -> str | None:
+    """``'0.46 / 1.5 %'`` with a ``' !'`` when the value is outside its limit."""
+    if value is None or limit is None:
+        return None
+    return f"{pct_abs(value, 2)} / {limit:g} %" + ("" if within else " !")
+
+
 # --- 2: summary -----------------------------------------------------------------------------------------
 def _position_verdicts(ctx: Context):
     by_pos = defaultdict(list)
@@ -36,11 +43,10 @@ def summary(ctx: Context) -> list:
         pos = ctx.net.position(name) if ctx.net is not None else None
         measures = q.get("measures") or (pos.measures if pos else "?")
         fs = q.get("full_scale", pos.full_scale if pos else None)
-        budget = q.get("budget_pct")
         if q:
             acc = "within class" if q.get("verdict") == "within class" else "outside class"
             acc_fill = "ok" if acc == "within class" else "overstress"
-            acc_cell = verdict_cell(acc, f"{pct_abs(budget, 2)} of {cls:g} %")
+            acc_cell = verdict_cell(acc)
         else:
             acc_fill = "error"
             acc_cell = verdict_cell("error", "check failed" if "check" in ctx.errors else "not run")
@@ -53,9 +59,13 @@ def summary(ctx: Context) -> list:
             mis_cell = verdict_cell("error", "faults failed" if "faults" in ctx.errors else "no case")
             mis_fill = "error"
         yf = q.get("yield_fraction")
-        rows.append([name, measures, value_text(fs, unit_of(measures)), pct(q.get("nominal_error_pct"), 3),
-                     pct_abs(q.get("worst_case_error_pct"), 3), pct_abs(q.get("temperature_error_pct"), 3),
-                     f"{100 * yf:.1f} %" if yf is not None else None, acc_cell, mis_cell])
+        margin = q.get("budget_margin_pct")
+        rows.append([name, value_text(fs, unit_of(measures)), pct(q.get("nominal_error_pct"), 3),
+                     _against(q.get("intrinsic_error_pct"), cls, q.get("intrinsic_within_class")),
+                     _against(q.get("temperature_variation_per_10k_pct"), q.get("temperature_permitted_per_10k_pct"),
+                              q.get("temperature_within_limit")),
+                     f"{100 * yf:.1f} %" if yf is not None else None,
+                     pct(margin, 2) if margin is not None else None, acc_cell, mis_cell])
         fills += [(7, i, acc_fill), (8, i, mis_fill)]
     hz = [q.name for q in ctx.net.positions if hazardous_position(q)] if ctx.net is not None else []
     if hz or hazardous_sources(spec):
@@ -63,13 +73,18 @@ def summary(ctx: Context) -> list:
                                         "The foreseeable sources include hazardous voltages."))
         out.append(caution_box(title, [esc(lines[0]), lines[1]]))
         out.append(Spacer(1, 6))
-    out.append(p(f"Accuracy class {cls:g} (limit of error {cls:g} % of full scale, IEC 60051). Errors are in % of "
-                 "full scale. <i>Budget</i> = worst case + temperature; a position is within class when its budget "
-                 "is at most the class index. <i>Worst misrange</i> is the worst verdict over every foreseeable "
-                 "source applied to the position (section 6)."))
-    out.append(table(["Position", "Measures", "Full scale", "Nominal", "Worst case", "Temperature", "Yield",
-                      "Accuracy (budget)", "Worst misrange"], rows,
-                     [0.10, 0.10, 0.10, 0.10, 0.10, 0.11, 0.08, 0.16, 0.16], align="llrrrrrcc",
+    share = (ctx.check or {}).get("temperature_share_per_10k", 1.0)
+    out.append(p(f"Accuracy class {cls:g} (IEC 60051): errors in % of full scale. <i>Intrinsic</i>: the worst case "
+                 f"over the part tolerances at the reference temperature, against the class index ({cls:g} %). "
+                 "<i>Temp. per 10 K</i>: the largest change of the reading due to the ambient temperature, per "
+                 f"10 K, against its permitted variation ({share:g} x the class index per 10 K; from memory of "
+                 "IEC 60051-2). A position is within class when both hold. <i>Margin</i>: class index minus the "
+                 "combined budget (worst case + the whole temperature change over the ambient range), a stricter "
+                 "figure that decides nothing by itself. <i>Worst misrange</i>: the worst verdict over every "
+                 "foreseeable source applied to the position (section 6)."))
+    out.append(table(["Position", "Full scale", "Nominal", "Intrinsic / class", "Temp. per 10 K / permitted",
+                      "Yield", "Margin", "Accuracy", "Worst misrange"], rows,
+                     [0.09, 0.09, 0.08, 0.14, 0.15, 0.07, 0.08, 0.14, 0.16], align="lrrrrrrcc",
                      extra=verdict_fill(fills)))
     out.append(p("Verdict words are printed in every cell; the tints (light to dark: ok, pegs, overstress, "
                  "hazard) only repeat them.", "caption"))
@@ -79,14 +94,16 @@ def summary(ctx: Context) -> list:
     for name in names:
         q = ctx.check_position(name)
         if q and q.get("verdict") != "within class":
-            wc, te = q.get("worst_case_error_pct", 0.0), q.get("temperature_error_pct", 0.0)
-            dom = "temperature" if te >= wc else "tolerance and nominal offset"
-            findings.append(
-                f"<b>{esc(name)}</b>: budget {pct_abs(q.get('budget_pct'), 2)} exceeds class {cls:g} "
-                f"(worst case {pct_abs(wc, 2)}, temperature {pct_abs(te, 2)}); the larger term is {dom}. "
-                + ("Reduce the coil's share of the temperature drift (swamping resistor, lower-tempco shunts) or "
-                   "narrow the ambient range." if dom == "temperature" else
-                   "Trim the value or use closer-tolerance parts."))
+            if not q.get("intrinsic_within_class", True):
+                findings.append(
+                    f"<b>{esc(name)}</b>: intrinsic error {pct_abs(q.get('intrinsic_error_pct'), 2)} (worst case at "
+                    f"the reference temperature) exceeds class {cls:g}. Trim the value or use closer-tolerance parts.")
+            if not q.get("temperature_within_limit", True):
+                findings.append(
+                    f"<b>{esc(name)}</b>: the reading changes by "
+                    f"{pct_abs(q.get('temperature_variation_per_10k_pct'), 2)} per 10 K of ambient temperature, more "
+                    f"than the permitted {pct_abs(q.get('temperature_permitted_per_10k_pct'), 2)}. Reduce the coil's "
+                    "share of the drift (swamping resistor, lower-tempco shunts).")
     bad = [c for c in ctx.fault_cases() if c.get("verdict") in ("overstress", "hazard") and not is_accepted(ctx, c)]
     for name in names:
         mine = [c for c in bad if str(c.get("position")) == name]
