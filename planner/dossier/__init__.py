@@ -2,7 +2,7 @@
 
 :func:`build_dossier` runs the analyses (sizing where the file asks for it, the
 accuracy check, the misrange faults), lays the results out with reportlab's
-platypus (:mod:`.layout`, :mod:`.sections`), draws the charts and the schematic
+platypus (:mod:`.layout`, :mod:`.sections`: one module per section), draws the charts and the schematic
 as vector graphics (:mod:`.charts`, :mod:`.schematic`) and writes the PDF, and,
 when asked for by name, the bill of materials as CSV, atomically and together.
 
@@ -35,7 +35,6 @@ from pathlib import Path
 from typing import Callable
 
 from ..design import Design, as_design
-from ..engine import Engine
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
 from ..sizing import sizing_json
@@ -104,14 +103,14 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
                   samples=int(spec.analysis.samples if samples is None else samples),
                   seed=int(spec.analysis.seed if seed is None else seed))
     ctx.net = design.net
-    ctx.engine = Engine(design)
     if design.sizing is not None:
         ctx.sizing = sizing_json(design.sizing)
         ctx.cautions += list(ctx.sizing.get("cautions", []))
     say("dossier: accuracy check")
     try:
-        ctx.check = accuracy.check_project(design, samples=ctx.samples, seed=ctx.seed,
-                                           progress=(lambda m: say(f"dossier: check {m}")))
+        ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
+                                      progress=(lambda m: say(f"dossier: check {m}")))
+        ctx.check = ctx.accuracy.json
     except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["check"] = _error_text(exc)
     say("dossier: misrange faults")
