@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from reportlab.platypus import PageBreak
 
-from .layout import Heading, caution_box, esc, note_box, p, table
+from .layout import Heading, caution_box, esc, keep, note_box, p, table
 from .text import value_text
 
 __all__ = ["TITLE", "NUMBER", "restoration"]
@@ -80,6 +80,7 @@ def restoration(diagnosis: dict | None, *, readings: str | None = None, units: d
                  f"{d['noise']['resolution_pct']:.3g} % of full scale, class {d['class_index']:g}). The parts' "
                  f"present values are estimated by least squares with their tolerances as the prior; intervals are "
                  f"{d['confidence']:.0%}, linearised at the estimate (method: docs/diagnose.md)."))
+    out.append(p(esc(f"Noise model: {d['noise']['model']}."), "small"))
     if d.get("requirements_met"):
         out.append(note_box("Verdict: restorable", [esc("A consistent explanation of the readings, and every "
                                                         "position within class after the replacements below.")]))
@@ -94,6 +95,10 @@ def restoration(diagnosis: dict | None, *, readings: str | None = None, units: d
         if d.get("pegged_only"):
             why.append(f"{', '.join(d['pegged_only'])} read only pegged: take readings on the scale there")
         out.append(note_box("Verdict: not restored as proposed", [esc(w) for w in why] or ["see below"]))
+    out.append(caution_box("before opening the meter", [esc(
+        "Disconnect the meter from every circuit before opening it; mains and high-voltage ranges follow "
+        "IEC 61010-1, local codes and licensed practice. After the replacements, check every position against the "
+        "reference source before the meter goes back into use.")]))
 
     below = set(d.get("below_resolution", []))
     rows = []
@@ -159,12 +164,7 @@ def restoration(diagnosis: dict | None, *, readings: str | None = None, units: d
         if not q.get("measured"):
             verdict += " (no readings: predicted from the estimate)"
         rows.append([q["name"], _pct(q["error_now_pct"], 2), _pct(q["error_after_pct"], 2), verdict])
-    out.append(p("Full-scale error of each position, now and after the replacements", "h2"))
-    out.append(table(["Position", "Now", "After", "Verdict"], rows, [0.18, 0.15, 0.15, 0.52], align="lrrl"))
-    out.append(p(esc(f"Noise model: {d['noise']['model']}."), "small"))
-    out.append(caution_box("before opening the meter", [esc(
-        "Disconnect the meter from every circuit before opening it; mains and high-voltage ranges follow "
-        "IEC 61010-1, local codes and licensed practice. After the replacements, check every position against the "
-        "reference source before the meter goes back into use.")]))
+    out.append(keep(p("Full-scale error of each position, now and after the replacements", "h2"),
+                    table(["Position", "Now", "After", "Verdict"], rows, [0.18, 0.15, 0.15, 0.52], align="lrrl")))
     out.append(PageBreak())
     return out
