@@ -316,7 +316,6 @@ def spice_deck(design: Design, position: str, stimulus: DeckStimulus | None = No
         raise UsageError(f"{st.name}: the movement {movement.name} is not connected to the input terminals "
                          f"{plus}, {minus} in this state")
 
-    diodes = [e for e in present if e.stamp == "junction"]
     gmin = GMIN
     deck = Deck(spec, node_of, t_k, gmin)
     body = []
