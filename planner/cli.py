@@ -219,7 +219,8 @@ def cmd_dossier(args) -> int:
         path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
     finally:
         _end_progress(show)
-    print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
+    for written in [path] + ([args.bom] if args.bom else []):  # every file written, one line each
+        print(f"wrote {written}", file=sys.stderr)
     return EXIT_OK
 
 
