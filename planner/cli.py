@@ -80,9 +80,11 @@ def _end_progress(show) -> None:
 
 
 def _load(args):
-    from .project import load
+    from .project import load, same_meter
 
-    return load(args.project)
+    spec = load(args.project)
+    same_meter(spec)  # ranges and a network in one file: the same meter, or say which to remove
+    return spec
 
 
 def _design(spec):
@@ -113,7 +115,7 @@ def _options(args) -> None:
     from .errors import UsageError
     from .project.limits import MAX_SAMPLES, MAX_SEED
     from .units import QuantityError
-    from .values import ambient_temperature, option_whole, sine_rms
+    from .values import ambient_temperature, calendar_date, option_whole, sine_rms
 
     try:
         if getattr(args, "samples", None) is not None:
@@ -127,8 +129,12 @@ def _options(args) -> None:
             text = getattr(args, option, None)
             if text is not None:
                 setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
+        if getattr(args, "ohms", None) is not None:
+            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "pos")
         if getattr(args, "source_impedance", None) is not None:
             args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
+        if getattr(args, "date", None) is not None:
+            args.date = calendar_date(args.date, "--date")
         if getattr(args, "temperature", None) is not None:
             args.temperature = ambient_temperature(
                 _quantity(args.temperature, "temperature", "--temperature", "pos"), "--temperature")
@@ -172,6 +178,10 @@ def cmd_size(args) -> int:
     from .fsio import emit
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
+    if spec.network is not None and (spec.voltage is not None or spec.current is not None):
+        # both in one file (the loader has checked that they describe the same meter)
+        print(f"planner: note: {args.project} also gives an explicit network; 'size' sizes the ranges anew, "
+              "the other commands analyse the network as it is", file=sys.stderr)
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)
     if args.write_network:
@@ -236,21 +246,41 @@ def cmd_apply(args) -> int:
 
 
 def cmd_dossier(args) -> int:
-    spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .dossier import build_dossier
     from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
-    check_targets([out] + ([args.bom] if args.bom else []), protect=[args.project])
+    inputs = [args.project] + ([args.readings] if args.readings else [])
+    check_targets([out] + ([args.bom] if args.bom else []), protect=inputs)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from .dossier import build_dossier
+
     design = _design(spec)
+    diagnosis = None
+    if args.readings:  # bad readings are bad input: exit 2 before anything is written
+        from .diagnose import diagnose, diagnosis_json
+
+        diagnosis = diagnosis_json(diagnose(spec, args.readings))
+    plate = _dossier_plate(design)
     show = _progress(args)
     try:
-        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,
+                             plate=plate, diagnosis=diagnosis, readings=args.readings, protect=inputs[1:])
     finally:
         _end_progress(show)
     for written in [path] + ([args.bom] if args.bom else []):  # every file written, one line each
         print(f"wrote {written}", file=sys.stderr)
     return EXIT_OK
+
+
+def _dossier_plate(design):
+    """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
+    from .errors import PlannerError
+    from .scale import scale_project
+
+    try:
+        return scale_project(design)
+    except PlannerError as exc:
+        return exc.one_line()
 
 
 def cmd_protect(args) -> int:
@@ -384,6 +414,8 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
     sp.add_argument("--samples", metavar="N", help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--readings", metavar="READINGS.csv",
+                    help="readings of the meter (position,applied,reading): adds the restoration section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
 
@@ -413,6 +445,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
     sp.set_defaults(func=cmd_scale)
     _add_diagnose(sub)
+    _add_netlist(sub)
     return p
 
 
@@ -440,6 +473,11 @@ def _run(args) -> int:
 
 
 def main(argv=None) -> int:
+    for stream in (sys.stdout, sys.stderr):  # text the terminal's encoding cannot show: escaped, not a crash
+        try:
+            stream.reconfigure(errors="backslashreplace")
+        except (AttributeError, ValueError):  # a stream that is no text file (a test's StringIO)
+            pass
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
@@ -530,6 +568,52 @@ def _add_diagnose(sub) -> None:
     sp.add_argument("--series", metavar="E96", help="E-series of the replacements (default: each part's own)")
     sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
     sp.set_defaults(func=cmd_diagnose)
+
+
+# --- planner netlist -----------------------------------------------------------------------
+
+
+def cmd_netlist(args) -> int:
+    out = args.output or "-"
+    _check_output(out, args.project)
+    # --volts, --amps, --ohms [SI] and --temperature [K] are converted with every command's options
+    ohms, volts, amps, temp = args.ohms, args.volts, args.amps, args.temperature
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from . import __version__
+    from .engine import Engine
+    from .export import spice_deck, stimulus_for
+    from .fsio import emit
+
+    design = _design(spec)
+    st = design.state(args.position)  # an unknown name: exit 2 with the nearest one
+    stim = stimulus_for(st.position, volts=volts, amps=amps, ohms=ohms)
+    expected = None
+    if stim.kind in ("voltage", "current"):  # the planner's own answer, for the reader to compare
+        op = Engine(design).operate(st, [stim.value], kind=stim.kind, temperature_k=temp)
+        expected = float(op.movement_current_a[0, 0])
+    deck = spice_deck(design, st.name, stim, temperature_k=temp, expected_a=expected, source=args.project,
+                      version=__version__)
+    if emit(out, deck, protect=[args.project]):
+        print(f"wrote {out}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_netlist(sub) -> None:
+    sp = sub.add_parser("netlist", help="a SPICE deck of one position (ngspice runs it as written; i(vmove) is "
+                                        "the movement current)")
+    sp.add_argument("project", metavar="FILE", help="project file (YAML)")
+    sp.add_argument("--position", required=True, metavar="NAME", help="switch position, e.g. '10 V'")
+    g = sp.add_mutually_exclusive_group()
+    g.add_argument("--volts", metavar="V", help="applied voltage, e.g. 12 or '12 V' (default: the position's full "
+                                                "scale)")
+    g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="resistor across the terminals of a resistance position, e.g. '1 kohm'")
+    sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit "
+                                                       "(default: the reference temperature)")
+    sp.add_argument("-o", "--output", metavar="OUT.cir", help="write the deck to this file (default, or '-': "
+                                                              "standard output)")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
+    sp.set_defaults(func=cmd_netlist)
 
 
 if __name__ == "__main__":  # pragma: no cover
