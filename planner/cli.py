@@ -267,7 +267,8 @@ def cmd_dossier(args) -> int:
                              plate=plate, diagnosis=diagnosis, readings=args.readings, protect=inputs[1:])
     finally:
         _end_progress(show)
-    print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
+    for written in [path] + ([args.bom] if args.bom else []):  # every file written, one line each
+        print(f"wrote {written}", file=sys.stderr)
     return EXIT_OK
 
 

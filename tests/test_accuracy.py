@@ -340,3 +340,23 @@ def test_example_projects(name):
     for p in res["positions"]:
         assert p["name"] in text
     assert ("requirement met" in text) == res["requirements_met"]
+
+
+def test_the_check_keeps_gain_change_apart_from_nonlinearity():
+    # A resistive voltmeter is linear (Ohm's law): at every temperature its readings lie on a straight
+    # line through zero, so its non-linearity is zero and the whole temperature effect is the gain
+    # change, the change of the full-scale reading (closed form as in the temperature test above).
+    v, i_fs, r_m, a_cu, a_r = 0.5, 50e-6, 2000.0, 3.93e-3, 50e-6
+    amb = Ambient(t_ref_k=ZERO_CELSIUS_K + 23, t_min_k=ZERO_CELSIUS_K + 0, t_max_k=ZERO_CELSIUS_K + 40)
+    res = acc.check(voltmeter(v, i_fs, r_m, 0.005, tempco=a_r, coil_tempco=a_cu, ambient=amb), samples=50)
+    arr = res.position(res.json["positions"][0]["name"])
+    r = v / i_fs - r_m
+    dt = arr.temperatures_k - amb.t_ref_k
+    gain = (v / (r_m * (1 + a_cu * dt) + r * (1 + a_r * dt)) / i_fs * v - v / (r_m + r) / i_fs * v) / v * 100
+    np.testing.assert_allclose(arr.gain_change_pct, gain, rtol=1e-9, atol=1e-12)  # solver tolerance
+    np.testing.assert_allclose(arr.nonlinearity_pct, 0.0, atol=1e-9)  # [% FS], solver tolerance
+    # with a clamp pair across the coil the leakage bends the scale: the non-linearity is no longer zero
+    clamped = acc.check(voltmeter(0.5, 50e-6, 2000.0, 0.005, diodes=True), samples=20)
+    arr = clamped.position(clamped.json["positions"][0]["name"])
+    assert np.max(np.abs(arr.nonlinearity_pct)) > 1e-6
+    assert arr.mc_error_pct.shape == (20,) and arr.mc_readings.shape == (20, arr.applied.size)

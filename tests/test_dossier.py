@@ -407,3 +407,83 @@ def test_acceptance_and_histogram_come_from_the_check(tmp_path):
         for frac in (0.2, 0.5, 1.0):
             row = [r for r in q["linearity"] if abs(r["applied"] - frac * q["full_scale"]) < 1e-9 * q["full_scale"]]
             assert arr.reading_at(frac) == row[0]["reading"]
+
+
+#: Smallest text size on paper [pt]: print legibility, common practice (6 pt is the usual floor for
+#: footnotes and drawing annotations read at arm's length).
+MIN_PRINT_PT = 6.0
+#: A page other than the last of its section carries text at least this far down the frame (a fifth).
+MIN_PAGE_FILL = 0.2
+
+
+def _page_texts(pdf) -> list[list[tuple[float, float, str]]]:
+    """Per page: (printed size [pt], height of the baseline above the page's foot [pt], text) of every run.
+
+    The size and the position are those of the text matrix times the current transformation
+    matrix (PDF 32000-1:2008, 9.4.4), so text drawn inside a scaled drawing counts at its printed size.
+    """
+    out = []
+    for page in PdfReader(str(pdf)).pages:
+        runs = []
+
+        def visit(text, cm, tm, font, size, runs=runs):
+            if not text.strip():
+                return
+            m = [tm[0] * cm[0] + tm[1] * cm[2], tm[0] * cm[1] + tm[1] * cm[3],
+                 tm[2] * cm[0] + tm[3] * cm[2], tm[2] * cm[1] + tm[3] * cm[3],
+                 tm[4] * cm[0] + tm[5] * cm[2] + cm[4], tm[4] * cm[1] + tm[5] * cm[3] + cm[5]]
+            runs.append((size * float(np.hypot(m[2], m[3])), float(m[5]), text.strip()))
+
+        page.extract_text(visitor_text=visit)
+        out.append(runs)
+    return out
+
+
+@pytest.mark.parametrize("stem", STEMS)
+def test_no_text_is_smaller_than_6_pt(built, stem):
+    _, pdf, _, _ = built(stem)
+    small = [(i + 1, round(size, 2), text[:30]) for i, runs in enumerate(_page_texts(pdf))
+             for size, _, text in runs if size < MIN_PRINT_PT - 1e-6]
+    assert not small, f"text below {MIN_PRINT_PT} pt (page, size, text): {small[:10]}"
+
+
+@pytest.mark.parametrize("stem", STEMS)
+def test_no_page_is_less_than_a_fifth_full_but_the_last_of_a_section(built, stem):
+    _, pdf, _, _ = built(stem)
+    reader = PdfReader(str(pdf))
+    starts = {0} | {reader.get_destination_page_number(o) for o in reader.outline if not isinstance(o, list)}
+    n = len(reader.pages)
+    last_of_section = {p - 1 for p in starts if p > 0} | {n - 1}
+    frame_top = layout.PAGE[1] - layout.TOP
+    thin = []
+    for i, runs in enumerate(_page_texts(pdf)):
+        body = [y for _, y, _ in runs if layout.BOTTOM <= y <= frame_top + 1]
+        fill = (frame_top - min(body)) / layout.FRAME_HEIGHT if body else 0.0
+        if i not in last_of_section and fill < MIN_PAGE_FILL:
+            thin.append((i + 1, round(fill, 2)))
+    assert not thin, f"pages less than a fifth full inside a section (page, fill): {thin}"
+
+
+@pytest.mark.slow
+def test_misrange_pages_say_each_reason_once_and_nothing_empty(built):
+    spec, pdf, _, _ = built("bench_multimeter")
+    reader = PdfReader(str(pdf))
+    starts = {re.sub(r"^(\d+|A)\s+", "", o.title): reader.get_destination_page_number(o)
+              for o in reader.outline if not isinstance(o, list)}
+    pages = reader.pages[starts["Misrange matrix"]:starts["Build and acceptance"]]
+    text = _norm("\n".join(page.extract_text() or "" for page in pages))
+    for reason in {a.reason for a in spec.faults.accept}:
+        # once over its failing cases, once in the table of accepted cases; never once per case
+        assert text.count(_norm(reason)[:60]) <= 2, reason
+    everything = _norm("\n".join(page.extract_text() or "" for page in reader.pages))
+    assert "--json" not in everything  # nothing on paper points to a command-line option
+    assert not re.search(r"\(0x\)|\b0(\.0+)? W of\b", text)  # no row that says nothing
+
+
+def test_the_dossier_command_names_every_file_it_writes(tmp_path, capsys):
+    from planner.cli import main
+
+    pdf, bom = tmp_path / "v.pdf", tmp_path / "v.csv"
+    assert main(["dossier", str(ROOT / "projects" / "pocket_voltmeter.yaml"), "-o", str(pdf), "--bom", str(bom),
+                 "--samples", "20", "--quiet"]) == 0
+    assert capsys.readouterr().err.splitlines() == [f"wrote {pdf}", f"wrote {bom}"]

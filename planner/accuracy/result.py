@@ -94,6 +94,31 @@ class PositionArrays:
         """Full-scale reading at each ambient temperature [V] or [A], shape (T,)."""
         return self.readings[:, -1]
 
+    @property
+    def gain_change_pct(self) -> np.ndarray:
+        """Change of the full-scale reading from its value at the reference temperature [% of FS], shape (T,).
+
+        Notes
+        -----
+        :math:`g(T) = (r(FS, T) - r(FS, T_{ref})) / FS \\times 100`: the part of the
+        temperature effect that scales with the reading (a change of sensitivity).
+        """
+        fs_r = self.full_scale_readings
+        return (fs_r - fs_r[self.i_ref]) / self.full_scale * 100.0
+
+    @property
+    def nonlinearity_pct(self) -> np.ndarray:
+        """Deviation from the straight line through zero and the full-scale reading [% of FS], shape (T, S).
+
+        Notes
+        -----
+        :math:`n(a, T) = (r(a, T) - a\\,r(FS, T) / FS) / FS \\times 100`: what is left
+        of the error at temperature T once its gain is set right (the clamps'
+        share); zero at full scale by construction.
+        """
+        line = self.applied[None, :] * (self.full_scale_readings[:, None] / self.full_scale)
+        return (self.readings - line) / self.full_scale * 100.0
+
 
 @dataclass
 class CheckResult:

@@ -42,6 +42,8 @@ THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
 _KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
 WHITE = colors.white
+#: Smallest text size on paper [pt] (6 pt is the least a print reader is asked to read).
+MIN_TEXT_PT = 6.3
 
 
 class Unsuitable(Exception):
@@ -226,6 +228,16 @@ def _label_lines(spec, e) -> list[str]:
     return [e.name]
 
 
+def text_factor(scale: float) -> float:
+    """How much to enlarge a drawing's text so it prints at :data:`MIN_TEXT_PT` or more once scaled.
+
+    The drawing's smallest text is 6.2 units; a drawing scaled by ``scale`` to fit
+    the page prints it at ``6.2 * scale`` pt, so below ``MIN_TEXT_PT / 6.2`` the
+    text (and its line spacing) grows by the inverse.
+    """
+    return max(1.0, MIN_TEXT_PT / (6.2 * scale))
+
+
 # --- symbols (drawn about a centre (x, y) on a vertical or horizontal stroke) ----------------------
 def _resistor(g, x, y, vertical=True, trim=False):
     w, h = (8.0, 22.0) if vertical else (22.0, 8.0)
@@ -240,12 +252,12 @@ def _fuse(g, x, y):
     g.add(Line(x, y - 11, x, y + 11, strokeColor=INK, strokeWidth=0.7))
 
 
-def _movement(g, x, y, plus_up: bool):
+def _movement(g, x, y, plus_up: bool, tf: float = 1.0):
     g.add(Circle(x, y, 10, fillColor=WHITE, strokeColor=INK, strokeWidth=0.9))
     g.add(Line(x - 5, y - 5, x + 5.5, y + 5.5, strokeColor=ACCENT, strokeWidth=0.9))
     g.add(Polygon([x + 6.5, y + 6.5, x + 1.8, y + 5.0, x + 5.0, y + 1.8], fillColor=ACCENT, strokeColor=None))
-    sy = y + 13 if plus_up else y - 16
-    g.add(String(x - 7.5, sy, "+", fontName="Helvetica-Bold", fontSize=7, fillColor=INK))
+    sy = y + 13 if plus_up else y - 11 - 7 * tf
+    g.add(String(x - 7.5 - 2 * (tf - 1), sy, "+", fontName="Helvetica-Bold", fontSize=7 * tf, fillColor=INK))
 
 
 def _diode(g, x, y, up: bool):
@@ -289,28 +301,29 @@ def _compound(g, e, x, y):
 
 
 #: How each part's symbol (:attr:`planner.parts.Part.symbol`) is drawn on a vertical stroke:
-#: ``draw(group, element, x, y, node_below, node_above)``.
+#: ``draw(group, element, x, y, node_below, node_above, text_factor)``.
 SYMBOLS = {
-    "resistor": lambda g, e, x, y, lo, hi: (_compound(g, e, x, y) if isinstance(e, Compound)
-                                            else _resistor(g, x, y, True, e.trimmer)),
-    "fuse": lambda g, e, x, y, lo, hi: _fuse(g, x, y),
-    "movement": lambda g, e, x, y, lo, hi: _movement(g, x, y, plus_up=(e.a == hi)),
-    "diode": lambda g, e, x, y, lo, hi: _diode(g, x, y, up=(e.cathode == hi)),
-    "contact": lambda g, e, x, y, lo, hi: _contact(g, x, y, True),
+    "resistor": lambda g, e, x, y, lo, hi, tf: (_compound(g, e, x, y) if isinstance(e, Compound)
+                                                else _resistor(g, x, y, True, e.trimmer)),
+    "fuse": lambda g, e, x, y, lo, hi, tf: _fuse(g, x, y),
+    "movement": lambda g, e, x, y, lo, hi, tf: _movement(g, x, y, plus_up=(e.a == hi), tf=tf),
+    "diode": lambda g, e, x, y, lo, hi, tf: _diode(g, x, y, up=(e.cathode == hi)),
+    "contact": lambda g, e, x, y, lo, hi, tf: _contact(g, x, y, True),
 }
 
 
-def _symbol(g, spec, e, x, y, lo_node, hi_node):
-    """Draw the symbol the part names; a part without a drawing of its own is a labelled box."""
-    SYMBOLS.get(e.symbol, lambda g, e, x, y, lo, hi: _resistor(g, x, y, True, False))(g, e, x, y, lo_node, hi_node)
+def _symbol(g, spec, e, x, y, lo_node, hi_node, tf=1.0):
+    """Draw the symbol the part names; a part without a drawing of its own is a plain box."""
+    draw = SYMBOLS.get(e.symbol, lambda g, e, x, y, lo, hi, tf: _resistor(g, x, y, True, False))
+    draw(g, e, x, y, lo_node, hi_node, tf)
 
 
-def _labels(g, lines, x, y, anchor="start"):
+def _labels(g, lines, x, y, anchor="start", tf=1.0):
     n = len(lines)
-    top = y + 4.0 * (n - 1) - 2
+    top = y + 4.0 * tf * (n - 1) - 2
     for i, t in enumerate(lines):
-        g.add(String(x, top - 8.0 * i, t, fontName="Helvetica-Bold" if i == 0 else "Helvetica",
-                     fontSize=6.8 if i == 0 else 6.3, fillColor=INK if i == 0 else MUTED,
+        g.add(String(x, top - 8.0 * tf * i, t, fontName="Helvetica-Bold" if i == 0 else "Helvetica",
+                     fontSize=(6.8 if i == 0 else 6.3) * tf, fillColor=INK if i == 0 else MUTED,
                      textAnchor=anchor))
 
 
@@ -318,13 +331,13 @@ def _dot(g, x, y):
     g.add(Circle(x, y, 1.9, fillColor=INK, strokeColor=None))
 
 
-def _terminal(g, x, y, text, anchor="middle", above=True):
+def _terminal(g, x, y, text, anchor="middle", above=True, tf=1.0):
     g.add(Circle(x, y, 3.2, fillColor=WHITE, strokeColor=INK, strokeWidth=1.0))
-    ty = y + 6 if above else y - 11
+    ty = y + 6 if above else y - 4 - 7 * tf
     lines = text.split("\n")
     for i, t in enumerate(lines):
-        g.add(String(x, ty + 8 * (len(lines) - 1 - i) if above else ty - 8 * i, t,
-                     fontName="Helvetica-Bold" if i == 0 else "Helvetica", fontSize=7 if i == 0 else 6.2,
+        g.add(String(x, ty + 8 * tf * (len(lines) - 1 - i) if above else ty - 8 * tf * i, t,
+                     fontName="Helvetica-Bold" if i == 0 else "Helvetica", fontSize=(7 if i == 0 else 6.2) * tf,
                      fillColor=INK if i == 0 else MUTED, textAnchor=anchor))
 
 
@@ -506,9 +519,18 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
         tap = c.b if pole == c.a else c.a
         pole_rows.setdefault(pole, []).append(row[tap])
     poles = sorted(pole_rows, key=lambda p: (-max(pole_rows[p]), p))
-    x_pole = {p: x_spine + THROW + 60.0 * i for i, p in enumerate(poles)}
     top_y = Y(len(rows) - 1)
     term_y = top_y + LEAD
+    # text grows when the drawing shrinks to fit (text_factor); the throws lengthen with it so the
+    # spine's labels keep clear of the contacts' (a few rounds settle the scale)
+    tf = 1.0
+    for _ in range(4):
+        throw = THROW * tf
+        x_pole = {p: x_spine + throw + 60.0 * i for i, p in enumerate(poles)}
+        width = (max(x_pole.values()) if x_pole else x_spine) + 110.0
+        height = term_y + 40.0
+        scale = min(1.0, max_width / width, max_height / height)
+        tf = text_factor(scale)
 
     # elements
     for ci, col in enumerate(columns):
@@ -519,8 +541,8 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             gap = _gap(e)
             g.add(Line(x, ya, x, ym - gap, strokeColor=INK, strokeWidth=0.9))
             g.add(Line(x, ym + gap, x, yb, strokeColor=INK, strokeWidth=0.9))
-            _symbol(g, spec, e, x, ym, rows[lo], rows[hi])
-            _labels(g, _label_lines(spec, e), x + 13, ym)
+            _symbol(g, spec, e, x, ym, rows[lo], rows[hi], tf)
+            _labels(g, _label_lines(spec, e), x + 13, ym, tf=tf)
     # buses and junction dots
     for n in rows:
         r = row[n]
@@ -545,7 +567,7 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             if ends >= 2 or (inner and ends >= 1):
                 _dot(g, X(c), y)
         if not (n == plan["ground"] or (n in plan["terminals"] and n not in plan["tapped"])):
-            g.add(String(x0 + 3, y + 3, n, fontName="Helvetica-Oblique", fontSize=6.2, fillColor=ACCENT))
+            g.add(String(x0 + 3, y + 3, n, fontName="Helvetica-Oblique", fontSize=6.2 * tf, fillColor=ACCENT))
     # throws and poles
     for p in poles:
         xp = x_pole[p]
@@ -560,10 +582,10 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             g.add(Line(x_start, y, cx - 8.7, y, strokeColor=INK, strokeWidth=0.9))
             g.add(Line(cx + 8.7, y, xp, y, strokeColor=INK, strokeWidth=0.9))
             _contact(g, cx, y, vertical=False)
-            g.add(String(cx, y + 9, c.name, fontName="Helvetica-Bold", fontSize=6.6, fillColor=INK,
+            g.add(String(cx, y + 5 + 4 * tf, c.name, fontName="Helvetica-Bold", fontSize=6.6 * tf, fillColor=INK,
                          textAnchor="middle"))
-            g.add(String(cx, y - 10, _clip(", ".join(c.closed_in), 48), fontName="Helvetica",
-                         fontSize=6.2, fillColor=MUTED, textAnchor="middle"))
+            g.add(String(cx, y - 4 - 6 * tf, _clip(", ".join(c.closed_in), 48, 6.2 * tf), fontName="Helvetica",
+                         fontSize=6.2 * tf, fillColor=MUTED, textAnchor="middle"))
             _dot(g, xp, y)
         y_hi = max(rs)
         g.add(Line(xp, min(rs), xp, y_hi, strokeColor=INK, strokeWidth=1.2))
@@ -575,14 +597,14 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             yc = y_hi + step * (k + 1)
             gap = _gap(e)
             g.add(Line(xp, y, xp, yc - gap, strokeColor=INK, strokeWidth=0.9))
-            _symbol(g, spec, e, xp, yc, nodes[k], nodes[k + 1])
-            _labels(g, _label_lines(spec, e), xp + 12, yc)
+            _symbol(g, spec, e, xp, yc, nodes[k], nodes[k + 1], tf)
+            _labels(g, _label_lines(spec, e), xp + 12, yc, tf=tf)
             y = yc + gap
         g.add(Line(xp, y, xp, term_y - 3.2, strokeColor=INK, strokeWidth=0.9))
         served = [q.name for q in net.positions if q.input[0] == nodes[-1]]
-        which = "all positions" if len(served) == len(net.positions) else _clip(", ".join(served), 150)
-        _terminal(g, xp, term_y, f"{nodes[-1]} (+)\n" + which)
-        g.add(String(xp + 6, y_hi + 3, p, fontName="Helvetica-Oblique", fontSize=6.2, fillColor=ACCENT))
+        which = "all positions" if len(served) == len(net.positions) else _clip(", ".join(served), 150, 6.2 * tf)
+        _terminal(g, xp, term_y, f"{nodes[-1]} (+)\n" + which, tf=tf)
+        g.add(String(xp + 6, y_hi + 3, p, fontName="Helvetica-Oblique", fontSize=6.2 * tf, fillColor=ACCENT))
     # terminals on the ladder itself
     for n in sorted(plan["terminals"]):
         if n not in row:
@@ -596,10 +618,7 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
         x = x_left - 38
         if n in plan["tapped"] and n != plan["ground"]:
             continue
-        _terminal(g, x, y, f"{n} ({'/'.join(roles)})", anchor="middle", above=False)
-    width = (max(x_pole.values()) if x_pole else x_spine) + 110.0
-    height = term_y + 40.0
-    scale = min(1.0, max_width / width, max_height / height)
+        _terminal(g, x, y, f"{n} ({'/'.join(roles)})", anchor="middle", above=False, tf=tf)
     g.scale(scale, scale)
     d = Drawing(width * scale, height * scale)
     d.add(g)
@@ -645,6 +664,10 @@ def graph_drawing(spec, net, max_width: float, max_height: float) -> Drawing:
         off = (wide - len(nodes)) * gap_x / 2
         for i, n in enumerate(nodes):
             pos[n] = (50 + off + gap_x * i, 30 + gap_y * k)
+    width = 100 + gap_x * (wide - 1) + 60
+    height = 60 + gap_y * max(layers)
+    scale = min(1.0, max_width / width, max_height / height)
+    tf = text_factor(scale)
     grp = Group()
     pair_count = defaultdict(int)
     for e in net.elements:
@@ -663,16 +686,13 @@ def graph_drawing(spec, net, max_width: float, max_height: float) -> Drawing:
         grp.add(Line(xa, ya, cx, cy, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         grp.add(Line(cx, cy, xb, yb, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         text = " ".join(_label_lines(spec, e)[:2])
-        tw = stringWidth(text, "Helvetica", 6.2) + 4
-        grp.add(Rect(cx - tw / 2, cy - 4, tw, 9, fillColor=WHITE, strokeColor=PALE, strokeWidth=0.5))
-        grp.add(String(cx, cy - 1.5, text, fontName="Helvetica", fontSize=6.2, fillColor=INK,
+        tw = stringWidth(text, "Helvetica", 6.2 * tf) + 4
+        grp.add(Rect(cx - tw / 2, cy - 4 * tf, tw, 9 * tf, fillColor=WHITE, strokeColor=PALE, strokeWidth=0.5))
+        grp.add(String(cx, cy - 1.5 * tf, text, fontName="Helvetica", fontSize=6.2 * tf, fillColor=INK,
                        textAnchor="middle"))
     for n, (x, y) in pos.items():
         grp.add(Circle(x, y, 2.4, fillColor=INK, strokeColor=None))
-        grp.add(String(x + 4, y + 4, n, fontName="Helvetica-Oblique", fontSize=6.8, fillColor=ACCENT))
-    width = 100 + gap_x * (wide - 1) + 60
-    height = 60 + gap_y * max(layers)
-    scale = min(1.0, max_width / width, max_height / height)
+        grp.add(String(x + 4, y + 4, n, fontName="Helvetica-Oblique", fontSize=6.8 * tf, fillColor=ACCENT))
     grp.scale(scale, scale)
     d = Drawing(width * scale, height * scale)
     d.add(grp)

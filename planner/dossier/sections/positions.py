@@ -6,7 +6,7 @@ import numpy as np
 from reportlab.platypus import PageBreak, Spacer, Table, TableStyle
 
 from .. import charts
-from ..layout import Heading, caution_box, p, table
+from ..layout import MUTED, RULE, Heading, caution_box, p, table
 from ..text import celsius, hazard_reminder, pct, pct_abs, quantity, value_text
 from .context import CHART_H, CHART_W, Context
 from .common import axis_scale, error_note, hazardous_position, verdict_fill, why
@@ -27,20 +27,21 @@ def _position_charts(ctx: Context, name: str, q: dict | None, pos) -> list:
     fs = pos.full_scale if pos is not None else (q or {}).get("full_scale", 1.0)
     scale, prefix = axis_scale(fs)
     charts_ = []
-    # linearity
-    if q and q.get("linearity"):
+    arr = ctx.arrays(name)
+    t_ref = celsius(ctx.spec.ambient.t_ref_k)
+    t_hot = celsius(q.get("hot_temperature_k", ctx.spec.ambient.t_max_k)) if q else ""
+    # error over the scale: the error at the reference; at the hottest ambient only what is left once
+    # the gain change with temperature is taken out (that change has its own chart)
+    if q and q.get("linearity") and arr is not None:
         lin = q["linearity"]
-        hot = q.get("linearity_hot") or []
-        s = [charts.Series(f"reference {celsius(ctx.spec.ambient.t_ref_k)}", [r["applied"] / scale for r in lin],
-                           [r["error_pct"] for r in lin], markers=True)]
-        if hot:
-            s.append(charts.Series(f"hottest {celsius(q.get('hot_temperature_k', ctx.spec.ambient.t_max_k))}",
-                                   [r["applied"] / scale for r in hot], [r["error_pct"] for r in hot], markers=True))
-        charts_.append(charts.line_chart(CHART_W, CHART_H, "Linearity: error over the scale",
-                                         f"applied [{prefix}{unit}]", "error [% of full scale]", s,
+        x = [r["applied"] / scale for r in lin]
+        s = [charts.Series(f"error at {t_ref} (reference)", x, [r["error_pct"] for r in lin], markers=True),
+             charts.Series(f"non-linearity at {t_hot}", x, list(arr.nonlinearity_pct[arr.i_hot]), markers=True)]
+        charts_.append(charts.line_chart(CHART_W, CHART_H, "Error over the scale", f"applied [{prefix}{unit}]",
+                                         "error [% of full scale]", s,
                                          bands=[charts.Band(-cls, cls, f"class {cls:g} limits")]))
     else:
-        charts_.append(charts.message_drawing(CHART_W, CHART_H, "Linearity", why(ctx, "check")))
+        charts_.append(charts.message_drawing(CHART_W, CHART_H, "Error over the scale", why(ctx, "check")))
     # protection
     curves = _protection_curves(ctx, name)
     if curves:
@@ -48,16 +49,22 @@ def _position_charts(ctx: Context, name: str, q: dict | None, pos) -> list:
     else:
         charts_.append(charts.message_drawing(CHART_W, CHART_H, "Protection curve", why(ctx, "faults",
                                               "no protection curve for this position")))
-    # temperature
-    if q and q.get("temperature_points"):
-        tp = q["temperature_points"]
+    # temperature: the gain change (full-scale reading) apart from the non-linearity, against the
+    # permitted variation (a share of the class per 10 K from the reference)
+    if q and arr is not None and arr.temperatures_k.size > 1:
+        tc = list(arr.temperatures_k - 273.15)
+        t0 = ctx.spec.ambient.t_ref_k - 273.15
+        share = q.get("temperature_permitted_per_10k_pct", cls)
+        env = [share * abs(tt - t0) / 10.0 for tt in tc]
+        nonlin = np.max(np.abs(arr.nonlinearity_pct), axis=1)
         charts_.append(charts.line_chart(
-            CHART_W, CHART_H, "Temperature: change of the full-scale reading", "ambient [\u00b0C]",
-            "change [% of full scale]",
-            [charts.Series("full-scale reading", [t["temperature_k"] - 273.15 for t in tp],
-                           [t["change_pct"] for t in tp], markers=True)],
-            bands=[charts.Band(-cls, cls, f"class {cls:g} limits")],
-            vlines=[(ctx.spec.ambient.t_ref_k - 273.15, "ref")]))
+            CHART_W, CHART_H, "Temperature: gain change and non-linearity", "ambient [\u00b0C]",
+            "[% of full scale]",
+            [charts.Series("gain change (full-scale reading)", tc, list(arr.gain_change_pct), markers=True),
+             charts.Series("largest non-linearity over the scale", tc, list(nonlin), markers=True),
+             charts.Series(f"permitted variation ({share:g} % per 10 K)", tc, env, colour=MUTED, dash=(2, 2)),
+             charts.Series("", tc, [-v for v in env], colour=MUTED, dash=(2, 2))],
+            vlines=[(t0, "ref")]))
     else:
         charts_.append(charts.message_drawing(CHART_W, CHART_H, "Temperature", why(ctx, "check")))
     # Monte Carlo
@@ -114,8 +121,7 @@ def _mc_chart(ctx: Context, name: str, q: dict | None, cls: float):
     mc = (q.get("monte_carlo") or {}).get("full_scale_error_pct") or {}
     note = (f"yield {100 * q.get('yield_fraction', float('nan')):.1f} % of {ctx.samples} builds; "
             f"mean {mc.get('mean', float('nan')):+.3f} %, sd {mc.get('std', float('nan')):.3f} %")
-    limits = [(v, lab) for v, lab in ((-cls, f"-{cls:g} %"), (cls, f"+{cls:g} %"))
-              if lo - 1.5 * (hi - lo) <= v <= hi + 1.5 * (hi - lo)]
+    limits = [(-cls, f"class -{cls:g} %"), (cls, f"class +{cls:g} %")]
     return charts.histogram(CHART_W, CHART_H, "Monte Carlo: full-scale error of the builds",
                             "error at full scale [% of full scale]", list(edges), list(counts), limits=limits,
                             note=note)
@@ -158,26 +164,34 @@ def _accuracy_table(ctx: Context, q: dict) -> Table:
                  extra=verdict_fill([(1, 4, fill)]))
 
 
-def _linearity_table(ctx: Context, q: dict, pos) -> Table:
+def _linearity_table(ctx: Context, q: dict, pos, arr) -> Table:
+    """The sweep over the scale in two halves side by side: reading and error at the reference, error and
+    non-linearity (the error with the gain change taken out) at the hottest ambient."""
     unit = pos.unit
     lin, hot = q.get("linearity") or [], q.get("linearity_hot") or []
-    rows = []
+    nonlin = arr.nonlinearity_pct[arr.i_hot] if arr is not None else [None] * len(lin)
+    cells = []
     for k, r in enumerate(lin):
         h = hot[k] if k < len(hot) else {}
-        rows.append([quantity(r["applied"], unit), quantity(r["reading"], unit), pct(r["error_pct"]),
-                     quantity(h.get("reading"), unit), pct(h.get("error_pct"))])
+        cells.append([quantity(r["applied"], unit), quantity(r["reading"], unit), pct(r["error_pct"]),
+                      pct(h.get("error_pct")), pct(nonlin[k]) if nonlin[k] is not None else None])
+    half = (len(cells) + 1) // 2
+    rows = [a + b for a, b in zip(cells[:half], cells[half:] + [[None] * 5] * (2 * half - len(cells)))]
+    t_ref = celsius(ctx.spec.ambient.t_ref_k)
     t_hot = celsius(q.get("hot_temperature_k", ctx.spec.ambient.t_max_k))
-    return table(["Applied", f"Reading at {celsius(ctx.spec.ambient.t_ref_k)}", "Error",
-                  f"Reading at {t_hot}", "Error"], rows, [0.2, 0.2, 0.2, 0.2, 0.2], align="rrrrr")
+    head = ["Applied", f"Reading {t_ref}", f"Error {t_ref}", f"Error {t_hot}", f"Non-lin. {t_hot}"]
+    return table(head * 2, rows, [0.09, 0.105, 0.095, 0.095, 0.115] * 2, align="r" * 10,
+                 extra=[("LINEBEFORE", (5, 0), (5, -1), 0.8, RULE)])
 
 
 def positions(ctx: Context) -> list:
     """Per position: accuracy budget, linearity, protection, temperature and Monte Carlo charts."""
     out = [ctx.heading("Positions")]
-    out.append(p("One page per switch position. Charts: the error over the scale at the reference and the hottest "
-                 "ambient; the movement current against the input with and without the clamps (misrange "
-                 "protection); the change of the full-scale reading over the ambient range; the spread of the "
-                 "full-scale error over the Monte Carlo builds. Shaded bands and dashed lines mark the class limits."))
+    out.append(p("One page per position. Charts: the error over the scale (at the reference temperature, and the "
+                 "non-linearity at the hottest ambient with the gain change taken out); the movement current against "
+                 "the input with and without the clamps; the gain change and the non-linearity over the ambient "
+                 "range against the permitted variation per 10 K; the full-scale error of the check's Monte Carlo "
+                 "builds.", "small"))
     for k, name in enumerate(ctx.position_names()):
         if k:
             out.append(PageBreak())
@@ -198,6 +212,6 @@ def positions(ctx: Context) -> list:
         out.append(Spacer(1, 6))
         out += _position_charts(ctx, name, q, pos)
         if q is not None and pos is not None and q.get("linearity"):
-            out.append(_linearity_table(ctx, q, pos))
+            out.append(_linearity_table(ctx, q, pos, ctx.arrays(name)))
     out.append(PageBreak())
     return out
