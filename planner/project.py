@@ -87,7 +87,7 @@ MOVEMENT_KEYS = (
     "overload",
     "scale",
 )
-OVERLOAD_KEYS = ("peg", "short_time", "continuous")
+OVERLOAD_KEYS = ("peg", "short_time", "continuous", "mechanical", "thermal_time")
 SCALE_KEYS = ("arc", "radius", "mirror")
 #: Limits of movement.scale: the pointer swing [deg] and the outer scale radius [m].
 SCALE_ARC_DEG = (30.0, 300.0)
@@ -120,7 +120,7 @@ CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse"
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
-SOURCE_KEYS = ("name", "voltage", "current", "waveform", "impedance", "current_limit")
+SOURCE_KEYS = ("name", "voltage", "current", "waveform", "impedance", "current_limit", "compliance", "frequency")
 ACCEPT_KEYS = ("position", "stimulus", "reason")
 NETWORK_KEYS = ("contact_style", "elements", "positions")
 ELEMENT_KEYS = {
@@ -688,28 +688,9 @@ def _movement(ctx: _Ctx, node: _Node) -> model.Movement:
     tol = m.qty("tolerance", "fraction", 0.0, check="frac")
     fs_tol = m.qty("full_scale_tolerance", "fraction", 0.0, check="frac")
     overload = model.Overload()
-    ov = m.sub("overload", OVERLOAD_KEYS, "{peg: 1.1, short_time: 10, continuous: 1.2}")
+    ov = m.sub("overload", OVERLOAD_KEYS, "{peg: 1.1, short_time: 20, continuous: 10, mechanical: 10}")
     if ov is not None:
-        d = model.Overload()
-        peg = ov.qty("peg", "dimensionless", d.peg, check="pos")
-        short = ov.qty("short_time", "dimensionless", d.short_time, check="pos")
-        cont = ov.qty("continuous", "dimensionless", d.continuous, check="pos")
-        for key, v in (("peg", peg), ("continuous", cont)):
-            if v < 1:
-                n = ov.get(key)
-                ctx.fail(
-                    f"movement.overload.{key} is {v:g} times full scale; it must be at least 1 "
-                    "(the movement carries full-scale current by design)",
-                    n.line if n is not None else ov.line,
-                )
-        if short < cont:
-            n = ov.get("short_time") or ov.get("continuous")
-            ctx.fail(
-                f"movement.overload.short_time ({short:g}) is below continuous ({cont:g}); what a movement "
-                "survives briefly is at least what it survives continuously",
-                n.line if n is not None else ov.line,
-            )
-        overload = model.Overload(peg=peg, short_time=short, continuous=cont)
+        overload = _overload(ctx, ov)
     scale = _scale_geometry(ctx, m)
     return model.Movement(
         i_fs_a=i_fs,
@@ -721,6 +702,32 @@ def _movement(ctx: _Ctx, node: _Node) -> model.Movement:
         overload=overload,
         scale=scale,
     )
+
+
+def _overload(ctx: _Ctx, ov: _Map) -> model.Overload:
+    """``movement.overload``: the end stop and the damage limits (multiples of I_fs), the thermal time."""
+    d = model.Overload()
+    peg = ov.qty("peg", "dimensionless", d.peg, check="pos")
+    short = ov.qty("short_time", "dimensionless", d.short_time, check="pos")
+    cont = ov.qty("continuous", "dimensionless", d.continuous, check="pos")
+    mech = ov.qty("mechanical", "dimensionless", d.mechanical, check="pos")
+    tau = ov.qty("thermal_time", "time", d.thermal_time_s, check="pos")
+    for key, v in (("peg", peg), ("continuous", cont), ("mechanical", mech)):
+        if v < 1:
+            n = ov.get(key)
+            ctx.fail(
+                f"movement.overload.{key} is {v:g} times full scale; it must be at least 1 "
+                "(the movement carries full-scale current by design)",
+                n.line if n is not None else ov.line,
+            )
+    if short < cont:
+        n = ov.get("short_time") or ov.get("continuous")
+        ctx.fail(
+            f"movement.overload.short_time ({short:g}) is below continuous ({cont:g}); what a movement "
+            "survives briefly is at least what it survives continuously",
+            n.line if n is not None else ov.line,
+        )
+    return model.Overload(peg=peg, short_time=short, continuous=cont, mechanical=mech, thermal_time_s=tau)
 
 
 _ANGLE = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(deg|degrees?|°|rad)?\s*$")
@@ -1097,6 +1104,18 @@ def _clamps(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> tuple[model.Cl
     return tuple(out)
 
 
+def _source_extras(ctx: _Ctx, s: _Map, where: str, kind: str, waveform: str):
+    """A fault source's ``compliance`` (current sources only) and ``frequency`` (sines only)."""
+    comp = s.qty("compliance", "voltage", None, check="pos")
+    if comp is not None and kind != "current":
+        ctx.fail(f"{where}: 'compliance' bounds a current source's voltage; a voltage source takes "
+                 "'impedance' and 'current_limit' instead", s.get("compliance").line)
+    freq = s.qty("frequency", "frequency", None, check="pos")
+    if freq is not None and waveform == "dc":
+        ctx.fail(f"{where}: 'frequency' applies to a sine; drop it or write 'waveform: sine'", s.get("frequency").line)
+    return comp, freq
+
+
 def _faults(ctx: _Ctx, node: _Node | None) -> model.Faults:
     if node is None:
         return model.Faults()
@@ -1131,6 +1150,7 @@ def _faults(ctx: _Ctx, node: _Node | None) -> model.Faults:
                 )
             r_src = s.qty("impedance", "resistance", 0.0, check="nonneg")
             i_lim = s.qty("current_limit", "current", None, check="pos")
+            comp, freq = _source_extras(ctx, s, where, kind, waveform)
             sources.append(
                 model.FaultSource(
                     name=name,
@@ -1140,6 +1160,8 @@ def _faults(ctx: _Ctx, node: _Node | None) -> model.Faults:
                     r_source_ohm=r_src,
                     current_limit_a=i_lim,
                     line=s.line,
+                    compliance_v=comp,
+                    frequency_hz=freq,
                 )
             )
     max_in = m.qty("max_input", "voltage", None, check="pos")
