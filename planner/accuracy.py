@@ -38,6 +38,7 @@ import numpy as np
 from .design import Design, as_design
 from .engine import Engine
 from .errors import SolveError, UsageError
+from .findings import design_findings
 from .model import ZERO_CELSIUS_K, Spec
 from .parts import Parameter
 
@@ -481,6 +482,7 @@ def check_project(design: Design | Spec, *, samples: int | None = None, seed: in
     outside = [p["name"] for p in positions if p["verdict"] != "within class"]
     result["positions_outside_class"] = outside
     result["requirements_met"] = not outside
+    result["findings"] = design_findings(design, engine)
     _assert_finite(result)
     return result
 

@@ -60,6 +60,8 @@ MAX_SAMPLES = 200_000
 
 #: IEC 60051 class indices (from memory, see /work/shared/references.md).
 IEC_CLASSES = (0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0, 5.0)
+#: Relative distance from I_fs within which a current range is the bare movement.
+BARE_RANGE_REL = 1e-9
 #: IEC 60063 series the sizer can pick resistors from.
 E_SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")
 
@@ -95,8 +97,9 @@ SCALE_RADIUS_M = (0.010, 0.500)
 AMBIENT_KEYS = ("reference", "min", "max")
 PARTS_KEYS = ("resistors", "diodes", "fuses")
 RESISTOR_PARTS_KEYS = (
-    "series", "tolerance", "tempco", "power", "max_voltage", "pulse_energy", "distribution", "ratings"
+    "series", "tolerance", "tempco", "power", "max_voltage", "pulse_energy", "distribution", "ratings", "derating"
 )
+DERATING_KEYS = ("power", "voltage")
 RATING_KEYS = ("power", "max_voltage", "pulse_energy")
 DIODE_KEYS = (
     "saturation_current",
@@ -883,7 +886,25 @@ def _resistor_parts(ctx: _Ctx, node: _Node | None) -> model.ResistorParts:
         max_voltages_v=tuple(volts),
         pulse_energy_j=pulse,
         pulse_energies_j=tuple(pulses) if any(x is not None for x in pulses) else (),
+        **_derating(ctx, m, d),
     )
+
+
+def _derating(ctx: _Ctx, m: _Map, d: model.ResistorParts) -> dict:
+    """``parts.resistors.derating``: the shares of power and voltage a part may use at full scale."""
+    dn = m.sub("derating", DERATING_KEYS, "{power: 50 %, voltage: 80 %}")
+    if dn is None:
+        return {}
+    out = {}
+    for key, field, default in (("power", "derating_power", d.derating_power),
+                                ("voltage", "derating_voltage", d.derating_voltage)):
+        x = dn.qty(key, "fraction", default)
+        if not 0.0 < x <= 1.0:
+            n = dn.get(key)
+            ctx.fail(f"parts.resistors.derating.{key} is {x * 100:g} %; give a share above 0 and at most 100 %, "
+                     "e.g. 50 %", n.line if n is not None else dn.line)
+        out[field] = x
+    return out
 
 
 def _diode_model(ctx: _Ctx, name: str, node: _Node) -> model.DiodeModel:
@@ -1036,11 +1057,11 @@ def _current(
     arr = m.choice("arrangement", ("ring", "separate"))
     fs, items = _ascending(ctx, m.req("full_scales", ex), "current", "current.full_scales", ex)
     for x, item in zip(fs, items):
-        if not x > movement.i_fs_a:
+        if x < movement.i_fs_a * (1.0 - BARE_RANGE_REL):
             ctx.fail(
-                f"current.full_scales: '{item.text}' is not above the movement's full-scale current "
+                f"current.full_scales: '{item.text}' is below the movement's full-scale current "
                 f"{format_si(movement.i_fs_a, 'A')}; a shunt can only raise the range, so every current range "
-                "must exceed it",
+                "must be at least I_fs (I_fs itself is the bare movement)",
                 item.line,
             )
     ring_on_v = m.choice("ring_on_voltage", ("switched_out", "across"), "switched_out")

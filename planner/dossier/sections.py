@@ -31,7 +31,7 @@ from .text import (
 __all__ = ["Context", "SECTIONS", "cover", "contents", "cautions", "summary", "schematic", "bom", "positions",
            "misrange", "build", "methods", "appendix", "bom_rows", "VERDICT_ORDER"]
 
-VERDICT_ORDER = {"ok": 0, "pegs": 1, "overstress": 2, "hazard": 3}
+VERDICT_ORDER = {"ok": 0, "pegs": 1, "opens": 2, "overstress": 3, "hazard": 4}
 CHART_W = (FRAME_WIDTH - 12) / 2
 CHART_H = 158.0
 
@@ -394,7 +394,7 @@ def summary(ctx: Context) -> list:
                       "Accuracy (budget)", "Worst misrange"], rows,
                      [0.10, 0.10, 0.10, 0.10, 0.10, 0.11, 0.08, 0.16, 0.16], align="llrrrrrcc",
                      extra=_verdict_fill(fills)))
-    out.append(p("Verdict words are printed in every cell; the tints (light to dark: ok, pegs, overstress, "
+    out.append(p("Verdict words are printed in every cell; the tints (light to dark: ok, pegs, opens, overstress, "
                  "hazard) only repeat them.", "caption"))
     # findings
     out.append(p("Findings that need action", "h2"))
@@ -434,6 +434,8 @@ def summary(ctx: Context) -> list:
                         f"{esc(str(declared).replace('_', '-')) if declared else 'not declared'}).")
     for f in (ctx.sizing or {}).get("flags", []) or []:
         findings.append(esc(f"Sizing: {f}"))
+    for f in (ctx.check or {}).get("findings", []) or []:  # ratings at full scale (planner.findings)
+        findings.append(esc(f"Ratings at full scale ({f['severity']}): {f['message']}"))
     for key, text in sorted(ctx.errors.items()):
         findings.append(esc(f"The {key} analysis raised an error: {text}"))
     if not findings:

@@ -55,6 +55,10 @@ class ResistorParts:
     pulse_energies_j : tuple of (float or None)
         The same for each power rating of ``power_ratings_w`` (empty, or one
         entry per rating; None where the rating gives none).
+    derating_power, derating_voltage : float
+        Shares of the power rating and of the limiting element voltage a part may
+        use at a range's full scale (``derating``; common practice: 50 % and 80 %),
+        see :mod:`planner.findings`.
     """
 
     series: str = "E96"
@@ -67,6 +71,8 @@ class ResistorParts:
     max_voltages_v: tuple[float, ...] = ()
     pulse_energy_j: float | None = None
     pulse_energies_j: tuple[float | None, ...] = ()
+    derating_power: float = 0.5
+    derating_voltage: float = 0.8
 
 
 @dataclass(frozen=True)
