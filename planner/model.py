@@ -83,7 +83,7 @@ class Overload:
     thermal_time_s: float = 1.0
 
     def thermal_limit(self, duration_s: float) -> float:
-        """Rms multiple of I_fs the coil survives for ``duration_s`` [s] (``inf``: indefinitely).
+        r"""Rms multiple of I_fs the coil survives for ``duration_s`` [s] (``inf``: indefinitely).
 
         Notes
         -----

@@ -365,7 +365,7 @@ class Onsets:
 
 
 def onsets_on_grid(targets_a2s, current_a, period_s: float) -> Onsets:
-    """Times from the crest and from a zero crossing for the Joule integral of a periodic current to reach targets.
+    r"""Times from the crest and from a zero crossing for the Joule integral of a periodic current to reach targets.
 
     Parameters
     ----------
@@ -425,7 +425,7 @@ def onsets_on_grid(targets_a2s, current_a, period_s: float) -> Onsets:
 
 
 def window_integral(y, period_s: float, onset_rad: float, duration_s: float, *, square: bool = False) -> float:
-    """Integral over time of a periodic quantity from an onset phase for a duration.
+    r"""Integral over time of a periodic quantity from an onset phase for a duration.
 
     Parameters
     ----------

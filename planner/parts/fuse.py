@@ -228,7 +228,7 @@ def pre_arcing_time_s(fuse: FuseModel, i_rms_a: float) -> float | None:
 
 
 def onset_times(let_through: dict, current_a, period_s: float) -> dict | None:
-    """Pre-arcing time and pulse duration of a fuse on a periodic current, from the crest and from a zero crossing.
+    r"""Pre-arcing time and pulse duration of a fuse on a periodic current, from the crest and from a zero crossing.
 
     Parameters
     ----------

@@ -261,7 +261,7 @@ def resistor_pulse_energy_j(spec, r: Resistor) -> float | None:
 
 
 def pulse_rule_j(r: Resistor, duration_s: float) -> float:
-    """Energy a resistor survives in one pulse without a maker's figure: the conservative rule [J].
+    r"""Energy a resistor survives in one pulse without a maker's figure: the conservative rule [J].
 
     Parameters
     ----------
@@ -304,7 +304,7 @@ def pulse_rule_j(r: Resistor, duration_s: float) -> float:
 
 
 def resistor_pulse_limit_j(r: Resistor, duration_s: float, pulse_energy_j: float | None = None) -> float:
-    """Energy a resistor survives in one pulse of a given duration (up to 5 s) [J].
+    r"""Energy a resistor survives in one pulse of a given duration (up to 5 s) [J].
 
     Parameters
     ----------

@@ -232,7 +232,7 @@ def lasting_s(fuses: list) -> float:
 
 
 def pulse_of(ctx: JudgingContext, event: FuseEvent | None) -> dict | None:
-    """An element's share of the pulse while fuses open: energy and Joule integral over the event's window.
+    r"""An element's share of the pulse while fuses open: energy and Joule integral over the event's window.
 
     Parameters
     ----------

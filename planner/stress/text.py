@@ -74,7 +74,7 @@ def fuse_detail(opening: list, event, verdict: str) -> str:
         return f"{names} above its rating but below its curve: it may not open for a long time"
     text = (f"fuse opens: {names} in {fmt(event.event_time_s, 's', 3)}, let-through "
             f"{event.let_through_i2t_a2s:.3g} A^2 s")
-    if verdict in ("ok", "pegs"):
+    if verdict in ("ok", "pegs", "opens"):
         text += "; every part survives the pulse: replace the fuse"
     return text
 
