@@ -473,8 +473,8 @@ def test_nominal_error_within_allowed_share_through_the_solver():
 
 
 def test_bad_requests_raise_project_error():
-    with pytest.raises(ProjectError, match=r"not above the movement's full-scale current"):
-        sz.size(make_spec(amps=[50e-6, 1e-3]))
+    with pytest.raises(ProjectError, match=r"is below the movement's full-scale current"):
+        sz.size(make_spec(amps=[20e-6, 1e-3]))
     with pytest.raises(ProjectError, match=r"must exceed I_fs\*R_m = 100.0 mV") as e:
         sz.size(make_spec(volts=[0.05, 1.0]))  # 50 uA x 2 kohm = 0.1 V (Ohm's law)
     assert e.value.line == 11  # the voltage section's line

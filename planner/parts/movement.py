@@ -67,10 +67,10 @@ class MovementElement(Part):
             the peak multiple against ``overload.short_time``, always;
         ``movement thermal``
             the rms multiple (heating follows the rms) against
-            :meth:`planner.model.Overload.thermal_limit` over the exposure: the
-            event's duration while a fuse opens fast (``ctx.short_exposure``; an
-            unknown time counts as the short-time limit), else indefinitely
-            (``continuous``);
+            :meth:`planner.model.Overload.thermal_limit` over the exposure: over
+            the pulse's window while a fuse opens fast (``ctx.short_exposure``,
+            the rms of ``ctx.pulse``; an unknown time counts as the short-time
+            limit), else the cycle's rms indefinitely (``continuous``);
         ``movement mechanical``
             the mean multiple (what drives the pointer against its stop) against
             ``overload.mechanical``, for a lasting exposure (during a short event
@@ -97,7 +97,10 @@ class MovementElement(Part):
             duration, words = math.inf, ""
         q = "rms multiple" if ctx.stimulus.waveform.cyclic else "multiple"
         extra = {"duration_s": duration} if math.isfinite(duration) else {}
-        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", ms["rms"], ov.thermal_limit(duration), "x I_fs",
+        rms = ms["rms"]
+        if ctx.short_exposure and ctx.pulse is not None:  # the rms over the pulse's own window
+            rms = ctx.pulse["rms_a"] / ctx.spec.movement.i_fs_a
+        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", rms, ov.thermal_limit(duration), "x I_fs",
                              "rating", limit_name="movement thermal", **extra))
         mean = ms["mean"]
         if abs(mean) <= ROUND_OFF * max(ms["peak"], 1.0):
