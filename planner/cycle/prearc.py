@@ -424,14 +424,14 @@ def onsets_on_grid(targets_a2s, current_a, period_s: float) -> Onsets:
     return Onsets(onsets, times, crosses)
 
 
-def window_integral(y, period_s: float, onset_rad: float, duration_s: float, *, square: bool = False) -> float:
-    r"""Integral over time of a periodic quantity from an onset phase for a duration.
+def window_integral(y, period_s: float, onset_rad: float, duration_s: float, *, square: bool = False):
+    r"""Integral over time of periodic quantities from an onset phase for a duration.
 
     Parameters
     ----------
-    y : array_like (N,)
+    y : array_like (N,) or (N, K)
         The quantity at the phases :math:`2\pi k / N` of one cycle (a power [W],
-        or a current [A] with ``square``).
+        or a current [A] with ``square``); K quantities at once in columns.
     period_s : float
         Period [s].
     onset_rad : float
@@ -444,33 +444,47 @@ def window_integral(y, period_s: float, onset_rad: float, duration_s: float, *, 
 
     Returns
     -------
-    float
-        :math:`\int_{t_0}^{t_0 + \Delta} y \, dt` (or of :math:`y^2`).
+    float or ndarray (K,)
+        :math:`\int_{t_0}^{t_0 + \Delta} y \, dt` (or of :math:`y^2`), a float for
+        a 1-D ``y``.
 
     Notes
     -----
     Between grid points the quantity is its periodic cubic spline (squared, for
     ``square``, as in :func:`pre_arcing_on_grid`), integrated exactly as a
-    piecewise polynomial; whole cycles add the cycle integral.
+    piecewise polynomial; whole cycles add the cycle integral. The columns share
+    one spline construction.
 
     References
     ----------
     C. de Boor, *A Practical Guide to Splines*, Springer, 1978.
     """
-    v = np.asarray(y, dtype=float).ravel()
+    v = np.asarray(y, dtype=float)
+    one = v.ndim == 1
+    if one:
+        v = v[:, None]
     T = float(period_s)
-    if v.size == 1:
-        return float((v[0] * v[0] if square else v[0]) * duration_s)
+    n = v.shape[0]
+    if n == 1:
+        out = (v[0] * v[0] if square else v[0]) * float(duration_s)
+        return float(out[0]) if one else out
+    t = np.arange(n + 1) * (T / n)
+    cs = CubicSpline(t, np.vstack([v, v[:1]]), bc_type="periodic", axis=0)
     if square:
-        F = _joule_spline(v, T)
+        c = cs.c  # (4, n, K), highest power first
+        sq = np.zeros((7,) + c.shape[1:])
+        for a in range(4):
+            for b in range(4):
+                sq[a + b] += c[a] * c[b]
+        F = PPoly(sq, t).antiderivative()
     else:
-        t = np.arange(v.size + 1) * (T / v.size)
-        F = CubicSpline(t, np.append(v, v[0]), bc_type="periodic").antiderivative()
-    cyc = float(F(T))
+        F = cs.antiderivative()
+    cyc = F(T)
 
     def G(u):
         k = math.floor(u / T)
-        return k * cyc + float(F(u - k * T))
+        return k * cyc + F(u - k * T)
 
     s = (onset_rad % _TWO_PI) / _TWO_PI * T
-    return float(G(s + float(duration_s)) - G(s))
+    out = np.asarray(G(s + float(duration_s)) - G(s), dtype=float)
+    return float(out[0]) if one else out

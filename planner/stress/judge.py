@@ -63,7 +63,7 @@ class JudgingContext:
     pulse : dict or None
         While fuses open in a known time: the element's own share of the pulse,
         integrated over the event's window from its onset
-        (:func:`pulse_of`): ``energy_j`` [J], ``i2t_a2s`` [A^2 s],
+        (:func:`pulses_of`): ``energy_j`` [J], ``i2t_a2s`` [A^2 s],
         ``duration_s`` [s], ``rms_a`` [A] over the window.
     duration_s : float
         How long the stimulus lasts in this network [s]: until the last fuse
@@ -171,9 +171,10 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
     # each part's checks; the movement closes the list (the pointer sums the case up)
     rated = sorted((e for e in elements if e.name not in opened), key=lambda e: e.name == engine.movement.name)
     lasting = lasting_s(fuses)
+    pulses = pulses_of(contexts, event)
     for e in rated:
         ctx = contexts[e.name]
-        stresses += e.checks(replace(ctx, event=event, short_exposure=short_exposure, pulse=pulse_of(ctx, event),
+        stresses += e.checks(replace(ctx, event=event, short_exposure=short_exposure, pulse=pulses.get(e.name),
                                      duration_s=lasting))
     return Judgement(stresses, fuses, notes, frozenset(newly), short_exposure, hazardous,
                      movement_reading(wf, ms, spec.movement.i_fs_a), parts, event)
@@ -231,23 +232,22 @@ def lasting_s(fuses: list) -> float:
     return float(max(f["event_time_s"] for f in opening))
 
 
-def pulse_of(ctx: JudgingContext, event: FuseEvent | None) -> dict | None:
-    r"""An element's share of the pulse while fuses open: energy and Joule integral over the event's window.
+def pulses_of(contexts: dict, event: FuseEvent | None) -> dict:
+    r"""Each element's share of the pulse while fuses open: energy and Joule integral over the event's window.
 
     Parameters
     ----------
-    ctx : JudgingContext
-        The element's context (its samples over the stimulus).
+    contexts : dict of str -> JudgingContext
+        The elements' contexts (their samples over the stimulus).
     event : FuseEvent or None
 
     Returns
     -------
-    dict or None
-        ``energy_j`` = :math:`\int v i \, dt`, ``i2t_a2s`` = :math:`\int i^2 dt`
-        and ``rms_a`` = :math:`\sqrt{I^2t / t_{ev}}` over the window
+    dict of str -> dict
+        By designator (empty without an event): ``energy_j`` =
+        :math:`\int v i \, dt`, ``i2t_a2s`` = :math:`\int i^2 dt` and ``rms_a`` = :math:`\sqrt{I^2t / t_{ev}}` over the window
         :math:`[t_0, t_0 + t_{ev}]` from the event's onset (for DC, :math:`P t_{ev}`
-        and :math:`I^2 t_{ev}`); ``duration_s`` = :math:`t_{ev}`. None without an
-        event.
+        and :math:`I^2 t_{ev}`); ``duration_s`` = :math:`t_{ev}`.
 
     Notes
     -----
@@ -261,17 +261,23 @@ def pulse_of(ctx: JudgingContext, event: FuseEvent | None) -> dict | None:
     ----------
     IEC 60269-1 (Joule integral over a stated interval); :func:`planner.cycle.window_integral`.
     """
-    if event is None or ctx.samples_i is None:
-        return None
+    if event is None or not contexts:
+        return {}
     t = event.event_time_s
-    i, v = ctx.samples_i, ctx.samples_v
-    if i.size == 1 or event.period_s is None:
-        i2t = float(ctx.current["rms"] ** 2 * t)
-        energy = float(abs(ctx.power_w) * t)
+    names = [n for n, c in contexts.items() if c.samples_i is not None]
+    if not names:
+        return {}
+    first = contexts[names[0]]
+    if first.samples_i.size == 1 or event.period_s is None:
+        i2t = np.array([contexts[n].current["rms"] ** 2 * t for n in names])
+        energy = np.array([abs(contexts[n].power_w) * t for n in names])
     else:
-        i2t = window_integral(i, event.period_s, event.onset_rad, t, square=True)
-        energy = abs(window_integral(i * v, event.period_s, event.onset_rad, t))
-    return {"energy_j": energy, "i2t_a2s": i2t, "duration_s": t, "rms_a": math.sqrt(max(i2t, 0.0) / t) if t > 0 else 0.0}
+        cur = np.column_stack([contexts[n].samples_i for n in names])
+        pw = np.column_stack([contexts[n].samples_i * contexts[n].samples_v for n in names])
+        i2t = window_integral(cur, event.period_s, event.onset_rad, t, square=True)
+        energy = np.abs(window_integral(pw, event.period_s, event.onset_rad, t))
+    return {n: {"energy_j": float(energy[k]), "i2t_a2s": float(i2t[k]), "duration_s": t,
+                "rms_a": math.sqrt(max(float(i2t[k]), 0.0) / t) if t > 0 else 0.0} for k, n in enumerate(names)}
 
 
 def part_row(e, ctx: JudgingContext) -> dict:

@@ -51,7 +51,8 @@ def describe_stress(x: dict | None) -> str:
         val, rat = f"{x['value']:.4g} A^2 s", f"{x['rating']:.4g} A^2 s"
     else:
         val, rat = fmt(x["value"], unit, 4), fmt(x["rating"], unit, 4)
-    return f"{x['part']} {x['quantity']} {val} of {rat} {LIMITS[x['limit']].word} ({ratio_text(x['ratio'])})"
+    rule = f", rule: {x['rule']}" if x.get("rule") else ""
+    return f"{x['part']} {x['quantity']} {val} of {rat} {LIMITS[x['limit']].word} ({ratio_text(x['ratio'])}{rule})"
 
 
 def fuse_detail(opening: list, event, verdict: str) -> str:
