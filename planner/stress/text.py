@@ -114,6 +114,10 @@ def format_apply(result: dict) -> str:
         lines.append("Beyond a limit:")
         for x in sorted(bad, key=lambda x: -x["ratio"]):
             lines += wrap("  ", describe_stress(x))
+    for h in result.get("hazards", []):
+        lines += wrap("HAZARD: ", f"rule '{h['rule']}': {h['detail']} ({h['source']})")
+    for a in result.get("asks", []):
+        lines += wrap("Give: ", a["message"])
     for n in result.get("notes", []):
         lines += wrap("Note: ", n)
     for c in result.get("cautions", []):
