@@ -178,19 +178,27 @@ def cmd_size(args) -> int:
     from .fsio import emit
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
+    from .findings import finding_lines, sizing_findings
+
     if spec.network is not None and (spec.voltage is not None or spec.current is not None):
         # both in one file (the loader has checked that they describe the same meter)
         print(f"planner: note: {args.project} also gives an explicit network; 'size' sizes the ranges anew, "
               "the other commands analyse the network as it is", file=sys.stderr)
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)
+    result["findings"] = sizing_findings(spec, sizing)
     if args.write_network:
         if emit(args.write_network, network_yaml(spec, sizing), protect=[args.project]):
             print(f"wrote {args.write_network}", file=sys.stderr)
         else:  # '-': stdout carries the network alone
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
-    _emit(args, result, format_sizing_table(sizing))
+    _emit(args, result, format_sizing_table(sizing) + _lines_tail(finding_lines(result["findings"])))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
+def _lines_tail(lines: list) -> str:
+    """Extra report lines after a table (empty when there are none)."""
+    return "\n".join(lines) + "\n" if lines else ""
 
 
 def cmd_check(args) -> int:
@@ -205,7 +213,10 @@ def cmd_check(args) -> int:
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
-    _emit(args, result, format_check(result) + _cautions_tail(result))
+    from .findings import finding_lines
+
+    _emit(args, result, format_check(result) + _lines_tail(finding_lines(result.get("findings", [])))
+          + _cautions_tail(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 
 

@@ -473,8 +473,8 @@ def test_nominal_error_within_allowed_share_through_the_solver():
 
 
 def test_bad_requests_raise_project_error():
-    with pytest.raises(ProjectError, match=r"not above the movement's full-scale current"):
-        sz.size(make_spec(amps=[50e-6, 1e-3]))
+    with pytest.raises(ProjectError, match=r"is below the movement's full-scale current"):
+        sz.size(make_spec(amps=[20e-6, 1e-3]))
     with pytest.raises(ProjectError, match=r"must exceed I_fs\*R_m = 100.0 mV") as e:
         sz.size(make_spec(volts=[0.05, 1.0]))  # 50 uA x 2 kohm = 0.1 V (Ohm's law)
     assert e.value.line == 11  # the voltage section's line
@@ -555,3 +555,32 @@ def test_example_project_loads_and_network_yaml_round_trips():
     ]
     # the comments of the original file survive
     assert "Larkspur Lane radio workshop" in text
+
+
+# --- the bare movement as a range ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize("i_arr, ring_on_voltage, volts", [("ring", "switched_out", None),
+                                                          ("ring", "switched_out", [2.5, 25.0]),
+                                                          ("ring", "across", [2.5, 25.0]),
+                                                          ("separate", "switched_out", [2.5])])
+def test_a_current_range_equal_to_i_fs_is_the_bare_movement(i_arr, ring_on_voltage, volts):
+    # a range of exactly I_fs needs no shunt: the input current is the movement current, the
+    # burden is I_fs R_m and the input resistance R_m (Ohm's law); every other range keeps its
+    # handbook shunt (Ayrton ring of the remaining ranges, or separate shunts)
+    spec = make_spec(volts=volts, amps=[50e-6, 1e-3, 10e-3], i_arr=i_arr, ring_on_voltage=ring_on_voltage)
+    s = sz.size(spec)
+    bare = [p for p in s.positions if p.name == "50 uA"][0]
+    np.testing.assert_allclose(bare.input_resistance_ohm, 2000.0, rtol=1e-12)
+    np.testing.assert_allclose(bare.burden_voltage_v, 50e-6 * 2000.0, rtol=1e-12)
+    if i_arr == "ring":
+        # the ring of the remaining ranges: R_t = R_m I_fs / (I_1 - I_fs) with I_1 = 1 mA (Ayrton formula)
+        np.testing.assert_allclose(sum(targets(s, "ring")), 2000.0 * 50e-6 / (1e-3 - 50e-6), rtol=1e-12)
+    eng = Engine(build(sz.sized_spec(spec)))
+    allowed = spec.analysis.allowed_share * spec.movement.class_index
+    for p in eng.positions:
+        r = eng.reading(p.name, np.array([p.full_scale]))
+        err = (r[0] - p.full_scale) / p.full_scale * 100
+        assert abs(err) <= allowed, (p.name, err)
+    op = eng.operate("50 uA", np.array([50e-6]), kind="current")
+    np.testing.assert_allclose(op.movement_current_a[0, 0], 50e-6, rtol=1e-9)  # the whole input current

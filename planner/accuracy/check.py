@@ -16,6 +16,7 @@ import numpy as np
 from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import SolveError, UsageError
+from ..findings import design_findings
 from ..model import Spec
 from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, TEMPERATURE_SOURCE
 from .position import check_position
@@ -153,6 +154,7 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     outside = [p["name"] for p in positions if p["verdict"] != "within class"]
     result["positions_outside_class"] = outside
     result["requirements_met"] = not outside
+    result["findings"] = design_findings(design, engine)  # ratings at full scale (planner.findings)
     _assert_finite(result)
     return CheckResult(json=result, positions=arrays, parameters=params, factors=mc_factors)
 

@@ -79,6 +79,15 @@ from typing import ClassVar
 import numpy as np
 
 
+#: Power multiple of a part's rating, held for longer than ``IGNITION_TIME_S``, from which
+#: the ``ignition`` hazard rule applies (from memory, range 10-25 x; see docs/safety.md and
+#: :data:`planner.stress.verdict.HAZARD_RULES`).
+IGNITION_POWER_FACTOR = 10.0
+#: Time [s] beyond which a part held at ``IGNITION_POWER_FACTOR`` x its rating can ignite: the
+#: 5 s of the short-time overload of IEC 60115-1, a level parts survive (from memory).
+IGNITION_TIME_S = 5.0
+
+
 @dataclass(frozen=True)
 class Parameter:
     """One toleranced quantity of a network.

@@ -19,6 +19,7 @@ import numpy as np
 
 from ..solve import BOLTZMANN, CHARGE, saturation_current, thermal_voltage
 from .base import Parameter, Part
+from .resistor import ignition_entries
 
 #: Duration of a diode's non-repetitive surge-current rating: one half-cycle of
 #: 60 Hz (JEDEC 8.3 ms half-sine; common practice in diode data sheets) [s].
@@ -272,17 +273,20 @@ class Diode(Part):
             t_ev = ev.event_time_s
             allowed = diode_i2t_allowed_a2s(d, t_ev)
             if math.isfinite(allowed):
-                out.append(ctx.entry(self.name, self.kind, f"I2t {ev.words}{ph}", i_st["rms"] ** 2 * t_ev, allowed,
-                                     "A^2 s", "rating", duration_s=t_ev))
+                i2t = ctx.pulse["i2t_a2s"] if ctx.pulse else i_st["rms"] ** 2 * t_ev
+                out.append(ctx.entry(self.name, self.kind, f"I2t {ev.words}{ph}", i2t, allowed,
+                                     "A^2 s", "rating", limit_name="diode I2t", duration_s=t_ev))
             return out
         if not ctx.peak_only and math.isfinite(d.max_current_a):
             out.append(ctx.entry(self.name, self.kind, f"average current{ph}", i_st["mean_abs"], d.max_current_a,
-                                 "A", "rating"))
+                                 "A", "rating", limit_name="diode average current"))
         if math.isfinite(d.surge_current_a):
             out.append(ctx.entry(self.name, self.kind, f"peak current{ph}", i_st["peak"], d.surge_current_a,
-                                 "A", "rating"))
+                                 "A", "rating", limit_name="diode surge current"))
         if not ctx.peak_only and math.isfinite(d.max_power_w):
-            out.append(ctx.entry(self.name, self.kind, f"power{ph}", abs(ctx.power_w), d.max_power_w, "W", "rating"))
+            out.append(ctx.entry(self.name, self.kind, f"power{ph}", abs(ctx.power_w), d.max_power_w, "W", "rating",
+                                 limit_name="diode power"))
+            out += ignition_entries(ctx, self.name, self.kind, abs(ctx.power_w), d.max_power_w)
         return out
 
 

@@ -10,12 +10,17 @@ judges its current against those limits for :mod:`planner.stress`.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import ClassVar
 
 import numpy as np
 
 from .base import Parameter, Part
+
+#: Relative size [of the peak multiple] below which a cycle mean is solver round-off
+#: around zero (a pointer at rest under a symmetric wave), not a reading.
+ROUND_OFF = 1e-9
 
 
 @dataclass(frozen=True)
@@ -76,35 +81,62 @@ class MovementElement(Part):
         return f"{{name: {self.name}, kind: movement, between: [{self.a}, {self.b}]}}"
 
     def checks(self, ctx) -> list[dict]:
-        """Peak and rms multiples of I_fs against its overload limits; the pointer against its stops.
+        """The movement's damage limits (short-time peak, thermal, mechanical) and its end stops.
 
         Notes
         -----
-        The peak multiple against ``overload.short_time`` always; for a DC or
-        periodic stimulus also the rms multiple (heating follows the rms, and
-        :math:`|\\bar I| \\le I_{rms}`, so it covers the mean too) against
-        ``short_time`` while a fuse opens fast (``ctx.short_exposure``) or
-        ``continuous`` otherwise, and the mean multiple (what the pointer follows)
-        against the end stop ``peg``; a negative mean against the zero-end stop,
-        assumed as far below zero as the forward stop is beyond full scale
-        (common practice: a few percent).
+        Each entry names its limit (``limit_name``):
+
+        ``movement short-time peak``
+            the peak multiple against ``overload.short_time``, always;
+        ``movement thermal``
+            the rms multiple (heating follows the rms) against
+            :meth:`planner.model.Overload.thermal_limit` over the exposure: over
+            the pulse's window while a fuse opens fast (``ctx.short_exposure``,
+            the rms of ``ctx.pulse``; an unknown time counts as the short-time
+            limit), else the cycle's rms indefinitely (``continuous``);
+        ``movement mechanical``
+            the mean multiple (what drives the pointer against its stop) against
+            ``overload.mechanical``, for a lasting exposure (during a short event
+            the pointer barely moves; the peak limit covers the kick);
+        ``movement end stop``
+            the mean multiple against ``peg`` (or, for a reverse mean, against the
+            zero-end stop, as far below zero as the forward stop is beyond full
+            scale; common practice: a few percent): the verdict ``pegs``, not damage.
+
+        A mean within round-off of zero (a pointer at rest under a symmetric
+        wave) is zero: no stress below zero is listed for it.
         """
         ov = ctx.spec.movement.overload
         ms, ph = ctx.movement_multiple, ctx.phase
-        out = [ctx.entry(self.name, self.kind, f"peak multiple{ph}", ms["peak"], ov.short_time, "x I_fs", "rating")]
+        out = [ctx.entry(self.name, self.kind, f"peak multiple{ph}", ms["peak"], ov.short_time, "x I_fs", "rating",
+                         limit_name="movement short-time peak")]
         if ctx.peak_only:
             return out
+        ev = ctx.event
         if ctx.short_exposure:
-            rating, words = ov.short_time, " until the fuse opens"
+            duration = ev.event_time_s if ev is not None else 0.0
+            words = " until the fuse opens"
         else:
-            rating, words = ov.continuous, ""
+            duration, words = math.inf, ""
         q = "rms multiple" if ctx.stimulus.waveform.cyclic else "multiple"
-        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", ms["rms"], rating, "x I_fs", "rating"))
-        if ms["mean"] >= 0.0:
-            out.append(ctx.entry(self.name, self.kind, f"pointer (mean multiple){ph}", ms["mean"], ov.peg,
-                                 "x I_fs", "end stop"))
+        extra = {"duration_s": duration} if math.isfinite(duration) else {}
+        rms = ms["rms"]
+        if ctx.short_exposure and ctx.pulse is not None:  # the rms over the pulse's own window
+            rms = ctx.pulse["rms_a"] / ctx.spec.movement.i_fs_a
+        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", rms, ov.thermal_limit(duration), "x I_fs",
+                             "rating", limit_name="movement thermal", **extra))
+        mean = ms["mean"]
+        if abs(mean) <= ROUND_OFF * max(ms["peak"], 1.0):
+            mean = 0.0
+        if not ctx.short_exposure:
+            out.append(ctx.entry(self.name, self.kind, f"pointer drive (|mean multiple|){ph}", abs(mean),
+                                 ov.mechanical, "x I_fs", "rating", limit_name="movement mechanical"))
+        if mean >= 0.0:
+            out.append(ctx.entry(self.name, self.kind, f"pointer (mean multiple){ph}", mean, ov.peg, "x I_fs",
+                                 "end stop", limit_name="movement end stop"))
         else:
             back = max(ov.peg - 1.0, 1e-3)
-            out.append(ctx.entry(self.name, self.kind, f"pointer below zero (mean multiple){ph}", -ms["mean"], back,
-                                 "x I_fs", "end stop"))
+            out.append(ctx.entry(self.name, self.kind, f"pointer below zero (mean multiple){ph}", mean, -back,
+                                 "x I_fs", "end stop", limit_name="movement zero-end stop"))
         return out

@@ -20,9 +20,21 @@ from .tree import Node
 __all__ = ["FAULTS_KEYS", "SOURCE_KEYS", "ACCEPT_KEYS", "ANALYSIS_KEYS", "read_faults", "read_analysis"]
 
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
-SOURCE_KEYS = ("name", "voltage", "current", "waveform", "impedance", "current_limit")
+SOURCE_KEYS = ("name", "voltage", "current", "waveform", "impedance", "current_limit", "compliance", "frequency")
 ACCEPT_KEYS = ("position", "stimulus", "reason")
 ANALYSIS_KEYS = ("samples", "seed", "allowed_share")
+
+
+def _source_extras(ctx: Reader, s, where: str, kind: str, waveform: str):
+    """A fault source's ``compliance`` (current sources only) and ``frequency`` (sines only)."""
+    comp = s.qty("compliance", "voltage", None, check="pos")
+    if comp is not None and kind != "current":
+        ctx.fail(f"{where}: 'compliance' bounds a current source's voltage; a voltage source takes "
+                 "'impedance' and 'current_limit' instead", s.get("compliance").line)
+    freq = s.qty("frequency", "frequency", None, check="pos")
+    if freq is not None and waveform == "dc":
+        ctx.fail(f"{where}: 'frequency' applies to a sine; drop it or write 'waveform: sine'", s.get("frequency").line)
+    return comp, freq
 
 
 def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
@@ -60,6 +72,7 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
                 ctx.fail(e.message, s.get(kind).line)
             r_src = s.qty("impedance", "resistance", 0.0, check="nonneg")
             i_lim = s.qty("current_limit", "current", None, check="pos")
+            comp, freq = _source_extras(ctx, s, where, kind, waveform)
             sources.append(
                 model.FaultSource(
                     name=name,
@@ -69,6 +82,8 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
                     r_source_ohm=r_src,
                     current_limit_a=i_lim,
                     line=s.line,
+                    compliance_v=comp,
+                    frequency_hz=freq,
                 )
             )
     max_in = m.qty("max_input", "voltage", None, check="pos")

@@ -29,7 +29,7 @@ MOVEMENT_KEYS = (
     "overload",
     "scale",
 )
-OVERLOAD_KEYS = ("peg", "short_time", "continuous")
+OVERLOAD_KEYS = ("peg", "short_time", "continuous", "mechanical", "thermal_time")
 SCALE_KEYS = ("arc", "radius", "mirror")
 #: Limits of movement.scale: the pointer swing [deg] and the outer scale radius [m].
 SCALE_ARC_DEG = (30.0, 300.0)
@@ -54,28 +54,9 @@ def read_movement(ctx: Reader, node: Node) -> model.Movement:
     tol = m.qty("tolerance", "fraction", 0.0, check="frac")
     fs_tol = m.qty("full_scale_tolerance", "fraction", 0.0, check="frac")
     overload = model.Overload()
-    ov = m.sub("overload", OVERLOAD_KEYS, "{peg: 1.1, short_time: 10, continuous: 1.2}")
+    ov = m.sub("overload", OVERLOAD_KEYS, "{peg: 1.1, short_time: 20, continuous: 10, mechanical: 10}")
     if ov is not None:
-        d = model.Overload()
-        peg = ov.qty("peg", "dimensionless", d.peg, check="pos")
-        short = ov.qty("short_time", "dimensionless", d.short_time, check="pos")
-        cont = ov.qty("continuous", "dimensionless", d.continuous, check="pos")
-        for key, v in (("peg", peg), ("continuous", cont)):
-            if v < 1:
-                n = ov.get(key)
-                ctx.fail(
-                    f"movement.overload.{key} is {v:g} times full scale; it must be at least 1 "
-                    "(the movement carries full-scale current by design)",
-                    n.line if n is not None else ov.line,
-                )
-        if short < cont:
-            n = ov.get("short_time") or ov.get("continuous")
-            ctx.fail(
-                f"movement.overload.short_time ({short:g}) is below continuous ({cont:g}); what a movement "
-                "survives briefly is at least what it survives continuously",
-                n.line if n is not None else ov.line,
-            )
-        overload = model.Overload(peg=peg, short_time=short, continuous=cont)
+        overload = _overload(ctx, ov)
     scale = _scale_geometry(ctx, m)
     return model.Movement(
         i_fs_a=i_fs,
@@ -87,6 +68,32 @@ def read_movement(ctx: Reader, node: Node) -> model.Movement:
         overload=overload,
         scale=scale,
     )
+
+
+def _overload(ctx: Reader, ov: Section) -> model.Overload:
+    """``movement.overload``: the end stop and the damage limits (multiples of I_fs), the thermal time."""
+    d = model.Overload()
+    peg = ov.qty("peg", "dimensionless", d.peg, check="pos")
+    short = ov.qty("short_time", "dimensionless", d.short_time, check="pos")
+    cont = ov.qty("continuous", "dimensionless", d.continuous, check="pos")
+    mech = ov.qty("mechanical", "dimensionless", d.mechanical, check="pos")
+    tau = ov.qty("thermal_time", "time", d.thermal_time_s, check="pos")
+    for key, v in (("peg", peg), ("continuous", cont), ("mechanical", mech)):
+        if v < 1:
+            n = ov.get(key)
+            ctx.fail(
+                f"movement.overload.{key} is {v:g} times full scale; it must be at least 1 "
+                "(the movement carries full-scale current by design)",
+                n.line if n is not None else ov.line,
+            )
+    if short < cont:
+        n = ov.get("short_time") or ov.get("continuous")
+        ctx.fail(
+            f"movement.overload.short_time ({short:g}) is below continuous ({cont:g}); what a movement "
+            "survives briefly is at least what it survives continuously",
+            n.line if n is not None else ov.line,
+        )
+    return model.Overload(peg=peg, short_time=short, continuous=cont, mechanical=mech, thermal_time_s=tau)
 
 
 _ANGLE = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(deg|degrees?|°|rad)?\s*$")

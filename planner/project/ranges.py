@@ -22,6 +22,10 @@ CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 
 
+#: Relative distance from I_fs within which a current range is the bare movement.
+BARE_RANGE_REL = 1e-9
+
+
 def _ascending(ctx: Reader, node: Node, dim: str, where: str, example: str) -> tuple[list[float], list[Node]]:
     items = capped(ctx, ctx.seq(node, where, example), MAX_POSITIONS, where, "ranges", node.line)
     if not items:
@@ -59,11 +63,11 @@ def read_current(
     arr = m.choice("arrangement", ("ring", "separate"))
     fs, items = _ascending(ctx, m.req("full_scales", ex), "current", "current.full_scales", ex)
     for x, item in zip(fs, items):
-        if not x > movement.i_fs_a:
+        if x < movement.i_fs_a * (1.0 - BARE_RANGE_REL):
             ctx.fail(
-                f"current.full_scales: '{item.text}' is not above the movement's full-scale current "
+                f"current.full_scales: '{item.text}' is below the movement's full-scale current "
                 f"{format_si(movement.i_fs_a, 'A')}; a shunt can only raise the range, so every current range "
-                "must exceed it",
+                "must be at least I_fs (I_fs itself is the bare movement)",
                 item.line,
             )
     ring_on_v = m.choice("ring_on_voltage", ("switched_out", "across"), "switched_out")

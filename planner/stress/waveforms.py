@@ -41,7 +41,8 @@ class Waveform:
         Open-circuit value of the source at each sample [V] (voltage sources) or
         the terminal voltage (current sources).
     limited : ndarray of bool (n,)
-        Samples where the source's current limit took over.
+        Samples where the source's current limit (a voltage source) or its
+        compliance (a current source) took over.
     open_input : bool
         True when no path joins the input terminals in this state.
     """
@@ -182,6 +183,8 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
     }
     if kind == "voltage":
         _cross_over(engine, st, stimuli, rows, sol, temperature_k)
+    else:
+        _compliance(engine, st, stimuli, rows, sol, temperature_k)
     out = []
     for row, s in enumerate(stimuli):
         n = len(rows[row])
@@ -193,6 +196,50 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
             np.array(sol["i_m"][row, :n]), np.array(sol["i_src"][row, :n]), np.array(sol["v_t"][row, :n]),
             np.array(src_v), sol["limited"][row, :n].copy()))
     return out
+
+
+def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
+    """Solve again, as a voltage source of the compliance, the samples where a current source runs out of voltage.
+
+    A current source holds its current only up to its compliance voltage; beyond
+    it, it holds that voltage (a real calibrator or a circuit's supply). For a
+    resistive network with diodes the terminal voltage rises monotonically with
+    the current, so the samples whose terminal voltage at the nominal current
+    exceeds the compliance are exactly those solved at the compliance, with the
+    sign of that voltage. ``sol`` is patched in place at those samples.
+    """
+    v_t = sol["v_t"]
+    patch = []
+    for row, s in enumerate(stimuli):
+        comp = s.compliance_v
+        if comp is None:
+            continue
+        n = len(rows[row])
+        for k in np.nonzero(np.abs(v_t[row, :n]) > comp)[0]:
+            patch.append((row, k, math.copysign(comp, v_t[row, k])))
+    if patch:
+        _patch(engine, st, patch, "voltage", sol, temperature_k)
+
+
+def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k) -> None:
+    """Solve the samples ``patch`` ((row, sample, value)) with a source of ``kind`` and write them into ``sol``."""
+    plus, minus = st.position.input
+    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind=kind, temperature_k=temperature_k)
+    rr = np.array([p[0] for p in patch])
+    kk = np.array([p[1] for p in patch])
+    for e in stress_elements(engine):
+        es = op2.element(e.name)
+        sol["cur"][e.name] = np.array(sol["cur"][e.name])
+        sol["vol"][e.name] = np.array(sol["vol"][e.name])
+        sol["cur"][e.name][rr, kk] = es.current_a[0]
+        sol["vol"][e.name][rr, kk] = es.voltage_v[0]
+    sol["i_m"] = np.array(sol["i_m"])
+    sol["i_m"][rr, kk] = op2.movement_current_a[0]
+    sol["i_src"] = np.array(sol["i_src"])
+    sol["i_src"][rr, kk] = op2.source_current_a[0]
+    sol["v_t"] = np.array(sol["v_t"])
+    sol["v_t"][rr, kk] = (op2.node_voltage(plus) - op2.node_voltage(minus))[0]
+    sol["limited"][rr, kk] = True
 
 
 def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
@@ -210,21 +257,5 @@ def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
         n = len(rows[row])
         for k in np.nonzero(np.abs(i_src[row, :n]) > lim)[0]:
             patch.append((row, k, math.copysign(lim, i_src[row, k])))
-    if not patch:
-        return
-    plus, minus = st.position.input
-    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind="current", temperature_k=temperature_k)
-    rr = np.array([p[0] for p in patch])
-    kk = np.array([p[1] for p in patch])
-    for e in stress_elements(engine):
-        es = op2.element(e.name)
-        sol["cur"][e.name] = np.array(sol["cur"][e.name])
-        sol["vol"][e.name] = np.array(sol["vol"][e.name])
-        sol["cur"][e.name][rr, kk] = es.current_a[0]
-        sol["vol"][e.name][rr, kk] = es.voltage_v[0]
-    sol["i_m"] = np.array(sol["i_m"])
-    sol["i_m"][rr, kk] = op2.movement_current_a[0]
-    i_src[rr, kk] = op2.source_current_a[0]
-    sol["v_t"] = np.array(sol["v_t"])
-    sol["v_t"][rr, kk] = (op2.node_voltage(plus) - op2.node_voltage(minus))[0]
-    sol["limited"][rr, kk] = True
+    if patch:
+        _patch(engine, st, patch, "current", sol, temperature_k)

@@ -8,7 +8,7 @@ from ..layout import FRAME_WIDTH, Heading
 from ..text import SECTION_TITLES
 
 #: Severity order of the misrange verdicts (the worst case of a position is the highest).
-VERDICT_ORDER = {"ok": 0, "pegs": 1, "overstress": 2, "hazard": 3}
+VERDICT_ORDER = {"ok": 0, "pegs": 1, "opens": 2, "overstress": 3, "hazard": 4}
 #: Size of one chart of the position pages [pt]: two side by side across the frame.
 CHART_W = (FRAME_WIDTH - 12) / 2
 CHART_H = 158.0

@@ -86,7 +86,7 @@ def summary(ctx: Context) -> list:
                       "Yield", "Margin", "Accuracy", "Worst misrange"], rows,
                      [0.09, 0.09, 0.08, 0.14, 0.15, 0.07, 0.08, 0.14, 0.16], align="lrrrrrrcc",
                      extra=verdict_fill(fills)))
-    out.append(p("Verdict words are printed in every cell; the tints (light to dark: ok, pegs, overstress, "
+    out.append(p("Verdict words are printed in every cell; the tints (light to dark: ok, pegs, opens, overstress, "
                  "hazard) only repeat them.", "caption"))
     # findings
     out.append(p("Findings that need action", "h2"))
@@ -128,6 +128,8 @@ def summary(ctx: Context) -> list:
                         f"{esc(str(declared).replace('_', '-')) if declared else 'not declared'}).")
     for f in (ctx.sizing or {}).get("flags", []) or []:
         findings.append(esc(f"Sizing: {f}"))
+    for f in (ctx.check or {}).get("findings", []) or []:  # ratings at full scale (planner.findings)
+        findings.append(esc(f"Ratings at full scale ({f['severity']}): {f['message']}"))
     for key, text in sorted(ctx.errors.items()):
         findings.append(esc(f"The {key} analysis raised an error: {text}"))
     if not findings:
