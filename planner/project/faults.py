@@ -42,7 +42,6 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
         return model.Faults()
     m = ctx.mapping(node, "faults", FAULTS_KEYS, "{sources: [...], max_input: 600 V}")
     sources: list[model.FaultSource] = []
-    seen: dict[str, int] = {}
     keys: dict[str, tuple[str, int]] = {}
     sn = m.get("sources")
     if sn is not None:
@@ -54,13 +53,7 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
             s = ctx.mapping(item, where, SOURCE_KEYS, "{name: wall outlet, voltage: 230 V, waveform: sine}")
             name = s.text("name", example="wall outlet")
             where = f"fault source '{name}'"
-            if name in seen:
-                ctx.fail(
-                    f"duplicate fault source name '{name}' (first at line {seen[name]}); give each source its own name",
-                    s.line,
-                )
-            seen[name] = s.line
-            distinct_name(ctx, name, s.line, keys, "fault source")
+            distinct_name(ctx, name, s.line, keys, "fault source", each="source")
             if s.has("voltage") == s.has("current"):
                 ctx.fail(f"{where} needs exactly one of 'voltage: 230 V' or 'current: 10 A'", s.line)
             kind = "voltage" if s.has("voltage") else "current"

@@ -58,7 +58,6 @@ def read_network(ctx: Reader, node: Node | None, parts: model.Parts) -> model.Ne
 def _elements(ctx: Reader, m, el_items: list[Node], parts: model.Parts):
     """The elements, each read by its kind, and the (element, position node) references of contacts."""
     elements: list[model.Element] = []
-    names: dict[str, int] = {}
     keys: dict[str, tuple[str, int]] = {}
     closed_refs: list[tuple[str, Node]] = []
     movement_line: int | None = None
@@ -68,11 +67,6 @@ def _elements(ctx: Reader, m, el_items: list[Node], parts: model.Parts):
         )
         name = e.text("name", example="R1")
         where = f"network element '{name}'"
-        if name in names:
-            ctx.fail(
-                f"duplicate element name '{name}' (first at line {names[name]}); give each element its own name", e.line
-            )
-        names[name] = e.line
         distinct_name(ctx, name, e.line, keys, "element")
         e.where = where
         kind = e.choice("kind", tuple(ELEMENT_KEYS))
@@ -100,19 +94,12 @@ def _elements(ctx: Reader, m, el_items: list[Node], parts: model.Parts):
 
 
 def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str]):
-    """The switch positions and the line of each name."""
+    """The switch positions and their names, in order."""
     positions: list[model.Position] = []
-    pnames: dict[str, int] = {}
     keys: dict[str, tuple[str, int]] = {}
     for i, item in enumerate(pos_items, 1):
         p = ctx.mapping(item, f"network.positions[{i}]", POSITION_KEYS, pos_ex[1:-1])
         name = p.text("name", example="'2.5 V'")
-        if name in pnames:
-            ctx.fail(
-                f"duplicate position name '{name}' (first at line {pnames[name]}); give each position its own name",
-                p.line,
-            )
-        pnames[name] = p.line
         distinct_name(ctx, name, p.line, keys, "position")
         p.where = f"position '{name}'"
         measures = p.choice("measures", ("voltage", "current"))
@@ -127,4 +114,4 @@ def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str])
                     inp_node.line,
                 )
         positions.append(model.Position(name=name, measures=measures, full_scale=fs, input=inp, line=p.line))
-    return positions, pnames
+    return positions, [p.name for p in positions]

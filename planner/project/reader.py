@@ -264,20 +264,27 @@ def name_key(name: str) -> str:
     return " ".join(s.translate(_LOOK_ALIKE).split())
 
 
-def distinct_name(ctx: Reader, name: str, line: int, seen: dict[str, tuple[str, int]], what: str) -> None:
-    """Refuse a name that holds invisible formatting characters or looks like one before it.
+def distinct_name(ctx: Reader, name: str, line: int, seen: dict[str, tuple[str, int]], what: str,
+                  each: str | None = None) -> None:
+    """Refuse a name given twice, one that holds invisible formatting characters, or one that looks like one before it.
 
     Parameters
     ----------
     name : str
-        The name as written (already stripped, already checked against exact duplicates).
+        The name as written (already stripped).
     line : int
         Its line.
     seen : dict
         :func:`name_key` -> (name, line) of the names read so far; ``name`` is added.
     what : str
         ``position``, ``element``, ``fault source`` (for the message).
+    each : str, optional
+        What each is called in the remedy of a duplicate ("give each ... its own name"); ``what`` by default.
     """
+    for other, other_line in seen.values():
+        if other == name:
+            ctx.fail(f"duplicate {what} name '{name}' (first at line {other_line}); give each {each or what} its own "
+                     "name", line)
     hidden = [ch for ch in name if unicodedata.category(ch) == "Cf"]
     if hidden:
         ctx.fail(

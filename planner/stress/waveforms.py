@@ -208,17 +208,21 @@ def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
     exceeds the compliance are exactly those solved at the compliance, with the
     sign of that voltage. ``sol`` is patched in place at those samples.
     """
-    v_t = sol["v_t"]
-    patch = []
-    for row, s in enumerate(stimuli):
-        comp = s.compliance_v
-        if comp is None:
-            continue
-        n = len(rows[row])
-        for k in np.nonzero(np.abs(v_t[row, :n]) > comp)[0]:
-            patch.append((row, k, math.copysign(comp, v_t[row, k])))
+    patch = _beyond(sol["v_t"], [s.compliance_v for s in stimuli], rows)
     if patch:
         _patch(engine, st, patch, "voltage", sol, temperature_k)
+
+
+def _beyond(values: np.ndarray, limits: list, rows) -> list:
+    """(row, sample, signed limit) of every sample whose ``|values|`` exceeds its row's limit (None: no limit)."""
+    patch = []
+    for row, lim in enumerate(limits):
+        if lim is None:
+            continue
+        n = len(rows[row])
+        for k in np.nonzero(np.abs(values[row, :n]) > lim)[0]:
+            patch.append((row, k, math.copysign(lim, values[row, k])))
+    return patch
 
 
 def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k) -> None:
@@ -248,14 +252,6 @@ def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
     ``sol`` (the group's solved arrays: ``cur``, ``vol``, ``i_m``, ``i_src``,
     ``v_t``, ``limited``) is patched in place at those samples.
     """
-    i_src = sol["i_src"]
-    patch = []
-    for row, s in enumerate(stimuli):
-        lim = s.current_limit_a
-        if lim is None:
-            continue
-        n = len(rows[row])
-        for k in np.nonzero(np.abs(i_src[row, :n]) > lim)[0]:
-            patch.append((row, k, math.copysign(lim, i_src[row, k])))
+    patch = _beyond(sol["i_src"], [s.current_limit_a for s in stimuli], rows)
     if patch:
         _patch(engine, st, patch, "current", sol, temperature_k)

@@ -15,7 +15,6 @@ Outputs go to a temporary folder that is removed afterwards.
 
 from __future__ import annotations
 
-import resource
 import statistics
 import subprocess
 import sys
@@ -40,7 +39,8 @@ def command_lines(planner: list[str], project: Path, out: Path) -> dict[str, lis
     }
 
 
-def _run(cmd, cwd) -> float:
+def run_seconds(cmd, cwd) -> float:
+    """Wall time of ``cmd`` as a whole process [s]; exit codes 0 and 1 are answers, others fail."""
     t0 = time.perf_counter()
     proc = subprocess.run(cmd, cwd=cwd, capture_output=True, text=True)
     elapsed = time.perf_counter() - t0
@@ -68,7 +68,7 @@ def measure(planner: list[str], project: Path, cwd: Path, repeat: int = 3) -> di
         cmds = command_lines(planner, project, Path(tmp))
         for _ in range(repeat):
             for name, cmd in cmds.items():
-                seconds.setdefault(name, []).append(_run(cmd, cwd))
+                seconds.setdefault(name, []).append(run_seconds(cmd, cwd))
         peak = peak_memory_bytes(cmds["dossier"], cwd)
     medians = {name: float(statistics.median(ts)) for name, ts in seconds.items()}
     ratios = {name: medians[name] / medians["check"] for name in RATIO_TARGETS}

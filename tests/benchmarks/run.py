@@ -61,11 +61,9 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import os
 import platform
 import statistics
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -312,12 +310,7 @@ def timed(fn):
 
 
 def process_seconds(cmd) -> float:
-    t0 = time.perf_counter()
-    proc = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True)
-    elapsed = time.perf_counter() - t0
-    if proc.returncode not in (0, 1):
-        raise RuntimeError(f"{' '.join(cmd)} failed ({proc.returncode}): {proc.stderr[-2000:]}")
-    return elapsed
+    return commands.run_seconds(cmd, ROOT)
 
 
 def planner_exe():
