@@ -39,6 +39,7 @@ from .design import Design, as_design
 from .engine import Engine
 from .errors import SolveError, UsageError
 from .model import ZERO_CELSIUS_K, Spec
+from .ohms_check import check_resistance, ohms_lines
 from .parts import Parameter
 
 #: Points of the linearity tables, fractions of full scale.
@@ -366,6 +367,18 @@ def _check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors
     return out, ok
 
 
+def _check_ohms(run: CountingEngine, spec: Spec, pos, params_all, mc_factors, samples, rng_corners,
+                source_impedance_ohm, say) -> tuple[dict, np.ndarray]:
+    """A resistance position: zeroed over the battery's span, errors on the ohms scale (:mod:`planner.ohms_check`)."""
+    carrying = current_carrying(run.engine, pos.name)
+    params = [p for p in params_all if p.element is None or p.element in carrying]
+    return check_resistance(run, spec, pos, params, mc_factors, samples, rng_corners, temperature_points(spec), say)
+
+
+#: Checks of the range kinds that are not read on a linear scale, by ``measures``.
+POSITION_CHECKS = {"resistance": _check_ohms}
+
+
 def _parts(engine: Engine) -> list[dict]:
     """The ``parts[]`` rows of the check: every part that has one (:meth:`planner.parts.Part.part_row`)."""
     rows = (e.part_row(engine.spec) for e in engine.net.elements)
@@ -456,8 +469,8 @@ def check_project(design: Design | Spec, *, samples: int | None = None, seed: in
     positions, oks = [], []
     for i, pos in enumerate(engine.positions):
         rng_corners = np.random.default_rng([int(seed), i])
-        res, ok = _check_position(run, spec, pos, params, mc_factors, int(samples), rng_corners,
-                                  source_impedance_ohm, say)
+        check = POSITION_CHECKS.get(pos.measures, _check_position)
+        res, ok = check(run, spec, pos, params, mc_factors, int(samples), rng_corners, source_impedance_ohm, say)
         positions.append(res)
         oks.append(ok)
     amb = spec.ambient
@@ -532,6 +545,9 @@ def format_check(result: dict) -> str:
         if p["measures"] == "voltage":
             inp = (f"{format_si(p['input_resistance_ohm'], 'ohm')} "
                    f"({format_si(p['ohms_per_volt'], 'ohm/V')})")
+        elif p["measures"] == "resistance":
+            inp = (f"centre {format_si(p['center_ohm'], 'ohm')}, open {format_si(p['open_circuit_voltage_v'], 'V')}, "
+                   f"short {format_si(p['short_circuit_current_a'], 'A')}")
         else:
             inp = (f"burden {format_si(p['burden_voltage_v'], 'V')} "
                    f"({format_si(p['input_resistance_ohm'], 'ohm')})")
@@ -553,6 +569,8 @@ def format_check(result: dict) -> str:
         lines += ["", f"linearity error, % of full scale, {title} (columns: % of full scale)",
                   f"{'position':<12}{cols}"]
         for p in result["positions"]:
+            if key not in p or p["measures"] == "resistance":
+                continue
             row = "".join(f"{r['error_pct']:>+8.3f}" for r in p[key])
             extra = f"  ({p['hot_temperature_k'] - ZERO_CELSIUS_K:.1f} degC)" if key == "linearity_hot" else ""
             lines.append(f"{p['name']:<12}{row}{extra}")
@@ -563,6 +581,7 @@ def format_check(result: dict) -> str:
         w = p["monte_carlo"]["worst_linearity_error_pct"]
         lines.append(f"{p['name']:<12}{s['mean']:+.3f} +/- {s['std']:.3f}  [{s['p1']:+.3f}, {s['p99']:+.3f}]   "
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
+    lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:

@@ -137,7 +137,7 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     """
     f = spec.faults
     out = project_sources(spec)
-    lower, higher = same_kind_neighbours(net, position)
+    lower, higher = same_kind_neighbours(net, position) if position.kind.range_steps else (None, None)
     unit = position.unit
     if higher:
         out.append(Stimulus("range up", position.kind.source, higher[0],
@@ -162,7 +162,8 @@ def column_of(s: Stimulus) -> dict:
 
 def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
     """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
-    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left")]
+    out = [Stimulus("full scale", p.kind.source, p.kind.full_scale_drive(p),
+                    detail="full scale of the position being left")]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
     return out

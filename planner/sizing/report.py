@@ -155,7 +155,7 @@ def format_sizing_table(sizing: Sizing) -> str:
                 p.name,
                 fmt(p.input_resistance_ohm, "ohm"),
                 "" if p.burden_voltage_v is None else fmt(p.burden_voltage_v, "V"),
-                f"{p.nominal_error_pct:+.4f}",
+                "(check)" if p.nominal_error_pct is None else f"{p.nominal_error_pct:+.4f}",
             )
         )
     out += _columns(prow)
