@@ -72,11 +72,12 @@ def _load(args):
     return load(args.project)
 
 
-def _design(spec):
+def _design(spec, position=None):
     """The command's one Design (sized where the file asks, its graph checked)."""
     from .design import build
+    from .ohms import zeroed_design
 
-    return build(spec)
+    return zeroed_design(build(spec), position)  # zero adjusters set at the nominal battery (docs/ohms.md)
 
 
 def _quantity(text: str, dimension: str, option: str) -> float:
@@ -194,16 +195,42 @@ def cmd_apply(args) -> int:
     volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
     amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
     r_src = 0.0 if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
+    ohms = None if args.ohms is None else _quantity(args.ohms, "resistance", "--ohms")
+    if ohms is not None:  # a resistor across the input: 0 V behind R_x, the battery inside drives it
+        from .errors import UsageError
+
+        if args.source_impedance is not None or ohms < 0:
+            raise UsageError("--ohms takes a resistance of 0 ohm or more and no --source-impedance (the resistor is "
+                             "the whole external circuit)")
+        volts, r_src = 0.0, ohms
     temp = None
     if args.temperature is not None:
         try:
             temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC
         except ValueError:
             temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = apply_stimulus(_design(spec), args.position, volts=volts, amps=amps, r_source_ohm=r_src,
+    design = _design(spec, args.position)
+    result = apply_stimulus(design, args.position, volts=volts, amps=amps, r_source_ohm=r_src,
                             temperature_k=temp, waveform=args.waveform)
-    _emit(args, result, format_apply(result))
+    if ohms is not None:
+        from .engine import Engine
+        from .ohms import apply_reading
+
+        result["ohms"] = apply_reading(Engine(design), args.position, ohms, temperature_k=temp)
+    text = format_apply(result)
+    if "ohms" in result:
+        o = result["ohms"]
+        text += "" if text.endswith("\n") else "\n"
+        text += (f"reads {_ohm_text(o['reading_ohm'])} for {_ohm_text(o['applied_ohm'])} (deflection "
+                 f"{o['deflection']:.4f}, centre {_ohm_text(o['center_ohm'])}, battery {o['battery_v']:g} V, zeroed)\n")
+    _emit(args, result, text)
     return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
+
+
+def _ohm_text(x: float) -> str:
+    from .units import format_si
+
+    return "infinity" if x == float("inf") else format_si(x, "ohm", 4)
 
 
 def cmd_dossier(args) -> int:
@@ -350,6 +377,7 @@ def build_parser() -> argparse.ArgumentParser:
     g = sp.add_mutually_exclusive_group(required=True)
     g.add_argument("--volts", metavar="V", help="applied voltage (dc value or sine rms), e.g. 230 or '230 V'")
     g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="a resistor across the input of a resistance position, e.g. '4.7 kohm'")
     sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
     sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
     sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")

@@ -266,19 +266,21 @@ class Scale:
         return np.where(np.isinf(y), np.inf, np.maximum(r, 0.0))
 
 
-def zeroed_design(design):
+def zeroed_design(design, position: str | None = None):
     """The design with each rheostat set to its nominal zero (the setting every other analysis uses).
 
-    Each rheostat is zeroed at the nominal battery on the first resistance
-    position that puts it in circuit; a rheostat that no resistance position
-    uses keeps its setting.
+    Each rheostat is zeroed at the nominal battery on ``position`` when that is a
+    resistance position using it, else on the first resistance position that
+    puts it in circuit; a rheostat that no resistance position uses, or whose
+    setting the file gives, keeps its setting.
     """
     net = design.net
     if not any(getattr(e, "kind", "") == "rheostat" for e in net.elements):
         return design
     engine = Engine(design)
     chosen = {}
-    for pos in net.positions:
+    first = [p for p in net.positions if p.name == position]
+    for pos in first + [p for p in net.positions if p.name != position]:
         if pos.measures != "resistance":
             continue
         op = parts_of(engine, pos.name)
