@@ -1,0 +1,187 @@
+"""Ohms ranges (planner.ohms): the series ohmmeter through the solver, zeroing, and ngspice.
+
+Sources: T. R. Kuphaldt, *Lessons in Electric Circuits*, Vol. I, ch. 8, "Ohmmeter
+design" (series ohmmeter, half-scale deflection at the internal resistance); US Army
+correspondence course SS0602 (same relation); the closed form of the centre after
+re-zeroing a shunt-adjusted multi-range ohmmeter is derived in docs/ohms.md and checked
+here against an independent nodal solve written with numpy.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from planner import ohms
+from planner.design import build
+from planner.engine import Engine
+from planner.project import loads
+
+I_FS, R_M = 50e-6, 2000.0
+
+SERIES_OHMMETER = """
+title: series ohmmeter
+movement: {full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 2.5}
+network:
+  elements:
+    - {name: M1, kind: movement, between: [m, com]}
+    - {name: R1, kind: resistor, between: [bp, m], value: 27999 ohm}
+    - {name: B1, kind: battery, between: [bp, plus], voltage: 1.5 V, internal_resistance: 1 ohm}
+  positions:
+    - {name: Rx1k, measures: resistance, center: 30 kohm, input: [plus, com]}
+"""
+
+# shunt zero adjust, two ranges: swamp RW, adjuster RF + RV across the coil, series RS1/RS2,
+# range shunt RH1 on the low range (values invented for the test)
+E_NOM, E_MIN, E_MAX, R_B = 1.5, 1.1, 1.6, 0.5
+R_W, R_F, RV_MAX = 8000.0, 500.0, 20000.0
+R_S1, R_H1, R_S2 = 300.0, 2000.0, 10000.0
+SHUNT_ADJUST = f"""
+title: shunt adjusted ohmmeter
+movement: {{full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 2.5}}
+network:
+  elements:
+    - {{name: M1, kind: movement, between: [m, com]}}
+    - {{name: RW, kind: resistor, between: [ox, m], value: {R_W} ohm}}
+    - {{name: SA, kind: contact, between: [m, a1], closed_in: [x1, x10]}}
+    - {{name: RF, kind: resistor, between: [a1, a2], value: {R_F} ohm}}
+    - {{name: RV, kind: rheostat, between: [a2, com], max: {RV_MAX} ohm}}
+    - {{name: B1, kind: battery, between: [bp, plus], voltage: {E_NOM} V, min: {E_MIN} V, max: {E_MAX} V,
+        internal_resistance: {R_B} ohm}}
+    - {{name: RS1, kind: resistor, between: [bp, o1], value: {R_S1} ohm}}
+    - {{name: S1, kind: contact, between: [o1, ox], closed_in: [x1]}}
+    - {{name: RH1, kind: resistor, between: [h1, com], value: {R_H1} ohm}}
+    - {{name: S2, kind: contact, between: [h1, ox], closed_in: [x1]}}
+    - {{name: RS2, kind: resistor, between: [bp, o2], value: {R_S2} ohm}}
+    - {{name: S3, kind: contact, between: [o2, ox], closed_in: [x10]}}
+  positions:
+    - {{name: x1, measures: resistance, center: 2 kohm, input: [plus, com]}}
+    - {{name: x10, measures: resistance, center: 20 kohm, input: [plus, com]}}
+"""
+
+
+def _engine(text):
+    return Engine(build(loads(text)))
+
+
+def test_half_deflection_at_the_internal_resistance():
+    """D = R_int / (R_int + R_x) for an ideal battery, half scale at R_x = R_int (Lessons in Electric
+    Circuits, "Ohmmeter design"; US Army SS0602)."""
+    eng = _engine(SERIES_OHMMETER)
+    op = ohms.parts_of(eng, "Rx1k")
+    r_int = 1.0 + 27999.0 + R_M  # the internal resistance is part of R_int
+    r_x = np.array([0.0, 1.0, 300.0, r_int, 3 * r_int, 1e6])
+    d = ohms.deflection(eng, op, r_x, 1.5)
+    # tolerance: the brief's 1e-9; the solve's round-off is ~1e-15 of these currents
+    np.testing.assert_allclose(d, r_int / (r_int + r_x) * (1.5 / (I_FS * r_int)), rtol=1e-9)
+    scale = ohms.Scale(eng, op)
+    np.testing.assert_allclose(scale.center_ohm, r_int, rtol=1e-9)  # centre = R_int (same sources)
+    assert abs(ohms.deflection(eng, op, [r_int], 1.5)[0] * I_FS * r_int / 1.5 - 0.5) < 1e-9
+
+
+def centre_after_zeroing(e_bat, r_s, r_h):
+    """Closed form of docs/ohms.md: the adjuster's parallel value p = R_m || R_a at the zero and the centre.
+
+    p = I_fs R_m (A (R_h + R_W) + R_h R_W) / (E R_h - I_fs R_m (A + R_h)), A = r_b + R_s;
+    R_c = A + R_h (R_W + p) / (R_h + R_W + p). Without a range shunt (R_h -> inf):
+    p = I_fs R_m (A + R_W) / (E - I_fs R_m), R_c = A + R_W + p.
+    """
+    a = R_B + r_s
+    if r_h is None:
+        p = I_FS * R_M * (a + R_W) / (e_bat - I_FS * R_M)
+        return p, a + R_W + p
+    p = I_FS * R_M * (a * (r_h + R_W) + r_h * R_W) / (e_bat * r_h - I_FS * R_M * (a + r_h))
+    rb = R_W + p
+    return p, a + r_h * rb / (r_h + rb)
+
+
+def nodal_deflection(e_bat, r_s, r_h, r_a, r_x):
+    """Independent nodal solve (numpy) of the shunt-adjusted network: movement current / I_fs.
+
+    Nodes: bp (battery plus), ox, m, terminal plus; com is ground. The battery is its EMF in
+    series with r_b from bp to plus (Norton form), R_x from com to plus.
+    """
+    nodes = {"bp": 0, "ox": 1, "m": 2, "plus": 3}
+    g = np.zeros((4, 4))
+    i = np.zeros(4)
+
+    def stamp(a, b, r):
+        ga = 1.0 / r
+        for x in (a, b):
+            if x is not None:
+                g[nodes[x], nodes[x]] += ga
+        if a is not None and b is not None:
+            g[nodes[a], nodes[b]] -= ga
+            g[nodes[b], nodes[a]] -= ga
+
+    stamp("bp", "plus", R_B)
+    i[nodes["bp"]] += e_bat / R_B  # the EMF as a Norton source: E / r_b into bp, out of plus
+    i[nodes["plus"]] -= e_bat / R_B
+    stamp("bp", "ox", r_s)
+    if r_h is not None:
+        stamp("ox", None, r_h)
+    stamp("ox", "m", R_W)
+    stamp("m", None, R_M)
+    stamp("m", None, r_a)
+    stamp("plus", None, r_x)
+    v = np.linalg.solve(g, i)
+    return v[nodes["m"]] / R_M / I_FS
+
+
+@pytest.mark.parametrize("position, r_s, r_h", [("x1", R_S1, R_H1), ("x10", R_S2, None)])
+def test_centre_after_re_zeroing_at_end_of_life(position, r_s, r_h):
+    """Shunt zero adjust: the centre after re-zeroing at the end-of-life battery, three ways: the closed
+    form (docs/ohms.md), an independent numpy nodal solve, and planner.ohms through the solver."""
+    p, rc = centre_after_zeroing(E_MIN, r_s, r_h)
+    r_a = R_M * p / (R_M - p)
+    # the independent solve: full deflection at R_x = 0 (tiny) and half at the closed-form centre
+    # tolerance: round-off of a 4-node solve, far below 1e-9
+    np.testing.assert_allclose(nodal_deflection(E_MIN, r_s, r_h, r_a, 1e-12), 1.0, rtol=1e-9)
+    np.testing.assert_allclose(nodal_deflection(E_MIN, r_s, r_h, r_a, rc), 0.5, rtol=1e-9)
+    eng = _engine(SHUNT_ADJUST)
+    op = ohms.parts_of(eng, position)
+    z = ohms.zero(eng, op, [E_MIN])
+    assert z.zeroed[0]
+    # the setting the planner found is the closed form's R_a less the fixed part
+    # tolerance: the zeroing is a Moebius fit polished to |D - 1| < 1e-13 (linear network)
+    np.testing.assert_allclose(z.setting[0] + R_F, r_a, rtol=1e-9)
+    d = ohms.deflection(eng, op, [rc], [E_MIN], z.setting)
+    np.testing.assert_allclose(d, 0.5, rtol=1e-9)
+
+
+def test_zero_span_brackets_the_battery_and_the_reading_is_exact_at_nominal():
+    """The adjuster's travel zeroes the meter from below E_min to above E_max on both ranges, and at the
+    nominal battery the nominal scale reads every R_x back (closed form D = R_c / (R_c + R_x): Lessons in
+    Electric Circuits, "Ohmmeter design")."""
+    eng = _engine(SHUNT_ADJUST)
+    for name in ("x1", "x10"):
+        op = ohms.parts_of(eng, name)
+        lo, hi = ohms.zero_span(eng, op)
+        assert lo < E_MIN and hi > E_MAX
+        res = ohms.apply_reading(eng, name, 3333.0)
+        # tolerance: interpolation of 1/D - 1, which is linear in R_x here (round-off only)
+        np.testing.assert_allclose(res["reading_ohm"], 3333.0, rtol=1e-9)
+
+
+@pytest.mark.usefixtures("ngspice")
+def test_shunt_adjusted_ohmmeter_against_ngspice():
+    """The network with battery, adjuster and range shunt against ngspice at several R_x (independent
+    simulator; the same element equations)."""
+    import spice
+
+    eng = _engine(SHUNT_ADJUST)
+    op = ohms.parts_of(eng, "x1")
+    z = ohms.zero(eng, op, [E_NOM])
+    s = float(z.setting[0])
+    r_x = [1.0, 100.0, 1000.0, 10000.0, 1e6]
+    d = ohms.deflection(eng, op, r_x, E_NOM, s)
+    for rx, dd in zip(r_x, d):
+        deck = "\n".join([
+            "shunt adjusted ohmmeter, range x1",
+            f"VB bp bpi DC {E_NOM!r}", f"RB bpi plus {R_B!r}", f"RS1 bp ox {R_S1!r}", f"RH1 ox 0 {R_H1!r}",
+            f"RW ox m {R_W!r}", "VMOVE m mi DC 0", f"RM mi 0 {R_M!r}", f"RF m a2 {R_F!r}", f"RV a2 0 {s!r}",
+            f"RX 0 plus {rx!r}", ".control", "set wr_singlescale", "set numdgt=17", "op",
+            f"wrdata {spice.OUT_FILE} i(vmove)", ".endc", ".end", ""])
+        i_m = spice._run_raw(deck)[0, -1]
+        # tolerance: the oracle tests' 1e-6 of the movement current (tests/test_spice.py)
+        np.testing.assert_allclose(i_m / I_FS, dd, rtol=1e-6)
