@@ -185,3 +185,27 @@ def test_shunt_adjusted_ohmmeter_against_ngspice():
         i_m = spice._run_raw(deck)[0, -1]
         # tolerance: the oracle tests' 1e-6 of the movement current (tests/test_spice.py)
         np.testing.assert_allclose(i_m / I_FS, dd, rtol=1e-6)
+
+
+def test_example_project_ohms_ranges():
+    """projects/pocket_ohmmeter.yaml: the sizer makes each centre the asked one (to the E96 choice, within
+    0.25 % x 4 parts) and the adjuster zeroes over each battery's span (design contract, "Resistance
+    (ohms) ranges"); the contract's JSON fields are present."""
+    from pathlib import Path
+
+    from planner.accuracy import check_project
+    from planner.project import load
+
+    path = Path(__file__).resolve().parent.parent / "projects" / "pocket_ohmmeter.yaml"
+    res = check_project(build(load(path)), samples=200)
+    ohm = [p for p in res["positions"] if p["measures"] == "resistance"]
+    assert [p["name"] for p in ohm] == ["R 20 ohm", "R 200 ohm", "R 2 kohm", "R 20 kohm"]
+    for p in ohm:
+        assert abs(p["center_ohm"] - p["center_target_ohm"]) <= 0.01 * p["center_target_ohm"]
+        lo, hi = p["zero_adjust_span_v"]
+        assert lo < p["battery_span_v"][0] and hi > p["battery_span_v"][1]
+        for key in ("center_error_pct", "open_circuit_voltage_v", "short_circuit_current_a", "yield_fraction"):
+            assert key in p
+        # the short-circuit current of a zeroed series ohmmeter is E_max / R_c (Ohm's law)
+        e_max = p["battery_span_v"][1]
+        np.testing.assert_allclose(p["short_circuit_current_a"], e_max / p["center_ohm"], rtol=0.05)
