@@ -37,6 +37,7 @@ import yaml
 from planner import model, units
 from planner.errors import ProjectError
 from planner.units import QuantityError, format_si
+from planner.project_ohms import BATTERY_KEYS, element as _ohms_element, resistance as _resistance
 
 __all__ = [
     "load", "loads", "MAX_FILE_BYTES", "MAX_NODES", "MAX_DEPTH", "MAX_POSITIONS", "MAX_ELEMENTS", "MAX_SOURCES",
@@ -118,8 +119,6 @@ DIODE_KEYS = (
 FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "clearing_i2t", "curve", "max_voltage")
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
-RESISTANCE_KEYS = ("centers", "battery", "high_battery", "zero_adjust")
-BATTERY_KEYS = ("voltage", "min", "max", "internal_resistance")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
@@ -632,7 +631,7 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
     parts = _parts(ctx, top.get("parts"))
     voltage = _voltage(ctx, top.get("voltage"), top.node.key_lines.get("voltage"))
     current = _current(ctx, top.get("current"), movement, top.node.key_lines.get("current"), parts)
-    resistance = _resistance(ctx, top.get("resistance"), top.node.key_lines.get("resistance"))
+    resistance = _resistance(ctx, top.get("resistance"), top.node.key_lines.get("resistance"), _ascending)
     clamps = _clamps(ctx, top.get("clamps"), parts)
     network = _network(ctx, top.get("network"), parts)
     faults = _faults(ctx, top.get("faults"))
@@ -1057,39 +1056,6 @@ def _current(
     )
 
 
-def _battery_values(ctx: _Ctx, m: "_Map", where: str) -> tuple[float, float, float, float]:
-    """Nominal, min and max EMF [V] and internal resistance [ohm] of a battery, checked min <= nominal <= max."""
-    v = m.qty("voltage", "voltage", check="pos", example="1.5 V")
-    lo = m.qty("min", "voltage", v, check="pos")
-    hi = m.qty("max", "voltage", v, check="pos")
-    r = m.qty("internal_resistance", "resistance", check="pos", example="0.5 ohm")
-    if not lo <= v <= hi:
-        ctx.fail(f"{where}: min {format_si(lo, 'V')}, voltage {format_si(v, 'V')} and max {format_si(hi, 'V')} must "
-                 "satisfy min <= voltage <= max; give the end-of-life, nominal and fresh voltage", m.line)
-    return v, lo, hi, r
-
-
-def _resistance(ctx: _Ctx, node: _Node | None, key_line: int | None) -> model.ResistanceRanges | None:
-    if node is None:
-        return None
-    ex = "[10 ohm, 100 ohm, 1 kohm]"
-    bex = "{voltage: 1.5 V, min: 1.1 V, max: 1.6 V, internal_resistance: 0.5 ohm}"
-    m = ctx.mapping(node, "resistance", RESISTANCE_KEYS, f"{{centers: {ex}, battery: {bex}}}")
-    centers, _ = _ascending(ctx, m.req("centers", ex), "resistance", "resistance.centers", ex)
-    bats = []
-    for key in ("battery", "high_battery"):
-        b = m.sub(key, BATTERY_KEYS, bex)
-        if b is None:
-            if key == "battery":
-                ctx.fail(f"resistance needs a battery, e.g. battery: {bex}", m.line)
-            bats.append(None)
-            continue
-        v, lo, hi, r = _battery_values(ctx, b, f"resistance.{key}")
-        bats.append(model.BatteryRequest(v, lo, hi, r, b.line))
-    adj = m.choice("zero_adjust", ("shunt", "series"), "shunt")
-    return model.ResistanceRanges(tuple(centers), bats[0], bats[1], adj, key_line or m.line)
-
-
 def _model_ref(ctx: _Ctx, node: _Node, models, kind: str, where: str, example: str) -> str:
     """A reference to a part model by name (``kind`` is ``diode`` or ``fuse``)."""
     name = ctx.text(node, where, example)
@@ -1359,24 +1325,8 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
                 closed_refs.append((name, pn))
             r = e.qty("resistance", "resistance", 0.0, check="nonneg")
             elements.append(model.Contact(name=name, a=a, b=b, closed_in=tuple(refs), r_ohm=r, line=e.line))
-        elif kind == "battery":
-            a, b = _pair(ctx, e.req("between", "[b_plus, b_minus]"), e.at("between"), "[b_plus, b_minus]")
-            v, lo, hi, r = _battery_values(ctx, e, where)
-            elements.append(model.Battery(name=name, a=a, b=b, voltage_v=v, v_min_v=lo, v_max_v=hi, r_int_ohm=r,
-                                          max_current_a=e.qty("max_current", "current", 0.1, check="pos"),
-                                          line=e.line))
-        elif kind == "rheostat":
-            a, b = _pair(ctx, e.req("between", "[m_plus, adj]"), e.at("between"), "[m_plus, adj]")
-            rmax = e.qty("max", "resistance", check="pos", example="5 kohm")
-            setting = e.qty("setting", "resistance", None, check="nonneg")
-            if setting is not None and setting > rmax:
-                ctx.fail(f"{where}: setting {format_si(setting, 'ohm')} is beyond its max {format_si(rmax, 'ohm')}; "
-                         "give a setting from 0 to max", e.line)
-            tc = e.qty("tempco", "tempco", 100e-6)
-            _tempco_bound(ctx, tc, e, "tempco")
-            elements.append(model.Rheostat(name=name, a=a, b=b, max_ohm=rmax, setting_ohm=setting, tempco_per_k=tc,
-                                           power_w=e.qty("power", "power", 0.25, check="pos"),
-                                           series=e.text("series", None, "E3"), line=e.line))
+        elif kind in ("battery", "rheostat"):
+            elements.append(_ohms_element(ctx, e, kind, name, where, _pair, _tempco_bound))
         else:  # fuse
             a, b = _pair(ctx, e.req("between", "[vin, f1]"), e.at("between"), "[vin, f1]")
             mdl = _fuse_ref(ctx, e.req("model", "f_100ma"), parts, e.at("model"))
