@@ -24,6 +24,7 @@ import numpy as np
 from . import network as nw
 from .engine import Engine
 from .errors import ProjectError
+from .stimulus import Stimulus
 
 #: Points of the nominal scale per decade of R_x / R_c (the scale is exact between
 #: its points for a linear network: 1/D - 1 is then proportional to R_x).
@@ -318,3 +319,25 @@ def apply_reading(engine: Engine, position: str, r_x: float, temperature_k=None)
     if r_x > 0 and np.isfinite(rd):
         out["reading_error_pct"] = 100.0 * (rd - r_x) / r_x
     return out
+
+
+#: The misrange of a resistance position on a changed network: its battery put in backwards,
+#: the input shorted (R_x = 0, where the reverse current is largest).
+REVERSED_BATTERY = Stimulus("battery reversed", "voltage", 0.0,
+                            detail="the ohms battery inserted backwards, probes shorted (R_x = 0)")
+
+
+def reversed_battery(engine: Engine, position) -> list:
+    """(stimulus, engine) pairs of the reversed-battery case of a resistance position (none for others).
+
+    The engine is on a variant of the design whose battery in this position's
+    loop has its terminals swapped; the stimulus shorts the input. The rheostat
+    keeps the setting of the design (the nominal zero).
+    """
+    if position.measures != "resistance":
+        return []
+    bat = parts_of(engine, position.name).battery
+    net = engine.net
+    swapped = dataclasses.replace(bat, a=bat.b, b=bat.a)
+    elements = tuple(swapped if e.name == bat.name else e for e in net.elements)
+    return [(REVERSED_BATTERY, Engine(engine.design.variant(dataclasses.replace(net, elements=elements))))]

@@ -209,3 +209,41 @@ def test_example_project_ohms_ranges():
         # the short-circuit current of a zeroed series ohmmeter is E_max / R_c (Ohm's law)
         e_max = p["battery_span_v"][1]
         np.testing.assert_allclose(p["short_circuit_current_a"], e_max / p["center_ohm"], rtol=0.05)
+
+
+def test_battery_left_in_a_loop_drives_current_on_another_position():
+    """A battery the switch leaves in a loop that does not pass the input still drives its loop:
+    I = E / (r_b + R) by Ohm's law, though the loop hangs on the measured circuit by one node."""
+    text = """
+title: battery loop
+movement: {full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 2.5}
+network:
+  elements:
+    - {name: M1, kind: movement, between: [m, com]}
+    - {name: R1, kind: resistor, between: [vin, m], value: 48 kohm}
+    - {name: S1, kind: contact, between: [vin, plus], closed_in: [2.5 V]}
+    - {name: B1, kind: battery, between: [bp, com], voltage: 1.5 V, internal_resistance: 0.5 ohm}
+    - {name: R2, kind: resistor, between: [bp, x], value: 1 kohm}
+    - {name: S2, kind: contact, between: [x, com], closed_in: [2.5 V]}
+  positions:
+    - {name: 2.5 V, measures: voltage, full_scale: 2.5 V, input: [plus, com]}
+"""
+    eng = _engine(text)
+    op = eng.operate("2.5 V", [2.5])
+    # tolerance: round-off of a linear solve
+    np.testing.assert_allclose(op.element("R2").current_a[0, 0], 1.5 / 1000.5, rtol=1e-12)
+    np.testing.assert_allclose(op.movement_multiple[0, 0], 2.5 / 50e3 / I_FS, rtol=1e-12)  # unchanged reading
+
+
+def test_reversed_battery_drives_the_pointer_below_zero():
+    """The battery put in backwards with the probes shorted: in a linear network reversing the only
+    EMF reverses every current (superposition), so the zeroed meter is driven to -1 x I_fs; the
+    faults matrix judges it on the zero-end stop (pegs)."""
+    from planner.faults import faults_project
+
+    design = ohms.zeroed_design(build(loads(SHUNT_ADJUST)), "x1")
+    res = faults_project(design, position="x1")
+    case = next(c for c in res["cases"] if c["stimulus"] == "battery reversed")
+    # tolerance: the zeroing's |D - 1| < 1e-13 and round-off
+    np.testing.assert_allclose(case["movement_mean_multiple"], -1.0, rtol=1e-9)
+    assert case["verdict"] == "pegs"

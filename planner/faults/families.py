@@ -33,7 +33,8 @@ _CATS = ("II", "III", "IV")
 
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
-BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range")
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range", "mains on ohms range",
+                  "battery reversed")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
