@@ -31,7 +31,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rec
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from ..model import Contact, Diode, Fuse, MovementElement, Resistor
+from ..model import Battery, Contact, Diode, Fuse, MovementElement, Resistor, Rheostat
 from .layout import ACCENT, INK, MUTED, PALE
 from .text import value_text
 
@@ -41,7 +41,7 @@ ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
 THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
-_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
+_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4, "battery": 1, "rheostat": 1}
 WHITE = colors.white
 
 
@@ -223,6 +223,10 @@ def _label_lines(spec, e) -> list[str]:
         return [e.name, value_text(f.rated_current_a, "A") if f else e.model]
     if isinstance(e, Contact):
         return [e.name] + (_wrap_list(e.closed_in) or ["never closed"])
+    if isinstance(e, Battery):
+        return [e.name, value_text(e.voltage_v, "V")]
+    if isinstance(e, Rheostat):
+        return [e.name, value_text(e.max_ohm, "ohm") + " adj"]
     return [e.name]
 
 
@@ -246,6 +250,15 @@ def _movement(g, x, y, plus_up: bool):
     g.add(Polygon([x + 6.5, y + 6.5, x + 1.8, y + 5.0, x + 5.0, y + 1.8], fillColor=ACCENT, strokeColor=None))
     sy = y + 13 if plus_up else y - 16
     g.add(String(x - 7.5, sy, "+", fontName="Helvetica-Bold", fontSize=7, fillColor=INK))
+
+
+def _battery(g, x, y, plus_up: bool):
+    """A cell: the long plate is plus."""
+    s = 1 if plus_up else -1
+    g.add(Rect(x - 9, y - 4, 18, 8, fillColor=WHITE, strokeColor=None))
+    g.add(Line(x - 9, y + 2.5 * s, x + 9, y + 2.5 * s, strokeColor=INK, strokeWidth=1.1))
+    g.add(Line(x - 5, y - 2.5 * s, x + 5, y - 2.5 * s, strokeColor=INK, strokeWidth=2.0))
+    g.add(String(x + 11, y + 2 * s - 2, "+", fontName="Helvetica-Bold", fontSize=7, fillColor=INK))
 
 
 def _diode(g, x, y, up: bool):
@@ -297,6 +310,10 @@ def _symbol(g, spec, e, x, y, lo_node, hi_node):
         _diode(g, x, y, up=(e.cathode == hi_node))
     elif isinstance(e, Contact):
         _contact(g, x, y, True)
+    elif isinstance(e, Rheostat):
+        _resistor(g, x, y, True, True)
+    elif isinstance(e, Battery):
+        _battery(g, x, y, plus_up=(e.a == hi_node))
 
 
 def _labels(g, lines, x, y, anchor="start"):
