@@ -310,7 +310,12 @@ def cmd_scale(args) -> int:
     from .fsio import write_all
     from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
 
-    result = scale_project(_design(spec))
+    from .engine import Engine
+    from .ohms import scale_definitions
+
+    design = _design(spec)
+    engine = Engine(design)
+    result = scale_project(design, engine=engine, defs=scale_definitions(engine))
     title = f"{spec.title} \u2013 scale plate"
     items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
     if args.svg:

@@ -308,12 +308,14 @@ def apply_reading(engine: Engine, position: str, r_x: float, temperature_k=None)
         and ``scale_error_pct`` (% of scale length).
     """
     op = parts_of(engine, position)
-    scale = Scale(engine, op)
+    own = Scale(engine, op)
+    scale = MarkedScale(engine, op.position, own)
     v = op.battery.emf("nominal")
     z = zero(engine, op, [v], temperature_k=temperature_k)
     d = float(deflection(engine, op, [r_x], [v], z.setting, temperature_k=temperature_k)[0])
     rd = float(scale.reading(d))
-    out = {"applied_ohm": float(r_x), "deflection": d, "reading_ohm": rd, "center_ohm": scale.center_ohm,
+    out = {"applied_ohm": float(r_x), "deflection": d, "reading_ohm": rd, "center_ohm": own.center_ohm,
+           "scale": scale.reference, "scale_factor": scale.factor,
            "battery_v": float(v), "zero_setting_ohm": float(z.setting[0]),
            "scale_error_pct": 100.0 * (d - float(scale.deflection(r_x)))}
     if r_x > 0 and np.isfinite(rd):
@@ -341,3 +343,74 @@ def reversed_battery(engine: Engine, position) -> list:
     swapped = dataclasses.replace(bat, a=bat.b, b=bat.a)
     elements = tuple(swapped if e.name == bat.name else e for e in net.elements)
     return [(REVERSED_BATTERY, Engine(engine.design.variant(dataclasses.replace(net, elements=elements))))]
+
+
+def scale_groups(positions) -> list[list]:
+    """Resistance positions grouped by the arc they are read on: centres a power of ten apart share one."""
+    groups: list[list] = []
+    for pos in positions:
+        if pos.measures != "resistance":
+            continue
+        c = float(pos.center or pos.full_scale)
+        for g in groups:
+            ratio = np.log10(c / float(g[0].center or g[0].full_scale))
+            if abs(ratio - round(ratio)) < 1e-9:
+                g.append(pos)
+                break
+        else:
+            groups.append([pos])
+    return groups
+
+
+class MarkedScale:
+    """The arc a resistance position is read on: its group's first position's nominal scale, its numbers
+    times the ratio of the centres (a position alone on its arc reads its own nominal scale).
+
+    Attributes
+    ----------
+    reference : str
+        The position whose nominal scale is drawn.
+    factor : float
+        Ratio of this position's asked centre to the reference's.
+    """
+
+    def __init__(self, engine: Engine, position, own: "Scale | None" = None):
+        group = next(g for g in scale_groups(engine.positions) if any(p.name == position.name for p in g))
+        ref = group[0]
+        self.reference = ref.name
+        self.factor = float(position.center or position.full_scale) / float(ref.center or ref.full_scale)
+        self.scale = own if (own is not None and ref.name == position.name) else Scale(engine, parts_of(engine, ref.name))
+
+    def deflection(self, r_x) -> np.ndarray:
+        """D the arc marks for R_x [fraction]."""
+        return self.scale.deflection(np.asarray(r_x, dtype=float) / self.factor)
+
+    def reading(self, d) -> np.ndarray:
+        """The R_x the arc marks at deflection D for this position [ohm]."""
+        return self.factor * self.scale.reading(d)
+
+
+def scale_definitions(engine: Engine) -> list:
+    """The ohms scales of a project's resistance positions for :func:`planner.scale.scale_project`.
+
+    Positions whose asked centres differ by a power of ten share one scale (the
+    others read its numbers times the ratio of the centres); the response drawn is
+    the nominal scale of each group's first position (:class:`Scale`).
+
+    Returns
+    -------
+    list of planner.scale.ticks.ScaleDef
+        Kind ``ohms``, named ``ohms``, ``ohms 2`` ...
+    """
+    from .scale.solved import sampled_response
+    from .scale.ticks import ScaleDef, ScalePosition
+
+    groups = scale_groups(engine.positions)
+    out = []
+    for i, g in enumerate(groups):
+        scale = Scale(engine, parts_of(engine, g[0].name))
+        ref = float(g[0].center or g[0].full_scale)
+        sps = tuple(ScalePosition(p.name, "ohm", float(p.center or p.full_scale)) for p in g)
+        out.append(ScaleDef("ohms" if i == 0 else f"ohms {i + 1}", "ohms", sps,
+                            sampled_response(scale.deflection, ref, "ohms")))
+    return out

@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from .engine import Engine
-from .ohms import Scale, deflection, parts_of, zero, zero_span
+from .ohms import MarkedScale, Scale, deflection, parts_of, zero, zero_span
 
 #: Scale marks the errors are given at, multiples of the position's asked centre.
 MARKS = (0.1, 0.2, 0.5, 1.0, 2.0, 5.0, 10.0)
@@ -57,7 +57,7 @@ def _repeat(factors: dict, times: int) -> dict:
     return {k: np.repeat(np.asarray(v, dtype=float), times) for k, v in factors.items()}
 
 
-def errors_at(engine: Engine, op, scale: Scale, marks_ohm, v_bat, factors=None, temperature_k=None):
+def errors_at(engine: Engine, op, scale, marks_ohm, v_bat, factors=None, temperature_k=None):
     """Deflections and readings at the marks for each case, each case re-zeroed first.
 
     Parameters
@@ -138,18 +138,20 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     cls = float(spec.movement.class_index)
     say(f"{pos.name}: ohms scale and zero adjustment")
     op = parts_of(engine, pos.name)
-    scale = Scale(engine, op)
+    own = Scale(engine, op)
+    scale = MarkedScale(engine, pos, own)  # the arc it is read on (shared by centres a decade apart)
     bat = op.battery
     levels = np.array([bat.emf("min"), bat.emf("nominal"), bat.emf("max")])
     marks = np.array(MARKS) * float(pos.center or pos.full_scale)
     lo_v, hi_v = zero_span(engine, op)
-    rc = scale.center_ohm
+    rc = own.center_ohm
     out = {"name": pos.name, "measures": pos.measures, "unit": "ohm", "full_scale": float(pos.full_scale),
            "class_index": cls, "center_target_ohm": float(pos.center or pos.full_scale), "center_ohm": rc,
            "center_deviation_pct": 100.0 * (rc - float(pos.center or pos.full_scale)) / float(pos.center or pos.full_scale),
            "zero_adjust_span_v": [lo_v, hi_v], "battery": bat.name, "battery_span_v": [float(levels[0]), float(levels[2])],
            "zero_adjuster": None if op.rheostat is None else op.rheostat.name,
-           "zero_setting_ohm": scale.setting_ohm, "limit_basis": LIMIT_BASIS}
+           "zero_setting_ohm": own.setting_ohm, "read_on": scale.reference, "scale_factor": scale.factor,
+           "limit_basis": LIMIT_BASIS}
     span_ok = lo_v <= levels[0] * (1 + 1e-9) and hi_v >= levels[2] * (1 - 1e-9)
     out["zeroable_over_battery_span"] = bool(span_ok)
 
@@ -160,7 +162,7 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     d, rd, zeroed = errors_at(engine, op, scale, all_marks, levels)
     out["linearity"] = [{"applied": float(a), "reading": float(r), "error_pct": float(100.0 * (dd - dn))}
                         for a, r, dd, dn in zip(marks, rd[1, 1:], d[1, 1:], d_nom[1:])]
-    out["nominal_error_pct"] = float(100.0 * (d[1, 0] - 0.5))
+    out["nominal_error_pct"] = float(100.0 * (d[1, 0] - d_nom[0]))
     out["battery_cases"] = [{"battery_v": float(v), "zeroed": bool(zz), "center_reading_ohm": float(r[0]),
                              "center_error_pct": float(100.0 * (r[0] - rc) / rc)}
                             for v, zz, r in zip(levels, zeroed, rd)]
@@ -188,14 +190,15 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     say(f"{pos.name}: temperature")
     t = np.asarray(temperatures, dtype=float)
     d_t, _, _ = errors_at(engine, op, scale, np.array([rc]), np.full(t.size, levels[1]), temperature_k=t)
-    change = 100.0 * (d_t[:, 0] - 0.5)
+    i_ref = int(np.argmin(np.abs(t - spec.ambient.t_ref_k)))
+    change = 100.0 * (d_t[:, 0] - d_t[i_ref, 0])
     out["temperature_error_pct"] = float(np.max(np.abs(change)))
     out["temperature_points"] = [{"temperature_k": float(a), "center_deflection": float(b), "change_pct": float(c)}
                                  for a, b, c in zip(t, d_t[:, 0], change)]
 
     # what the range does to the part under test: fresh battery
     op_open = engine.operate(pos.name, [0.0], kind="current", emf={bat.name: [levels[2]]},
-                             settings=None if op.rheostat is None else {op.rheostat.name: [scale.setting_ohm]})
+                             settings=None if op.rheostat is None else {op.rheostat.name: [own.setting_ohm]})
     plus, minus = pos.input
     out["open_circuit_voltage_v"] = float((op_open.node_voltage(plus) - op_open.node_voltage(minus))[0, 0])
     z_fresh = zero(engine, op, [levels[2]])

@@ -154,13 +154,17 @@ def test_zero_span_brackets_the_battery_and_the_reading_is_exact_at_nominal():
     nominal battery the nominal scale reads every R_x back (closed form D = R_c / (R_c + R_x): Lessons in
     Electric Circuits, "Ohmmeter design")."""
     eng = _engine(SHUNT_ADJUST)
+    centre = {}
     for name in ("x1", "x10"):
         op = ohms.parts_of(eng, name)
         lo, hi = ohms.zero_span(eng, op)
         assert lo < E_MIN and hi > E_MAX
-        res = ohms.apply_reading(eng, name, 3333.0)
-        # tolerance: interpolation of 1/D - 1, which is linear in R_x here (round-off only)
-        np.testing.assert_allclose(res["reading_ohm"], 3333.0, rtol=1e-9)
+        centre[name] = ohms.Scale(eng, op).center_ohm
+    # x1 reads its own arc; x10 (a decade up) reads x1's arc times 10: R = 10 R_c,x1 R_x / R_c,x10
+    # tolerance: interpolation of 1/D - 1, which is linear in R_x here (round-off only)
+    np.testing.assert_allclose(ohms.apply_reading(eng, "x1", 3333.0)["reading_ohm"], 3333.0, rtol=1e-9)
+    np.testing.assert_allclose(ohms.apply_reading(eng, "x10", 3333.0)["reading_ohm"],
+                               10 * centre["x1"] * 3333.0 / centre["x10"], rtol=1e-9)
 
 
 @pytest.mark.usefixtures("ngspice")
@@ -247,3 +251,21 @@ def test_reversed_battery_drives_the_pointer_below_zero():
     # tolerance: the zeroing's |D - 1| < 1e-13 and round-off
     np.testing.assert_allclose(case["movement_mean_multiple"], -1.0, rtol=1e-9)
     assert case["verdict"] == "pegs"
+
+
+def test_ohms_scale_plate_marks_the_centre_at_half_deflection():
+    """planner scale: the ohms arc of the shunt-adjusted meter marks each R at D = R_c / (R_c + R) of the
+    nominal (zeroed) response (Lessons in Electric Circuits, "Ohmmeter design"); the centre at 0.5."""
+    from planner.scale import scale_json, scale_project
+
+    design = build(loads(SHUNT_ADJUST))
+    eng = Engine(design)
+    defs = ohms.scale_definitions(eng)
+    assert [d.name for d in defs] == ["ohms"]  # centres a decade apart share one arc
+    res = scale_json(scale_project(design, engine=eng, defs=defs))
+    first = next(s for s in res["scales"] if s["name"] == "ohms")
+    rc = ohms.Scale(eng, ohms.parts_of(eng, "x1")).center_ohm
+    for t in first["ticks"]:
+        if t["value"] is not None and t["value"] > 0:
+            # tolerance: the tick fractions come from the solved response (linear network: round-off)
+            np.testing.assert_allclose(t["fraction"], rc / (rc + t["value"]), rtol=1e-9)
