@@ -269,3 +269,25 @@ def test_ohms_scale_plate_marks_the_centre_at_half_deflection():
         if t["value"] is not None and t["value"] > 0:
             # tolerance: the tick fractions come from the solved response (linear network: round-off)
             np.testing.assert_allclose(t["fraction"], rc / (rc + t["value"]), rtol=1e-9)
+
+
+def test_sized_ohms_network_written_and_read_back():
+    """planner size --write-network: the battery, rheostat and resistance positions written as project-file
+    text load back to the same elements (round trip; the contract's keys)."""
+    from pathlib import Path
+
+    from planner.project import load
+    from planner.sizing import network_yaml, size
+
+    path = Path(__file__).resolve().parent.parent / "projects" / "pocket_ohmmeter.yaml"
+    spec = load(path)
+    sizing = size(spec)
+    again = loads(network_yaml(spec, sizing), path=str(path))
+    import dataclasses
+
+    def ours(net):
+        return [dataclasses.replace(e, line=None) for e in net.elements if e.kind in ("battery", "rheostat")]
+
+    assert ours(again.network) == ours(sizing.network) and len(ours(again.network)) == 3
+    assert [dataclasses.replace(p, line=None) for p in again.network.positions] == \
+        [dataclasses.replace(p, line=None) for p in sizing.network.positions]
