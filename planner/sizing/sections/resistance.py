@@ -143,8 +143,9 @@ def ohms_targets(spec: Spec, i_m: float, r_m: float) -> OhmsTargets:
         i_b = g_n * i_m
     else:
         swamp = 0.0
-        top_lo = max(b.voltage_v - b.v_min_v / (1 + ZERO_MARGIN) for b in bats) / i_m
-        top_hi = max(b.v_max_v * (1 + ZERO_MARGIN) - b.voltage_v for b in bats) / i_m
+        used = [bats[j] for j in sorted(set(assign_batteries(spec, i_m)))]  # I_b = I_m whatever the setting
+        top_lo = max(b.voltage_v - b.v_min_v / (1 + ZERO_MARGIN) for b in used) / i_m
+        top_hi = max(b.v_max_v * (1 + ZERO_MARGIN) - b.voltage_v for b in used) / i_m
         fixed = 0.0
         setting = max(top_lo, r_m * (1.0 / rho_lo - 1.0))
         pot = eseries.at_or_above(POT_SERIES, max(setting + top_hi, (setting + r_m) * rho_hi - r_m))
