@@ -120,6 +120,10 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     result : dict
     ok : ndarray of bool (samples,)
         Builds within the limit on this position.
+    arrays : dict
+        ``marks`` [ohm], nominal ``readings`` there [ohm], ``temperatures_k``,
+        ``i_ref``, ``center_deflection`` per ambient, the builds' ``mc_readings``
+        [ohm] and ``mc_error_pct`` at the centre [% of scale length].
 
     Notes
     -----
@@ -224,7 +228,9 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     out["budget_pct"] = float(budget)
     out["verdict"] = "within class" if budget <= cls and span_ok and out["all_cases_zeroed"] else "outside class"
     out["input_resistance_ohm"] = rc
-    return out, ok
+    arrays = {"marks": marks, "readings": rd[1, 1:], "temperatures_k": t, "i_ref": i_ref,
+              "center_deflection": d_t[:, 0], "mc_readings": rd_m[:, 1:], "mc_error_pct": err_m[:, 0]}
+    return out, ok, arrays
 
 
 def ohms_lines(result: dict) -> list[str]:

@@ -18,6 +18,7 @@ from typing import ClassVar
 import numpy as np
 
 from ..tools import quantity
+from ..units import format_si
 from .base import Part
 
 #: Default largest current a battery may carry either way [A]: a small primary cell's
@@ -28,6 +29,21 @@ DEFAULT_MAX_CURRENT_A = 0.1
 
 #: The battery voltage levels an analysis may ask for.
 LEVELS = ("min", "nominal", "max")
+
+
+def battery_values(m, where: str) -> tuple[float, float, float, float]:
+    """Nominal, min and max EMF [V] and internal resistance [ohm] of a battery entry, min <= nominal <= max.
+
+    ``m`` is a section of the project file (:class:`planner.project.reader.Section`).
+    """
+    v = m.qty("voltage", "voltage", check="pos", example="1.5 V")
+    lo = m.qty("min", "voltage", v, check="pos")
+    hi = m.qty("max", "voltage", v, check="pos")
+    r = m.qty("internal_resistance", "resistance", check="pos", example="0.5 ohm")
+    if not lo <= v <= hi:
+        m.fail(f"{where}: min {format_si(lo, 'V')}, voltage {format_si(v, 'V')} and max {format_si(hi, 'V')} must "
+               "satisfy min <= voltage <= max; give the end-of-life, nominal and fresh voltage", m.line)
+    return v, lo, hi, r
 
 
 @dataclass(frozen=True)
@@ -59,6 +75,16 @@ class Battery(Part):
     kind: ClassVar[str] = "battery"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "battery"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "voltage", "min", "max",
+                                            "internal_resistance", "max_current")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Battery":
+        """Its nodes (plus first), voltages, internal resistance and current rating."""
+        a, b = e.pair("between", "[b_plus, b_minus]")
+        v, lo, hi, r = battery_values(e, e.where)
+        return cls(name=name, a=a, b=b, voltage_v=v, v_min_v=lo, v_max_v=hi, r_int_ohm=r,
+                   max_current_a=e.qty("max_current", "current", DEFAULT_MAX_CURRENT_A, check="pos"), line=e.line)
 
     def resistance(self, spec, dt_k) -> np.ndarray:
         """Its internal resistance, held constant [ohm]."""
@@ -67,6 +93,18 @@ class Battery(Part):
     def emf(self, level: str = "nominal") -> float:
         """The EMF at ``level`` (``min``, ``nominal`` or ``max``) [V]."""
         return {"min": self.v_min_v, "nominal": self.voltage_v, "max": self.v_max_v}[level]
+
+    def spice(self, deck) -> list[str]:
+        """An ideal source of its nominal EMF (plus on ``a``) in series with its internal resistance.
+
+        Notes
+        -----
+        :math:`v_a - v_m = E` and :math:`v_m - v_b = r i`, so :math:`i = (v_a - v_b - E) / r`
+        (the solver's branch EMF, :func:`planner.solve.solve`).
+        """
+        mid = deck.inner(self.name, "e")
+        return [f"{deck.instance('V', self.name)} {deck.node(self.a)} {mid} DC {deck.num(self.voltage_v)}",
+                f"{deck.instance('R', self.name, 'int')} {mid} {deck.node(self.b)} {deck.num(self.r_int_ohm)}"]
 
     def part_row(self, spec) -> dict:
         return {"name": self.name, "kind": "battery", "value_ohm": float(self.r_int_ohm),

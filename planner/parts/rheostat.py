@@ -16,6 +16,7 @@ from typing import ClassVar
 import numpy as np
 
 from ..tools import quantity
+from ..units import format_si
 from .base import Part
 
 #: Smallest resistance of a rheostat as a fraction of ``max``: a wiper at its end stop
@@ -56,6 +57,20 @@ class Rheostat(Part):
     kind: ClassVar[str] = "rheostat"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "rheostat"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "max", "setting", "tempco", "power", "series")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Rheostat":
+        """Its nodes, travel, optional fixed setting, tempco, power and series."""
+        a, b = e.pair("between", "[m_plus, adj]")
+        rmax = e.qty("max", "resistance", check="pos", example="5 kohm")
+        setting = e.qty("setting", "resistance", None, check="nonneg")
+        if setting is not None and setting > rmax:
+            e.fail(f"{e.where}: setting {format_si(setting, 'ohm')} is beyond its max {format_si(rmax, 'ohm')}; "
+                   "give a setting from 0 to max", e.line)
+        return cls(name=name, a=a, b=b, max_ohm=rmax, setting_ohm=setting, tempco_per_k=e.tempco("tempco", 100e-6),
+                   power_w=e.qty("power", "power", 0.25, check="pos"), series=e.text("series", None, "E3"),
+                   line=e.line)
 
     @property
     def default_setting(self) -> float:
@@ -73,6 +88,12 @@ class Rheostat(Part):
         s = self.default_setting if setting_ohm is None else setting_ohm
         s = np.maximum(np.clip(s, 0.0, self.max_ohm), END_FRACTION * self.max_ohm)
         return s * (1.0 + self.tempco_per_k * dt_k)
+
+    def spice(self, deck) -> list[str]:
+        """A resistor of its setting with the track's temperature coefficient (``tc1``, as a fixed resistor)."""
+        r = float(np.maximum(min(max(self.default_setting, 0.0), self.max_ohm), END_FRACTION * self.max_ohm))
+        tc = f" tc1={deck.num(self.tempco_per_k)}" if self.tempco_per_k else ""
+        return [f"{deck.instance('R', self.name)} {deck.node(self.a)} {deck.node(self.b)} {deck.num(r)}{tc}"]
 
     def part_row(self, spec) -> dict:
         return {"name": self.name, "kind": "rheostat", "value_ohm": float(self.max_ohm),

@@ -49,6 +49,11 @@ class Resistance(RangeKind):
         """The source value that gives full deflection: 0 V with the terminals shorted (R_x = 0)."""
         return 0.0
 
+    def plate_scale(self, position):
+        """None here: an ohms arc needs the zeroed response, drawn by :func:`planner.ohms.scale_definitions`
+        (``planner scale`` passes those definitions to :func:`planner.scale.scale_project`)."""
+        return None
+
     def input_figures(self, full_scale, source_current_a, terminal_v):
         return {}
 
