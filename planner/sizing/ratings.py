@@ -115,7 +115,7 @@ def rating_cases(spec: Spec, layout: Layout):
         if p.kind.source == "voltage" and vmax is not None and vmax > drive:
             for sh in corners:
                 how = "" if not sh else f", clamp at {'+'.join(sh)} shorted"
-                out.append((f"{fmt(vmax, unit)} max input on {p.name}{how}", p, vmax, sh, False))
+                out.append((f"{fmt(vmax, 'V')} max input on {p.name}{how}", p, vmax, sh, False))
     return out
 
 
