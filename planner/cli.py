@@ -131,7 +131,8 @@ def _options(args) -> None:
             if text is not None:
                 setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
         if getattr(args, "ohms", None) is not None:
-            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "pos")
+            # 0 ohm is a short across an ohms range (apply: the zero check); netlist asks for more itself
+            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "nonneg")
         if getattr(args, "source_impedance", None) is not None:
             args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
         if getattr(args, "date", None) is not None:
@@ -241,7 +242,7 @@ def cmd_apply(args) -> int:
 
     volts, amps = args.volts, args.amps
     r_src = 0.0 if args.source_impedance is None else args.source_impedance
-    ohms = None if args.ohms is None else _quantity(args.ohms, "resistance", "--ohms", "nonneg")
+    ohms = args.ohms  # converted with every command's options [ohm]
     if ohms is not None:  # a resistor across the input: 0 V behind R_x, the battery inside drives it
         from .errors import UsageError
 

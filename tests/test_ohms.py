@@ -291,3 +291,22 @@ def test_sized_ohms_network_written_and_read_back():
     assert ours(again.network) == ours(sizing.network) and len(ours(again.network)) == 3
     assert [dataclasses.replace(p, line=None) for p in again.network.positions] == \
         [dataclasses.replace(p, line=None) for p in sizing.network.positions]
+
+
+def test_apply_ohms_zero_is_full_deflection_through_the_cli(tmp_path):
+    """planner apply --ohms 0: the probes shorted on a zeroed ohms range read full scale (design contract,
+    "before reading, the rheostat is set so that R_x = 0 gives full deflection")."""
+    import json
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parent.parent / "projects" / "pocket_ohmmeter.yaml"
+    r = subprocess.run([sys.executable, "-m", "planner", "apply", str(path), "--position", "R 2 kohm", "--ohms", "0",
+                        "--json"], capture_output=True, text=True, timeout=300)
+    assert r.returncode == 0, r.stderr
+    res = json.loads(r.stdout)
+    # tolerance: the zeroing stops at |D - 1| < 1e-13; round-off
+    np.testing.assert_allclose(res["movement_multiple"], 1.0, rtol=1e-9)
+    np.testing.assert_allclose(res["ohms"]["deflection"], 1.0, rtol=1e-9)
+    assert res["ohms"]["reading_ohm"] == 0.0 and res["verdict"] == "ok"
