@@ -83,7 +83,8 @@ def network_lines(net: NetworkSpec, notes: Mapping[str, str] | None = None) -> l
     lines.append("  positions:")
     for p in net.positions:
         fs = quantity(p.full_scale, p.unit)
-        lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, full_scale: {fs}, "
+        key = "center" if p.center is not None else "full_scale"  # an ohms range has a centre, no full scale
+        lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, {key}: {fs}, "
                      f"input: [{p.input[0]}, {p.input[1]}]}}")
     return lines
 

@@ -41,7 +41,8 @@ _CATS = ("II", "III", "IV")
 
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
-BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range")
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range", "mains on ohms range",
+                  "battery reversed")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
@@ -164,7 +165,7 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     """
     f = spec.faults
     out = project_sources(spec)
-    lower, higher = same_kind_neighbours(net, position)
+    lower, higher = same_kind_neighbours(net, position) if position.kind.range_steps else (None, None)
     unit = position.unit
     if higher:
         out.append(Stimulus("range up", position.kind.source, higher[0],
@@ -191,7 +192,7 @@ def column_of(s: Stimulus) -> dict:
 
 def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
     """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
-    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left",
+    out = [Stimulus("full scale", p.kind.source, p.kind.full_scale_drive(p), detail="full scale of the position being left",
                     compliance_v=_compliance(spec, p.kind.source))]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
