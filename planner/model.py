@@ -27,8 +27,12 @@ from .parts import (  # noqa: F401  (the element kinds, re-exported for callers 
     FuseModel,
     MovementElement,
     Part,
+    Ptc,
+    PtcModel,
     Resistor,
     ResistorParts,
+    Varistor,
+    VaristorModel,
 )
 
 #: Any network element (see :mod:`planner.parts`).
@@ -147,6 +151,8 @@ class Parts:
     resistors: ResistorParts = field(default_factory=ResistorParts)
     diodes: Mapping[str, DiodeModel] = field(default_factory=dict)
     fuses: Mapping[str, FuseModel] = field(default_factory=dict)
+    ptcs: Mapping[str, PtcModel] = field(default_factory=dict)
+    varistors: Mapping[str, VaristorModel] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)

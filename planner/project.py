@@ -35,6 +35,9 @@ from typing import Any, Iterable, NoReturn, Sequence
 import yaml
 
 from planner import model, units
+from planner.parts import fusible as fusible_part
+from planner.parts import ptc as ptc_part
+from planner.parts import varistor as varistor_part
 from planner.errors import ProjectError
 from planner.units import QuantityError, format_si
 
@@ -93,7 +96,7 @@ SCALE_KEYS = ("arc", "radius", "mirror")
 SCALE_ARC_DEG = (30.0, 300.0)
 SCALE_RADIUS_M = (0.010, 0.500)
 AMBIENT_KEYS = ("reference", "min", "max")
-PARTS_KEYS = ("resistors", "diodes", "fuses")
+PARTS_KEYS = ("resistors", "diodes", "fuses", "ptcs", "varistors")
 RESISTOR_PARTS_KEYS = (
     "series", "tolerance", "tempco", "power", "max_voltage", "pulse_energy", "distribution", "ratings"
 )
@@ -138,11 +141,16 @@ ELEMENT_KEYS = {
         "group",
         "trimmer",
         "pulse_energy",
+        "fusible",
+        "fusing",
+        "breaking_voltage",
     ),
     "movement": ("name", "kind", "between"),
     "diode": ("name", "kind", "anode", "cathode", "model"),
     "contact": ("name", "kind", "between", "closed_in", "resistance"),
     "fuse": ("name", "kind", "between", "model"),
+    "ptc": ("name", "kind", "between", "model"),
+    "varistor": ("name", "kind", "between", "model"),
 }
 POSITION_KEYS = ("name", "measures", "full_scale", "input")
 ANALYSIS_KEYS = ("samples", "seed", "allowed_share")
@@ -820,7 +828,25 @@ def _parts(ctx: _Ctx, node: _Node | None) -> model.Parts:
         for name, sub in fn.value.items():
             _model_name(ctx, name, "parts.fuses", fn.key_lines[name])
             fuses[name] = _fuse_model(ctx, name, sub)
-    return model.Parts(resistors=resistors, diodes=diodes, fuses=fuses)
+    ptcs = _catalogue(ctx, m, "ptcs", ptc_part.PTC_KEYS, ptc_part.parse_model,
+                      "{ptc_1k: {hold_current: 20 mA, trip_current: 40 mA, cold_resistance: 1 kohm, ...}}")
+    varistors = _catalogue(ctx, m, "varistors", varistor_part.VARISTOR_KEYS, varistor_part.parse_model,
+                           "{mov_1k: {voltage: 1.1 kV, alpha: 30, energy: 20 J, max_continuous_voltage: 1 kV}}")
+    return model.Parts(resistors=resistors, diodes=diodes, fuses=fuses, ptcs=ptcs, varistors=varistors)
+
+
+def _catalogue(ctx: _Ctx, m: "_Map", key: str, keys: Sequence[str], parse, example: str) -> dict:
+    """The models of one ``parts.<key>`` section, each read by its part kind's ``parse_model``."""
+    out: dict = {}
+    node = m.get(key)
+    if node is None:
+        return out
+    ctx.mapping(node, f"parts.{key}", tuple(node.value) if node.kind == "map" else (), example)
+    for name, sub in node.value.items():
+        _model_name(ctx, name, f"parts.{key}", node.key_lines[name])
+        where = f"parts.{key}.{name}"
+        out[name] = parse(ctx, ctx.mapping(sub, where, keys, example), name)
+    return out
 
 
 def _model_name(ctx: _Ctx, name: str, where: str, line: int) -> None:
@@ -1286,6 +1312,7 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
                     distribution=rp.distribution,
                     line=e.line,
                     pulse_energy_j=e.qty("pulse_energy", "energy", None, check="pos"),
+                    **fusible_part.parse_element(ctx, e),
                 )
             )
         elif kind == "movement":
@@ -1319,6 +1346,11 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
                 closed_refs.append((name, pn))
             r = e.qty("resistance", "resistance", 0.0, check="nonneg")
             elements.append(model.Contact(name=name, a=a, b=b, closed_in=tuple(refs), r_ohm=r, line=e.line))
+        elif kind in ("ptc", "varistor"):
+            a, b = _pair(ctx, e.req("between", "[vin, p1]"), e.at("between"), "[vin, p1]")
+            models = parts.ptcs if kind == "ptc" else parts.varistors
+            mdl = _model_ref(ctx, e.req("model", "ptc_1k"), models, kind, e.at("model"), "ptc_1k")
+            elements.append(model.KINDS[kind](name=name, a=a, b=b, model=mdl, line=e.line))
         else:  # fuse
             a, b = _pair(ctx, e.req("between", "[vin, f1]"), e.at("between"), "[vin, f1]")
             mdl = _fuse_ref(ctx, e.req("model", "f_100ma"), parts, e.at("model"))

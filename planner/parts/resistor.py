@@ -16,6 +16,7 @@ from typing import ClassVar
 import numpy as np
 
 from ..tools import fmt, quantity
+from . import fusible
 from .base import Parameter, Part
 
 #: Short-time overload of a fixed resistor, IEC 60115-1 (from memory; verify
@@ -96,6 +97,9 @@ class Resistor(Part):
     distribution: str = "uniform"
     line: int | None = None
     pulse_energy_j: float | None = None
+    fusible: bool = False
+    fusing: tuple = ()
+    breaking_voltage_v: float = math.inf
 
     kind: ClassVar[str] = "resistor"
     stamp: ClassVar[str] = "branch"
@@ -135,6 +139,11 @@ class Resistor(Part):
             extra.append("trimmer: true")
         if self.pulse_energy_j is not None:
             extra.append(f"pulse_energy: {quantity(self.pulse_energy_j, 'J')}")
+        if self.fusible:
+            pts = ", ".join(f"[{quantity(p, 'W')}, {quantity(t, 's')}]" for p, t in self.fusing)
+            extra += ["fusible: true", f"fusing: [{pts}]"]
+            if math.isfinite(self.breaking_voltage_v):
+                extra.append(f"breaking_voltage: {quantity(self.breaking_voltage_v, 'V')}")
         note = []
         if self.group is not None:
             note.append(f"segment '{self.group}'")
@@ -160,6 +169,8 @@ class Resistor(Part):
         """
         ev, ph = ctx.event, ctx.phase
         out = []
+        if self.fusible and ev is not None and self.name in ev.fuses:
+            return out  # it is the part that opens: judged by trip() and open_checks()
         if ev is not None and ev.event_time_s <= SHORT_OVERLOAD_S:
             t_ev = ev.event_time_s
             pe = resistor_pulse_energy_j(ctx.spec, self)
@@ -178,6 +189,22 @@ class Resistor(Part):
             out.append(ctx.entry(self.name, self.kind, f"peak voltage{ph}", ctx.voltage["peak"], self.max_voltage_v,
                                  "V", "rating"))
         return out
+
+    # --- a fusible resistor opens (planner.parts.fusible) ---------------------------------
+    def trip(self, ctx):
+        """Whether a fusible resistor opens (:func:`planner.parts.fusible.trip`); None for any other."""
+        return fusible.trip(self, ctx) if self.fusible else None
+
+    def opened(self, r_open_ohm: float):
+        """A fusible resistor once open: ``r_open_ohm`` between its nodes, rated for anything."""
+        if not self.fusible:
+            return None
+        return Resistor(self.name, self.a, self.b, r_open_ohm, tolerance=0.0, tempco_per_k=0.0, power_w=math.inf,
+                        max_voltage_v=math.inf, line=self.line)
+
+    def open_checks(self, ctx) -> list[dict]:
+        """The voltage across it once open against its breaking voltage."""
+        return fusible.open_checks(self, ctx) if self.fusible else []
 
 
 # --- short-time (pulse) ratings ------------------------------------------------------------

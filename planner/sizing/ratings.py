@@ -51,7 +51,7 @@ class LinearNetwork:
 
     def __init__(self, spec: Spec, net: NetworkSpec):
         self.spec = spec
-        self.elements = tuple(e for e in net.elements if e.stamp != "junction")
+        self.elements = tuple(e for e in net.elements if e.stamp not in ("junction", "varistor"))
         self.positions = net.positions
         self._nets: dict[tuple, NetworkSpec] = {}
 

@@ -17,6 +17,7 @@ from ..design import Design
 from ..engine import Engine
 from .judge import Judgement, judge
 from .text import fuse_detail
+from .tripped import settle
 from .verdict import verdict_of
 from .waveforms import solve_waveforms
 
@@ -121,8 +122,7 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     opened = j.opened
     after = None
     while opened and not s.peak_only:
-        eng = _open_fuse_engine(engine, opened)
-        wf2 = solve_waveforms(eng, st, [s], temperature_k=temperature_k, n_phase=n_phase)[0]
+        eng, wf2 = settle(_open_fuse_engine(engine, opened), st, s, temperature_k=temperature_k, n_phase=n_phase)
         label = "after " + ", ".join(sorted(opened)) + (" opens" if len(opened) == 1 else " open")
         j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False, original=engine.net)
         stresses += j2.stresses
