@@ -323,6 +323,7 @@ class Spec:
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)
+    protection: "object | None" = None  # planner.sizing.sections.protection.ProtectionRequest
     path: str | None = None
     revision: str | None = None
     date: str | None = None

@@ -38,6 +38,7 @@ from planner import model, units
 from planner.parts import fusible as fusible_part
 from planner.parts import ptc as ptc_part
 from planner.parts import varistor as varistor_part
+from planner.sizing.sections import protection as protection_request
 from planner.errors import ProjectError
 from planner.units import QuantityError, format_si
 
@@ -79,6 +80,7 @@ TOP_KEYS = (
     "faults",
     "network",
     "analysis",
+    "protection",
 )
 MOVEMENT_KEYS = (
     "full_scale_current",
@@ -639,6 +641,7 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
     network = _network(ctx, top.get("network"), parts)
     faults = _faults(ctx, top.get("faults"))
     analysis = _analysis(ctx, top.get("analysis"))
+    protection = protection_request.parse(ctx, top.get("protection"), parts)
     if voltage is None and current is None and network is None:
         ctx.fail(
             "nothing to plan: give 'voltage:' or 'current:' ranges for the planner to size, or an explicit "
@@ -656,6 +659,7 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
         faults=faults,
         network=network,
         analysis=analysis,
+        protection=protection,
         revision=revision,
         date=date,
     )
@@ -1109,7 +1113,7 @@ def _clamps(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> tuple[model.Cl
             ctx.fail(f"{where} needs exactly one of 'across: movement' or 'at: {{above_movement: 10 kohm}}'", m.line)
         at: str | float
         if m.has("across"):
-            at = m.choice("across", ("movement",))
+            at = m.choice("across", ("movement", "ring"))
         else:
             sub = m.sub("at", CLAMP_AT_KEYS, "{above_movement: 10 kohm}")
             assert sub is not None

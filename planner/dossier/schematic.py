@@ -41,7 +41,7 @@ ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
 THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
-_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
+_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "ptc": 2, "contact": 3, "diode": 4, "varistor": 4}
 WHITE = colors.white
 
 
@@ -240,6 +240,14 @@ def _fuse(g, x, y):
     g.add(Line(x, y - 11, x, y + 11, strokeColor=INK, strokeWidth=0.7))
 
 
+def _nonlinear_resistor(g, x, y, hooked: bool):
+    """A resistor crossed by a slanted bar (IEC 60617 variable by its own nature): with a foot for a PTC."""
+    _resistor(g, x, y, True, False)
+    g.add(Line(x - 8, y - 11, x + 8, y + 11, strokeColor=INK, strokeWidth=0.8))
+    if hooked:
+        g.add(Line(x - 8, y - 11, x - 13, y - 11, strokeColor=INK, strokeWidth=0.8))
+
+
 def _movement(g, x, y, plus_up: bool):
     g.add(Circle(x, y, 10, fillColor=WHITE, strokeColor=INK, strokeWidth=0.9))
     g.add(Line(x - 5, y - 5, x + 5.5, y + 5.5, strokeColor=ACCENT, strokeWidth=0.9))
@@ -297,6 +305,8 @@ def _symbol(g, spec, e, x, y, lo_node, hi_node):
         _diode(g, x, y, up=(e.cathode == hi_node))
     elif isinstance(e, Contact):
         _contact(g, x, y, True)
+    elif e.symbol in ("ptc", "varistor"):
+        _nonlinear_resistor(g, x, y, hooked=e.symbol == "ptc")
 
 
 def _labels(g, lines, x, y, anchor="start"):

@@ -535,6 +535,23 @@ def _misrange_worst(ctx: Context) -> dict:
     return out
 
 
+def _protection_row(spec, e, row: dict) -> None:
+    """The bill-of-materials row of a PTC or a varistor: its model and ratings."""
+    if e.kind == "ptc":
+        p = spec.parts.ptcs[e.model]
+        row.update(value=f"{value_text(p.r_cold_ohm, 'ohm')} cold ({e.model})", value_si=p.r_cold_ohm, series="PTC",
+                   voltage_rated_v=p.max_voltage_v, tolerance_pct=100 * p.tolerance)
+        held = (f"tripped {value_text(p.tripped_power_w, 'W')}" if p.tripped_power_w is not None
+                else f"tripped {value_text(p.tripped_resistance_ohm, 'ohm')}")
+        row["notes"].append(f"hold {value_text(p.hold_current_a, 'A')}, trip {value_text(p.trip_current_a, 'A')}, "
+                            f"{held}, cuts up to {value_text(p.max_current_a, 'A')}")
+    else:
+        v = spec.parts.varistors[e.model]
+        row.update(value=f"{value_text(v.v1_v, 'V')} at 1 mA ({e.model})", value_si=v.v1_v, series="varistor",
+                   voltage_rated_v=v.max_continuous_v)
+        row["notes"].append(f"alpha {v.alpha:g}, {value_text(v.energy_j, 'J')} single pulse")
+
+
 def bom_rows(ctx: Context) -> list[dict]:
     """The bill of materials as dicts (one per element), SI floats and text; shared by the PDF and the CSV."""
     if "bom" in ctx._cache:
@@ -544,8 +561,8 @@ def bom_rows(ctx: Context) -> list[dict]:
     fs = _fullscale_stress(ctx)
     mis = _misrange_worst(ctx)
     rows = []
-    order = {"resistor": 0, "movement": 1, "diode": 2, "fuse": 3, "contact": 4}
-    for e in sorted(net.elements, key=lambda e: (order[e.kind], _natural(e.name))):
+    order = {"resistor": 0, "movement": 1, "diode": 2, "varistor": 2, "fuse": 3, "ptc": 3, "contact": 4}
+    for e in sorted(net.elements, key=lambda e: (order.get(e.kind, 5), _natural(e.name))):
         i_fs, v_fs, p_fs = fs.get(e.name, (None, None, None))
         row = {"designator": e.name, "kind": e.kind, "value": "", "value_si": None, "series": "", "tolerance_pct": None,
                "tempco_ppm_per_k": None, "power_rated_w": None, "power_required_w": p_fs, "voltage_rated_v": None,
@@ -595,6 +612,8 @@ def bom_rows(ctx: Context) -> list[dict]:
                                     + (f", I2t {f.i2t_a2s:g} A2s" if f.i2t_a2s else ""))
                 if i_fs is not None:
                     row["notes"].append(f"full-scale current {value_text(i_fs, 'A', 3)}")
+        elif e.kind in ("ptc", "varistor"):
+            _protection_row(spec, e, row)
         elif isinstance(e, Contact):
             row.update(value=value_text(e.r_ohm, "ohm") if e.r_ohm else "ideal", value_si=e.r_ohm, series="switch")
             row["notes"].append("closed in " + (", ".join(e.closed_in) or "no position"))

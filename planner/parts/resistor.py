@@ -169,7 +169,9 @@ class Resistor(Part):
         """
         ev, ph = ctx.event, ctx.phase
         out = []
-        if self.fusible and ev is not None and self.name in ev.fuses:
+        if self.fusible and not ctx.peak_only and (
+                (ev is not None and self.name in ev.fuses)
+                or math.isfinite(fusible.time_to_open_s(self.fusing, ctx.power_w))):
             return out  # it is the part that opens: judged by trip() and open_checks()
         if ev is not None and ev.event_time_s <= SHORT_OVERLOAD_S:
             t_ev = ev.event_time_s

@@ -14,6 +14,7 @@ import math
 from ...model import Diode, Spec
 from ..layout import COM, M_PLUS, Device, Layout, SizingSection, Tap
 from ..request import request_error
+from .protection import ring_crowbar
 
 
 class ClampDiodesSizing(SizingSection):
@@ -41,7 +42,10 @@ class ClampDiodesSizing(SizingSection):
         if int(cl.count) < 1:
             raise request_error(spec, f"clamp count {cl.count} must be at least 1", cl.line)
         if isinstance(cl.at, str):
-            if cl.at != "movement":
+            if cl.at == "ring" and (spec.current is None or not spec.current.fuse):
+                raise request_error(spec, "a clamp across the ring sits behind the current ranges' fuse; give "
+                                    "current.fuse (a crowbar without a fuse would short the source for good)", cl.line)
+            if cl.at not in ("movement", "ring"):
                 raise request_error(
                     spec, f"clamp at '{cl.at}': use 'movement' or a resistance above the movement, e.g. '1 kohm'",
                     cl.line)
@@ -65,6 +69,10 @@ class ClampDiodesSizing(SizingSection):
     def lay_out(self, spec: Spec, layout: Layout) -> None:
         tap_node = {t.ohm: t.node for t in layout.taps}
         for j, cl in enumerate(spec.clamps, 1):
+            if cl.at == "ring":  # a crowbar across the ring, on its own switch pole
+                for model in dict.fromkeys(x for x in (cl.forward, cl.reverse) if x is not None):
+                    ring_crowbar(spec, layout, model, int(cl.count), cl.line)
+                continue
             node = M_PLUS if isinstance(cl.at, str) else tap_node[float(cl.at)]
             if node not in layout.clamp_nodes:
                 layout.clamp_nodes.append(node)

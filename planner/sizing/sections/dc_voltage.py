@@ -39,13 +39,17 @@ class DCVoltageSizing(SizingSection):
         vfs = list(v.full_scales)
         formula = chain_segments if v.arrangement == "chain" else separate_multipliers
         targets = formula(vfs, i_m, r_m)
+        if layout.feed_ohm > 0:  # input protection in series with every range: off the first segment
+            targets = [t - layout.feed_ohm if (k == 0 or v.arrangement == "separate") else t
+                       for k, t in enumerate(targets)]
         for vk, t in zip(vfs, targets):
             if t <= 0:
                 raise request_error(
                     spec,
                     f"voltage range {fmt(vk, 'V')} needs a multiplier of {fmt(t, 'ohm')}: the lowest range must "
                     f"exceed I_fs*R_m = {fmt(i_m * r_m, 'V')} (the meter's own full-scale voltage); raise it or "
-                    "drop it",
+                    "drop it" + (" (the input protection's series resistance counts against it)" if layout.feed_ohm
+                                 else ""),
                     v.line,
                 )
         return targets
@@ -84,5 +88,5 @@ class DCVoltageSizing(SizingSection):
                 segs.append(SegmentPlan(f"multiplier {names[k]}", "multiplier", t - done, below, f"v{k + 1}", v.line))
         for k, vk in enumerate(v.full_scales):
             layout.positions.append(Position(names[k], "voltage", float(vk), (PLUS, COM), v.line))
-            layout.contacts.append((PLUS, f"v{k + 1}", (names[k],)))
+            layout.contacts.append((layout.voltage_feed, f"v{k + 1}", (names[k],)))
             layout.ideal[names[k]] = (vk / layout.meter_i_a, None)
