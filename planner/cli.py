@@ -14,6 +14,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import re
 import sys
 
 from . import __version__
@@ -21,10 +22,22 @@ from . import __version__
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
+#: An option value that starts with a minus sign: a negative number (with an exponent or
+#: a unit, '-1e11', '-5 V'), or a non-finite one; argparse alone takes '-1e11' for an option.
+_NEGATIVE_VALUE = re.compile(r"^-(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?(?:\s.*)?$|^-(?:inf|infinity|nan)$", re.I)
+
+
 class _Parser(argparse.ArgumentParser):
-    """argparse that reports usage errors as one line with exit code 2."""
+    """argparse that reports usage errors as one line with exit code 2 and takes negative values."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = _NEGATIVE_VALUE
 
     def error(self, message):
+        m = re.match(r"argument (-[-\w]+)(?:/[-\w]+)*: expected one argument", message)
+        if m:  # a value that looks like an option: say how to give it
+            message += f"; a value starting with '-' is written {m.group(1)}=VALUE, e.g. {m.group(1)}=-1e11"
         self.exit(EXIT_INPUT, f"{self.prog}: {message} (see '{self.prog} --help')\n")
 
 
@@ -79,23 +92,48 @@ def _design(spec):
     return build(spec)
 
 
-def _quantity(text: str, dimension: str, option: str) -> float:
-    """A command-line quantity: a bare number in SI units or a number with a unit."""
+def _quantity(text: str, dimension: str, option: str, check: str | None = None) -> float:
+    """A command-line quantity: a number with a unit, or a bare number in SI units (degC for a
+    temperature), checked as the project file checks the same value (:mod:`planner.values`)."""
     from .errors import UsageError
-    from .units import parse
+    from .units import QuantityError
+    from .values import option_quantity
 
     try:
-        value = float(text)
-    except ValueError:
-        value = None
-    if value is not None:
-        if not math.isfinite(value) or abs(value) > 1e12:
-            raise UsageError(f"{option}: {text!r} is not a usable number; give a finite value such as 10 or '10 V'")
-        return value
+        return option_quantity(text, dimension, option, check)
+    except QuantityError as exc:
+        raise UsageError(" ".join(exc.message.split())) from None
+
+
+def _options(args) -> None:
+    """Check and convert the options every command shares, with the project file's limits and
+    wording (:mod:`planner.values`), before the file is read: whole numbers to int, quantities
+    to SI floats (``args.volts`` [V], ``args.amps`` [A], ``args.source_impedance`` [ohm],
+    ``args.temperature`` [K])."""
+    from .errors import UsageError
+    from .project.limits import MAX_SAMPLES, MAX_SEED
+    from .units import QuantityError
+    from .values import ambient_temperature, option_whole, sine_rms
+
     try:
-        return parse(text, dimension, where=option)
-    except Exception as exc:  # the parser's own message, as one line
-        raise UsageError(f"{option}: {' '.join(str(exc).split())}") from None
+        if getattr(args, "samples", None) is not None:
+            args.samples = option_whole(args.samples, "--samples", 2, MAX_SAMPLES, "2000")
+        if getattr(args, "seed", None) is not None:
+            args.seed = option_whole(args.seed, "--seed", 0, MAX_SEED, "1")
+        if getattr(args, "max_candidates", None) is not None:
+            args.max_candidates = option_whole(args.max_candidates, "--max-candidates", 10, None, "2000")
+        waveform = getattr(args, "waveform", None) or "dc"
+        for option, kind in (("volts", "voltage"), ("amps", "current")):
+            text = getattr(args, option, None)
+            if text is not None:
+                setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
+        if getattr(args, "source_impedance", None) is not None:
+            args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
+        if getattr(args, "temperature", None) is not None:
+            args.temperature = ambient_temperature(
+                _quantity(args.temperature, "temperature", "--temperature", "pos"), "--temperature")
+    except QuantityError as exc:
+        raise UsageError(" ".join(exc.message.split())) from None
 
 
 def _check_output(path: str, project: str, args=None) -> None:
@@ -149,11 +187,11 @@ def cmd_check(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .accuracy import check_project, format_check
 
-    r_src = None if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
     design = _design(spec)
     show = _progress(args)
     try:
-        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=r_src, progress=show)
+        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
+                               progress=show)
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
@@ -188,20 +226,11 @@ def cmd_faults(args) -> int:
 
 def cmd_apply(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .model import ZERO_CELSIUS_K
     from .stress import apply_stimulus, format_apply
 
-    volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
-    amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
-    r_src = 0.0 if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
-    temp = None
-    if args.temperature is not None:
-        try:
-            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC
-        except ValueError:
-            temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = apply_stimulus(_design(spec), args.position, volts=volts, amps=amps, r_source_ohm=r_src,
-                            temperature_k=temp, waveform=args.waveform)
+    r_src = 0.0 if args.source_impedance is None else args.source_impedance
+    result = apply_stimulus(_design(spec), args.position, volts=args.volts, amps=args.amps, r_source_ohm=r_src,
+                            temperature_k=args.temperature, waveform=args.waveform)
     _emit(args, result, format_apply(result))
     return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
 
@@ -253,15 +282,8 @@ def cmd_protect(args) -> int:
 
 def cmd_fit_diode(args) -> int:
     from .diodefit import fit, fit_json, format_fit, read_points
-    from .model import ZERO_CELSIUS_K
 
-    temp = None
-    if args.temperature is not None:
-        try:
-            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC, as in the CSV
-        except ValueError:
-            temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = fit(read_points(args.points), name=args.name, temperature_k=temp, xti=args.xti)
+    result = fit(read_points(args.points), name=args.name, temperature_k=args.temperature, xti=args.xti)
     _emit(args, fit_json(result), format_fit(result))
     if not result.usable:  # a verdict: the points are not a diode's; no model to paste
         more = len(result.problems) - 1
@@ -331,8 +353,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     sp = sub.add_parser("check", help="accuracy per position: nominal, linearity, tolerance, temperature, loading")
     common(sp)
-    sp.add_argument("--samples", type=int, help="Monte Carlo builds (default from the file, else 2000)")
-    sp.add_argument("--seed", type=int, help="Monte Carlo seed (default from the file, else 1)")
+    sp.add_argument("--samples", metavar="N", help="Monte Carlo builds (default from the file, else 2000)")
+    sp.add_argument("--seed", metavar="N", help="Monte Carlo seed (default from the file, else 1)")
     sp.add_argument("--source-impedance", metavar="R", help="impedance of the measured source, e.g. '100 kohm'")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_check)
@@ -360,15 +382,15 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("-o", "--output", metavar="OUT.pdf", help="output file (default: <project>-dossier.pdf)")
     sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
-    sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--samples", metavar="N", help="Monte Carlo builds for the accuracy section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
 
     sp = sub.add_parser("protect", help="search clamp placements and multiplier splits; write the chosen plan")
     common(sp)
     sp.add_argument("--share", metavar="S", help="share of the class the clamps may cost in linearity (default 0.25)")
-    sp.add_argument("--seed", type=int, help="seed of the search (default from the file)")
-    sp.add_argument("--max-candidates", type=int, default=2000, metavar="N", help="bound on candidates (default 2000)")
+    sp.add_argument("--seed", metavar="N", help="seed of the search (default from the file)")
+    sp.add_argument("--max-candidates", default=2000, metavar="N", help="bound on candidates (default 2000)")
     sp.add_argument("-o", "--write", metavar="OUT.yaml",
                     help="write the project with the chosen placement ('-': to stdout, instead of the table)")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
@@ -429,6 +451,7 @@ def main(argv=None) -> int:
     from .errors import PlannerError
 
     try:
+        _options(args)
         return _run(args)
     except PlannerError as exc:
         print(f"planner: {exc.one_line()}", file=sys.stderr)

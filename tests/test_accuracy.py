@@ -26,7 +26,7 @@ ROOT = Path(__file__).resolve().parents[1]
 def voltmeter(v_fs=10.0, i_fs=100e-6, r_m=500.0, tol=0.01, tempco=0.0, dist="uniform", coil_tempco=0.0,
               class_index=1.5, pieces=1, ambient=None, samples=500, seed=3, diodes=False):
     """A one-range voltmeter with a separate multiplier R = V/I_fs - R_m, in ``pieces`` equal parts."""
-    r_total = v_fs / i_fs - r_m  # multiplier: R = V_fs / I_fs - R_m (references.md, Lessons in Electric Circuits ch. 8)
+    r_total = v_fs / i_fs - r_m  # multiplier: R = V_fs / I_fs - R_m (Lessons in Electric Circuits Vol. I ch. 8, "Voltmeter design")
     nodes = ["plus"] + [f"n{k}" for k in range(1, pieces)] + ["m"]
     elements = [MovementElement("M1", "m", "com")]
     for k in range(pieces):
@@ -44,7 +44,7 @@ def voltmeter(v_fs=10.0, i_fs=100e-6, r_m=500.0, tol=0.01, tempco=0.0, dist="uni
 
 
 def test_worst_case_single_multiplier_closed_form():
-    # Closed form from R = V/I_fs - R_m (references.md, multiplier formula): with R at R(1 +/- t)
+    # Closed form from R = V/I_fs - R_m (multiplier formula, Lessons in Electric Circuits Vol. I ch. 8): with R at R(1 +/- t)
     # the reading is V / (R_m + R(1 +/- t)) / I_fs * FS.
     v, i_fs, r_m, t = 10.0, 100e-6, 500.0, 0.01
     r = v / i_fs - r_m
@@ -59,7 +59,7 @@ def test_worst_case_single_multiplier_closed_form():
 def test_worst_case_sensitivity_bound_many_parts():
     # 14 equal multiplier pieces (> 12 parameters): the sensitivity method. Closed form of the worst
     # corner: every piece at +t or every piece at -t, reading V / (R_m + R(1 +/- t)) / I_fs * FS
-    # (multiplier formula, references.md). The bound must not be smaller and stays close (first order).
+    # (multiplier formula, Lessons in Electric Circuits Vol. I ch. 8). The bound must not be smaller and stays close (first order).
     v, i_fs, r_m, t = 10.0, 100e-6, 500.0, 0.02
     r = v / i_fs - r_m
     exact = max(abs((v / (r_m + r * (1 + s * t)) / i_fs * v - v) / v * 100) for s in (+1, -1))
@@ -72,7 +72,7 @@ def test_worst_case_sensitivity_bound_many_parts():
 
 
 def test_worst_case_includes_coil_and_full_scale_current():
-    # Closed form (multiplier formula, references.md): reading = V / (R_m(1 +/- t_m) + R(1 +/- t)) / (I_fs(1 +/- t_i)) * FS;
+    # Closed form (multiplier formula, Lessons in Electric Circuits Vol. I ch. 8): reading = V / (R_m(1 +/- t_m) + R(1 +/- t)) / (I_fs(1 +/- t_i)) * FS;
     # the worst corner is the smallest resistance with the smallest I_fs, or the largest with the largest.
     v, i_fs, r_m, t, t_m, t_i = 10.0, 100e-6, 500.0, 0.01, 0.05, 0.02
     r = v / i_fs - r_m
@@ -141,7 +141,7 @@ def test_temperature_error_clamp_free_closed_form():
 
 
 def test_loading_divider_reads_6_667_v():
-    # references.md [calc], divider formula: 100 uA, 500 ohm movement, 99.5 k multiplier on 10 V,
+    # [calc] from the divider formula (Thevenin's theorem): 100 uA, 500 ohm movement, 99.5 k multiplier on 10 V,
     # across the lower leg of a 100 k / 100 k divider fed with 20 V. Thevenin: 10 V behind 50 k;
     # meter 100 k; reading 10 * 100k / (100k + 50k) = 6.667 V.
     r_in = 99.5e3 + 500.0
@@ -155,12 +155,12 @@ def test_loading_divider_reads_6_667_v():
     p = res["positions"][0]
     np.testing.assert_allclose(p["loaded_reading"], expect, rtol=1e-9)  # solver tolerance
     np.testing.assert_allclose(p["loading_error_pct"], (expect - 10.0) / 10.0 * 100, rtol=1e-9)
-    np.testing.assert_allclose(p["input_resistance_ohm"], 100e3, rtol=1e-12)  # V_fs / I_fs (references.md)
-    np.testing.assert_allclose(p["ohms_per_volt"], 1 / 100e-6, rtol=1e-12)  # sensitivity 1/I_fs (references.md)
+    np.testing.assert_allclose(p["input_resistance_ohm"], 100e3, rtol=1e-12)  # V_fs / I_fs (Lessons in Electric Circuits Vol. I ch. 8)
+    np.testing.assert_allclose(p["ohms_per_volt"], 1 / 100e-6, rtol=1e-12)  # sensitivity 1/I_fs (Lessons in Electric Circuits Vol. I ch. 8)
 
 
 def test_loading_divider_built_into_the_network():
-    # The same case with the divider itself in the network, 20 V applied at its top (references.md [calc]).
+    # The same case with the divider itself in the network, 20 V applied at its top ([calc], divider formula).
     elements = (
         Resistor("Rtop", "src", "mid", 100e3, tolerance=0.0),
         Resistor("Rbot", "mid", "com", 100e3, tolerance=0.0),
@@ -174,7 +174,7 @@ def test_loading_divider_built_into_the_network():
 
 
 def test_burden_voltage_of_a_separate_shunt():
-    # Shunt R_sh = R_m I_fs / (I - I_fs) (references.md); at full scale the terminals see I_fs R_m.
+    # Shunt R_sh = R_m I_fs / (I - I_fs) (Lessons in Electric Circuits Vol. I ch. 8, "Ammeter design"); at full scale the terminals see I_fs R_m.
     i_fs, r_m, i = 100e-6, 1000.0, 1e-3
     r_sh = r_m * i_fs / (i - i_fs)
     elements = (MovementElement("M1", "a", "com"), Resistor("R1", "a", "com", r_sh, tolerance=0.001))
@@ -218,7 +218,7 @@ def test_unused_chain_parts_are_not_toleranced():
     )
     net = NetworkSpec(elements, (Position("1 V", "voltage", 1.0, ("plus", "com")),
                                  Position("10 V", "voltage", 10.0, ("plus", "com"))))
-    # chain segments of Lessons in Electric Circuits ch. 8 scaled to 100 uA, 500 ohm (references.md)
+    # chain segments of Lessons in Electric Circuits ch. 8 scaled to 100 uA, 500 ohm
     spec = Spec("chain", Movement(i_fs_a=100e-6, r_coil_ohm=500.0, class_index=1.5), network=net)
     res = acc.check_project(spec, samples=50)
     lo, hi = res["positions"]
@@ -231,7 +231,7 @@ def test_unused_chain_parts_are_not_toleranced():
 
 def test_clamped_voltmeter_linearity_and_leakage():
     # Clamps leak: a diode pair across the coil makes the reading fall short, more at full scale
-    # and more when hot (Shockley law, I_s rising with temperature: references.md, SPICE temperature law).
+    # and more when hot (Shockley law, I_s rising with temperature: SPICE temperature law, Massobrio and Antognetti, 2nd ed.).
     p = acc.check_project(voltmeter(0.5, 50e-6, 2000.0, 0.005, diodes=True), samples=200)["positions"][0]
     lin, hot = p["linearity"], p["linearity_hot"]
     assert len(lin) == 10 and len(hot) == 10

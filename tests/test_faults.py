@@ -59,7 +59,7 @@ def ring_ammeter():
     """The same movement on an Ayrton ring for 1 mA / 10 mA.
 
     R_t = R_m I_fs / (I_1 - I_fs) = 111.11 ohm; tap for 10 mA at I_fs (R_t + R_m) / I_2 = 11.111 ohm
-    (Ayrton shunt formulas, references.md).
+    (Ayrton shunt formulas; Wikipedia, "Ayrton shunt").
     """
     r_t = 1e3 * 100e-6 / (1e-3 - 100e-6)
     r_b = 100e-6 * (r_t + 1e3) / 10e-3

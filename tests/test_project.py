@@ -357,7 +357,7 @@ def test_unknown_key_lists_allowed_keys():
 
 
 def test_every_iec_class_accepted():
-    # IEC 60051 class indices (from memory, /work/shared/references.md)
+    # IEC 60051-1 class indices (from memory)
     for c in ("0.05", "0.1", "0.2", "0.3", "0.5", "1", "1.5", "2", "2.5", "3", "5", "1.0", "5.00"):
         s = loads(MINIMAL.replace("class: 2.5", f"class: {c}"))
         np.testing.assert_allclose(s.movement.class_index, float(c), rtol=0)  # exact

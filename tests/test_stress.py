@@ -41,7 +41,7 @@ def banwell_current(v, r, i_s, nvt):
 
 
 def test_banwell_formula_reproduces_published_check_values():
-    # references.md [calc] values from the Banwell-Jayakumar formula: I_s = 1e-14 A, n = 1, 300 K
+    # [calc] values from the Banwell-Jayakumar formula (Electronics Letters 36(4), 2000): I_s = 1e-14 A, n = 1, 300 K
     nvt = vt(300.0)
     got = [banwell_current(5.0, 1e3, 1e-14, nvt), banwell_current(10.0, 10e3, 1e-14, nvt),
            banwell_current(100.0, 100e3, 1e-14, nvt)]

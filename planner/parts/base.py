@@ -129,6 +129,28 @@ class Part:
     clamp: ClassVar[bool] = False
     #: True when the part carries power ratings judged in the misrange analysis.
     rated: ClassVar[bool] = True
+    #: Its keys as an entry of the project file's ``network.elements`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = ()
+
+    # --- the project file --------------------------------------------------------
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Part":
+        """The element from its entry of ``network.elements``.
+
+        Parameters
+        ----------
+        e : planner.project.reader.Section
+            The entry, its keys already checked against :attr:`file_keys`. It reads
+            typed values (``e.qty``, ``e.text``, ``e.choice``, ``e.boolean``), node
+            names (``e.pair``, ``e.node_name``), catalogue references (``e.model``)
+            and refuses the file at a line (``e.fail``); every error names the file
+            and line.
+        name : str
+            Its designator, already read and checked unique.
+        parts : planner.model.Parts
+            The catalogue: resistor defaults, diode and fuse models.
+        """
+        raise NotImplementedError(f"element kind {cls.kind!r} cannot be read from a project file")
 
     @property
     def nodes(self) -> tuple[str, str]:

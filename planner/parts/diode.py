@@ -86,6 +86,53 @@ class DiodeModel:
     i_s_spread: float = 0.0
     i2t_a2s: float | None = None
 
+    #: Keys of one model of ``parts.diodes`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = (
+        "saturation_current", "emission", "series_resistance", "leakage_resistance", "band_gap", "xti",
+        "temperature", "breakdown_voltage", "breakdown_current", "max_current", "surge_current", "max_power",
+        "saturation_current_spread", "i2t",
+    )
+    file_example: ClassVar[str] = "{saturation_current: 5 nA, emission: 1.9}"
+
+    @classmethod
+    def read(cls, m, name: str) -> "DiodeModel":
+        """The model ``name`` from its mapping of ``parts.diodes`` (a
+        :class:`planner.project.reader.Section`); implausible emission coefficients,
+        band gaps and XTI are refused (a unit mistake, most likely)."""
+        d = cls(name=name, i_s_a=1.0)
+        i_s = m.qty("saturation_current", "current", check="pos", example="5 nA")
+        n = m.qty("emission", "dimensionless", d.n, check="pos")
+        if n > 10:
+            m.fail(f"{m.at('emission')} is {n:g}; an emission coefficient lies between about 1 and 4: give e.g. 1.9",
+                   m.line_of("emission"))
+        r_s = m.qty("series_resistance", "resistance", d.r_s_ohm, check="nonneg")
+        r_p = m.qty("leakage_resistance", "resistance", d.r_p_ohm, check="pos")
+        eg = m.qty("band_gap", "energy_ev", d.eg_ev, check="pos")
+        if eg > 10:
+            m.fail(f"{m.at('band_gap')} is {eg:g} eV; a band gap is a few eV (silicon 1.11 eV): check the value",
+                   m.line_of("band_gap"))
+        xti = m.qty("xti", "dimensionless", d.xti)
+        if abs(xti) > 50:
+            m.fail(f"{m.at('xti')} is {xti:g}; the saturation-current temperature exponent is about 2 to 3",
+                   m.line_of("xti"))
+        return cls(
+            name=name,
+            i_s_a=i_s,
+            n=n,
+            r_s_ohm=r_s,
+            r_p_ohm=r_p,
+            eg_ev=eg,
+            xti=xti,
+            t_nom_k=m.qty("temperature", "temperature", d.t_nom_k, check="pos"),
+            bv_v=m.qty("breakdown_voltage", "voltage", d.bv_v, check="pos"),
+            ibv_a=m.qty("breakdown_current", "current", d.ibv_a, check="pos"),
+            max_current_a=m.qty("max_current", "current", d.max_current_a, check="pos"),
+            surge_current_a=m.qty("surge_current", "current", d.surge_current_a, check="pos"),
+            max_power_w=m.qty("max_power", "power", d.max_power_w, check="pos"),
+            i_s_spread=m.qty("saturation_current_spread", "fraction", d.i_s_spread, check="frac"),
+            i2t_a2s=m.qty("i2t", "i2t", None, check="pos"),
+        )
+
 
 @dataclass(frozen=True)
 class Diode(Part):
@@ -101,6 +148,17 @@ class Diode(Part):
     stamp: ClassVar[str] = "junction"
     symbol: ClassVar[str] = "diode"
     clamp: ClassVar[bool] = True
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "anode", "cathode", "model")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Diode":
+        """Its anode, cathode (two different nodes) and a model of ``parts.diodes``."""
+        an = e.node_name("anode", "m_plus")
+        ca = e.node_name("cathode", "com")
+        if an == ca:
+            e.fail(f"{e.where} has anode and cathode both on node '{an}'; give two different nodes")
+        return cls(name=name, anode=an, cathode=ca, model=e.model("model", parts.diodes, "diode", "si_generic"),
+                   line=e.line)
 
     @property
     def nodes(self) -> tuple[str, str]:

@@ -16,6 +16,7 @@ from typing import ClassVar
 
 import numpy as np
 
+from ..units import format_si
 from .base import Part, Trip
 from .resistor import Resistor
 
@@ -54,6 +55,49 @@ class FuseModel:
     max_voltage_v: float = math.inf
     clearing_i2t_a2s: float | None = None
 
+    #: Keys of one model of ``parts.fuses`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = (
+        "cold_resistance", "rated_current", "breaking_capacity", "i2t", "clearing_i2t", "curve", "max_voltage"
+    )
+    file_example: ClassVar[str] = "{cold_resistance: 2 ohm, rated_current: 100 mA, breaking_capacity: 1.5 kA}"
+
+    @classmethod
+    def read(cls, m, name: str) -> "FuseModel":
+        """The model ``name`` from its mapping of ``parts.fuses`` (a
+        :class:`planner.project.reader.Section`): the breaking capacity at least the
+        rating, the clearing I2t at least the pre-arcing I2t, the curve's time falling
+        as its current rises."""
+        r_cold = m.qty("cold_resistance", "resistance", check="nonneg", example="1.8 ohm")
+        i_rated = m.qty("rated_current", "current", check="pos", example="100 mA")
+        i_break = m.qty("breaking_capacity", "current", check="pos", example="1.5 kA")
+        if i_break < i_rated:
+            m.fail(f"{m.at('breaking_capacity')} ({format_si(i_break, 'A')}) is below the rated current "
+                   f"({format_si(i_rated, 'A')}); the breaking capacity is the largest current the fuse can "
+                   "interrupt, far above its rating: check the value", m.line_of("breaking_capacity"))
+        i2t = m.qty("i2t", "i2t", None, check="pos")
+        clearing = m.qty("clearing_i2t", "i2t", None, check="pos")
+        if clearing is not None and i2t is not None and clearing < i2t:
+            m.fail(f"{m.at('clearing_i2t')} ({clearing:.4g} A^2 s) is below the pre-arcing i2t "
+                   f"({i2t:.4g} A^2 s); the clearing I2t is pre-arcing plus arcing, so it is the larger: "
+                   "check the values", m.line_of("clearing_i2t"))
+        vmax = m.qty("max_voltage", "voltage", math.inf, check="pos")
+        curve: list[tuple[float, float]] = []
+        for i, pt in enumerate(m.items("curve", "[[200 mA, 10 s], [1 A, 10 ms]]"), 1):
+            pw = f"{m.at('curve')}[{i}]"
+            pair = m.ctx.seq(pt, pw, "[1 A, 10 ms]")
+            if len(pair) != 2:
+                m.fail(f"{pw} has {len(pair)} values; each point is [current, time], e.g. [1 A, 10 ms]", pt.line)
+            i_a = m.ctx.qty(pair[0], "current", f"{pw} current", "pos")
+            t_s = m.ctx.qty(pair[1], "time", f"{pw} time", "pos")
+            if curve and i_a <= curve[-1][0]:
+                m.fail(f"{pw}: the currents must rise from point to point; sort the curve by current", pt.line)
+            if curve and t_s > curve[-1][1]:
+                m.fail(f"{pw}: the time must fall as the current rises (a larger current melts the fuse sooner)",
+                       pt.line)
+            curve.append((i_a, t_s))
+        return cls(name=name, r_cold_ohm=r_cold, rated_current_a=i_rated, breaking_capacity_a=i_break, i2t_a2s=i2t,
+                   curve=tuple(curve), max_voltage_v=vmax, clearing_i2t_a2s=clearing)
+
 
 @dataclass(frozen=True)
 class Fuse(Part):
@@ -68,6 +112,13 @@ class Fuse(Part):
     kind: ClassVar[str] = "fuse"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "fuse"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "model")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Fuse":
+        """Its two nodes and a model of ``parts.fuses``."""
+        a, b = e.pair("between", "[vin, f1]")
+        return cls(name=name, a=a, b=b, model=e.model("model", parts.fuses, "fuse", "f_100ma"), line=e.line)
 
     def resistance(self, spec, dt_k) -> np.ndarray:
         """Its cold resistance, held constant [ohm]."""

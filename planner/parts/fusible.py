@@ -101,31 +101,33 @@ def open_checks(r, ctx) -> list[dict]:
                       "V", "safety")]
 
 
-def parse_element(ctx, e) -> dict:
-    """The fusible keys of a ``resistor`` element (``e`` is the loader's mapping reader)."""
+def read_points(m, key: str) -> tuple:
+    """The maker's fusing points under ``key`` of a mapping (a :class:`planner.project.reader.Section`)."""
+    pts: list[tuple[float, float]] = []
+    for i, pt in enumerate(m.items(key, "[[5 W, 10 s], [50 W, 50 ms]]"), 1):
+        pw = f"{m.at(key)}[{i}]"
+        pair = m.ctx.seq(pt, pw, "[5 W, 10 s]")
+        if len(pair) != 2:
+            m.fail(f"{pw} has {len(pair)} values; each point is [power, time], e.g. [5 W, 10 s]", pt.line)
+        p = m.ctx.qty(pair[0], "power", f"{pw} power", "pos")
+        t = m.ctx.qty(pair[1], "time", f"{pw} time", "pos")
+        if pts and (p <= pts[-1][0] or t > pts[-1][1]):
+            m.fail(f"{pw}: list the points by rising power, the time falling (more power opens it sooner)", pt.line)
+        pts.append((p, t))
+    return tuple(pts)
+
+
+def read_element(e) -> dict:
+    """The fusible keys of a ``resistor`` element (``e`` is its :class:`planner.project.reader.Section`)."""
     fusible = e.boolean("fusible", False)
-    fn = e.get("fusing")
     bv = e.qty("breaking_voltage", "voltage", math.inf, check="pos")
     if not fusible:
-        if fn is not None or e.has("breaking_voltage"):
-            ctx.fail(f"{e.at('fusing' if fn is not None else 'breaking_voltage')} belongs to a fusible resistor; "
-                     "add 'fusible: true' or remove it", (fn or e.get("breaking_voltage")).line)
+        for key in ("fusing", "breaking_voltage"):
+            if e.has(key):
+                e.fail(f"{e.at(key)} belongs to a fusible resistor; add 'fusible: true' or remove it", e.line_of(key))
         return {}
-    if fn is None:
-        ctx.fail(f"{e.at('fusible')}: a fusible resistor needs 'fusing: [[power, time], ...]', the maker's points "
-                 "(it opens after time at power), e.g. [[5 W, 10 s], [50 W, 50 ms]]", e.get("fusible").line)
-    pts: list[tuple[float, float]] = []
-    ex = "[[5 W, 10 s], [50 W, 50 ms]]"
-    for i, pt in enumerate(ctx.seq(fn, e.at("fusing"), ex), 1):
-        pw = f"{e.at('fusing')}[{i}]"
-        pair = ctx.seq(pt, pw, "[5 W, 10 s]")
-        if len(pair) != 2:
-            ctx.fail(f"{pw} has {len(pair)} values; each point is [power, time], e.g. [5 W, 10 s]", pt.line)
-        p = ctx.qty(pair[0], "power", f"{pw} power", "pos")
-        t = ctx.qty(pair[1], "time", f"{pw} time", "pos")
-        if pts and (p <= pts[-1][0] or t > pts[-1][1]):
-            ctx.fail(f"{pw}: list the points by rising power, the time falling (more power opens it sooner)", pt.line)
-        pts.append((p, t))
+    pts = read_points(e, "fusing")
     if not pts:
-        ctx.fail(f"{e.at('fusing')} is empty; give the maker's points, e.g. {ex}", fn.line)
-    return {"fusible": True, "fusing": tuple(pts), "breaking_voltage_v": bv}
+        e.fail(f"{e.at('fusible')}: a fusible resistor needs 'fusing: [[power, time], ...]', the maker's points "
+               "(it opens after time at power), e.g. [[5 W, 10 s], [50 W, 50 ms]]", e.line_of("fusible"))
+    return {"fusible": True, "fusing": pts, "breaking_voltage_v": bv}

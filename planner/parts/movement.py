@@ -30,6 +30,13 @@ class MovementElement(Part):
     kind: ClassVar[str] = "movement"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "movement"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "MovementElement":
+        """Its two nodes: current from the first to the second reads up the scale."""
+        a, b = e.pair("between", "[m_plus, com]")
+        return cls(name=name, a=a, b=b, line=e.line)
 
     def resistance(self, spec, dt_k) -> np.ndarray:
         """Coil resistance :math:`R_m (1 + \\alpha_{coil} \\Delta T)` [ohm]."""

@@ -70,6 +70,45 @@ class PtcModel:
     tolerance: float = 0.0
     tempco_per_k: float = 0.0
 
+    #: Keys of one model of ``parts.ptcs`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = PTC_KEYS
+    file_example: ClassVar[str] = ("{hold_current: 20 mA, trip_current: 40 mA, cold_resistance: 1 kohm, "
+                                   "max_voltage: 1 kV, max_current: 3 A, tripped_power: 1 W}")
+
+    @classmethod
+    def read(cls, m, name: str) -> "PtcModel":
+        """The model ``name`` from its mapping of ``parts.ptcs`` (a :class:`planner.project.reader.Section`)."""
+        hold = m.qty("hold_current", "current", check="pos", example="50 mA")
+        trip = m.qty("trip_current", "current", check="pos", example="100 mA")
+        if trip < hold:
+            m.fail(f"{m.at('trip_current')} is below the hold current; a PTC trips above the current it holds "
+                   "(about twice it): check the values", m.line_of("trip_current"))
+        r_cold = m.qty("cold_resistance", "resistance", check="pos", example="10 ohm")
+        vmax = m.qty("max_voltage", "voltage", check="pos", example="600 V")
+        imax = m.qty("max_current", "current", check="pos", example="3 A")
+        r_trip = m.qty("tripped_resistance", "resistance", None, check="pos")
+        p_trip = m.qty("tripped_power", "power", None, check="pos")
+        if (r_trip is None) == (p_trip is None):
+            m.fail(f"parts.ptcs.{name} needs exactly one of 'tripped_resistance: 100 kohm' or 'tripped_power: 1 W' "
+                   "(what the tripped part holds)", m.line)
+        tol = m.qty("tolerance", "fraction", 0.0, check="frac")
+        tempco = m.tempco("tempco", 0.0)
+        points: list[tuple[float, float]] = []
+        for i, pt in enumerate(m.items("time_to_trip", "[[200 mA, 5 s], [1 A, 100 ms]]"), 1):
+            pw = f"{m.at('time_to_trip')}[{i}]"
+            pair = m.ctx.seq(pt, pw, "[1 A, 100 ms]")
+            if len(pair) != 2:
+                m.fail(f"{pw} has {len(pair)} values; each point is [current, time], e.g. [1 A, 100 ms]", pt.line)
+            i_a = m.ctx.qty(pair[0], "current", f"{pw} current", "pos")
+            t_s = m.ctx.qty(pair[1], "time", f"{pw} time", "pos")
+            if not i_a > trip:
+                m.fail(f"{pw}: the current must be above the trip current; below it the part does not trip", pt.line)
+            if points and (i_a <= points[-1][0] or t_s > points[-1][1]):
+                m.fail(f"{pw}: list the points by rising current, the time falling (a larger current trips sooner)",
+                       pt.line)
+            points.append((i_a, t_s))
+        return cls(name, hold, trip, r_cold, vmax, imax, r_trip, p_trip, tuple(points), tol, tempco)
+
 
 def thermal_time_constant_s(m: PtcModel, i_a: float, t_s: float) -> float:
     """Thermal time constant of the lumped model that trips in ``t_s`` at ``i_a`` [s].
@@ -207,6 +246,13 @@ class Ptc(Part):
     kind: ClassVar[str] = "ptc"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "ptc"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "model")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Ptc":
+        """Its two nodes and a model of ``parts.ptcs``."""
+        a, b = e.pair("between", "[plus, p1]")
+        return cls(name=name, a=a, b=b, model=e.model("model", parts.ptcs, "ptc", "ptc_1k"), line=e.line)
 
     def _m(self, spec) -> PtcModel:
         return spec.parts.ptcs[self.model]
@@ -293,43 +339,6 @@ class Ptc(Part):
         out = [ctx.entry(self.name, self.kind, f"voltage across the tripped PTC{ctx.phase}", v, m.max_voltage_v, "V",
                          "safety")]
         return out
-
-
-def parse_model(ctx, m, name: str) -> PtcModel:
-    """A ``parts.ptcs`` entry (``m`` is the loader's mapping reader, ``ctx`` its context)."""
-    hold = m.qty("hold_current", "current", check="pos", example="50 mA")
-    trip = m.qty("trip_current", "current", check="pos", example="100 mA")
-    if trip < hold:
-        ctx.fail(f"{m.at('trip_current')} is below the hold current; a PTC trips above the current it holds "
-                 "(about twice it): check the values", m.get("trip_current").line)
-    r_cold = m.qty("cold_resistance", "resistance", check="pos", example="10 ohm")
-    vmax = m.qty("max_voltage", "voltage", check="pos", example="600 V")
-    imax = m.qty("max_current", "current", check="pos", example="3 A")
-    r_trip = m.qty("tripped_resistance", "resistance", None, check="pos")
-    p_trip = m.qty("tripped_power", "power", None, check="pos")
-    if (r_trip is None) == (p_trip is None):
-        ctx.fail(f"parts.ptcs.{name} needs exactly one of 'tripped_resistance: 100 kohm' or 'tripped_power: 1 W' "
-                 "(what the tripped part holds)", m.line)
-    tol = m.qty("tolerance", "fraction", 0.0, check="frac")
-    tempco = m.qty("tempco", "tempco", 0.0)
-    points: list[tuple[float, float]] = []
-    tn = m.get("time_to_trip")
-    if tn is not None:
-        ex = "[[200 mA, 5 s], [1 A, 100 ms]]"
-        for i, pt in enumerate(ctx.seq(tn, m.at("time_to_trip"), ex), 1):
-            pw = f"{m.at('time_to_trip')}[{i}]"
-            pair = ctx.seq(pt, pw, "[1 A, 100 ms]")
-            if len(pair) != 2:
-                ctx.fail(f"{pw} has {len(pair)} values; each point is [current, time], e.g. [1 A, 100 ms]", pt.line)
-            i_a = ctx.qty(pair[0], "current", f"{pw} current", "pos")
-            t_s = ctx.qty(pair[1], "time", f"{pw} time", "pos")
-            if not i_a > trip:
-                ctx.fail(f"{pw}: the current must be above the trip current; below it the part does not trip", pt.line)
-            if points and (i_a <= points[-1][0] or t_s > points[-1][1]):
-                ctx.fail(f"{pw}: list the points by rising current, the time falling (a larger current trips sooner)",
-                         pt.line)
-            points.append((i_a, t_s))
-    return PtcModel(name, hold, trip, r_cold, vmax, imax, r_trip, p_trip, tuple(points), tol, tempco)
 
 
 def model_yaml(m: PtcModel) -> str:

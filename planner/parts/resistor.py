@@ -16,6 +16,7 @@ from typing import ClassVar
 import numpy as np
 
 from ..tools import fmt, quantity
+from ..units import format_si
 from . import fusible
 from .base import Parameter, Part
 
@@ -25,6 +26,11 @@ from .base import Parameter, Part
 SHORT_OVERLOAD_S = 5.0
 SHORT_OVERLOAD_POWER_FACTOR = 2.5 ** 2
 SHORT_OVERLOAD_VOLTAGE_FACTOR = 2.0
+
+#: IEC 60063:2015 series the sizer can pick resistors from (``series:`` keys).
+E_SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")
+#: Keys of one entry of ``parts.resistors.ratings``.
+RATING_KEYS = ("power", "max_voltage", "pulse_energy")
 
 
 @dataclass(frozen=True)
@@ -69,6 +75,47 @@ class ResistorParts:
     pulse_energy_j: float | None = None
     pulse_energies_j: tuple[float | None, ...] = ()
 
+    #: Keys of ``parts.resistors`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = (
+        "series", "tolerance", "tempco", "power", "max_voltage", "pulse_energy", "distribution", "ratings"
+    )
+    file_example: ClassVar[str] = "{series: E96, tolerance: 0.5 %, power: 0.25 W}"
+
+    @classmethod
+    def read(cls, m) -> "ResistorParts":
+        """The defaults from the project file's ``parts.resistors`` (a
+        :class:`planner.project.reader.Section`); ratings must rise in power."""
+        d = cls()
+        series = m.choice("series", E_SERIES, d.series)
+        tol = m.qty("tolerance", "fraction", d.tolerance, check="frac")
+        tempco = m.tempco("tempco", d.tempco_per_k)
+        power = m.qty("power", "power", d.power_w, check="pos")
+        vmax = m.qty("max_voltage", "voltage", d.max_voltage_v, check="pos")
+        pulse = m.qty("pulse_energy", "energy", None, check="pos")
+        dist = m.choice("distribution", ("uniform", "normal"), d.distribution)
+        powers: list[float] = []
+        volts: list[float] = []
+        pulses: list[float | None] = []
+        prev_line = None
+        items = m.items("ratings", "[{power: 0.25 W, max_voltage: 250 V}, {power: 0.6 W, max_voltage: 350 V}]")
+        for i, item in enumerate(items, 1):
+            where = f"{m.at('ratings')}[{i}]"
+            r = m.ctx.mapping(item, where, RATING_KEYS, "{power: 0.25 W, max_voltage: 250 V}")
+            p = r.qty("power", "power", check="pos", example="0.25 W")
+            v = r.qty("max_voltage", "voltage", check="pos")
+            pulses.append(r.qty("pulse_energy", "energy", None, check="pos"))
+            if powers and p <= powers[-1]:
+                r.fail(f"{where}.power {format_si(p, 'W')} is not above the one before "
+                       f"({format_si(powers[-1], 'W')}, line {prev_line}); list the ratings by rising power",
+                       r.get("power").line)
+            powers.append(p)
+            volts.append(v)
+            prev_line = r.line
+        return cls(series=series, tolerance=tol, tempco_per_k=tempco, power_w=power, max_voltage_v=vmax,
+                   distribution=dist, power_ratings_w=tuple(powers), max_voltages_v=tuple(volts),
+                   pulse_energy_j=pulse,
+                   pulse_energies_j=tuple(pulses) if any(x is not None for x in pulses) else ())
+
 
 @dataclass(frozen=True)
 class Resistor(Part):
@@ -104,6 +151,34 @@ class Resistor(Part):
     kind: ClassVar[str] = "resistor"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "resistor"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "value", "tolerance", "tempco", "power",
+                                            "max_voltage", "series", "target", "group", "trimmer", "pulse_energy",
+                                            "fusible", "fusing", "breaking_voltage")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Resistor":
+        """Its value and ratings; the ones it does not give come from ``parts.resistors``."""
+        a, b = e.pair("between", "[vin, t1]")
+        rp = parts.resistors
+        tc = e.tempco("tempco", rp.tempco_per_k)
+        return cls(
+            name=name,
+            a=a,
+            b=b,
+            value_ohm=e.qty("value", "resistance", check="pos", example="9.8 kohm"),
+            tolerance=e.qty("tolerance", "fraction", rp.tolerance, check="frac"),
+            tempco_per_k=tc,
+            power_w=e.qty("power", "power", rp.power_w, check="pos"),
+            max_voltage_v=e.qty("max_voltage", "voltage", rp.max_voltage_v, check="pos"),
+            series=e.choice("series", E_SERIES, None),
+            target_ohm=e.qty("target", "resistance", None, check="pos"),
+            group=e.text("group", None, "'chain 10 V'"),
+            trimmer=e.boolean("trimmer", False),
+            distribution=rp.distribution,
+            line=e.line,
+            pulse_energy_j=e.qty("pulse_energy", "energy", None, check="pos"),
+            **fusible.read_element(e),
+        )
 
     def resistance(self, spec, dt_k) -> np.ndarray:
         """:math:`R (1 + \\alpha \\Delta T)` [ohm]."""

@@ -60,6 +60,26 @@ class VaristorModel:
     max_continuous_v: float
     peak_current_a: float = math.inf
 
+    #: Keys of one model of ``parts.varistors`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = VARISTOR_KEYS
+    file_example: ClassVar[str] = "{voltage: 1.2 kV, alpha: 30, energy: 20 J, max_continuous_voltage: 1 kV}"
+
+    @classmethod
+    def read(cls, m, name: str) -> "VaristorModel":
+        """The model ``name`` from its mapping of ``parts.varistors`` (a :class:`planner.project.reader.Section`)."""
+        v1 = m.qty("voltage", "voltage", check="pos", example="470 V")
+        alpha = m.qty("alpha", "dimensionless", check="pos", example="30")
+        if not 1.0 <= alpha <= 60.0:
+            m.fail(f"{m.at('alpha')} is {alpha:g}; the exponent of a varistor lies between 1 and 60 (metal oxide: "
+                   "about 20 to 50)", m.line_of("alpha"))
+        energy = m.qty("energy", "energy", check="pos", example="10 J")
+        vc = m.qty("max_continuous_voltage", "voltage", check="pos", example="300 V")
+        if vc > v1:
+            m.fail(f"{m.at('max_continuous_voltage')} is above the varistor voltage; a varistor's continuous rating "
+                   "lies below its 1 mA voltage: check the values", m.line_of("max_continuous_voltage"))
+        ipk = m.qty("peak_current", "current", math.inf, check="pos")
+        return cls(name, v1, alpha, energy, vc, ipk)
+
 
 def impulse_energy_j(peak_power_w: float) -> float:
     """Energy a part takes from one standard impulse whose peak power is ``peak_power_w`` [J].
@@ -95,6 +115,13 @@ class Varistor(Part):
     stamp: ClassVar[str] = "varistor"
     symbol: ClassVar[str] = "varistor"
     clamp: ClassVar[bool] = True
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "model")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Varistor":
+        """Its two nodes and a model of ``parts.varistors``."""
+        a, b = e.pair("between", "[p1, com]")
+        return cls(name=name, a=a, b=b, model=e.model("model", parts.varistors, "varistor", "mov_1k2"), line=e.line)
 
     def law(self, spec) -> tuple[float, float, float]:
         """Varistor voltage [V], exponent and the current at that voltage [A]."""
@@ -140,22 +167,6 @@ class Varistor(Part):
         v = ctx.voltage["rms"] if ctx.stimulus.waveform.cyclic else ctx.voltage["peak"]
         out.append(ctx.entry(self.name, self.kind, f"continuous voltage{ph}", v, m.max_continuous_v, "V", "rating"))
         return out
-
-
-def parse_model(ctx, m, name: str) -> VaristorModel:
-    """A ``parts.varistors`` entry (``m`` is the loader's mapping reader, ``ctx`` its context)."""
-    v1 = m.qty("voltage", "voltage", check="pos", example="470 V")
-    alpha = m.qty("alpha", "dimensionless", check="pos", example="30")
-    if not 1.0 <= alpha <= 60.0:
-        ctx.fail(f"{m.at('alpha')} is {alpha:g}; the exponent of a varistor lies between 1 and 60 (metal oxide: "
-                 "about 20 to 50)", m.get("alpha").line)
-    energy = m.qty("energy", "energy", check="pos", example="10 J")
-    vc = m.qty("max_continuous_voltage", "voltage", check="pos", example="300 V")
-    if vc > v1:
-        ctx.fail(f"{m.at('max_continuous_voltage')} is above the varistor voltage; a varistor's continuous rating "
-                 "lies below its 1 mA voltage: check the values", m.get("max_continuous_voltage").line)
-    ipk = m.qty("peak_current", "current", math.inf, check="pos")
-    return VaristorModel(name, v1, alpha, energy, vc, ipk)
 
 
 def model_yaml(m: VaristorModel) -> str:

@@ -149,7 +149,7 @@ def separate_shunts(i_ranges_a, i_fs_a: float, r_m_ohm: float) -> list[float]:
 
     References
     ----------
-    Textbook examples quoted in references.md: 1 mA, 43 ohm to 1 A gives 43.04 mohm;
+    Textbook worked examples of the shunt formula: 1 mA, 43 ohm to 1 A gives 43.04 mohm;
     50 uA, 1 kohm to 500 uA gives 111.1 ohm.
     """
     return [r_m_ohm * i_fs_a / (float(i) - i_fs_a) for i in i_ranges_a]

@@ -29,6 +29,7 @@ import math
 from dataclasses import dataclass
 
 from ...model import Diode, Fuse, Ptc, Resistor, Spec
+from ...parts.fusible import read_points
 from ..layout import COM, PLUS, Device, Layout, SizingSection
 from ..request import request_error
 
@@ -56,21 +57,14 @@ class ProtectionRequest:
 
 
 def parse(ctx, node, parts) -> ProtectionRequest | None:
-    """The ``protection`` section (``ctx`` is the loader's context; models checked against ``parts``)."""
+    """The ``protection`` section (``ctx`` is the loader's reader; models checked against ``parts``)."""
     if node is None:
         return None
-    ex = "{input_ptc: ptc_1k, ring_crowbar: si_3a, ring_crowbar_count: 2}"
-    m = ctx.mapping(node, "protection", PROTECTION_KEYS, ex)
+    m = ctx.mapping(node, "protection", PROTECTION_KEYS, "{input_ptc: ptc_1k, ring_crowbar: si_3a}")
 
     def ref(key, models, kind):
         n = m.get(key)
-        if n is None or n.is_null:
-            return None
-        name = ctx.text(n, m.at(key), "name")
-        if name not in models:
-            ctx.fail(f"{m.at(key)}: {kind} model '{name}' is not defined in parts.{kind}s; defined: "
-                     f"{', '.join(models) or 'none yet'}. Add it there", n.line)
-        return name
+        return None if n is None or n.is_null else m.model(key, models, kind, "name")
 
     ptc = ref("input_ptc", parts.ptcs, "ptc")
     crowbar = ref("ring_crowbar", parts.diodes, "diode")
@@ -78,23 +72,12 @@ def parse(ctx, node, parts) -> ProtectionRequest | None:
     fusible = m.boolean("fusible_input", False)
     r_f = m.qty("fusible_resistance", "resistance", None, check="pos")
     bv = m.qty("breaking_voltage", "voltage", math.inf, check="pos")
-    pts = []
-    fn = m.get("fusing")
-    if fn is not None:
-        for i, pt in enumerate(ctx.seq(fn, m.at("fusing"), "[[5 W, 10 s], [50 W, 50 ms]]"), 1):
-            pw = f"{m.at('fusing')}[{i}]"
-            pair = ctx.seq(pt, pw, "[5 W, 10 s]")
-            if len(pair) != 2:
-                ctx.fail(f"{pw} has {len(pair)} values; each point is [power, time], e.g. [5 W, 10 s]", pt.line)
-            p, t = ctx.qty(pair[0], "power", f"{pw} power", "pos"), ctx.qty(pair[1], "time", f"{pw} time", "pos")
-            if pts and (p <= pts[-1][0] or t > pts[-1][1]):
-                ctx.fail(f"{pw}: list the points by rising power, the time falling", pt.line)
-            pts.append((p, t))
+    pts = read_points(m, "fusing")
     if fusible and (r_f is None or not pts):
-        ctx.fail("protection.fusible_input needs 'fusible_resistance: 1 kohm' and 'fusing: [[power, time], ...]' "
-                 "(the maker's points of the fusible resistor)", m.line)
+        m.fail("protection.fusible_input needs 'fusible_resistance: 1 kohm' and 'fusing: [[power, time], ...]' "
+               "(the maker's points of the fusible resistor)", m.line)
     count = m.integer("ring_crowbar_count", 2, 1, 50, "2")
-    return ProtectionRequest(ptc, fusible, r_f, tuple(pts), bv, crowbar, count, ma_fuse, m.line)
+    return ProtectionRequest(ptc, fusible, r_f, pts, bv, crowbar, count, ma_fuse, m.line)
 
 
 def feed_ohm(spec: Spec) -> float:
