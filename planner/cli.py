@@ -272,10 +272,13 @@ def cmd_protect(args) -> int:
     finally:
         _end_progress(show)
     if args.write:
-        write_protected(design, result, args.write)
-        if args.write == "-":  # stdout carries the project alone
+        written = write_protected(design, result, args.write)
+        if written is None:
+            print("nothing protects better than the project as given: nothing written", file=sys.stderr)
+        elif args.write == "-":  # stdout carries the project alone
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
-        print(f"wrote {args.write}", file=sys.stderr)
+        else:
+            print(f"wrote {args.write}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 

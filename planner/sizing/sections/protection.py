@@ -164,3 +164,24 @@ def _fusible(name, a, b, pr: ProtectionRequest, rp) -> Resistor:
                     power_w=rp.power_w, max_voltage_v=max(rp.max_voltage_v, pr.breaking_voltage_v),
                     distribution=rp.distribution, line=pr.line, fusible=True, fusing=pr.fusing,
                     breaking_voltage_v=pr.breaking_voltage_v)
+
+
+def protection_lines(req: ProtectionRequest | None) -> list[str]:
+    """The ``protection:`` section of a project file (``['protection: {}']`` for none)."""
+    from ...tools import quantity
+    if req is None:
+        return ["protection: {}"]
+    lines = ["protection:"]
+    if req.input_ptc:
+        lines.append(f"  input_ptc: {req.input_ptc}")
+    if req.fusible_input:
+        pts = ", ".join(f"[{quantity(p, 'W')}, {quantity(t, 's')}]" for p, t in req.fusing)
+        lines += ["  fusible_input: true", f"  fusible_resistance: {quantity(req.fusible_ohm, 'ohm')}",
+                  f"  fusing: [{pts}]"]
+        if math.isfinite(req.breaking_voltage_v):
+            lines.append(f"  breaking_voltage: {quantity(req.breaking_voltage_v, 'V')}")
+    if req.ring_crowbar:
+        lines += [f"  ring_crowbar: {req.ring_crowbar}", f"  ring_crowbar_count: {req.ring_crowbar_count}"]
+    if req.ma_fuse:
+        lines.append(f"  ma_fuse: {req.ma_fuse}")
+    return lines
