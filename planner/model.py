@@ -255,6 +255,9 @@ class ClampRequest:
     reverse: str | None
     count: int = 1
     line: int | None = None
+    #: A string of ``count`` back-to-back pairs (zener or TVS: the forward model's cathode toward
+    #: the tap, then the reverse model's): clamps both polarities at breakdown plus one junction.
+    bidirectional: bool = False
 
 
 @dataclass(frozen=True)

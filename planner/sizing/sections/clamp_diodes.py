@@ -4,7 +4,12 @@ A clamp ``at: movement`` goes from ``m_plus`` to common; ``at: {above_movement: 
 declares a tap R above the movement (the voltage section splits its multiplier
 there) and puts the stack from the tap to common. Forward diodes have the anode
 toward the tap, reverse ones the cathode; ``count: n`` puts n in series in each
-direction (``docs/sizing.md``, section 3).
+direction (``docs/sizing.md``, section 3). ``bidirectional: true`` makes one string
+of n back-to-back pairs instead (zeners or TVS diodes: the forward model's cathode
+toward the tap, its anode to the reverse model's anode), clamping both polarities
+at breakdown plus one junction; a tap may split any segment of a multiplier chain.
+``across: ring`` is a crowbar across the Ayrton ring on its own switch pole
+(:func:`planner.sizing.sections.protection.ring_crowbar`).
 """
 
 from __future__ import annotations
@@ -76,6 +81,14 @@ class ClampDiodesSizing(SizingSection):
             node = M_PLUS if isinstance(cl.at, str) else tap_node[float(cl.at)]
             if node not in layout.clamp_nodes:
                 layout.clamp_nodes.append(node)
+            if cl.bidirectional:  # back-to-back pairs: tap -|<- mid ->|- ... to common
+                here = node
+                for i in range(1, int(cl.count) + 1):
+                    mid, nxt = f"clamp{j}_mid{i}", (COM if i == int(cl.count) else f"clamp{j}_pair{i}")
+                    layout.devices.append(Device("D", Diode, (mid, here, cl.forward, cl.line)))
+                    layout.devices.append(Device("D", Diode, (mid, nxt, cl.reverse, cl.line)))
+                    here = nxt
+                continue
             for direction, model in (("fwd", cl.forward), ("rev", cl.reverse)):
                 if model is None:
                     continue
