@@ -98,7 +98,7 @@ def open_checks(r, ctx) -> list[dict]:
         return []
     v = ctx.voltage["rms"] if ctx.stimulus.waveform.cyclic else ctx.voltage["peak"]
     return [ctx.entry(r.name, r.kind, f"voltage across the open fusible resistor{ctx.phase}", v, r.breaking_voltage_v,
-                      "V", "safety")]
+                      "V", "safety", rule="voltage rating", limit_name="fusible resistor breaking voltage")]
 
 
 def read_points(m, key: str) -> tuple:

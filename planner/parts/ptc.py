@@ -304,7 +304,7 @@ class Ptc(Part):
         stresses = [ctx.entry(self.name, self.kind, f"rms current{ph}", i_rms, m.trip_current_a, "A", "fuse trigger")]
         if trips:
             stresses.append(ctx.entry(self.name, self.kind, f"current to cut{ph}", i_rms, m.max_current_a, "A",
-                                      "safety"))
+                                      "safety", rule="breaking capacity", limit_name="ptc interruptible current"))
         known = t is not None and math.isfinite(t)
         record = {"name": self.name, "model": m.name, "kind": "ptc", "resets": True, "current_rms_a": i_rms,
                   "rated_current_a": m.hold_current_a, "trip_current_a": m.trip_current_a, "opens": bool(trips),
@@ -337,7 +337,7 @@ class Ptc(Part):
         m = self._m(ctx.spec)
         v = ctx.voltage["rms"] if ctx.stimulus.waveform.cyclic else ctx.voltage["peak"]
         out = [ctx.entry(self.name, self.kind, f"voltage across the tripped PTC{ctx.phase}", v, m.max_voltage_v, "V",
-                         "safety")]
+                         "safety", rule="voltage rating", limit_name="ptc maximum voltage")]
         return out
 
 

@@ -151,6 +151,8 @@ class Varistor(Part):
         """
         m = ctx.spec.parts.varistors[self.model]
         ph, ev = ctx.phase, ctx.event
+        # an absorber beyond its energy at a hazardous voltage can fail short, rupture or burn: a hazard rule
+        energy = ({"limit": "safety", "rule": "energy absorber"} if ctx.stimulus.hazardous() else {"limit": "rating"})
         out = []
         if math.isfinite(m.peak_current_a):
             out.append(ctx.entry(self.name, self.kind, f"peak current{ph}", ctx.current["peak"], m.peak_current_a, "A",
@@ -158,11 +160,11 @@ class Varistor(Part):
         if ctx.peak_only:
             p_pk = ctx.current["peak"] * ctx.voltage["peak"]
             out.append(ctx.entry(self.name, self.kind, f"impulse energy{ph}", impulse_energy_j(p_pk), m.energy_j, "J",
-                                 "rating", duration_s=IMPULSE_EQUIVALENT_S))
+                                 duration_s=IMPULSE_EQUIVALENT_S, limit_name="varistor energy", **energy))
             return out
         if ev is not None:
             out.append(ctx.entry(self.name, self.kind, f"pulse energy {ev.words}{ph}", abs(ctx.power_w) * ev.event_time_s,
-                                 m.energy_j, "J", "rating", duration_s=ev.event_time_s))
+                                 m.energy_j, "J", duration_s=ev.event_time_s, limit_name="varistor energy", **energy))
             return out
         v = ctx.voltage["rms"] if ctx.stimulus.waveform.cyclic else ctx.voltage["peak"]
         out.append(ctx.entry(self.name, self.kind, f"continuous voltage{ph}", v, m.max_continuous_v, "V", "rating"))
