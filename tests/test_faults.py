@@ -275,29 +275,30 @@ def test_accept_entry_listing_several_cases():
     assert [a["stimulus"] for a in out["accept_unmatched"]] == ["rnage up"]
 
 
-def test_example_multimeter_survives_up_to_its_max_input_except_accepted_cases():
+def test_example_multimeter_survives_its_category_and_max_input_without_accept_entries():
     from pathlib import Path
 
     from planner.project import load
 
     spec = load(Path(__file__).resolve().parents[1] / "projects" / "bench_multimeter.yaml")
+    assert spec.faults.accept == () and spec.faults.category == "CAT II 300 V"
     res_ = faults_project(spec)
-    assert res_["requirements_met"] is True and res_["accept_unmatched"] == []
-    for c in res_["cases"]:
-        assert c["verdict"] in ("ok", "pegs") or (c["accepted"] and c["accept_reason"])
-    # on the 1 A range the fuse opens under the maximum input and every part survives its pulse
-    (c,) = [c for c in res_["cases"] if (c["position"], c["stimulus"]) == ("1 A", "max input")]
-    assert c["verdict"] in ("ok", "pegs") and c["fuse_opens"] and c["fuse"] == "F1"
-    assert c["pre_arcing_time_s"] < 1e-5 and "fuse opens" in c["detail"]
-    pulse = [x for x in c["stresses"] if "while F1 opens" in x["quantity"]]
-    assert pulse and not any(x["exceeded"] for x in pulse)
-    # the accepted "pointer pegs" cases keep the movement within its short-time overload, as the
-    # reason says
-    for c in res_["cases"]:
-        if c["accepted"] and c["accept_reason"].startswith("pointer pegs"):
-            assert c["deciding"]["part"] == "M1"
-            assert all(x["ratio"] <= 1.0 for x in c["stresses"] if x["quantity"].startswith("peak multiple"))
+    bad = [(c["position"], c["stimulus"]) for c in res_["cases"] if c["verdict"] not in ("ok", "pegs")]
+    # the one case left is the next range's full scale driven by an ideal current source into the
+    # 100 mA range once F2 has opened: the source's compliance decides it, not a part
+    assert bad == [("100 mA", "range up")]
+    # the CAT II 300 V impulse (2.5 kV through 12 ohm, secondary source) on every position
+    imp = [c for c in res_["cases"] if c["stimulus"] == "CAT II 300 V impulse"]
+    assert len(imp) == 10 and all(c["verdict"] == "ok" for c in imp)
+    # a voltage range at the maximum input: the PTC trips against the chain clamp
+    (c,) = [c for c in res_["cases"] if (c["position"], c["stimulus"]) == ("500 mV", "max input")]
+    assert c["fuse"] == "RT1" and c["pre_arcing_time_s"] < 0.02
+    rt = [f for f in c["fuses"] if f["name"] == "RT1" and not f.get("after")][0]
+    assert rt["trips"] and rt["resets"]
+    # a mA range at the maximum input: the crowbar fires and the mA fuse opens, not the main fuse
+    (c,) = [c for c in res_["cases"] if (c["position"], c["stimulus"]) == ("10 mA", "max input")]
+    assert c["fuse"] == "F2" and c["verdict"] in ("ok", "pegs")
+    # break-before-make contacts survive every turn
+    assert all(t["verdict"] in ("ok", "pegs") for t in res_["transitions"] if t["style"] == "break_before_make")
     text = format_faults(res_)
-    lines = text.splitlines()
-    assert max(len(line) for line in lines) <= 100 and len(lines) <= 60  # about one screen
-    assert "Requirements met." in text and "F1 opens in" in text
+    assert max(len(line) for line in text.splitlines()) <= 100

@@ -268,7 +268,7 @@ def ladder_pulses(spec: Spec, ladder) -> list:
 
 
 def equivalent_power_w(p_w: float, t_s: float, ladder, pulses) -> float:
-    """The continuous rating a part needs to carry ``p_w`` for ``t_s`` [W].
+    r"""The continuous rating a part needs to carry ``p_w`` for ``t_s`` [W].
 
     Notes
     -----
