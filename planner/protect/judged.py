@@ -90,7 +90,9 @@ def protection_candidates(spec) -> list:
     given = spec.protection
     ptcs = [None] + (list(cat.ptcs) if spec.voltage is not None else [])
     fused = spec.current is not None and bool(spec.current.fuse)
-    crowbars = [None] + (list(cat.diodes) if fused else [])
+    # a crowbar is forward junctions that carry the fault until the main fuse opens
+    main_a = cat.fuses[spec.current.fuse].rated_current_a if fused else math.inf
+    crowbars = [None] + [k for k, d in cat.diodes.items() if fused and d.bv_v is None and d.max_current_a >= main_a]
     ma = [None]
     if fused:
         lo, hi = min(spec.current.full_scales), max(spec.current.full_scales)
