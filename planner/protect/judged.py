@@ -208,42 +208,58 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
     notes = []
     say("the misrange matrix of the project as given")
     given = matrix_score(faults_project(design))
-    base_spec, base = spec, given
+    bases = [("as given", spec, given)]
     clamp_plan = None
     if result.get("chosen") and spec.text:
         say("the misrange matrix of the chosen clamp placement")
         try:
             planned = loads(text_of(design, result), spec.path or "<plan>")
             clamp_plan = matrix_score(faults_project(build(planned)))
+            bases.append(("clamp placement", planned, clamp_plan))
         except PlannerError as e:
             notes.append(f"the chosen clamp placement does not build ({e}); kept as given")
-            clamp_plan = None
-        if clamp_plan is not None and not_worse(clamp_plan, given):
-            base_spec, base = planned, clamp_plan
-        else:
-            if clamp_plan is not None:
-                notes.append(f"the clamp placement found leaves {clamp_plan['failing']} failing cases (worst ratio "
-                             f"{clamp_plan['worst_ratio']:.3g}) against {given['failing']} ({given['worst_ratio']:.3g}) "
-                             "as given: not chosen")
-            result["chosen"] = None
     rows = []
-    chosen_parts = None
     if spec.network is None and (spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes):
         t_hot = float(spec.ambient.t_max_k)
-        bare = _hot_readings(build(replace(base_spec, protection=None)), t_hot)
-        for req in protection_candidates(base_spec):
-            say(f"protection parts: {describe(req)}")
-            row = _judge_protection(base_spec, req, t_hot, bare, share, say)
-            if row is not None:
-                row["as_given"] = req == base_spec.protection
-                rows.append(row)
+        for clamps, base_spec, base_matrix in bases:
+            bare = _hot_readings(build(replace(base_spec, protection=None)), t_hot)
+            for req in protection_candidates(base_spec):
+                say(f"protection parts with the clamps {clamps}: {describe(req)}")
+                if req == base_spec.protection:
+                    row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
+                           "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
+                    if req is not None:  # its price against no protection parts at all
+                        row = _judge_protection(base_spec, req, t_hot, bare, share, say) or row
+                else:
+                    row = _judge_protection(base_spec, req, t_hot, bare, share, say)
+                if row is not None:
+                    row["clamps"] = clamps
+                    row["as_given"] = clamps == "as given" and req == spec.protection
+                    rows.append(row)
         rows.sort(key=plan_key)
-        mine = next((r for r in rows if r["as_given"]), None)
-        best = rows[0] if rows else None
-        if best is not None and mine is not None and not best["as_given"] and plan_key(best) < plan_key(mine) \
-                and not_worse(best["matrix"], base) and best["price_share"] <= 1.0 + 1e-12:
+    else:
+        rows = [{"protection": as_dict(spec.protection), "label": describe(spec.protection), "matrix": m,
+                 "price_pct": 0.0, "price_share": 0.0, "parts_added": 0, "clamps": c,
+                 "as_given": c == "as given"} for c, _, m in bases]
+        rows.sort(key=plan_key)
+    mine = next(r for r in rows if r["as_given"]) if any(r["as_given"] for r in rows) else \
+        {"matrix": given, "price_share": 0.0, "parts_added": 0}
+    best = rows[0] if rows else None
+    chosen_parts = None
+    base = given
+    if best is not None and not best["as_given"] and plan_key(best) < plan_key(mine) \
+            and not_worse(best["matrix"], given) and best["price_share"] <= 1.0 + 1e-12:
+        base = best["matrix"]
+        if best["protection"] != as_dict(spec.protection):
             chosen_parts = best
-            base = best["matrix"]
+        if best["clamps"] != "clamp placement":
+            result["chosen"] = None
+    else:
+        result["chosen"] = None
+    if clamp_plan is not None and result.get("chosen") is None:
+        notes.append(f"the clamp placement found leaves {clamp_plan['failing']} failing cases (worst ratio "
+                     f"{clamp_plan['worst_ratio']:.3g}; {given['failing']}, {given['worst_ratio']:.3g} as given): "
+                     "the clamps stay as they are")
     improves = (base["failing"], round(base["worst_ratio"], 9)) < (given["failing"], round(given["worst_ratio"], 9))
     return {"as_given": given, "clamp_plan": clamp_plan, "parts": rows, "chosen_parts": chosen_parts,
             "planned": base, "improves": bool(improves), "notes": notes}

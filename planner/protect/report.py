@@ -308,11 +308,12 @@ def _matrix_lines(result: dict) -> list[str]:
     lines = ["", "Judged on the misrange matrix (planner faults):", f"  as given: {_matrix_text(j['as_given'])}"]
     if j["clamp_plan"] is not None:
         lines.append(f"  clamp placement: {_matrix_text(j['clamp_plan'])}")
+    best = j["parts"][0] if j["parts"] and result.get("writes") else None
     for r in j["parts"][:6]:
-        mark = " <- chosen" if j["chosen_parts"] is not None and r is not None and r["label"] == \
-            j["chosen_parts"]["label"] else (" (as given)" if r["as_given"] else "")
-        lines.append(f"  protection {r['label']}: {_matrix_text(r['matrix'])}; price {r['price_pct']:.3f} % "
-                     f"({100 * r['price_share']:.0f} % of the share), {r['parts_added']} parts{mark}")
+        mark = " <- chosen" if r is best else (" (as given)" if r["as_given"] else "")
+        lines.append(f"  {r['clamps']} clamps, protection {r['label']}: {_matrix_text(r['matrix'])}; price "
+                     f"{r['price_pct']:.3f} % ({100 * r['price_share']:.0f} % of the share), {r['parts_added']} "
+                     f"parts{mark}")
     lines += ["  " + n for n in j["notes"]]
     if not result.get("writes"):
         lines.append("  nothing protects better than the project as given: the file stays as it is")
