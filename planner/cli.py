@@ -185,13 +185,13 @@ def cmd_size(args) -> int:
 
 def cmd_check(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .accuracy import check_project, format_check
+    from .accuracy import check, format_check
 
     design = _design(spec)
     show = _progress(args)
     try:
-        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
-                               progress=show)
+        result = check(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
+                       progress=show).json
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
@@ -241,15 +241,34 @@ def cmd_dossier(args) -> int:
     from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
-    check_targets([out] + ([args.bom] if args.bom else []), protect=[args.project])
+    inputs = [args.project] + ([args.readings] if args.readings else [])
+    check_targets([out] + ([args.bom] if args.bom else []), protect=inputs)
     design = _design(spec)
+    diagnosis = None
+    if args.readings:  # bad readings are bad input: exit 2 before anything is written
+        from .diagnose import diagnose, diagnosis_json
+
+        diagnosis = diagnosis_json(diagnose(spec, args.readings))
+    plate = _dossier_plate(design)
     show = _progress(args)
     try:
-        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,
+                             plate=plate, diagnosis=diagnosis, readings=args.readings, protect=inputs[1:])
     finally:
         _end_progress(show)
     print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
     return EXIT_OK
+
+
+def _dossier_plate(design):
+    """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
+    from .errors import PlannerError
+    from .scale import scale_project
+
+    try:
+        return scale_project(design)
+    except PlannerError as exc:
+        return exc.one_line()
 
 
 def cmd_protect(args) -> int:
@@ -386,6 +405,8 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
     sp.add_argument("--samples", metavar="N", help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--readings", metavar="READINGS.csv",
+                    help="readings of the meter (position,applied,reading): adds the restoration section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
 
@@ -415,6 +436,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
     sp.set_defaults(func=cmd_scale)
     _add_diagnose(sub)
+    _add_netlist(sub)
     return p
 
 
@@ -532,6 +554,53 @@ def _add_diagnose(sub) -> None:
     sp.add_argument("--series", metavar="E96", help="E-series of the replacements (default: each part's own)")
     sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
     sp.set_defaults(func=cmd_diagnose)
+
+
+# --- planner netlist -----------------------------------------------------------------------
+
+
+def cmd_netlist(args) -> int:
+    out = args.output or "-"
+    _check_output(out, args.project)
+    # --volts, --amps [SI] and --temperature [K] are converted with every command's options
+    ohms = None if args.ohms is None else _quantity(args.ohms, "resistance", "--ohms", "pos")
+    volts, amps, temp = args.volts, args.amps, args.temperature
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from . import __version__
+    from .engine import Engine
+    from .export import spice_deck, stimulus_for
+    from .fsio import emit
+
+    design = _design(spec)
+    st = design.state(args.position)  # an unknown name: exit 2 with the nearest one
+    stim = stimulus_for(st.position, volts=volts, amps=amps, ohms=ohms)
+    expected = None
+    if stim.kind in ("voltage", "current"):  # the planner's own answer, for the reader to compare
+        op = Engine(design).operate(st, [stim.value], kind=stim.kind, temperature_k=temp)
+        expected = float(op.movement_current_a[0, 0])
+    deck = spice_deck(design, st.name, stim, temperature_k=temp, expected_a=expected, source=args.project,
+                      version=__version__)
+    if emit(out, deck, protect=[args.project]):
+        print(f"wrote {out}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_netlist(sub) -> None:
+    sp = sub.add_parser("netlist", help="a SPICE deck of one position (ngspice runs it as written; i(vmove) is "
+                                        "the movement current)")
+    sp.add_argument("project", metavar="FILE", help="project file (YAML)")
+    sp.add_argument("--position", required=True, metavar="NAME", help="switch position, e.g. '10 V'")
+    g = sp.add_mutually_exclusive_group()
+    g.add_argument("--volts", metavar="V", help="applied voltage, e.g. 12 or '12 V' (default: the position's full "
+                                                "scale)")
+    g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="resistor across the terminals of a resistance position, e.g. '1 kohm'")
+    sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit "
+                                                       "(default: the reference temperature)")
+    sp.add_argument("-o", "--output", metavar="OUT.cir", help="write the deck to this file (default, or '-': "
+                                                              "standard output)")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
+    sp.set_defaults(func=cmd_netlist)
 
 
 if __name__ == "__main__":  # pragma: no cover

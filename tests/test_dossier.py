@@ -328,3 +328,82 @@ def test_value_text_and_hazard_limits():
     assert not is_hazardous(70.0) and is_hazardous(70.1)
     assert not is_hazardous(33.0, "sine") and is_hazardous(33.1, "sine")
     assert is_hazardous(-250.0)
+
+
+@pytest.mark.slow
+def test_the_dossier_command_sizes_once_and_renders_without_solving(tmp_path, monkeypatch):
+    """``planner dossier`` of the multimeter: one sizing, one Design, no solve while rendering.
+
+    The analyses (check, faults) solve; the rendering only lays their results out
+    (the Monte Carlo histogram, test points and acceptance readings come from the
+    accuracy check's arrays). Counted by wrapping the sizer, ``planner.design.build``,
+    every entry to the solver and the Engine's constructor.
+    """
+    import planner.design
+    import planner.dossier
+    import planner.engine
+    import planner.sizing.ratings
+    import planner.solve
+    from planner.cli import main
+
+    counts = {"size": 0, "build": 0, "solve_analyses": 0, "solve_render": 0, "engine_render": 0}
+    phase = ["analyses"]
+
+    def counting(key, fn):
+        def wrapped(*args, **kwargs):
+            counts[key() if callable(key) else key] += 1
+            return fn(*args, **kwargs)
+        return wrapped
+
+    solve_key = lambda: f"solve_{phase[0]}"  # noqa: E731 - the phase at call time
+    monkeypatch.setattr(planner.design, "size", counting("size", planner.design.size))
+    monkeypatch.setattr(planner.design, "build", counting("build", planner.design.build))
+    for mod in (planner.solve, planner.engine, planner.sizing.ratings):
+        monkeypatch.setattr(mod, "solve", counting(solve_key, mod.solve))
+    engine_init = planner.engine.Engine.__init__
+
+    def init(self, *args, **kwargs):
+        if phase[0] == "render":
+            counts["engine_render"] += 1
+        engine_init(self, *args, **kwargs)
+
+    monkeypatch.setattr(planner.engine.Engine, "__init__", init)
+    render = planner.dossier.render
+
+    def rendering(*args, **kwargs):
+        phase[0] = "render"
+        try:
+            return render(*args, **kwargs)
+        finally:
+            phase[0] = "analyses"
+
+    monkeypatch.setattr(planner.dossier, "render", rendering)
+    out = tmp_path / "multimeter.pdf"
+    assert main(["dossier", str(ROOT / "projects" / "bench_multimeter.yaml"), "-o", str(out),
+                 "--samples", "50"]) == 0
+    assert out.stat().st_size > 0
+    assert counts["size"] == 1 and counts["build"] == 1
+    assert counts["solve_analyses"] > 0  # the counter sees the analyses' solves
+    assert counts["solve_render"] == 0 and counts["engine_render"] == 0
+
+
+def test_acceptance_and_histogram_come_from_the_check(tmp_path):
+    """The dossier's expected readings and Monte Carlo errors are the accuracy check's own numbers."""
+    from planner.accuracy import check
+    from planner.design import build
+    from planner.dossier import gather
+
+    design = build(load(ROOT / "projects" / "pocket_voltmeter.yaml"))
+    ctx = gather(design, samples=40, seed=3)
+    again = check(design, samples=40, seed=3)
+    for name in ctx.position_names():
+        arr, ref = ctx.arrays(name), again.position(name)
+        # the same seeded builds give the same errors (to the last bit: same solves, same order)
+        np.testing.assert_array_equal(arr.mc_error_pct, ref.mc_error_pct)
+        q = ctx.check_position(name)
+        assert arr.mc_error_pct.shape == (40,)
+        assert np.mean(np.abs(arr.mc_error_pct) <= q["class_index"]) == q["yield_fraction"]
+        # the acceptance readings at 20 %, 50 %, 100 % are the check's linearity rows
+        for frac in (0.2, 0.5, 1.0):
+            row = [r for r in q["linearity"] if abs(r["applied"] - frac * q["full_scale"]) < 1e-9 * q["full_scale"]]
+            assert arr.reading_at(frac) == row[0]["reading"]

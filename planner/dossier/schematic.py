@@ -31,7 +31,6 @@ from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rec
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from ..model import Contact, Diode, Fuse, MovementElement, Resistor
 from .layout import ACCENT, INK, MUTED, PALE
 from .text import value_text
 
@@ -64,6 +63,7 @@ class Compound:
     members: tuple
 
     kind = "resistor"
+    symbol = "resistor"
     trimmer = False
 
     @property
@@ -123,7 +123,7 @@ def _merge(elements, keep_nodes) -> list:
         changed = False
         pairs = defaultdict(list)
         for e in items:
-            if isinstance(e, (Resistor, Compound)):
+            if e.symbol == "resistor":
                 pairs[frozenset(e.nodes)].append(e)
         for key, group in sorted(pairs.items(), key=lambda kv: sorted(kv[0])):
             if len(group) > 1 and len(key) == 2:
@@ -141,7 +141,7 @@ def _merge(elements, keep_nodes) -> list:
                 touch[n].append(e)
         for n in sorted(touch):
             es = touch[n]
-            if n in keep_nodes or len(es) != 2 or not all(isinstance(e, (Resistor, Compound)) for e in es):
+            if n in keep_nodes or len(es) != 2 or not all(e.symbol == "resistor" for e in es):
                 continue
             e1, e2 = es
             if e1.nodes.count(n) != 1 or e2.nodes.count(n) != 1:
@@ -182,14 +182,14 @@ def common_node(net) -> str:
 def _weight(spec, e) -> float:
     if isinstance(e, Compound):
         return max(_value_of(e), 1e-9)
-    if isinstance(e, Resistor):
+    if e.symbol == "resistor":
         return max(e.value_ohm, 1e-9)
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         return max(spec.movement.r_coil_ohm, 1e-9)
-    if isinstance(e, Fuse):
+    if e.symbol == "fuse":
         f = spec.parts.fuses.get(e.model)
         return max(f.r_cold_ohm if f else 0.0, 1e-9)
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return max(e.r_ohm, 1e-9)
     return math.inf
 
@@ -210,18 +210,18 @@ def _wrap_list(items, width=15) -> list[str]:
 def _label_lines(spec, e) -> list[str]:
     if isinstance(e, Compound):
         return [_names(e)] + _value_lines(e)
-    if isinstance(e, Resistor):
+    if e.symbol == "resistor":
         extra = " trim" if e.trimmer else ""
         return [e.name, value_text(e.value_ohm, "ohm") + extra]
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         m = spec.movement
         return [e.name, value_text(m.i_fs_a, "A") + " fs", value_text(m.r_coil_ohm, "ohm")]
-    if isinstance(e, Diode):
+    if e.symbol == "diode":
         return [e.name, e.model]
-    if isinstance(e, Fuse):
+    if e.symbol == "fuse":
         f = spec.parts.fuses.get(e.model)
         return [e.name, value_text(f.rated_current_a, "A") if f else e.model]
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return [e.name] + (_wrap_list(e.closed_in) or ["never closed"])
     return [e.name]
 
@@ -276,37 +276,43 @@ def _contact(g, x, y, vertical: bool):
 
 def _gap(e) -> float:
     """Half the length of the stroke a symbol covers (the wire stops there)."""
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         return 10.0
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return 8.7
-    if isinstance(e, Diode):
+    if e.symbol == "diode":
         return 5.0
     return 11.0
 
 
+def _compound(g, e, x, y):
+    _resistor(g, x, y, True, False)
+    if e.how == "parallel":
+        g.add(Line(x - 4, y - 11, x + 4, y + 11, strokeColor=INK, strokeWidth=0.5))
+        g.add(Line(x - 4, y + 11, x + 4, y - 11, strokeColor=INK, strokeWidth=0.5))
+    else:
+        for k in range(1, min(len(e.members), 4)):
+            yy = y - 11 + 22 * k / min(len(e.members), 4)
+            g.add(Line(x - 4, yy, x + 4, yy, strokeColor=INK, strokeWidth=0.5))
+
+
+#: How each part's symbol (:attr:`planner.parts.Part.symbol`) is drawn on a vertical stroke:
+#: ``draw(group, element, x, y, node_below, node_above)``.
+SYMBOLS = {
+    "resistor": lambda g, e, x, y, lo, hi: (_compound(g, e, x, y) if isinstance(e, Compound)
+                                            else _resistor(g, x, y, True, e.trimmer)),
+    "fuse": lambda g, e, x, y, lo, hi: _fuse(g, x, y),
+    "movement": lambda g, e, x, y, lo, hi: _movement(g, x, y, plus_up=(e.a == hi)),
+    "diode": lambda g, e, x, y, lo, hi: _diode(g, x, y, up=(e.cathode == hi)),
+    "contact": lambda g, e, x, y, lo, hi: _contact(g, x, y, True),
+    "ptc": lambda g, e, x, y, lo, hi: _nonlinear_resistor(g, x, y, hooked=True),
+    "varistor": lambda g, e, x, y, lo, hi: _nonlinear_resistor(g, x, y, hooked=False),
+}
+
+
 def _symbol(g, spec, e, x, y, lo_node, hi_node):
-    if isinstance(e, Compound):
-        _resistor(g, x, y, True, False)
-        if e.how == "parallel":
-            g.add(Line(x - 4, y - 11, x + 4, y + 11, strokeColor=INK, strokeWidth=0.5))
-            g.add(Line(x - 4, y + 11, x + 4, y - 11, strokeColor=INK, strokeWidth=0.5))
-        else:
-            for k in range(1, min(len(e.members), 4)):
-                yy = y - 11 + 22 * k / min(len(e.members), 4)
-                g.add(Line(x - 4, yy, x + 4, yy, strokeColor=INK, strokeWidth=0.5))
-    elif isinstance(e, Resistor):
-        _resistor(g, x, y, True, e.trimmer)
-    elif isinstance(e, Fuse):
-        _fuse(g, x, y)
-    elif isinstance(e, MovementElement):
-        _movement(g, x, y, plus_up=(e.a == hi_node))
-    elif isinstance(e, Diode):
-        _diode(g, x, y, up=(e.cathode == hi_node))
-    elif isinstance(e, Contact):
-        _contact(g, x, y, True)
-    elif e.symbol in ("ptc", "varistor"):
-        _nonlinear_resistor(g, x, y, hooked=e.symbol == "ptc")
+    """Draw the symbol the part names; a part without a drawing of its own is a labelled box."""
+    SYMBOLS.get(e.symbol, lambda g, e, x, y, lo, hi: _resistor(g, x, y, True, False))(g, e, x, y, lo_node, hi_node)
 
 
 def _labels(g, lines, x, y, anchor="start"):
@@ -337,7 +343,7 @@ def _plan(spec, net):
     """Rows, columns and switch layout of the ladder drawing (no geometry yet)."""
     ground = common_node(net)
     elements = list(net.elements)
-    contacts = [e for e in elements if isinstance(e, Contact)]
+    contacts = [e for e in elements if e.symbol == "contact"]
     degree = defaultdict(int)
     for c in contacts:
         degree[c.a] += 1
@@ -345,7 +351,7 @@ def _plan(spec, net):
     fixed = nx.MultiGraph()
     fixed.add_node(ground)
     for e in elements:
-        if not isinstance(e, Contact):
+        if not e.symbol == "contact":
             fixed.add_edge(*e.nodes, key=e.name)
     grounded = nx.node_connected_component(fixed, ground)
     # a pole (switch wiper) carries several contacts and reaches the common only through them
@@ -355,7 +361,7 @@ def _plan(spec, net):
         return (c.a in poles) != (c.b in poles)
 
     while True:
-        ladder_elems = [e for e in elements if not (isinstance(e, Contact) and is_throw(e))]
+        ladder_elems = [e for e in elements if not (e.symbol == "contact" and is_throw(e))]
         g = nx.MultiGraph()
         g.add_node(ground)
         for e in ladder_elems:
@@ -366,7 +372,7 @@ def _plan(spec, net):
             break
         poles -= demote
     ladder_elems = [e for e in elements if all(n in comp for n in e.nodes)
-                    and not (isinstance(e, Contact) and is_throw(e))]
+                    and not (e.symbol == "contact" and is_throw(e))]
     throws = [c for c in contacts if is_throw(c)]
     terminals0 = {n for p in net.positions for n in p.input}
     keep = terminals0 | {n for c in contacts for n in c.nodes}
@@ -410,7 +416,7 @@ def _plan(spec, net):
     wg = nx.Graph()
     wg.add_node(ground)
     for e in ladder_elems:
-        if isinstance(e, Diode):
+        if e.symbol == "diode":
             continue
         a, b = e.nodes
         w = _weight(spec, e)
@@ -662,8 +668,8 @@ def graph_drawing(spec, net, max_width: float, max_height: float) -> Drawing:
         nx_, ny_ = -(yb - ya) / length, (xb - xa) / length
         bow = 16.0 * ((idx + 1) // 2) * (1 if idx % 2 else -1)
         cx, cy = mx + nx_ * bow, my + ny_ * bow
-        dash = (2, 2) if isinstance(e, Contact) else None
-        colour = ACCENT if isinstance(e, (Diode, MovementElement)) else INK
+        dash = (2, 2) if e.symbol == "contact" else None
+        colour = ACCENT if e.symbol in ("diode", "movement") else INK
         grp.add(Line(xa, ya, cx, cy, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         grp.add(Line(cx, cy, xb, yb, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         text = " ".join(_label_lines(spec, e)[:2])
@@ -703,10 +709,10 @@ def connection_rows(net) -> list[tuple[str, str]]:
     """The connection list: each node and the element pins on it, in name order."""
     pins = defaultdict(list)
     for e in net.elements:
-        if isinstance(e, Diode):
+        if e.symbol == "diode":
             pins[e.anode].append(f"{e.name} anode")
             pins[e.cathode].append(f"{e.name} cathode")
-        elif isinstance(e, MovementElement):
+        elif e.symbol == "movement":
             pins[e.a].append(f"{e.name} +")
             pins[e.b].append(f"{e.name} -")
         else:

@@ -45,6 +45,30 @@ judges that stand-in. Each receives a *judging context* (built by
 ``ctx.entry(...)``, ``ctx.exceeds(value, rating)``
     a stress entry (:func:`planner.stress.verdict.stress_entry`) and the
     comparison every limit uses.
+
+How a circuit simulator sees it (``planner netlist``, :mod:`planner.export.netlist`):
+:meth:`Part.spice` returns the element's SPICE lines, written with the element
+equations of the design contract. It receives a *deck* (see
+:class:`planner.export.netlist.Deck`):
+
+``deck.node(name)``
+    the SPICE node of a network node (nodes joined by ideal contacts are one
+    node; the input's minus terminal is ``0``);
+``deck.instance(letter, designator, role='')``
+    a unique instance name that starts with the SPICE letter (``R``, ``D``,
+    ``V``, ``B`` ...);
+``deck.inner(designator, role)``
+    a fresh internal node (between a part's own sub-elements);
+``deck.model(name, text)``
+    declare a ``.model`` once per deck; returns its name;
+``deck.num(x)``
+    a float written so that the simulator reads back the same double;
+``deck.spec``, ``deck.temperature_k``, ``deck.t_ref_k``, ``deck.gmin``
+    the project, the deck's and the reference temperature [K] (the deck sets
+    ``temp`` and ``tnom`` to them), the simulator's gmin [S];
+``deck.vt_ratio``
+    (k/q of the contract) / (k/q of the simulator): scale a native diode's
+    ``N`` and ``XTI`` by it so that its N V_t is the contract's n V_t exactly.
 """
 
 from __future__ import annotations
@@ -195,6 +219,26 @@ class Part:
     def yaml(self) -> str:
         """The element as a project-file flow mapping (see :mod:`planner.writer`)."""
         raise NotImplementedError(f"no project-file form for element kind {self.kind!r}")
+
+    # --- a circuit simulator (planner netlist) ---------------------------------------
+    def spice(self, deck) -> list[str]:
+        """Its SPICE lines in a deck, with the contract's element equation.
+
+        Parameters
+        ----------
+        deck : planner.export.netlist.Deck
+            Node and instance names, models, the project and the temperature
+            (see the module docstring).
+
+        Returns
+        -------
+        list of str
+            Comment lines (``*``), element lines and, through ``deck.model``,
+            models. Called only where the element is in circuit and does not
+            merge its nodes.
+        """
+        raise NotImplementedError(f"element kind {self.kind!r} has no SPICE form: give its class a spice() method "
+                                  "(see DEVELOPERS.md, 'How to add a part model')")
 
     # --- misrange ratings (planner.stress) -----------------------------------------
     def checks(self, ctx) -> list[dict]:

@@ -56,6 +56,14 @@ class Contact(Part):
         """Its contact resistance, independent of temperature [ohm]."""
         return self.r_ohm + 0.0 * dt_k
 
+    def spice(self, deck) -> list[str]:
+        """A closed contact with resistance: a resistor of its contact resistance.
+
+        (A closed contact of zero resistance joins its nodes in the deck and an
+        open one is left out; neither reaches this method.)
+        """
+        return [f"{deck.instance('R', self.name)} {deck.node(self.a)} {deck.node(self.b)} {deck.num(self.r_ohm)}"]
+
     def yaml(self) -> str:
         closed = ", ".join(yaml_string(c) for c in self.closed_in)
         extra = f", resistance: {quantity(self.r_ohm, 'ohm')}" if self.r_ohm else ""

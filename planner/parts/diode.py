@@ -17,7 +17,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from ..solve import saturation_current, thermal_voltage
+from ..solve import BOLTZMANN, CHARGE, saturation_current, thermal_voltage
 from .base import Parameter, Part
 
 #: Duration of a diode's non-repetitive surge-current rating: one half-cycle of
@@ -187,6 +187,72 @@ class Diode(Part):
 
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, model: {self.model}}}"
+
+    def spice(self, deck) -> list[str]:
+        """A native SPICE diode for the junction, made the contract's law where SPICE's differs.
+
+        Notes
+        -----
+        The junction is SPICE's ``D`` with ``RS=0``; R_s is a resistor in series
+        and R_p a resistor across the junction alone (less the simulator's gmin,
+        which it puts across every junction), so
+        :math:`I_j = I_s (e^{V_j/(n V_t)} - 1) + V_j / R_p`. ``N`` and ``XTI`` are
+        scaled by ``deck.vt_ratio`` so that ``N`` V_t in the simulator's constants is
+        n V_t in the exact SI ones (ngspice uses CODATA 2014 k and q) and XTI/N =
+        xti/n: SPICE's saturation-current law is then the contract's,
+        :math:`I_s(T) = I_s(T_0) (T/T_0)^{XTI/n} \\exp((T/T_0 - 1) E_g / (n V_t))`,
+        with ``TNOM`` at the model's temperature. Two behavioural current sources
+        across the junction finish the contract's law:
+
+        * below :math:`-3 n V_t` SPICE replaces the exponential by the SPICE2
+          approximation :math:`-I_s (1 + (3 n V_t / (e V))^3)`; the source adds
+          :math:`I_s(T) (e^{u/(n V_t)} + (3 n V_t/(e u))^3)` with
+          :math:`u = \\min(V, -3 n V_t)`, which is zero above that voltage;
+        * reverse breakdown (a model with ``bv_v``):
+          :math:`-I_{BV} e^{-(V + BV)/(n V_t)}` (SPICE's own BV model refits BV).
+
+        Both hold :math:`n V_t` and :math:`I_s(T)` at the deck's temperature as
+        numbers (a deck for another temperature is written with ``--temperature``;
+        the native diode and the resistors follow ``temp`` by themselves).
+
+        References
+        ----------
+        P. Antognetti and G. Massobrio, *Semiconductor Device Modeling with SPICE*,
+        2nd ed., McGraw-Hill, 1993, ch. 1 (diode model, temperature law); the
+        ngspice manual (version 39), "Diodes", and its sources ``dioload.c``,
+        ``diotemp.c`` (the reverse approximation and the temperature law).
+        """
+        d = deck.spec.parts.diodes[self.model]
+        num = deck.num
+        t_nom = d.t_nom_k if d.t_nom_k is not None else deck.t_ref_k
+        an, ca = deck.node(self.anode), deck.node(self.cathode)
+        words = [f"I_s {num(d.i_s_a)} A at {deck.celsius(t_nom)} degC", f"n {num(d.n)}", f"R_s {num(d.r_s_ohm)} ohm",
+                 f"R_p {num(d.r_p_ohm) + ' ohm' if math.isfinite(d.r_p_ohm) else 'none'}", f"E_g {num(d.eg_ev)} eV", f"XTI {num(d.xti)}"]
+        if d.bv_v is not None:
+            words.append(f"breakdown {num(d.bv_v)} V at {num(d.ibv_a)} A")
+        out = [f"* {self.name}: diode, model {self.model} ({', '.join(words)})"]
+        j = an
+        if d.r_s_ohm > 0.0:
+            j = deck.inner(self.name, "j")
+            out.append(f"{deck.instance('R', self.name, 's')} {an} {j} {num(d.r_s_ohm)}")
+        # the simulator's gmin across the junction stands in for a leakage below it
+        if math.isfinite(d.r_p_ohm) and 1.0 / d.r_p_ohm > deck.gmin:
+            r_p = d.r_p_ohm if deck.gmin == 0.0 else 1.0 / (1.0 / d.r_p_ohm - deck.gmin)
+            out.append(f"{deck.instance('R', self.name, 'p')} {j} {ca} {num(r_p)}")
+        breakdown = "" if d.bv_v is None else f" BV={num(d.bv_v)} IBV={num(d.ibv_a)}"
+        model = deck.model(f"d_{self.model}", f"D(IS={num(d.i_s_a)} N={num(d.n * deck.vt_ratio)} RS=0 "
+                                              f"EG={num(d.eg_ev)} XTI={num(d.xti * deck.vt_ratio)} "
+                                              f"TNOM={deck.celsius(t_nom)}{breakdown})")
+        out.append(f"{deck.instance('D', self.name)} {j} {ca} {model}")
+        # the behavioural sources hold n V_t and I_s(T) at the deck's temperature as numbers
+        nvt = d.n * BOLTZMANN / CHARGE * deck.temperature_k
+        isat = float(saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, deck.temperature_k, t_nom))
+        v = f"v({j},{ca})"
+        u = f"min({v},{num(-3.0 * nvt)})"
+        w = f"({num(3.0 * nvt / math.e)}/{u})"  # negative: cubed as a product
+        out.append(f"{deck.instance('B', self.name, 'rev')} {j} {ca} I={num(isat)}*(exp({u}*{num(1.0 / nvt)})"
+                   f"+{w}*{w}*{w})")
+        return out
 
     def checks(self, ctx) -> list[dict]:
         """Average, peak (surge) current and power against its model's ratings; I^2 t while a fuse opens.

@@ -129,6 +129,11 @@ class Fuse(Part):
         return {"name": self.name, "kind": "fuse", "value_ohm": r, "target_ohm": r, "target_given": False,
                 "tolerance_pct": 0.0, "tempco_ppm_per_k": 0.0}
 
+    def spice(self, deck) -> list[str]:
+        """Its cold resistance, held constant (design contract)."""
+        r = deck.spec.parts.fuses[self.model].r_cold_ohm
+        return [f"{deck.instance('R', self.name)} {deck.node(self.a)} {deck.node(self.b)} {deck.num(r)}"]
+
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: fuse, between: [{self.a}, {self.b}], model: {self.model}}}"
 

@@ -55,6 +55,23 @@ class MovementElement(Part):
                 "tolerance_pct": float(m.tolerance * 100.0), "tempco_ppm_per_k": float(m.tempco_per_k * 1e6),
                 "full_scale_current_a": float(m.i_fs_a), "i_fs_tolerance_pct": float(m.i_fs_tolerance * 100.0)}
 
+    def spice(self, deck) -> list[str]:
+        """``VMOVE`` (0 V) from the first node to the coil, then the coil's resistance.
+
+        Notes
+        -----
+        A SPICE voltage source's current flows from its plus node through the
+        source to its minus node, so ``i(vmove)`` is the movement current from the
+        element's first node to its second, the sign of its reading (design
+        contract). The coil is :math:`R_m (1 + \alpha_{coil} (T - T_{ref}))` as
+        ``tc1`` against the deck's ``tnom``.
+        """
+        m = deck.spec.movement
+        coil = deck.inner(self.name, "coil")
+        tc = f" tc1={deck.num(m.tempco_per_k)}" if m.tempco_per_k else ""
+        return [f"VMOVE {deck.node(self.a)} {coil} DC 0",
+                f"{deck.instance('R', self.name)} {coil} {deck.node(self.b)} {deck.num(m.r_coil_ohm)}{tc}"]
+
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: movement, between: [{self.a}, {self.b}]}}"
 

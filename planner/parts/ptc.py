@@ -276,6 +276,13 @@ class Ptc(Part):
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: ptc, between: [{self.a}, {self.b}], model: {self.model}}}"
 
+    def spice(self, deck) -> list[str]:
+        """Its cold resistance with its linear temperature coefficient (``tc1``, as a resistor's)."""
+        m = self._m(deck.spec)
+        tc = f" tc1={deck.num(m.tempco_per_k)}" if m.tempco_per_k else ""
+        return [f"* {self.name}: PTC {self.model}, cold state",
+                f"{deck.instance('R', self.name)} {deck.node(self.a)} {deck.node(self.b)} {deck.num(m.r_cold_ohm)}{tc}"]
+
     # --- misrange (planner.stress) -------------------------------------------------------
     def trip(self, ctx) -> Trip | None:
         """Whether it trips (rms current above the trip current), how fast, and what tripping asks of it.

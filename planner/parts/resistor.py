@@ -197,6 +197,18 @@ class Resistor(Part):
                 "target_given": self.target_ohm is not None, "tolerance_pct": float(self.tolerance * 100.0),
                 "tempco_ppm_per_k": float(self.tempco_per_k * 1e6), "distribution": self.distribution}
 
+    def spice(self, deck) -> list[str]:
+        """A SPICE resistor with its linear temperature coefficient.
+
+        Notes
+        -----
+        ``tc1`` with the deck's ``tnom`` at the reference temperature gives SPICE's
+        :math:`R (1 + tc_1 (T - T_{nom}))`, the contract's law (the ngspice manual,
+        "Resistors", temperature dependence).
+        """
+        tc = f" tc1={deck.num(self.tempco_per_k)}" if self.tempco_per_k else ""
+        return [f"{deck.instance('R', self.name)} {deck.node(self.a)} {deck.node(self.b)} {deck.num(self.value_ohm)}{tc}"]
+
     def yaml(self) -> str:
         """Every rating written out (value, tolerance, tempco, power, limiting voltage, series,
         ``trimmer`` and ``pulse_energy`` when set), so the file does not depend on the

@@ -131,6 +131,14 @@ class Varistor(Part):
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: varistor, between: [{self.a}, {self.b}], model: {self.model}}}"
 
+    def spice(self, deck) -> list[str]:
+        """The power law as a behavioural current source, :math:`I = I_1 \\mathrm{sgn}(V) (|V| / V_1)^\\alpha`."""
+        v1, alpha, i1 = self.law(deck.spec)
+        a, b = deck.node(self.a), deck.node(self.b)
+        v = f"v({a},{b})"
+        return [f"{deck.instance('B', self.name)} {a} {b} I={deck.num(i1)}*sgn({v})"
+                f"*pow(abs({v})*{deck.num(1.0 / v1)},{deck.num(alpha)})"]
+
     def checks(self, ctx) -> list[dict]:
         """Pulse energy, peak current and continuous voltage against the model's ratings.
 
