@@ -261,6 +261,25 @@ class ClampRequest:
 
 
 @dataclass(frozen=True)
+class ProtectionRequest:
+    """What the ``protection`` section asks the sizer to place (:mod:`planner.sizing.sections.protection`).
+
+    An input PTC model, a fusible input resistor (its value, fusing points and breaking
+    voltage), a ring crowbar's diode model and count, a second fuse for the mA ranges.
+    """
+
+    input_ptc: str | None = None
+    fusible_input: bool = False
+    fusible_ohm: float | None = None
+    fusing: tuple = ()
+    breaking_voltage_v: float = math.inf
+    ring_crowbar: str | None = None
+    ring_crowbar_count: int = 2
+    ma_fuse: str | None = None
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class FaultSource:
     """A foreseeable stimulus from the file's ``faults.sources``.
 
@@ -326,7 +345,7 @@ class Spec:
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)
-    protection: "object | None" = None  # planner.sizing.sections.protection.ProtectionRequest
+    protection: ProtectionRequest | None = None
     path: str | None = None
     revision: str | None = None
     date: str | None = None

@@ -15,8 +15,8 @@ from .catalogue import read_parts
 from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
 from .network import read_network
+from .protection import read_protection
 from .ranges import read_clamps, read_current, read_voltage
-from ..sizing.sections.protection import parse as read_protection
 from .reader import Reader
 from .tree import Node
 

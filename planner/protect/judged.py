@@ -33,7 +33,8 @@ from ..engine import Engine
 from ..errors import PlannerError
 from ..faults import faults_project
 from ..project import loads
-from ..sizing.sections.protection import ProtectionRequest, protection_lines
+from ..model import ProtectionRequest
+from ..sizing.sections.protection import protection_lines
 from ..stress.verdict import FAILING
 from .. import writer
 

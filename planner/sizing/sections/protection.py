@@ -26,58 +26,12 @@ acts is judged by ``planner faults``.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-
-from ...model import Diode, Fuse, Ptc, Resistor, Spec
-from ...parts.fusible import read_points
+from ...model import Diode, Fuse, ProtectionRequest, Ptc, Resistor, Spec
 from ..layout import COM, PLUS, Device, Layout, SizingSection
 from ..request import request_error
 
-#: Keys of the ``protection`` section.
-PROTECTION_KEYS = ("input_ptc", "fusible_input", "fusible_resistance", "fusing", "breaking_voltage",
-                   "ring_crowbar", "ring_crowbar_count", "ma_fuse")
-
 #: Nodes the section adds.
 P_PTC, P_IN, A_MA, CROWBAR = "p_ptc", "p_in", "a_ma", "crowbar"
-
-
-@dataclass(frozen=True)
-class ProtectionRequest:
-    """What the ``protection`` section asks the sizer to place (see the module docstring)."""
-
-    input_ptc: str | None = None
-    fusible_input: bool = False
-    fusible_ohm: float | None = None
-    fusing: tuple = ()
-    breaking_voltage_v: float = math.inf
-    ring_crowbar: str | None = None
-    ring_crowbar_count: int = 2
-    ma_fuse: str | None = None
-    line: int | None = None
-
-
-def parse(ctx, node, parts) -> ProtectionRequest | None:
-    """The ``protection`` section (``ctx`` is the loader's reader; models checked against ``parts``)."""
-    if node is None:
-        return None
-    m = ctx.mapping(node, "protection", PROTECTION_KEYS, "{input_ptc: ptc_1k, ring_crowbar: si_3a}")
-
-    def ref(key, models, kind):
-        n = m.get(key)
-        return None if n is None or n.is_null else m.model(key, models, kind, "name")
-
-    ptc = ref("input_ptc", parts.ptcs, "ptc")
-    crowbar = ref("ring_crowbar", parts.diodes, "diode")
-    ma_fuse = ref("ma_fuse", parts.fuses, "fuse")
-    fusible = m.boolean("fusible_input", False)
-    r_f = m.qty("fusible_resistance", "resistance", None, check="pos")
-    bv = m.qty("breaking_voltage", "voltage", math.inf, check="pos")
-    pts = read_points(m, "fusing")
-    if fusible and (r_f is None or not pts):
-        m.fail("protection.fusible_input needs 'fusible_resistance: 1 kohm' and 'fusing: [[power, time], ...]' "
-               "(the maker's points of the fusible resistor)", m.line)
-    count = m.integer("ring_crowbar_count", 2, 1, 50, "2")
-    return ProtectionRequest(ptc, fusible, r_f, pts, bv, crowbar, count, ma_fuse, m.line)
 
 
 def feed_ohm(spec: Spec) -> float:
