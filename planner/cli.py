@@ -80,9 +80,11 @@ def _end_progress(show) -> None:
 
 
 def _load(args):
-    from .project import load
+    from .project import load, same_meter
 
-    return load(args.project)
+    spec = load(args.project)
+    same_meter(spec)  # ranges and a network in one file: the same meter, or say which to remove
+    return spec
 
 
 def _design(spec):
@@ -113,7 +115,7 @@ def _options(args) -> None:
     from .errors import UsageError
     from .project.limits import MAX_SAMPLES, MAX_SEED
     from .units import QuantityError
-    from .values import ambient_temperature, option_whole, sine_rms
+    from .values import ambient_temperature, calendar_date, option_whole, sine_rms
 
     try:
         if getattr(args, "samples", None) is not None:
@@ -127,8 +129,12 @@ def _options(args) -> None:
             text = getattr(args, option, None)
             if text is not None:
                 setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
+        if getattr(args, "ohms", None) is not None:
+            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "pos")
         if getattr(args, "source_impedance", None) is not None:
             args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
+        if getattr(args, "date", None) is not None:
+            args.date = calendar_date(args.date, "--date")
         if getattr(args, "temperature", None) is not None:
             args.temperature = ambient_temperature(
                 _quantity(args.temperature, "temperature", "--temperature", "pos"), "--temperature")
@@ -172,6 +178,10 @@ def cmd_size(args) -> int:
     from .fsio import emit
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
+    if spec.network is not None and (spec.voltage is not None or spec.current is not None):
+        # both in one file (the loader has checked that they describe the same meter)
+        print(f"planner: note: {args.project} also gives an explicit network; 'size' sizes the ranges anew, "
+              "the other commands analyse the network as it is", file=sys.stderr)
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing)
     if args.write_network:
@@ -236,13 +246,14 @@ def cmd_apply(args) -> int:
 
 
 def cmd_dossier(args) -> int:
-    spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .dossier import build_dossier
     from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
     inputs = [args.project] + ([args.readings] if args.readings else [])
     check_targets([out] + ([args.bom] if args.bom else []), protect=inputs)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from .dossier import build_dossier
+
     design = _design(spec)
     diagnosis = None
     if args.readings:  # bad readings are bad input: exit 2 before anything is written
@@ -469,6 +480,11 @@ def _run(args) -> int:
 
 
 def main(argv=None) -> int:
+    for stream in (sys.stdout, sys.stderr):  # text the terminal's encoding cannot show: escaped, not a crash
+        try:
+            stream.reconfigure(errors="backslashreplace")
+        except (AttributeError, ValueError):  # a stream that is no text file (a test's StringIO)
+            pass
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
@@ -567,9 +583,8 @@ def _add_diagnose(sub) -> None:
 def cmd_netlist(args) -> int:
     out = args.output or "-"
     _check_output(out, args.project)
-    # --volts, --amps [SI] and --temperature [K] are converted with every command's options
-    ohms = None if args.ohms is None else _quantity(args.ohms, "resistance", "--ohms", "pos")
-    volts, amps, temp = args.volts, args.amps, args.temperature
+    # --volts, --amps, --ohms [SI] and --temperature [K] are converted with every command's options
+    ohms, volts, amps, temp = args.ohms, args.volts, args.amps, args.temperature
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from . import __version__
     from .engine import Engine

@@ -10,12 +10,13 @@ what to write instead; nothing here knows about files or options.
 
 from __future__ import annotations
 
+import datetime
 import re
 
 from . import units
 from .units import QuantityError
 
-__all__ = ["range_problem", "quantity", "whole", "ambient_temperature", "stimulus", "sine_rms", "option_quantity",
+__all__ = ["range_problem", "quantity", "whole", "ambient_temperature", "stimulus", "sine_rms", "calendar_date", "option_quantity",
            "option_whole", "MAX_AMBIENT_K", "BARE_UNITS"]
 
 #: Highest ambient or measurement temperature accepted [K] (a unit mistake above it).
@@ -105,6 +106,19 @@ def sine_rms(value: float, waveform: str, name: str) -> float:
     if waveform == "sine" and value < 0:
         raise QuantityError(f"{name}: a sine is given by its rms value, which is positive; drop the minus sign")
     return value
+
+
+def calendar_date(text: str, where: str) -> str:
+    """A date written ``YYYY-MM-DD`` that the calendar has (``2024-02-30`` is refused)."""
+    s = str(text).strip()
+    try:
+        if not re.fullmatch(r"\d{4}-\d{2}-\d{2}", s):
+            raise ValueError
+        datetime.date.fromisoformat(s)
+    except ValueError:
+        shown = " ".join(s.split())[:40]
+        raise QuantityError(f"{where} is '{shown}'; give a real date as YYYY-MM-DD, e.g. 2024-03-18") from None
+    return s
 
 
 # --- the command line's forms ---------------------------------------------------------------

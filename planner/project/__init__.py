@@ -19,6 +19,7 @@ The package, top to bottom:
 ``network``     an explicit ``network:`` (each element read by its part kind)
 ``faults``      ``faults:`` and ``analysis:``
 ``spec``        the top level assembled into a :class:`planner.model.Spec`
+``both``        ranges and a network in one file: the same meter (asked by the commands)
 
 Guards: files over 5 MB, bytes that are not UTF-8, nesting deeper than 64,
 more than 200 000 values after alias expansion (an "alias bomb"), more than
@@ -43,6 +44,7 @@ from typing import Any
 
 from .. import model
 from ..errors import ProjectError
+from .both import same_meter
 from .limits import (
     E_SERIES,
     IEC_CLASSES,
@@ -64,7 +66,7 @@ from .tree import compose
 __all__ = [
     "load", "loads", "MAX_FILE_BYTES", "MAX_NODES", "MAX_DEPTH", "MAX_POSITIONS", "MAX_ELEMENTS", "MAX_SOURCES",
     "MAX_SAMPLES", "MAX_SEED", "IEC_CLASSES", "E_SERIES", "TOP_KEYS", "NETWORK_KEYS", "ELEMENT_KEYS",
-    "POSITION_KEYS",
+    "POSITION_KEYS", "same_meter",
 ]
 
 
@@ -97,6 +99,9 @@ def load(path: str | os.PathLike[str]) -> model.Spec:
         raise ProjectError(f"cannot read the file ({e.strerror}); check the path and its permissions", p) from None
     if stat.S_ISDIR(st.st_mode):
         raise ProjectError("is a folder, not a project file; give the path of a .yaml project file", p)
+    if not stat.S_ISREG(st.st_mode):  # reading a FIFO without a writer would wait for ever
+        kind = "a FIFO (named pipe)" if stat.S_ISFIFO(st.st_mode) else "a device or a socket"
+        raise ProjectError(f"is {kind}, not a project file; save the project as a .yaml file and give its path", p)
     if st.st_size > MAX_FILE_BYTES:
         raise ProjectError(too_big(st.st_size), p)
     try:

@@ -14,7 +14,7 @@ import re
 from .. import model, units, values
 from ..units import QuantityError
 from .limits import MAX_SAMPLES, MAX_SEED, MAX_SOURCES
-from .reader import Reader, Section, capped
+from .reader import Reader, Section, capped, distinct_name
 from .tree import Node
 
 __all__ = ["FAULTS_KEYS", "SOURCE_KEYS", "ACCEPT_KEYS", "ANALYSIS_KEYS", "read_faults", "read_analysis"]
@@ -31,6 +31,7 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
     m = ctx.mapping(node, "faults", FAULTS_KEYS, "{sources: [...], max_input: 600 V}")
     sources: list[model.FaultSource] = []
     seen: dict[str, int] = {}
+    keys: dict[str, tuple[str, int]] = {}
     sn = m.get("sources")
     if sn is not None:
         for i, item in enumerate(
@@ -47,6 +48,7 @@ def read_faults(ctx: Reader, node: Node | None) -> model.Faults:
                     s.line,
                 )
             seen[name] = s.line
+            distinct_name(ctx, name, s.line, keys, "fault source")
             if s.has("voltage") == s.has("current"):
                 ctx.fail(f"{where} needs exactly one of 'voltage: 230 V' or 'current: 10 A'", s.line)
             kind = "voltage" if s.has("voltage") else "current"

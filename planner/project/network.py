@@ -11,7 +11,7 @@ from __future__ import annotations
 from .. import model
 from ..parts import KINDS
 from .limits import MAX_ELEMENTS, MAX_POSITIONS
-from .reader import Reader, capped, pair, suggest
+from .reader import Reader, capped, distinct_name, pair, suggest
 from .tree import Node
 
 __all__ = ["NETWORK_KEYS", "ELEMENT_KEYS", "POSITION_KEYS", "read_network"]
@@ -59,6 +59,7 @@ def _elements(ctx: Reader, m, el_items: list[Node], parts: model.Parts):
     """The elements, each read by its kind, and the (element, position node) references of contacts."""
     elements: list[model.Element] = []
     names: dict[str, int] = {}
+    keys: dict[str, tuple[str, int]] = {}
     closed_refs: list[tuple[str, Node]] = []
     movement_line: int | None = None
     for i, item in enumerate(el_items, 1):
@@ -72,6 +73,7 @@ def _elements(ctx: Reader, m, el_items: list[Node], parts: model.Parts):
                 f"duplicate element name '{name}' (first at line {names[name]}); give each element its own name", e.line
             )
         names[name] = e.line
+        distinct_name(ctx, name, e.line, keys, "element")
         e.where = where
         kind = e.choice("kind", tuple(ELEMENT_KEYS))
         allowed = ELEMENT_KEYS[kind]
@@ -101,6 +103,7 @@ def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str])
     """The switch positions and the line of each name."""
     positions: list[model.Position] = []
     pnames: dict[str, int] = {}
+    keys: dict[str, tuple[str, int]] = {}
     for i, item in enumerate(pos_items, 1):
         p = ctx.mapping(item, f"network.positions[{i}]", POSITION_KEYS, pos_ex[1:-1])
         name = p.text("name", example="'2.5 V'")
@@ -110,6 +113,7 @@ def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str])
                 p.line,
             )
         pnames[name] = p.line
+        distinct_name(ctx, name, p.line, keys, "position")
         p.where = f"position '{name}'"
         measures = p.choice("measures", ("voltage", "current"))
         fs = p.qty("full_scale", measures, check="pos")

@@ -10,6 +10,7 @@ model), so a new kind needs no change here.
 
 from __future__ import annotations
 
+import unicodedata
 from typing import Any, Mapping, NoReturn, Sequence
 
 from .. import units, values
@@ -18,7 +19,8 @@ from ..tools import did_you_mean as suggest
 from ..units import QuantityError
 from .tree import Node
 
-__all__ = ["Reader", "Section", "suggest", "capped", "tempco_bound", "node_name", "pair", "model_ref"]
+__all__ = ["Reader", "Section", "suggest", "name_key", "distinct_name", "capped", "tempco_bound", "node_name", "pair",
+           "model_ref"]
 
 
 class Reader:
@@ -234,3 +236,62 @@ def model_ref(ctx: Reader, node: Node, models, kind: str, where: str, example: s
             node.line,
         )
     return name
+
+
+#: Letters of other scripts that look like Latin letters or digits, after NFKC and casefold
+#: (a small table of the common Cyrillic and Greek look-alikes, and the digit-letter pairs
+#: 0/o and 1/l/i): Unicode Technical Standard #39, "Unicode Security Mechanisms", section 4
+#: (confusable detection), whose skeleton this follows in spirit.
+_LOOK_ALIKE = str.maketrans({
+    "\u0430": "a", "\u0432": "b", "\u0435": "e", "\u043a": "k", "\u043c": "m", "\u043d": "h", "\u043e": "o",
+    "\u0440": "p", "\u0441": "c", "\u0442": "t", "\u0443": "y", "\u0445": "x", "\u0455": "s", "\u0456": "i",
+    "\u0458": "j", "\u0501": "d", "\u051b": "q", "\u051d": "w", "\u04bb": "h", "\u0457": "i",
+    "\u03b1": "a", "\u03b2": "b", "\u03b5": "e", "\u03b6": "z", "\u03b7": "h", "\u03b9": "i", "\u03ba": "k",
+    "\u03bc": "u", "\u03bd": "v", "\u03bf": "o", "\u03c1": "p", "\u03c4": "t", "\u03c5": "u", "\u03c7": "x",
+    "0": "o", "1": "l", "i": "l", "|": "l",
+})
+
+
+def name_key(name: str) -> str:
+    """The form of a name people cannot tell apart from others of the same form.
+
+    NFKC (compatibility forms: a non-breaking space is a space, the micro sign the
+    Greek mu), casefold, invisible formatting characters dropped, white space
+    collapsed, and look-alike letters of other scripts mapped to Latin ones.
+    """
+    s = unicodedata.normalize("NFKC", name).casefold()
+    s = "".join(ch for ch in s if unicodedata.category(ch) != "Cf")
+    return " ".join(s.translate(_LOOK_ALIKE).split())
+
+
+def distinct_name(ctx: Reader, name: str, line: int, seen: dict[str, tuple[str, int]], what: str) -> None:
+    """Refuse a name that holds invisible formatting characters or looks like one before it.
+
+    Parameters
+    ----------
+    name : str
+        The name as written (already stripped, already checked against exact duplicates).
+    line : int
+        Its line.
+    seen : dict
+        :func:`name_key` -> (name, line) of the names read so far; ``name`` is added.
+    what : str
+        ``position``, ``element``, ``fault source`` (for the message).
+    """
+    hidden = [ch for ch in name if unicodedata.category(ch) == "Cf"]
+    if hidden:
+        ctx.fail(
+            f"{what} name '{name}' holds the invisible character U+{ord(hidden[0]):04X}; names are read by "
+            "people and typed on the command line: remove it",
+            line,
+        )
+    key = name_key(name)
+    if key in seen:
+        other, other_line = seen[key]
+        ctx.fail(
+            f"{what} name '{name}' looks the same as '{other}' (line {other_line}): they differ only by case, "
+            "spacing or look-alike characters, so reports, accept entries and the command line cannot tell "
+            "them apart; rename one of them",
+            line,
+        )
+    seen[key] = (name, line)

@@ -8,9 +8,9 @@ that the first mistake is the one reported.
 from __future__ import annotations
 
 import datetime
-import re
 
-from .. import model
+from .. import model, values
+from ..units import QuantityError
 from .catalogue import read_parts
 from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
@@ -90,11 +90,7 @@ def read_date(ctx: Reader, node: Node | None) -> str | None:
         ctx.fail(f"date is '{node.text}'; give the date alone as YYYY-MM-DD, e.g. 2024-03-18", node.line)
     if isinstance(node.value, datetime.date):
         return node.value.isoformat()
-    s = (node.text or "").strip()
     try:
-        if not re.fullmatch(r"\d{4}-\d{2}-\d{2}", s):
-            raise ValueError
-        datetime.date.fromisoformat(s)
-    except ValueError:
-        ctx.fail(f"date is '{s}'; give a real date as YYYY-MM-DD, e.g. 2024-03-18", node.line)
-    return s
+        return values.calendar_date(node.text or "", "date")
+    except QuantityError as e:
+        ctx.fail(e.message, node.line)

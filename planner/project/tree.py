@@ -5,12 +5,14 @@ refusing what a project file never needs: nesting deeper than
 :data:`~planner.project.limits.MAX_DEPTH`, more than
 :data:`~planner.project.limits.MAX_NODES` values after alias expansion (an "alias
 bomb"), duplicate keys (YAML would silently keep the last one), keys that are not
-plain text and tags outside plain YAML. Syntax errors become one line with the
+plain text, tags outside plain YAML and text no file can hold (a lone
+surrogate from a ``\\ud800`` escape). Syntax errors become one line with the
 file's line number and a hint.
 """
 
 from __future__ import annotations
 
+import re
 from typing import Any, NoReturn
 
 import yaml
@@ -19,6 +21,8 @@ from ..errors import ProjectError
 from .limits import MAX_DEPTH, MAX_NODES
 
 __all__ = ["Node", "compose"]
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 _MAP_TAG = "tag:yaml.org,2002:map"
 _SEQ_TAG = "tag:yaml.org,2002:seq"
@@ -158,6 +162,16 @@ class _Composer:
             hint = "check the indentation, the colons and the quotes on this line and the one above"
         self.fail(f"{msg}; {hint}", line)
 
+    def _encodable(self, text: str, line: int) -> None:
+        """Refuse a lone surrogate (from a ``\\ud800`` escape): no file, report or terminal can hold it."""
+        m = _SURROGATE.search(text)
+        if m is not None:
+            self.fail(
+                f"the text holds U+{ord(m.group()):04X}, half of a UTF-16 surrogate pair, which no file or terminal "
+                "can show; write the character itself instead of its \\u escape, or remove it",
+                line,
+            )
+
     def convert(self, node: yaml.Node, depth: int) -> Node:
         self.count += 1
         self.distinct.add(id(node))
@@ -180,6 +194,7 @@ class _Composer:
                 line,
             )
         if isinstance(node, yaml.ScalarNode):
+            self._encodable(node.value, line)
             if node.tag in _TEXT_TAGS and node.style is None:
                 return Node("scalar", node.value, line, _STR_TAG, node.value)  # a plain '=' or '<<'
             if node.tag not in _STD_SCALAR_TAGS:
@@ -206,6 +221,7 @@ class _Composer:
                 if not isinstance(knode, yaml.ScalarNode):
                     self.fail("a key must be plain text, not a list or a mapping", kline)
                 key = knode.value
+                self._encodable(key, kline)
                 if key in out.value:
                     self.fail(
                         f"duplicate key '{key}' (first at line {out.key_lines[key]}); YAML would silently keep only "
