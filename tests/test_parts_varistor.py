@@ -83,6 +83,10 @@ def test_impulse_energy_and_continuous_voltage():
     e = [x for x in out["stresses"] if x["part"] == "RV1" and x["quantity"].startswith("impulse energy")][0]
     np.testing.assert_allclose(e["value"], v * law(v) * IMPULSE_EQUIVALENT_S, rtol=3e-8)
     np.testing.assert_allclose(IMPULSE_EQUIVALENT_S, 70.3e-6, rtol=1e-3)  # A (tau1 - tau2), by hand
+    # the series resistor takes I_pk^2 R over the same equivalent duration (an upper bound)
+    i_pk = (2500.0 - v) / r_src
+    r1 = [x for x in out["stresses"] if x["part"] == "R1" and x["quantity"].startswith("impulse energy")][0]
+    np.testing.assert_allclose(r1["value"], i_pk ** 2 * R1 * IMPULSE_EQUIVALENT_S, rtol=1e-8)
     # 350 V DC: the continuous voltage is above the 300 V rating
     out = apply_stimulus(spec, "5 V", volts=350.0)
     c = [x for x in out["stresses"] if x["part"] == "RV1" and x["quantity"] == "continuous voltage"][0]

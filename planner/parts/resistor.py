@@ -19,6 +19,7 @@ from ..tools import fmt, quantity
 from ..units import format_si
 from . import fusible
 from .base import Parameter, Part
+from .varistor import IMPULSE_EQUIVALENT_S, impulse_energy_j
 
 #: Short-time overload of a fixed resistor, IEC 60115-1 (from memory; verify
 #: against the edition in use): 2.5 x the rated voltage sqrt(P R), but not above
@@ -274,6 +275,11 @@ class Resistor(Part):
             return out
         if not ctx.peak_only and math.isfinite(self.power_w):
             out.append(ctx.entry(self.name, self.kind, f"power{ph}", ctx.power_w, self.power_w, "W", "rating"))
+        if ctx.peak_only and math.isfinite(self.power_w):  # one standard impulse: its energy as a pulse
+            e = impulse_energy_j(ctx.current["peak"] * ctx.voltage["peak"])
+            lim = resistor_pulse_limit_j(self, IMPULSE_EQUIVALENT_S, resistor_pulse_energy_j(ctx.spec, self))
+            out.append(ctx.entry(self.name, self.kind, f"impulse energy{ph}", e, lim, "J", "rating",
+                                 duration_s=IMPULSE_EQUIVALENT_S))
         if math.isfinite(self.max_voltage_v):
             out.append(ctx.entry(self.name, self.kind, f"peak voltage{ph}", ctx.voltage["peak"], self.max_voltage_v,
                                  "V", "rating"))
