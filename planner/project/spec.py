@@ -16,6 +16,7 @@ from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
 from .network import read_network
 from .ohms import read_resistance
+from .protection import read_protection
 from .ranges import read_clamps, read_current, read_voltage
 from .reader import Reader
 from .tree import Node
@@ -36,6 +37,7 @@ TOP_KEYS = (
     "faults",
     "network",
     "analysis",
+    "protection",
 )
 
 
@@ -59,6 +61,7 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
     network = read_network(ctx, top.get("network"), parts)
     faults = read_faults(ctx, top.get("faults"))
     analysis = read_analysis(ctx, top.get("analysis"))
+    protection = read_protection(ctx, top.get("protection"), parts)
     if voltage is None and current is None and resistance is None and network is None:
         ctx.fail(
             "nothing to plan: give 'voltage:', 'current:' or 'resistance:' ranges for the planner to size, or an explicit "
@@ -77,6 +80,7 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
         faults=faults,
         network=network,
         analysis=analysis,
+        protection=protection,
         revision=revision,
         date=date,
     )
