@@ -85,11 +85,12 @@ class Design:
         A compiled state depends on the network's topology alone (which element joins
         which nodes, how it is stamped, which contacts the state closes), never on the
         values: the variants of one command (search candidates, a fuse opened, a tripped
-        PTC at another resistance) share it through :func:`_compiled`.
+        PTC at another resistance) share it through :func:`planner.network.compiled`.
         """
         key = (st.name, st.closed, st.position.name, kind, with_source_r)
         if key not in self._circuits:
-            self._circuits[key] = _compiled(self.spec, self.net, st, kind, with_source_r)
+            self._circuits[key] = nw.compiled(self.spec, st, stimulus=kind, source_resistance=with_source_r,
+                                              net=self.net)
         return self._circuits[key]
 
     def variant(self, net: NetworkSpec, *, validate: bool = False) -> "Design":
@@ -104,36 +105,6 @@ class Design:
         if validate:
             nw.validate(self.spec, net)
         return Design(self.spec, net)
-
-
-#: Compiled states by topology (:func:`_compiled`); cleared when it holds this many.
-COMPILED_KEEP = 4096
-_COMPILED: dict = {}
-
-
-def topology_key(net: NetworkSpec, st: nw.SwitchState) -> tuple:
-    """What :func:`planner.network.compile_state` reads of a network in one state, as a key.
-
-    Each element's designator, kind, stamp and nodes, whether the state puts it in
-    circuit or merges its nodes, and whether it holds an EMF; the state's name and
-    input terminals. Values (resistances, junction parameters) are not in it.
-    """
-    closed = st.closed
-    return (st.name, st.position.input,
-            tuple((e.name, e.kind, e.stamp, e.nodes, e.present(closed), e.merges(closed), e.emf() != 0.0)
-                  for e in net.elements))
-
-
-def _compiled(spec: Spec, net: NetworkSpec, st: nw.SwitchState, kind: str, with_source_r: bool):
-    """:func:`planner.network.compile_state`, kept per topology for the life of the process."""
-    key = (topology_key(net, st), kind, with_source_r)
-    circuit = _COMPILED.get(key)
-    if circuit is None:
-        circuit = nw.compile_state(spec, st, stimulus=kind, source_resistance=with_source_r, net=net)
-        if len(_COMPILED) >= COMPILED_KEEP:
-            _COMPILED.clear()
-        _COMPILED[key] = circuit
-    return circuit
 
 
 def build(spec: Spec) -> Design:
