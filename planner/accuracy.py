@@ -40,6 +40,7 @@ from .engine import Engine
 from .errors import SolveError, UsageError
 from .model import ZERO_CELSIUS_K, Spec
 from .parts import Parameter
+from .ranges.ac_report import format_ac_figures
 
 #: Points of the linearity tables, fractions of full scale.
 LINEARITY_FRACTIONS = np.arange(1, 11) / 10.0
@@ -360,6 +361,8 @@ def _check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors
         "nonlinearity_pct": _stats(nonlin),
     }
 
+    out.update(pos.kind.check_figures(run.engine, pos))  # figures of the range kind (AC: waveform errors)
+
     budget = out["worst_case_error_pct"] + out["temperature_error_pct"]
     out["budget_pct"] = float(budget)
     out["verdict"] = "within class" if budget <= cls else "outside class"
@@ -529,7 +532,7 @@ def format_check(result: dict) -> str:
             f"{'budget %':>10}{'class %':>9}  {'verdict':<14}{'yield':>7}  {'input':<s}")
     lines += [head, "-" * (len(head) + 24)]
     for p in result["positions"]:
-        if p["measures"] == "voltage":
+        if "ohms_per_volt" in p:
             inp = (f"{format_si(p['input_resistance_ohm'], 'ohm')} "
                    f"({format_si(p['ohms_per_volt'], 'ohm/V')})")
         else:
@@ -564,6 +567,7 @@ def format_check(result: dict) -> str:
         lines.append(f"{p['name']:<12}{s['mean']:+.3f} +/- {s['std']:.3f}  [{s['p1']:+.3f}, {s['p99']:+.3f}]   "
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
+    lines += format_ac_figures(result["positions"])
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:
         lines.append("RESULT: requirement met - every position within class")

@@ -163,6 +163,9 @@ class Position:
         Full-scale value [V] or [A].
     input : tuple of str
         The two input terminals (+, -).
+    scale : {'shared', 'own'}
+        AC (rectifier) positions: read on the shared linear DC scale or on an
+        AC scale of their own (design contract); ``shared`` for every other kind.
     """
 
     name: str
@@ -170,6 +173,7 @@ class Position:
     full_scale: float
     input: tuple[str, str]
     line: int | None = None
+    scale: str = "shared"
 
     @property
     def kind(self) -> "ranges.RangeKind":
@@ -231,6 +235,24 @@ class CurrentRanges:
     ring_on_voltage: str = "switched_out"
     swamp_ohm: float = 0.0
     fuse: str | None = None
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class ACRanges:
+    """Wanted AC (rectifier) ranges: ``ac_voltage`` or ``ac_current`` of the project file.
+
+    ``arrangement`` is ``chain`` or ``separate`` (volts), ``ring`` or ``separate``
+    (amps); ``full_scales`` are rms values of a sine [V] or [A]; ``rectifier`` is
+    ``bridge`` or ``half_wave``; ``diode`` names a model in ``parts.diodes``;
+    ``scale`` is ``shared`` (the DC linear scale) or ``own`` (an AC scale).
+    """
+
+    arrangement: str
+    full_scales: tuple[float, ...]
+    rectifier: str = "bridge"
+    diode: str = ""
+    scale: str = "shared"
     line: int | None = None
 
 
@@ -314,6 +336,8 @@ class Spec:
     voltage: VoltageRanges | None = None
     current: CurrentRanges | None = None
     clamps: tuple[ClampRequest, ...] = ()
+    ac_voltage: ACRanges | None = None
+    ac_current: ACRanges | None = None
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)

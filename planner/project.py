@@ -144,7 +144,7 @@ ELEMENT_KEYS = {
     "contact": ("name", "kind", "between", "closed_in", "resistance"),
     "fuse": ("name", "kind", "between", "model"),
 }
-POSITION_KEYS = ("name", "measures", "full_scale", "input")
+POSITION_KEYS = ("name", "measures", "full_scale", "input", "scale")
 ANALYSIS_KEYS = ("samples", "seed", "allowed_share")
 
 _MAP_TAG = "tag:yaml.org,2002:map"
@@ -1342,8 +1342,12 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
             )
         pnames[name] = p.line
         p.where = f"position '{name}'"
-        measures = p.choice("measures", ("voltage", "current"))
-        fs = p.qty("full_scale", measures, check="pos")
+        measures = p.choice("measures", ("voltage", "current", "ac_voltage", "ac_current"))
+        fs = p.qty("full_scale", measures.removeprefix("ac_"), check="pos")
+        scale = p.choice("scale", ("shared", "own"), "shared")
+        if scale != "shared" and not measures.startswith("ac_"):
+            ctx.fail(f"{p.at('scale')}: an own scale is for AC positions (measures: ac_voltage or ac_current); "
+                     "remove scale or change measures", p.get("scale").line)
         inp_node = p.req("input", "[vin, com]")
         inp = _pair(ctx, inp_node, p.at("input"), "[vin, com]")
         for nd in inp:
@@ -1353,7 +1357,8 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
                     "use a node of the network",
                     inp_node.line,
                 )
-        positions.append(model.Position(name=name, measures=measures, full_scale=fs, input=inp, line=p.line))
+        positions.append(model.Position(name=name, measures=measures, full_scale=fs, input=inp, line=p.line,
+                                        scale=scale))
 
     for el_name, pn in closed_refs:
         ref = pn.text.strip() if pn.text else ""

@@ -5,20 +5,22 @@
 (see the contributor guide, ``DEVELOPERS.md``).
 """
 
+from .ac_current import ACCurrent
+from .ac_voltage import ACVoltage
 from .base import RangeKind
 from .dc_current import DCCurrent
 from .dc_voltage import DCVoltage
 
 #: Range kinds by a position's ``measures``.
-KINDS = {k.measures: k for k in (DCVoltage(), DCCurrent())}
+KINDS = {k.measures: k for k in (DCVoltage(), DCCurrent(), ACVoltage(), ACCurrent())}
 
 
 def of(measures: str) -> RangeKind:
-    """The range kind of a position's ``measures`` (``voltage``, ``current``)."""
+    """The range kind of a position's ``measures`` (``voltage``, ``current``, ``ac_voltage``, ``ac_current``)."""
     try:
         return KINDS[measures]
     except KeyError:
         raise ValueError(f"no range kind measures {measures!r}; known: {', '.join(KINDS)}") from None
 
 
-__all__ = ["RangeKind", "KINDS", "of", "DCVoltage", "DCCurrent"]
+__all__ = ["RangeKind", "KINDS", "of", "DCVoltage", "DCCurrent", "ACVoltage", "ACCurrent"]

@@ -28,12 +28,17 @@ class RangeKind:
         What drives it at full scale: ``voltage`` or ``current``.
     label : str
         Words for reports (``DC voltage``).
+    waveform : str
+        The waveform a position of this kind is calibrated for and read with
+        (:data:`planner.cycle.SHAPES`): ``dc`` for DC ranges, ``sine`` for the
+        average-responding AC ranges (their applied value is its rms).
     """
 
     measures: ClassVar[str] = ""
     unit: ClassVar[str] = ""
     source: ClassVar[str] = ""
     label: ClassVar[str] = ""
+    waveform: ClassVar[str] = "dc"
 
     def reading(self, movement_multiple: np.ndarray, full_scale: float) -> np.ndarray:
         """The reading from the movement current as a multiple of full scale [unit].
@@ -45,6 +50,16 @@ class RangeKind:
 
     def input_figures(self, full_scale: float, source_current_a: float, terminal_v: float) -> dict:
         """What the instrument presents to the measured circuit at full scale (JSON fields)."""
+        return {}
+
+    def check_figures(self, engine, position) -> dict:
+        """Figures of ``planner check`` that belong to this kind of range (JSON fields).
+
+        Parameters
+        ----------
+        engine : planner.engine.Engine
+        position : Position
+        """
         return {}
 
     def misrange(self, position, faults) -> list:

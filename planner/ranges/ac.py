@@ -1,0 +1,270 @@
+"""AC (rectifier) ranges: the cycle solve both AC range kinds share.
+
+An average-responding rectifier instrument is calibrated in rms of a sine and its
+pointer follows the **mean** movement current over one cycle (design contract).
+The network is resistive with diodes, so a cycle is a set of instantaneous DC
+operating points, solved exactly by :class:`planner.engine.Engine` as one batch;
+the cycle mean, rms and peak are quadratures over them.
+
+The phase points are chosen by the network's response, not fixed: one
+:class:`planner.cycle.SharedRule` per position and set of applied values
+(:func:`planner.cycle.adapt_shared`) places Gauss-Legendre panels between the
+diodes' knees with Gauss-Kronrod error control to :data:`TOLERANCE_FS` of the
+full-scale current, built on the nominal parts at the reference and both ambient
+extremes; a batch of builds (Monte Carlo, tolerance corners) is then solved on
+its nodes and the rule is verified on the builds with the largest and the
+smallest result (refined and solved again where they miss). The convergence
+test against 4096 equally spaced phases is ``tests/test_ac.py``; the measured
+costs are in ``docs/ac.md``.
+
+References
+----------
+R. Piessens et al., *QUADPACK*, Springer, 1983 (Gauss-Kronrod error estimates).
+P. J. Davis and P. Rabinowitz, *Methods of Numerical Integration*, 2nd ed.,
+Academic Press, 1984, section 2.5 (product integration).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.interpolate import CubicSpline
+
+from ..cycle import SHAPES, Target, adapt_shared, extreme_rows
+from ..stimulus import Stimulus
+from .base import RangeKind
+
+#: Accuracy of the cycle mean of the movement current, fraction of I_fs (reading to 1e-6 of full scale).
+TOLERANCE_FS = 1e-6
+#: Accuracy of the cycle rms (input impedance, heating), fraction of I_fs.
+TOLERANCE_RMS_FS = 1e-5
+#: Waveforms whose reading error ``planner check`` reports on an AC position (at full-scale rms).
+CHECK_WAVEFORMS = ("square", "triangle", "flat-top mains")
+#: Steps of the nominal response an ``own`` AC scale is marked from, fractions of full scale
+#: (0.01 steps up to 1.3: the linearity points 10 % .. 100 % are grid points).
+SCALE_GRID = np.round(np.arange(1, 131) * 0.01, 10)
+
+
+class ACRange(RangeKind):
+    """An average-responding AC position: calibrated in rms of a sine, read by the cycle mean.
+
+    Reading (design contract): on the ``shared`` scale :math:`FS \\, \\bar I_m / I_{fs}`;
+    on an ``own`` scale :math:`D_{nom}^{-1}(\\bar I_m / I_{fs})` with
+    :math:`D_{nom}(A) = \\bar I_m(A) / I_{fs}` at nominal parts and the reference
+    temperature (:func:`own_scale`).
+    """
+
+    waveform = "sine"
+
+    def check_figures(self, engine, position) -> dict:
+        """``waveform_errors[]`` and the readings of a DC level equal to the full scale, both polarities.
+
+        Notes
+        -----
+        An average-responding meter calibrated in rms of a sine reads a wave of
+        form factor F about :math:`F_{sine} / F - 1` off (square +11.07 %,
+        triangle -3.81 %); the diodes' drops change it on low ranges, which is
+        why it is solved, not quoted. Errors in % of full scale, reading minus
+        the waveform's true rms at full-scale rms (design contract).
+        """
+        fs = float(position.full_scale)
+        rows = []
+        for name in CHECK_WAVEFORMS:
+            r = float(engine.operate(position.name, [fs], waveform=name).reading()[0, 0])
+            rows.append({"waveform": name, "form_factor": float(SHAPES[name].form_factor),
+                         "reading": r, "error_pct": (r - fs) / fs * 100.0})
+        dc = engine.operate(position.name, [fs, -fs], waveform="dc").reading()[0]
+        return {"waveform_errors": rows,
+                "dc_readings": [{"applied": float(a), "reading": float(r), "error_pct": float((r - abs(a)) / fs * 100.0)}
+                                for a, r in zip((fs, -fs), dc)],
+                "scale": position.scale}
+
+    def misrange(self, position, faults) -> list:
+        """A DC level equal to the full scale on an AC position, both polarities (``DC on AC range``)."""
+        fs = float(position.full_scale)
+        return [Stimulus("DC on AC range", self.source, fs, "dc",
+                         detail="a DC level equal to the full scale on an AC range"),
+                Stimulus("DC on AC range", self.source, -fs, "dc",
+                         detail="the same DC level reversed")]
+
+
+def _rows(x, rows):
+    """Rows of a per-row argument (an array of P values) or the argument itself (a number)."""
+    a = np.asarray(x, dtype=float)
+    return a if a.ndim == 0 or a.size == 1 else a.reshape(-1)[rows]
+
+
+class CycleOperating:
+    """Cycle quantities of one switch state for a batch: a rule's nodes solved, reduced per applied value.
+
+    Shapes are (P, T): P parameter rows, T applied values (targets of the rule).
+
+    Attributes
+    ----------
+    points : planner.engine.Operating
+        The instantaneous operating points at the rule's nodes, shape (P, S).
+    rule : planner.cycle.SharedRule
+    values : ndarray (T,)
+        The applied values (rms of a periodic wave, the level of a DC one) [V] or [A].
+    """
+
+    def __init__(self, engine, state, points, rule, values):
+        self.engine = engine
+        self.state = state
+        self.points = points
+        self.rule = rule
+        self.values = np.asarray(values, dtype=float)
+        self.circuit = points.circuit
+        self.i_fs_a = points.i_fs_a
+
+    @property
+    def shape(self):
+        return (self.points.shape[0], self.values.size)
+
+    @property
+    def solved_points(self) -> int:
+        """Operating points actually solved (rows x the rule's nodes)."""
+        return int(np.prod(self.points.shape))
+
+    @property
+    def movement_current_a(self) -> np.ndarray:
+        """Cycle mean of the movement current [A] (what the pointer follows), (P, T)."""
+        return self.rule.mean(self.points.movement_current_a)
+
+    @property
+    def movement_multiple(self) -> np.ndarray:
+        """Cycle mean of the movement current / I_fs, (P, T)."""
+        return self.movement_current_a / self.i_fs_a
+
+    @property
+    def movement_rms_multiple(self) -> np.ndarray:
+        return self.rule.rms(self.points.movement_current_a) / self.i_fs_a
+
+    @property
+    def movement_peak_multiple(self) -> np.ndarray:
+        return self.rule.peak(self.points.movement_current_a) / self.i_fs_a
+
+    def reading(self) -> np.ndarray:
+        """What the pointer reads [V] or [A], (P, T): on the shared scale or the position's own."""
+        p = self.state.position
+        if p.scale == "own":
+            return own_scale(self.engine, p.name)(self.movement_multiple)
+        return p.kind.reading(self.movement_multiple, p.full_scale)
+
+    @property
+    def source_current_a(self) -> np.ndarray:
+        """rms of the current the source delivers [A], (P, T)."""
+        return self.rule.rms(self.points.source_current_a)
+
+    def node_voltage(self, node: str) -> np.ndarray:
+        """rms of a node's voltage against the input's minus terminal [V], (P, T)."""
+        return self.rule.rms(self.points.node_voltage(node))
+
+
+def _rule_for(engine, st, shape, values, kind, r_source_ohm):
+    """The shared rule of a state, shape and set of values, built on the nominal rows (kept per engine)."""
+    cache = engine.__dict__.setdefault("_cycle_rules", {})
+    r0 = float(np.max(np.asarray(r_source_ohm, dtype=float)))
+    key = (st.name, st.closed, shape.name, tuple(float(v) for v in values), kind, r0)
+    if key not in cache:
+        spec = engine.spec
+        amb = spec.ambient
+        temps = np.unique([amb.t_min_k, amb.t_ref_k, amb.t_max_k])
+        i_fs = spec.movement.i_fs_a
+
+        def nominal(x):
+            return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0).movement_current_a
+
+        targets = [Target(shape, shape.peak_of(v)) for v in values]
+        cache[key] = adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
+    return key, cache[key]
+
+
+def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source_ohm, factors) -> CycleOperating:
+    """Solve a periodic (or DC) stimulus of given rms values on a state, as cycle quantities.
+
+    Parameters
+    ----------
+    engine : planner.engine.Engine
+    st : SwitchState
+    values : array_like (T,)
+        Applied values: the rms of the wave (the level of a DC stimulus) [V] or [A].
+    waveform : str
+        A shape of :data:`planner.cycle.SHAPES`.
+    kind : {'voltage', 'current'}
+    temperature_k, r_source_ohm, factors
+        As :meth:`planner.engine.Engine.operate` (per-row arrays of P values or numbers).
+
+    Returns
+    -------
+    CycleOperating
+
+    Notes
+    -----
+    The rule is built on the nominal parts at the reference and both ambient
+    extremes (to half the tolerance), the batch solved on its nodes, then the rule
+    verified on the two rows with the largest and the two with the smallest mean
+    at the largest applied value; a refined rule is solved again (``docs/cycle.md``).
+    """
+    values = np.atleast_1d(np.asarray(values, dtype=float))
+    if values.ndim != 1:
+        raise ValueError("AC stimuli are one row of rms values, shape (T,)")
+    shape = SHAPES[waveform]
+    key, rule = _rule_for(engine, st, shape, values, kind, r_source_ohm)
+    kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
+    op = engine.operate(st, rule.points(), **kw)
+    p = op.shape[0]
+    if p > 1 and shape.atoms is None:
+        t_ref = engine.spec.ambient.t_ref_k
+        big = int(np.argmax(np.abs(values)))
+        rows = extreme_rows(rule.mean(op.movement_current_a)[:, big], 2)
+        t = t_ref if temperature_k is None else temperature_k
+        f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
+
+        def on_rows(x):
+            return engine.operate(st, x, kind=kind, temperature_k=_rows(t, rows),
+                                  r_source_ohm=_rows(r_source_ohm, rows), factors=f_rows).movement_current_a
+
+        checked = rule.verify(on_rows)
+        engine.__dict__["_cycle_rules"][key] = checked
+        if checked.refined:
+            rule = checked
+            op = engine.operate(st, rule.points(), **kw)
+    return CycleOperating(engine, st, op, rule, values)
+
+
+def own_scale(engine, position: str):
+    """The reading function of an ``own`` AC scale: multiples of I_fs -> applied rms [V] or [A].
+
+    Notes
+    -----
+    The scale is marked from the nominal response :math:`D_{nom}(A) = \\bar I_m(A) / I_{fs}`
+    (nominal parts, reference temperature) at :data:`SCALE_GRID` x full scale and
+    :math:`D_{nom}(0) = 0`; a reading is the inverse, a cubic spline through
+    :math:`(D_{nom}, A)`, exact at the grid points (the linearity points among
+    them), straight beyond the last point.
+
+    References
+    ----------
+    C. de Boor, *A Practical Guide to Splines*, Springer, 1978 (cubic spline
+    interpolation).
+    """
+    cache = engine.__dict__.setdefault("_own_scales", {})
+    if position not in cache:
+        pos = engine.state(position).position
+        fs = float(pos.full_scale)
+        d = operate_cycle(engine, engine.state(position), SCALE_GRID * fs, "sine", kind=pos.kind.source,
+                          temperature_k=None, r_source_ohm=0.0, factors=None).movement_multiple[0]
+        d = np.concatenate([[0.0], d])
+        a = np.concatenate([[0.0], SCALE_GRID * fs])
+        if np.any(np.diff(d) <= 0):
+            raise ValueError(f"the nominal response of '{position}' does not rise with the input")
+        spline = CubicSpline(d, a)
+        slope = (a[-1] - a[-2]) / (d[-1] - d[-2])
+
+        def read(mm):
+            mm = np.asarray(mm, dtype=float)
+            out = spline(np.clip(mm, 0.0, d[-1]))
+            return np.where(mm > d[-1], a[-1] + (mm - d[-1]) * slope, np.where(mm < 0, mm * a[1] / d[1], out))
+
+        cache[position] = read
+    return cache[position]
