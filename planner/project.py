@@ -76,6 +76,8 @@ TOP_KEYS = (
     "faults",
     "network",
     "analysis",
+    "ac_voltage",
+    "ac_current",
 )
 MOVEMENT_KEYS = (
     "full_scale_current",
@@ -117,6 +119,7 @@ DIODE_KEYS = (
 FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "clearing_i2t", "curve", "max_voltage")
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
+AC_KEYS = ("arrangement", "full_scales", "rectifier", "diode", "scale")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
@@ -628,10 +631,12 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
     voltage = _voltage(ctx, top.get("voltage"), top.node.key_lines.get("voltage"))
     current = _current(ctx, top.get("current"), movement, top.node.key_lines.get("current"), parts)
     clamps = _clamps(ctx, top.get("clamps"), parts)
+    ac_voltage = _ac_ranges(ctx, top.get("ac_voltage"), "ac_voltage", parts, top.node.key_lines.get("ac_voltage"))
+    ac_current = _ac_ranges(ctx, top.get("ac_current"), "ac_current", parts, top.node.key_lines.get("ac_current"))
     network = _network(ctx, top.get("network"), parts)
     faults = _faults(ctx, top.get("faults"))
     analysis = _analysis(ctx, top.get("analysis"))
-    if voltage is None and current is None and network is None:
+    if voltage is None and current is None and network is None and ac_voltage is None and ac_current is None:
         ctx.fail(
             "nothing to plan: give 'voltage:' or 'current:' ranges for the planner to size, or an explicit "
             "'network:' (or both)",
@@ -645,6 +650,8 @@ def _spec(ctx: _Ctx, root: _Node) -> model.Spec:
         voltage=voltage,
         current=current,
         clamps=clamps,
+        ac_voltage=ac_voltage,
+        ac_current=ac_current,
         faults=faults,
         network=network,
         analysis=analysis,
@@ -1048,6 +1055,25 @@ def _current(
         fuse=fuse,
         line=key_line or m.line,
     )
+
+
+def _ac_ranges(ctx: _Ctx, node: _Node | None, key: str, parts: model.Parts,
+               key_line: int | None) -> model.ACRanges | None:
+    """``ac_voltage`` / ``ac_current``: rectifier ranges, full scales in rms of a sine."""
+    if node is None:
+        return None
+    volts = key == "ac_voltage"
+    ex = "[10 V, 50 V, 250 V]" if volts else "[10 mA, 100 mA, 1 A]"
+    arrangements = ("chain", "separate") if volts else ("separate", "ring")
+    m = ctx.mapping(node, key, AC_KEYS, f"{{arrangement: {arrangements[0]}, full_scales: {ex}, rectifier: bridge, "
+                                        "diode: si_generic}")
+    arr = m.choice("arrangement", arrangements)
+    fs, _ = _ascending(ctx, m.req("full_scales", ex), "voltage" if volts else "current", f"{key}.full_scales", ex)
+    rect = m.choice("rectifier", ("bridge", "half_wave"), "bridge")
+    diode = _diode_ref(ctx, m.req("diode", "si_generic"), parts, f"{key}.diode")
+    scale = m.choice("scale", ("shared", "own"), "shared")
+    return model.ACRanges(arrangement=arr, full_scales=tuple(fs), rectifier=rect, diode=diode, scale=scale,
+                          line=key_line or m.line)
 
 
 def _model_ref(ctx: _Ctx, node: _Node, models, kind: str, where: str, example: str) -> str:

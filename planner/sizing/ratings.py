@@ -22,6 +22,7 @@ from ..solve import Junctions, solve
 from ..tools import fmt
 from .assemble import PartRow
 from .layout import COM, Layout, SegmentPlan
+from .sections.rectifier import nominal_error
 from .request import line_of_key, request_error
 from .values import CATALOG_MAX_OHM
 
@@ -53,6 +54,12 @@ class LinearNetwork:
         self.spec = spec
         self.elements = tuple(e for e in net.elements if e.stamp != "junction")
         self.positions = net.positions
+        # on AC (rectifier) voltage positions the diodes conduct: shorted, the multiplier sees the
+        # whole input (rms), the bound its rating needs; on AC current positions they stay open, so
+        # the shunt takes the whole input current
+        ac = tuple(p.name for p in net.positions if p.kind.waveform != "dc" and p.kind.source == "voltage")
+        self._conducting = tuple(Contact(f"__conducting_{e.name}", *e.nodes, ac)
+                                 for e in net.elements if e.stamp == "junction") if ac else ()
         self._nets: dict[tuple, NetworkSpec] = {}
 
     def _net(self, shorted) -> NetworkSpec:
@@ -60,7 +67,7 @@ class LinearNetwork:
         if key not in self._nets:
             shorts = tuple(Contact(f"__short{j}", node, COM, tuple(p.name for p in self.positions))
                            for j, node in enumerate(shorted))
-            self._nets[key] = NetworkSpec(self.elements + shorts, self.positions, None)
+            self._nets[key] = NetworkSpec(self.elements + self._conducting + shorts, self.positions, None)
         return self._nets[key]
 
     def solve(self, pos: Position, value: float, shorted=()):
@@ -180,7 +187,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         dv = lin.solve(pos, value, shorted)
         if dv is None:
             continue
-        if fs:
+        if fs and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
+            st.errors[pos.name] = nominal_error(spec, net, pos)
+        elif fs:
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         _add_parts(st, dv, values, fs)
