@@ -26,6 +26,8 @@ Academic Press, 1984, section 2.5 (product integration).
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 from scipy.interpolate import CubicSpline
 
@@ -40,8 +42,8 @@ TOLERANCE_RMS_FS = 1e-5
 #: Waveforms whose reading error ``planner check`` reports on an AC position (at full-scale rms).
 CHECK_WAVEFORMS = ("square", "triangle", "flat-top mains")
 #: Steps of the nominal response an ``own`` AC scale is marked from, fractions of full scale
-#: (0.01 steps up to 1.3: the linearity points 10 % .. 100 % are grid points).
-SCALE_GRID = np.round(np.arange(1, 131) * 0.01, 10)
+#: (0.025 steps up to 1.3: the linearity points 10 % .. 100 % are grid points).
+SCALE_GRID = np.round(np.arange(1, 53) * 0.025, 10)
 
 
 class ACRange(RangeKind):
@@ -160,23 +162,51 @@ class CycleOperating:
         return self.rule.rms(self.points.node_voltage(node))
 
 
+def _standard_targets(fs: float) -> list:
+    """(shape, value) of the one rule a position's check needs: a sine at 10 % .. 100 % of full scale,
+    the other waveforms and the DC levels at full scale (every request of ``planner check`` is a subset)."""
+    out = [("sine", float(f * fs)) for f in np.round(np.arange(1, 11) * 0.1, 10)]
+    out += [(w, float(fs)) for w in CHECK_WAVEFORMS]
+    return out + [("dc", float(fs)), ("dc", -float(fs))]
+
+
+def _build(engine, st, pairs, kind, r0):
+    spec = engine.spec
+    amb = spec.ambient
+    temps = np.unique([amb.t_min_k, amb.t_ref_k, amb.t_max_k])
+    i_fs = spec.movement.i_fs_a
+
+    def nominal(x):
+        return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0).movement_current_a
+
+    targets = [Target(SHAPES[w], SHAPES[w].peak_of(v), w) for w, v in pairs]
+    return adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
+
+
+def _subset(rule, idx):
+    """The rule restricted to some of its targets (the same nodes, their rows of weights)."""
+    idx = np.asarray(idx, dtype=int)
+    return replace(rule, targets=tuple(rule.targets[i] for i in idx), weights=rule.weights[idx],
+                   crest_weights=rule.crest_weights[idx], error_mean=rule.error_mean[idx],
+                   error_rms=rule.error_rms[idx])
+
+
 def _rule_for(engine, st, shape, values, kind, r_source_ohm):
-    """The shared rule of a state, shape and set of values, built on the nominal rows (kept per engine)."""
+    """The shared rule that covers a state's shape and values: the position's standard rule where it can.
+
+    Returns the cache key of the rule, the rule, and the indices of the requested targets in it.
+    """
     cache = engine.__dict__.setdefault("_cycle_rules", {})
     r0 = float(np.max(np.asarray(r_source_ohm, dtype=float)))
-    key = (st.name, st.closed, shape.name, tuple(float(v) for v in values), kind, r0)
+    wanted = [(shape.name, float(v)) for v in values]
+    std = _standard_targets(float(st.position.full_scale))
+    if all(w in std for w in wanted):
+        key, pairs = (st.name, st.closed, "standard", kind, r0), std
+    else:
+        key, pairs = (st.name, st.closed, tuple(wanted), kind, r0), wanted
     if key not in cache:
-        spec = engine.spec
-        amb = spec.ambient
-        temps = np.unique([amb.t_min_k, amb.t_ref_k, amb.t_max_k])
-        i_fs = spec.movement.i_fs_a
-
-        def nominal(x):
-            return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0).movement_current_a
-
-        targets = [Target(shape, shape.peak_of(v)) for v in values]
-        cache[key] = adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
-    return key, cache[key]
+        cache[key] = _build(engine, st, pairs, kind, r0)
+    return key, cache[key], [pairs.index(w) for w in wanted]
 
 
 def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source_ohm, factors) -> CycleOperating:
@@ -209,13 +239,13 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     if values.ndim != 1:
         raise ValueError("AC stimuli are one row of rms values, shape (T,)")
     shape = SHAPES[waveform]
-    key, rule = _rule_for(engine, st, shape, values, kind, r_source_ohm)
+    key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
     op = engine.operate(st, rule.points(), **kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
-        big = int(np.argmax(np.abs(values)))
+        big = idx[int(np.argmax(np.abs(values)))]
         rows = extreme_rows(rule.mean(op.movement_current_a)[:, big], 2)
         t = t_ref if temperature_k is None else temperature_k
         f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
@@ -225,10 +255,10 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
                                   r_source_ohm=_rows(r_source_ohm, rows), factors=f_rows).movement_current_a
 
         checked = rule.verify(on_rows)
-        engine.__dict__["_cycle_rules"][key] = checked
-        if checked.refined:
-            rule = checked
+        if checked.refined:  # keep the refined nodes for every later request of this position
+            engine.__dict__["_cycle_rules"][key] = rule = checked
             op = engine.operate(st, rule.points(), **kw)
+    rule = _subset(rule, idx)
     return CycleOperating(engine, st, op, rule, values)
 
 
