@@ -245,7 +245,8 @@ class ACRanges:
     ``arrangement`` is ``chain`` or ``separate`` (volts), ``ring`` or ``separate``
     (amps); ``full_scales`` are rms values of a sine [V] or [A]; ``rectifier`` is
     ``bridge`` or ``half_wave``; ``diode`` names a model in ``parts.diodes``;
-    ``scale`` is ``shared`` (the DC linear scale) or ``own`` (an AC scale).
+    ``scale`` is ``shared`` (the DC linear scale) or ``own`` (an AC scale);
+    ``swamp_ohm`` (AC current only) a resistor in series with the rectifier [ohm].
     """
 
     arrangement: str
@@ -254,6 +255,7 @@ class ACRanges:
     diode: str = ""
     scale: str = "shared"
     line: int | None = None
+    swamp_ohm: float = 0.0  # ac_current: a resistor in series with the rectifier branch (0 for none)
 
 
 @dataclass(frozen=True)

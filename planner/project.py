@@ -119,7 +119,7 @@ DIODE_KEYS = (
 FUSE_KEYS = ("cold_resistance", "rated_current", "breaking_capacity", "i2t", "clearing_i2t", "curve", "max_voltage")
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
-AC_KEYS = ("arrangement", "full_scales", "rectifier", "diode", "scale")
+AC_KEYS = ("arrangement", "full_scales", "rectifier", "diode", "scale", "swamp")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
 CLAMP_AT_KEYS = ("above_movement",)
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
@@ -143,7 +143,7 @@ ELEMENT_KEYS = {
         "pulse_energy",
     ),
     "movement": ("name", "kind", "between"),
-    "diode": ("name", "kind", "anode", "cathode", "model"),
+    "diode": ("name", "kind", "anode", "cathode", "model", "role"),
     "contact": ("name", "kind", "between", "closed_in", "resistance"),
     "fuse": ("name", "kind", "between", "model"),
 }
@@ -1072,8 +1072,12 @@ def _ac_ranges(ctx: _Ctx, node: _Node | None, key: str, parts: model.Parts,
     rect = m.choice("rectifier", ("bridge", "half_wave"), "bridge")
     diode = _diode_ref(ctx, m.req("diode", "si_generic"), parts, f"{key}.diode")
     scale = m.choice("scale", ("shared", "own"), "shared")
+    swamp = m.qty("swamp", "resistance", 0.0, check="nonneg")
+    if volts and swamp:
+        ctx.fail("ac_voltage.swamp: the multiplier already swamps the rectifier of a voltage range; remove swamp "
+                 "(it is for ac_current)", m.get("swamp").line)
     return model.ACRanges(arrangement=arr, full_scales=tuple(fs), rectifier=rect, diode=diode, scale=scale,
-                          line=key_line or m.line)
+                          line=key_line or m.line, swamp_ohm=swamp)
 
 
 def _model_ref(ctx: _Ctx, node: _Node, models, kind: str, where: str, example: str) -> str:
@@ -1330,7 +1334,8 @@ def _network(ctx: _Ctx, node: _Node | None, parts: model.Parts) -> model.Network
             if an == ca:
                 ctx.fail(f"{where} has anode and cathode both on node '{an}'; give two different nodes", e.line)
             mdl = _diode_ref(ctx, e.req("model", "si_generic"), parts, e.at("model"))
-            elements.append(model.Diode(name=name, anode=an, cathode=ca, model=mdl, line=e.line))
+            role = e.choice("role", ("clamp", "rectifier"), "clamp")
+            elements.append(model.Diode(name=name, anode=an, cathode=ca, model=mdl, line=e.line, role=role))
         elif kind == "contact":
             a, b = _pair(ctx, e.req("between", "[vin, t1]"), e.at("between"), "[vin, t1]")
             cl = ctx.seq(e.req("closed_in", "['2.5 V']"), e.at("closed_in"), "['2.5 V', '10 V']")

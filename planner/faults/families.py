@@ -33,7 +33,8 @@ _CATS = ("II", "III", "IV")
 
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
-BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range")
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "max input sine", "mains on A range",
+                  "mains on AC range", "DC on AC range", "DC on AC range reversed", "AC on DC range")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
@@ -139,17 +140,22 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     out = project_sources(spec)
     lower, higher = same_kind_neighbours(net, position)
     unit = position.unit
+    wave = position.kind.waveform  # an AC range's neighbour is a sine of its rms
     if higher:
-        out.append(Stimulus("range up", position.kind.source, higher[0],
+        out.append(Stimulus("range up", position.kind.source, higher[0], wave,
                             detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'"))
     if lower:
-        out.append(Stimulus("range down", position.kind.source, lower[0],
+        out.append(Stimulus("range down", position.kind.source, lower[0], wave,
                             detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'"))
     if f.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
         out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
                             detail="declared maximum input, reverse polarity"))
     out += position.kind.misrange(position, f)
+    if wave == "dc" and any(q.kind.waveform != "dc" for q in net.positions):
+        out.append(Stimulus("AC on DC range", position.kind.source, position.full_scale, "sine",
+                            detail="a sine of the full scale's rms on a DC range (an AC measurement on the wrong "
+                                   "position)"))
     if f.category:
         out.append(impulse_stimulus(f.category))
     return out

@@ -96,11 +96,18 @@ class Diode(Part):
     cathode: str
     model: str
     line: int | None = None
+    #: ``clamp`` (protection: taken out to see what it protects) or ``rectifier`` (in the signal
+    #: path of an AC range: part of the measurement).
+    role: str = "clamp"
 
     kind: ClassVar[str] = "diode"
     stamp: ClassVar[str] = "junction"
     symbol: ClassVar[str] = "diode"
-    clamp: ClassVar[bool] = True
+
+    @property
+    def clamp(self) -> bool:
+        """True for a protection diode, False for a rectifier's."""
+        return self.role != "rectifier"
 
     @property
     def nodes(self) -> tuple[str, str]:
@@ -128,7 +135,9 @@ class Diode(Part):
         return [Parameter(self.name, f"{self.name} I_s", "diode", self.name, float(spread))] if spread > 0 else []
 
     def yaml(self) -> str:
-        return f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, model: {self.model}}}"
+        role = ", role: rectifier" if self.role == "rectifier" else ""
+        return (f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, "
+                f"model: {self.model}{role}}}")
 
     def checks(self, ctx) -> list[dict]:
         """Average, peak (surge) current and power against its model's ratings; I^2 t while a fuse opens.

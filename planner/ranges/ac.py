@@ -81,12 +81,16 @@ class ACRange(RangeKind):
                 "scale": position.scale}
 
     def misrange(self, position, faults) -> list:
-        """A DC level equal to the full scale on an AC position, both polarities (``DC on AC range``)."""
+        """The AC range's own families: a DC level equal to the full scale in both polarities
+        (``DC on AC range``) and the declared maximum input as a sine of that rms (``max input sine``)."""
         fs = float(position.full_scale)
-        return [Stimulus("DC on AC range", self.source, fs, "dc",
-                         detail="a DC level equal to the full scale on an AC range"),
-                Stimulus("DC on AC range", self.source, -fs, "dc",
-                         detail="the same DC level reversed")]
+        out = [Stimulus("DC on AC range", self.source, fs, "dc",
+                        detail="a DC level equal to the full scale on an AC range"),
+               Stimulus("DC on AC range reversed", self.source, -fs, "dc", detail="the same DC level reversed")]
+        if faults.max_input_v is not None:
+            out.append(Stimulus("max input sine", "voltage", faults.max_input_v, "sine",
+                                detail="the declared maximum input as the rms of a sine"))
+        return out
 
 
 def _rows(x, rows):

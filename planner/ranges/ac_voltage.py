@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+from ..stimulus import Stimulus
 from .ac import ACRange
+from .dc_current import MAINS_SOURCE_OHM, MAINS_V_RMS
 
 
 class ACVoltage(ACRange):
@@ -22,3 +24,11 @@ class ACVoltage(ACRange):
         z = terminal_v / source_current_a
         return {"input_impedance_ohm": z, "input_resistance_ohm": z, "ohms_per_volt": z / full_scale,
                 "source_current_a": source_current_a}
+
+    def misrange(self, position, faults) -> list:
+        """The AC families, and the wall outlet on a range below it when no maximum input is declared."""
+        out = super().misrange(position, faults)
+        if faults.max_input_v is None and position.full_scale < MAINS_V_RMS:
+            out.append(Stimulus("mains on AC range", "voltage", MAINS_V_RMS, "sine", MAINS_SOURCE_OHM,
+                                detail="wall outlet on an AC voltage range below it (no maximum input declared)"))
+        return out

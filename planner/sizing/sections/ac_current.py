@@ -5,7 +5,9 @@ current at full-scale rms is I_fs
 (:func:`planner.sizing.sections.rectifier.solve_for_mean`): the input current
 divides between the shunt and the rectifier branch, whose share is not a fixed
 fraction (the diodes' resistance falls as the current rises), so the division
-is solved, not taken from the DC formula. An Ayrton ring is not laid out for AC
+is solved, not taken from the DC formula. A ``swamp`` resistor in series with the
+rectifier branch makes the diodes' share of the branch voltage (and so their
+temperature law and spread) smaller, at the price of a larger burden. An Ayrton ring is not laid out for AC
 current (its taps would each need the ring's whole rectifier solve); ask for
 ``separate``. Topology and names in ``docs/ac.md``.
 """
@@ -50,12 +52,14 @@ class ACCurrentSizing(SizingSection):
         names = self.labels(spec)
         lo = input_minus(PREFIX, c.rectifier)
         for k, fs in enumerate(c.full_scales):
-            r = solve_for_mean(spec, PREFIX, c.rectifier, c.diode, "ac_current", fs, c.line)
+            r = solve_for_mean(spec, PREFIX, c.rectifier, c.diode, "ac_current", fs, c.line, c.swamp_ohm)
             top = f"{PREFIX}{k + 1}"
             layout.segments.append(SegmentPlan(f"AC shunt {names[k]}", "shunt", r, lo, top, c.line))
             layout.positions.append(Position(names[k], "ac_current", float(fs), (PLUS, lo), c.line,
                                              scale=c.scale))
             layout.contacts.append((layout.current_feed, top, (names[k],)))
-            layout.contacts.append((top, f"{PREFIX}_a", (names[k],)))
+            layout.contacts.append((top, f"{PREFIX}_s" if c.swamp_ohm > 0 else f"{PREFIX}_a", (names[k],)))
             layout.ideal[names[k]] = (r, None)
+        if c.swamp_ohm > 0:
+            layout.segments.append(SegmentPlan("AC swamp", "swamp", c.swamp_ohm, f"{PREFIX}_a", f"{PREFIX}_s", c.line))
         lay_out_rectifier(layout, PREFIX, c.rectifier, c.diode, names, c.line)

@@ -75,11 +75,11 @@ def _diodes(prefix: str, rectifier: str, model: str, line):
 def lay_out_rectifier(layout: Layout, prefix: str, rectifier: str, model: str, names, line) -> None:
     """Add the rectifier's diodes and the contact that joins its DC corner to the movement on ``names``."""
     for args in _diodes(prefix, rectifier, model, line):
-        layout.devices.append(Device("D", Diode, args))
+        layout.devices.append(Device("D", Diode, args + ("rectifier",)))
     layout.contacts.append((f"{prefix}_dc", M_PLUS, tuple(names)))
 
 
-def _network(spec: Spec, prefix: str, rectifier: str, model: str, measures: str, fs: float):
+def _network(spec: Spec, prefix: str, rectifier: str, model: str, measures: str, fs: float, swamp_ohm: float = 0.0):
     """The position's own network: a resistance (multiplier or shunt), the rectifier, the movement, its clamps."""
     a, lo = f"{prefix}_a", input_minus(prefix, rectifier)
     els = [Diode(f"D{j}", an, ca, mdl) for j, (an, ca, mdl, _) in enumerate(_diodes(prefix, rectifier, model, None), 1)]
@@ -96,8 +96,12 @@ def _network(spec: Spec, prefix: str, rectifier: str, model: str, measures: str,
                 els.append(Diode(f"DK{j}{direction}{i}", an, ca, mdl))
     if measures == "ac_voltage":
         els.append(Resistor("RX", "in", a, 1.0))
-    else:  # a shunt across the input, the rectifier fed from its top
-        els += [Resistor("RX", "in", lo, 1.0), Contact("S2", "in", a, ("x",))]
+    else:  # a shunt across the input, the rectifier fed from its top (through the swamp, if any)
+        els.append(Resistor("RX", "in", lo, 1.0))
+        if swamp_ohm > 0:
+            els += [Contact("S2", "in", f"{prefix}_s", ("x",)), Resistor("RSW", f"{prefix}_s", a, swamp_ohm)]
+        else:
+            els.append(Contact("S2", "in", a, ("x",)))
     return NetworkSpec(tuple(els), (Position("x", measures, fs, ("in", lo)),))
 
 
@@ -134,7 +138,7 @@ def nominal_error(spec: Spec, net: NetworkSpec, pos: Position) -> float:
 
 
 def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures: str, fs: float,
-                   line) -> float:
+                   line, swamp_ohm: float = 0.0) -> float:
     """The resistance [ohm] that makes the mean movement current I_fs at full-scale rms of a sine.
 
     Parameters
@@ -153,6 +157,8 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
         Full-scale rms [V] or [A].
     line : int or None
         The section's line (for messages).
+    swamp_ohm : float
+        ``ac_current``: a resistor in series with the rectifier branch [ohm].
 
     Returns
     -------
@@ -176,7 +182,7 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
     R. P. Brent, *Algorithms for Minimization without Derivatives*,
     Prentice-Hall, 1973 (``scipy.optimize.brentq``).
     """
-    net = _network(spec, prefix, rectifier, model, measures, fs)
+    net = _network(spec, prefix, rectifier, model, measures, fs, swamp_ohm)
     c, r, jn = _compiled(spec, net, "x", "voltage" if measures == "ac_voltage" else "current")
     jx = next(j for j, br in enumerate(c.branches) if br.element == "RX")
     i_fs = spec.movement.i_fs_a
