@@ -129,11 +129,11 @@ def _verdict_fill(cells: list[tuple[int, int, str]]):
 
 
 def _unit(measures: str) -> str:
-    return "V" if measures == "voltage" else "A"
+    return "V" if measures in ("voltage", "ac_voltage") else "A"
 
 
 def _hazardous_position(pos) -> bool:
-    return pos.measures == "voltage" and is_hazardous(pos.full_scale)
+    return pos.measures in ("voltage", "ac_voltage") and is_hazardous(pos.full_scale)
 
 
 def _sources(spec) -> list:
@@ -821,9 +821,16 @@ def _accuracy_table(ctx: Context, q: dict) -> Table:
         rows.append(["Monte Carlo yield", f"{100 * q['yield_fraction']:.1f} %",
                      f"{(q.get('monte_carlo') or {}).get('samples', ctx.samples)} builds; 1 % to 99 %: "
                      f"{pct(mc.get('p1'))} to {pct(mc.get('p99'))}"])
-    if q.get("measures") == "voltage" and q.get("input_resistance_ohm") is not None:
-        rows.append(["Input resistance", value_text(q["input_resistance_ohm"], "ohm"),
+    if q.get("measures") in ("voltage", "ac_voltage") and q.get("input_resistance_ohm") is not None:
+        what = "Input impedance (rms V / rms I)" if q.get("measures") == "ac_voltage" else "Input resistance"
+        rows.append([what, value_text(q["input_resistance_ohm"], "ohm"),
                      f"{value_text(q.get('ohms_per_volt'), 'ohm/V')} at full scale"])
+    for w in q.get("waveform_errors") or ():
+        rows.append([f"Reading of a {w['waveform']} wave", pct(w["error_pct"]),
+                     "at full-scale rms; the pointer follows the mean, the scale is marked in rms of a sine"])
+    for d in q.get("dc_readings") or ():
+        rows.append([f"Reading of DC {'+' if d['applied'] > 0 else '-'}FS", pct(d["error_pct"]),
+                     "a DC level equal to the full scale on this AC range"])
     if q.get("burden_voltage_v") is not None:
         rows.append(["Burden voltage at full scale", value_text(q["burden_voltage_v"], "V"),
                      f"input resistance {value_text(q.get('input_resistance_ohm'), 'ohm')}"])
@@ -1077,6 +1084,12 @@ def build(ctx: Context) -> list:
         steps.append("Voltage ranges next, lowest range first: " + ", ".join(q.name for q in vpos) + ". In a "
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
+    acpos = [q for q in net.positions if q.measures in ("ac_voltage", "ac_current")]
+    if acpos:
+        steps.append("AC ranges after the DC ones: " + ", ".join(q.name for q in acpos) + ". Apply a sine of known "
+                     "rms (a calibrator, or a low-distortion source checked with a true-rms meter) at 10 %, 50 % and "
+                     "100 % of full scale; the readings should match the check's linearity table for that scale. "
+                     "A distorted source reads off by its form factor (see the waveform errors of each range).")
     if trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")

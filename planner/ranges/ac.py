@@ -11,7 +11,7 @@ The phase points are chosen by the network's response, not fixed: one
 (:func:`planner.cycle.adapt_shared`) places Gauss-Legendre panels between the
 diodes' knees with Gauss-Kronrod error control to :data:`TOLERANCE_FS` of the
 full-scale current, built on the nominal parts at the reference and both ambient
-extremes; a batch of builds (Monte Carlo, tolerance corners) is then solved on
+extremes and on every part at its low and at its high tolerance extreme; a batch of builds (Monte Carlo, tolerance corners) is then solved on
 its nodes and the rule is verified on the builds with the largest and the
 smallest result (refined and solved again where they miss). The convergence
 test against 4096 equally spaced phases is ``tests/test_ac.py``; the measured
@@ -166,22 +166,42 @@ class CycleOperating:
         return self.rule.rms(self.points.node_voltage(node))
 
 
-def _standard_targets(fs: float) -> list:
-    """(shape, value) of the one rule a position's check needs: a sine at 10 % .. 100 % of full scale,
-    the other waveforms and the DC levels at full scale (every request of ``planner check`` is a subset)."""
-    out = [("sine", float(f * fs)) for f in np.round(np.arange(1, 11) * 0.1, 10)]
-    out += [(w, float(fs)) for w in CHECK_WAVEFORMS]
-    return out + [("dc", float(fs)), ("dc", -float(fs))]
+def _standard_targets(fs: float) -> dict:
+    """(shape, value) of the rules a position's check needs, by name: every request of ``planner check``
+    falls in one of them.
+
+    ``scale``: a sine at 10 % .. 100 % of full scale (linearity, temperature, worst case, Monte Carlo:
+    the many-row batches, so the fewest nodes); ``waveforms``: the other waveforms and the DC levels at
+    full scale (nominal rows only; the triangle's crest, sqrt 3 x FS, would widen the scale rule's span).
+    """
+    scale = [("sine", float(f * fs)) for f in np.round(np.arange(1, 11) * 0.1, 10)]
+    waves = [(w, float(fs)) for w in CHECK_WAVEFORMS] + [("dc", float(fs)), ("dc", -float(fs))]
+    return {"scale": scale, "waveforms": waves}
+
+
+def _build_rows(engine):
+    """Temperatures [K] and factors of the rows a rule is built on: nominal parts at the reference and
+    both ambient extremes, and every toleranced part at its low and at its high extreme (the diodes'
+    knees move most between those) at the reference."""
+    spec = engine.spec
+    amb = spec.ambient
+    temps = list(np.unique([amb.t_min_k, amb.t_ref_k, amb.t_max_k]))
+    params = [q for e in engine.net.elements for q in e.parameters(spec)]
+    if not params:
+        return np.array(temps), None
+    n = len(temps)
+    factors = {q.key: np.array([1.0] * n + list(q.extremes())) for q in params}
+    return np.array(temps + [amb.t_ref_k, amb.t_ref_k]), factors
 
 
 def _build(engine, st, pairs, kind, r0):
     spec = engine.spec
-    amb = spec.ambient
-    temps = np.unique([amb.t_min_k, amb.t_ref_k, amb.t_max_k])
     i_fs = spec.movement.i_fs_a
+    temps, factors = _build_rows(engine)
 
     def nominal(x):
-        return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0).movement_current_a
+        return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0,
+                              factors=factors).movement_current_a
 
     targets = [Target(SHAPES[w], SHAPES[w].peak_of(v), w) for w, v in pairs]
     return adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
@@ -203,11 +223,11 @@ def _rule_for(engine, st, shape, values, kind, r_source_ohm):
     cache = engine.__dict__.setdefault("_cycle_rules", {})
     r0 = float(np.max(np.asarray(r_source_ohm, dtype=float)))
     wanted = [(shape.name, float(v)) for v in values]
-    std = _standard_targets(float(st.position.full_scale))
-    if all(w in std for w in wanted):
-        key, pairs = (st.name, st.closed, "standard", kind, r0), std
-    else:
-        key, pairs = (st.name, st.closed, tuple(wanted), kind, r0), wanted
+    key, pairs = (st.name, st.closed, tuple(wanted), kind, r0), wanted
+    for name, std in _standard_targets(float(st.position.full_scale)).items():
+        if all(w in std for w in wanted):
+            key, pairs = (st.name, st.closed, name, kind, r0), std
+            break
     if key not in cache:
         cache[key] = _build(engine, st, pairs, kind, r0)
     return key, cache[key], [pairs.index(w) for w in wanted]
