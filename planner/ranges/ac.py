@@ -93,6 +93,22 @@ class ACRange(RangeKind):
         return out
 
 
+class _AtZero:
+    """The rule of an all-zero stimulus: every target is the one operating point at zero."""
+
+    def __init__(self, t: int):
+        self.w = np.ones((t, 1))
+
+    def mean(self, q):
+        return np.asarray(q, dtype=float) @ self.w.T
+
+    def rms(self, q):
+        return np.abs(self.mean(q))
+
+    def peak(self, q):
+        return np.abs(self.mean(q))
+
+
 def _rows(x, rows):
     """Rows of a per-row argument (an array of P values) or the argument itself (a number)."""
     a = np.asarray(x, dtype=float)
@@ -263,6 +279,10 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     if values.ndim != 1:
         raise ValueError("AC stimuli are one row of rms values, shape (T,)")
     shape = SHAPES[waveform]
+    if not np.any(values):  # nothing applied: one operating point at zero serves every target
+        op = engine.operate(st, [0.0], kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm,
+                            factors=factors)
+        return CycleOperating(engine, st, op, _AtZero(values.size), values)
     key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
     op = engine.operate(st, rule.points(), **kw)
@@ -286,6 +306,32 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     return CycleOperating(engine, st, op, rule, values)
 
 
+def _grid_response(engine, position: str):
+    """(applied [unit], D_nom) at 0 and :data:`SCALE_GRID` x full scale, solved once per engine and position."""
+    cache = engine.__dict__.setdefault("_ac_responses", {})
+    if position not in cache:
+        pos = engine.state(position).position
+        fs = float(pos.full_scale)
+        d = operate_cycle(engine, engine.state(position), SCALE_GRID * fs, "sine", kind=pos.kind.source,
+                          temperature_k=None, r_source_ohm=0.0, factors=None).movement_multiple[0]
+        d = np.concatenate([[0.0], d])
+        a = np.concatenate([[0.0], SCALE_GRID * fs])
+        if np.any(np.diff(d) <= 0):
+            raise ValueError(f"the nominal response of '{position}' does not rise with the input")
+        cache[position] = (a, d)
+    return cache[position]
+
+
+def nominal_response(engine, position: str):
+    """D_nom(A) of an AC position: applied rms [unit] -> I_mean / I_fs (nominal parts, reference temperature).
+
+    A cubic spline through the solved response at :data:`SCALE_GRID` x full scale (exact
+    there), for the scale plate's ticks and the shared scale's bend.
+    """
+    a, d = _grid_response(engine, position)
+    return CubicSpline(a, d)
+
+
 def own_scale(engine, position: str):
     """The reading function of an ``own`` AC scale: multiples of I_fs -> applied rms [V] or [A].
 
@@ -304,14 +350,7 @@ def own_scale(engine, position: str):
     """
     cache = engine.__dict__.setdefault("_own_scales", {})
     if position not in cache:
-        pos = engine.state(position).position
-        fs = float(pos.full_scale)
-        d = operate_cycle(engine, engine.state(position), SCALE_GRID * fs, "sine", kind=pos.kind.source,
-                          temperature_k=None, r_source_ohm=0.0, factors=None).movement_multiple[0]
-        d = np.concatenate([[0.0], d])
-        a = np.concatenate([[0.0], SCALE_GRID * fs])
-        if np.any(np.diff(d) <= 0):
-            raise ValueError(f"the nominal response of '{position}' does not rise with the input")
+        a, d = _grid_response(engine, position)
         spline = CubicSpline(d, a)
         slope = (a[-1] - a[-2]) / (d[-1] - d[-2])
 

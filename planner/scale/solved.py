@@ -24,6 +24,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..ranges.ac import nominal_response as ac_response
+from .ac import ac_definitions, is_ac, shares_dc_scale
 from .plate import Plate, PlateError, PlateInfo, build_plate, scale_lines
 from .numbers import M1225, display_number, div, is_nice, number_text, unit_text
 from .ticks import Response, Scale, ScaleDef, ScalePosition, rows_of
@@ -133,9 +135,9 @@ def linear_definitions(engine, positions=None) -> tuple[list[ScaleDef], list[Pos
         (``DC 2`` ...).
     checks : list of PositionCheck
     """
-    pos = [p for p in (positions if positions is not None else engine.positions)
-           if p.measures in ("voltage", "current")]
-    sps = [ScalePosition(p.name, "V" if p.measures == "voltage" else "A", p.full_scale) for p in pos]
+    pos = [p for p in (positions if positions is not None else engine.positions) if shares_dc_scale(p)]
+    sps = [ScalePosition(p.name, p.unit, p.full_scale) for p in pos]
+    ac = {p.name for p in pos if is_ac(p)}
     groups: list[list[ScalePosition]] = []
     for row in rows_of(tuple(sps)):
         members = [sp for sp in sps if sp.name in {rp.name for rp in row.positions}]
@@ -151,7 +153,7 @@ def linear_definitions(engine, positions=None) -> tuple[list[ScaleDef], list[Pos
     checks = []
     for sp in sps:
         v = np.linspace(0.0, sp.full_scale, 101)
-        d = nominal_response(engine, sp.name, v)
+        d = ac_response(engine, sp.name)(v) if sp.name in ac else nominal_response(engine, sp.name, v)
         dev = float(np.max(np.abs(d - d[-1] * v / sp.full_scale)))
         linear = not has_junction(engine, sp.name)
         checks.append(PositionCheck(sp.name, sp.unit, sp.full_scale, float(d[-1]), dev, linear,
@@ -204,6 +206,7 @@ def scale_project(design, *, engine=None, defs: list[ScaleDef] | None = None) ->
     spec = design.spec
     engine = engine or Engine(design)
     linear, checks = linear_definitions(engine)
+    linear += ac_definitions(engine)
     geo = spec.movement.scale
     m = spec.movement
     info = PlateInfo(title=spec.title, revision=spec.revision, date=spec.date,
