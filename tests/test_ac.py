@@ -290,3 +290,36 @@ def test_bad_ac_requests_name_the_line(text, what):
         build(loads(_project(text, SOFT), "bad.yaml"))
     msg = e.value.one_line()
     assert "bad.yaml:" in msg and what in msg
+
+
+@pytest.mark.parametrize("waveform,multiple", [("sine", 1.0), ("square", math.pi / (2 * math.sqrt(2))),
+                                               ("triangle", math.pi / (2 * math.sqrt(2)) / (2 / math.sqrt(3)))])
+def test_apply_waveforms_mean_multiple(high_bridge, waveform, multiple):
+    """``apply --waveform``: the pointer's mean multiple at full-scale rms follows the form factor.
+
+    Source: form factors of the sine (pi / (2 sqrt 2)), square (1) and triangle (2 / sqrt 3)
+    [standard AC theory]; the diodes' drops on a 1000 V range and the 512 equal phases of
+    ``apply`` leave a few parts in 1e4.
+    """
+    from planner.stress import apply_stimulus
+
+    out = apply_stimulus(high_bridge, "1 kV~", volts=1000.0, waveform=waveform)
+    np.testing.assert_allclose(out["movement_mean_multiple"], multiple, rtol=1e-3)  # drops, 512 phases
+    assert out["movement_rms_multiple"] >= out["movement_mean_multiple"] * (1 - 1e-12)
+
+
+def test_own_scale_plate_follows_the_solved_response(service):
+    """The AC scale of its own is marked from D_nom: at half scale the tick's fraction is the mean over
+    4096 equally spaced phases (the rectangle rule, Trefethen and Weideman 2014) to 1e-6."""
+    from planner.scale import scale_json, scale_project
+
+    eng = Engine(service)
+    plate = scale_json(scale_project(service, engine=eng))
+    own = next(s for s in plate["scales"] if s["name"] == "AC 10 mA~")
+    assert own["positions"] == ["10 mA~"]
+    tick = min(own["ticks"], key=lambda t: abs(t["value"] - 5e-3))
+    x = math.sqrt(2) * tick["value"] * np.sin(2 * np.pi * np.arange(4096) / 4096)
+    ref = float(eng.operate("10 mA~", x, kind="current").movement_current_a.mean()) / 50e-6
+    np.testing.assert_allclose(tick["fraction"], ref, atol=1e-6)  # 1e-6 of the arc
+    shared = next(s for s in plate["scales"] if s["unit"] == "V" and s["name"].startswith("DC"))
+    assert "10 V~" in shared["positions"]

@@ -26,7 +26,7 @@ Academic Press, 1984, section 2.5 (product integration).
 
 from __future__ import annotations
 
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -180,6 +180,27 @@ class CycleOperating:
     def node_voltage(self, node: str) -> np.ndarray:
         """rms of a node's voltage against the input's minus terminal [V], (P, T)."""
         return self.rule.rms(self.points.node_voltage(node))
+
+    def element(self, name: str) -> "CycleStress":
+        """rms current [A] and voltage [V] and mean power [W] of one element over the cycle, (P, T)."""
+        e = self.points.element(name)
+        return CycleStress(name, e.kind, self.rule.rms(e.current_a), self.rule.rms(e.voltage_v),
+                           self.rule.mean(e.power_w))
+
+    def stresses(self) -> list["CycleStress"]:
+        """Every rated element's cycle stress, in network order."""
+        return [self.element(e.name) for e in self.engine.net.elements if e.rated]
+
+
+@dataclass
+class CycleStress:
+    """Cycle quantities of one element: rms current [A], rms voltage [V], mean power [W], shapes (P, T)."""
+
+    name: str
+    kind: str
+    current_a: np.ndarray
+    voltage_v: np.ndarray
+    power_w: np.ndarray
 
 
 def _standard_targets(fs: float) -> dict:
