@@ -188,7 +188,7 @@ class CountingEngine:
     def operate(self, *args, **kwargs):
         op = self.engine.operate(*args, **kwargs)
         p, s = op.shape
-        self.points += p * s
+        self.points += getattr(op, "solved_points", p * s)  # an AC cycle: its rule's nodes, not its targets
         self.calls += 1
         return op
 
