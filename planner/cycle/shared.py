@@ -31,6 +31,7 @@ agrees with the 15-point one, confirmed on solved values.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 from typing import Callable, Sequence
 
 import numpy as np
@@ -136,19 +137,26 @@ def _panel_moments(target: Target, span: float, lo: float, hi: float) -> tuple[n
     panel's local coordinate in [-1, 1], and the target's probability mass on the
     panel (:math:`m_0`).
     """
-    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
-    scale = target.peak / span
-    sh = target.shape
-    m = np.zeros(MAX_DEGREE + 1)
     if _is_atomic(target, span):
-        return m, 0.0  # solved exactly at its own nodes (see _Shared)
+        return np.zeros(MAX_DEGREE + 1), 0.0  # solved exactly at its own nodes (see _Shared)
+    m = _moments(target.shape, float(target.peak / span), float(lo), float(hi))
+    return m, float(m[0])
+
+
+@lru_cache(maxsize=1 << 16)
+def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
+    """The moments of :func:`_panel_moments` (read-only; kept: a rule's verification, its refinements and
+    the other rules of the same position ask for the same panels again)."""
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    m = np.zeros(MAX_DEGREE + 1)
     length = sh.domain[1] - sh.domain[0]
     ts, tw = gauss_legendre(PHASE_POINTS_PER_PIECE)
     for t1, t2 in _phase_pieces(sh, scale, lo, hi):
         tm, th = 0.5 * (t1 + t2), 0.5 * (t2 - t1)
         y = scale * sh.x_of(tm + th * ts)
         m += (th * tw / length) @ np.polynomial.legendre.legvander((y - mid) / half, MAX_DEGREE)
-    return m, float(m[0])
+    m.flags.writeable = False
+    return m
 
 
 def _weights_from_moments(moments, z) -> np.ndarray:

@@ -48,6 +48,8 @@ EXAMPLE = ROOT / "projects" / "service_multimeter.yaml"
 #: Steps per cycle and options of the ngspice transient at 1e-5 agreement.
 STEPS = 2000
 TRAN_OPTIONS = "reltol=1e-6 abstol=1e-14 vntol=1e-9 itl1=500 itl2=200"
+#: The options of ``tests/test_ac_spice.py``, for the few decks ngspice gives up on at the loose ones.
+TIGHT_OPTIONS = "reltol=1e-9 abstol=1e-15 vntol=1e-12 itl1=500 itl2=200"
 
 
 def dc_only(text: str) -> str:
@@ -86,9 +88,17 @@ def time_process(path: Path, repeat: int) -> float:
 
 
 def tran_mean(eng, position, rms, kind, factors) -> float:
+    """ngspice's cycle mean at the loose options; where ngspice gives up there, at the tests' options."""
+    try:
+        return _tran_mean(eng, position, rms, kind, factors, TRAN_OPTIONS)
+    except (OSError, ValueError, IndexError):
+        return _tran_mean(eng, position, rms, kind, factors, TIGHT_OPTIONS)
+
+
+def _tran_mean(eng, position, rms, kind, factors, options) -> float:
     import spice
 
-    deck = spice.netlist(eng, position, kind, [-1.0, 1.0], factors=factors, options=TRAN_OPTIONS)
+    deck = spice.netlist(eng, position, kind, [-1.0, 1.0], factors=factors, options=options)
     src = "Vstim" if kind == "voltage" else "Istim"
     period = 0.02
     step = period / STEPS
