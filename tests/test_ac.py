@@ -127,10 +127,12 @@ def test_mean_current_against_banwell_quad(fraction, t_c, monkeypatch):
 
     Source: the exact current of a diode with series resistance (Banwell and Jayakumar,
     Electronics Letters 36(4), 291-292, 2000), R = R1(T) + R_coil(T) + R_s, integrated
-    over one cycle of the phase with ``scipy.integrate.quad``. The check's rules are
-    built to 1e-6 of I_fs (a reading to 1e-6 of full scale, 4e-7 of this mean at 30 %);
-    here the rule is asked for 1e-10 of I_fs, so that what is compared is the solver's
-    instantaneous states and the rule's error control, not the check's tolerance.
+    over one cycle of the phase with ``scipy.integrate.quad``. Both cycle rules: the
+    fixed 1024-node rule of a single parameter row, and the adaptive shared rule of a
+    batch (two rows here). The check builds the adaptive rule to 1e-6 of I_fs (a reading
+    to 1e-6 of full scale, 4e-7 of this mean at 30 %); here it is asked for 1e-10 of
+    I_fs, so that what is compared is the solver's instantaneous states and the rule's
+    error control, not the check's tolerance.
     """
     import planner.ranges.ac as ac
 
@@ -145,8 +147,10 @@ def test_mean_current_against_banwell_quad(fraction, t_c, monkeypatch):
     peak = math.sqrt(2.0) * 2.5 * fraction
     mean = quad(lambda th: _banwell(peak * math.sin(th), r, i_s, nvt), 0.0, 2 * math.pi, points=[math.pi],
                 epsabs=0.0, epsrel=1e-13, limit=400)[0] / (2 * math.pi)
-    ours = float(eng.operate("2.5 V~", [2.5 * fraction], temperature_k=t_k).movement_current_a[0, 0])
-    np.testing.assert_allclose(ours, mean, rtol=1e-7)  # brief: 1e-7 relative
+    single = float(eng.operate("2.5 V~", [2.5 * fraction], temperature_k=t_k).movement_current_a[0, 0])
+    batch = eng.operate("2.5 V~", [2.5 * fraction], temperature_k=[t_k, t_k]).movement_current_a[:, 0]
+    np.testing.assert_allclose(single, mean, rtol=1e-7)  # brief: 1e-7 relative
+    np.testing.assert_allclose(batch, mean, rtol=1e-7)
 
 
 # --- the 2.5 V bridge on a shared scale: linearity against an independent nodal solve ------------------------
