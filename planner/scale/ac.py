@@ -8,8 +8,13 @@ the ``shared`` scale are marked on the DC arc (:func:`planner.scale.solved.linea
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..ranges.ac import nominal_response
-from .ticks import ScaleDef, ScalePosition
+from .ticks import Response, ScaleDef, ScalePosition
+
+#: Samples of the nominal response from zero to full scale (as ``solved.sampled_response``).
+SAMPLES = 401
 
 __all__ = ["ac_definitions", "is_ac", "shares_dc_scale"]
 
@@ -26,11 +31,11 @@ def shares_dc_scale(position) -> bool:
 
 def ac_definitions(engine) -> list[ScaleDef]:
     """One ``ac`` scale per AC position with ``scale: own``, named after it (``AC 10 mA~``)."""
-    from .solved import sampled_response
-
     out = []
     for p in engine.positions:
         if is_ac(p) and p.scale == "own":
-            response = sampled_response(nominal_response(engine, p.name), p.full_scale, "ac")
+            evaluate = nominal_response(engine, p.name)
+            values = np.linspace(0.0, p.full_scale, SAMPLES)
+            response = Response(values, np.asarray(evaluate(values), dtype=float), evaluate)
             out.append(ScaleDef(f"AC {p.name}", "ac", (ScalePosition(p.name, p.unit, p.full_scale),), response))
     return out
