@@ -30,11 +30,17 @@ from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
-from scipy.interpolate import CubicSpline
 
-from ..cycle import SHAPES, Target, adapt_shared, extreme_rows, fixed_rule
 from ..stimulus import Stimulus
 from .base import RangeKind
+
+def _cycle():
+    """:mod:`planner.cycle`, imported on first use: it brings scipy's interpolation and root finding,
+    and every command that loads a project imports this module (a refused output must stay quick)."""
+    from .. import cycle
+
+    return cycle
+
 
 #: Accuracy of the cycle mean of the movement current, fraction of I_fs (reading to 1e-6 of full scale).
 TOLERANCE_FS = 1e-6
@@ -77,7 +83,7 @@ class ACRange(RangeKind):
         rows = []
         for name in CHECK_WAVEFORMS:
             r = float(engine.operate(position.name, [fs], waveform=name).reading()[0, 0])
-            rows.append({"waveform": name, "form_factor": float(SHAPES[name].form_factor),
+            rows.append({"waveform": name, "form_factor": float(_cycle().SHAPES[name].form_factor),
                          "reading": r, "error_pct": (r - fs) / fs * 100.0})
         dc = engine.operate(position.name, [fs, -fs], waveform="dc").reading()[0]
         return {"waveform_errors": rows,
@@ -102,7 +108,8 @@ class ACRange(RangeKind):
 def _fixed(shape_name: str):
     """The fixed rule of a shape with :data:`SINGLE_ROW_NODES` nodes (made once: a distorted wave's nodes
     are found by root finding)."""
-    return fixed_rule(SHAPES[shape_name], SINGLE_ROW_NODES)
+    c = _cycle()
+    return c.fixed_rule(c.SHAPES[shape_name], SINGLE_ROW_NODES)
 
 
 class _Blocks:
@@ -282,8 +289,9 @@ def _build(engine, st, pairs, kind, r0):
         return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0,
                               factors=factors).movement_current_a
 
-    targets = [Target(SHAPES[w], SHAPES[w].peak_of(v), w) for w, v in pairs]
-    return adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
+    c = _cycle()
+    targets = [c.Target(c.SHAPES[w], c.SHAPES[w].peak_of(v), w) for w, v in pairs]
+    return c.adapt_shared(targets, nominal, TOLERANCE_FS * i_fs, tol_rms=TOLERANCE_RMS_FS * i_fs)
 
 
 def _subset(rule, idx):
@@ -356,7 +364,7 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     values = np.atleast_1d(np.asarray(values, dtype=float))
     if values.ndim != 1:
         raise ValueError("AC stimuli are one row of rms values, shape (T,)")
-    shape = SHAPES[waveform]
+    shape = _cycle().SHAPES[waveform]
     if not np.any(values):  # nothing applied: one operating point at zero serves every target
         op = engine.operate(st, [0.0], kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm,
                             factors=factors)
@@ -373,7 +381,7 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
         big = idx[int(np.argmax(np.abs(values)))]
-        rows = extreme_rows(rule.mean(op.movement_current_a)[:, big], 2)
+        rows = _cycle().extreme_rows(rule.mean(op.movement_current_a)[:, big], 2)
         t = t_ref if temperature_k is None else temperature_k
         f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
 
@@ -411,6 +419,8 @@ def nominal_response(engine, position: str):
     A cubic spline through the solved response at :data:`SCALE_GRID` x full scale (exact
     there), for the scale plate's ticks and the shared scale's bend.
     """
+    from scipy.interpolate import CubicSpline
+
     a, d = _grid_response(engine, position)
     return CubicSpline(a, d)
 
@@ -431,6 +441,8 @@ def own_scale(engine, position: str):
     C. de Boor, *A Practical Guide to Splines*, Springer, 1978 (cubic spline
     interpolation).
     """
+    from scipy.interpolate import CubicSpline
+
     cache = engine.__dict__.setdefault("_own_scales", {})
     if position not in cache:
         a, d = _grid_response(engine, position)
