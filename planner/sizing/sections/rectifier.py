@@ -26,10 +26,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ... import network as nw
-from ...cycle import SHAPES, fixed_rule
 from ...model import Contact, Diode, MovementElement, NetworkSpec, Position, Resistor, Spec
 from ...solve import Junctions, solve
 from ...tools import fmt
@@ -121,6 +119,8 @@ def _compiled(spec: Spec, net: NetworkSpec, pos_name: str, kind: str):
 
 def _mean_of(c, r, jn, fs: float, movement: str) -> float:
     """Cycle mean of the movement current [A] at full-scale rms of a sine (SIZING_NODES-node rule)."""
+    from ...cycle import SHAPES, fixed_rule  # on first use: it brings scipy's interpolation
+
     rule = fixed_rule(SHAPES["sine"], SIZING_NODES, crests=False)
     m_j = next(j for j, br in enumerate(c.branches) if br.element == movement)
     return float(rule.mean(solve(c, r, jn, rule.points(SHAPES["sine"].peak_of(fs))).branch_current(m_j))[0])
@@ -191,6 +191,8 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
         rr = r.copy()
         rr[0, jx] = math.exp(log_r)
         return _mean_of(c, rr, jn, fs, "M1") / i_fs - 1.0
+
+    from scipy.optimize import brentq
 
     ideal = ideal_factor(rectifier)
     r_m = spec.movement.r_coil_ohm
