@@ -11,6 +11,7 @@ column order.
 from __future__ import annotations
 
 import re
+from dataclasses import replace
 
 from ..errors import ProjectError
 from ..model import Spec
@@ -27,6 +28,14 @@ IMPULSE_TABLE_V = {
     600.0: (4000.0, 6000.0, 8000.0),
     1000.0: (6000.0, 8000.0, 12000.0),
 }
+#: Compliance [V] of the current sources of the matrix when none is given (the built-in
+#: ``range up`` / ``range down`` on current ranges, the current transitions, a project's
+#: current source without ``compliance``): the top of a common bench supply, the
+#: circuit a misranged ammeter is most often in (common practice); never above the
+#: declared maximum input. Higher-voltage circuits are the ``max input`` and mains
+#: families' business.
+DEFAULT_COMPLIANCE_V = 30.0
+
 #: Test source impedance of the impulse [ohm] by category (secondary source, verify).
 IMPULSE_SOURCE_OHM = {"II": 12.0, "III": 2.0, "IV": 2.0}
 _CATS = ("II", "III", "IV")
@@ -115,10 +124,29 @@ def same_kind_neighbours(net, p):
     return ((lower[-1], name[lower[-1]]) if lower else None), ((higher[0], name[higher[0]]) if higher else None)
 
 
+def default_compliance_v(spec: Spec) -> float:
+    """Compliance of a current source the project does not bound [V]: ``DEFAULT_COMPLIANCE_V``,
+    or the declared maximum input where that is lower."""
+    m = spec.faults.max_input_v
+    return DEFAULT_COMPLIANCE_V if m is None else min(DEFAULT_COMPLIANCE_V, m)
+
+
 def project_sources(spec: Spec) -> list[Stimulus]:
-    """The project's own ``faults.sources`` as stimuli (a current source has no impedance or limit)."""
-    return [Stimulus(s.name, s.kind, s.value, s.waveform, s.r_source_ohm if s.kind == "voltage" else 0.0,
-                     s.current_limit_a if s.kind == "voltage" else None) for s in spec.faults.sources]
+    """The project's own ``faults.sources`` as stimuli (a current source has no impedance or limit,
+    and a compliance: its own or :func:`default_compliance_v`)."""
+    out = []
+    for s in spec.faults.sources:
+        cur = s.kind == "current"
+        comp = (s.compliance_v if s.compliance_v is not None else default_compliance_v(spec)) if cur else None
+        extra = {"frequency_hz": s.frequency_hz} if s.frequency_hz is not None else {}
+        out.append(Stimulus(s.name, s.kind, s.value, s.waveform, 0.0 if cur else s.r_source_ohm,
+                            None if cur else s.current_limit_a, compliance_v=comp, **extra))
+    return out
+
+
+def _compliance(spec: Spec, kind: str) -> float | None:
+    """The default compliance of a built-in stimulus of a source kind (None for a voltage)."""
+    return default_compliance_v(spec) if kind == "current" else None
 
 
 def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
@@ -143,19 +171,23 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     wave = position.kind.waveform  # an AC range's neighbour is a sine of its rms
     if higher:
         out.append(Stimulus("range up", position.kind.source, higher[0], wave,
-                            detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'"))
+                            detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'",
+                            compliance_v=_compliance(spec, position.kind.source)))
     if lower:
         out.append(Stimulus("range down", position.kind.source, lower[0], wave,
-                            detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'"))
+                            detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'",
+                            compliance_v=_compliance(spec, position.kind.source)))
     if f.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
         out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
                             detail="declared maximum input, reverse polarity"))
-    out += position.kind.misrange(position, f)
+    # a range kind's own current stimuli get the default compliance like the built-in ones
+    out += [replace(s, compliance_v=_compliance(spec, s.kind)) if s.kind == "current" and s.compliance_v is None
+            else s for s in position.kind.misrange(position, f)]
     if wave == "dc" and any(q.kind.waveform != "dc" for q in net.positions):
         out.append(Stimulus("AC on DC range", position.kind.source, position.full_scale, "sine",
                             detail="a sine of the full scale's rms on a DC range (an AC measurement on the wrong "
-                                   "position)"))
+                                   "position)", compliance_v=_compliance(spec, position.kind.source)))
     if f.category:
         out.append(impulse_stimulus(f.category))
     return out
@@ -168,7 +200,8 @@ def column_of(s: Stimulus) -> dict:
 
 def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
     """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
-    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left")]
+    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left",
+                    compliance_v=_compliance(spec, p.kind.source))]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
     return out

@@ -55,6 +55,8 @@ CHECK_WAVEFORMS = ("square", "triangle", "flat-top mains")
 #: Steps of the nominal response an ``own`` AC scale is marked from, fractions of full scale
 #: (0.025 steps up to 1.3: the linearity points 10 % .. 100 % are grid points).
 SCALE_GRID = np.round(np.arange(1, 53) * 0.025, 10)
+#: Samples of the nominal response from zero to full scale that an ``own`` scale's ticks are placed from.
+SCALE_SAMPLES = 401
 
 
 class ACRange(RangeKind):
@@ -90,6 +92,25 @@ class ACRange(RangeKind):
                 "dc_readings": [{"applied": float(a), "reading": float(r), "error_pct": float((r - abs(a)) / fs * 100.0)}
                                 for a, r in zip((fs, -fs), dc)],
                 "scale": position.scale}
+
+    def plate_scale(self, position) -> str:
+        """``linear`` on the shared DC scale (``scale: shared``), ``own`` for an AC scale of its own."""
+        return "own" if position.scale == "own" else "linear"
+
+    def scale_definition(self, response, position):
+        """An ``ac`` scale named after the position (``AC 10 V``), marked from its solved nominal response.
+
+        Notes
+        -----
+        The ticks sit where :math:`D_{nom}(A) = \\bar I_m(A) / I_{fs}` (nominal parts,
+        reference temperature) puts them; ``response`` is that function
+        (:func:`nominal_response` through the solver seam of :mod:`planner.scale.solved`).
+        """
+        from ..scale.ticks import Response, ScaleDef, ScalePosition
+
+        values = np.linspace(0.0, position.full_scale, SCALE_SAMPLES)
+        return ScaleDef(f"AC {position.name}", "ac", (ScalePosition(position.name, self.unit, position.full_scale),),
+                        Response(values, np.asarray(response(values), dtype=float), response))
 
     def misrange(self, position, faults) -> list:
         """The AC range's own families: a DC level equal to the full scale in both polarities

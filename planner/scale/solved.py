@@ -24,8 +24,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..ranges.ac import nominal_response as ac_response
-from .ac import ac_definitions, is_ac, shares_dc_scale
 from .plate import Plate, PlateError, PlateInfo, build_plate, scale_lines
 from .numbers import M1225, display_number, div, is_nice, number_text, unit_text
 from .ticks import Response, Scale, ScaleDef, ScalePosition, rows_of
@@ -59,8 +57,15 @@ def nominal_response(engine, position: str, values) -> np.ndarray:
 
     Notes
     -----
-    D = I_m / I_fs; the reading of a DC position is FS x D (design contract).
+    D = I_m / I_fs; the reading of a DC position is FS x D (design contract). An
+    AC position's D is the cycle mean of I_m / I_fs at the sine's rms
+    (:func:`planner.ranges.ac.nominal_response`: solved at a grid of the full
+    scale, exact there, a cubic spline between).
     """
+    if engine.state(position).position.kind.waveform != "dc":
+        from ..ranges.ac import nominal_response as cycle_response
+
+        return np.asarray(cycle_response(engine, position)(np.asarray(values, dtype=float)), dtype=float)
     return np.asarray(engine.operate(position, np.asarray(values, dtype=float)).movement_multiple[0], dtype=float)
 
 
@@ -135,9 +140,8 @@ def linear_definitions(engine, positions=None) -> tuple[list[ScaleDef], list[Pos
         (``DC 2`` ...).
     checks : list of PositionCheck
     """
-    pos = [p for p in (positions if positions is not None else engine.positions) if shares_dc_scale(p)]
-    sps = [ScalePosition(p.name, p.unit, p.full_scale) for p in pos]
-    ac = {p.name for p in pos if is_ac(p)}
+    pos = [p for p in (positions if positions is not None else engine.positions) if p.kind.plate_scale(p) == "linear"]
+    sps = [ScalePosition(p.name, p.kind.unit, p.full_scale) for p in pos]
     groups: list[list[ScalePosition]] = []
     for row in rows_of(tuple(sps)):
         members = [sp for sp in sps if sp.name in {rp.name for rp in row.positions}]
@@ -153,7 +157,7 @@ def linear_definitions(engine, positions=None) -> tuple[list[ScaleDef], list[Pos
     checks = []
     for sp in sps:
         v = np.linspace(0.0, sp.full_scale, 101)
-        d = ac_response(engine, sp.name)(v) if sp.name in ac else nominal_response(engine, sp.name, v)
+        d = nominal_response(engine, sp.name, v)
         dev = float(np.max(np.abs(d - d[-1] * v / sp.full_scale)))
         linear = not has_junction(engine, sp.name)
         checks.append(PositionCheck(sp.name, sp.unit, sp.full_scale, float(d[-1]), dev, linear,
@@ -189,8 +193,11 @@ def scale_project(design, *, engine=None, defs: list[ScaleDef] | None = None) ->
     engine : Engine, optional
         An engine on ``design`` (made when not given).
     defs : list of ScaleDef, optional
-        Extra scales (AC scales of their own, ohms scales) to draw beside the
-        shared linear scale of the DC positions.
+        Extra scales to draw beside those of the positions. A position's range
+        kind says which scale marks it (:meth:`planner.ranges.RangeKind.plate_scale`):
+        the shared linear scale, or one of its own that the kind defines
+        (:meth:`planner.ranges.RangeKind.scale_definition`; AC scales of their own,
+        ohms scales).
 
     Raises
     ------
@@ -206,13 +213,18 @@ def scale_project(design, *, engine=None, defs: list[ScaleDef] | None = None) ->
     spec = design.spec
     engine = engine or Engine(design)
     linear, checks = linear_definitions(engine)
-    linear += ac_definitions(engine)
+    own = []  # scales of their own (AC, ohms): each range kind draws its own from the solved response
+    for p in engine.positions:
+        if p.kind.plate_scale(p) == "own":
+            d = p.kind.scale_definition(lambda v, name=p.name: nominal_response(engine, name, v), p)
+            if d is not None:
+                own.append(d)
     geo = spec.movement.scale
     m = spec.movement
     info = PlateInfo(title=spec.title, revision=spec.revision, date=spec.date,
                      movement=f"{_quantity_text(m.i_fs_a, 'A')}, {_quantity_text(m.r_coil_ohm, 'ohm')}, "
                               f"class {m.class_index:g}")
-    all_defs = linear + list(defs or [])
+    all_defs = linear + own + list(defs or [])
     if not all_defs:
         raise ProjectError("the project has no position a scale can serve; add voltage or current ranges",
                            spec.path, geo.line)

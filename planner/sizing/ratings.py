@@ -138,10 +138,11 @@ class Stress:
     errors: dict[str, float] = field(default_factory=dict)  # position -> relative error
 
 
-def _add_parts(st: Stress, dv: dict, values: dict, fs: bool) -> None:
+def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, crest: float = 1.0) -> None:
     for name, r in values.items():
         vv = abs(dv.get(name, 0.0))
         pp = vv * vv / r
+        vv *= crest  # the peak of a wave given as rms: what the limiting element voltage is held against
         st.v[name] = max(st.v.get(name, 0.0), vv)
         st.p[name] = max(st.p.get(name, 0.0), pp)
         if fs:
@@ -149,13 +150,13 @@ def _add_parts(st: Stress, dv: dict, values: dict, fs: bool) -> None:
             st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
 
 
-def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool) -> None:
+def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, crest: float = 1.0) -> None:
     for j, parts in enumerate(seg_parts):
         # voltage across the whole segment: sum of the series units' voltages
         seen_units = {}
         for name, val, a, b in parts:
             seen_units.setdefault((a, b), dv.get(name, 0.0))
-        sv = abs(sum(seen_units.values()))
+        sv = abs(sum(seen_units.values())) * crest
         sp = sum(dv.get(name, 0.0) ** 2 / val for name, val, _, _ in parts)
         if sp > st.seg_p[j]:
             st.seg_p[j] = sp
@@ -173,7 +174,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     -----
     P = V^2 / R per resistor; a segment's voltage is the sum over its series units,
     its power the sum over its parts. The nominal error of a position is
-    I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m.
+    I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m. On an AC position the value is
+    the rms of a sine: the power is the rms one, the voltage its peak
+    (:math:`\\sqrt 2 V_{rms}`), as :func:`planner.findings.design_findings` judges it.
     """
     lin = LinearNetwork(spec, net)
     st = Stress()
@@ -192,8 +195,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         elif fs:
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
-        _add_parts(st, dv, values, fs)
-        _add_segments(st, dv, seg_parts, label, fs)
+        crest = math.sqrt(2.0) if fs and pos.kind.waveform == "sine" else 1.0
+        _add_parts(st, dv, values, fs, crest)
+        _add_segments(st, dv, seg_parts, label, fs, crest)
     return st
 
 

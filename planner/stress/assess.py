@@ -17,7 +17,7 @@ from ..design import Design
 from ..engine import Engine
 from .judge import Judgement, judge
 from .text import fuse_detail
-from .verdict import verdict_of
+from .verdict import decided_by, hazards_of, verdict_of
 from .waveforms import solve_waveforms
 
 #: Resistance [ohm] that stands in for a fuse once it has opened: the insulation
@@ -141,7 +141,8 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
 
 def _case(st, s, j: Judgement, phases: dict) -> dict:
     """The case record of the design contract (see :func:`assess`)."""
-    verdict, deciding = verdict_of(phases["stresses"], phases["hazardous"])
+    opens = any(f["opens"] for f in phases["fuses"])
+    verdict, deciding = verdict_of(phases["stresses"], phases["hazardous"], opens=opens)
     mv = j.movement
     after = phases["after"]
     first = [f for f in j.fuses if f["opens"]]
@@ -153,6 +154,9 @@ def _case(st, s, j: Judgement, phases: dict) -> dict:
         "stimulus_detail": s.as_dict(),
         "verdict": verdict,
         "deciding": deciding,
+        "decided_by": decided_by(deciding),
+        "hazards": hazards_of(phases["stresses"]),
+        "asks": asks_of(verdict, deciding),
         "movement_current_a": mv["current_a"],
         "movement_peak_current_a": mv["peak_current_a"],
         "movement_rms_current_a": mv["rms_current_a"],
@@ -168,7 +172,24 @@ def _case(st, s, j: Judgement, phases: dict) -> dict:
         "fuse_opens": bool(first),
         "fuse": ev.fuse if ev else (first[0]["name"] if first else None),
         "pre_arcing_time_s": ev.pre_arcing_time_s if ev else None,
+        "pre_arcing_onset": ev.onset if ev else None,
         "let_through_i2t_a2s": ev.let_through_i2t_a2s if ev else None,
         "event_time_s": ev.event_time_s if ev else None,
         "detail": fuse_detail(first, ev, verdict),
     }
+
+
+def asks_of(verdict: str, deciding: dict | None) -> list[dict]:
+    """What the planner asks for where a missing figure decides a case (``asks[]``).
+
+    A resistor's pulse energy judged by the conservative rule (no maker's
+    ``pulse_energy``) that decides an ``overstress`` case: give the figure.
+    """
+    if verdict != "overstress" or not deciding or deciding.get("limit_name") != "resistor pulse energy":
+        return []
+    if deciding.get("pulse_energy_given"):
+        return []
+    return [{"part": deciding["part"], "key": "pulse_energy",
+             "message": f"{deciding['part']}: its pulse energy decides this case and is judged by the conservative "
+                        "rule (no maker's figure); give its single-pulse energy as `pulse_energy` on the element or "
+                        "its rating in parts.resistors"}]

@@ -48,6 +48,13 @@ class FuseEvent:
         (:func:`planner.parts.fuse.fuse_let_through`).
     words : str
         Phase words for the quantities judged over it (``'while F1 opens'``).
+    onset : str or None
+        Where in the cycle the fault starts for the deciding fuse (``'crest'`` or
+        ``'zero crossing'``: the slower), None for DC.
+    onset_rad : float
+        That onset's phase on the stimulus's cycle [rad].
+    period_s : float or None
+        Period of the cycle [s] (None for DC).
     """
 
     fuses: tuple
@@ -56,6 +63,9 @@ class FuseEvent:
     let_through_i2t_a2s: float
     event_time_s: float
     words: str
+    onset: str | None = None
+    onset_rad: float = 0.0
+    period_s: float | None = None
 
 
 def trip_parts(elements, contexts: dict, opened, original) -> tuple[list, list, list, list]:
@@ -126,12 +136,12 @@ def exposure(fuses: list, short_exposure: bool | None, overload) -> tuple[bool, 
     notes = []
     if short_exposure and (fast or unknown):
         names = ", ".join(f["name"] for f in fast + unknown)
-        notes.append(f"the movement is judged on its short-time overload ({overload.short_time:g} x) because "
-                     f"{names} opens within {SHORT_TIME_S:g} s (or an unknown time); what follows is judged "
-                     "after it opens")
+        notes.append(f"the movement is judged on its thermal limit over the pulse (up to its short-time peak "
+                     f"limit of {overload.short_time:g} x) because {names} opens within {SHORT_TIME_S:g} s (or an "
+                     "unknown time); what follows is judged after it opens")
     elif any(f["opens"] for f in fuses):
         notes.append(f"a fuse opens only after more than {SHORT_TIME_S:g} s, so the movement is judged "
-                     "on its continuous overload")
+                     "on its continuous (thermal and mechanical) limits")
     return bool(short_exposure), notes
 
 
@@ -161,7 +171,8 @@ def fuse_event(fuses: list, short_exposure: bool) -> tuple[FuseEvent | None, lis
         names = " and ".join(f["name"] for f in opening)
         event = FuseEvent(tuple(f["name"] for f in opening), lead["name"], lead["pre_arcing_time_s"],
                           lead["let_through_i2t_a2s"], lead["event_time_s"],
-                          f"while {names} open{'s' if len(opening) == 1 else ''}")
+                          f"while {names} open{'s' if len(opening) == 1 else ''}",
+                          lead.get("onset"), lead.get("onset_rad") or 0.0, lead.get("period_s"))
     elif opening and short_exposure:
         notes.append("a fuse opens in an unknown or long time, so resistors and diodes are judged on their "
                      "continuous ratings")
