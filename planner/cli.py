@@ -87,11 +87,12 @@ def _load(args):
     return spec
 
 
-def _design(spec):
+def _design(spec, position=None):
     """The command's one Design (sized where the file asks, its graph checked)."""
     from .design import build
+    from .ohms import zeroed_design
 
-    return build(spec)
+    return zeroed_design(build(spec), position)  # zero adjusters set at the nominal battery (docs/ohms.md)
 
 
 def _quantity(text: str, dimension: str, option: str, check: str | None = None) -> float:
@@ -130,7 +131,8 @@ def _options(args) -> None:
             if text is not None:
                 setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
         if getattr(args, "ohms", None) is not None:
-            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "pos")
+            # 0 ohm is a short across an ohms range (apply: the zero check); netlist asks for more itself
+            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "nonneg")
         if getattr(args, "source_impedance", None) is not None:
             args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
         if getattr(args, "date", None) is not None:
@@ -249,11 +251,37 @@ def cmd_apply(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .stress import apply_stimulus, format_apply
 
+    volts, amps = args.volts, args.amps
     r_src = 0.0 if args.source_impedance is None else args.source_impedance
-    result = apply_stimulus(_design(spec), args.position, volts=args.volts, amps=args.amps, r_source_ohm=r_src,
+    ohms = args.ohms  # converted with every command's options [ohm]
+    if ohms is not None:  # a resistor across the input: 0 V behind R_x, the battery inside drives it
+        from .errors import UsageError
+
+        if args.source_impedance is not None:
+            raise UsageError("--ohms takes no --source-impedance: the resistor is the whole external circuit")
+        volts, r_src = 0.0, ohms
+    design = _design(spec, args.position)
+    result = apply_stimulus(design, args.position, volts=volts, amps=amps, r_source_ohm=r_src,
                             temperature_k=args.temperature, waveform=args.waveform)
-    _emit(args, result, format_apply(result))
+    if ohms is not None:
+        from .engine import Engine
+        from .ohms import apply_reading
+
+        result["ohms"] = apply_reading(Engine(design), args.position, ohms, temperature_k=args.temperature)
+    text = format_apply(result)
+    if "ohms" in result:
+        o = result["ohms"]
+        text += "" if text.endswith("\n") else "\n"
+        text += (f"reads {_ohm_text(o['reading_ohm'])} for {_ohm_text(o['applied_ohm'])} (deflection "
+                 f"{o['deflection']:.4f}, centre {_ohm_text(o['center_ohm'])}, battery {o['battery_v']:g} V, zeroed)\n")
+    _emit(args, result, text)
     return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
+
+
+def _ohm_text(x: float) -> str:
+    from .units import format_si
+
+    return "infinity" if x == float("inf") else format_si(x, "ohm", 4)
 
 
 def cmd_dossier(args) -> int:
@@ -347,7 +375,12 @@ def cmd_scale(args) -> int:
     from .fsio import write_all
     from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
 
-    result = scale_project(_design(spec))
+    from .engine import Engine
+    from .ohms import scale_definitions
+
+    design = _design(spec)
+    engine = Engine(design)
+    result = scale_project(design, engine=engine, defs=scale_definitions(engine))
     title = f"{spec.title} \u2013 scale plate"
     items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
     if args.svg:
@@ -414,6 +447,7 @@ def build_parser() -> argparse.ArgumentParser:
     g = sp.add_mutually_exclusive_group(required=True)
     g.add_argument("--volts", metavar="V", help="applied voltage (dc value or sine rms), e.g. 230 or '230 V'")
     g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="a resistor across the input of a resistance position, e.g. '4.7 kohm'")
     sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
     sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
     sp.add_argument("--waveform", choices=["dc", "sine", "square", "triangle"], default="dc",
@@ -596,7 +630,7 @@ def cmd_netlist(args) -> int:
     from .export import spice_deck, stimulus_for
     from .fsio import emit
 
-    design = _design(spec)
+    design = _design(spec, args.position)
     st = design.state(args.position)  # an unknown name: exit 2 with the nearest one
     stim = stimulus_for(st.position, volts=volts, amps=amps, ohms=ohms)
     expected = None

@@ -20,6 +20,7 @@ from typing import Mapping
 from . import ranges
 from .parts import (  # noqa: F401  (the element kinds, re-exported for callers of planner.model)
     KINDS,
+    Battery,
     Contact,
     Diode,
     DiodeModel,
@@ -29,6 +30,7 @@ from .parts import (  # noqa: F401  (the element kinds, re-exported for callers 
     Part,
     Resistor,
     ResistorParts,
+    Rheostat,
 )
 
 #: Any network element (see :mod:`planner.parts`).
@@ -214,6 +216,9 @@ class Position:
     scale : {'shared', 'own'}
         AC (rectifier) positions: read on the shared linear DC scale or on an
         AC scale of their own (design contract); ``shared`` for every other kind.
+    center : float or None
+        Centre-scale value of a resistance position [ohm] (its ``full_scale``
+        holds the same number); None for other kinds.
     """
 
     name: str
@@ -222,6 +227,7 @@ class Position:
     input: tuple[str, str]
     line: int | None = None
     scale: str = "shared"
+    center: float | None = None
 
     @property
     def kind(self) -> "ranges.RangeKind":
@@ -307,6 +313,33 @@ class ACRanges:
 
 
 @dataclass(frozen=True)
+class BatteryRequest:
+    """A battery the sizer places for ohms ranges [V], [ohm]."""
+
+    voltage_v: float
+    v_min_v: float
+    v_max_v: float
+    r_int_ohm: float
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class ResistanceRanges:
+    """Wanted ohms ranges: centre-scale values, the battery (and a higher one), the zero adjuster.
+
+    ``high_battery`` (None for none) serves the ranges whose centre the first
+    battery cannot reach; ``zero_adjust`` is ``shunt`` (a rheostat across the
+    meter) or ``series`` (a rheostat in series with it).
+    """
+
+    centers: tuple[float, ...]
+    battery: BatteryRequest
+    high_battery: BatteryRequest | None = None
+    zero_adjust: str = "shunt"
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class ClampRequest:
     """A diode clamp the sizer must place.
 
@@ -387,6 +420,7 @@ class Spec:
     ambient: Ambient = field(default_factory=Ambient)
     voltage: VoltageRanges | None = None
     current: CurrentRanges | None = None
+    resistance: ResistanceRanges | None = None
     clamps: tuple[ClampRequest, ...] = ()
     ac_voltage: ACRanges | None = None
     ac_current: ACRanges | None = None

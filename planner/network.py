@@ -260,6 +260,31 @@ def _current_carrying(g: nx.MultiGraph, plus: str, minus: str):
     return main, alias
 
 
+def _with_sources(net, g, st, plus, minus, live, alias):
+    """The live nodes grown to every node joined to the input when a battery lies outside them.
+
+    A block with an EMF in it (a battery the switch leaves in a loop) carries current
+    although it hangs on the rest by one node (a battery that is a bridge of the
+    graph closes no loop and carries none), so the dangling-block shortcut of
+    :func:`_current_carrying` does not hold for it: the whole part of the state
+    joined to the input terminals is then solved, each node at its own potential.
+    """
+    outside = [e for e in net.elements if e.emf() != 0.0 and e.present(st.closed)
+               and not (e.nodes[0] in live and e.nodes[1] in live)]
+    if not outside:
+        return live, alias
+    simple = nx.Graph((a, b) for a, b in g.edges() if a != b)
+    bridges = {frozenset(x) for x in nx.bridges(simple)}
+    # a battery that is a bridge (its only path back is through itself) closes no loop: no current
+    outside = [e for e in outside if g.number_of_edges(*e.nodes) > 1 or frozenset(e.nodes) not in bridges]
+    if not outside:
+        return live, alias
+    joined = nx.node_connected_component(g, plus) | nx.node_connected_component(g, minus)
+    if not any(e.nodes[0] in joined for e in outside):
+        return live, alias
+    return set(joined), {}
+
+
 def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
                   source_resistance: bool = False, net: NetworkSpec | None = None):
     """Compile a switch state into a :class:`planner.solve.Circuit`.
@@ -287,6 +312,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     g = active_graph(net, st)
     plus, minus = st.position.input
     live, alias = _current_carrying(g, plus, minus)
+    live, alias = _with_sources(net, g, st, plus, minus, live, alias)
     uf = UnionFind()
     for n in live:
         uf.find(n)

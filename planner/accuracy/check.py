@@ -19,6 +19,7 @@ from ..errors import SolveError, UsageError
 from ..findings import design_findings
 from ..model import Spec
 from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, TEMPERATURE_SOURCE
+from .ohms import check_ohms_position
 from .position import check_position
 from .result import CheckResult
 from .tolerances import CountingEngine, draw_factors, parameters
@@ -126,8 +127,8 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     positions, oks, arrays = [], [], {}
     for i, pos in enumerate(engine.positions):
         rng_corners = np.random.default_rng([int(seed), i])
-        res, ok, arr = check_position(run, spec, pos, params, mc_factors, int(samples), rng_corners,
-                                      source_impedance_ohm, say)
+        checker = POSITION_CHECKS.get(pos.measures, check_position)
+        res, ok, arr = checker(run, spec, pos, params, mc_factors, int(samples), rng_corners, source_impedance_ohm, say)
         positions.append(res)
         oks.append(ok)
         arrays[pos.name] = arr
@@ -157,6 +158,10 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     result["findings"] = design_findings(design, engine)  # ratings at full scale (planner.findings)
     _assert_finite(result)
     return CheckResult(json=result, positions=arrays, parameters=params, factors=mc_factors)
+
+
+#: Checks of the range kinds that are not read on a linear scale, by ``measures``.
+POSITION_CHECKS = {"resistance": check_ohms_position}
 
 
 def check_project(design: Design | Spec, **kwargs) -> dict:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ..ohms_check import ohms_lines
 from ..model import ZERO_CELSIUS_K
 from ..ranges.ac_report import format_ac_figures
 from ..units import format_si
@@ -49,6 +50,9 @@ def format_check(result: dict) -> str:
         if "ohms_per_volt" in p:
             inp = (f"{format_si(p['input_resistance_ohm'], 'ohm')} "
                    f"({format_si(p['ohms_per_volt'], 'ohm/V')})")
+        elif p["measures"] == "resistance":
+            inp = (f"centre {format_si(p['center_ohm'], 'ohm')}, open {format_si(p['open_circuit_voltage_v'], 'V')}, "
+                   f"short {format_si(p['short_circuit_current_a'], 'A')}")
         else:
             inp = (f"burden {format_si(p['burden_voltage_v'], 'V')} "
                    f"({format_si(p['input_resistance_ohm'], 'ohm')})")
@@ -79,6 +83,8 @@ def format_check(result: dict) -> str:
         lines += ["", f"linearity error, % of full scale, {title} (columns: % of full scale)",
                   f"{'position':<12}{cols}"]
         for p in result["positions"]:
+            if p["measures"] == "resistance":  # marks of an ohms scale: in the ohms lines below
+                continue
             row = "".join(f"{r['error_pct']:>+8.3f}" for r in p[key])
             extra = f"  ({p['hot_temperature_k'] - ZERO_CELSIUS_K:.1f} degC)" if key == "linearity_hot" else ""
             lines.append(f"{p['name']:<12}{row}{extra}")
@@ -89,6 +95,7 @@ def format_check(result: dict) -> str:
         w = p["monte_carlo"]["worst_linearity_error_pct"]
         lines.append(f"{p['name']:<12}{s['mean']:+.3f} +/- {s['std']:.3f}  [{s['p1']:+.3f}, {s['p99']:+.3f}]   "
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
+    lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
     lines += format_ac_figures(result["positions"])
     lines += ["", f"budget rule: {result['budget_rule']}"]

@@ -40,7 +40,7 @@ ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
 THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
-_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
+_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4, "battery": 1, "rheostat": 1}
 WHITE = colors.white
 #: Smallest text size on paper [pt] (6 pt is the least a print reader is asked to read).
 MIN_TEXT_PT = 6.3
@@ -225,6 +225,10 @@ def _label_lines(spec, e) -> list[str]:
         return [e.name, value_text(f.rated_current_a, "A") if f else e.model]
     if e.symbol == "contact":
         return [e.name] + (_wrap_list(e.closed_in) or ["never closed"])
+    if e.symbol == "battery":
+        return [e.name, value_text(e.voltage_v, "V")]
+    if e.symbol == "rheostat":
+        return [e.name, value_text(e.max_ohm, "ohm") + " adj"]
     return [e.name]
 
 
@@ -258,6 +262,15 @@ def _movement(g, x, y, plus_up: bool, tf: float = 1.0):
     g.add(Polygon([x + 6.5, y + 6.5, x + 1.8, y + 5.0, x + 5.0, y + 1.8], fillColor=ACCENT, strokeColor=None))
     sy = y + 13 if plus_up else y - 11 - 7 * tf
     g.add(String(x - 7.5 - 2 * (tf - 1), sy, "+", fontName="Helvetica-Bold", fontSize=7 * tf, fillColor=INK))
+
+
+def _battery(g, x, y, plus_up: bool, tf: float = 1.0):
+    """A cell: the long plate is plus."""
+    s = 1 if plus_up else -1
+    g.add(Rect(x - 9, y - 4, 18, 8, fillColor=WHITE, strokeColor=None))
+    g.add(Line(x - 9, y + 2.5 * s, x + 9, y + 2.5 * s, strokeColor=INK, strokeWidth=1.1))
+    g.add(Line(x - 5, y - 2.5 * s, x + 5, y - 2.5 * s, strokeColor=INK, strokeWidth=2.0))
+    g.add(String(x + 11, y + 2 * s - 2, "+", fontName="Helvetica-Bold", fontSize=7 * tf, fillColor=INK))
 
 
 def _diode(g, x, y, up: bool):
@@ -309,6 +322,8 @@ SYMBOLS = {
     "movement": lambda g, e, x, y, lo, hi, tf: _movement(g, x, y, plus_up=(e.a == hi), tf=tf),
     "diode": lambda g, e, x, y, lo, hi, tf: _diode(g, x, y, up=(e.cathode == hi)),
     "contact": lambda g, e, x, y, lo, hi, tf: _contact(g, x, y, True),
+    "rheostat": lambda g, e, x, y, lo, hi, tf: _resistor(g, x, y, True, True),
+    "battery": lambda g, e, x, y, lo, hi, tf: _battery(g, x, y, plus_up=(e.a == hi), tf=tf),
 }
 
 
@@ -450,7 +465,7 @@ def _plan(spec, net):
         ra, rb = row[e.nodes[0]], row[e.nodes[1]]
         if ra == rb:
             raise Unsuitable(f"{e.name} joins a node to itself")
-        spans.append((min(ra, rb), max(ra, rb), _KIND_RANK[e.kind], e.name, e))
+        spans.append((min(ra, rb), max(ra, rb), _KIND_RANK.get(e.kind, 5), e.name, e))
     spans.sort(key=lambda s: (s[0], s[1] - s[0], s[2], s[3]))
     columns: list[list] = []
     for lo, hi, _, _, e in spans:

@@ -43,7 +43,8 @@ _CATS = ("II", "III", "IV")
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
 BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "max input sine", "mains on A range",
-                  "mains on AC range", "DC on AC range", "DC on AC range reversed", "AC on DC range")
+                  "mains on AC range", "mains on ohms range", "battery reversed", "DC on AC range",
+                  "DC on AC range reversed", "AC on DC range")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
@@ -166,7 +167,7 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     """
     f = spec.faults
     out = project_sources(spec)
-    lower, higher = same_kind_neighbours(net, position)
+    lower, higher = same_kind_neighbours(net, position) if position.kind.range_steps else (None, None)
     unit = position.unit
     wave = position.kind.waveform  # an AC range's neighbour is a sine of its rms
     if higher:
@@ -200,7 +201,7 @@ def column_of(s: Stimulus) -> dict:
 
 def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
     """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
-    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left",
+    out = [Stimulus("full scale", p.kind.source, p.kind.full_scale_drive(p), detail="full scale of the position being left",
                     compliance_v=_compliance(spec, p.kind.source))]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))

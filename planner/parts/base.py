@@ -212,6 +212,10 @@ class Part:
         """
         raise NotImplementedError(f"{self.kind} has no linear resistance")
 
+    def emf(self, level: str = "nominal") -> float:
+        """EMF in series with a ``branch`` element [V], plus side facing its first node (0: none)."""
+        return 0.0
+
     def junction(self, spec, t_k):
         """Junction parameters of a ``junction`` element at ``t_k`` (see :mod:`planner.parts.diode`)."""
         raise NotImplementedError(f"{self.kind} is no junction")

@@ -19,7 +19,7 @@ from ..units import format_si
 
 __all__ = ["same_meter"]
 
-_UNITS = {"voltage": "V", "current": "A", "ac_voltage": "V~", "ac_current": "A~"}
+_UNITS = {"voltage": "V", "current": "A", "resistance": "ohm", "ac_voltage": "V~", "ac_current": "A~"}
 
 
 def same_meter(spec: Spec) -> None:
@@ -31,11 +31,12 @@ def same_meter(spec: Spec) -> None:
         At the line of the first range section, naming what differs and what to remove.
     """
     net = spec.network
-    sections = [(k, getattr(spec, k)) for k in ("voltage", "current", "ac_voltage", "ac_current")]
+    sections = [(k, getattr(spec, k)) for k in ("voltage", "current", "resistance", "ac_voltage", "ac_current")]
     sections = [(k, s) for k, s in sections if s is not None]
     if net is None or not sections:
         return
-    asked = [(k, x) for k, s in sections for x in s.full_scales]
+    # a resistance position's full_scale: its centre
+    asked = [(k, x) for k, s in sections for x in (s.centers if k == "resistance" else s.full_scales)]
     given = [(p.measures, p.full_scale) for p in net.positions]
 
     def missing(a, b):

@@ -15,6 +15,7 @@ from .catalogue import read_parts
 from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
 from .network import read_network
+from .ohms import read_resistance
 from .ranges import read_ac_ranges, read_clamps, read_current, read_voltage
 from .reader import Reader
 from .tree import Node
@@ -30,6 +31,7 @@ TOP_KEYS = (
     "parts",
     "voltage",
     "current",
+    "resistance",
     "clamps",
     "faults",
     "network",
@@ -54,16 +56,18 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
     parts = read_parts(ctx, top.get("parts"))
     voltage = read_voltage(ctx, top.get("voltage"), top.node.key_lines.get("voltage"))
     current = read_current(ctx, top.get("current"), movement, top.node.key_lines.get("current"), parts)
+    resistance = read_resistance(ctx, top.get("resistance"), top.node.key_lines.get("resistance"))
     clamps = read_clamps(ctx, top.get("clamps"), parts)
     ac_voltage = read_ac_ranges(ctx, top.get("ac_voltage"), "ac_voltage", parts, top.node.key_lines.get("ac_voltage"))
     ac_current = read_ac_ranges(ctx, top.get("ac_current"), "ac_current", parts, top.node.key_lines.get("ac_current"))
     network = read_network(ctx, top.get("network"), parts)
     faults = read_faults(ctx, top.get("faults"))
     analysis = read_analysis(ctx, top.get("analysis"))
-    if voltage is None and current is None and network is None and ac_voltage is None and ac_current is None:
+    if (voltage is None and current is None and resistance is None and network is None and ac_voltage is None
+            and ac_current is None):
         ctx.fail(
-            "nothing to plan: give 'voltage:' or 'current:' ranges for the planner to size, or an explicit "
-            "'network:' (or both)",
+            "nothing to plan: give 'voltage:', 'current:', 'resistance:', 'ac_voltage:' or 'ac_current:' ranges for "
+            "the planner to size, or an explicit 'network:' (or both)",
             root.line,
         )
     return model.Spec(
@@ -73,6 +77,7 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
         ambient=ambient,
         voltage=voltage,
         current=current,
+        resistance=resistance,
         clamps=clamps,
         ac_voltage=ac_voltage,
         ac_current=ac_current,

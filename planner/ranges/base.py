@@ -39,6 +39,8 @@ class RangeKind:
     source: ClassVar[str] = ""
     label: ClassVar[str] = ""
     waveform: ClassVar[str] = "dc"
+    #: Whether the neighbouring ranges' full scales are misrange stimuli (``range up``/``down``).
+    range_steps: ClassVar[bool] = True
 
     def reading(self, movement_multiple: np.ndarray, full_scale: float) -> np.ndarray:
         """The reading from the movement current as a multiple of full scale [unit].
@@ -47,6 +49,10 @@ class RangeKind:
         scale the reading is :math:`I_m / I_{fs} \\times FS` (design contract).
         """
         return movement_multiple * full_scale
+
+    def full_scale_drive(self, position) -> float:
+        """The source value [V] or [A] that drives the position to full deflection."""
+        return position.full_scale
 
     def input_figures(self, full_scale: float, source_current_a: float, terminal_v: float) -> dict:
         """What the instrument presents to the measured circuit at full scale (JSON fields)."""

@@ -89,7 +89,10 @@ class LinearNetwork:
             r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
                                 for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
             z = np.zeros((1, 0))
-            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]))
+            e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
+                           for br in c.branches]])
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]),
+                        emf=e if np.any(e != 0.0) else None)
         except SolveError:
             return None
 
@@ -114,11 +117,12 @@ def rating_cases(spec: Spec, layout: Layout):
     ]
     for p in layout.positions:
         unit = p.unit
-        out.append((f"full scale on {p.name}", p, p.full_scale, (), True))
-        if p.kind.source == "voltage" and vmax is not None and vmax > p.full_scale:
+        drive = p.kind.full_scale_drive(p)
+        out.append((f"full scale on {p.name}", p, drive, (), True))
+        if p.kind.source == "voltage" and vmax is not None and vmax > drive:
             for sh in corners:
                 how = "" if not sh else f", clamp at {'+'.join(sh)} shorted"
-                out.append((f"{fmt(vmax, unit)} max input on {p.name}{how}", p, vmax, sh, False))
+                out.append((f"{fmt(vmax, 'V')} max input on {p.name}{how}", p, vmax, sh, False))
     return out
 
 
@@ -192,7 +196,7 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
             continue
         if fs and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
             st.errors[pos.name] = nominal_error(spec, net, pos)
-        elif fs:
+        elif fs and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         crest = math.sqrt(2.0) if fs and pos.kind.waveform == "sine" else 1.0

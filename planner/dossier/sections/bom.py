@@ -58,8 +58,8 @@ def bom_rows(ctx: Context) -> list[dict]:
     fs = _fullscale_stress(ctx)
     mis = _misrange_worst(ctx)
     rows = []
-    order = {"resistor": 0, "movement": 1, "diode": 2, "fuse": 3, "contact": 4}
-    for e in sorted(net.elements, key=lambda e: (order[e.kind], natural(e.name))):
+    order = {"resistor": 0, "movement": 1, "diode": 2, "fuse": 3, "contact": 4, "rheostat": 5, "battery": 6}
+    for e in sorted(net.elements, key=lambda e: (order.get(e.kind, 7), natural(e.name))):
         i_fs, v_fs, p_fs = fs.get(e.name, (None, None, None))
         row = {"designator": e.name, "kind": e.kind, "value": "", "value_si": None, "series": "", "tolerance_pct": None,
                "tempco_ppm_per_k": None, "power_rated_w": None, "power_required_w": p_fs, "voltage_rated_v": None,
@@ -109,6 +109,16 @@ def bom_rows(ctx: Context) -> list[dict]:
                                     + (f", I2t {f.i2t_a2s:g} A2s" if f.i2t_a2s else ""))
                 if i_fs is not None:
                     row["notes"].append(f"full-scale current {value_text(i_fs, 'A', 3)}")
+        elif e.kind == "battery":
+            row.update(value=f"{value_text(e.voltage_v, 'V')} ({value_text(e.v_min_v, 'V')} to "
+                             f"{value_text(e.v_max_v, 'V')})", value_si=e.voltage_v, series="battery")
+            row["notes"].append(f"internal {value_text(e.r_int_ohm, 'ohm')}; at most {value_text(e.max_current_a, 'A')} "
+                                f"either way; plus on {e.a}")
+        elif e.kind == "rheostat":
+            row.update(value=value_text(e.max_ohm, "ohm"), value_si=e.max_ohm, series=e.series or "",
+                       power_rated_w=e.power_w, tempco_ppm_per_k=1e6 * e.tempco_per_k)
+            row["notes"].append(f"zero-ohms adjuster (set at {value_text(e.default_setting, 'ohm', 4)} for the nominal "
+                                "battery)")
         elif isinstance(e, Contact):
             row.update(value=value_text(e.r_ohm, "ohm") if e.r_ohm else "ideal", value_si=e.r_ohm, series="switch")
             row["notes"].append("closed in " + (", ".join(e.closed_in) or "no position"))

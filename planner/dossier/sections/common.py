@@ -35,7 +35,13 @@ def verdict_fill(cells: list[tuple[int, int, str]]):
 
 
 def unit_of(measures: str) -> str:
-    return "V" if measures in ("voltage", "ac_voltage") else "A"
+    """The unit of a position's full scale, from the range kind (``V``, ``A``, ``ohm`` ...)."""
+    from ... import ranges
+
+    try:
+        return ranges.of(measures).unit
+    except ValueError:
+        return "V" if measures == "voltage" else "A"
 
 
 def hazardous_position(pos) -> bool:

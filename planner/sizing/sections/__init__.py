@@ -10,7 +10,9 @@ positions, contacts and devices to the :class:`planner.sizing.layout.Layout`.
 - ``ac_voltage.py``, ``ac_current.py``: ``ac_voltage`` and ``ac_current`` ranges (multipliers
   or shunts solved through the nonlinear solver, each section's rectifier: ``rectifier.py``);
 - ``clamp_diodes.py``: ``clamps`` (taps, diode stacks);
-- ``input_fuse.py``: ``current.fuse`` (the fuse ahead of the current positions).
+- ``input_fuse.py``: ``current.fuse`` (the fuse ahead of the current positions);
+- ``resistance.py``: ``resistance`` ohms ranges (battery, series resistors, range
+  shunts, zero adjuster).
 
 To size a new kind of range or a new protection part, add a file here with a
 ``SizingSection`` subclass and put an instance in :data:`SECTIONS`: its place in the
@@ -23,11 +25,12 @@ from .clamp_diodes import ClampDiodesSizing
 from .dc_current import DCCurrentSizing
 from .dc_voltage import DCVoltageSizing
 from .input_fuse import InputFuseSizing
+from .resistance import ResistanceSizing
 
 #: The registered sections, in designator order: resistors (R), diodes (D), fuses (F),
 #: positions and contacts (S) follow this order within their kind.
 SECTIONS = (DCVoltageSizing(), DCCurrentSizing(), ACVoltageSizing(), ACCurrentSizing(), ClampDiodesSizing(),
-            InputFuseSizing())
+            InputFuseSizing(), ResistanceSizing())
 
 __all__ = ["SECTIONS", "DCVoltageSizing", "DCCurrentSizing", "ACVoltageSizing", "ACCurrentSizing", "ClampDiodesSizing",
-           "InputFuseSizing"]
+           "InputFuseSizing", "ResistanceSizing"]
