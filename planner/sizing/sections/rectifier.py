@@ -117,13 +117,20 @@ def _compiled(spec: Spec, net: NetworkSpec, pos_name: str, kind: str):
     return c, r, jn
 
 
-def _mean_of(c, r, jn, fs: float, movement: str) -> float:
-    """Cycle mean of the movement current [A] at full-scale rms of a sine (SIZING_NODES-node rule)."""
+def _mean_of(c, r, jn, fs: float, movement: str):
+    """Cycle mean of the movement current [A] at full-scale rms of a sine (SIZING_NODES-node rule).
+
+    One value for one row of branch resistances ``r`` (1, L); an array (P,) for P rows.
+    """
     from ...cycle import SHAPES, fixed_rule  # on first use: it brings scipy's interpolation
 
     rule = fixed_rule(SHAPES["sine"], SIZING_NODES, crests=False)
     m_j = next(j for j, br in enumerate(c.branches) if br.element == movement)
-    return float(rule.mean(solve(c, r, jn, rule.points(SHAPES["sine"].peak_of(fs))).branch_current(m_j))[0])
+    rows = r.shape[0]
+    if rows > 1:
+        jn = jn.map(lambda a: np.repeat(a, rows, axis=0))
+    means = rule.mean(solve(c, r, jn, rule.points(SHAPES["sine"].peak_of(fs))).branch_current(m_j))
+    return float(means[0]) if rows == 1 else np.asarray(means, dtype=float)
 
 
 def nominal_error(spec: Spec, net: NetworkSpec, pos: Position) -> float:
@@ -174,40 +181,83 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
     -----
     Solve :math:`\\bar I_m(R) = I_{fs}` with :math:`\\bar I_m` the cycle mean over
     the instantaneous DC states of the position's network (nominal parts,
-    reference temperature), by Brent's method on :math:`\\ln R`. The mean
-    rises monotonically as a multiplier falls and as a shunt rises.
+    reference temperature). The mean
+    rises monotonically as a multiplier falls and as a shunt rises. The root is
+    found by Newton's method on :math:`\\ln R` from the ideal rectifier's value,
+    safeguarded by bisection (:func:`_root`): three to five solver calls, each a
+    batch of two rows, where a bracketing method takes a dozen.
 
     References
     ----------
-    R. P. Brent, *Algorithms for Minimization without Derivatives*,
-    Prentice-Hall, 1973 (``scipy.optimize.brentq``).
+    W. H. Press et al., *Numerical Recipes*, 3rd ed., Cambridge University Press, 2007,
+    section 9.4 (safeguarded Newton-Raphson).
     """
     net = _network(spec, prefix, rectifier, model, measures, fs, swamp_ohm)
     c, r, jn = _compiled(spec, net, "x", "voltage" if measures == "ac_voltage" else "current")
     jx = next(j for j, br in enumerate(c.branches) if br.element == "RX")
     i_fs = spec.movement.i_fs_a
 
-    def excess(log_r):
-        rr = r.copy()
-        rr[0, jx] = math.exp(log_r)
+    def excess(log_rs):
+        rr = np.repeat(r, len(log_rs), axis=0)
+        rr[:, jx] = np.exp(log_rs)
         return _mean_of(c, rr, jn, fs, "M1") / i_fs - 1.0
-
-    from scipy.optimize import brentq
 
     ideal = ideal_factor(rectifier)
     r_m = spec.movement.r_coil_ohm
     if measures == "ac_voltage":
         lo, hi = math.log(1e-3), math.log(max(ideal * fs / i_fs, 2.0) * 1.05)
-        if excess(lo) < 0:
-            raise request_error(
-                spec, f"AC voltage range {fmt(fs, 'V')} is too low for the {rectifier.replace('_', ' ')} rectifier: "
-                f"with no multiplier the mean movement current is below I_fs (the diodes' drops and the coil "
-                f"{fmt(r_m, 'ohm')} take it all); raise the lowest AC range or use a more sensitive movement", line)
+        start = math.log(max(ideal * fs / i_fs - r_m, 1.0))  # the ideal rectifier's multiplier
     else:
         lo, hi = math.log(1e-6), math.log(1e9)
-        if excess(hi) < 0:
-            raise request_error(
-                spec, f"AC current range {fmt(fs, 'A')} cannot reach full scale through the "
-                f"{rectifier.replace('_', ' ')} rectifier (the mean of its rectified sine is below I_fs even "
-                "unshunted); raise the range", line)
-    return math.exp(brentq(excess, lo, hi, xtol=1e-12, rtol=1e-12))
+        # a shunt that leaves the ideal rectifier's branch (coil and swamp) I_fs on average
+        start = math.log(max((r_m + swamp_ohm) * i_fs / (ideal * fs), 1e-6))
+    start = min(max(start, lo), hi)
+    f_lo, f_hi, f0, f1 = excess([lo, hi, start, start + NEWTON_STEP])
+    if measures == "ac_voltage" and f_lo < 0:
+        raise request_error(
+            spec, f"AC voltage range {fmt(fs, 'V')} is too low for the {rectifier.replace('_', ' ')} rectifier: "
+            f"with no multiplier the mean movement current is below I_fs (the diodes' drops and the coil "
+            f"{fmt(r_m, 'ohm')} take it all); raise the lowest AC range or use a more sensitive movement", line)
+    if measures != "ac_voltage" and f_hi < 0:
+        raise request_error(
+            spec, f"AC current range {fmt(fs, 'A')} cannot reach full scale through the "
+            f"{rectifier.replace('_', ' ')} rectifier (the mean of its rectified sine is below I_fs even "
+            "unshunted); raise the range", line)
+    return math.exp(_root(excess, lo, hi, f_lo, start, f0, f1))
+
+
+#: Step in ln R of the derivative's difference quotient.
+NEWTON_STEP = 1e-7
+#: Relative error of the mean at which the root is taken (round-off of the cycle mean is near 1e-15).
+RESIDUAL = 1e-13
+
+
+def _root(excess, lo: float, hi: float, f_lo: float, x: float, f: float, f_step: float) -> float:
+    """The root of ``excess`` in [lo, hi] (ln R): Newton's method safeguarded by bisection.
+
+    Each step solves the value and its neighbour ``x + NEWTON_STEP`` in one batch (two
+    parameter rows), so the derivative costs no extra solver call; a step that leaves
+    the bracket bisects it instead. Converged when the mean is within :data:`RESIDUAL` of I_fs
+    or a step is below 1e-12 (relative R).
+
+    References
+    ----------
+    W. H. Press et al., *Numerical Recipes*, 3rd ed., Cambridge University Press, 2007,
+    section 9.4 (Newton-Raphson with bracketing, ``rtsafe``).
+    """
+    for _ in range(60):
+        if abs(f) <= RESIDUAL:
+            return x
+        if (f < 0) == (f_lo < 0):
+            lo, f_lo = x, f
+        else:
+            hi = x
+        d = (f_step - f) / NEWTON_STEP
+        xn = x - f / d if d != 0.0 else math.nan
+        if not lo < xn < hi:
+            xn = 0.5 * (lo + hi)
+        if abs(xn - x) <= 1e-12 or hi - lo <= 1e-12:
+            return xn
+        x = xn
+        f, f_step = excess([x, x + NEWTON_STEP])
+    return x
