@@ -69,6 +69,9 @@ class ACRange(RangeKind):
     """
 
     waveform = "sine"
+    #: A corner of an AC range costs a whole cycle (40 to 70 phase nodes, not one point): above 6
+    #: parameters (64 corners) the sensitivity bound and its 256 verification corners cost less.
+    corner_parameters = 6
 
     def check_figures(self, engine, position) -> dict:
         """``waveform_errors[]`` and the readings of a DC level equal to the full scale, both polarities.

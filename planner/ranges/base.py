@@ -39,6 +39,9 @@ class RangeKind:
     source: ClassVar[str] = ""
     label: ClassVar[str] = ""
     waveform: ClassVar[str] = "dc"
+    #: Most toleranced parameters whose every corner ``planner check`` solves for the worst case
+    #: (above: the sensitivity bound with its verification corners); None: the check's own limit.
+    corner_parameters: ClassVar[int | None] = None
     #: Whether the neighbouring ranges' full scales are misrange stimuli (``range up``/``down``).
     range_steps: ClassVar[bool] = True
 
