@@ -342,10 +342,18 @@ def cmd_protect(args) -> int:
     finally:
         _end_progress(show)
     if args.write:
-        write_protected(design, result, args.write)
-        if args.write == "-":  # stdout carries the project alone
+        written = write_protected(design, result, args.write)
+        if written is None and args.write == "-":  # stdout carries a project: the one given, unchanged
+            sys.stdout.write("# planner protect: nothing protects better than this project as given; it is "
+                             "unchanged\n" + (spec.text or ""))
+            print("nothing protects better than the project as given: it is written unchanged", file=sys.stderr)
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
-        print(f"wrote {args.write}", file=sys.stderr)
+        if written is None:
+            print("nothing protects better than the project as given: nothing written", file=sys.stderr)
+        elif args.write == "-":  # stdout carries the project alone
+            return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+        else:
+            print(f"wrote {args.write}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 

@@ -25,7 +25,7 @@ from . import network as nw
 from .design import Design
 from .errors import UsageError
 from .ranges.ac import operate_cycle
-from .solve import Junctions, Solution, solve
+from .solve import Junctions, Solution, Varistors, solve
 
 
 @dataclass
@@ -107,6 +107,12 @@ class Operating:
                 out = out + sol.i_diode[:, :, j]
             elif c.node_index.get(e.cathode) == held:
                 out = out - sol.i_diode[:, :, j]
+        for j, name in enumerate(c.varistors):
+            a, b = self.engine.elements[name].nodes
+            if c.node_index.get(a) == held:
+                out = out + sol.i_varistor[:, :, j]
+            elif c.node_index.get(b) == held:
+                out = out - sol.i_varistor[:, :, j]
         return out
 
     def element(self, name: str) -> ElementStress:
@@ -117,6 +123,12 @@ class Operating:
         if e.stamp == "junction":
             if name in self.circuit.diodes:
                 i = self.solution.i_diode[:, :, self.circuit.diodes.index(name)]
+            else:
+                i = np.zeros(self.shape)
+        elif e.stamp == "varistor":
+            c = self.circuit
+            if name in c.varistors:
+                i = self.solution.i_varistor[:, :, c.varistors.index(name)]  # first terminal to second
             else:
                 i = np.zeros(self.shape)
         else:
@@ -193,7 +205,7 @@ class Engine:
                 val = self.elements[br.element].resistance(spec, dt, s)
             else:
                 val = self.elements[br.element].resistance(spec, dt)
-            if br.role in ("resistor", "movement") and br.element in factors:
+            if br.role != "source" and br.element in factors:
                 val = val * np.asarray(factors[br.element], dtype=float).reshape(-1, 1)
             cols.append(val)
         if not cols:
@@ -240,6 +252,13 @@ class Engine:
             z = np.zeros((t.shape[0], 0))
             return Junctions(z, z, z, z, z, z)
         return Junctions(*(np.concatenate(np.broadcast_arrays(*xs), axis=1) for xs in zip(*cols)))
+
+    def varistors(self, circuit) -> Varistors | None:
+        """Varistor parameters of a compiled state (None when it has none), shapes (M,)."""
+        if not circuit.varistors:
+            return None
+        law = np.array([self.elements[name].law(self.spec) for name in circuit.varistors], dtype=float)
+        return Varistors(law[:, 0], law[:, 1], law[:, 2])
 
     # --- solving ---------------------------------------------------------------------
     def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
@@ -296,7 +315,7 @@ class Engine:
         r = self.branch_resistances(circuit, t, factors, r_source_ohm, settings)
         jn = self.junctions(circuit, t, factors)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
-        sol = solve(circuit, r, jn, stim, emf=self.emfs(circuit, emf))
+        sol = solve(circuit, r, jn, stim, emf=self.emfs(circuit, emf), varistors=self.varistors(circuit))
         i_fs = self.spec.movement.i_fs_a * np.ones((sol.shape[0], 1))
         if factors and "i_fs" in factors:
             i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)

@@ -28,9 +28,13 @@ from .parts import (  # noqa: F401  (the element kinds, re-exported for callers 
     FuseModel,
     MovementElement,
     Part,
+    Ptc,
+    PtcModel,
     Resistor,
     ResistorParts,
     Rheostat,
+    Varistor,
+    VaristorModel,
 )
 
 #: Any network element (see :mod:`planner.parts`).
@@ -197,6 +201,8 @@ class Parts:
     resistors: ResistorParts = field(default_factory=ResistorParts)
     diodes: Mapping[str, DiodeModel] = field(default_factory=dict)
     fuses: Mapping[str, FuseModel] = field(default_factory=dict)
+    ptcs: Mapping[str, PtcModel] = field(default_factory=dict)
+    varistors: Mapping[str, VaristorModel] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -354,6 +360,28 @@ class ClampRequest:
     reverse: str | None
     count: int = 1
     line: int | None = None
+    #: A string of ``count`` back-to-back pairs (zener or TVS: the forward model's cathode toward
+    #: the tap, then the reverse model's): clamps both polarities at breakdown plus one junction.
+    bidirectional: bool = False
+
+
+@dataclass(frozen=True)
+class ProtectionRequest:
+    """What the ``protection`` section asks the sizer to place (:mod:`planner.sizing.sections.protection`).
+
+    An input PTC model, a fusible input resistor (its value, fusing points and breaking
+    voltage), a ring crowbar's diode model and count, a second fuse for the mA ranges.
+    """
+
+    input_ptc: str | None = None
+    fusible_input: bool = False
+    fusible_ohm: float | None = None
+    fusing: tuple = ()
+    breaking_voltage_v: float = math.inf
+    ring_crowbar: str | None = None
+    ring_crowbar_count: int = 2
+    ma_fuse: str | None = None
+    line: int | None = None
 
 
 @dataclass(frozen=True)
@@ -427,6 +455,7 @@ class Spec:
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)
+    protection: ProtectionRequest | None = None
     path: str | None = None
     revision: str | None = None
     date: str | None = None

@@ -322,6 +322,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
 
     branches: list[Branch] = []
     diodes: list[tuple[str, str, str]] = []  # (designator, anode, cathode)
+    varistors: list[tuple[str, str, str]] = []  # (designator, first node, second node)
     for e in net.elements:
         a, b = e.nodes
         if a not in live or b not in live:
@@ -330,6 +331,8 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
             continue
         if e.stamp == "junction":
             diodes.append((e.name, a, b))
+        elif e.stamp == "varistor":
+            varistors.append((e.name, a, b))
         else:
             branches.append(Branch(e.name, e.kind, a, b))
 
@@ -359,22 +362,23 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     lin_a = np.array([idx(br.a) for br in branches], dtype=np.intp)
     lin_b = np.array([idx(br.b) for br in branches], dtype=np.intp)
     # diodes on the same pair of nodes (an antiparallel clamp pair) share one port
+    # (and a varistor on the same pair of nodes joins that port)
     port_of: dict[tuple[int, int], int] = {}
-    port_a, port_c, diode_port, diode_sign = [], [], [], []
-    for _, anode, cathode in diodes:
-        ia, ic = idx(anode), idx(cathode)
+    port_a, port_c = [], []
+
+    def port(first, second):
+        ia, ic = idx(first), idx(second)
         if (ia, ic) in port_of:
-            diode_port.append(port_of[(ia, ic)])
-            diode_sign.append(1)
-        elif (ic, ia) in port_of:
-            diode_port.append(port_of[(ic, ia)])
-            diode_sign.append(-1)
-        else:
-            port_of[(ia, ic)] = len(port_a)
-            port_a.append(ia)
-            port_c.append(ic)
-            diode_port.append(port_of[(ia, ic)])
-            diode_sign.append(1)
+            return port_of[(ia, ic)], 1
+        if (ic, ia) in port_of:
+            return port_of[(ic, ia)], -1
+        port_of[(ia, ic)] = len(port_a)
+        port_a.append(ia)
+        port_c.append(ic)
+        return port_of[(ia, ic)], 1
+
+    diode_port, diode_sign = map(list, zip(*(port(an, ca) for _, an, ca in diodes))) if diodes else ([], [])
+    var_port, var_sign = map(list, zip(*(port(x, y) for _, x, y in varistors))) if varistors else ([], [])
     node_index = {n: names.index(uf.find(n)) for n in uf.parent if uf.find(n) in seen}
     for n, at in alias.items():  # dangling parts carry no current: at their attachment's potential
         if at in node_index:
@@ -395,4 +399,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
         source_kind=kind,
         held=1 if held is not None else None,
         inject=inject,
+        varistors=tuple(v[0] for v in varistors),
+        varistor_port=np.array(var_port, dtype=np.intp),
+        varistor_sign=np.array(var_sign, dtype=np.intp),
     )

@@ -110,7 +110,7 @@ def clamp_lines(clamps: Sequence[ClampRequest], notes: Sequence[str | None] = ()
     lines = ["clamps:"]
     for i, c in enumerate(clamps):
         if isinstance(c.at, str):
-            where = "across: movement"
+            where = f"across: {c.at}"
         else:
             where = f"at: {{above_movement: {quantity(float(c.at), 'ohm')}}}"
         parts = [where]
@@ -120,6 +120,8 @@ def clamp_lines(clamps: Sequence[ClampRequest], notes: Sequence[str | None] = ()
             parts.append(f"reverse: {c.reverse}")
         if c.count != 1:
             parts.append(f"count: {int(c.count)}")
+        if getattr(c, "bidirectional", False):
+            parts.append("bidirectional: true")
         note = notes[i] if i < len(notes) else None
         lines.append(f"  - {{{', '.join(parts)}}}" + (f"  # {note}" if note else ""))
     return lines

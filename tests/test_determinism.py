@@ -67,7 +67,8 @@ def _without_monte_carlo(obj):
     """The result with every field that depends on the Monte Carlo draws removed."""
     mc_keys = {"monte_carlo", "yield_fraction", "yield", "seed", "build_yield_fraction", "intrinsic_monte_carlo_pct"}
     if isinstance(obj, dict):
-        return {k: _without_monte_carlo(v) for k, v in obj.items() if k not in mc_keys and "yield" not in k}
+        return {k: _without_monte_carlo(v) for k, v in obj.items()
+                if k not in mc_keys and "yield" not in k and "monte_carlo" not in k}
     if isinstance(obj, list):
         return [_without_monte_carlo(v) for v in obj]
     return obj

@@ -482,8 +482,10 @@ def test_bad_requests_raise_project_error():
         sz.size(make_spec(volts=[10.0, 2.5]))
     with pytest.raises(ProjectError, match="ascending"):
         sz.size(make_spec(amps=[10e-3, 10e-3]))
-    with pytest.raises(ProjectError, match="beyond the first chain segment"):
-        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(8000.0, "si", "si")]))  # segment is 8 k
+    with pytest.raises(ProjectError, match="lies on a range's node"):
+        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(8000.0, "si", "si")]))  # v1 is 8 k up
+    with pytest.raises(ProjectError, match="beyond the\n?.*chain"):
+        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(60e3, "si", "si")]))  # the chain ends at 48 k
     with pytest.raises(ProjectError, match="beyond the smallest multiplier"):
         sz.size(make_spec(volts=[0.5, 2.5], v_arr="separate", clamps=[ClampRequest(9000.0, "si", "si")]))
     with pytest.raises(ProjectError, match="unknown resistor series 'E20'"):

@@ -40,7 +40,8 @@ ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
 THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
-_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4, "battery": 1, "rheostat": 1}
+_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "ptc": 2, "contact": 3, "diode": 4, "varistor": 4,
+              "battery": 1, "rheostat": 1}
 WHITE = colors.white
 #: Smallest text size on paper [pt] (6 pt is the least a print reader is asked to read).
 MIN_TEXT_PT = 6.3
@@ -256,6 +257,14 @@ def _fuse(g, x, y):
     g.add(Line(x, y - 11, x, y + 11, strokeColor=INK, strokeWidth=0.7))
 
 
+def _nonlinear_resistor(g, x, y, hooked: bool):
+    """A resistor crossed by a slanted bar (IEC 60617 variable by its own nature): with a foot for a PTC."""
+    _resistor(g, x, y, True, False)
+    g.add(Line(x - 8, y - 11, x + 8, y + 11, strokeColor=INK, strokeWidth=0.8))
+    if hooked:
+        g.add(Line(x - 8, y - 11, x - 13, y - 11, strokeColor=INK, strokeWidth=0.8))
+
+
 def _movement(g, x, y, plus_up: bool, tf: float = 1.0):
     g.add(Circle(x, y, 10, fillColor=WHITE, strokeColor=INK, strokeWidth=0.9))
     g.add(Line(x - 5, y - 5, x + 5.5, y + 5.5, strokeColor=ACCENT, strokeWidth=0.9))
@@ -324,6 +333,8 @@ SYMBOLS = {
     "contact": lambda g, e, x, y, lo, hi, tf: _contact(g, x, y, True),
     "rheostat": lambda g, e, x, y, lo, hi, tf: _resistor(g, x, y, True, True),
     "battery": lambda g, e, x, y, lo, hi, tf: _battery(g, x, y, plus_up=(e.a == hi), tf=tf),
+    "ptc": lambda g, e, x, y, lo, hi, tf: _nonlinear_resistor(g, x, y, hooked=True),
+    "varistor": lambda g, e, x, y, lo, hi, tf: _nonlinear_resistor(g, x, y, hooked=False),
 }
 
 

@@ -225,7 +225,7 @@ def _fuse_lines(cases, code_of) -> list[str]:
     ok = [c for c in cases if c.get("fuse_opens") and c["verdict"] not in FAILING and c.get("event_time_s")]
     if not ok:
         return []
-    out = ["Survived because the fuse opens (replace the fuse afterwards):"]
+    out = ["Survived because a protective part acts (replace a fuse that opens; a PTC resets):"]
     by: dict[tuple, list[dict]] = {}
     for c in ok:
         by.setdefault((c["position"], c["fuse"]), []).append(c)
@@ -237,7 +237,9 @@ def _fuse_lines(cases, code_of) -> list[str]:
         duty = [x for c in group for x in c["stresses"] if x["limit"] == "safety"]
         when = fmt(min(t), "s", 3) + ("" if max(t) == min(t) else f" to {fmt(max(t), 's', 3)}")
         stims = " ".join(code_of.get(c["stimulus"], c["stimulus"]) for c in group)
-        text = (f"{pos} ({stims}): {fuse} opens in {when}, let-through up to {i2t:.3g} A^2 s; closest part: "
+        ptc = any(f.get("kind") == "ptc" and f["name"] == fuse for c in group for f in c["fuses"])
+        text = (f"{pos} ({stims}): {fuse} {'trips (and resets)' if ptc else 'opens'} in {when}, let-through up to "
+                f"{i2t:.3g} A^2 s; closest part: "
                 f"{describe_stress(worst)}")
         for q in ("prospective current", "voltage across the open fuse"):
             xs = [x for x in duty if x["quantity"].startswith(q)]

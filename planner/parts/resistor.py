@@ -17,7 +17,9 @@ import numpy as np
 
 from ..tools import fmt, quantity
 from ..units import format_si
+from . import fusible
 from .base import IGNITION_POWER_FACTOR, IGNITION_TIME_S, Parameter, Part
+from .varistor import IMPULSE_EQUIVALENT_S, impulse_energy_j
 
 #: Short-time overload of a fixed resistor, IEC 60115-1 (from memory; verify
 #: against the edition in use): 2.5 x the rated voltage sqrt(P R), but not above
@@ -169,12 +171,16 @@ class Resistor(Part):
     distribution: str = "uniform"
     line: int | None = None
     pulse_energy_j: float | None = None
+    fusible: bool = False
+    fusing: tuple = ()
+    breaking_voltage_v: float = math.inf
 
     kind: ClassVar[str] = "resistor"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "resistor"
     file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between", "value", "tolerance", "tempco", "power",
-                                            "max_voltage", "series", "target", "group", "trimmer", "pulse_energy")
+                                            "max_voltage", "series", "target", "group", "trimmer", "pulse_energy",
+                                            "fusible", "fusing", "breaking_voltage")
 
     @classmethod
     def read(cls, e, name: str, parts) -> "Resistor":
@@ -198,6 +204,7 @@ class Resistor(Part):
             distribution=rp.distribution,
             line=e.line,
             pulse_energy_j=e.qty("pulse_energy", "energy", None, check="pos"),
+            **fusible.read_element(e),
         )
 
     def resistance(self, spec, dt_k) -> np.ndarray:
@@ -246,6 +253,11 @@ class Resistor(Part):
             extra.append("trimmer: true")
         if self.pulse_energy_j is not None:
             extra.append(f"pulse_energy: {quantity(self.pulse_energy_j, 'J')}")
+        if self.fusible:
+            pts = ", ".join(f"[{quantity(p, 'W')}, {quantity(t, 's')}]" for p, t in self.fusing)
+            extra += ["fusible: true", f"fusing: [{pts}]"]
+            if math.isfinite(self.breaking_voltage_v):
+                extra.append(f"breaking_voltage: {quantity(self.breaking_voltage_v, 'V')}")
         note = []
         if self.group is not None:
             note.append(f"segment '{self.group}'")
@@ -271,6 +283,10 @@ class Resistor(Part):
         """
         ev, ph = ctx.event, ctx.phase
         out = []
+        if self.fusible and not ctx.peak_only and (
+                (ev is not None and self.name in ev.fuses)
+                or math.isfinite(fusible.time_to_open_s(self.fusing, ctx.power_w))):
+            return out  # it is the part that opens: judged by trip() and open_checks()
         if ev is not None and ev.event_time_s <= SHORT_OVERLOAD_S:
             t_ev = ev.event_time_s
             pe = resistor_pulse_energy_j(ctx.spec, self)
@@ -290,10 +306,31 @@ class Resistor(Part):
             out.append(ctx.entry(self.name, self.kind, f"power{ph}", ctx.power_w, self.power_w, "W", "rating",
                                  limit_name="resistor power"))
             out += ignition_entries(ctx, self.name, self.kind, abs(ctx.power_w), self.power_w)
+        if ctx.peak_only and math.isfinite(self.power_w):  # one standard impulse: its energy as a pulse
+            e = impulse_energy_j(ctx.current["peak"] * ctx.voltage["peak"])
+            lim = resistor_pulse_limit_j(self, IMPULSE_EQUIVALENT_S, resistor_pulse_energy_j(ctx.spec, self))
+            out.append(ctx.entry(self.name, self.kind, f"impulse energy{ph}", e, lim, "J", "rating",
+                                 limit_name="resistor impulse energy", duration_s=IMPULSE_EQUIVALENT_S))
         if math.isfinite(self.max_voltage_v):
             out.append(ctx.entry(self.name, self.kind, f"peak voltage{ph}", ctx.voltage["peak"], self.max_voltage_v,
                                  "V", "rating", limit_name="resistor limiting element voltage"))
         return out
+
+    # --- a fusible resistor opens (planner.parts.fusible) ---------------------------------
+    def trip(self, ctx):
+        """Whether a fusible resistor opens (:func:`planner.parts.fusible.trip`); None for any other."""
+        return fusible.trip(self, ctx) if self.fusible else None
+
+    def opened(self, r_open_ohm: float):
+        """A fusible resistor once open: ``r_open_ohm`` between its nodes, rated for anything."""
+        if not self.fusible:
+            return None
+        return Resistor(self.name, self.a, self.b, r_open_ohm, tolerance=0.0, tempco_per_k=0.0, power_w=math.inf,
+                        max_voltage_v=math.inf, line=self.line)
+
+    def open_checks(self, ctx) -> list[dict]:
+        """The voltage across it once open against its breaking voltage."""
+        return fusible.open_checks(self, ctx) if self.fusible else []
 
 
 def ignition_entries(ctx, part: str, kind: str, power_w: float, rated_w: float) -> list[dict]:

@@ -1,4 +1,4 @@
-"""The ``parts:`` section: resistor defaults and the diode and fuse models elements name.
+"""The ``parts:`` section: resistor defaults and the diode, fuse, PTC and varistor models elements name.
 
 Each catalogue entry is read by its part kind (``ResistorParts.read``,
 ``DiodeModel.read``, ``FuseModel.read`` of ``planner.parts``); this module reads
@@ -13,7 +13,7 @@ from .tree import Node
 
 __all__ = ["PARTS_KEYS", "read_parts"]
 
-PARTS_KEYS = ("resistors", "diodes", "fuses")
+PARTS_KEYS = ("resistors", "diodes", "fuses", "ptcs", "varistors")
 
 
 def read_parts(ctx: Reader, node: Node | None) -> model.Parts:
@@ -29,7 +29,10 @@ def read_parts(ctx: Reader, node: Node | None) -> model.Parts:
     diodes = _models(ctx, m.get("diodes"), "parts.diodes", model.DiodeModel,
                      "{si_generic: {saturation_current: 5 nA}}")
     fuses = _models(ctx, m.get("fuses"), "parts.fuses", model.FuseModel, "{f_100ma: {cold_resistance: 2 ohm, ...}}")
-    return model.Parts(resistors=resistors, diodes=diodes, fuses=fuses)
+    ptcs = _models(ctx, m.get("ptcs"), "parts.ptcs", model.PtcModel, model.PtcModel.file_example)
+    varistors = _models(ctx, m.get("varistors"), "parts.varistors", model.VaristorModel,
+                        model.VaristorModel.file_example)
+    return model.Parts(resistors=resistors, diodes=diodes, fuses=fuses, ptcs=ptcs, varistors=varistors)
 
 
 def _models(ctx: Reader, node: Node | None, where: str, cls, example: str) -> dict:

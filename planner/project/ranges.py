@@ -19,7 +19,7 @@ __all__ = ["VOLTAGE_KEYS", "CURRENT_KEYS", "CLAMP_KEYS", "CLAMP_AT_KEYS", "read_
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
 AC_KEYS = ("arrangement", "full_scales", "rectifier", "diode", "scale", "swamp")
-CLAMP_KEYS = ("across", "at", "forward", "reverse", "count")
+CLAMP_KEYS = ("across", "at", "forward", "reverse", "count", "bidirectional")
 CLAMP_AT_KEYS = ("above_movement",)
 
 
@@ -125,10 +125,11 @@ def read_clamps(ctx: Reader, node: Node | None, parts: model.Parts) -> tuple[mod
         where = f"clamps[{i}]"
         m = ctx.mapping(item, where, CLAMP_KEYS, "{across: movement, forward: si_generic, reverse: si_generic}")
         if m.has("across") == m.has("at"):
-            ctx.fail(f"{where} needs exactly one of 'across: movement' or 'at: {{above_movement: 10 kohm}}'", m.line)
+            ctx.fail(f"{where} needs exactly one of 'across: movement' (or 'across: ring') or "
+                     "'at: {above_movement: 10 kohm}'", m.line)
         at: str | float
         if m.has("across"):
-            at = m.choice("across", ("movement",))
+            at = m.choice("across", ("movement", "ring"))
         else:
             sub = m.sub("at", CLAMP_AT_KEYS, "{above_movement: 10 kohm}")
             assert sub is not None
@@ -138,5 +139,9 @@ def read_clamps(ctx: Reader, node: Node | None, parts: model.Parts) -> tuple[mod
         if fwd is None and rev is None:
             ctx.fail(f"{where} has no diode; give 'forward:' and/or 'reverse:' with a model from parts.diodes", m.line)
         count = m.integer("count", 1, 1, 50, "2")
-        out.append(model.ClampRequest(at=at, forward=fwd, reverse=rev, count=count, line=m.line))
+        bidir = m.boolean("bidirectional", False)
+        if bidir and (fwd is None or rev is None):
+            ctx.fail(f"{where}: a bidirectional clamp is a string of back-to-back pairs; give both 'forward:' and "
+                     "'reverse:' (zener or TVS models with a breakdown_voltage)", m.line)
+        out.append(model.ClampRequest(at=at, forward=fwd, reverse=rev, count=count, line=m.line, bidirectional=bidir))
     return tuple(out)

@@ -16,6 +16,7 @@ from .faults import read_analysis, read_faults
 from .movement import read_ambient, read_movement
 from .network import read_network
 from .ohms import read_resistance
+from .protection import read_protection
 from .ranges import read_ac_ranges, read_clamps, read_current, read_voltage
 from .reader import Reader
 from .tree import Node
@@ -38,6 +39,7 @@ TOP_KEYS = (
     "analysis",
     "ac_voltage",
     "ac_current",
+    "protection",
 )
 
 
@@ -63,6 +65,7 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
     network = read_network(ctx, top.get("network"), parts)
     faults = read_faults(ctx, top.get("faults"))
     analysis = read_analysis(ctx, top.get("analysis"))
+    protection = read_protection(ctx, top.get("protection"), parts)
     if (voltage is None and current is None and resistance is None and network is None and ac_voltage is None
             and ac_current is None):
         ctx.fail(
@@ -84,6 +87,7 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
         faults=faults,
         network=network,
         analysis=analysis,
+        protection=protection,
         revision=revision,
         date=date,
     )

@@ -112,7 +112,8 @@ def network_yaml(spec: Spec, sizing: Sizing) -> str:
         f"(allowed error {sizing.allowed_error_pct:.3g} % per segment); edit the values freely."
     ]
     return writer.replace_sections(
-        spec.text, ("voltage", "current", "resistance", "clamps", "network"), writer.network_lines(sizing.network),
+        spec.text, ("voltage", "current", "resistance", "clamps", "network", "protection"),
+        writer.network_lines(sizing.network),
         header=header, record="# The request the network below was sized from (kept for the record):")
 
 

@@ -17,6 +17,7 @@ from ..design import Design
 from ..engine import Engine
 from .judge import Judgement, judge
 from .text import fuse_detail
+from .tripped import settle
 from .verdict import decided_by, hazards_of, verdict_of
 from .waveforms import solve_waveforms
 
@@ -121,9 +122,8 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     opened = j.opened
     after = None
     while opened and not s.peak_only:
-        eng = _open_fuse_engine(engine, opened)
-        wf2 = solve_waveforms(eng, st, [s], temperature_k=temperature_k, n_phase=n_phase)[0]
-        label = "after " + ", ".join(sorted(opened)) + (" opens" if len(opened) == 1 else " open")
+        eng, wf2 = settle(_open_fuse_engine(engine, opened), st, s, temperature_k=temperature_k, n_phase=n_phase)
+        label = _after_label(opened, fuses)
         j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False, original=engine.net)
         stresses += j2.stresses
         fuses += [dict(f, after=sorted(opened)) for f in j2.fuses]
@@ -139,9 +139,17 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     return {"stresses": stresses, "fuses": fuses, "notes": notes, "hazardous": hazardous, "after": after}
 
 
+def _after_label(opened: frozenset, fuses: list) -> str:
+    """The phase label once parts have acted: ``after F1 opens``, ``after RT1 trips``."""
+    ptcs = {f["name"] for f in fuses if f.get("kind") == "ptc"}
+    verb = ("trips" if len(opened) == 1 else "trip") if opened <= ptcs else ("opens" if len(opened) == 1 else "open")
+    return "after " + ", ".join(sorted(opened)) + " " + verb
+
+
 def _case(st, s, j: Judgement, phases: dict) -> dict:
     """The case record of the design contract (see :func:`assess`)."""
-    opens = any(f["opens"] for f in phases["fuses"])
+    # a PTC that trips resets once the fault is gone: the case survives without a part to replace
+    opens = any(f["opens"] and not f.get("resets") for f in phases["fuses"])
     verdict, deciding = verdict_of(phases["stresses"], phases["hazardous"], opens=opens)
     mv = j.movement
     after = phases["after"]

@@ -107,7 +107,29 @@ def trip_parts(elements, contexts: dict, opened, original) -> tuple[list, list, 
         notes += trip.notes
         if trip.opens:
             newly.append(e.name)
+    notes += series_first(fuses, newly)
     return stresses, fuses, notes, newly
+
+
+def series_first(fuses: list, newly: list) -> list[str]:
+    """Of protective parts in series (the same current), only the fastest opens: the others are told so.
+
+    ``fuses`` (the records) and ``newly`` (the names that open) are changed in place.
+    Parts carry the same current when their rms currents agree to 1e-9; the one with
+    the shortest ``event_time_s`` opens and the current stops in the others.
+    """
+    opening = [f for f in fuses if f["opens"] and f.get("event_time_s") is not None]
+    notes = []
+    for f in opening:
+        faster = [g for g in opening if g is not f and g["opens"] and g["event_time_s"] < f["event_time_s"]
+                  and abs(g["current_rms_a"] - f["current_rms_a"]) <= 1e-9 * max(f["current_rms_a"], 1e-30)]
+        if faster:
+            f.update(opens=False, pre_arcing_time_s=None, let_through_i2t_a2s=None, arcing_i2t_a2s=None,
+                     event_time_s=None, opened_first=faster[0]["name"])
+            newly.remove(f["name"])
+            notes.append(f"{f['name']} carries the same current as {faster[0]['name']}, which opens first: "
+                         f"{f['name']} does not open")
+    return notes
 
 
 def exposure(fuses: list, short_exposure: bool | None, overload) -> tuple[bool, list]:

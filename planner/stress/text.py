@@ -174,11 +174,13 @@ def _fuse_lines(result: dict) -> list[str]:
     for f in result["fuses"]:
         t = f["pre_arcing_time_s"]
         when = " (after " + ", ".join(f["after"]) + " opened)" if f.get("after") else ""
-        state = "opens" if f["opens"] else "holds"
-        extra = f", pre-arcing time {t:.3g} s" if (f["opens"] and t is not None) else ""
+        ptc = f.get("kind") == "ptc"
+        state = ("trips" if ptc else "opens") if f["opens"] else "holds"
+        extra = f", {'time to trip' if ptc else 'pre-arcing time'} {t:.3g} s" if (f["opens"] and t is not None) else ""
         if f["opens"] and f.get("let_through_i2t_a2s") is not None:
             extra += f", let-through {f['let_through_i2t_a2s']:.3g} A^2 s"
-        lines += wrap("", f"Fuse {f['name']}{when}: {fmt(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
+        what = {"ptc": "PTC", "fusible resistor": "Fusible resistor"}.get(f.get("kind"), "Fuse")
+        lines += wrap("", f"{what} {f['name']}{when}: {fmt(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
                           f"prospective {fmt(f['prospective_current_a'], 'A', 4)} vs breaking capacity "
                           f"{fmt(f['breaking_capacity_a'], 'A', 4)}")
     return lines

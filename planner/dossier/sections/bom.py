@@ -49,6 +49,23 @@ def _misrange_worst(ctx: Context) -> dict:
     return out
 
 
+def _protection_row(spec, e, row: dict) -> None:
+    """The bill-of-materials row of a PTC or a varistor: its model and ratings."""
+    if e.kind == "ptc":
+        p = spec.parts.ptcs[e.model]
+        row.update(value=f"{value_text(p.r_cold_ohm, 'ohm')} cold ({e.model})", value_si=p.r_cold_ohm, series="PTC",
+                   voltage_rated_v=p.max_voltage_v, tolerance_pct=100 * p.tolerance)
+        held = (f"tripped {value_text(p.tripped_power_w, 'W')}" if p.tripped_power_w is not None
+                else f"tripped {value_text(p.tripped_resistance_ohm, 'ohm')}")
+        row["notes"].append(f"hold {value_text(p.hold_current_a, 'A')}, trip {value_text(p.trip_current_a, 'A')}, "
+                            f"{held}, cuts up to {value_text(p.max_current_a, 'A')}")
+    else:
+        v = spec.parts.varistors[e.model]
+        row.update(value=f"{value_text(v.v1_v, 'V')} at 1 mA ({e.model})", value_si=v.v1_v, series="varistor",
+                   voltage_rated_v=v.max_continuous_v)
+        row["notes"].append(f"alpha {v.alpha:g}, {value_text(v.energy_j, 'J')} single pulse")
+
+
 def bom_rows(ctx: Context) -> list[dict]:
     """The bill of materials as dicts (one per element), SI floats and text; shared by the PDF and the CSV."""
     if "bom" in ctx._cache:
@@ -58,7 +75,8 @@ def bom_rows(ctx: Context) -> list[dict]:
     fs = _fullscale_stress(ctx)
     mis = _misrange_worst(ctx)
     rows = []
-    order = {"resistor": 0, "movement": 1, "diode": 2, "fuse": 3, "contact": 4, "rheostat": 5, "battery": 6}
+    order = {"resistor": 0, "movement": 1, "diode": 2, "varistor": 2, "fuse": 3, "ptc": 3, "contact": 4, "rheostat": 5,
+             "battery": 6}
     for e in sorted(net.elements, key=lambda e: (order.get(e.kind, 7), natural(e.name))):
         i_fs, v_fs, p_fs = fs.get(e.name, (None, None, None))
         row = {"designator": e.name, "kind": e.kind, "value": "", "value_si": None, "series": "", "tolerance_pct": None,
@@ -119,6 +137,8 @@ def bom_rows(ctx: Context) -> list[dict]:
                        power_rated_w=e.power_w, tempco_ppm_per_k=1e6 * e.tempco_per_k)
             row["notes"].append(f"zero-ohms adjuster (set at {value_text(e.default_setting, 'ohm', 4)} for the nominal "
                                 "battery)")
+        elif e.kind in ("ptc", "varistor"):
+            _protection_row(spec, e, row)
         elif isinstance(e, Contact):
             row.update(value=value_text(e.r_ohm, "ohm") if e.r_ohm else "ideal", value_si=e.r_ohm, series="switch")
             row["notes"].append("closed in " + (", ".join(e.closed_in) or "no position"))

@@ -120,7 +120,7 @@ class DCCurrentSizing(SizingSection):
             layout.segments.append(SegmentPlan(f"ring {names[k]}", "ring", t, lows[j], highs[j], c.line))
         for k, ik in enumerate(ifs):
             layout.positions.append(Position(names[k], "current", float(ik), (PLUS, COM), c.line))
-            layout.contacts.append((layout.current_feed, tnode[k], (names[k],)))
+            layout.contacts.append((_feed(layout, ik), tnode[k], (names[k],)))
             burden = i_fs * (taps_r[0] + r_b - taps_r[k])
             layout.ideal[names[k]] = (burden / ik, burden)
         if bare and across:
@@ -139,7 +139,13 @@ class DCCurrentSizing(SizingSection):
             layout.segments.append(SegmentPlan(f"shunt {names[k]}", "shunt", t, COM, f"s{k + 1}", c.line))
         for k, ik in enumerate(ifs):
             layout.positions.append(Position(names[k], "current", float(ik), (PLUS, COM), c.line))
-            layout.contacts.append((layout.current_feed, f"s{k + 1}", (names[k],)))
+            layout.contacts.append((_feed(layout, ik), f"s{k + 1}", (names[k],)))
             layout.contacts.append((f"s{k + 1}", i_node, (names[k],)))
             burden = i_fs * r_b
             layout.ideal[names[k]] = (burden / ik, burden)
+
+
+def _feed(layout: Layout, full_scale: float) -> str:
+    """The node a current range's contact joins: behind a mA fuse when its full scale is below that fuse's rating."""
+    low = layout.low_current_feed
+    return low[1] if low is not None and full_scale < low[0] else layout.current_feed
