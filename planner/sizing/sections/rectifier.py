@@ -17,8 +17,8 @@ solver** so that the cycle mean of the movement current at the full-scale rms of
 a sine is I_fs at nominal parts and the reference temperature
 (:func:`solve_for_mean`): the position's own small network is compiled and
 solved as instantaneous DC states (:mod:`planner.solve`; no Engine: the sizer
-never builds one) on a 1024-node Gauss-Chebyshev rule, and Brent's method finds
-the resistance. The E-series realisation then follows as for the DC values.
+never builds one) on a 1024-node Gauss-Chebyshev rule, and Newton's method on ln R (safeguarded
+by bisection) finds the resistance. The E-series realisation then follows as for the DC values.
 """
 
 from __future__ import annotations
