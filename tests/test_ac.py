@@ -351,3 +351,16 @@ def test_own_scale_plate_follows_the_solved_response(service):
     np.testing.assert_allclose(tick["fraction"], ref, atol=1e-6)  # 1e-6 of the arc
     shared = next(s for s in plate["scales"] if s["unit"] == "V" and s["name"].startswith("DC"))
     assert "10 V~" in shared["positions"]
+
+
+def test_protect_keeps_the_rectifier(service):
+    """``planner protect`` takes the clamps out to see what they cost; a bridge's diodes also reach the
+    movement's common side but are the measurement itself (``role: rectifier``), never a clamp."""
+    from planner.protect.candidates import clamp_diodes
+
+    net = service.net
+    clamps = set(clamp_diodes(net))
+    rectifier = {e.name for e in net.elements if e.kind == "diode" and not e.clamp}
+    assert rectifier and clamps  # the example has both
+    assert not clamps & rectifier
+    assert clamps == {e.name for e in net.elements if e.kind == "diode" and e.clamp}
