@@ -364,3 +364,26 @@ def test_protect_keeps_the_rectifier(service):
     assert rectifier and clamps  # the example has both
     assert not clamps & rectifier
     assert clamps == {e.name for e in net.elements if e.kind == "diode" and e.clamp}
+
+
+def test_own_scale_ticks_against_an_independent_bridge_solve():
+    """A 2.5 V bridge range on a scale of its own: each major tick sits where the mean movement current of
+    a sine of that rms puts the pointer, fraction = I_mean(V) / I_fs, computed independently (Kirchhoff's
+    laws with Banwell and Jayakumar's exact diode current, ``fsolve``, and the phase mean by ``quad``).
+
+    Sources: T. C. Banwell and A. Jayakumar, Electronics Letters 36 (2000) 291 (the diode with series
+    resistance in closed form); the own scale is marked from the nominal response D(V) = I_mean / I_fs
+    (design contract). Tolerance 2e-6 of the arc (the response is solved at a grid and splined between).
+    """
+    from planner.scale import scale_json, scale_project
+
+    design = build(loads(_project(BRIDGE_25.replace("scale: shared", "scale: own"), SOFT), "own.yaml"))
+    plate = scale_json(scale_project(design))
+    own = next(s for s in plate["scales"] if s["kind"] == "ac")
+    r1 = sum(e.value_ohm for e in design.net.elements if e.kind == "resistor")
+    nvt = 1.9 * K_B * design.spec.ambient.t_ref_k / Q_E
+    majors = [t for t in own["ticks"] if t.get("label") and 0.0 < t["value"] <= 2.5]
+    assert len(majors) >= 3
+    for t in majors[:2] + majors[-1:]:
+        ref = _bridge_mean(t["value"], r1, 2000.0, 5e-9, nvt, 0.5) / 50e-6
+        np.testing.assert_allclose(t["fraction"], ref, rtol=0, atol=2e-6)  # fraction of the arc
