@@ -430,12 +430,14 @@ class SharedRule:
         """Largest |q| at the crests of each target (the peak of a monotone response)."""
         return np.max(np.abs(self.crest_values(q)), axis=-1)
 
-    def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN) -> "SharedRule":
+    def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN, known=None) -> "SharedRule":
         """Check the rule on other rows (extreme builds); refine where they miss.
 
         Same contract as :meth:`planner.cycle.adaptive.AdaptiveRule.verify`: returns
         ``self`` (check recorded) or a refined rule (``refined`` True) whose nodes
-        must be solved again.
+        must be solved again. ``known``, the rows' values at the rule's own nodes
+        when the batch has solved them already (shape (R, S)), spares solving them
+        again: only the Kronrod points of the panels are solved.
         """
         prob = _Shared(self.targets, evaluate, self.span)
         panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
@@ -444,7 +446,7 @@ class SharedRule:
         for i, p in enumerate(panels):
             p.kq = q[:, i * xk.size:(i + 1) * xk.size]
             prob.prepare(p)
-        qn = prob(self.nodes)
+        qn = prob(self.nodes) if known is None else _ad._rows(np.asarray(known, dtype=float), self.nodes.size)
         a1, a2 = prob.atom_part(qn[:, qn.shape[1] - self.n_atoms:])
         mean = sum((p.kq @ p.wk.T for p in panels), a1)  # (R, T): K15 panels + exact atoms
         ms = sum(((p.kq * p.kq) @ p.wk.T for p in panels), a2)

@@ -413,7 +413,7 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
             return engine.operate(st, x, kind=kind, temperature_k=_rows(t, rows),
                                   r_source_ohm=_rows(r_source_ohm, rows), factors=f_rows).movement_current_a
 
-        checked = rule.verify(on_rows)
+        checked = rule.verify(on_rows, known=op.movement_current_a[rows])  # the rule's nodes: solved above
         if checked.refined:  # keep the refined nodes for every later request of this position
             engine.__dict__["_cycle_rules"][key] = rule = checked
             op = engine.operate(st, rule.points(), **kw)
