@@ -123,7 +123,7 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     after = None
     while opened and not s.peak_only:
         eng, wf2 = settle(_open_fuse_engine(engine, opened), st, s, temperature_k=temperature_k, n_phase=n_phase)
-        label = "after " + ", ".join(sorted(opened)) + (" opens" if len(opened) == 1 else " open")
+        label = _after_label(opened, fuses)
         j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False, original=engine.net)
         stresses += j2.stresses
         fuses += [dict(f, after=sorted(opened)) for f in j2.fuses]
@@ -137,6 +137,13 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
             break
         opened = opened | new
     return {"stresses": stresses, "fuses": fuses, "notes": notes, "hazardous": hazardous, "after": after}
+
+
+def _after_label(opened: frozenset, fuses: list) -> str:
+    """The phase label once parts have acted: ``after F1 opens``, ``after RT1 trips``."""
+    ptcs = {f["name"] for f in fuses if f.get("kind") == "ptc"}
+    verb = ("trips" if len(opened) == 1 else "trip") if opened <= ptcs else ("opens" if len(opened) == 1 else "open")
+    return "after " + ", ".join(sorted(opened)) + " " + verb
 
 
 def _case(st, s, j: Judgement, phases: dict) -> dict:
