@@ -8,6 +8,7 @@ from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer
 from ...model import Diode, Resistor
 from ..layout import RULE, STYLES, caution_box, esc, p, table
 from ..text import celsius, hazard_reminder, is_hazardous, quantity, value_text
+from . import ohms
 from .context import Context
 from .common import error_note, hazardous_position, natural, verdict_fill
 
@@ -64,6 +65,9 @@ def build(ctx: Context) -> list:
         steps.append("Voltage ranges next, lowest range first: " + ", ".join(q.name for q in vpos) + ". In a "
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
+    rpos = [q for q in net.positions if ohms.is_ohms(q)]
+    if rpos:
+        steps.append(ohms.zeroing_step(ctx, rpos))
     if trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
@@ -106,9 +110,19 @@ def build(ctx: Context) -> list:
     out.append(p(f"Apply each value from a source whose uncertainty is at most a quarter of the class "
                  f"({cls / 4:g} % of full scale); the reading must lie within the limits, which are the applied "
                  f"value \u00b1 the class ({cls:g} % of full scale, IEC 60051). <i>Expect</i> is the reading computed "
-                 "with nominal parts at the reference temperature, clamp leakage included.", "small"))
+                 "with nominal parts at the reference temperature, clamp leakage included."
+                 + (" Ohms ranges: zero first (probes shorted), then connect each reference resistor; the class "
+                    "is a share of the scale length, so the limits are the values the arc marks that far either "
+                    "side of the resistor's own mark." if rpos else ""), "small"))
     rows, fills, outside, groups = [], [], [], []
     for q in net.positions:
+        if ohms.is_ohms(q):
+            groups.append(len(rows) + 1)
+            more, out_of = ohms.acceptance_rows(ctx, q)
+            fills += [(2, len(rows) + 1 + k, "overstress") for k, r in enumerate(more) if r[2].endswith(" !")]
+            rows += more
+            outside += out_of
+            continue
         arr = ctx.arrays(q.name)
         applied = ACCEPTANCE_FRACTIONS * q.full_scale
         reading = [arr.reading_at(f) for f in ACCEPTANCE_FRACTIONS]
@@ -142,6 +156,8 @@ def build(ctx: Context) -> list:
         inst.append(f"DC current source (or supply with series resistor and reference ammeter), "
                     f"{value_text(min(q.full_scale for q in ipos) * 0.2, 'A')} to "
                     f"{value_text(max(q.full_scale for q in ipos), 'A')}, uncertainty at most {cls / 4:g} %.")
+    if rpos and ohms.reference_resistors(ctx, rpos):
+        inst.append(ohms.reference_resistors(ctx, rpos))
     inst.append(f"Current source for the bare movement, up to {value_text(spec.movement.i_fs_a * 1.1, 'A')}.")
     inst.append("Digital multimeter (4\u00bd digits or better) for the test-point voltages and the resistor values; "
                 "four-wire resistance for values below 10 ohm.")
