@@ -314,12 +314,21 @@ def cmd_dossier(args) -> int:
 def _dossier_plate(design):
     """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
     from .errors import PlannerError
-    from .scale import scale_project
 
     try:
-        return scale_project(design)
+        return _plate(design)
     except PlannerError as exc:
         return exc.one_line()
+
+
+def _plate(design):
+    """The scale plate of ``planner scale`` and the dossier: every scale, the ohms arcs from the zeroed response."""
+    from .engine import Engine
+    from .ohms import scale_definitions
+    from .scale import scale_project
+
+    engine = Engine(design)
+    return scale_project(design, engine=engine, defs=scale_definitions(engine))
 
 
 def cmd_protect(args) -> int:
@@ -381,14 +390,10 @@ def cmd_scale(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from . import __version__
     from .fsio import write_all
-    from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
-
-    from .engine import Engine
-    from .ohms import scale_definitions
+    from .scale import format_scale, plate_pdf, plate_svg, scale_json
 
     design = _design(spec)
-    engine = Engine(design)
-    result = scale_project(design, engine=engine, defs=scale_definitions(engine))
+    result = _plate(design)
     title = f"{spec.title} \u2013 scale plate"
     items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
     if args.svg:
@@ -458,7 +463,8 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--ohms", metavar="R", help="a resistor across the input of a resistance position, e.g. '4.7 kohm'")
     sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
     sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
-    sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")
+    sp.add_argument("--waveform", choices=["dc", "sine", "square", "triangle"], default="dc",
+                    help="dc value, or a sine, square or triangle wave given as rms")
     sp.set_defaults(func=cmd_apply)
 
     sp = sub.add_parser("dossier", help="write the PDF design dossier (and, with --bom, the BOM as CSV)")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from ..ohms_check import ohms_lines
 from ..model import ZERO_CELSIUS_K
+from ..ranges.ac_report import format_ac_figures
 from ..units import format_si
 from .position import LINEARITY_FRACTIONS
 
@@ -46,7 +47,7 @@ def format_check(result: dict) -> str:
             f"{'permitted':>11}{'class %':>9}  {'verdict':<14}{'yield':>7}{'budget %':>10}{'margin':>8}  {'input':<s}")
     lines += [head, "-" * (len(head) + 24)]
     for p in result["positions"]:
-        if p["measures"] == "voltage":
+        if "ohms_per_volt" in p:
             inp = (f"{format_si(p['input_resistance_ohm'], 'ohm')} "
                    f"({format_si(p['ohms_per_volt'], 'ohm/V')})")
         elif p["measures"] == "resistance":
@@ -96,6 +97,7 @@ def format_check(result: dict) -> str:
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
     lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
+    lines += format_ac_figures(result["positions"])
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:
         lines.append("RESULT: requirement met - every position within class")

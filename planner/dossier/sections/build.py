@@ -8,6 +8,7 @@ from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer
 from ...model import Diode, Resistor
 from ..layout import RULE, STYLES, caution_box, esc, p, table
 from ..text import celsius, hazard_reminder, is_hazardous, quantity, value_text
+from . import ohms
 from .context import Context
 from .common import error_note, hazardous_position, natural, verdict_fill
 
@@ -64,6 +65,15 @@ def build(ctx: Context) -> list:
         steps.append("Voltage ranges next, lowest range first: " + ", ".join(q.name for q in vpos) + ". In a "
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
+    acpos = [q for q in net.positions if q.measures in ("ac_voltage", "ac_current")]
+    if acpos:
+        steps.append("AC ranges after the DC ones: " + ", ".join(q.name for q in acpos) + ". Apply a sine of known "
+                     "rms (a calibrator, or a low-distortion source checked with a true-rms meter) at 10 %, 50 % and "
+                     "100 % of full scale; the readings should match the check's linearity table for that scale. "
+                     "A distorted source reads off by its form factor (see the waveform errors of each range).")
+    rpos = [q for q in net.positions if ohms.is_ohms(q)]
+    if rpos:
+        steps.append(ohms.zeroing_step(ctx, rpos))
     if trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
@@ -106,9 +116,23 @@ def build(ctx: Context) -> list:
     out.append(p(f"Apply each value from a source whose uncertainty is at most a quarter of the class "
                  f"({cls / 4:g} % of full scale); the reading must lie within the limits, which are the applied "
                  f"value \u00b1 the class ({cls:g} % of full scale, IEC 60051). <i>Expect</i> is the reading computed "
-                 "with nominal parts at the reference temperature, clamp leakage included.", "small"))
+                 "with nominal parts at the reference temperature, clamp leakage included."
+                 + (" On the AC positions (<i>rms~</i>) apply a sine of that rms value, 50 Hz, from a low-distortion "
+                    "source: the pointer follows the mean and the scale is marked in rms of a sine, so a distorted "
+                    "source reads off by its form factor." if any(q.kind.waveform == "sine" for q in net.positions)
+                    else "")
+                 + (" Ohms ranges: zero first (probes shorted), then connect each reference resistor; the class "
+                    "is a share of the scale length, so the limits are the values the arc marks that far either "
+                    "side of the resistor's own mark." if rpos else ""), "small"))
     rows, fills, outside, groups = [], [], [], []
     for q in net.positions:
+        if ohms.is_ohms(q):
+            groups.append(len(rows) + 1)
+            more, out_of = ohms.acceptance_rows(ctx, q)
+            fills += [(2, len(rows) + 1 + k, "overstress") for k, r in enumerate(more) if r[2].endswith(" !")]
+            rows += more
+            outside += out_of
+            continue
         arr = ctx.arrays(q.name)
         applied = ACCEPTANCE_FRACTIONS * q.full_scale
         reading = [arr.reading_at(f) for f in ACCEPTANCE_FRACTIONS]
@@ -119,7 +143,8 @@ def build(ctx: Context) -> list:
             if not inside:
                 outside.append(f"{q.name} at {quantity(a, q.unit)}")
             limits = f"{quantity(a - tol, q.unit)} to {quantity(a + tol, q.unit)}"
-            rows.append([q.name, quantity(a, q.unit), quantity(r, q.unit) + ("" if inside else " !"),
+            wave = " rms~" if q.kind.waveform == "sine" else ""  # an AC position: a sine of that rms
+            rows.append([q.name, quantity(a, q.unit) + wave, quantity(r, q.unit) + ("" if inside else " !"),
                          "\u00b1 " + value_text(tol, q.unit), limits, "", ""])
             if not inside:
                 fills.append((2, len(rows), "overstress"))
@@ -142,6 +167,14 @@ def build(ctx: Context) -> list:
         inst.append(f"DC current source (or supply with series resistor and reference ammeter), "
                     f"{value_text(min(q.full_scale for q in ipos) * 0.2, 'A')} to "
                     f"{value_text(max(q.full_scale for q in ipos), 'A')}, uncertainty at most {cls / 4:g} %.")
+    acpos = [q for q in net.positions if q.kind.waveform == "sine"]
+    if acpos:
+        inst.append(f"AC calibrator, or a low-distortion 50 Hz sine source checked with a true-rms reference meter, "
+                    f"up to {value_text(max(q.full_scale for q in acpos if q.kind.source == 'voltage'), 'V')} rms"
+                    if any(q.kind.source == "voltage" for q in acpos) else "AC current source (50 Hz sine)")
+        inst[-1] += f", distortion under 0.1 % and uncertainty at most {cls / 4:g} % of full scale."
+    if rpos and ohms.reference_resistors(ctx, rpos):
+        inst.append(ohms.reference_resistors(ctx, rpos))
     inst.append(f"Current source for the bare movement, up to {value_text(spec.movement.i_fs_a * 1.1, 'A')}.")
     inst.append("Digital multimeter (4\u00bd digits or better) for the test-point voltages and the resistor values; "
                 "four-wire resistance for values below 10 ohm.")
