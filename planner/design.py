@@ -80,11 +80,17 @@ class Design:
         return nw.transition_states(self.net)
 
     def circuit(self, st: nw.SwitchState, kind: str, with_source_r: bool):
-        """The compiled state for the solver (made once, then kept)."""
+        """The compiled state for the solver (made once, then kept).
+
+        A compiled state depends on the network's topology alone (which element joins
+        which nodes, how it is stamped, which contacts the state closes), never on the
+        values: the variants of one command (search candidates, a fuse opened, a tripped
+        PTC at another resistance) share it through :func:`planner.network.compiled`.
+        """
         key = (st.name, st.closed, st.position.name, kind, with_source_r)
         if key not in self._circuits:
-            self._circuits[key] = nw.compile_state(self.spec, st, stimulus=kind,
-                                                   source_resistance=with_source_r, net=self.net)
+            self._circuits[key] = nw.compiled(self.spec, st, stimulus=kind, source_resistance=with_source_r,
+                                              net=self.net)
         return self._circuits[key]
 
     def variant(self, net: NetworkSpec, *, validate: bool = False) -> "Design":

@@ -285,6 +285,44 @@ def _with_sources(net, g, st, plus, minus, live, alias):
     return set(joined), {}
 
 
+#: Compiled states by topology (:func:`compiled`); cleared when it holds this many.
+COMPILED_KEEP = 4096
+_COMPILED: dict = {}
+
+
+def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
+    """What :func:`compile_state` reads of a network in one state, as a key.
+
+    Each element's designator, kind, stamp and nodes, whether the state puts it in
+    circuit or merges its nodes, and whether it holds an EMF; the state's name and
+    input terminals. Values (resistances, junction parameters) are not in it.
+    """
+    closed = st.closed
+    return (st.name, st.position.input,
+            tuple((e.name, e.kind, e.stamp, e.nodes, e.present(closed), e.merges(closed), e.emf() != 0.0)
+                  for e in net.elements))
+
+
+def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source_resistance: bool = False,
+             net: NetworkSpec | None = None):
+    """:func:`compile_state`, kept per topology (:func:`topology_key`) for the life of the process.
+
+    A compiled state depends on which element joins which nodes and how, never on the
+    values: the networks of one command that differ in values alone (search candidates,
+    sizing passes, a tripped PTC at another resistance) share it.
+    """
+    net = net if net is not None else spec.network
+    kind = stimulus or st.position.kind.source
+    key = (topology_key(net, st), kind, bool(source_resistance))
+    circuit = _COMPILED.get(key)
+    if circuit is None:
+        circuit = compile_state(spec, st, stimulus=kind, source_resistance=source_resistance, net=net)
+        if len(_COMPILED) >= COMPILED_KEEP:
+            _COMPILED.clear()
+        _COMPILED[key] = circuit
+    return circuit
+
+
 def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
                   source_resistance: bool = False, net: NetworkSpec | None = None):
     """Compile a switch state into a :class:`planner.solve.Circuit`.

@@ -541,3 +541,50 @@ def test_current_into_open_state_names_nodes(ammeter):
         ammeter.operate(name, [1e-3], kind="current")
     msg = err.value.one_line()
     assert name in msg and "a_in" in msg
+
+
+# --- back-to-back breakdown pairs (transient-voltage suppressors) -----------------------------------
+
+
+def test_back_to_back_zener_pair_exact_and_started_near():
+    """A tap clamped by two zeners back to back (anodes joined), against the series law solved by brentq.
+
+    plus -R1 (10 kohm)- t; the movement (500 ohm) from t to com; from t to com the pair: Z1
+    (cathode at t) and Z2 (cathode at com), their anodes at a node only they reach. Below the
+    breakdown voltage the pair passes its leakage only; above it the blocking junction breaks
+    down and the other conducts forward. The pair's current i with node t at v: the middle
+    node m where -i_1(m - v) = i_2(m), both the contract's junction law
+    i(x) = I_s (e^{x/nV_t} - 1) - I_BV e^{-(x + BV)/nV_t} + x/R_p; then the current balance at t
+    by brentq (scipy). Each stimulus is solved alone (a cold start): the pair's forward
+    junction starts at the blocking current, not on its exponential (from there Newton walks
+    down by about n V_t a step: about twenty steps here, over forty in the larger example).
+    """
+    from scipy.optimize import brentq
+
+    t_ref = 296.15
+    z = DiodeModel("z68", 1e-12, n=1.5, r_s_ohm=0.0, r_p_ohm=1e10, bv_v=6.8, ibv_a=1e-3)
+    elements = [Resistor("R1", "plus", "t", 1e4), MovementElement("M1", "t", "com"),
+                Diode("Z1", "m", "t", "z68"), Diode("Z2", "m", "com", "z68")]
+    spec = make_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], i_fs_a=1e-3,
+                     r_coil_ohm=500.0, diodes=[z], t_ref_k=t_ref)
+    eng = Engine(build(spec))
+    nvt = z.n * 1.380649e-23 * t_ref / 1.602176634e-19
+
+    def law(x):  # exponents capped far beyond any root (brentq's brackets reach them)
+        return (z.i_s_a * math.expm1(min(x / nvt, 700.0)) - z.ibv_a * math.exp(min(-(x + z.bv_v) / nvt, 700.0))
+                + x / z.r_p_ohm)
+
+    def pair(v):  # current from t into the pair [A]
+        if v == 0.0:
+            return 0.0
+        m = brentq(lambda m: -law(m - v) - law(m), min(0.0, v), max(0.0, v), xtol=1e-15, rtol=1e-15)
+        return law(m)
+
+    for volts in (0.5, 3.0, 6.0, 8.0, 30.0, 300.0, -30.0):
+        v_t = brentq(lambda v: (volts - v) / 1e4 - v / 500.0 - pair(v), min(0.0, volts), max(0.0, volts),
+                     xtol=1e-15, rtol=1e-15)
+        op = eng.operate("P", [volts])
+        # the movement current against the reference: 1e-9 relative (the brief's agreement)
+        np.testing.assert_allclose(op.movement_current_a[0, 0], v_t / 500.0, rtol=1e-9)
+        # a cold start near the solution: five or six steps (19 to 21 started on the exponential)
+        assert op.solution.iterations <= 12, (volts, op.solution.iterations)

@@ -131,18 +131,22 @@ def _hot_readings(design: Design, t_hot: float) -> dict:
     return out
 
 
-def _judge_protection(spec, req, t_hot: float, bare: dict, share: float, say) -> dict | None:
-    """One protection combination sized and judged, or None when the sizer refuses it."""
+def _judge_protection(spec, req, t_hot: float, bare: dict, share: float, say, known: dict | None = None) -> dict | None:
+    """One protection combination sized and judged, or None when the sizer refuses it.
+
+    ``known``: its matrix score when already judged (the project's own combination),
+    so that only its price is found here.
+    """
     try:
         design = build(replace(spec, protection=req))
-        faults = faults_project(design)
+        score = known if known is not None else matrix_score(faults_project(design))
     except PlannerError as e:
         say(f"protection {describe(req)}: not buildable ({e})")
         return None
     hot = _hot_readings(design, t_hot)
     cls = spec.movement.class_index
     price = max((abs(hot[k] - bare.get(k, hot[k])) * 100.0 for k in hot), default=0.0)
-    return {"protection": as_dict(req), "label": describe(req), "matrix": matrix_score(faults),
+    return {"protection": as_dict(req), "label": describe(req), "matrix": score,
             "price_pct": price, "price_share": price / (share * cls) if cls > 0 else 0.0,
             "parts_added": _parts_added(req)}
 
@@ -239,7 +243,7 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
                     row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
                            "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
                     if req is not None:  # its price against no protection parts at all
-                        row = _judge_protection(base_spec, req, t_hot, bare, share, say) or row
+                        row = _judge_protection(base_spec, req, t_hot, bare, share, say, base_matrix) or row
                 else:
                     row = _judge_protection(base_spec, req, t_hot, bare, share, say)
                 if row is not None:

@@ -89,7 +89,7 @@ class LinearNetwork:
         net = self._net(shorted)
         st = nw.position_states(net)[[p.name for p in net.positions].index(pos.name)]
         try:
-            c = nw.compile_state(self.spec, st, net=net)
+            c = nw.compiled(self.spec, st, net=net)
             dt = np.zeros((1, 1))
             r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
                                 for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))

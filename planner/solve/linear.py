@@ -67,64 +67,14 @@ class LinearPart:
 
     def __init__(self, circuit, r, emf=None, skip=()):
         p = r.shape[0]
-        n = circuit.n_nodes
         held = circuit.held
         voltage = circuit.source_kind == "voltage"
-        fixed = {0} | ({held} if held is not None else set())
-        node_sets = [circuit.port_a, circuit.port_c]
-        self.touched = sorted({int(x) for arr in node_sets for x in arr if int(x) not in fixed})
-        tset = set(self.touched)
-        lin_nodes = {int(x) for x in circuit.lin_a} | {int(x) for x in circuit.lin_b}
-        # ``skip``: nodes nothing reaches by construction (the inner nodes of a stack solved as
-        # one junction); any other node without a branch makes the network singular
-        self.interior = [i for i in range(n) if i not in fixed and i not in tset and i not in skip]
-        self.floating = np.array([m not in lin_nodes for m in self.touched], dtype=bool)
-        self.anchors = np.nonzero(~self.floating)[0]
-        # anchors whose linear part reaches the reference or the held node (the others hang in an
-        # island that only nonlinear parts join to the rest: its open-circuit voltage is undefined)
-        parent = list(range(n))
-
-        def find(x):
-            while parent[x] != x:
-                parent[x] = parent[parent[x]]
-                x = parent[x]
-            return x
-
-        for a, b in zip(circuit.lin_a.tolist(), circuit.lin_b.tolist()):
-            parent[find(a)] = find(b)
-        roots = {find(x) for x in fixed}
-        self.grounded = np.array([find(self.touched[k]) in roots for k in self.anchors], dtype=bool)
+        fixed, self.touched, self.interior, self.floating, self.anchors, self.grounded, self.t_pos, self.i_pos, \
+            anchor_nodes, f, pos, s_ff, s_h, s_e = _structure(circuit, tuple(skip))
         self.circuit = circuit
         self.held = held
         t, ni, na = len(self.touched), len(self.interior), len(self.anchors)
-        self.t_pos = {node: k for k, node in enumerate(self.touched)}
-        self.i_pos = {node: k for k, node in enumerate(self.interior)}
-        # free nodes ordered interior first, then anchors (floating nodes have no linear part)
-        anchor_nodes = [self.touched[k] for k in self.anchors]
-        free = self.interior + anchor_nodes
-        f = len(free)
-        pos = np.full(n, -1, dtype=np.intp)
-        pos[free] = np.arange(f)
         lin = len(circuit.branches)
-        s_ff = np.zeros((lin, f * f))
-        s_h = np.zeros((lin, f))
-        s_e = np.zeros((lin, f))  # current into each free node per unit g*e of each branch
-        for j, (a, b) in enumerate(zip(circuit.lin_a, circuit.lin_b)):
-            ia, ib = pos[int(a)], pos[int(b)]
-            if ia >= 0:
-                s_ff[j, ia * f + ia] += 1.0
-                s_e[j, ia] += 1.0
-            if ib >= 0:
-                s_ff[j, ib * f + ib] += 1.0
-                s_e[j, ib] -= 1.0
-            if ia >= 0 and ib >= 0:
-                s_ff[j, ia * f + ib] -= 1.0
-                s_ff[j, ib * f + ia] -= 1.0
-            if held is not None:  # the held node at 1 V drives its neighbours
-                if int(b) == held and ia >= 0:
-                    s_h[j, ia] += 1.0
-                if int(a) == held and ib >= 0:
-                    s_h[j, ib] += 1.0
         has_emf = emf is not None and bool(np.any(emf != 0.0))
         self.ys = np.zeros((p, na, na))
         self.d = np.zeros((p, t))
@@ -195,6 +145,86 @@ class LinearPart:
         if i in self.i_pos:
             return "interior", self.i_pos[i]
         return "none", 0
+
+
+#: Structures of compiled circuits (:func:`_structure`) by their index arrays; cleared when it holds this many.
+STRUCTURES_KEEP = 256
+_STRUCTURES: dict = {}
+
+
+def _structure(circuit, skip: tuple):
+    """What :class:`LinearPart` needs of a circuit's topology alone, made once per topology.
+
+    Kept by the circuit's index arrays (the stacks' reduced circuits are new objects on
+    every solve, with the same arrays); the arrays are read, never written.
+    The touched, interior, floating and anchor nodes, the anchors that reach the reference
+    or the held node, the free nodes' order and the stamp matrices (each branch's
+    conductance into the free nodes' matrix, from the held node, of its EMF).
+    """
+    key = (circuit.n_nodes, circuit.held, circuit.source_kind, circuit.inject, skip,
+           circuit.lin_a.tobytes(), circuit.lin_b.tobytes(), circuit.port_a.tobytes(), circuit.port_c.tobytes())
+    hit = _STRUCTURES.get(key)
+    if hit is not None:
+        return hit
+    n = circuit.n_nodes
+    held = circuit.held
+    fixed = {0} | ({held} if held is not None else set())
+    node_sets = [circuit.port_a, circuit.port_c]
+    touched = sorted({int(x) for arr in node_sets for x in arr if int(x) not in fixed})
+    tset = set(touched)
+    lin_nodes = {int(x) for x in circuit.lin_a} | {int(x) for x in circuit.lin_b}
+    # ``skip``: nodes nothing reaches by construction (the inner nodes of a stack solved as
+    # one junction); any other node without a branch makes the network singular
+    interior = [i for i in range(n) if i not in fixed and i not in tset and i not in skip]
+    floating = np.array([m not in lin_nodes for m in touched], dtype=bool)
+    anchors = np.nonzero(~floating)[0]
+    # anchors whose linear part reaches the reference or the held node (the others hang in an
+    # island that only nonlinear parts join to the rest: its open-circuit voltage is undefined)
+    parent = list(range(n))
+
+    def find(x):
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    for a, b in zip(circuit.lin_a.tolist(), circuit.lin_b.tolist()):
+        parent[find(a)] = find(b)
+    roots = {find(x) for x in fixed}
+    grounded = np.array([find(touched[k]) in roots for k in anchors], dtype=bool)
+    t_pos = {node: k for k, node in enumerate(touched)}
+    i_pos = {node: k for k, node in enumerate(interior)}
+    # free nodes ordered interior first, then anchors (floating nodes have no linear part)
+    anchor_nodes = [touched[k] for k in anchors]
+    free = interior + anchor_nodes
+    f = len(free)
+    pos = np.full(n, -1, dtype=np.intp)
+    pos[free] = np.arange(f)
+    lin = len(circuit.branches)
+    s_ff = np.zeros((lin, f * f))
+    s_h = np.zeros((lin, f))
+    s_e = np.zeros((lin, f))  # current into each free node per unit g*e of each branch
+    for j, (a, b) in enumerate(zip(circuit.lin_a, circuit.lin_b)):
+        ia, ib = pos[int(a)], pos[int(b)]
+        if ia >= 0:
+            s_ff[j, ia * f + ia] += 1.0
+            s_e[j, ia] += 1.0
+        if ib >= 0:
+            s_ff[j, ib * f + ib] += 1.0
+            s_e[j, ib] -= 1.0
+        if ia >= 0 and ib >= 0:
+            s_ff[j, ia * f + ib] -= 1.0
+            s_ff[j, ib * f + ia] -= 1.0
+        if held is not None:  # the held node at 1 V drives its neighbours
+            if int(b) == held and ia >= 0:
+                s_h[j, ia] += 1.0
+            if int(a) == held and ib >= 0:
+                s_h[j, ib] += 1.0
+    out = (fixed, touched, interior, floating, anchors, grounded, t_pos, i_pos, anchor_nodes, f, pos, s_ff, s_h, s_e)
+    if len(_STRUCTURES) >= STRUCTURES_KEEP:
+        _STRUCTURES.clear()
+    _STRUCTURES[key] = out
+    return out
 
 
 def isolated_hint(circuit) -> str:

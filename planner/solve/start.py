@@ -198,8 +198,17 @@ def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
         r = r_th + sum(parts[d].r_s for d in chosen)
         cur = single_diode(o * v_th, r, np.exp(ln_is), nvt)
         options.append((o, chosen, np.where(np.isfinite(cur), cur, 0.0), nvt, r))
-    if not options:  # back to back: no direction conducts; share the voltage
-        steps_v = [v_th / k] * k
+    if not options:  # back to back: no direction conducts forward
+        # the groups that block the case's polarity share its voltage; a group that the
+        # polarity biases forward starts at 0 V (it carries only the blocking ones' leakage
+        # or breakdown current; started on its exponential, Newton would walk it down by
+        # about n V_t a step)
+        blocks = {o: [all(od != o for _, od in g) for g in sg.steps] for o in (1.0, -1.0)}
+        positive = v_th >= 0
+        steps_v = [np.where(positive, v_th / sum(blocks[1.0]) if bp else 0.0,
+                            v_th / sum(blocks[-1.0]) if bn else 0.0)
+                   for bp, bn in zip(blocks[1.0], blocks[-1.0])]
+        steps_v = _carry_leak(parts, sg, blocks, positive, steps_v)
         for g, v in zip(sg.steps, steps_v):
             for d, o in g:
                 w[d] = parts[d].start_limits(o * v)
@@ -219,6 +228,38 @@ def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
         if w_p[d] is not w_n[d]:
             w[d] = np.where(better, w_n[d], w_p[d])
     return np.where(better, c_n, c_p), [np.where(better, b_, a_) for a_, b_ in zip(sv_p, sv_n)]
+
+
+def _carry_leak(parts, sg, blocks, positive, steps_v):
+    """Back-to-back groups: a group biased forward starts where it carries what the blocking ones pass.
+
+    The blocking groups' current at their share (leakage, or breakdown clipped to BV) is
+    the series current; a group biased forward then sits at n V_t ln(1 + I / I_s) of its
+    most conducting part in that direction (its own law, R_s and G_p left out).
+    """
+    with np.errstate(all="ignore"):
+        for o, mask in ((1.0, positive), (-1.0, ~positive)):
+            if not np.any(mask):
+                continue
+            i_series = None
+            for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
+                if not blocking:
+                    continue
+                i_g = sum(np.abs(parts[d].current(parts[d].start_limits(od * v))) for d, od in g)
+                i_series = i_g if i_series is None else np.minimum(i_series, i_g)
+            if i_series is None:
+                continue
+            out = []
+            for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
+                if blocking:
+                    out.append(v)
+                    continue
+                best = max((d for d, od in g if od == o), key=lambda d: float(np.max(parts[d].i_s)))
+                pb = parts[best]
+                vf = pb.nvt * np.log1p(i_series / pb.i_s)
+                out.append(np.where(mask & np.isfinite(vf), o * vf, v))
+            steps_v = out
+    return steps_v
 
 
 def _chain_by_bisection(rows, sg, v_th, r_th, w, iterations: int = 80):

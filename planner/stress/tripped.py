@@ -15,6 +15,8 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
+import numpy as np
+
 from ..engine import Engine
 from ..parts.ptc import TrippedPtc, tripped_resistance_ohm
 from .waveforms import solve_waveforms
@@ -82,11 +84,15 @@ def settle(engine: Engine, st, stimulus, *, temperature_k=None, n_phase=None):
     v0 = max(abs(stimulus.value), 1.0) if stimulus.kind == "voltage" else 1e3
     x = {n: math.log(v0 * v0 / m.tripped_power_w) for n, m in models.items()}
     prev = None
-    eng = engine
+    # one network with each held part at 1 ohm, its resistance given as a factor per step
+    # (the same resistances as a network per step, without building one each time)
+    unit = _with(engine, {n: 1.0 for n in models})
+    used = x
     wf = None
     for _ in range(SETTLE_MAX):
-        eng = _with(engine, {n: math.exp(v) for n, v in x.items()})
-        wf = solve_waveforms(eng, st, [stimulus], temperature_k=temperature_k, n_phase=n_phase)[0]
+        used = x
+        wf = solve_waveforms(unit, st, [stimulus], temperature_k=temperature_k, n_phase=n_phase,
+                             factors={n: np.array([math.exp(v)]) for n, v in x.items()})[0]
         g = {}
         for n, m in models.items():
             v = wf.voltage_v[n]
@@ -105,4 +111,4 @@ def settle(engine: Engine, st, stimulus, *, temperature_k=None, n_phase=None):
                     new[n] = x[n] + step
         prev = (next(iter(x.values())), next(iter(h.values()))) if len(x) == 1 else None
         x = new
-    return eng, wf
+    return _with(engine, {n: math.exp(v) for n, v in used.items()}), wf

@@ -64,11 +64,21 @@ def stress_elements(engine: Engine) -> list:
     return [e for e in engine.net.elements if e.rated]
 
 
+#: :func:`input_connected` by topology (:func:`planner.network.topology_key`); cleared at this many.
+_CONNECTED: dict = {}
+CONNECTED_KEEP = 4096
+
+
 def input_connected(engine: Engine, st: nw.SwitchState) -> bool:
-    """Whether a path joins the input terminals of a switch state."""
-    g = nw.active_graph(engine.net, st)
-    plus, minus = st.position.input
-    return nx.has_path(g, plus, minus)
+    """Whether a path joins the input terminals of a switch state (found once per topology)."""
+    key = nw.topology_key(engine.net, st)
+    if key not in _CONNECTED:
+        g = nw.active_graph(engine.net, st)
+        plus, minus = st.position.input
+        if len(_CONNECTED) >= CONNECTED_KEEP:
+            _CONNECTED.clear()
+        _CONNECTED[key] = nx.has_path(g, plus, minus)
+    return _CONNECTED[key]
 
 
 def cycle_stats(x) -> dict:
@@ -106,7 +116,7 @@ def cycle_stats(x) -> dict:
 
 
 def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
-                    n_phase: int | None = None) -> list[Waveform]:
+                    n_phase: int | None = None, factors=None) -> list[Waveform]:
     """Solve several stimuli on one switch state, batched by source kind.
 
     Parameters
@@ -119,6 +129,9 @@ def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
         Ambient temperature [K]; the reference temperature by default.
     n_phase : int, optional
         Phase points per sine cycle; ``PHASE_POINTS`` by default.
+    factors : mapping, optional
+        Multipliers of nominal values per designator (:meth:`Engine.operate`), one
+        value for every stimulus.
 
     Returns
     -------
@@ -149,7 +162,7 @@ def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
         groups.setdefault(key, []).append(j)
     for (kind, has_r), idx in groups.items():
         for j, wf in zip(idx, _solve_group(engine, st, [stimuli[j] for j in idx], kind, has_r, temperature_k,
-                                           n_phase)):
+                                           n_phase, factors)):
             out[j] = wf
     return out
 
@@ -164,7 +177,8 @@ def _no_current(engine: Engine, st, s: Stimulus, n_phase: int) -> Waveform:
                     np.zeros(x.shape, dtype=bool), open_input=True)
 
 
-def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperature_k, n_phase: int) -> list[Waveform]:
+def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperature_k, n_phase: int,
+                 factors=None) -> list[Waveform]:
     """Stimuli of one source kind (and with or without a source impedance) in one batched solve."""
     elements = stress_elements(engine)
     plus, minus = st.position.input
@@ -172,7 +186,7 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
     width = max(len(r) for r in rows)
     stim = np.array([np.resize(r, width) for r in rows])
     r_src = np.array([s.r_source_ohm for s in stimuli]) if has_r else 0.0
-    op = engine.operate(st, stim, kind=kind, temperature_k=temperature_k, r_source_ohm=r_src)
+    op = engine.operate(st, stim, kind=kind, temperature_k=temperature_k, r_source_ohm=r_src, factors=factors)
     sol = {
         "cur": {e.name: op.element(e.name).current_a for e in elements},
         "vol": {e.name: op.element(e.name).voltage_v for e in elements},
@@ -182,9 +196,9 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
         "limited": np.zeros(stim.shape, dtype=bool),
     }
     if kind == "voltage":
-        _cross_over(engine, st, stimuli, rows, sol, temperature_k)
+        _cross_over(engine, st, stimuli, rows, sol, temperature_k, factors)
     else:
-        _compliance(engine, st, stimuli, rows, sol, temperature_k)
+        _compliance(engine, st, stimuli, rows, sol, temperature_k, factors)
     out = []
     for row, s in enumerate(stimuli):
         n = len(rows[row])
@@ -198,7 +212,7 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
     return out
 
 
-def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
+def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k, factors=None) -> None:
     """Solve again, as a voltage source of the compliance, the samples where a current source runs out of voltage.
 
     A current source holds its current only up to its compliance voltage; beyond
@@ -210,7 +224,7 @@ def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
     """
     patch = _beyond(sol["v_t"], [s.compliance_v for s in stimuli], rows)
     if patch:
-        _patch(engine, st, patch, "voltage", sol, temperature_k)
+        _patch(engine, st, patch, "voltage", sol, temperature_k, factors)
 
 
 def _beyond(values: np.ndarray, limits: list, rows) -> list:
@@ -225,10 +239,11 @@ def _beyond(values: np.ndarray, limits: list, rows) -> list:
     return patch
 
 
-def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k) -> None:
+def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k, factors=None) -> None:
     """Solve the samples ``patch`` ((row, sample, value)) with a source of ``kind`` and write them into ``sol``."""
     plus, minus = st.position.input
-    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind=kind, temperature_k=temperature_k)
+    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind=kind, temperature_k=temperature_k,
+                         factors=None if factors is None else {k: np.asarray(v)[:1] for k, v in factors.items()})
     rr = np.array([p[0] for p in patch])
     kk = np.array([p[1] for p in patch])
     for e in stress_elements(engine):
@@ -246,7 +261,7 @@ def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k)
     sol["limited"][rr, kk] = True
 
 
-def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
+def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k, factors=None) -> None:
     """Solve again, as a current source of the limit, the samples where a source's current limit takes over.
 
     ``sol`` (the group's solved arrays: ``cur``, ``vol``, ``i_m``, ``i_src``,
@@ -254,4 +269,4 @@ def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
     """
     patch = _beyond(sol["i_src"], [s.current_limit_a for s in stimuli], rows)
     if patch:
-        _patch(engine, st, patch, "current", sol, temperature_k)
+        _patch(engine, st, patch, "current", sol, temperature_k, factors)

@@ -285,8 +285,19 @@ def check_decks(calls):
 
     for eng, state, kind, t_k, r_src, stim, factors, i_m in calls:
         stim = np.atleast_1d(stim)
-        if stim.ndim != 1:
-            raise ValueError("the check passed per-set stimuli; the benchmark expects one row")
+        if stim.ndim == 2 and stim.shape[0] > 1 and not np.all(stim == stim[:1]):
+            # per-set stimuli (each parameter set its own applied values): one deck per set
+            temps = np.broadcast_to(np.atleast_1d(eng.spec.ambient.t_ref_k if t_k is None else
+                                                  np.asarray(t_k, dtype=float)), (stim.shape[0],))
+            r_max = float(np.max(r_src))
+            for row in range(stim.shape[0]):
+                fac = None if factors is None else {k: float(np.broadcast_to(v, (stim.shape[0],))[row])
+                                                    for k, v in factors.items()}
+                makers.append(maker(eng, state, kind, stim[row], float(temps[row]), r_max, fac))
+                variants.append(None)
+                ours.append(i_m[row][None, :])
+            continue
+        stim = stim[0] if stim.ndim == 2 else stim
         temps = np.atleast_1d(eng.spec.ambient.t_ref_k if t_k is None else np.asarray(t_k, dtype=float))
         r_src = float(np.max(r_src))
         if temps.size > 1:  # one deck per temperature
