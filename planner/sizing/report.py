@@ -7,6 +7,7 @@ The JSON fields marked contract in the design are listed at :func:`sizing_json`.
 from __future__ import annotations
 
 from .. import writer
+from ..wiring import wire_switch, wiring_json
 from ..errors import ProjectError
 from ..model import Spec
 from ..tools import fmt, json_safe
@@ -20,7 +21,9 @@ def sizing_json(sizing: Sizing) -> dict:
 
     Contract fields: ``segments[]`` with ``name``, ``target_ohm``, ``achieved_ohm``,
     ``parts[]`` (``name``, ``value_ohm``, ``series``, ``trimmer``),
-    ``power_required_w``, ``voltage_required_v``. A figure that is not finite
+    ``power_required_w``, ``voltage_required_v``; ``switch.poles[]`` (``deck``,
+    ``pole``, ``common``, ``contacts[]`` with ``position`` and ``node``: the
+    wiring of :func:`planner.wiring.wire_switch`). A figure that is not finite
     (the nominal error of a position the estimate could not solve) is null.
     """
     segs = []
@@ -80,6 +83,7 @@ def sizing_json(sizing: Sizing) -> dict:
             }
             for p in sizing.positions
         ],
+        "switch": wiring_json(wire_switch(sizing.network, sizing.network.contact_style)),
         "flags": list(sizing.flags),
         "cautions": list(sizing.cautions),
         "notes": list(sizing.notes),
