@@ -39,6 +39,7 @@ from ..engine import Engine
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
 from ..sizing import sizing_json
+from ..wiring import choose_style, wire_switch
 from . import layout, sections
 from .sections import Context
 
@@ -119,6 +120,8 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.faults = faults.faults_project(design)
     except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["faults"] = _error_text(exc)
+    style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
+    ctx.wiring = wire_switch(design.net, style, style_source=source)
     extra = [c for c in faults.cautions_for(spec) if c not in ctx.cautions]
     ctx.cautions += extra
     return ctx

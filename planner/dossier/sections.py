@@ -19,7 +19,7 @@ from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer, Tabl
 from reportlab.platypus.tableofcontents import TableOfContents
 
 from ..model import Contact, Diode, Fuse, MovementElement, Resistor
-from . import charts, layout, schematic as sch
+from . import charts, layout, schematic as sch, wafer
 from .layout import (
     FRAME_WIDTH, INK, RULE, STYLES, VERDICT_FILL, VERDICT_TEXT, Heading, caution_box, esc, note_box, p, table,
 )
@@ -71,6 +71,7 @@ class Context:
     sizing: dict | None = None
     check: dict | None = None
     faults: dict | None = None
+    wiring: object = None  # planner.wiring.Wiring, rendered by planner.dossier.wafer
     errors: dict = field(default_factory=dict)
     cautions: list = field(default_factory=list)
     samples: int = 0
@@ -490,6 +491,7 @@ def schematic(ctx: Context) -> list:
     else:
         text += " Both make-before-break and break-before-make are checked in section 6."
     out.append(p(esc(text), "caption"))
+    out += wafer.wiring_flowables(ctx.wiring)
     out.append(p("Connection list", "h2"))
     out.append(table(["Node", "Pins on it"], [list(r) for r in sch.connection_rows(net)], [0.2, 0.8]))
     out.append(PageBreak())
