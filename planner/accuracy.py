@@ -478,7 +478,14 @@ def check_project(design: Design | Spec, *, samples: int | None = None, seed: in
     }
     if source_impedance_ohm is not None:
         result["source_impedance_ohm"] = source_impedance_ohm
-    outside = [p["name"] for p in positions if p["verdict"] != "within class"]
+    trims = getattr(design.sizing, "trims", ()) if spec.analysis.trim else ()
+    if spec.analysis.trim:  # the calibration simulated (planner.trim); the verdicts after trimming decide
+        from .trim import calibrated_check
+
+        say("calibration: trimmers set at their positions")
+        result.update(calibrated_check(run, trims, params, positions, float(spec.movement.class_index), int(seed)))
+    verdict = "verdict_after_trim" if trims else "verdict"
+    outside = [p["name"] for p in positions if p[verdict] != "within class"]
     result["positions_outside_class"] = outside
     result["requirements_met"] = not outside
     _assert_finite(result)

@@ -145,7 +145,7 @@ ELEMENT_KEYS = {
     "fuse": ("name", "kind", "between", "model"),
 }
 POSITION_KEYS = ("name", "measures", "full_scale", "input")
-ANALYSIS_KEYS = ("samples", "seed", "allowed_share")
+ANALYSIS_KEYS = ("samples", "seed", "allowed_share", "trim")
 
 _MAP_TAG = "tag:yaml.org,2002:map"
 _SEQ_TAG = "tag:yaml.org,2002:seq"
@@ -1379,7 +1379,7 @@ def _analysis(ctx: _Ctx, node: _Node | None) -> model.Analysis:
             f"analysis.allowed_share is {share:g}; it is a share of the class, at most 1 (100 %)",
             m.get("allowed_share").line,
         )
-    return model.Analysis(samples=samples, seed=seed, allowed_share=share)
+    return model.Analysis(samples=samples, seed=seed, allowed_share=share, trim=m.boolean("trim", False))
 
 
 # --- command line for checking one file ----------------------------------------------------

@@ -1,0 +1,436 @@
+"""Trimmers and calibration: where one calibration point removes the tolerance spread.
+
+With ``analysis.trim: true`` the sizer (:func:`plan_trims`, run after the value
+choice) makes a part of some segments a fixed part plus a trimmer in series:
+
+1. the swamping resistor, calibrated at the lowest current range (it sets the
+   ratio of the meter branch to the ring or shunt: the coil's, the full-scale
+   current's and the ring's tolerances at once);
+2. the lowest voltage range's own multiplier segment, calibrated at that range's
+   full scale (the coil's and the full-scale current's tolerance and that segment's);
+3. each higher voltage range whose first-order tolerance stack, after the trims
+   below it, still exceeds :data:`TRIM_SHARE` of the class: its own segment, at its
+   full scale, lowest range first (in a chain the lower segments are then right).
+
+Shunts and ring taps are not trimmed: a trimmer's wiper resistance and drift are of
+the order of a low-value shunt (common practice: select them on test).
+
+:func:`calibrated_check` then simulates the calibration in :func:`planner.accuracy`'s
+check: for every tolerance corner, each trimmer in order is set (within its span) so
+that its position reads its full scale exactly; what is left at full scale is the
+worst case after trimming, to which the trimmer's setting resolution and its drift
+are added (they are what a calibration cannot remove; the temperature error is
+reported apart, as before trimming).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import eseries
+from .model import Resistor, Spec
+from .tools import fmt
+
+__all__ = ["RESOLUTION", "DRIFT", "TEMPCO", "END_TOLERANCE", "TRIM_SHARE", "Trim", "trimmer_value", "plan_trims",
+           "calibrate", "calibrated_check"]
+
+#: Setting resolution of a multiturn cermet trimmer, a share of its span (from memory: a
+#: 25-turn trimmer set to about a fortieth of a turn).
+RESOLUTION = 1e-3
+#: Setting stability (drift of the set value over time and shock), a share of its span
+#: (from memory: makers' figures for multiturn cermet trimmers, 0.05 to 0.2 %).
+DRIFT = 1e-3
+#: Temperature coefficient of the trimmer's resistance [1/K] (from memory: cermet, +-100 ppm/K).
+TEMPCO = 100e-6
+#: End-to-end tolerance of a trimmer: the span it surely reaches is (1 - this) x its value
+#: (from memory: +-10 % for cermet trimmers).
+END_TOLERANCE = 0.1
+#: The span covers this many times the spread it must remove (headroom for a part at its limit).
+SPAN_MARGIN = 1.25
+#: A higher range gets a trimmer of its own when its tolerance stack after the lower trims
+#: exceeds this share of the class index.
+TRIM_SHARE = 0.5
+#: Common trimmer values: 1-2-5 steps (common practice).
+TRIMMER_STEPS = (1.0, 2.0, 5.0)
+#: Iterations of the setting search (false position, Illinois variant).
+SEARCH_STEPS = 60
+
+
+@dataclass(frozen=True)
+class Trim:
+    """One calibration point: a trimmer in series with a fixed part, set at one position.
+
+    Attributes
+    ----------
+    order : int
+        Step of the calibration (1 first).
+    part, fixed : str
+        Designators of the trimmer and of the fixed part in series with it.
+    segment : str
+        The sizer's segment they make.
+    position : str
+        The position at which it is set.
+    applied : float
+        The value applied to set it (the position's full scale) [V] or [A].
+    unit : str
+    fixed_ohm, span_ohm, setting_ohm : float
+        Fixed part, trimmer value (its span) and its nominal setting [ohm].
+    series : str
+        The series of the fixed part.
+    fixed_up_ohm, fixed_down_ohm : float
+        The next series values above and below the fixed part (what to fit when the span
+        is not enough) [ohm].
+    """
+
+    order: int
+    part: str
+    fixed: str
+    segment: str
+    position: str
+    applied: float
+    unit: str
+    fixed_ohm: float
+    span_ohm: float
+    setting_ohm: float
+    series: str
+    fixed_up_ohm: float
+    fixed_down_ohm: float
+
+    @property
+    def reach_ohm(self) -> float:
+        """The span the trimmer surely reaches, (1 - END_TOLERANCE) x its value [ohm]."""
+        return self.span_ohm * (1.0 - END_TOLERANCE)
+
+    @property
+    def range_ohm(self) -> tuple[float, float]:
+        """(low, high) resistance of the fixed part and trimmer together [ohm]."""
+        return (self.fixed_ohm, self.fixed_ohm + self.reach_ohm)
+
+
+def trimmer_value(span_ohm: float) -> float:
+    """Smallest common (1-2-5) trimmer value at least ``span_ohm`` [ohm]."""
+    dec = 10.0 ** math.floor(math.log10(span_ohm))
+    for d in (dec, 10 * dec):
+        for s in TRIMMER_STEPS:
+            if s * d >= span_ohm * (1 - 1e-12):
+                return s * d
+    return 10 * dec
+
+
+def _next_trimmer(value: float) -> float:
+    return trimmer_value(value * 1.0001)
+
+
+# --- the sizer's plan ---------------------------------------------------------------------------
+
+
+def _loop_tolerance(spec: Spec, net) -> float:
+    """Largest relative tolerance of a resistor or the coil, plus the full-scale current's [fraction]."""
+    mov = spec.movement
+    t = max([e.tolerance for e in net.elements if isinstance(e, Resistor)] + [mov.tolerance])
+    return t + mov.i_fs_tolerance
+
+
+def _calibration_points(spec: Spec, sizing) -> list[tuple[str, str, float]]:
+    """(segment, position, half-span to remove [ohm]) in calibration order (see the module text)."""
+    mov = spec.movement
+    segs = {s.name: s for s in sizing.segments}
+    positions = list(sizing.network.positions)
+    t_all = _loop_tolerance(spec, sizing.network)
+    t_res = spec.parts.resistors.tolerance
+    cls = mov.class_index / 100.0
+    out = []
+    amps = sorted((p for p in positions if p.measures == "current"), key=lambda p: p.full_scale)
+    if amps and "swamp" in segs:
+        low = amps[0]
+        ring = sum(s.target_ohm for s in sizing.segments if s.role == "ring")
+        shunt = ring or next((s.target_ohm for s in sizing.segments if s.name == f"shunt {low.name}"), 0.0)
+        r_branch = mov.r_coil_ohm + segs["swamp"].target_ohm
+        t = t_all - mov.i_fs_tolerance
+        out.append(("swamp", low.name, 2.0 * t * r_branch + mov.i_fs_tolerance * (r_branch + shunt)))
+    volts = sorted((p for p in positions if p.measures == "voltage"), key=lambda p: p.full_scale)
+    chain = [p for p in volts if f"chain {p.name}" in segs]
+    separate = [p for p in volts if f"multiplier {p.name}" in segs]
+    if chain:
+        r_in = [p.full_scale / mov.i_fs_a for p in chain]
+        out.append((f"chain {chain[0].name}", chain[0].name, t_all * r_in[0]))
+        last = 0
+        for k in range(1, len(chain)):
+            stack = r_in[k] - r_in[last]
+            if (t_res + mov.i_fs_tolerance) * stack / r_in[k] > TRIM_SHARE * cls:
+                out.append((f"chain {chain[k].name}", chain[k].name, (t_res + mov.i_fs_tolerance) * stack))
+                last = k
+    for i, p in enumerate(separate):
+        r_in = p.full_scale / mov.i_fs_a
+        seg = segs[f"multiplier {p.name}"]
+        stack = (t_res * seg.target_ohm + mov.tolerance * mov.r_coil_ohm) / r_in + mov.i_fs_tolerance
+        if i == 0 or stack > TRIM_SHARE * cls:
+            out.append((seg.name, p.name, t_all * r_in))
+    return out
+
+
+def _fit(target: float, half: float, series: str) -> tuple[float, float] | None:
+    """(fixed, trimmer value) whose range holds ``target`` +- ``half``, or None when no fixed part fits."""
+    if target - half <= 0:
+        return None
+    span = trimmer_value(2.0 * half * SPAN_MARGIN / (1.0 - END_TOLERANCE))
+    fixed = eseries.at_or_below(series, target - half)
+    while fixed + span * (1.0 - END_TOLERANCE) < target + half:
+        span = _next_trimmer(span)
+    return fixed, span
+
+
+def plan_trims(spec: Spec, sizing):
+    """The sizing with its calibration trimmers (unchanged unless ``analysis.trim`` is true).
+
+    Parameters
+    ----------
+    spec : Spec
+    sizing : planner.sizing.Sizing
+
+    Returns
+    -------
+    planner.sizing.Sizing
+        Segments whose trimmed part is now a fixed part (same designator, a series value
+        at or below its share less the half-span) and a trimmer ``RVn`` in series below
+        it; the network likewise (the trimmer a resistor ``trimmer: true`` at its nominal
+        setting, no tolerance of its own, :data:`TEMPCO`); ``trims`` in calibration order.
+
+    Notes
+    -----
+    The half-span :math:`h` a trimmer must remove is the first-order tolerance stack of
+    the loop it is set in: :math:`h = (t + t_{I_{fs}}) R_{loop}` for the first trim of a
+    kind (:math:`t` the largest resistor or coil tolerance, :math:`R_{loop} = V/I_{fs}`
+    for a voltage range); for the swamp, whose change must also absorb the ring's or
+    shunt's tolerance, :math:`h = 2 t R_b + t_{I_{fs}} (R_b + R_{sh})` with the meter
+    branch :math:`R_b = R_m + R_{swamp}` and the ring or shunt :math:`R_{sh}`; and
+    :math:`h = (t_R + t_{I_{fs}})(R_{in,k} - R_{in,l})` for chain range :math:`k` above
+    the last trimmed range :math:`l`. The trimmer's value is the smallest 1-2-5 value at
+    least :math:`2 h \\times 1.25 / (1 - 0.1)`, raised until the fixed part (the series
+    value at or below the part's share less :math:`h`) and the trimmer reach the share
+    plus :math:`h`.
+
+    References
+    ----------
+    Series trimmer with a fixed part and calibration at full scale, lowest range first:
+    common practice of meter building.
+    """
+    if not spec.analysis.trim:
+        return sizing
+    segs = list(sizing.segments)
+    elements = list(sizing.network.elements)
+    trims, notes = [], list(sizing.notes)
+    index = {p.name: p for p in sizing.network.positions}
+    for seg_name, pos_name, half in _calibration_points(spec, sizing):
+        j = next(i for i, s in enumerate(segs) if s.name == seg_name)
+        seg = segs[j]
+        parallel = seg.arrangement == "parallel pair"
+        shares = [(seg.target_ohm, seg.parts[0])] if parallel else sorted(
+            ((q.target_ohm, q) for q in seg.parts), key=lambda x: x[0])
+        pick = next(((share, q) for share, q in shares if share > 2.0 * half), shares[-1])
+        share, part = pick
+        fit = _fit(share, half, sizing.series)
+        if fit is None:
+            notes.append(f"{seg_name}: no trimmer planned, its parts are smaller than the spread to remove "
+                         f"({fmt(half, 'ohm')}); select on test")
+            continue
+        fixed, span = fit
+        name = f"RV{len(trims) + 1}"
+        old = next(e for e in elements if e.name == part.name)
+        mid = f"{part.name.lower()}_{name.lower()}"
+        setting = share - fixed
+        fixed_el = dataclasses.replace(old, a=old.a, b=mid, value_ohm=fixed, target_ohm=fixed)
+        trim_el = Resistor(name, mid, old.b, setting, tolerance=0.0, tempco_per_k=TEMPCO, power_w=old.power_w,
+                           max_voltage_v=old.max_voltage_v, series=None, target_ohm=setting, group=seg.name,
+                           trimmer=True, line=old.line)
+        gone = {q.name for q in seg.parts} if parallel else {part.name}
+        at = elements.index(old)
+        elements[at:at + 1] = [fixed_el, trim_el]
+        elements = [e for e in elements if e.name not in gone or e is fixed_el]
+        plans = []
+        for q in seg.parts:
+            if q.name == part.name:
+                plans.append(dataclasses.replace(q, value_ohm=fixed, target_ohm=fixed, b=mid))
+                plans.append(dataclasses.replace(q, name=name, value_ohm=span, series="trimmer 1-2-5",
+                                                 target_ohm=setting, trimmer=True, a=mid))
+            elif q.name not in gone:
+                plans.append(q)
+        achieved = seg.target_ohm if parallel else seg.achieved_ohm - part.value_ohm + share
+        segs[j] = dataclasses.replace(seg, parts=tuple(plans), achieved_ohm=achieved,
+                                      arrangement=("fixed" if parallel else seg.arrangement) + " + trimmer")
+        pos = index[pos_name]
+        trims.append(Trim(len(trims) + 1, name, part.name, seg.name, pos_name, float(pos.full_scale), pos.unit,
+                          fixed, span, setting, sizing.series, eseries.at_or_above(sizing.series, fixed * 1.0001),
+                          eseries.at_or_below(sizing.series, fixed * 0.9999)))
+    net = dataclasses.replace(sizing.network, elements=tuple(elements))
+    return dataclasses.replace(sizing, segments=tuple(segs), network=net, trims=tuple(trims), notes=tuple(notes))
+
+
+# --- the calibration, simulated ---------------------------------------------------------------
+
+
+def calibrate(run, trims, factors: dict, builds: int) -> tuple[dict, np.ndarray]:
+    """Set every trimmer in order, build by build, so that its position reads its full scale.
+
+    Parameters
+    ----------
+    run : Engine or planner.accuracy.CountingEngine
+        Anything with ``operate(position, stimulus, factors=)``.
+    trims : sequence of Trim
+    factors : dict
+        Tolerance factors of the builds, arrays of shape (builds,).
+    builds : int
+
+    Returns
+    -------
+    factors : dict
+        The same builds with each trimmer's setting as a factor of its nominal setting.
+    short : ndarray of bool, shape (len(trims), builds)
+        Where a trimmer reached an end of its span before its position read full scale.
+
+    Notes
+    -----
+    The reading is monotonic in the trimmer's resistance; the setting is found by false
+    position with the Illinois step between the ends of its reach (the span it surely
+    reaches), to :math:`10^{-9}` of full scale; a build whose target lies beyond an end
+    is set at that end and counted short.
+
+    References
+    ----------
+    M. Dowell and P. Jarratt, "A modified regula falsi method for computing the root of
+    an equation", BIT 11, 168-174, 1971.
+    """
+    out = {k: np.asarray(v, dtype=float) * np.ones(builds) for k, v in factors.items()}
+    short = np.zeros((len(trims), builds), dtype=bool)
+    for i, t in enumerate(trims):
+        lo = np.full(builds, max(1e-4 * t.span_ohm, 1e-6) / t.setting_ohm)
+        hi = np.full(builds, t.reach_ohm / t.setting_ohm)
+
+        def err(f):
+            out[t.part] = f
+            return run.operate(t.position, [t.applied], factors=out).reading()[:, 0] / t.applied - 1.0
+
+        e_lo, e_hi = err(lo), err(hi)
+        beyond = np.sign(e_lo) == np.sign(e_hi)
+        short[i] = beyond & (e_lo != 0)
+        x = np.where(np.abs(e_lo) < np.abs(e_hi), lo, hi)
+        a, b, fa, fb = lo.copy(), hi.copy(), e_lo.copy(), e_hi.copy()
+        side = np.zeros(builds)
+        for _ in range(SEARCH_STEPS):
+            if not np.any(~beyond):
+                break
+            c = np.where(beyond, x, (a * fb - b * fa) / np.where(fb != fa, fb - fa, 1.0))
+            fc = err(c)
+            x = c
+            keep_b = np.sign(fc) == np.sign(fa)  # c replaces a
+            a, fa, b, fb = (np.where(keep_b, c, a), np.where(keep_b, fc, fa),
+                            np.where(keep_b, b, c), np.where(keep_b, fb, fc))
+            fb = np.where(keep_b & (side == -1), fb / 2.0, fb)  # b kept twice: halve it (Illinois)
+            fa = np.where(~keep_b & (side == 1), fa / 2.0, fa)
+            side = np.where(keep_b, -1, 1)
+            if np.all(np.abs(fc[~beyond]) < 1e-11):
+                break
+        out[t.part] = x
+    return out, short
+
+
+def _signs(k: int, rng, most: int = 12, sampled: int = 512) -> np.ndarray:
+    if k <= most:
+        idx = np.arange(2 ** k)[:, None]
+        return ((idx >> np.arange(k)[None, :]) & 1) * 2.0 - 1.0
+    return rng.choice([-1.0, 1.0], size=(sampled, k))
+
+
+def calibrated_check(run, trims, params, positions: list[dict], class_index: float, seed: int) -> dict:
+    """The worst case after trimming of every position, and the calibration procedure.
+
+    Parameters
+    ----------
+    run : CountingEngine
+    trims : sequence of Trim
+    params : list of Parameter
+        Every toleranced parameter of the network.
+    positions : list of dict
+        The check's ``positions[]`` (updated in place: ``worst_case_after_trim_pct``,
+        ``trim_resolution_pct``, ``trim_drift_pct``, ``budget_after_trim_pct``,
+        ``verdict_after_trim``).
+    class_index : float
+    seed : int
+
+    Returns
+    -------
+    dict
+        ``trim[]`` (``order``, ``part``, ``position``, ``applied``, ``range_ohm``
+        [low, high], ``fixed``, ``fixed_ohm``, ``trimmer_ohm``, ``setting_ohm``,
+        ``target_reading``, ``span_reading_pct`` [low, high], ``short_fraction``,
+        ``if_short``), ``calibration[]`` (the procedure, one text per step) and
+        ``trim_method``.
+
+    Notes
+    -----
+    Every corner of the tolerance box (every parameter at an extreme; all :math:`2^k`
+    corners for :math:`k \\le 12`, else 512 seeded random corners) is calibrated by
+    :func:`calibrate`; the worst |error| at full scale over them is what the tolerances
+    leave. The trimmer adds its setting resolution and its drift,
+    :math:`|e(s + \\rho S)| + |e(s + \\delta S)|` summed over the trimmers
+    (:math:`S` its value, :math:`\\rho` = :data:`RESOLUTION`, :math:`\\delta` =
+    :data:`DRIFT`, :math:`e` the change of the full-scale error from the nominal
+    setting :math:`s`). The budget after trimming adds the temperature error.
+    """
+    from .accuracy import _factors_from_signs
+
+    signs = _signs(len(params), np.random.default_rng([int(seed), 7]))
+    method = "every corner" if len(params) <= 12 else f"{len(signs)} random corners"
+    builds = max(1, len(signs))
+    base = _factors_from_signs(params, signs) if params else {}
+    cal, short = calibrate(run, trims, base, builds)
+    nominal = {t.part: np.ones(1) for t in trims}
+    for q in positions:
+        fs = q["full_scale"]
+        e = (run.operate(q["name"], [fs], factors=cal).reading()[:, 0] - fs) / fs * 100.0
+        e0 = float((run.operate(q["name"], [fs], factors=nominal).reading()[0, 0] - fs) / fs * 100.0)
+        res = drift = 0.0
+        for t in trims:
+            for share, key in ((RESOLUTION, "res"), (DRIFT, "drift")):
+                moved = dict(nominal)
+                moved[t.part] = np.ones(1) * (1.0 + share * t.span_ohm / t.setting_ohm)
+                d = abs(float((run.operate(q["name"], [fs], factors=moved).reading()[0, 0] - fs) / fs * 100.0) - e0)
+                if key == "res":
+                    res += d
+                else:
+                    drift += d
+        worst = float(np.max(np.abs(e))) + res + drift
+        q["worst_case_after_trim_pct"] = worst
+        q["trim_resolution_pct"] = res
+        q["trim_drift_pct"] = drift
+        q["budget_after_trim_pct"] = worst + q["temperature_error_pct"]
+        q["verdict_after_trim"] = "within class" if q["budget_after_trim_pct"] <= class_index else "outside class"
+    rows, steps = [], []
+    for i, t in enumerate(trims):
+        ends = []
+        for f in (max(1e-4 * t.span_ohm, 1e-6) / t.setting_ohm, t.reach_ohm / t.setting_ohm):
+            moved = dict(nominal)
+            moved[t.part] = np.ones(1) * f
+            ends.append(float(run.operate(t.position, [t.applied], factors=moved).reading()[0, 0]))
+        rises = ends[1] > ends[0]  # does more resistance raise the reading?
+        span_pct = sorted((r - t.applied) / t.applied * 100.0 for r in ends)
+        up, down = fmt(t.fixed_up_ohm, "ohm"), fmt(t.fixed_down_ohm, "ohm")
+        high_fix, low_fix = (down, up) if rises else (up, down)
+        if_short = (f"if {t.part} reaches the end of its travel with the meter still reading high, replace "
+                    f"{t.fixed} ({fmt(t.fixed_ohm, 'ohm')}) by {high_fix}; still reading low, by {low_fix}; then "
+                    f"set {t.part} again and repeat the steps after this one")
+        rows.append({"order": t.order, "part": t.part, "fixed": t.fixed, "segment": t.segment,
+                     "position": t.position, "applied": t.applied, "unit": t.unit,
+                     "range_ohm": list(t.range_ohm), "fixed_ohm": t.fixed_ohm, "trimmer_ohm": t.span_ohm,
+                     "setting_ohm": t.setting_ohm, "target_reading": t.applied, "span_reading_pct": span_pct,
+                     "short_fraction": float(np.mean(short[i])) if short.size else 0.0, "if_short": if_short})
+        steps.append(f"{t.order}. Set the switch to {t.position} and apply {fmt(t.applied, t.unit)} from a "
+                     f"calibrator; adjust {t.part} ({fmt(t.span_ohm, 'ohm')} trimmer in series with {t.fixed}, "
+                     f"{fmt(t.fixed_ohm, 'ohm')}) until the meter reads {fmt(t.applied, t.unit)} (full scale). "
+                     f"Its travel moves the reading from {span_pct[0]:+.2f} % to {span_pct[1]:+.2f} % of full scale "
+                     f"with nominal parts. {if_short[0].upper()}{if_short[1:]}.")
+    return {"trim": rows, "calibration": steps, "trim_method": method}

@@ -1,0 +1,101 @@
+"""Checks of trimmers and the simulated calibration (planner.trim), against hand calculations.
+
+The one-range example: a 10 V voltmeter on a 50 uA / 2 kohm movement (coil 2 %, full-scale
+current 1 %), E96 resistors of 1 %, 25 ppm/K, no clamps. Its input resistance is
+R_in = V / I_fs = 10 V / 50 uA = 200 kohm and the multiplier 198 kohm (handbook formula,
+R = V / I_fs - R_m: common practice).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from planner.accuracy import check_project
+from planner.design import build
+from planner.project import load
+from planner.sizing import size
+from planner.trim import DRIFT, END_TOLERANCE, RESOLUTION, TEMPCO, trimmer_value
+
+ONE_RANGE = """\
+title: One-range trim example (an invented scenario)
+movement: {full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 1, tolerance: 2 %, full_scale_tolerance: 1 %}
+ambient: {reference: 23 degC, min: 15 degC, max: 31 degC}
+parts:
+  resistors: {series: E96, tolerance: 1 %, tempco: 25 ppm/K, power: 0.25 W, max_voltage: 250 V}
+voltage: {arrangement: chain, full_scales: [10 V]}
+analysis: {trim: TRIM, samples: 200}
+"""
+
+
+@pytest.fixture(scope="module")
+def one_range(tmp_path_factory):
+    path = tmp_path_factory.mktemp("trim") / "one.yaml"
+    path.write_text(ONE_RANGE.replace("TRIM", "true"))
+    return load(path)
+
+
+def test_trimmer_values_are_1_2_5_steps():
+    # common trimmer values, 1-2-5 per decade (common practice)
+    assert [trimmer_value(x) for x in (0.9, 1.0, 1.1, 4.9, 5.1, 16.7e3, 2.1e5)] == [1, 1, 2, 5, 10, 20e3, 5e5]
+
+
+def test_one_range_plan_is_a_fixed_part_and_a_trimmer_covering_the_spread(one_range):
+    sizing = size(one_range)
+    (t,) = sizing.trims
+    # hand: the spread to remove is (largest tolerance 2 % + I_fs 1 %) x 200 kohm = 6 kohm either way
+    half = (0.02 + 0.01) * 200e3
+    assert t.position == "10 V" and t.applied == 10.0 and t.order == 1
+    lo, hi = t.range_ohm
+    share = t.fixed_ohm + t.setting_ohm  # what the fixed part and the trimmer make at the nominal setting
+    assert lo <= share - half and hi >= share + half
+    assert t.span_ohm == trimmer_value(t.span_ohm) and t.reach_ohm == pytest.approx(t.span_ohm * (1 - END_TOLERANCE))
+    seg = sizing.segment("chain 10 V")
+    assert [p.trimmer for p in seg.parts].count(True) == 1
+    np.testing.assert_allclose(seg.achieved_ohm, 198e3, rtol=1e-12)  # the nominal setting makes the target
+    rv = sizing.network.element(t.part)
+    assert rv.trimmer and rv.tolerance == 0.0 and rv.tempco_per_k == TEMPCO
+
+
+def test_without_the_key_nothing_is_trimmed(tmp_path):
+    path = tmp_path / "plain.yaml"
+    path.write_text(ONE_RANGE.replace("TRIM", "false"))
+    spec = load(path)
+    assert size(spec).trims == ()
+    assert "trim" not in check_project(build(spec), samples=50)
+
+
+def test_worst_case_after_trim_is_resolution_plus_drift(one_range):
+    design = build(one_range)
+    (t,) = design.sizing.trims
+    result = check_project(design, samples=200)
+    (q,) = result["positions"]
+    # Hand calculation. Every corner is calibrated to read 10 V exactly, so what is left is
+    # the trimmer: a setting error dR moves the reading of a series voltmeter by
+    # dR / (R_in + dR) of full scale (reading = V / (R_in I_fs) x FS), with R_in = 200 kohm
+    # at the calibrated setting. Resolution dR = RESOLUTION x span, drift dR = DRIFT x span
+    # (planner.trim's stated trimmer figures, "from memory").
+    r_in = 10.0 / 50e-6
+    hand_res = 100.0 * RESOLUTION * t.span_ohm / (r_in + RESOLUTION * t.span_ohm)
+    hand_drift = 100.0 * DRIFT * t.span_ohm / (r_in + DRIFT * t.span_ohm)
+    np.testing.assert_allclose(q["trim_resolution_pct"], hand_res, rtol=1e-6)  # solver agreement
+    np.testing.assert_allclose(q["trim_drift_pct"], hand_drift, rtol=1e-6)
+    # the corners leave nothing but the search tolerance (1e-9 of full scale)
+    np.testing.assert_allclose(q["worst_case_after_trim_pct"], hand_res + hand_drift, atol=1e-6)
+    # before trimming the tolerances alone are about 3 % (2 % coil and 1 % parts and 1 % I_fs, first order)
+    assert q["worst_case_error_pct"] > 2.0
+    # temperature is not removed by trimming: the budget adds it unchanged
+    np.testing.assert_allclose(q["budget_after_trim_pct"], q["worst_case_after_trim_pct"] + q["temperature_error_pct"],
+                               rtol=1e-12)
+    # hand: temperature change of R_in over 23 -> 15 degC (the larger swing is 8 K): coil
+    # 3930 ppm/K x 2 kohm, fixed parts 25 ppm/K, trimmer 100 ppm/K at its setting
+    mov = one_range.movement
+    fixed = 198e3 - t.setting_ohm
+    dr = 8.0 * (mov.tempco_per_k * 2e3 + 25e-6 * fixed + TEMPCO * t.setting_ohm)
+    np.testing.assert_allclose(q["temperature_error_pct"], 100.0 * dr / (r_in - dr), rtol=2e-2)  # first order
+    assert q["verdict_after_trim"] == "within class" and q["verdict"] == "outside class"
+    assert result["requirements_met"]
+    (row,) = result["trim"]
+    assert {"order", "part", "position", "applied", "range_ohm"} <= set(row)
+    assert row["range_ohm"] == [t.fixed_ohm, t.fixed_ohm + t.reach_ohm] and row["short_fraction"] == 0.0
+    assert result["calibration"][0].startswith("1. Set the switch to 10 V")
