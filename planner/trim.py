@@ -381,12 +381,13 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
     :data:`DRIFT`, :math:`e` the change of the full-scale error from the nominal
     setting :math:`s`). The budget after trimming adds the temperature error.
     """
-    from .accuracy import _factors_from_signs
-
     signs = _signs(len(params), np.random.default_rng([int(seed), 7]))
     method = "every corner" if len(params) <= 12 else f"{len(signs)} random corners"
     builds = max(1, len(signs))
-    base = _factors_from_signs(params, signs) if params else {}
+    base = {}
+    for j, p in enumerate(params):  # each parameter at its low or its high extreme
+        lo, hi = p.extremes()
+        base[p.key] = np.where(signs[:, j] > 0, hi, lo)
     cal, short = calibrate(run, trims, base, builds)
     nominal = {t.part: np.ones(1) for t in trims}
     for q in positions:
