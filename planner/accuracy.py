@@ -478,6 +478,9 @@ def check_project(design: Design | Spec, *, samples: int | None = None, seed: in
     }
     if source_impedance_ohm is not None:
         result["source_impedance_ohm"] = source_impedance_ohm
+    from .testpoints import test_points
+
+    result["test_points"] = test_points(engine, engine.net)  # named by the parts' pins, at full scale
     trims = getattr(design.sizing, "trims", ()) if spec.analysis.trim else ()
     if spec.analysis.trim:  # the calibration simulated (planner.trim); the verdicts after trimming decide
         from .trim import calibrated_check

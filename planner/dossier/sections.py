@@ -19,6 +19,7 @@ from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer, Tabl
 from reportlab.platypus.tableofcontents import TableOfContents
 
 from ..model import Contact, Diode, Fuse, MovementElement, Resistor
+from ..testpoints import pin_names
 from . import charts, layout, schematic as sch, wafer
 from .layout import (
     FRAME_WIDTH, INK, RULE, STYLES, VERDICT_FILL, VERDICT_TEXT, Heading, caution_box, esc, note_box, p, table,
@@ -1079,7 +1080,10 @@ def build(ctx: Context) -> list:
         steps.append("Voltage ranges next, lowest range first: " + ", ".join(q.name for q in vpos) + ". In a "
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
-    if trims:
+    calibration = (ctx.check or {}).get("calibration") or []
+    if calibration:  # planner.trim: the trimmers in order, each at its own position
+        steps += [c.split(". ", 1)[1] for c in calibration]
+    elif trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
     else:
@@ -1100,16 +1104,19 @@ def build(ctx: Context) -> list:
         out.append(caution_box(title, lines))
         out.append(Spacer(1, 4))
     out.append(p("Voltage of each node against the input's minus terminal with the full-scale value applied to each "
-                 "position (nominal parts, reference temperature). Node names are those of the schematic. A dash: "
+                 "position (nominal parts, reference temperature). Node names are those of the schematic, each with the part pin to probe. A dash: "
                  "the node is not connected in that position.", "small"))
     names = [q.name for q in net.positions]
+    pins = pin_names(net)  # planner.testpoints: each node named by the parts' pins on it
     per = 6
     for start in range(0, len(names), per):
         chunk = names[start:start + per]
         rows = []
         for n in nodes:
-            rows.append([n] + [quantity(volts[(n, q)], "V", 4) if (n, q) in volts else None for q in chunk])
-        out.append(table(["Node"] + chunk, rows, [0.16] + [0.84 / per] * len(chunk), align="l" + "r" * len(chunk)))
+            where = f"{n}: {pins[n]['name']}" if n in pins else n
+            rows.append([where] + [quantity(volts[(n, q)], "V", 4) if (n, q) in volts else None for q in chunk])
+        out.append(table(["Node: probe at"] + chunk, rows, [0.28] + [0.72 / per] * len(chunk),
+                         align="l" + "r" * len(chunk)))
         out.append(Spacer(1, 6))
     # acceptance
     out.append(CondPageBreak(220))
