@@ -489,7 +489,7 @@ def check_project(design: Design | Spec, *, samples: int | None = None, seed: in
         result.update(calibrated_check(run, trims, params, positions, float(spec.movement.class_index), int(seed)))
     verdict = "verdict_after_trim" if trims else "verdict"
     outside = [p["name"] for p in positions if p[verdict] != "within class"]
-    result["positions_outside_class"] = outside
+    result["positions_outside_class"] = outside  # after trimming, where trimmers are planned
     result["requirements_met"] = not outside
     _assert_finite(result)
     return result
@@ -574,6 +574,9 @@ def format_check(result: dict) -> str:
         lines.append(f"{p['name']:<12}{s['mean']:+.3f} +/- {s['std']:.3f}  [{s['p1']:+.3f}, {s['p99']:+.3f}]   "
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
+    from .trim import format_trim
+
+    lines += format_trim(result)
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:
         lines.append("RESULT: requirement met - every position within class")

@@ -135,7 +135,7 @@ def cmd_size(args) -> int:
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
-    result = sizing_json(sizing)
+    result = sizing_json(sizing, spec)
     if args.write_network:
         if emit(args.write_network, network_yaml(spec, sizing), protect=[args.project]):
             print(f"wrote {args.write_network}", file=sys.stderr)

@@ -36,7 +36,7 @@ from .model import Resistor, Spec
 from .tools import fmt
 
 __all__ = ["RESOLUTION", "DRIFT", "TEMPCO", "END_TOLERANCE", "TRIM_SHARE", "Trim", "trimmer_value", "plan_trims",
-           "calibrate", "calibrated_check"]
+           "calibrate", "calibrated_check", "format_trim"]
 
 #: Setting resolution of a multiturn cermet trimmer, a share of its span (from memory: a
 #: 25-turn trimmer set to about a fortieth of a turn).
@@ -372,27 +372,45 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
 
     Notes
     -----
-    Every corner of the tolerance box (every parameter at an extreme; all :math:`2^k`
-    corners for :math:`k \\le 12`, else 512 seeded random corners) is calibrated by
-    :func:`calibrate`; the worst |error| at full scale over them is what the tolerances
-    leave. The trimmer adds its setting resolution and its drift,
+    Every corner of the tolerance box (every parameter at an extreme) is calibrated by
+    :func:`calibrate` for :math:`k \\le 12` parameters, and the worst |error| at full
+    scale over them is what the tolerances leave. Above 12, as in the check's worst
+    case: each parameter alone at its extremes, calibrated, gives the first-order bound
+    :math:`\\max(|e_c + \\sum_j \\max(\\Delta_j^\\pm, 0)|, |e_c + \\sum_j \\min(\\Delta_j^\\pm, 0)|)`,
+    never taken smaller than 512 seeded random corners, calibrated. The trimmer adds its
+    setting resolution and its drift,
     :math:`|e(s + \\rho S)| + |e(s + \\delta S)|` summed over the trimmers
     (:math:`S` its value, :math:`\\rho` = :data:`RESOLUTION`, :math:`\\delta` =
     :data:`DRIFT`, :math:`e` the change of the full-scale error from the nominal
     setting :math:`s`). The budget after trimming adds the temperature error.
     """
-    signs = _signs(len(params), np.random.default_rng([int(seed), 7]))
-    method = "every corner" if len(params) <= 12 else f"{len(signs)} random corners"
-    builds = max(1, len(signs))
+    k = len(params)
+    signs = _signs(k, np.random.default_rng([int(seed), 7]))
+    bound = k > 12
+    method = ("every corner, calibrated" if not bound else
+              f"first-order bound over each parameter's calibrated extremes, checked against {len(signs)} "
+              "calibrated random corners")
+    builds = (2 * k + 1 if bound else 0) + len(signs)
     base = {}
     for j, p in enumerate(params):  # each parameter at its low or its high extreme
         lo, hi = p.extremes()
-        base[p.key] = np.where(signs[:, j] > 0, hi, lo)
-    cal, short = calibrate(run, trims, base, builds)
+        corners = np.where(signs[:, j] > 0, hi, lo)
+        if bound:  # nominal, then each parameter alone at its low and its high extreme
+            alone = np.ones(2 * k + 1)
+            alone[1 + 2 * j], alone[2 + 2 * j] = lo, hi
+            corners = np.concatenate([alone, corners])
+        base[p.key] = corners
+    cal, short = calibrate(run, trims, base, max(1, builds))
     nominal = {t.part: np.ones(1) for t in trims}
     for q in positions:
         fs = q["full_scale"]
         e = (run.operate(q["name"], [fs], factors=cal).reading()[:, 0] - fs) / fs * 100.0
+        left = float(np.max(np.abs(e)))
+        if bound:
+            e_c, d_lo, d_hi = e[0], e[1:2 * k + 1:2] - e[0], e[2:2 * k + 1:2] - e[0]
+            hi_sum = e_c + np.sum(np.maximum(np.maximum(d_lo, d_hi), 0.0))
+            lo_sum = e_c + np.sum(np.minimum(np.minimum(d_lo, d_hi), 0.0))
+            left = max(left, float(abs(hi_sum)), float(abs(lo_sum)))
         e0 = float((run.operate(q["name"], [fs], factors=nominal).reading()[0, 0] - fs) / fs * 100.0)
         res = drift = 0.0
         for t in trims:
@@ -404,7 +422,7 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
                     res += d
                 else:
                     drift += d
-        worst = float(np.max(np.abs(e))) + res + drift
+        worst = left + res + drift
         q["worst_case_after_trim_pct"] = worst
         q["trim_resolution_pct"] = res
         q["trim_drift_pct"] = drift
@@ -435,3 +453,24 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
                      f"Its travel moves the reading from {span_pct[0]:+.2f} % to {span_pct[1]:+.2f} % of full scale "
                      f"with nominal parts. {if_short[0].upper()}{if_short[1:]}.")
     return {"trim": rows, "calibration": steps, "trim_method": method}
+
+
+def format_trim(result: dict) -> list[str]:
+    """Terminal lines of the calibration: the worst case after trimming and the procedure (none without trims)."""
+    if "trim" not in result:
+        return []
+    if not result["trim"]:
+        return ["", "analysis.trim: no trimmer planned (trimmers are planned for sized networks: give voltage or "
+                    "current ranges, or mark a part 'trimmer: true' and calibrate it by hand)"]
+    lines = ["", f"after trimming ({result['trim_method']}; trimmer resolution and drift added), "
+                 "% of full scale:",
+             f"{'position':<12}{'worst %':>9}{'resol. %':>10}{'drift %':>9}{'temp %':>8}{'budget %':>10}  verdict"]
+    for p in result["positions"]:
+        lines.append(f"{p['name']:<12}{p['worst_case_after_trim_pct']:>9.3f}{p['trim_resolution_pct']:>10.3f}"
+                     f"{p['trim_drift_pct']:>9.3f}{p['temperature_error_pct']:>8.3f}{p['budget_after_trim_pct']:>10.3f}"
+                     f"  {p['verdict_after_trim']}")
+    lines += ["", "calibration, in this order:"] + [f"  {s}" for s in result["calibration"]]
+    short = [t for t in result["trim"] if t["short_fraction"] > 0]
+    for t in short:
+        lines.append(f"  note: {t['part']} runs out of span in {100 * t['short_fraction']:.1f} % of the corners")
+    return lines
