@@ -8,6 +8,8 @@ R = V / I_fs - R_m: common practice).
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -99,3 +101,12 @@ def test_worst_case_after_trim_is_resolution_plus_drift(one_range):
     assert {"order", "part", "position", "applied", "range_ohm"} <= set(row)
     assert row["range_ohm"] == [t.fixed_ohm, t.fixed_ohm + t.reach_ohm] and row["short_fraction"] == 0.0
     assert result["calibration"][0].startswith("1. Set the switch to 10 V")
+
+
+def test_an_explicit_network_gets_no_trimmer(tmp_path):
+    text = (Path(__file__).resolve().parent.parent / "projects" / "pocket_voltmeter.yaml").read_text()
+    path = tmp_path / "pocket.yaml"
+    path.write_text(text.replace("title:", "analysis: {trim: true}\ntitle:", 1))
+    result = check_project(build(load(path)), samples=50)
+    assert result["trim"] == [] and result["calibration"] == []
+    assert all("verdict_after_trim" in q for q in result["positions"])
