@@ -69,6 +69,10 @@ def sizing_json(sizing: Sizing, spec: Spec | None = None) -> dict:
             }
         )
     extra = {"test_points": linear_test_points(spec, sizing.network)} if spec is not None else {}
+    if sizing.trims:  # analysis.trim: the calibration points (planner check simulates them)
+        extra["trim"] = [{"order": t.order, "part": t.part, "fixed": t.fixed, "segment": t.segment,
+                          "position": t.position, "applied": t.applied, "range_ohm": list(t.range_ohm),
+                          "trimmer_ohm": t.span_ohm, "setting_ohm": t.setting_ohm} for t in sizing.trims]
     return json_safe({
         "series": sizing.series,
         "allowed_error_pct": sizing.allowed_error_pct,
