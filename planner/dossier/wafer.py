@@ -34,7 +34,8 @@ def _face(d: Drawing, wiring, poles, cx: float, cy: float, r: float, title: str)
         x, y = cx + r * math.cos(a), cy + r * math.sin(a)
         hit = used.get(k)
         d.add(Circle(x, y, 2.6, strokeColor=INK, strokeWidth=0.7, fillColor=INK if hit else None))
-        d.add(String(cx + (r - 10) * math.cos(a), cy + (r - 10) * math.sin(a) - FONT / 3, str(k),
+        b = a - 0.14  # beside the blade's path, not under it
+        d.add(String(cx + (r - 11) * math.cos(b), cy + (r - 11) * math.sin(b) - FONT / 3, str(k),
                      fontName="Helvetica", fontSize=FONT, fillColor=MUTED, textAnchor="middle"))
         if hit:
             pole, t = hit
@@ -72,15 +73,16 @@ def wafer_drawing(wiring, deck: int, width: float = FRAME_WIDTH) -> Drawing:
     -------
     reportlab.graphics.shapes.Drawing
     """
-    height = 0.46 * width
+    rows = (FONT + 3) * wiring.poles_per_face  # the common labels under each face
+    r = 0.13 * width
+    height = 2 * r + 70 + rows
     d = Drawing(width, height)
-    r = min(0.16 * width, 0.3 * height)
     poles = wiring.deck_poles(deck)
     for i, face in enumerate(("front", "rear")):
         on = [q for q in poles if q.face == face]
         cx = width * (0.25 + 0.5 * i)
         title = f"Deck {deck}, {face} face ({on[0].blade if on else 'unused'})"
-        _face(d, wiring, on, cx, height / 2 + 2, r, title)
+        _face(d, wiring, on, cx, height - r - 36, r, title)
     return d
 
 
