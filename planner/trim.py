@@ -452,7 +452,15 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
                      f"{fmt(t.fixed_ohm, 'ohm')}) until the meter reads {fmt(t.applied, t.unit)} (full scale). "
                      f"Its travel moves the reading from {span_pct[0]:+.2f} % to {span_pct[1]:+.2f} % of full scale "
                      f"with nominal parts. {if_short[0].upper()}{if_short[1:]}.")
-    return {"trim": rows, "calibration": steps, "trim_method": method}
+    out = {"trim": rows, "calibration": steps, "trim_method": method}
+    if not trims:
+        engine = getattr(run, "engine", run)
+        marked = [e.name for e in engine.net.elements if getattr(e, "trimmer", False)]
+        out["trim_note"] = (f"the network's trimmers ({', '.join(marked)}) stand at their nominal settings: the "
+                            "calibration is simulated for sized networks only" if marked else
+                            "no trimmer planned: trimmers are planned for sized networks (give voltage or current "
+                            "ranges), or mark a part 'trimmer: true' and calibrate it by hand")
+    return out
 
 
 def format_trim(result: dict) -> list[str]:
@@ -460,8 +468,7 @@ def format_trim(result: dict) -> list[str]:
     if "trim" not in result:
         return []
     if not result["trim"]:
-        return ["", "analysis.trim: no trimmer planned (trimmers are planned for sized networks: give voltage or "
-                    "current ranges, or mark a part 'trimmer: true' and calibrate it by hand)"]
+        return ["", f"analysis.trim: {result.get('trim_note', 'no trimmer planned')}"]
     lines = ["", f"after trimming ({result['trim_method']}; trimmer resolution and drift added), "
                  "% of full scale:",
              f"{'position':<12}{'worst %':>9}{'resol. %':>10}{'drift %':>9}{'temp %':>8}{'budget %':>10}  verdict"]
