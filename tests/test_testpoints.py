@@ -45,3 +45,21 @@ def test_voltage_at_full_scale_against_a_hand_calculation(multimeter):
     # the movement's + terminal: I_fs x R_m = 50 uA x 2 kohm = 100 mV on a voltage range
     m = {v["position"]: v["voltage_v"] for v in rows["m_plus"]["voltages"]}
     np.testing.assert_allclose(m["10 V"], 0.1, rtol=1e-3)  # clamp leakage
+
+
+def test_check_and_size_json_carry_the_test_points():
+    from planner.accuracy import check_project
+    from planner.sizing import size, sizing_json
+
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    rows = check_project(build(spec), samples=20)["test_points"]
+    assert {r["node"] for r in rows} == {n for e in build(spec).net.elements for n in e.nodes}
+    t1 = next(r for r in rows if r["node"] == "t1")
+    assert t1["name"] == "R1 end toward R2"
+    # hand: on the 0.5 V range t1 is the input itself (S1 closed): 0.5 V
+    np.testing.assert_allclose({v["position"]: v["voltage_v"] for v in t1["voltages"]}["0.5 V"], 0.5, rtol=1e-9)
+    sized = load(ROOT / "projects" / "bench_multimeter.yaml")
+    tp = {r["node"]: r for r in sizing_json(size(sized), sized)["test_points"]}
+    # the linear estimate (diodes out): 50 uA x 600 kohm = 30 V, as by hand above
+    np.testing.assert_allclose({v["position"]: v["voltage_v"] for v in tp["r9_r10"]["voltages"]}["50 V"], 30.0,
+                               rtol=1e-9)

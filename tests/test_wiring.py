@@ -186,3 +186,24 @@ def test_either_style_takes_the_fewer_decks_and_json_carries_the_contract_fields
         assert all({"position", "node"} <= set(c) for c in pole["contacts"])
     assert choose_style(None, "break_before_make") == ("break_before_make", "faults")
     assert choose_style("make_before_break", "break_before_make") == ("make_before_break", "declared")
+
+
+def test_size_json_carries_the_switch(capsys, monkeypatch):
+    """planner size --json: switch.poles[] (deck, pole, common, contacts[] with position and node)."""
+    import json
+
+    from planner.cli import main
+
+    monkeypatch.chdir(ROOT)
+    main(["size", "projects/bench_multimeter.yaml", "--json"])
+    switch = json.loads(capsys.readouterr().out)["switch"]
+    net = build(load(ROOT / "projects" / "bench_multimeter.yaml")).net
+    contacts = {e.name: e for e in net.elements if e.stamp == "switch"}
+    seen = set()
+    for pole in switch["poles"]:
+        per_position = [c["position"] for c in pole["contacts"]]
+        assert len(per_position) == len(set(per_position))  # never two closed in one position
+        for c in pole["contacts"]:
+            assert {pole["common"], c["node"]} == set(contacts[c["contact"]].nodes)
+            seen.add(c["contact"])
+    assert seen == set(contacts) and switch["decks"] == 2
