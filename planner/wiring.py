@@ -263,7 +263,8 @@ def wire_switch(net: NetworkSpec, style: str | None = None, *, style_source: str
         ``contact_style_needed``, or the network's declared ``contact_style``).
         ``either``: both styles pass; the one that needs fewer decks is taken
         (break-before-make on a tie). None: not decided yet (the wiring is that
-        of make-before-break, and a note says the faults analysis decides).
+        of make-before-break, and a note says the faults analysis decides);
+        ``neither``: likewise, with a note that no style survives.
     style_source : str, optional
         Where ``style`` came from, for the record.
 
@@ -293,7 +294,8 @@ def wire_switch(net: NetworkSpec, style: str | None = None, *, style_source: str
         a = wire_switch(net, MAKE_BEFORE_BREAK, style_source="chosen")
         b = wire_switch(net, BREAK_BEFORE_MAKE, style_source="chosen")
         return a if a.decks < b.decks else b
-    if style == "neither":
+    neither = style == "neither"
+    if neither:
         style = None
     source = style_source or ("declared" if style is not None else "undecided")
     positions = tuple(p.name for p in net.positions)
@@ -329,7 +331,10 @@ def wire_switch(net: NetworkSpec, style: str | None = None, *, style_source: str
             pins.sort(key=lambda t: t.terminal)
             poles.append(Pole(deck, face, len([p for p in poles if p.deck == deck]) + 1, common, blade, tuple(pins)))
     notes = []
-    if style is None:
+    if neither:
+        notes.append("neither contact style survives every switch transition (planner faults): every blade is "
+                     "drawn shorting (make-before-break) until the protection is improved")
+    elif style is None:
         notes.append("contact style not decided: every blade is drawn shorting (make-before-break); "
                      "planner faults reports the style the transitions need (contact_style_needed)")
     if style == BREAK_BEFORE_MAKE and any(p.blade == SHORTING for p in poles):
