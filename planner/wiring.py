@@ -339,7 +339,8 @@ def wire_switch(net: NetworkSpec, style: str | None = None, *, style_source: str
                      "planner faults reports the style the transitions need (contact_style_needed)")
     if style == BREAK_BEFORE_MAKE and any(p.blade == SHORTING for p in poles):
         runs = sorted({c for p in poles if p.blade == SHORTING for c in p.members})
-        notes.append(f"break-before-make switch: {', '.join(runs)} {'closes' if len(runs) == 1 else 'close'} in adjacent "
+        verb = "closes" if len(runs) == 1 else "close"
+        notes.append(f"break-before-make switch: {', '.join(runs)} {verb} in adjacent "
                      "positions and must stay made between them "
                      "(as the faults analysis assumes), so each is on a shorting blade of a deck of its own kind; "
                      "at the ends of a run it makes before and breaks after the other poles")
@@ -380,7 +381,8 @@ def problems(net: NetworkSpec, wiring: Wiring) -> list[str]:
         for t in p.contacts:
             where.setdefault(t.contact, []).append((p, t))
             if t.position in seen and seen[t.position] != t.contact:
-                out.append(f"deck {p.deck} pole {p.pole}: {seen[t.position]} and {t.contact} both closed in {t.position}")
+                out.append(f"deck {p.deck} pole {p.pole}: {seen[t.position]} and {t.contact} "
+                           f"both closed in {t.position}")
             seen[t.position] = t.contact
     for e in net.elements:
         if e.stamp != "switch":
