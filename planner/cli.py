@@ -14,6 +14,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import re
 import sys
 
 from . import __version__
@@ -21,10 +22,22 @@ from . import __version__
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
+#: An option value that starts with a minus sign: a negative number (with an exponent or
+#: a unit, '-1e11', '-5 V'), or a non-finite one; argparse alone takes '-1e11' for an option.
+_NEGATIVE_VALUE = re.compile(r"^-(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?(?:\s.*)?$|^-(?:inf|infinity|nan)$", re.I)
+
+
 class _Parser(argparse.ArgumentParser):
-    """argparse that reports usage errors as one line with exit code 2."""
+    """argparse that reports usage errors as one line with exit code 2 and takes negative values."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = _NEGATIVE_VALUE
 
     def error(self, message):
+        m = re.match(r"argument (-[-\w]+)(?:/[-\w]+)*: expected one argument", message)
+        if m:  # a value that looks like an option: say how to give it
+            message += f"; a value starting with '-' is written {m.group(1)}=VALUE, e.g. {m.group(1)}=-1e11"
         self.exit(EXIT_INPUT, f"{self.prog}: {message} (see '{self.prog} --help')\n")
 
 
@@ -67,35 +80,68 @@ def _end_progress(show) -> None:
 
 
 def _load(args):
-    from .project import load
+    from .project import load, same_meter
 
-    return load(args.project)
+    spec = load(args.project)
+    same_meter(spec)  # ranges and a network in one file: the same meter, or say which to remove
+    return spec
 
 
-def _design(spec):
+def _design(spec, position=None):
     """The command's one Design (sized where the file asks, its graph checked)."""
     from .design import build
+    from .ohms import zeroed_design
 
-    return build(spec)
+    return zeroed_design(build(spec), position)  # zero adjusters set at the nominal battery (docs/ohms.md)
 
 
-def _quantity(text: str, dimension: str, option: str) -> float:
-    """A command-line quantity: a bare number in SI units or a number with a unit."""
+def _quantity(text: str, dimension: str, option: str, check: str | None = None) -> float:
+    """A command-line quantity: a number with a unit, or a bare number in SI units (degC for a
+    temperature), checked as the project file checks the same value (:mod:`planner.values`)."""
     from .errors import UsageError
-    from .units import parse
+    from .units import QuantityError
+    from .values import option_quantity
 
     try:
-        value = float(text)
-    except ValueError:
-        value = None
-    if value is not None:
-        if not math.isfinite(value) or abs(value) > 1e12:
-            raise UsageError(f"{option}: {text!r} is not a usable number; give a finite value such as 10 or '10 V'")
-        return value
+        return option_quantity(text, dimension, option, check)
+    except QuantityError as exc:
+        raise UsageError(" ".join(exc.message.split())) from None
+
+
+def _options(args) -> None:
+    """Check and convert the options every command shares, with the project file's limits and
+    wording (:mod:`planner.values`), before the file is read: whole numbers to int, quantities
+    to SI floats (``args.volts`` [V], ``args.amps`` [A], ``args.source_impedance`` [ohm],
+    ``args.temperature`` [K])."""
+    from .errors import UsageError
+    from .project.limits import MAX_SAMPLES, MAX_SEED
+    from .units import QuantityError
+    from .values import ambient_temperature, calendar_date, option_whole, sine_rms
+
     try:
-        return parse(text, dimension, where=option)
-    except Exception as exc:  # the parser's own message, as one line
-        raise UsageError(f"{option}: {' '.join(str(exc).split())}") from None
+        if getattr(args, "samples", None) is not None:
+            args.samples = option_whole(args.samples, "--samples", 2, MAX_SAMPLES, "2000")
+        if getattr(args, "seed", None) is not None:
+            args.seed = option_whole(args.seed, "--seed", 0, MAX_SEED, "1")
+        if getattr(args, "max_candidates", None) is not None:
+            args.max_candidates = option_whole(args.max_candidates, "--max-candidates", 10, None, "2000")
+        waveform = getattr(args, "waveform", None) or "dc"
+        for option, kind in (("volts", "voltage"), ("amps", "current")):
+            text = getattr(args, option, None)
+            if text is not None:
+                setattr(args, option, sine_rms(_quantity(text, kind, f"--{option}", "nonzero"), waveform, f"--{option}"))
+        if getattr(args, "ohms", None) is not None:
+            # 0 ohm is a short across an ohms range (apply: the zero check); netlist asks for more itself
+            args.ohms = _quantity(args.ohms, "resistance", "--ohms", "nonneg")
+        if getattr(args, "source_impedance", None) is not None:
+            args.source_impedance = _quantity(args.source_impedance, "resistance", "--source-impedance", "nonneg")
+        if getattr(args, "date", None) is not None:
+            args.date = calendar_date(args.date, "--date")
+        if getattr(args, "temperature", None) is not None:
+            args.temperature = ambient_temperature(
+                _quantity(args.temperature, "temperature", "--temperature", "pos"), "--temperature")
+    except QuantityError as exc:
+        raise UsageError(" ".join(exc.message.split())) from None
 
 
 def _check_output(path: str, project: str, args=None) -> None:
@@ -134,30 +180,45 @@ def cmd_size(args) -> int:
     from .fsio import emit
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
 
+    from .findings import finding_lines, sizing_findings
+
+    if spec.network is not None and (spec.voltage is not None or spec.current is not None):
+        # both in one file (the loader has checked that they describe the same meter)
+        print(f"planner: note: {args.project} also gives an explicit network; 'size' sizes the ranges anew, "
+              "the other commands analyse the network as it is", file=sys.stderr)
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
     result = sizing_json(sizing, spec)
+    result["findings"] = sizing_findings(spec, sizing)
     if args.write_network:
         if emit(args.write_network, network_yaml(spec, sizing), protect=[args.project]):
             print(f"wrote {args.write_network}", file=sys.stderr)
         else:  # '-': stdout carries the network alone
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
-    _emit(args, result, format_sizing_table(sizing))
+    _emit(args, result, format_sizing_table(sizing) + _lines_tail(finding_lines(result["findings"])))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+
+
+def _lines_tail(lines: list) -> str:
+    """Extra report lines after a table (empty when there are none)."""
+    return "\n".join(lines) + "\n" if lines else ""
 
 
 def cmd_check(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .accuracy import check_project, format_check
+    from .accuracy import check, format_check
 
-    r_src = None if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
     design = _design(spec)
     show = _progress(args)
     try:
-        result = check_project(design, samples=args.samples, seed=args.seed, source_impedance_ohm=r_src, progress=show)
+        result = check(design, samples=args.samples, seed=args.seed, source_impedance_ohm=args.source_impedance,
+                       progress=show).json
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
-    _emit(args, result, format_check(result) + _cautions_tail(result))
+    from .findings import finding_lines
+
+    _emit(args, result, format_check(result) + _lines_tail(finding_lines(result.get("findings", [])))
+          + _cautions_tail(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 
 
@@ -188,39 +249,77 @@ def cmd_faults(args) -> int:
 
 def cmd_apply(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .model import ZERO_CELSIUS_K
     from .stress import apply_stimulus, format_apply
 
-    volts = None if args.volts is None else _quantity(args.volts, "voltage", "--volts")
-    amps = None if args.amps is None else _quantity(args.amps, "current", "--amps")
-    r_src = 0.0 if args.source_impedance is None else _quantity(args.source_impedance, "resistance", "--source-impedance")
-    temp = None
-    if args.temperature is not None:
-        try:
-            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC
-        except ValueError:
-            temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = apply_stimulus(_design(spec), args.position, volts=volts, amps=amps, r_source_ohm=r_src,
-                            temperature_k=temp, waveform=args.waveform)
-    _emit(args, result, format_apply(result))
+    volts, amps = args.volts, args.amps
+    r_src = 0.0 if args.source_impedance is None else args.source_impedance
+    ohms = args.ohms  # converted with every command's options [ohm]
+    if ohms is not None:  # a resistor across the input: 0 V behind R_x, the battery inside drives it
+        from .errors import UsageError
+
+        if args.source_impedance is not None:
+            raise UsageError("--ohms takes no --source-impedance: the resistor is the whole external circuit")
+        volts, r_src = 0.0, ohms
+    design = _design(spec, args.position)
+    result = apply_stimulus(design, args.position, volts=volts, amps=amps, r_source_ohm=r_src,
+                            temperature_k=args.temperature, waveform=args.waveform)
+    if ohms is not None:
+        from .engine import Engine
+        from .ohms import apply_reading
+
+        result["ohms"] = apply_reading(Engine(design), args.position, ohms, temperature_k=args.temperature)
+    text = format_apply(result)
+    if "ohms" in result:
+        o = result["ohms"]
+        text += "" if text.endswith("\n") else "\n"
+        text += (f"reads {_ohm_text(o['reading_ohm'])} for {_ohm_text(o['applied_ohm'])} (deflection "
+                 f"{o['deflection']:.4f}, centre {_ohm_text(o['center_ohm'])}, battery {o['battery_v']:g} V, zeroed)\n")
+    _emit(args, result, text)
     return EXIT_SHORT if result.get("verdict") in ("overstress", "hazard") else EXIT_OK
 
 
+def _ohm_text(x: float) -> str:
+    from .units import format_si
+
+    return "infinity" if x == float("inf") else format_si(x, "ohm", 4)
+
+
 def cmd_dossier(args) -> int:
-    spec = _load(args)  # before the heavy imports: bad input is answered sooner
-    from .dossier import build_dossier
     from .fsio import check_targets
 
     out = args.output or _default_pdf(args.project)
-    check_targets([out] + ([args.bom] if args.bom else []), protect=[args.project])
+    inputs = [args.project] + ([args.readings] if args.readings else [])
+    check_targets([out] + ([args.bom] if args.bom else []), protect=inputs)
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from .dossier import build_dossier
+
     design = _design(spec)
+    diagnosis = None
+    if args.readings:  # bad readings are bad input: exit 2 before anything is written
+        from .diagnose import diagnose, diagnosis_json
+
+        diagnosis = diagnosis_json(diagnose(spec, args.readings))
+    plate = _dossier_plate(design)
     show = _progress(args)
     try:
-        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show)
+        path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,
+                             plate=plate, diagnosis=diagnosis, readings=args.readings, protect=inputs[1:])
     finally:
         _end_progress(show)
-    print(f"wrote {path}" + (f" and {args.bom}" if args.bom else ""), file=sys.stderr)
+    for written in [path] + ([args.bom] if args.bom else []):  # every file written, one line each
+        print(f"wrote {written}", file=sys.stderr)
     return EXIT_OK
+
+
+def _dossier_plate(design):
+    """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
+    from .errors import PlannerError
+    from .scale import scale_project
+
+    try:
+        return scale_project(design)
+    except PlannerError as exc:
+        return exc.one_line()
 
 
 def cmd_protect(args) -> int:
@@ -243,25 +342,26 @@ def cmd_protect(args) -> int:
     finally:
         _end_progress(show)
     if args.write:
-        write_protected(design, result, args.write)
-        if args.write == "-":  # stdout carries the project alone
+        written = write_protected(design, result, args.write)
+        if written is None and args.write == "-":  # stdout carries a project: the one given, unchanged
+            sys.stdout.write("# planner protect: nothing protects better than this project as given; it is "
+                             "unchanged\n" + (spec.text or ""))
+            print("nothing protects better than the project as given: it is written unchanged", file=sys.stderr)
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
-        print(f"wrote {args.write}", file=sys.stderr)
+        if written is None:
+            print("nothing protects better than the project as given: nothing written", file=sys.stderr)
+        elif args.write == "-":  # stdout carries the project alone
+            return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
+        else:
+            print(f"wrote {args.write}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 
 
 def cmd_fit_diode(args) -> int:
     from .diodefit import fit, fit_json, format_fit, read_points
-    from .model import ZERO_CELSIUS_K
 
-    temp = None
-    if args.temperature is not None:
-        try:
-            temp = float(args.temperature) + ZERO_CELSIUS_K  # a bare number is in degC, as in the CSV
-        except ValueError:
-            temp = _quantity(args.temperature, "temperature", "--temperature")
-    result = fit(read_points(args.points), name=args.name, temperature_k=temp, xti=args.xti)
+    result = fit(read_points(args.points), name=args.name, temperature_k=args.temperature, xti=args.xti)
     _emit(args, fit_json(result), format_fit(result))
     if not result.usable:  # a verdict: the points are not a diode's; no model to paste
         more = len(result.problems) - 1
@@ -283,7 +383,12 @@ def cmd_scale(args) -> int:
     from .fsio import write_all
     from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
 
-    result = scale_project(_design(spec))
+    from .engine import Engine
+    from .ohms import scale_definitions
+
+    design = _design(spec)
+    engine = Engine(design)
+    result = scale_project(design, engine=engine, defs=scale_definitions(engine))
     title = f"{spec.title} \u2013 scale plate"
     items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
     if args.svg:
@@ -331,8 +436,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     sp = sub.add_parser("check", help="accuracy per position: nominal, linearity, tolerance, temperature, loading")
     common(sp)
-    sp.add_argument("--samples", type=int, help="Monte Carlo builds (default from the file, else 2000)")
-    sp.add_argument("--seed", type=int, help="Monte Carlo seed (default from the file, else 1)")
+    sp.add_argument("--samples", metavar="N", help="Monte Carlo builds (default from the file, else 2000)")
+    sp.add_argument("--seed", metavar="N", help="Monte Carlo seed (default from the file, else 1)")
     sp.add_argument("--source-impedance", metavar="R", help="impedance of the measured source, e.g. '100 kohm'")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_check)
@@ -350,6 +455,7 @@ def build_parser() -> argparse.ArgumentParser:
     g = sp.add_mutually_exclusive_group(required=True)
     g.add_argument("--volts", metavar="V", help="applied voltage (dc value or sine rms), e.g. 230 or '230 V'")
     g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="a resistor across the input of a resistance position, e.g. '4.7 kohm'")
     sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
     sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
     sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")
@@ -360,15 +466,17 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("-o", "--output", metavar="OUT.pdf", help="output file (default: <project>-dossier.pdf)")
     sp.add_argument("--bom", metavar="OUT.csv", help="also write the bill of materials as CSV to this file")
     sp.add_argument("--date", metavar="YYYY-MM-DD", help="date on the cover (default: the file's date)")
-    sp.add_argument("--samples", type=int, help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--samples", metavar="N", help="Monte Carlo builds for the accuracy section")
+    sp.add_argument("--readings", metavar="READINGS.csv",
+                    help="readings of the meter (position,applied,reading): adds the restoration section")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_dossier, json=False)
 
     sp = sub.add_parser("protect", help="search clamp placements and multiplier splits; write the chosen plan")
     common(sp)
     sp.add_argument("--share", metavar="S", help="share of the class the clamps may cost in linearity (default 0.25)")
-    sp.add_argument("--seed", type=int, help="seed of the search (default from the file)")
-    sp.add_argument("--max-candidates", type=int, default=2000, metavar="N", help="bound on candidates (default 2000)")
+    sp.add_argument("--seed", metavar="N", help="seed of the search (default from the file)")
+    sp.add_argument("--max-candidates", default=2000, metavar="N", help="bound on candidates (default 2000)")
     sp.add_argument("-o", "--write", metavar="OUT.yaml",
                     help="write the project with the chosen placement ('-': to stdout, instead of the table)")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
@@ -390,6 +498,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--svg", metavar="PLATE.svg", help="also write the plate as SVG (millimetre units)")
     sp.set_defaults(func=cmd_scale)
     _add_diagnose(sub)
+    _add_netlist(sub)
     return p
 
 
@@ -417,6 +526,11 @@ def _run(args) -> int:
 
 
 def main(argv=None) -> int:
+    for stream in (sys.stdout, sys.stderr):  # text the terminal's encoding cannot show: escaped, not a crash
+        try:
+            stream.reconfigure(errors="backslashreplace")
+        except (AttributeError, ValueError):  # a stream that is no text file (a test's StringIO)
+            pass
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
@@ -429,6 +543,7 @@ def main(argv=None) -> int:
     from .errors import PlannerError
 
     try:
+        _options(args)
         return _run(args)
     except PlannerError as exc:
         print(f"planner: {exc.one_line()}", file=sys.stderr)
@@ -506,6 +621,52 @@ def _add_diagnose(sub) -> None:
     sp.add_argument("--series", metavar="E96", help="E-series of the replacements (default: each part's own)")
     sp.add_argument("-v", "--verbose", action="store_true", help="log solver details on stderr")
     sp.set_defaults(func=cmd_diagnose)
+
+
+# --- planner netlist -----------------------------------------------------------------------
+
+
+def cmd_netlist(args) -> int:
+    out = args.output or "-"
+    _check_output(out, args.project)
+    # --volts, --amps, --ohms [SI] and --temperature [K] are converted with every command's options
+    ohms, volts, amps, temp = args.ohms, args.volts, args.amps, args.temperature
+    spec = _load(args)  # before the heavy imports: bad input is answered sooner
+    from . import __version__
+    from .engine import Engine
+    from .export import spice_deck, stimulus_for
+    from .fsio import emit
+
+    design = _design(spec, args.position)
+    st = design.state(args.position)  # an unknown name: exit 2 with the nearest one
+    stim = stimulus_for(st.position, volts=volts, amps=amps, ohms=ohms)
+    expected = None
+    if stim.kind in ("voltage", "current"):  # the planner's own answer, for the reader to compare
+        op = Engine(design).operate(st, [stim.value], kind=stim.kind, temperature_k=temp)
+        expected = float(op.movement_current_a[0, 0])
+    deck = spice_deck(design, st.name, stim, temperature_k=temp, expected_a=expected, source=args.project,
+                      version=__version__)
+    if emit(out, deck, protect=[args.project]):
+        print(f"wrote {out}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_netlist(sub) -> None:
+    sp = sub.add_parser("netlist", help="a SPICE deck of one position (ngspice runs it as written; i(vmove) is "
+                                        "the movement current)")
+    sp.add_argument("project", metavar="FILE", help="project file (YAML)")
+    sp.add_argument("--position", required=True, metavar="NAME", help="switch position, e.g. '10 V'")
+    g = sp.add_mutually_exclusive_group()
+    g.add_argument("--volts", metavar="V", help="applied voltage, e.g. 12 or '12 V' (default: the position's full "
+                                                "scale)")
+    g.add_argument("--amps", metavar="A", help="applied current, e.g. 0.01 or '10 mA'")
+    g.add_argument("--ohms", metavar="R", help="resistor across the terminals of a resistance position, e.g. '1 kohm'")
+    sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit "
+                                                       "(default: the reference temperature)")
+    sp.add_argument("-o", "--output", metavar="OUT.cir", help="write the deck to this file (default, or '-': "
+                                                              "standard output)")
+    sp.add_argument("-v", "--verbose", action="store_true", help="log details on stderr")
+    sp.set_defaults(func=cmd_netlist)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -24,7 +24,7 @@ import numpy as np
 from . import network as nw
 from .design import Design
 from .errors import UsageError
-from .solve import Junctions, Solution, solve
+from .solve import Junctions, Solution, Varistors, solve
 
 
 @dataclass
@@ -106,6 +106,12 @@ class Operating:
                 out = out + sol.i_diode[:, :, j]
             elif c.node_index.get(e.cathode) == held:
                 out = out - sol.i_diode[:, :, j]
+        for j, name in enumerate(c.varistors):
+            a, b = self.engine.elements[name].nodes
+            if c.node_index.get(a) == held:
+                out = out + sol.i_varistor[:, :, j]
+            elif c.node_index.get(b) == held:
+                out = out - sol.i_varistor[:, :, j]
         return out
 
     def element(self, name: str) -> ElementStress:
@@ -116,6 +122,12 @@ class Operating:
         if e.stamp == "junction":
             if name in self.circuit.diodes:
                 i = self.solution.i_diode[:, :, self.circuit.diodes.index(name)]
+            else:
+                i = np.zeros(self.shape)
+        elif e.stamp == "varistor":
+            c = self.circuit
+            if name in c.varistors:
+                i = self.solution.i_varistor[:, :, c.varistors.index(name)]  # first terminal to second
             else:
                 i = np.zeros(self.shape)
         else:
@@ -167,7 +179,7 @@ class Engine:
 
     # --- parameters -------------------------------------------------------------------
     def branch_resistances(self, circuit, temperature_k, factors: Mapping[str, np.ndarray] | None,
-                           r_source_ohm=0.0) -> np.ndarray:
+                           r_source_ohm=0.0, settings: Mapping[str, np.ndarray] | None = None) -> np.ndarray:
         """Resistance of each linear branch at temperature, shape (P, L) [ohm].
 
         Notes
@@ -175,23 +187,53 @@ class Engine:
         Each part gives its own value at temperature (:meth:`planner.parts.Part.resistance`):
         resistors and the coil follow :math:`R(T) = R (1 + \\alpha (T - T_{ref}))`
         (design contract), fuses and contacts are held constant; ``factors``
-        multiplies the nominal value of a resistor or the coil (a tolerance draw).
+        multiplies the nominal value of a resistor or the coil (a tolerance draw);
+        ``settings`` gives a rheostat's setting [ohm], arrays of shape (P,).
         """
         spec = self.spec
         t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
         dt = t - spec.ambient.t_ref_k
         factors = factors or {}
+        settings = settings or {}
         cols = []
         for br in circuit.branches:
             if br.role == "source":
                 val = np.asarray(r_source_ohm, dtype=float).reshape(-1, 1) + 0.0 * dt
+            elif br.element in settings:
+                s = np.asarray(settings[br.element], dtype=float).reshape(-1, 1)
+                val = self.elements[br.element].resistance(spec, dt, s)
             else:
                 val = self.elements[br.element].resistance(spec, dt)
-            if br.role in ("resistor", "movement") and br.element in factors:
+            if br.role != "source" and br.element in factors:
                 val = val * np.asarray(factors[br.element], dtype=float).reshape(-1, 1)
             cols.append(val)
         if not cols:
             return np.zeros((t.shape[0], 0))
+        return np.concatenate(np.broadcast_arrays(*cols), axis=1)
+
+    def emfs(self, circuit, emf=None) -> np.ndarray | None:
+        """EMF of each linear branch, shape (P, L) [V], or None when the state holds no battery.
+
+        Parameters
+        ----------
+        emf : str or mapping, optional
+            A level for every battery (``min``, ``nominal``, ``max``), or EMFs per
+            designator (arrays of shape (P,) [V]); the nominal EMF otherwise.
+        """
+        named = emf if isinstance(emf, Mapping) else {}
+        level = emf if isinstance(emf, str) else "nominal"
+        cols, any_emf = [], False
+        for br in circuit.branches:
+            e = self.elements.get(br.element)
+            if e is None:
+                cols.append(np.zeros((1, 1)))
+                continue
+            val = named[br.element] if br.element in named else e.emf(level)
+            val = np.asarray(val, dtype=float).reshape(-1, 1)
+            any_emf = any_emf or bool(np.any(val != 0.0))
+            cols.append(val)
+        if not any_emf:
+            return None
         return np.concatenate(np.broadcast_arrays(*cols), axis=1)
 
     def junctions(self, circuit, temperature_k, factors=None) -> Junctions:
@@ -210,9 +252,17 @@ class Engine:
             return Junctions(z, z, z, z, z, z)
         return Junctions(*(np.concatenate(np.broadcast_arrays(*xs), axis=1) for xs in zip(*cols)))
 
+    def varistors(self, circuit) -> Varistors | None:
+        """Varistor parameters of a compiled state (None when it has none), shapes (M,)."""
+        if not circuit.varistors:
+            return None
+        law = np.array([self.elements[name].law(self.spec) for name in circuit.varistors], dtype=float)
+        return Varistors(law[:, 0], law[:, 1], law[:, 2])
+
     # --- solving ---------------------------------------------------------------------
     def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
-                r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None) -> Operating:
+                r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None,
+                settings: Mapping[str, np.ndarray] | None = None, emf=None) -> Operating:
         """Solve one switch state for a batch of stimuli and parameter sets.
 
         Parameters
@@ -231,6 +281,11 @@ class Engine:
             Multipliers of nominal values per designator, arrays of shape (P,):
             resistors and the movement (coil resistance), diodes (saturation
             current); the key ``"i_fs"`` multiplies the full-scale current.
+        settings : mapping, optional
+            Rheostat settings per designator [ohm], arrays of shape (P,).
+        emf : str or mapping, optional
+            Battery EMFs: a level (``min``, ``nominal``, ``max``) or arrays (P,) per
+            designator [V] (:meth:`emfs`); nominal by default.
 
         Returns
         -------
@@ -243,10 +298,10 @@ class Engine:
         t = self.spec.ambient.t_ref_k if temperature_k is None else temperature_k
         with_r = kind == "voltage" and np.any(np.asarray(r_source_ohm) > 0)
         circuit = self.circuit(st, kind, bool(with_r))
-        r = self.branch_resistances(circuit, t, factors, r_source_ohm)
+        r = self.branch_resistances(circuit, t, factors, r_source_ohm, settings)
         jn = self.junctions(circuit, t, factors)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
-        sol = solve(circuit, r, jn, stim)
+        sol = solve(circuit, r, jn, stim, emf=self.emfs(circuit, emf), varistors=self.varistors(circuit))
         i_fs = self.spec.movement.i_fs_a * np.ones((sol.shape[0], 1))
         if factors and "i_fs" in factors:
             i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)

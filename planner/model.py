@@ -20,6 +20,7 @@ from typing import Mapping
 from . import ranges
 from .parts import (  # noqa: F401  (the element kinds, re-exported for callers of planner.model)
     KINDS,
+    Battery,
     Contact,
     Diode,
     DiodeModel,
@@ -27,8 +28,13 @@ from .parts import (  # noqa: F401  (the element kinds, re-exported for callers 
     FuseModel,
     MovementElement,
     Part,
+    Ptc,
+    PtcModel,
     Resistor,
     ResistorParts,
+    Rheostat,
+    Varistor,
+    VaristorModel,
 )
 
 #: Any network element (see :mod:`planner.parts`).
@@ -47,21 +53,69 @@ DEFAULT_T_REF_K = ZERO_CELSIUS_K + 23.0
 
 @dataclass(frozen=True)
 class Overload:
-    """Overload limits of a movement as multiples of its full-scale current.
+    """What damages a movement, as multiples of its full-scale current (``movement.overload``).
 
     Attributes
     ----------
     peg : float
-        Pointer reaches its end stop above this multiple (common practice: about 1.1).
+        Pointer reaches its end stop above this mean multiple (not damage: the
+        verdict ``pegs``; common practice: about 1.1).
     short_time : float
-        Peak multiple survived for a short time (a fuse's pre-arcing time).
+        Peak multiple the coil, hairsprings and pointer survive briefly (a
+        current kick, a fuse's pre-arcing time). Default 20 (from memory, range
+        10-50; the 10 x short-duration test of IEC 60051-2 is a survived test
+        level, so damage lies above it).
     continuous : float
-        Mean or rms multiple survived indefinitely.
+        Thermal limit: the rms multiple the coil and hairsprings survive
+        indefinitely. Default 10, i.e. 100 x the full-scale coil power (from
+        memory, range 5-20; a sensitive movement dissipates microwatts at full
+        scale, so its true thermal margin is larger still).
+    mechanical : float
+        Mechanical limit: the mean (pointer-driving) multiple held against the end
+        stop without bending the pointer or shifting its zero. Default 10 (from
+        memory, range 5-20; common practice: silicon diodes across a 0.1 V
+        movement hold it at 5 to 7 x full scale indefinitely, the classic
+        multimeter protection).
+    thermal_time_s : float
+        Thermal time constant of coil and hairsprings [s]: shorter exposures are
+        allowed more rms current (:meth:`thermal_limit`). Default 1 s (from
+        memory, range 1-10 s; the shortest is the conservative choice).
     """
 
     peg: float = 1.1
-    short_time: float = 10.0
-    continuous: float = 1.2
+    short_time: float = 20.0
+    continuous: float = 10.0
+    mechanical: float = 10.0
+    thermal_time_s: float = 1.0
+
+    def thermal_limit(self, duration_s: float) -> float:
+        r"""Rms multiple of I_fs the coil survives for ``duration_s`` [s] (``inf``: indefinitely).
+
+        Notes
+        -----
+        A first-order thermal model (one heat capacity, one thermal resistance:
+        :math:`\theta(t) = \theta_\infty (1 - e^{-t/\tau})` at constant power)
+        reaches the temperature rise of ``continuous`` held indefinitely when
+
+        .. math:: m(t) = \frac{m_{cont}}{\sqrt{1 - e^{-t/\tau}}}
+
+        times full scale flows for t; for :math:`t \ll \tau` this is the adiabatic
+        :math:`m^2 t = m_{cont}^2 \tau` (an I^2 t limit). It is capped at
+        ``short_time``.
+
+        References
+        ----------
+        Lumped heat balance :math:`C \, d\theta/dt = P - \theta / R_{th}`, with
+        :math:`\tau = R_{th} C` (any heat-transfer textbook, e.g. Incropera and
+        DeWitt, *Fundamentals of Heat and Mass Transfer*, lumped capacitance method).
+        """
+        t = float(duration_s)
+        if not t < math.inf:
+            return float(self.continuous)
+        if t <= 0.0:
+            return float(self.short_time)
+        m = self.continuous / math.sqrt(-math.expm1(-t / self.thermal_time_s))
+        return float(min(m, max(self.short_time, self.continuous)))
 
 
 @dataclass(frozen=True)
@@ -147,6 +201,8 @@ class Parts:
     resistors: ResistorParts = field(default_factory=ResistorParts)
     diodes: Mapping[str, DiodeModel] = field(default_factory=dict)
     fuses: Mapping[str, FuseModel] = field(default_factory=dict)
+    ptcs: Mapping[str, PtcModel] = field(default_factory=dict)
+    varistors: Mapping[str, VaristorModel] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -163,6 +219,9 @@ class Position:
         Full-scale value [V] or [A].
     input : tuple of str
         The two input terminals (+, -).
+    center : float or None
+        Centre-scale value of a resistance position [ohm] (its ``full_scale``
+        holds the same number); None for other kinds.
     """
 
     name: str
@@ -170,6 +229,7 @@ class Position:
     full_scale: float
     input: tuple[str, str]
     line: int | None = None
+    center: float | None = None
 
     @property
     def kind(self) -> "ranges.RangeKind":
@@ -235,6 +295,33 @@ class CurrentRanges:
 
 
 @dataclass(frozen=True)
+class BatteryRequest:
+    """A battery the sizer places for ohms ranges [V], [ohm]."""
+
+    voltage_v: float
+    v_min_v: float
+    v_max_v: float
+    r_int_ohm: float
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class ResistanceRanges:
+    """Wanted ohms ranges: centre-scale values, the battery (and a higher one), the zero adjuster.
+
+    ``high_battery`` (None for none) serves the ranges whose centre the first
+    battery cannot reach; ``zero_adjust`` is ``shunt`` (a rheostat across the
+    meter) or ``series`` (a rheostat in series with it).
+    """
+
+    centers: tuple[float, ...]
+    battery: BatteryRequest
+    high_battery: BatteryRequest | None = None
+    zero_adjust: str = "shunt"
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class ClampRequest:
     """A diode clamp the sizer must place.
 
@@ -248,6 +335,28 @@ class ClampRequest:
     forward: str | None
     reverse: str | None
     count: int = 1
+    line: int | None = None
+    #: A string of ``count`` back-to-back pairs (zener or TVS: the forward model's cathode toward
+    #: the tap, then the reverse model's): clamps both polarities at breakdown plus one junction.
+    bidirectional: bool = False
+
+
+@dataclass(frozen=True)
+class ProtectionRequest:
+    """What the ``protection`` section asks the sizer to place (:mod:`planner.sizing.sections.protection`).
+
+    An input PTC model, a fusible input resistor (its value, fusing points and breaking
+    voltage), a ring crowbar's diode model and count, a second fuse for the mA ranges.
+    """
+
+    input_ptc: str | None = None
+    fusible_input: bool = False
+    fusible_ohm: float | None = None
+    fusing: tuple = ()
+    breaking_voltage_v: float = math.inf
+    ring_crowbar: str | None = None
+    ring_crowbar_count: int = 2
+    ma_fuse: str | None = None
     line: int | None = None
 
 
@@ -265,6 +374,8 @@ class FaultSource:
     r_source_ohm: float = 0.0
     current_limit_a: float | None = None
     line: int | None = None
+    compliance_v: float | None = None  # a current source's compliance [V]; None: the default
+    frequency_hz: float | None = None  # a sine's frequency [Hz]; None: 50 Hz
 
 
 @dataclass(frozen=True)
@@ -314,10 +425,12 @@ class Spec:
     ambient: Ambient = field(default_factory=Ambient)
     voltage: VoltageRanges | None = None
     current: CurrentRanges | None = None
+    resistance: ResistanceRanges | None = None
     clamps: tuple[ClampRequest, ...] = ()
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)
+    protection: ProtectionRequest | None = None
     path: str | None = None
     revision: str | None = None
     date: str | None = None

@@ -260,6 +260,31 @@ def _current_carrying(g: nx.MultiGraph, plus: str, minus: str):
     return main, alias
 
 
+def _with_sources(net, g, st, plus, minus, live, alias):
+    """The live nodes grown to every node joined to the input when a battery lies outside them.
+
+    A block with an EMF in it (a battery the switch leaves in a loop) carries current
+    although it hangs on the rest by one node (a battery that is a bridge of the
+    graph closes no loop and carries none), so the dangling-block shortcut of
+    :func:`_current_carrying` does not hold for it: the whole part of the state
+    joined to the input terminals is then solved, each node at its own potential.
+    """
+    outside = [e for e in net.elements if e.emf() != 0.0 and e.present(st.closed)
+               and not (e.nodes[0] in live and e.nodes[1] in live)]
+    if not outside:
+        return live, alias
+    simple = nx.Graph((a, b) for a, b in g.edges() if a != b)
+    bridges = {frozenset(x) for x in nx.bridges(simple)}
+    # a battery that is a bridge (its only path back is through itself) closes no loop: no current
+    outside = [e for e in outside if g.number_of_edges(*e.nodes) > 1 or frozenset(e.nodes) not in bridges]
+    if not outside:
+        return live, alias
+    joined = nx.node_connected_component(g, plus) | nx.node_connected_component(g, minus)
+    if not any(e.nodes[0] in joined for e in outside):
+        return live, alias
+    return set(joined), {}
+
+
 def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
                   source_resistance: bool = False, net: NetworkSpec | None = None):
     """Compile a switch state into a :class:`planner.solve.Circuit`.
@@ -287,6 +312,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     g = active_graph(net, st)
     plus, minus = st.position.input
     live, alias = _current_carrying(g, plus, minus)
+    live, alias = _with_sources(net, g, st, plus, minus, live, alias)
     uf = UnionFind()
     for n in live:
         uf.find(n)
@@ -296,6 +322,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
 
     branches: list[Branch] = []
     diodes: list[tuple[str, str, str]] = []  # (designator, anode, cathode)
+    varistors: list[tuple[str, str, str]] = []  # (designator, first node, second node)
     for e in net.elements:
         a, b = e.nodes
         if a not in live or b not in live:
@@ -304,6 +331,8 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
             continue
         if e.stamp == "junction":
             diodes.append((e.name, a, b))
+        elif e.stamp == "varistor":
+            varistors.append((e.name, a, b))
         else:
             branches.append(Branch(e.name, e.kind, a, b))
 
@@ -333,22 +362,23 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     lin_a = np.array([idx(br.a) for br in branches], dtype=np.intp)
     lin_b = np.array([idx(br.b) for br in branches], dtype=np.intp)
     # diodes on the same pair of nodes (an antiparallel clamp pair) share one port
+    # (and a varistor on the same pair of nodes joins that port)
     port_of: dict[tuple[int, int], int] = {}
-    port_a, port_c, diode_port, diode_sign = [], [], [], []
-    for _, anode, cathode in diodes:
-        ia, ic = idx(anode), idx(cathode)
+    port_a, port_c = [], []
+
+    def port(first, second):
+        ia, ic = idx(first), idx(second)
         if (ia, ic) in port_of:
-            diode_port.append(port_of[(ia, ic)])
-            diode_sign.append(1)
-        elif (ic, ia) in port_of:
-            diode_port.append(port_of[(ic, ia)])
-            diode_sign.append(-1)
-        else:
-            port_of[(ia, ic)] = len(port_a)
-            port_a.append(ia)
-            port_c.append(ic)
-            diode_port.append(port_of[(ia, ic)])
-            diode_sign.append(1)
+            return port_of[(ia, ic)], 1
+        if (ic, ia) in port_of:
+            return port_of[(ic, ia)], -1
+        port_of[(ia, ic)] = len(port_a)
+        port_a.append(ia)
+        port_c.append(ic)
+        return port_of[(ia, ic)], 1
+
+    diode_port, diode_sign = map(list, zip(*(port(an, ca) for _, an, ca in diodes))) if diodes else ([], [])
+    var_port, var_sign = map(list, zip(*(port(x, y) for _, x, y in varistors))) if varistors else ([], [])
     node_index = {n: names.index(uf.find(n)) for n in uf.parent if uf.find(n) in seen}
     for n, at in alias.items():  # dangling parts carry no current: at their attachment's potential
         if at in node_index:
@@ -369,4 +399,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
         source_kind=kind,
         held=1 if held is not None else None,
         inject=inject,
+        varistors=tuple(v[0] for v in varistors),
+        varistor_port=np.array(var_port, dtype=np.intp),
+        varistor_sign=np.array(var_sign, dtype=np.intp),
     )

@@ -24,6 +24,11 @@ from .errors import UsageError
 #: is then within pi^2 / (3 N^2) (1.3e-5 of its value) of the integral.
 PHASE_POINTS = 512
 
+#: Frequency of a periodic stimulus when none is given [Hz]: the mains frequency of
+#: most of the world; at 60 Hz a fault from a zero crossing melts a fuse sooner, so
+#: 50 Hz is the slower (longer) exposure (common practice).
+DEFAULT_FREQUENCY_HZ = 50.0
+
 #: Hazardous-live limits of IEC 61010-1:2010, clause 6.3.1 (normal condition):
 #: 33 V rms, 46.7 V peak, 70 V DC [V].
 HAZARD_RMS_V = 33.0
@@ -220,6 +225,12 @@ class Stimulus:
         Current limit of a voltage source [A] (a bench supply), None for none.
     detail : str
         Extra words for tables (``'10 V, the 10 V range's full scale'``).
+    compliance_v : float or None
+        Compliance of a current source [V]: the largest |voltage| it can drive
+        across the terminals; beyond it the source holds that voltage (None: ideal).
+    frequency_hz : float
+        Frequency of a periodic wave [Hz] (what a fuse's pre-arcing time over the
+        cycle depends on); 50 Hz by default.
     """
 
     name: str
@@ -229,6 +240,8 @@ class Stimulus:
     r_source_ohm: float = 0.0
     current_limit_a: float | None = None
     detail: str = ""
+    compliance_v: float | None = None
+    frequency_hz: float = DEFAULT_FREQUENCY_HZ
 
     def __post_init__(self):
         if self.kind not in ("voltage", "current"):
@@ -243,6 +256,10 @@ class Stimulus:
             raise UsageError(f"stimulus '{self.name}': the source impedance must be zero or positive")
         if self.current_limit_a is not None and not self.current_limit_a > 0.0:
             raise UsageError(f"stimulus '{self.name}': a current limit must be above zero")
+        if self.compliance_v is not None and not self.compliance_v > 0.0:
+            raise UsageError(f"stimulus '{self.name}': a compliance voltage must be above zero")
+        if not (self.frequency_hz > 0.0 and math.isfinite(self.frequency_hz)):
+            raise UsageError(f"stimulus '{self.name}': the frequency must be above zero")
 
     @property
     def unit(self) -> str:
@@ -275,6 +292,8 @@ class Stimulus:
             text += f", {format_si(self.r_source_ohm, 'ohm', 3)} source" if self.r_source_ohm > 0 else ", ideal source"
             if self.current_limit_a is not None:
                 text += f", limited to {format_si(self.current_limit_a, 'A', 3)}"
+        elif self.compliance_v is not None:
+            text += f", {format_si(self.compliance_v, 'V', 3)} compliance"
         return text
 
     def as_dict(self) -> dict:
@@ -287,7 +306,10 @@ class Stimulus:
             "peak": self.peak,
             "r_source_ohm": self.r_source_ohm if self.kind == "voltage" else None,
             "current_limit_a": self.current_limit_a,
+            "compliance_v": self.compliance_v if self.kind == "current" else None,
         }
+        if self.waveform.cyclic:
+            d["frequency_hz"] = self.frequency_hz
         if self.detail:
             d["detail"] = self.detail
         return d

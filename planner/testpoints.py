@@ -15,7 +15,7 @@ import numpy as np
 
 from .model import NetworkSpec
 
-__all__ = ["pin_names", "test_points", "linear_test_points"]
+__all__ = ["pin_names", "test_points", "test_points_at", "linear_test_points"]
 
 #: Which part a probe goes on first, by kind (a fixed part before a switch contact).
 _PRIORITY = {"movement": 0, "resistor": 1, "fuse": 2, "ptc": 3, "varistor": 4, "battery": 5, "rheostat": 6,
@@ -92,13 +92,38 @@ def test_points(engine, net: NetworkSpec) -> list[dict]:
         the position's full scale applied; absent where the node is not connected) and
         ``max_abs_voltage_v`` (None for a node connected in no position).
     """
+    by_position = {}
+    for q in net.positions:
+        if q.measures not in ("voltage", "current"):  # a resistance scale has no full-scale value to apply
+            continue
+        op = engine.operate(q.name, [q.full_scale])
+        by_position[q.name] = {n: float(op.node_voltage(n)[0, 0]) for n in op.circuit.node_index}
+    return test_points_at(net, by_position)
+
+
+def test_points_at(net: NetworkSpec, node_voltages: dict) -> list[dict]:
+    """The test points of a network from node voltages already solved.
+
+    Parameters
+    ----------
+    net : NetworkSpec
+    node_voltages : dict of str -> dict of str -> float
+        Per position, the voltage of each node of its circuit against the input's minus
+        terminal at full scale [V] (the accuracy check's ``node_voltages_v``); a position
+        without any (a resistance scale) is left out.
+
+    Returns
+    -------
+    list of dict
+        As :func:`test_points`.
+    """
     names = pin_names(net)
     volts: dict[str, list] = {n: [] for n in names}
     for q in net.positions:
-        op = engine.operate(q.name, [q.full_scale])
+        at = node_voltages.get(q.name) or {}
         for n in names:
-            if n in op.circuit.node_index:
-                volts[n].append({"position": q.name, "voltage_v": float(op.node_voltage(n)[0, 0])})
+            if n in at:
+                volts[n].append({"position": q.name, "voltage_v": float(at[n])})
     rows = []
     for n, info in names.items():
         top = max(abs(v["voltage_v"]) for v in volts[n]) if volts[n] else None
@@ -148,4 +173,5 @@ def linear_test_points(spec, net: NetworkSpec) -> list[dict]:
 
 
 test_points.__test__ = False  # functions of the planner, not pytest tests
+test_points_at.__test__ = False
 linear_test_points.__test__ = False

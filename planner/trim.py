@@ -357,7 +357,9 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
     positions : list of dict
         The check's ``positions[]`` (updated in place: ``worst_case_after_trim_pct``,
         ``trim_resolution_pct``, ``trim_drift_pct``, ``budget_after_trim_pct``,
-        ``verdict_after_trim``).
+        ``verdict_after_trim``: within class when the worst case after trimming is at
+        most the class index and the temperature variation within its limit, the
+        check's IEC 60051 rule; resistance positions are left as they are).
     class_index : float
     seed : int
 
@@ -403,6 +405,8 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
     cal, short = calibrate(run, trims, base, max(1, builds))
     nominal = {t.part: np.ones(1) for t in trims}
     for q in positions:
+        if q.get("measures") not in ("voltage", "current"):  # a resistance scale is zeroed, not trimmed
+            continue
         fs = q["full_scale"]
         e = (run.operate(q["name"], [fs], factors=cal).reading()[:, 0] - fs) / fs * 100.0
         left = float(np.max(np.abs(e)))
@@ -426,8 +430,9 @@ def calibrated_check(run, trims, params, positions: list[dict], class_index: flo
         q["worst_case_after_trim_pct"] = worst
         q["trim_resolution_pct"] = res
         q["trim_drift_pct"] = drift
-        q["budget_after_trim_pct"] = worst + q["temperature_error_pct"]
-        q["verdict_after_trim"] = "within class" if q["budget_after_trim_pct"] <= class_index else "outside class"
+        q["budget_after_trim_pct"] = worst + q["temperature_error_pct"]  # a margin figure, as before trimming
+        ok = worst <= class_index and q.get("temperature_within_limit", True)  # IEC 60051, as the check's verdict
+        q["verdict_after_trim"] = "within class" if ok else "outside class"
     rows, steps = [], []
     for i, t in enumerate(trims):
         ends = []
@@ -472,7 +477,7 @@ def format_trim(result: dict) -> list[str]:
     lines = ["", f"after trimming ({result['trim_method']}; trimmer resolution and drift added), "
                  "% of full scale:",
              f"{'position':<12}{'worst %':>9}{'resol. %':>10}{'drift %':>9}{'temp %':>8}{'budget %':>10}  verdict"]
-    for p in result["positions"]:
+    for p in (q for q in result["positions"] if "worst_case_after_trim_pct" in q):
         lines.append(f"{p['name']:<12}{p['worst_case_after_trim_pct']:>9.3f}{p['trim_resolution_pct']:>10.3f}"
                      f"{p['trim_drift_pct']:>9.3f}{p['temperature_error_pct']:>8.3f}{p['budget_after_trim_pct']:>10.3f}"
                      f"  {p['verdict_after_trim']}")

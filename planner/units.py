@@ -70,6 +70,7 @@ _SPECS: dict[str, tuple[str, str, str, bool]] = {
     "tempco": ("1/K", "a temperature coefficient", "50 ppm/K", False),
     "temperature": ("K", "a temperature", "23 degC", False),
     "time": ("s", "a time", "10 ms", False),
+    "frequency": ("Hz", "a frequency", "50 Hz", False),
     "i2t": ("A^2*s", "an I^2 t", "0.5 A^2 s", False),
     "energy": ("J", "an energy", "2 J", False),
     "energy_ev": ("eV", "a band-gap energy", "1.11 eV", True),

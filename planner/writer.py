@@ -83,7 +83,8 @@ def network_lines(net: NetworkSpec, notes: Mapping[str, str] | None = None) -> l
     lines.append("  positions:")
     for p in net.positions:
         fs = quantity(p.full_scale, p.unit)
-        lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, full_scale: {fs}, "
+        key = "center" if p.center is not None else "full_scale"  # an ohms range has a centre, no full scale
+        lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, {key}: {fs}, "
                      f"input: [{p.input[0]}, {p.input[1]}]}}")
     return lines
 
@@ -108,7 +109,7 @@ def clamp_lines(clamps: Sequence[ClampRequest], notes: Sequence[str | None] = ()
     lines = ["clamps:"]
     for i, c in enumerate(clamps):
         if isinstance(c.at, str):
-            where = "across: movement"
+            where = f"across: {c.at}"
         else:
             where = f"at: {{above_movement: {quantity(float(c.at), 'ohm')}}}"
         parts = [where]
@@ -118,6 +119,8 @@ def clamp_lines(clamps: Sequence[ClampRequest], notes: Sequence[str | None] = ()
             parts.append(f"reverse: {c.reverse}")
         if c.count != 1:
             parts.append(f"count: {int(c.count)}")
+        if getattr(c, "bidirectional", False):
+            parts.append("bidirectional: true")
         note = notes[i] if i < len(notes) else None
         lines.append(f"  - {{{', '.join(parts)}}}" + (f"  # {note}" if note else ""))
     return lines

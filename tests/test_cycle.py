@@ -30,7 +30,7 @@ TOL_A = READING_TOL * rx.I_FS
 
 
 def test_sine_form_and_crest_factor():
-    # textbook rectifier-instrument analysis (references.md): form factor pi / (2 sqrt 2) = 1.1107
+    # textbook rectifier-instrument analysis: form factor pi / (2 sqrt 2) = 1.1107
     s = Sine()
     np.testing.assert_allclose(s.form_factor, math.pi / (2.0 * math.sqrt(2.0)), rtol=1e-15)
     assert round(s.form_factor, 4) == 1.1107
@@ -39,7 +39,7 @@ def test_sine_form_and_crest_factor():
 
 
 def test_average_responding_meter_on_square_and_triangle():
-    # references.md [calc, from the form factors]: a meter calibrated in sine rms reads a square
+    # [calc] from the form factors: a meter calibrated in sine rms reads a square
     # wave 11.07 % high and a triangle 3.81 % low
     assert round(Square().average_reading_error() * 100.0, 2) == 11.07
     assert round(Triangle().average_reading_error() * 100.0, 2) == -3.81
@@ -240,7 +240,7 @@ def test_half_wave_mean_against_wright_omega_quad(rms, temperature_k):
     spec, d = _series_diode_spec(20e3)
     eng = Engine(build(spec))
     r_total = 20e3 + rx.R_COIL
-    # the SPICE temperature law of I_s (Antognetti and Massobrio; references.md), V_t = k T / q (exact SI)
+    # the SPICE temperature law of I_s (Massobrio and Antognetti, Semiconductor Device Modeling with SPICE, 2nd ed.), V_t = k T / q (exact SI)
     i_s = float(saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, temperature_k, rx.T_REF))
     nvt = d.n * float(thermal_voltage(temperature_k))
     peak = math.sqrt(2.0) * rms
@@ -326,7 +326,7 @@ def test_shared_rule_on_rectifiers_against_4096_points(rectifier):
 
 def test_square_wave_reads_high_on_an_ideal_rectifier():
     # a high range (250 V bridge): the diode drops are negligible, so the reading of a square
-    # wave of the full-scale rms approaches +11.07 % (form factors, references.md [calc])
+    # wave of the full-scale rms approaches +11.07 % ([calc] from the form factors)
     eng = rx.sized("bridge", 250.0)
     targets = [Target(Sine(), Sine().peak_of(250.0)), Target(Square(), 250.0), Target(Triangle(),
                                                                                    Triangle().peak_of(250.0))]

@@ -65,9 +65,10 @@ def test_faults_json_is_identical_across_processes(outputs):
 
 def _without_monte_carlo(obj):
     """The result with every field that depends on the Monte Carlo draws removed."""
-    mc_keys = {"monte_carlo", "yield_fraction", "yield", "seed", "build_yield_fraction"}
+    mc_keys = {"monte_carlo", "yield_fraction", "yield", "seed", "build_yield_fraction", "intrinsic_monte_carlo_pct"}
     if isinstance(obj, dict):
-        return {k: _without_monte_carlo(v) for k, v in obj.items() if k not in mc_keys and "yield" not in k}
+        return {k: _without_monte_carlo(v) for k, v in obj.items()
+                if k not in mc_keys and "yield" not in k and "monte_carlo" not in k}
     if isinstance(obj, list):
         return [_without_monte_carlo(v) for v in obj]
     return obj

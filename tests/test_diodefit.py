@@ -195,7 +195,7 @@ def test_two_temperatures_give_the_band_gap_with_xti_held():
 
 
 def test_two_temperatures_schottky_with_given_xti():
-    # Schottky defaults of the SPICE law: E_g = 0.69 eV, XTI = 2 (references.md, ngspice manual)
+    # Schottky defaults of the SPICE law: E_g = 0.69 eV, XTI = 2 (ngspice manual, diode model; Massobrio and Antognetti, 2nd ed.)
     pts = _at_temperatures([T_REF - 20.0, T_REF + 25.0], eg=0.69, xti=2.0, i_s=2e-7, n=1.05,
                            r_s=1.5, r_p=2e8)
     fit = df.fit(pts, xti=2.0)

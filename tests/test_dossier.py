@@ -328,3 +328,162 @@ def test_value_text_and_hazard_limits():
     assert not is_hazardous(70.0) and is_hazardous(70.1)
     assert not is_hazardous(33.0, "sine") and is_hazardous(33.1, "sine")
     assert is_hazardous(-250.0)
+
+
+@pytest.mark.slow
+def test_the_dossier_command_sizes_once_and_renders_without_solving(tmp_path, monkeypatch):
+    """``planner dossier`` of the multimeter: one sizing, one Design, no solve while rendering.
+
+    The analyses (check, faults) solve; the rendering only lays their results out
+    (the Monte Carlo histogram, test points and acceptance readings come from the
+    accuracy check's arrays). Counted by wrapping the sizer, ``planner.design.build``,
+    every entry to the solver and the Engine's constructor.
+    """
+    import planner.design
+    import planner.dossier
+    import planner.engine
+    import planner.sizing.ratings
+    import planner.solve
+    from planner.cli import main
+
+    counts = {"size": 0, "build": 0, "solve_analyses": 0, "solve_render": 0, "engine_render": 0}
+    phase = ["analyses"]
+
+    def counting(key, fn):
+        def wrapped(*args, **kwargs):
+            counts[key() if callable(key) else key] += 1
+            return fn(*args, **kwargs)
+        return wrapped
+
+    solve_key = lambda: f"solve_{phase[0]}"  # noqa: E731 - the phase at call time
+    monkeypatch.setattr(planner.design, "size", counting("size", planner.design.size))
+    monkeypatch.setattr(planner.design, "build", counting("build", planner.design.build))
+    for mod in (planner.solve, planner.engine, planner.sizing.ratings):
+        monkeypatch.setattr(mod, "solve", counting(solve_key, mod.solve))
+    engine_init = planner.engine.Engine.__init__
+
+    def init(self, *args, **kwargs):
+        if phase[0] == "render":
+            counts["engine_render"] += 1
+        engine_init(self, *args, **kwargs)
+
+    monkeypatch.setattr(planner.engine.Engine, "__init__", init)
+    render = planner.dossier.render
+
+    def rendering(*args, **kwargs):
+        phase[0] = "render"
+        try:
+            return render(*args, **kwargs)
+        finally:
+            phase[0] = "analyses"
+
+    monkeypatch.setattr(planner.dossier, "render", rendering)
+    out = tmp_path / "multimeter.pdf"
+    assert main(["dossier", str(ROOT / "projects" / "bench_multimeter.yaml"), "-o", str(out),
+                 "--samples", "50"]) == 0
+    assert out.stat().st_size > 0
+    assert counts["size"] == 1 and counts["build"] == 1
+    assert counts["solve_analyses"] > 0  # the counter sees the analyses' solves
+    assert counts["solve_render"] == 0 and counts["engine_render"] == 0
+
+
+def test_acceptance_and_histogram_come_from_the_check(tmp_path):
+    """The dossier's expected readings and Monte Carlo errors are the accuracy check's own numbers."""
+    from planner.accuracy import check
+    from planner.design import build
+    from planner.dossier import gather
+
+    design = build(load(ROOT / "projects" / "pocket_voltmeter.yaml"))
+    ctx = gather(design, samples=40, seed=3)
+    again = check(design, samples=40, seed=3)
+    for name in ctx.position_names():
+        arr, ref = ctx.arrays(name), again.position(name)
+        # the same seeded builds give the same errors (to the last bit: same solves, same order)
+        np.testing.assert_array_equal(arr.mc_error_pct, ref.mc_error_pct)
+        q = ctx.check_position(name)
+        assert arr.mc_error_pct.shape == (40,)
+        assert np.mean(np.abs(arr.mc_error_pct) <= q["class_index"]) == q["yield_fraction"]
+        # the acceptance readings at 20 %, 50 %, 100 % are the check's linearity rows
+        for frac in (0.2, 0.5, 1.0):
+            row = [r for r in q["linearity"] if abs(r["applied"] - frac * q["full_scale"]) < 1e-9 * q["full_scale"]]
+            assert arr.reading_at(frac) == row[0]["reading"]
+
+
+#: Smallest text size on paper [pt]: print legibility, common practice (6 pt is the usual floor for
+#: footnotes and drawing annotations read at arm's length).
+MIN_PRINT_PT = 6.0
+#: A page other than the last of its section carries text at least this far down the frame (a fifth).
+MIN_PAGE_FILL = 0.2
+
+
+def _page_texts(pdf) -> list[list[tuple[float, float, str]]]:
+    """Per page: (printed size [pt], height of the baseline above the page's foot [pt], text) of every run.
+
+    The size and the position are those of the text matrix times the current transformation
+    matrix (PDF 32000-1:2008, 9.4.4), so text drawn inside a scaled drawing counts at its printed size.
+    """
+    out = []
+    for page in PdfReader(str(pdf)).pages:
+        runs = []
+
+        def visit(text, cm, tm, font, size, runs=runs):
+            if not text.strip():
+                return
+            m = [tm[0] * cm[0] + tm[1] * cm[2], tm[0] * cm[1] + tm[1] * cm[3],
+                 tm[2] * cm[0] + tm[3] * cm[2], tm[2] * cm[1] + tm[3] * cm[3],
+                 tm[4] * cm[0] + tm[5] * cm[2] + cm[4], tm[4] * cm[1] + tm[5] * cm[3] + cm[5]]
+            runs.append((size * float(np.hypot(m[2], m[3])), float(m[5]), text.strip()))
+
+        page.extract_text(visitor_text=visit)
+        out.append(runs)
+    return out
+
+
+@pytest.mark.parametrize("stem", STEMS)
+def test_no_text_is_smaller_than_6_pt(built, stem):
+    _, pdf, _, _ = built(stem)
+    small = [(i + 1, round(size, 2), text[:30]) for i, runs in enumerate(_page_texts(pdf))
+             for size, _, text in runs if size < MIN_PRINT_PT - 1e-6]
+    assert not small, f"text below {MIN_PRINT_PT} pt (page, size, text): {small[:10]}"
+
+
+@pytest.mark.parametrize("stem", STEMS)
+def test_no_page_is_less_than_a_fifth_full_but_the_last_of_a_section(built, stem):
+    _, pdf, _, _ = built(stem)
+    reader = PdfReader(str(pdf))
+    starts = {0} | {reader.get_destination_page_number(o) for o in reader.outline if not isinstance(o, list)}
+    n = len(reader.pages)
+    last_of_section = {p - 1 for p in starts if p > 0} | {n - 1}
+    frame_top = layout.PAGE[1] - layout.TOP
+    thin = []
+    for i, runs in enumerate(_page_texts(pdf)):
+        body = [y for _, y, _ in runs if layout.BOTTOM <= y <= frame_top + 1]
+        fill = (frame_top - min(body)) / layout.FRAME_HEIGHT if body else 0.0
+        if i not in last_of_section and fill < MIN_PAGE_FILL:
+            thin.append((i + 1, round(fill, 2)))
+    assert not thin, f"pages less than a fifth full inside a section (page, fill): {thin}"
+
+
+@pytest.mark.slow
+def test_misrange_pages_say_each_reason_once_and_nothing_empty(built):
+    spec, pdf, _, _ = built("bench_multimeter")
+    reader = PdfReader(str(pdf))
+    starts = {re.sub(r"^(\d+|A)\s+", "", o.title): reader.get_destination_page_number(o)
+              for o in reader.outline if not isinstance(o, list)}
+    pages = reader.pages[starts["Misrange matrix"]:starts["Build and acceptance"]]
+    text = _norm("\n".join(page.extract_text() or "" for page in pages))
+    for reason in {a.reason for a in spec.faults.accept}:
+        # once over its failing cases, once in the table of accepted cases; never once per case
+        assert text.count(_norm(reason)[:60]) <= 2, reason
+    everything = _norm("\n".join(page.extract_text() or "" for page in reader.pages))
+    assert "--json" not in everything  # nothing on paper points to a command-line option
+    assert not re.search(r"\(0x\)|\b0(\.0+)? W of\b", text)  # no row that says nothing
+
+
+def test_the_dossier_command_names_every_file_it_writes(tmp_path, capsys):
+    from planner.cli import main
+
+    pdf, bom = tmp_path / "v.pdf", tmp_path / "v.csv"
+    assert main(["dossier", str(ROOT / "projects" / "pocket_voltmeter.yaml"), "-o", str(pdf), "--bom", str(bom),
+                 "--samples", "20", "--quiet"]) == 0
+    assert capsys.readouterr().err.splitlines() == [f"wrote {pdf}", f"wrote {bom}"]

@@ -51,7 +51,7 @@ def test_decade_spanning_values_equal_reference_erange(name):
 
 
 def test_historic_e24_values_and_e192_920():
-    # IEC 60063 (as summarised in references.md): E24 keeps 2.7 3.0 3.3 3.6 3.9 4.3 4.7 8.2
+    # IEC 60063:2015 tables: E24 keeps 2.7 3.0 3.3 3.6 3.9 4.3 4.7 8.2
     # where round(10**(i/24), 1) gives 2.6 2.9 3.2 3.5 3.8 4.2 4.6 8.3; E192 has 9.20.
     e24 = es.mantissas("E24")
     for v in (2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 8.2):

@@ -357,7 +357,7 @@ def test_unknown_key_lists_allowed_keys():
 
 
 def test_every_iec_class_accepted():
-    # IEC 60051 class indices (from memory, /work/shared/references.md)
+    # IEC 60051-1 class indices (from memory)
     for c in ("0.05", "0.1", "0.2", "0.3", "0.5", "1", "1.5", "2", "2.5", "3", "5", "1.0", "5.00"):
         s = loads(MINIMAL.replace("class: 2.5", f"class: {c}"))
         np.testing.assert_allclose(s.movement.class_index, float(c), rtol=0)  # exact
@@ -470,3 +470,29 @@ def test_pulse_and_accept_errors_point_at_the_line(old, new, line_of, expect):
     msg = ei.value.one_line()
     assert expect in msg, msg
     assert ei.value.line == _line(line_of, text), msg
+
+
+def test_damage_limits_compliance_and_frequency_keys():
+    text = """title: keys
+movement:
+  full_scale_current: 50 uA
+  coil_resistance: 2 kohm
+  class: 1.5
+  overload: {peg: 1.05, short_time: 30, continuous: 8, mechanical: 6, thermal_time: 3 s}
+voltage: {arrangement: chain, full_scales: [1 V, 10 V]}
+faults:
+  sources:
+    - {name: calibrator, current: 20 mA, compliance: 12 V}
+    - {name: outlet, voltage: 120 V, waveform: sine, frequency: 60 Hz, impedance: 0.5 ohm}
+"""
+    spec = loads(text, "k.yaml")
+    assert spec.movement.overload == model.Overload(peg=1.05, short_time=30.0, continuous=8.0, mechanical=6.0,
+                                                    thermal_time_s=3.0)
+    cal, out = spec.faults.sources
+    assert (cal.compliance_v, cal.frequency_hz, out.frequency_hz) == (12.0, None, 60.0)
+    with pytest.raises(ProjectError, match="'compliance' bounds a current source"):
+        loads(text.replace("impedance: 0.5 ohm", "impedance: 0.5 ohm, compliance: 5 V"), "k.yaml")
+    with pytest.raises(ProjectError, match="'frequency' applies to a sine"):
+        loads(text.replace("compliance: 12 V", "compliance: 12 V, frequency: 50 Hz"), "k.yaml")
+    with pytest.raises(ProjectError, match="overload.mechanical is 0.5"):
+        loads(text.replace("mechanical: 6", "mechanical: 0.5"), "k.yaml")

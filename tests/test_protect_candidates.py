@@ -45,6 +45,7 @@ def test_stack_orientation_junction_and_breakdown(voltmeter_spec):
 def test_clamp_diodes_of_the_examples():
     spec = load(PROJECTS / "bench_multimeter.yaml")
     net = build(spec).net
-    # the movement pair and the two two-diode stacks at the chain tap
+    # the movement pair, two four-diode stacks at the first chain tap, a back-to-back TVS pair
+    # at each of the two other taps and the ring crowbar's two two-diode stacks
     assert sorted(clamp_diodes(net)) == sorted(e.name for e in net.elements if isinstance(e, m.Diode))
-    assert len(clamp_diodes(net)) == 6
+    assert len(clamp_diodes(net)) == 2 + 8 + 2 + 2 + 4

@@ -25,17 +25,22 @@ SHARE = 0.25  # the issue's default requirement: a quarter of the class at the h
 
 @pytest.fixture(scope="module")
 def pocket():
-    """The pocket voltmeter and its search result."""
+    """The pocket voltmeter and the clamp search's best placement as the chosen one.
+
+    The search chooses a placement only when the misrange matrix says it protects at
+    least as well as the project as given (tests/test_protect_judged.py); the writing
+    itself is checked here on the best placement the clamp search found.
+    """
     spec = load(VOLTMETER)
     result = protect_project(spec, share=SHARE)
-    return spec, result
+    return spec, dict(result, chosen=result["pareto"][0])
 
 
 @pytest.fixture(scope="module")
 def written(pocket, tmp_path_factory):
     spec, result = pocket
     out = tmp_path_factory.mktemp("protect") / "pocket_protected.yaml"
-    write_protected(spec, result, out)
+    out.write_text(protected_text(spec, result), encoding="utf-8")
     return load(out)
 
 

@@ -579,3 +579,38 @@ def test_command_writes_pdf_and_svg_and_prints_the_contract_json(tmp_path, capsy
     assert main(["scale", str(MULTIMETER), "-o", str(tmp_path / "q.pdf")]) == 0
     table = capsys.readouterr().out
     assert "DC: base line at 60.0 mm" in table and "row 3 (0\u201310)" in table
+
+
+def test_range_kind_hook_gives_a_scale_of_its_own(monkeypatch):
+    # a range kind that asks for a scale of its own (as AC and ohms kinds do) gets one drawn
+    # from the solved nominal response; the worn multimeter's current ranges hold no junction,
+    # so D(v) = D(FS) v / FS exactly (Ohm's law), the check of the fractions (to 1e-9)
+    from planner.design import build
+    from planner.project import load
+    from planner.ranges.dc_current import DCCurrent
+    from planner.scale import ScaleDef, ScalePosition, sampled_response, scale_json, scale_project
+
+    def own(self, position):
+        return "own"
+
+    def definition(self, response, position):
+        sp = ScalePosition(position.name, "A", position.full_scale)
+        return ScaleDef(f"own {position.name}", "ac", (sp,), sampled_response(response, position.full_scale, "ac"))
+
+    monkeypatch.setattr(DCCurrent, "plate_scale", own)
+    monkeypatch.setattr(DCCurrent, "scale_definition", definition)
+    design = build(load(Path(__file__).resolve().parents[1] / "projects" / "worn_multimeter.yaml"))
+    result = scale_project(design)
+    js = scale_json(result)
+    names = [s["name"] for s in js["scales"]]
+    amps = [p.name for p in design.positions if p.measures == "current"]
+    assert names == ["DC"] + [f"own {n}" for n in amps]  # the DC scale keeps the voltage ranges only
+    assert js["scales"][0]["positions"] == [p.name for p in design.positions if p.measures == "voltage"]
+    from planner.engine import Engine
+
+    eng = Engine(design)
+    for s in js["scales"][1:]:
+        p = design.state(s["positions"][0]).position
+        d_fs = float(eng.operate(p.name, [p.full_scale]).movement_multiple[0, 0])
+        for t in s["ticks"]:
+            np.testing.assert_allclose(t["fraction"], d_fs * t["value"] / p.full_scale, rtol=0, atol=1e-9)

@@ -1,7 +1,7 @@
 """Checks of planner.sizing: handbook targets, E-series choice, ratings, topology, outputs.
 
-Each check against an outside source names it beside the check; the sources are listed
-in /work/shared/references.md. Specs are built from planner.model dataclasses; the example
+Each check against an outside source names it beside the check (textbooks, IEC 60063,
+the Ayrton-shunt and multiplier formulas, the eseries package). Specs are built from planner.model dataclasses; the example
 project is loaded with planner.project.
 """
 
@@ -126,7 +126,7 @@ def test_ayrton_worked_example():
 
 
 def test_ring_50ua_2kohm_calc():
-    # [calc] references.md: 50 uA, 2 kohm with 1 mA / 10 mA / 100 mA / 1 A: ring 105.263 ohm,
+    # [calc] from the Ayrton-shunt formulas: 50 uA, 2 kohm with 1 mA / 10 mA / 100 mA / 1 A: ring 105.263 ohm,
     # segments 94.737 / 9.4737 / 0.94737 / 0.10526 ohm; recomputed here from the published formula
     # R_t = R_m I_fs / (I_1 - I_fs), R_k = I_fs (R_t + R_m) / I_k (Wikipedia, "Ayrton shunt").
     i_fs, r_m, amps = 50e-6, 2000.0, [1e-3, 10e-3, 100e-3, 1.0]
@@ -136,13 +136,13 @@ def test_ring_50ua_2kohm_calc():
     s = sz.size(make_spec(i_fs, r_m, amps=amps))
     np.testing.assert_allclose(targets(s, "ring"), want_from_com, rtol=1e-12)  # float rounding only
     np.testing.assert_allclose(sum(targets(s, "ring")), r_t, rtol=1e-12)
-    # the rounded values as printed in references.md, to their printed figures
+    # the same values rounded to five figures, as the calculation above prints them
     np.testing.assert_allclose(r_t, 105.263, rtol=5e-6)
     np.testing.assert_allclose(want_from_com[::-1], [94.737, 9.4737, 0.94737, 0.10526], rtol=5e-5)
 
 
 def test_separate_shunt_textbook_examples():
-    # Textbook shunt examples quoted in references.md: R_sh = R_m I_fs / (I - I_fs):
+    # Textbook worked examples of the shunt formula R_sh = R_m I_fs / (I - I_fs):
     # 1 mA, 43 ohm to 1 A -> 43.04 mohm; 50 uA, 1 kohm to 500 uA -> 111.1 ohm; 1 mA, 25 ohm to 2 A -> 12.506 mohm.
     np.testing.assert_allclose(sz.separate_shunts([1.0], 1e-3, 43.0), [43.04e-3], rtol=2e-4)  # printed to 4 figures
     np.testing.assert_allclose(sz.separate_shunts([500e-6], 50e-6, 1000.0), [111.1], rtol=2e-4)
@@ -155,7 +155,7 @@ def test_separate_shunt_textbook_examples():
     "i_fs, r_m", [(50e-6, 2000.0), (100e-6, 1000.0), (1e-3, 50.0), (200e-6, 750.0), (10e-6, 3300.0)]
 )
 def test_targets_match_formulas_on_several_movements(i_fs, r_m):
-    # Handbook formulas (references.md): chain V1/I - R_m, (Vk - Vk-1)/I; separate V/I - R_m;
+    # Handbook formulas (Lessons in Electric Circuits Vol. I ch. 8; Ayrton shunt): chain V1/I - R_m, (Vk - Vk-1)/I; separate V/I - R_m;
     # ring R_t = R_m I_fs/(I_1 - I_fs), R_k = I_fs (R_t + R_m)/I_k; shunt R_m I_fs/(I - I_fs).
     volts = [1.0, 5.0, 25.0, 100.0]
     amps = [i_fs * 20, i_fs * 200, i_fs * 2000]
@@ -178,7 +178,7 @@ def test_targets_match_formulas_on_several_movements(i_fs, r_m):
 
 def test_swamp_enters_current_formulas_only():
     # A swamping resistor in series with the coil on current ranges: R_m -> R_m + R_sw in the
-    # shunt formulas (references.md, swamping note); the voltage chain (ring switched out) sees R_m.
+    # shunt formulas (swamping: common practice); the voltage chain (ring switched out) sees R_m.
     i_fs, r_m, r_sw = 50e-6, 2000.0, 6000.0
     s = sz.size(make_spec(i_fs, r_m, volts=[0.5, 2.5], amps=[1e-3, 10e-3], swamp=r_sw))
     r_b = r_m + r_sw
@@ -316,7 +316,7 @@ def test_ratings_two_range_hand_computation():
 
 
 def test_1000v_on_250v_parts_is_split():
-    # Limiting element voltage of a resistor, common practice (references.md: 0207 metal film about
+    # Limiting element voltage of a resistor, common practice (0207 metal film about
     # 250-350 V): a separate 1000 V multiplier on 50 uA sees 999.9 V at full scale -> at least 4 parts.
     spec = make_spec(volts=[10.0, 1000.0], v_arr="separate")
     s = sz.size(spec)
@@ -473,8 +473,8 @@ def test_nominal_error_within_allowed_share_through_the_solver():
 
 
 def test_bad_requests_raise_project_error():
-    with pytest.raises(ProjectError, match=r"not above the movement's full-scale current"):
-        sz.size(make_spec(amps=[50e-6, 1e-3]))
+    with pytest.raises(ProjectError, match=r"is below the movement's full-scale current"):
+        sz.size(make_spec(amps=[20e-6, 1e-3]))
     with pytest.raises(ProjectError, match=r"must exceed I_fs\*R_m = 100.0 mV") as e:
         sz.size(make_spec(volts=[0.05, 1.0]))  # 50 uA x 2 kohm = 0.1 V (Ohm's law)
     assert e.value.line == 11  # the voltage section's line
@@ -482,8 +482,10 @@ def test_bad_requests_raise_project_error():
         sz.size(make_spec(volts=[10.0, 2.5]))
     with pytest.raises(ProjectError, match="ascending"):
         sz.size(make_spec(amps=[10e-3, 10e-3]))
-    with pytest.raises(ProjectError, match="beyond the first chain segment"):
-        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(8000.0, "si", "si")]))  # segment is 8 k
+    with pytest.raises(ProjectError, match="lies on a range's node"):
+        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(8000.0, "si", "si")]))  # v1 is 8 k up
+    with pytest.raises(ProjectError, match="beyond the\n?.*chain"):
+        sz.size(make_spec(volts=[0.5, 2.5], clamps=[ClampRequest(60e3, "si", "si")]))  # the chain ends at 48 k
     with pytest.raises(ProjectError, match="beyond the smallest multiplier"):
         sz.size(make_spec(volts=[0.5, 2.5], v_arr="separate", clamps=[ClampRequest(9000.0, "si", "si")]))
     with pytest.raises(ProjectError, match="unknown resistor series 'E20'"):
@@ -555,3 +557,32 @@ def test_example_project_loads_and_network_yaml_round_trips():
     ]
     # the comments of the original file survive
     assert "Larkspur Lane radio workshop" in text
+
+
+# --- the bare movement as a range ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize("i_arr, ring_on_voltage, volts", [("ring", "switched_out", None),
+                                                          ("ring", "switched_out", [2.5, 25.0]),
+                                                          ("ring", "across", [2.5, 25.0]),
+                                                          ("separate", "switched_out", [2.5])])
+def test_a_current_range_equal_to_i_fs_is_the_bare_movement(i_arr, ring_on_voltage, volts):
+    # a range of exactly I_fs needs no shunt: the input current is the movement current, the
+    # burden is I_fs R_m and the input resistance R_m (Ohm's law); every other range keeps its
+    # handbook shunt (Ayrton ring of the remaining ranges, or separate shunts)
+    spec = make_spec(volts=volts, amps=[50e-6, 1e-3, 10e-3], i_arr=i_arr, ring_on_voltage=ring_on_voltage)
+    s = sz.size(spec)
+    bare = [p for p in s.positions if p.name == "50 uA"][0]
+    np.testing.assert_allclose(bare.input_resistance_ohm, 2000.0, rtol=1e-12)
+    np.testing.assert_allclose(bare.burden_voltage_v, 50e-6 * 2000.0, rtol=1e-12)
+    if i_arr == "ring":
+        # the ring of the remaining ranges: R_t = R_m I_fs / (I_1 - I_fs) with I_1 = 1 mA (Ayrton formula)
+        np.testing.assert_allclose(sum(targets(s, "ring")), 2000.0 * 50e-6 / (1e-3 - 50e-6), rtol=1e-12)
+    eng = Engine(build(sz.sized_spec(spec)))
+    allowed = spec.analysis.allowed_share * spec.movement.class_index
+    for p in eng.positions:
+        r = eng.reading(p.name, np.array([p.full_scale]))
+        err = (r[0] - p.full_scale) / p.full_scale * 100
+        assert abs(err) <= allowed, (p.name, err)
+    op = eng.operate("50 uA", np.array([50e-6]), kind="current")
+    np.testing.assert_allclose(op.movement_current_a[0, 0], 50e-6, rtol=1e-9)  # the whole input current

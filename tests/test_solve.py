@@ -2,8 +2,9 @@
 
 Outside sources: the exact diode-with-series-resistance solution (Banwell and
 Jayakumar, Electronics Letters 36(4), 2000), exact SI constants, the SPICE
-temperature law, textbook multiplier, shunt and Ayrton-shunt values
-(/work/shared/references.md), and Kirchhoff's current law on random networks.
+temperature law (Massobrio and Antognetti, Semiconductor Device Modeling with SPICE,
+2nd ed.), textbook multiplier, shunt and Ayrton-shunt values (Lessons in Electric
+Circuits Vol. I ch. 8; the Ayrton-shunt formulas), and Kirchhoff's current law on random networks.
 """
 
 from __future__ import annotations
@@ -70,7 +71,7 @@ def diode_behind_resistor(model, r_ohm, tempco=0.0, t_ref_k=300.0):
 
 
 def test_thermal_voltage_exact_si():
-    # references.md [calc]: V_t(300 K) = 25.852 mV, V_t(298.15 K) = 25.6926 mV with exact SI k, q
+    # [calc] from V_t = k T / q: = 25.852 mV, V_t(298.15 K) = 25.6926 mV with exact SI k, q
     np.testing.assert_allclose(thermal_voltage(300.0), 25.852e-3, atol=0.5e-6)  # 5 digits given
     np.testing.assert_allclose(thermal_voltage(298.15), 25.6926e-3, atol=0.05e-6)  # 6 digits given
     # SI Brochure 9th ed. (2019): k = 1.380649e-23 J/K, q = 1.602176634e-19 C exactly
@@ -80,7 +81,7 @@ def test_thermal_voltage_exact_si():
 
 
 def test_saturation_current_temperature_law():
-    # references.md [calc]: silicon defaults (E_g 1.11 eV, XTI 3, n 1) give about x4.4 per +10 K near 300 K
+    # [calc] SPICE temperature law (Massobrio and Antognetti, 2nd ed.; ngspice manual, diode model): silicon defaults (E_g 1.11 eV, XTI 3, n 1) give about x4.4 per +10 K near 300 K
     ratio = saturation_current(1e-14, 1.0, 1.11, 3.0, 310.0, 300.0) / 1e-14
     np.testing.assert_allclose(ratio, 4.4, rtol=0.01)  # "about 4.4": two digits
     # the law as written in Massobrio and Antognetti (SPICE diode model), recomputed here
@@ -99,7 +100,7 @@ def test_saturation_current_temperature_law():
 
 
 def test_banwell_reference_values():
-    # references.md [calc] from Banwell and Jayakumar (2000): I_s = 1e-14 A, n = 1, 300 K
+    # [calc] from Banwell and Jayakumar, Electronics Letters 36(4), 291-292 (2000): I_s = 1e-14 A, n = 1, 300 K
     nvt = thermal_voltage(300.0)
     for v, r, published in [(5.0, 1e3, 4.307456e-3), (10.0, 10e3, 0.9346955e-3), (100.0, 100e3, 0.9934538e-3)]:
         exact = banwell_current(v, r, 1e-14, nvt)
@@ -234,9 +235,9 @@ def shunted_ammeter(i_fs, r_m, full_scale, r_sh):
 
 
 @pytest.mark.parametrize("i_fs,r_m,i_range,published,digits_rtol", [
-    (1e-3, 43.0, 1.0, 43.04e-3, 1e-4),  # textbook example (references.md): 43.04 mohm
-    (50e-6, 1e3, 500e-6, 111.1, 5e-4),  # textbook example (references.md): 111.1 ohm
-    (1e-3, 25.0, 2.0, 12.506e-3, 5e-5),  # textbook example (references.md): 12.506 mohm
+    (1e-3, 43.0, 1.0, 43.04e-3, 1e-4),  # textbook worked example of R_m I_fs / (I - I_fs): 43.04 mohm
+    (50e-6, 1e3, 500e-6, 111.1, 5e-4),  # textbook worked example of R_m I_fs / (I - I_fs): 111.1 ohm
+    (1e-3, 25.0, 2.0, 12.506e-3, 5e-5),  # textbook worked example of R_m I_fs / (I - I_fs): 12.506 mohm
 ])
 def test_shunt_formula(i_fs, r_m, i_range, published, digits_rtol):
     r_sh = r_m * i_fs / (i_range - i_fs)  # R_sh = R_m I_fs / (I - I_fs)
@@ -268,7 +269,7 @@ def ayrton_segments(i_fs, r_m, ranges):
 
 
 def test_ayrton_worked_example():
-    # science-ebooks.com "Ayrton shunt" worked example (references.md): 1 mA, 50 ohm movement,
+    # science-ebooks.com "Ayrton shunt" worked example: 1 mA, 50 ohm movement,
     # ring 40 + 9 + 1 ohm for 2 / 10 / 100 mA; input resistances 25 / 9 / 0.99 ohm.
     i_fs, r_m, ranges = 1e-3, 50.0, [2e-3, 10e-3, 100e-3]
     r_t, seg = ayrton_segments(i_fs, r_m, ranges)
@@ -286,7 +287,7 @@ def test_ayrton_worked_example():
 
 
 def test_ayrton_calc_ring():
-    # references.md [calc]: 50 uA, 2 kohm with 1 mA / 10 mA / 100 mA / 1 A: ring 105.263 ohm,
+    # [calc] from the Ayrton-shunt formulas (Wikipedia, "Ayrton shunt"): 50 uA, 2 kohm with 1 mA / 10 mA / 100 mA / 1 A: ring 105.263 ohm,
     # segments 94.737 / 9.4737 / 0.94737 / 0.10526 ohm
     i_fs, r_m, ranges = 50e-6, 2e3, [1e-3, 10e-3, 100e-3, 1.0]
     r_t, seg = ayrton_segments(i_fs, r_m, ranges)

@@ -41,7 +41,7 @@ def banwell_current(v, r, i_s, nvt):
 
 
 def test_banwell_formula_reproduces_published_check_values():
-    # references.md [calc] values from the Banwell-Jayakumar formula: I_s = 1e-14 A, n = 1, 300 K
+    # [calc] values from the Banwell-Jayakumar formula (Electronics Letters 36(4), 2000): I_s = 1e-14 A, n = 1, 300 K
     nvt = vt(300.0)
     got = [banwell_current(5.0, 1e3, 1e-14, nvt), banwell_current(10.0, 10e3, 1e-14, nvt),
            banwell_current(100.0, 100e3, 1e-14, nvt)]
@@ -85,14 +85,34 @@ def test_misrange_power_in_multiplier_segment_matches_hand_computation():
     assert json.dumps(out, allow_nan=False)
 
 
-def test_hazard_needs_a_hazardous_voltage():
-    # IEC 61010-1:2010 clause 6.3.1: 70 V DC is the hazardous-live limit for DC
+def test_a_hazardous_input_alone_makes_no_hazard():
+    # IEC 61010-1:2010 clause 6.3.1: 70 V DC is the hazardous-live limit for DC. Above it the
+    # cautions appear, but the verdict follows the named rules (docs/safety.md): R1 at
+    # 71^2 x 8k / 10k^2 = 0.40 W is 1.6 x its 0.25 W rating, below the 10 x of the ignition rule,
+    # so the case is overstress, not hazard
     spec = unclamped_voltmeter()
     assert apply_stimulus(spec, "0.5 V", volts=69.0)["verdict"] == "overstress"
     out = apply_stimulus(spec, "0.5 V", volts=71.0)
-    assert out["verdict"] == "hazard"
+    assert out["verdict"] == "overstress" and out["hazards"] == []
     assert out["cautions"] and any("IEC 61010-1" in c for c in out["cautions"])
     assert apply_stimulus(spec, "0.5 V", volts=0.5)["cautions"] == []
+    # at 200 V R1 takes 200^2 x 8k / 10k^2 = 3.2 W = 12.8 x its rating, held indefinitely: ignition
+    hot = apply_stimulus(spec, "0.5 V", volts=200.0)
+    assert hot["verdict"] == "hazard"
+    assert [(h["rule"], h["part"]) for h in hot["hazards"]] == [("ignition", "R1")]
+    np.testing.assert_allclose(hot["hazards"][0]["value"], 200.0 ** 2 * 8e3 / 10e3 ** 2, rtol=1e-12)
+
+
+def test_a_pegged_movement_at_a_hazardous_input_is_never_hazard_by_itself():
+    # a 10 V range with its multiplier rated for anything: 100 V DC (hazardous, IEC 61010-1 6.3.1)
+    # drives the movement to 100 / 200k / 50 uA = 10 x full scale (Ohm's law): the movement is
+    # beyond its end stop and its limits, but no hazard rule applies to a movement
+    spec = unclamped_voltmeter(power=1e3, vmax=1e6)
+    out = apply_stimulus(spec, "10 V", volts=100.0)
+    np.testing.assert_allclose(out["movement_mean_multiple"], 100.0 / 200e3 / 50e-6, rtol=1e-12)
+    assert out["hazardous_voltage"] is True
+    assert out["verdict"] == "overstress" and out["hazards"] == []
+    assert out["decided_by"].startswith("M1 movement")
 
 
 def test_sine_rms_power_of_linear_branch_is_vrms_squared_over_r():

@@ -21,8 +21,8 @@ See ``docs/cycle.md``.
 """
 
 from .adaptive import AdaptiveRule, adapt, extreme_rows
-from .prearc import (PreArcing, joule_integral_sine, pre_arcing_on_grid, pre_arcing_sine,
-                     pre_arcing_time_sine)
+from .prearc import (Onsets, PreArcing, joule_integral_sine, onsets_on_grid, pre_arcing_on_grid, pre_arcing_sine,
+                     pre_arcing_time_sine, window_integral)
 from .rules import CycleRule, equal_rule, fixed_rule, gauss_kronrod, gauss_legendre
 from .shapes import DC, SHAPES, FlatTopMains, Impulse, OddHarmonics, Shape, Sine, Square, Triangle, shape_named
 from .shared import SharedRule, Target, adapt_shared
@@ -30,4 +30,4 @@ from .shared import SharedRule, Target, adapt_shared
 __all__ = ["Shape", "DC", "Sine", "Square", "Triangle", "Impulse", "OddHarmonics", "FlatTopMains", "SHAPES",
            "shape_named", "CycleRule", "fixed_rule", "equal_rule", "gauss_legendre", "gauss_kronrod",
            "AdaptiveRule", "adapt", "extreme_rows", "PreArcing", "joule_integral_sine", "pre_arcing_time_sine",
-           "pre_arcing_sine", "pre_arcing_on_grid", "Target", "SharedRule", "adapt_shared"]
+           "pre_arcing_sine", "pre_arcing_on_grid", "Onsets", "onsets_on_grid", "window_integral", "Target", "SharedRule", "adapt_shared"]

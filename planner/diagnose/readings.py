@@ -24,6 +24,7 @@ import csv
 import difflib
 import math
 import os
+import stat
 from dataclasses import dataclass
 
 import numpy as np
@@ -110,9 +111,13 @@ def _nearest(name: str, names) -> str | None:
 
 def _read_text(path: str) -> str:
     try:
-        size = os.stat(path).st_size
+        st = os.stat(path)
+        size = st.st_size
         if os.path.isdir(path):
             raise ProjectError("is a folder; give the path of a CSV file of readings", path)
+        if not stat.S_ISREG(st.st_mode):  # a FIFO would wait for a writer
+            raise ProjectError("is a FIFO, a device or a socket, not a CSV file; save the readings as a file and "
+                               "give its path", path)
         if size > MAX_READINGS_BYTES:
             raise ProjectError(f"the readings file is {size / 1e6:.1f} MB; a file of readings is at most "
                                f"{MAX_READINGS_BYTES / 1e6:g} MB: give the readings of one meter", path)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import math
 import os
+import stat
 from dataclasses import dataclass
 
 import numpy as np
@@ -83,7 +84,11 @@ def read_points(path) -> Points:
     """
     path = str(path)
     try:
-        size = os.stat(path).st_size
+        st = os.stat(path)
+        size = st.st_size
+        if not (stat.S_ISREG(st.st_mode) or stat.S_ISDIR(st.st_mode)):  # a FIFO would wait for a writer
+            raise ProjectError("is a FIFO, a device or a socket, not a CSV file; save the points as a file and give "
+                               "its path", path)
         if size > MAX_POINTS_BYTES:
             raise ProjectError(f"the points file is {size / 1e6:.1f} MB; a file of measured points is at most "
                                f"{MAX_POINTS_BYTES / 1e6:g} MB: give the points of one diode", path)

@@ -2,7 +2,7 @@
 
 :func:`build_dossier` runs the analyses (sizing where the file asks for it, the
 accuracy check, the misrange faults), lays the results out with reportlab's
-platypus (:mod:`.layout`, :mod:`.sections`), draws the charts and the schematic
+platypus (:mod:`.layout`, :mod:`.sections`: one module per section), draws the charts and the schematic
 as vector graphics (:mod:`.charts`, :mod:`.schematic`) and writes the PDF, and,
 when asked for by name, the bill of materials as CSV, atomically and together.
 
@@ -35,12 +35,11 @@ from pathlib import Path
 from typing import Callable
 
 from ..design import Design, as_design
-from ..engine import Engine
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
 from ..sizing import sizing_json
 from ..wiring import choose_style, wire_switch
-from . import layout, sections
+from . import layout, restoration as restoration_section, scaleplate, sections
 from .sections import Context
 
 __all__ = ["build_dossier", "gather", "render", "bom_csv", "DossierLayoutError"]
@@ -105,14 +104,14 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
                   samples=int(spec.analysis.samples if samples is None else samples),
                   seed=int(spec.analysis.seed if seed is None else seed))
     ctx.net = design.net
-    ctx.engine = Engine(design)
     if design.sizing is not None:
         ctx.sizing = sizing_json(design.sizing)
         ctx.cautions += list(ctx.sizing.get("cautions", []))
     say("dossier: accuracy check")
     try:
-        ctx.check = accuracy.check_project(design, samples=ctx.samples, seed=ctx.seed,
-                                           progress=(lambda m: say(f"dossier: check {m}")))
+        ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
+                                      progress=(lambda m: say(f"dossier: check {m}")))
+        ctx.check = ctx.accuracy.json
     except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["check"] = _error_text(exc)
     say("dossier: misrange faults")
@@ -120,15 +119,32 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.faults = faults.faults_project(design)
     except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["faults"] = _error_text(exc)
-    style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
-    ctx.wiring = wire_switch(design.net, style, style_source=source)
+    if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
+        style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
+        ctx.wiring = wire_switch(design.net, style, style_source=source)
     extra = [c for c in faults.cautions_for(spec) if c not in ctx.cautions]
     ctx.cautions += extra
     return ctx
 
 
-def render(ctx: Context, *, progress: Callable[[str], None] | None = None) -> bytes:
+def render(ctx: Context, *, progress: Callable[[str], None] | None = None, plate=None,
+           diagnosis: dict | None = None, readings: str | None = None) -> bytes:
     """Lay the dossier out and return the PDF bytes.
+
+    Parameters
+    ----------
+    ctx : Context
+        What :func:`gather` found.
+    plate : planner.scale.ScaleResult or str, optional
+        The scale plate the command computed (:func:`planner.scale.scale_project`),
+        or the error text when it could not be made; rendered after the build
+        section (:mod:`.scaleplate`).
+    diagnosis : dict, optional
+        The diagnosis of the meter from its readings, as
+        :func:`planner.diagnose.diagnosis_json` gives it; rendered as the
+        restoration section after the summary (:mod:`.restoration`).
+    readings : str, optional
+        The readings file's name, for the restoration section's text.
 
     Raises
     ------
@@ -140,9 +156,16 @@ def render(ctx: Context, *, progress: Callable[[str], None] | None = None) -> by
     say = progress or (lambda message: None)
     spec = ctx.spec
     story = []
+    units = {q.name: q.kind.unit for q in ctx.net.positions} if ctx.net is not None else {}
+    after = {  # the sections of the results the command computed, each after its neighbour
+        "summary": lambda: restoration_section.restoration(diagnosis, readings=readings, units=units),
+        "build": lambda: scaleplate.scale_plate(ctx.heading(scaleplate.TITLE), plate),
+    }
     for name in sections.SECTIONS:
         say(f"dossier: {name}")
         story += getattr(sections, name)(ctx)
+        if name in after:
+            story += after[name]()
     buf = io.BytesIO()
     head = f"{spec.title} \u2013 revision {spec.revision or 'n/a'}"
     foot = f"planner {ctx.version}  \u00b7  {ctx.date}  \u00b7  file SHA-256 {(ctx.sha256 or 'n/a')[:16]}"
@@ -183,7 +206,8 @@ def bom_csv(ctx: Context) -> str:
 
 def build_dossier(design, out_path, *, bom_path=None, date=None,
                   progress: Callable[[str], None] | None = None, samples: int | None = None,
-                  seed: int | None = None) -> Path:
+                  seed: int | None = None, plate=None, diagnosis: dict | None = None, readings=None,
+                  protect=()) -> Path:
     """Build the design dossier of a project and write it atomically.
 
     Parameters
@@ -205,6 +229,12 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
         Receives a short message before each step.
     samples, seed : int, optional
         Monte Carlo builds and seed; the project's ``analysis`` settings by default.
+    plate, diagnosis, readings : optional
+        Results the command computed for the scale-plate and restoration
+        sections (see :func:`render`); the dossier renders them and computes
+        neither.
+    protect : sequence of path-like
+        More inputs never to be overwritten (the readings file).
 
     Returns
     -------
@@ -230,7 +260,7 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
 
     spec = design.spec if isinstance(design, Design) else design
     out = Path(out_path)
-    protect = [spec.path] if getattr(spec, "path", None) else []
+    protect = ([spec.path] if getattr(spec, "path", None) else []) + list(protect)
     if out.suffix.lower() == ".csv":
         raise UsageError(f"the dossier is a PDF: name its output {out.with_suffix('.pdf').name} instead of "
                          f"{out.name}, and give --bom {out.name} for the bill of materials as CSV")
@@ -239,7 +269,8 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
     _date(spec, date)
     design = as_design(design)  # a project whose network cannot be built or checked is bad input
     ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress)
-    pdf = render(ctx, progress=progress)
+    pdf = render(ctx, progress=progress, plate=plate, diagnosis=diagnosis,
+                 readings=None if readings is None else str(readings))
     items = [(out, pdf)] + ([(bom_path, bom_csv(ctx))] if bom_path is not None else [])
     write_all(items, protect=protect)
     return out

@@ -14,8 +14,14 @@ from dataclasses import dataclass, field
 
 from reportlab.graphics.shapes import Drawing, Group, Line, PolyLine, Rect, String
 from reportlab.lib import colors
+from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from .layout import ACCENT, ACCENT2, INK, MUTED, PALE, RULE
+
+#: Text sizes of the charts [pt]: tick labels, legends and notes; axis labels (drawn at 1:1, so
+#: these are the printed sizes).
+TICK_PT = 7.0
+LABEL_PT = 7.6
 
 __all__ = ["Series", "nice_ticks", "line_chart", "histogram", "message_drawing"]
 
@@ -125,7 +131,10 @@ def line_chart(width: float, height: float, title: str, xlabel: str, ylabel: str
     series = [s for s in series if s is not None]
     d = Drawing(width, height)
     left, right, top = 44.0, 8.0, 16.0
-    legend_rows = (len(series) + len(bands) + 1) // 2
+    labels = [s.label for s in series if s.label] + [b.label for b in bands]
+    per_row = 2 if all(stringWidth(lab, "Helvetica", TICK_PT) <= (width - left - right) / 2 - 22
+                       for lab in labels) else 1
+    legend_rows = (len(labels) + per_row - 1) // per_row
     bottom = 28.0 + 10.0 * legend_rows
     pw, ph = width - left - right, height - top - bottom
     d.add(String(0, height - 10, title, fontName="Helvetica-Bold", fontSize=8, fillColor=INK))
@@ -182,13 +191,13 @@ def line_chart(width: float, height: float, title: str, xlabel: str, ylabel: str
         y = fy(v)
         d.add(Line(left, y, left + pw, y, strokeColor=RULE, strokeWidth=0.3))
         lab = _tick_label(v, ystep) if not log_y else _tick_label(v, v)
-        d.add(String(left - 3, y - 2.5, lab, fontName="Helvetica", fontSize=6.5, fillColor=MUTED,
+        d.add(String(left - 3, y - 2.5, lab, fontName="Helvetica", fontSize=TICK_PT, fillColor=MUTED,
                      textAnchor="end"))
     for v in xt:
         x = fx(v)
         d.add(Line(x, bottom, x, bottom + ph, strokeColor=RULE, strokeWidth=0.3))
         lab = _tick_label(v, xstep) if not log_x else _tick_label(v, v)
-        d.add(String(x, bottom - 9, lab, fontName="Helvetica", fontSize=6.5, fillColor=MUTED,
+        d.add(String(x, bottom - 9, lab, fontName="Helvetica", fontSize=TICK_PT, fillColor=MUTED,
                      textAnchor="middle"))
     if not log_y and y0 < 0 < y1:
         d.add(Line(left, fy(0), left + pw, fy(0), strokeColor=MUTED, strokeWidth=0.6))
@@ -197,13 +206,13 @@ def line_chart(width: float, height: float, title: str, xlabel: str, ylabel: str
         if y0 <= v <= y1:
             d.add(Line(left, fy(v), left + pw, fy(v), strokeColor=INK, strokeWidth=0.5,
                        strokeDashArray=(2, 2)))
-            d.add(String(left + pw - 2, fy(v) + 2, lab, fontName="Helvetica", fontSize=6,
+            d.add(String(left + pw - 2, fy(v) + 2, lab, fontName="Helvetica", fontSize=TICK_PT,
                          fillColor=INK, textAnchor="end"))
     for v, lab in vlines:
         if x0 <= v <= x1:
             d.add(Line(fx(v), bottom, fx(v), bottom + ph, strokeColor=INK, strokeWidth=0.5,
                        strokeDashArray=(2, 2)))
-            d.add(String(fx(v) + 2, bottom + ph - 8, lab, fontName="Helvetica", fontSize=6,
+            d.add(String(fx(v) + 2, bottom + ph - 8, lab, fontName="Helvetica", fontSize=TICK_PT,
                          fillColor=INK))
     # lines
     for i, s in enumerate(series):
@@ -225,19 +234,19 @@ def line_chart(width: float, height: float, title: str, xlabel: str, ylabel: str
             for k in range(0, len(pts), 2):
                 d.add(Rect(pts[k] - 1.4, pts[k + 1] - 1.4, 2.8, 2.8, fillColor=colour, strokeColor=None))
     # axis labels
-    d.add(String(left + pw / 2, bottom - 19, xlabel, fontName="Helvetica", fontSize=7, fillColor=INK,
+    d.add(String(left + pw / 2, bottom - 19, xlabel, fontName="Helvetica", fontSize=LABEL_PT, fillColor=INK,
                  textAnchor="middle"))
-    g = Group(String(0, 0, ylabel, fontName="Helvetica", fontSize=7, fillColor=INK, textAnchor="middle"))
+    g = Group(String(0, 0, ylabel, fontName="Helvetica", fontSize=LABEL_PT, fillColor=INK, textAnchor="middle"))
     g.rotate(90)
     g.translate(bottom + ph / 2, -10)
     d.add(g)
     # legend
     items = [(s.label, s.colour or _COLOURS[i % len(_COLOURS)],
               s.dash if s.dash is not None else _DASHES[i % len(_DASHES)], None)
-             for i, s in enumerate(series)]
+             for i, s in enumerate(series) if s.label]
     items += [(b.label, None, None, b.fill) for b in bands]
     for k, (label, colour, dash, fill) in enumerate(items):
-        col, row = k % 2, k // 2
+        col, row = k % per_row, k // per_row
         lx = left + col * pw / 2
         ly = bottom - 30 - 10 * row
         if fill is not None:
@@ -245,14 +254,12 @@ def line_chart(width: float, height: float, title: str, xlabel: str, ylabel: str
         else:
             d.add(Line(lx, ly + 2, lx + 14, ly + 2, strokeColor=colour, strokeWidth=1.3,
                        strokeDashArray=dash))
-        d.add(String(lx + 18, ly, _clip(label, pw / 2 - 22), fontName="Helvetica", fontSize=6.5,
+        d.add(String(lx + 18, ly, _clip(label, pw / per_row - 22, TICK_PT), fontName="Helvetica", fontSize=TICK_PT,
                      fillColor=INK))
     return d
 
 
-def _clip(text: str, width: float, size: float = 6.5) -> str:
-    from reportlab.pdfbase.pdfmetrics import stringWidth
-
+def _clip(text: str, width: float, size: float = 7.0) -> str:
     if stringWidth(text, "Helvetica", size) <= width:
         return text
     while text and stringWidth(text + "...", "Helvetica", size) > width:
@@ -283,8 +290,7 @@ def histogram(width: float, height: float, title: str, xlabel: str, edges, count
     left, right, top, bottom = 44.0, 8.0, 16.0, 38.0 if note else 30.0
     pw, ph = width - left - right, height - top - bottom
     d.add(String(0, height - 10, title, fontName="Helvetica-Bold", fontSize=8, fillColor=INK))
-    xs = edges + [v for v, _ in limits]
-    xt = nice_ticks(min(xs), max(xs))
+    xt = nice_ticks(min(edges), max(edges))  # the axis spans the data; limits beyond it are named at its edge
     yt = nice_ticks(0.0, max(max(counts), 1.0))
     x0, x1, y1 = xt[0], xt[-1], yt[-1]
 
@@ -298,10 +304,10 @@ def histogram(width: float, height: float, title: str, xlabel: str, edges, count
     for v in yt:
         d.add(Line(left, fy(v), left + pw, fy(v), strokeColor=RULE, strokeWidth=0.3))
         d.add(String(left - 3, fy(v) - 2.5, _tick_label(v, max(ystep, 1.0)), fontName="Helvetica",
-                     fontSize=6.5, fillColor=MUTED, textAnchor="end"))
+                     fontSize=TICK_PT, fillColor=MUTED, textAnchor="end"))
     xstep = (xt[1] - xt[0]) if len(xt) > 1 else 1.0
     for v in xt:
-        d.add(String(fx(v), bottom - 9, _tick_label(v, xstep), fontName="Helvetica", fontSize=6.5,
+        d.add(String(fx(v), bottom - 9, _tick_label(v, xstep), fontName="Helvetica", fontSize=TICK_PT,
                      fillColor=MUTED, textAnchor="middle"))
         d.add(Line(fx(v), bottom, fx(v), bottom - 2, strokeColor=INK, strokeWidth=0.5))
     for a, b, c in zip(edges[:-1], edges[1:], counts):
@@ -314,15 +320,21 @@ def histogram(width: float, height: float, title: str, xlabel: str, edges, count
                        strokeDashArray=(3, 2)))
             anchor = "end" if fx(v) > left + pw / 2 else "start"
             dx = -2 if anchor == "end" else 2
-            d.add(String(fx(v) + dx, bottom + ph - 8, lab, fontName="Helvetica", fontSize=6,
+            d.add(String(fx(v) + dx, bottom + ph - 8, lab, fontName="Helvetica", fontSize=TICK_PT,
                          fillColor=INK, textAnchor=anchor))
+        else:  # off the axis: named inside the plot at the side it lies on
+            side_right = v > x1
+            d.add(String(left + pw - 3 if side_right else left + 3, bottom + ph - 9,
+                         ("" if side_right else "< ") + f"{lab} off the axis" + (" >" if side_right else ""),
+                         fontName="Helvetica",
+                         fontSize=TICK_PT, fillColor=INK, textAnchor="end" if side_right else "start"))
     d.add(Rect(left, bottom, pw, ph, fillColor=None, strokeColor=INK, strokeWidth=0.6))
-    d.add(String(left + pw / 2, bottom - 19, xlabel, fontName="Helvetica", fontSize=7, fillColor=INK,
+    d.add(String(left + pw / 2, bottom - 19, xlabel, fontName="Helvetica", fontSize=LABEL_PT, fillColor=INK,
                  textAnchor="middle"))
     if note:
-        d.add(String(left + pw / 2, bottom - 29, note, fontName="Helvetica", fontSize=6.8,
+        d.add(String(left + pw / 2, bottom - 29, _clip(note, pw + 2 * right, TICK_PT), fontName="Helvetica", fontSize=TICK_PT,
                      fillColor=MUTED, textAnchor="middle"))
-    g = Group(String(0, 0, "builds", fontName="Helvetica", fontSize=7, fillColor=INK, textAnchor="middle"))
+    g = Group(String(0, 0, "builds", fontName="Helvetica", fontSize=LABEL_PT, fillColor=INK, textAnchor="middle"))
     g.rotate(90)
     g.translate(bottom + ph / 2, -10)
     d.add(g)

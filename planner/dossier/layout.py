@@ -60,6 +60,7 @@ CAUTION_PALE = colors.HexColor("#FBF1E6")
 VERDICT_FILL = {
     "ok": colors.HexColor("#E3EEDD"),
     "pegs": colors.HexColor("#F2E2A0"),
+    "opens": colors.HexColor("#E8D27A"),
     "overstress": colors.HexColor("#D98B55"),
     "hazard": colors.HexColor("#7E1F2C"),
     "error": colors.HexColor("#C9CED2"),

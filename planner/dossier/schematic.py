@@ -31,7 +31,6 @@ from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rec
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from ..model import Contact, Diode, Fuse, MovementElement, Resistor
 from .layout import ACCENT, INK, MUTED, PALE
 from .text import value_text
 
@@ -41,8 +40,11 @@ ROW = 50.0          # row pitch [pt]
 COL = 76.0          # column pitch [pt]
 THROW = 140.0       # length of a switch throw [pt]
 LEAD = 62.0         # lead from the top row to the input terminals [pt]
-_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "contact": 3, "diode": 4}
+_KIND_RANK = {"movement": 0, "resistor": 1, "fuse": 2, "ptc": 2, "contact": 3, "diode": 4, "varistor": 4,
+              "battery": 1, "rheostat": 1}
 WHITE = colors.white
+#: Smallest text size on paper [pt] (6 pt is the least a print reader is asked to read).
+MIN_TEXT_PT = 6.3
 
 
 class Unsuitable(Exception):
@@ -64,6 +66,7 @@ class Compound:
     members: tuple
 
     kind = "resistor"
+    symbol = "resistor"
     trimmer = False
 
     @property
@@ -123,7 +126,7 @@ def _merge(elements, keep_nodes) -> list:
         changed = False
         pairs = defaultdict(list)
         for e in items:
-            if isinstance(e, (Resistor, Compound)):
+            if e.symbol == "resistor":
                 pairs[frozenset(e.nodes)].append(e)
         for key, group in sorted(pairs.items(), key=lambda kv: sorted(kv[0])):
             if len(group) > 1 and len(key) == 2:
@@ -141,7 +144,7 @@ def _merge(elements, keep_nodes) -> list:
                 touch[n].append(e)
         for n in sorted(touch):
             es = touch[n]
-            if n in keep_nodes or len(es) != 2 or not all(isinstance(e, (Resistor, Compound)) for e in es):
+            if n in keep_nodes or len(es) != 2 or not all(e.symbol == "resistor" for e in es):
                 continue
             e1, e2 = es
             if e1.nodes.count(n) != 1 or e2.nodes.count(n) != 1:
@@ -182,14 +185,14 @@ def common_node(net) -> str:
 def _weight(spec, e) -> float:
     if isinstance(e, Compound):
         return max(_value_of(e), 1e-9)
-    if isinstance(e, Resistor):
+    if e.symbol == "resistor":
         return max(e.value_ohm, 1e-9)
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         return max(spec.movement.r_coil_ohm, 1e-9)
-    if isinstance(e, Fuse):
+    if e.symbol == "fuse":
         f = spec.parts.fuses.get(e.model)
         return max(f.r_cold_ohm if f else 0.0, 1e-9)
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return max(e.r_ohm, 1e-9)
     return math.inf
 
@@ -210,20 +213,34 @@ def _wrap_list(items, width=15) -> list[str]:
 def _label_lines(spec, e) -> list[str]:
     if isinstance(e, Compound):
         return [_names(e)] + _value_lines(e)
-    if isinstance(e, Resistor):
+    if e.symbol == "resistor":
         extra = " trim" if e.trimmer else ""
         return [e.name, value_text(e.value_ohm, "ohm") + extra]
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         m = spec.movement
         return [e.name, value_text(m.i_fs_a, "A") + " fs", value_text(m.r_coil_ohm, "ohm")]
-    if isinstance(e, Diode):
+    if e.symbol == "diode":
         return [e.name, e.model]
-    if isinstance(e, Fuse):
+    if e.symbol == "fuse":
         f = spec.parts.fuses.get(e.model)
         return [e.name, value_text(f.rated_current_a, "A") if f else e.model]
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return [e.name] + (_wrap_list(e.closed_in) or ["never closed"])
+    if e.symbol == "battery":
+        return [e.name, value_text(e.voltage_v, "V")]
+    if e.symbol == "rheostat":
+        return [e.name, value_text(e.max_ohm, "ohm") + " adj"]
     return [e.name]
+
+
+def text_factor(scale: float) -> float:
+    """How much to enlarge a drawing's text so it prints at :data:`MIN_TEXT_PT` or more once scaled.
+
+    The drawing's smallest text is 6.2 units; a drawing scaled by ``scale`` to fit
+    the page prints it at ``6.2 * scale`` pt, so below ``MIN_TEXT_PT / 6.2`` the
+    text (and its line spacing) grows by the inverse.
+    """
+    return max(1.0, MIN_TEXT_PT / (6.2 * scale))
 
 
 # --- symbols (drawn about a centre (x, y) on a vertical or horizontal stroke) ----------------------
@@ -240,12 +257,29 @@ def _fuse(g, x, y):
     g.add(Line(x, y - 11, x, y + 11, strokeColor=INK, strokeWidth=0.7))
 
 
-def _movement(g, x, y, plus_up: bool):
+def _nonlinear_resistor(g, x, y, hooked: bool):
+    """A resistor crossed by a slanted bar (IEC 60617 variable by its own nature): with a foot for a PTC."""
+    _resistor(g, x, y, True, False)
+    g.add(Line(x - 8, y - 11, x + 8, y + 11, strokeColor=INK, strokeWidth=0.8))
+    if hooked:
+        g.add(Line(x - 8, y - 11, x - 13, y - 11, strokeColor=INK, strokeWidth=0.8))
+
+
+def _movement(g, x, y, plus_up: bool, tf: float = 1.0):
     g.add(Circle(x, y, 10, fillColor=WHITE, strokeColor=INK, strokeWidth=0.9))
     g.add(Line(x - 5, y - 5, x + 5.5, y + 5.5, strokeColor=ACCENT, strokeWidth=0.9))
     g.add(Polygon([x + 6.5, y + 6.5, x + 1.8, y + 5.0, x + 5.0, y + 1.8], fillColor=ACCENT, strokeColor=None))
-    sy = y + 13 if plus_up else y - 16
-    g.add(String(x - 7.5, sy, "+", fontName="Helvetica-Bold", fontSize=7, fillColor=INK))
+    sy = y + 13 if plus_up else y - 11 - 7 * tf
+    g.add(String(x - 7.5 - 2 * (tf - 1), sy, "+", fontName="Helvetica-Bold", fontSize=7 * tf, fillColor=INK))
+
+
+def _battery(g, x, y, plus_up: bool, tf: float = 1.0):
+    """A cell: the long plate is plus."""
+    s = 1 if plus_up else -1
+    g.add(Rect(x - 9, y - 4, 18, 8, fillColor=WHITE, strokeColor=None))
+    g.add(Line(x - 9, y + 2.5 * s, x + 9, y + 2.5 * s, strokeColor=INK, strokeWidth=1.1))
+    g.add(Line(x - 5, y - 2.5 * s, x + 5, y - 2.5 * s, strokeColor=INK, strokeWidth=2.0))
+    g.add(String(x + 11, y + 2 * s - 2, "+", fontName="Helvetica-Bold", fontSize=7 * tf, fillColor=INK))
 
 
 def _diode(g, x, y, up: bool):
@@ -268,43 +302,54 @@ def _contact(g, x, y, vertical: bool):
 
 def _gap(e) -> float:
     """Half the length of the stroke a symbol covers (the wire stops there)."""
-    if isinstance(e, MovementElement):
+    if e.symbol == "movement":
         return 10.0
-    if isinstance(e, Contact):
+    if e.symbol == "contact":
         return 8.7
-    if isinstance(e, Diode):
+    if e.symbol == "diode":
         return 5.0
     return 11.0
 
 
-def _symbol(g, spec, e, x, y, lo_node, hi_node):
-    if isinstance(e, Compound):
-        _resistor(g, x, y, True, False)
-        if e.how == "parallel":
-            g.add(Line(x - 4, y - 11, x + 4, y + 11, strokeColor=INK, strokeWidth=0.5))
-            g.add(Line(x - 4, y + 11, x + 4, y - 11, strokeColor=INK, strokeWidth=0.5))
-        else:
-            for k in range(1, min(len(e.members), 4)):
-                yy = y - 11 + 22 * k / min(len(e.members), 4)
-                g.add(Line(x - 4, yy, x + 4, yy, strokeColor=INK, strokeWidth=0.5))
-    elif isinstance(e, Resistor):
-        _resistor(g, x, y, True, e.trimmer)
-    elif isinstance(e, Fuse):
-        _fuse(g, x, y)
-    elif isinstance(e, MovementElement):
-        _movement(g, x, y, plus_up=(e.a == hi_node))
-    elif isinstance(e, Diode):
-        _diode(g, x, y, up=(e.cathode == hi_node))
-    elif isinstance(e, Contact):
-        _contact(g, x, y, True)
+def _compound(g, e, x, y):
+    _resistor(g, x, y, True, False)
+    if e.how == "parallel":
+        g.add(Line(x - 4, y - 11, x + 4, y + 11, strokeColor=INK, strokeWidth=0.5))
+        g.add(Line(x - 4, y + 11, x + 4, y - 11, strokeColor=INK, strokeWidth=0.5))
+    else:
+        for k in range(1, min(len(e.members), 4)):
+            yy = y - 11 + 22 * k / min(len(e.members), 4)
+            g.add(Line(x - 4, yy, x + 4, yy, strokeColor=INK, strokeWidth=0.5))
 
 
-def _labels(g, lines, x, y, anchor="start"):
+#: How each part's symbol (:attr:`planner.parts.Part.symbol`) is drawn on a vertical stroke:
+#: ``draw(group, element, x, y, node_below, node_above, text_factor)``.
+SYMBOLS = {
+    "resistor": lambda g, e, x, y, lo, hi, tf: (_compound(g, e, x, y) if isinstance(e, Compound)
+                                                else _resistor(g, x, y, True, e.trimmer)),
+    "fuse": lambda g, e, x, y, lo, hi, tf: _fuse(g, x, y),
+    "movement": lambda g, e, x, y, lo, hi, tf: _movement(g, x, y, plus_up=(e.a == hi), tf=tf),
+    "diode": lambda g, e, x, y, lo, hi, tf: _diode(g, x, y, up=(e.cathode == hi)),
+    "contact": lambda g, e, x, y, lo, hi, tf: _contact(g, x, y, True),
+    "rheostat": lambda g, e, x, y, lo, hi, tf: _resistor(g, x, y, True, True),
+    "battery": lambda g, e, x, y, lo, hi, tf: _battery(g, x, y, plus_up=(e.a == hi), tf=tf),
+    "ptc": lambda g, e, x, y, lo, hi, tf: _nonlinear_resistor(g, x, y, hooked=True),
+    "varistor": lambda g, e, x, y, lo, hi, tf: _nonlinear_resistor(g, x, y, hooked=False),
+}
+
+
+def _symbol(g, spec, e, x, y, lo_node, hi_node, tf=1.0):
+    """Draw the symbol the part names; a part without a drawing of its own is a plain box."""
+    draw = SYMBOLS.get(e.symbol, lambda g, e, x, y, lo, hi, tf: _resistor(g, x, y, True, False))
+    draw(g, e, x, y, lo_node, hi_node, tf)
+
+
+def _labels(g, lines, x, y, anchor="start", tf=1.0):
     n = len(lines)
-    top = y + 4.0 * (n - 1) - 2
+    top = y + 4.0 * tf * (n - 1) - 2
     for i, t in enumerate(lines):
-        g.add(String(x, top - 8.0 * i, t, fontName="Helvetica-Bold" if i == 0 else "Helvetica",
-                     fontSize=6.8 if i == 0 else 6.3, fillColor=INK if i == 0 else MUTED,
+        g.add(String(x, top - 8.0 * tf * i, t, fontName="Helvetica-Bold" if i == 0 else "Helvetica",
+                     fontSize=(6.8 if i == 0 else 6.3) * tf, fillColor=INK if i == 0 else MUTED,
                      textAnchor=anchor))
 
 
@@ -312,13 +357,13 @@ def _dot(g, x, y):
     g.add(Circle(x, y, 1.9, fillColor=INK, strokeColor=None))
 
 
-def _terminal(g, x, y, text, anchor="middle", above=True):
+def _terminal(g, x, y, text, anchor="middle", above=True, tf=1.0):
     g.add(Circle(x, y, 3.2, fillColor=WHITE, strokeColor=INK, strokeWidth=1.0))
-    ty = y + 6 if above else y - 11
+    ty = y + 6 if above else y - 4 - 7 * tf
     lines = text.split("\n")
     for i, t in enumerate(lines):
-        g.add(String(x, ty + 8 * (len(lines) - 1 - i) if above else ty - 8 * i, t,
-                     fontName="Helvetica-Bold" if i == 0 else "Helvetica", fontSize=7 if i == 0 else 6.2,
+        g.add(String(x, ty + 8 * tf * (len(lines) - 1 - i) if above else ty - 8 * tf * i, t,
+                     fontName="Helvetica-Bold" if i == 0 else "Helvetica", fontSize=(7 if i == 0 else 6.2) * tf,
                      fillColor=INK if i == 0 else MUTED, textAnchor=anchor))
 
 
@@ -327,7 +372,7 @@ def _plan(spec, net):
     """Rows, columns and switch layout of the ladder drawing (no geometry yet)."""
     ground = common_node(net)
     elements = list(net.elements)
-    contacts = [e for e in elements if isinstance(e, Contact)]
+    contacts = [e for e in elements if e.symbol == "contact"]
     degree = defaultdict(int)
     for c in contacts:
         degree[c.a] += 1
@@ -335,7 +380,7 @@ def _plan(spec, net):
     fixed = nx.MultiGraph()
     fixed.add_node(ground)
     for e in elements:
-        if not isinstance(e, Contact):
+        if not e.symbol == "contact":
             fixed.add_edge(*e.nodes, key=e.name)
     grounded = nx.node_connected_component(fixed, ground)
     # a pole (switch wiper) carries several contacts and reaches the common only through them
@@ -345,7 +390,7 @@ def _plan(spec, net):
         return (c.a in poles) != (c.b in poles)
 
     while True:
-        ladder_elems = [e for e in elements if not (isinstance(e, Contact) and is_throw(e))]
+        ladder_elems = [e for e in elements if not (e.symbol == "contact" and is_throw(e))]
         g = nx.MultiGraph()
         g.add_node(ground)
         for e in ladder_elems:
@@ -356,7 +401,7 @@ def _plan(spec, net):
             break
         poles -= demote
     ladder_elems = [e for e in elements if all(n in comp for n in e.nodes)
-                    and not (isinstance(e, Contact) and is_throw(e))]
+                    and not (e.symbol == "contact" and is_throw(e))]
     throws = [c for c in contacts if is_throw(c)]
     terminals0 = {n for p in net.positions for n in p.input}
     keep = terminals0 | {n for c in contacts for n in c.nodes}
@@ -400,7 +445,7 @@ def _plan(spec, net):
     wg = nx.Graph()
     wg.add_node(ground)
     for e in ladder_elems:
-        if isinstance(e, Diode):
+        if e.symbol == "diode":
             continue
         a, b = e.nodes
         w = _weight(spec, e)
@@ -431,7 +476,7 @@ def _plan(spec, net):
         ra, rb = row[e.nodes[0]], row[e.nodes[1]]
         if ra == rb:
             raise Unsuitable(f"{e.name} joins a node to itself")
-        spans.append((min(ra, rb), max(ra, rb), _KIND_RANK[e.kind], e.name, e))
+        spans.append((min(ra, rb), max(ra, rb), _KIND_RANK.get(e.kind, 5), e.name, e))
     spans.sort(key=lambda s: (s[0], s[1] - s[0], s[2], s[3]))
     columns: list[list] = []
     for lo, hi, _, _, e in spans:
@@ -500,9 +545,18 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
         tap = c.b if pole == c.a else c.a
         pole_rows.setdefault(pole, []).append(row[tap])
     poles = sorted(pole_rows, key=lambda p: (-max(pole_rows[p]), p))
-    x_pole = {p: x_spine + THROW + 60.0 * i for i, p in enumerate(poles)}
     top_y = Y(len(rows) - 1)
     term_y = top_y + LEAD
+    # text grows when the drawing shrinks to fit (text_factor); the throws lengthen with it so the
+    # spine's labels keep clear of the contacts' (a few rounds settle the scale)
+    tf = 1.0
+    for _ in range(4):
+        throw = THROW * tf
+        x_pole = {p: x_spine + throw + 60.0 * i for i, p in enumerate(poles)}
+        width = (max(x_pole.values()) if x_pole else x_spine) + 110.0
+        height = term_y + 40.0
+        scale = min(1.0, max_width / width, max_height / height)
+        tf = text_factor(scale)
 
     # elements
     for ci, col in enumerate(columns):
@@ -513,8 +567,8 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             gap = _gap(e)
             g.add(Line(x, ya, x, ym - gap, strokeColor=INK, strokeWidth=0.9))
             g.add(Line(x, ym + gap, x, yb, strokeColor=INK, strokeWidth=0.9))
-            _symbol(g, spec, e, x, ym, rows[lo], rows[hi])
-            _labels(g, _label_lines(spec, e), x + 13, ym)
+            _symbol(g, spec, e, x, ym, rows[lo], rows[hi], tf)
+            _labels(g, _label_lines(spec, e), x + 13, ym, tf=tf)
     # buses and junction dots
     for n in rows:
         r = row[n]
@@ -539,7 +593,7 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             if ends >= 2 or (inner and ends >= 1):
                 _dot(g, X(c), y)
         if not (n == plan["ground"] or (n in plan["terminals"] and n not in plan["tapped"])):
-            g.add(String(x0 + 3, y + 3, n, fontName="Helvetica-Oblique", fontSize=6.2, fillColor=ACCENT))
+            g.add(String(x0 + 3, y + 3, n, fontName="Helvetica-Oblique", fontSize=6.2 * tf, fillColor=ACCENT))
     # throws and poles
     for p in poles:
         xp = x_pole[p]
@@ -554,10 +608,10 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             g.add(Line(x_start, y, cx - 8.7, y, strokeColor=INK, strokeWidth=0.9))
             g.add(Line(cx + 8.7, y, xp, y, strokeColor=INK, strokeWidth=0.9))
             _contact(g, cx, y, vertical=False)
-            g.add(String(cx, y + 9, c.name, fontName="Helvetica-Bold", fontSize=6.6, fillColor=INK,
+            g.add(String(cx, y + 5 + 4 * tf, c.name, fontName="Helvetica-Bold", fontSize=6.6 * tf, fillColor=INK,
                          textAnchor="middle"))
-            g.add(String(cx, y - 10, _clip(", ".join(c.closed_in), 48), fontName="Helvetica",
-                         fontSize=6.2, fillColor=MUTED, textAnchor="middle"))
+            g.add(String(cx, y - 4 - 6 * tf, _clip(", ".join(c.closed_in), 48, 6.2 * tf), fontName="Helvetica",
+                         fontSize=6.2 * tf, fillColor=MUTED, textAnchor="middle"))
             _dot(g, xp, y)
         y_hi = max(rs)
         g.add(Line(xp, min(rs), xp, y_hi, strokeColor=INK, strokeWidth=1.2))
@@ -569,14 +623,14 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
             yc = y_hi + step * (k + 1)
             gap = _gap(e)
             g.add(Line(xp, y, xp, yc - gap, strokeColor=INK, strokeWidth=0.9))
-            _symbol(g, spec, e, xp, yc, nodes[k], nodes[k + 1])
-            _labels(g, _label_lines(spec, e), xp + 12, yc)
+            _symbol(g, spec, e, xp, yc, nodes[k], nodes[k + 1], tf)
+            _labels(g, _label_lines(spec, e), xp + 12, yc, tf=tf)
             y = yc + gap
         g.add(Line(xp, y, xp, term_y - 3.2, strokeColor=INK, strokeWidth=0.9))
         served = [q.name for q in net.positions if q.input[0] == nodes[-1]]
-        which = "all positions" if len(served) == len(net.positions) else _clip(", ".join(served), 150)
-        _terminal(g, xp, term_y, f"{nodes[-1]} (+)\n" + which)
-        g.add(String(xp + 6, y_hi + 3, p, fontName="Helvetica-Oblique", fontSize=6.2, fillColor=ACCENT))
+        which = "all positions" if len(served) == len(net.positions) else _clip(", ".join(served), 150, 6.2 * tf)
+        _terminal(g, xp, term_y, f"{nodes[-1]} (+)\n" + which, tf=tf)
+        g.add(String(xp + 6, y_hi + 3, p, fontName="Helvetica-Oblique", fontSize=6.2 * tf, fillColor=ACCENT))
     # terminals on the ladder itself
     for n in sorted(plan["terminals"]):
         if n not in row:
@@ -590,10 +644,7 @@ def ladder(spec, net, max_width: float, max_height: float, *, report: bool = Fal
         x = x_left - 38
         if n in plan["tapped"] and n != plan["ground"]:
             continue
-        _terminal(g, x, y, f"{n} ({'/'.join(roles)})", anchor="middle", above=False)
-    width = (max(x_pole.values()) if x_pole else x_spine) + 110.0
-    height = term_y + 40.0
-    scale = min(1.0, max_width / width, max_height / height)
+        _terminal(g, x, y, f"{n} ({'/'.join(roles)})", anchor="middle", above=False, tf=tf)
     g.scale(scale, scale)
     d = Drawing(width * scale, height * scale)
     d.add(g)
@@ -639,6 +690,10 @@ def graph_drawing(spec, net, max_width: float, max_height: float) -> Drawing:
         off = (wide - len(nodes)) * gap_x / 2
         for i, n in enumerate(nodes):
             pos[n] = (50 + off + gap_x * i, 30 + gap_y * k)
+    width = 100 + gap_x * (wide - 1) + 60
+    height = 60 + gap_y * max(layers)
+    scale = min(1.0, max_width / width, max_height / height)
+    tf = text_factor(scale)
     grp = Group()
     pair_count = defaultdict(int)
     for e in net.elements:
@@ -652,21 +707,18 @@ def graph_drawing(spec, net, max_width: float, max_height: float) -> Drawing:
         nx_, ny_ = -(yb - ya) / length, (xb - xa) / length
         bow = 16.0 * ((idx + 1) // 2) * (1 if idx % 2 else -1)
         cx, cy = mx + nx_ * bow, my + ny_ * bow
-        dash = (2, 2) if isinstance(e, Contact) else None
-        colour = ACCENT if isinstance(e, (Diode, MovementElement)) else INK
+        dash = (2, 2) if e.symbol == "contact" else None
+        colour = ACCENT if e.symbol in ("diode", "movement") else INK
         grp.add(Line(xa, ya, cx, cy, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         grp.add(Line(cx, cy, xb, yb, strokeColor=colour, strokeWidth=0.9, strokeDashArray=dash))
         text = " ".join(_label_lines(spec, e)[:2])
-        tw = stringWidth(text, "Helvetica", 6.2) + 4
-        grp.add(Rect(cx - tw / 2, cy - 4, tw, 9, fillColor=WHITE, strokeColor=PALE, strokeWidth=0.5))
-        grp.add(String(cx, cy - 1.5, text, fontName="Helvetica", fontSize=6.2, fillColor=INK,
+        tw = stringWidth(text, "Helvetica", 6.2 * tf) + 4
+        grp.add(Rect(cx - tw / 2, cy - 4 * tf, tw, 9 * tf, fillColor=WHITE, strokeColor=PALE, strokeWidth=0.5))
+        grp.add(String(cx, cy - 1.5 * tf, text, fontName="Helvetica", fontSize=6.2 * tf, fillColor=INK,
                        textAnchor="middle"))
     for n, (x, y) in pos.items():
         grp.add(Circle(x, y, 2.4, fillColor=INK, strokeColor=None))
-        grp.add(String(x + 4, y + 4, n, fontName="Helvetica-Oblique", fontSize=6.8, fillColor=ACCENT))
-    width = 100 + gap_x * (wide - 1) + 60
-    height = 60 + gap_y * max(layers)
-    scale = min(1.0, max_width / width, max_height / height)
+        grp.add(String(x + 4, y + 4, n, fontName="Helvetica-Oblique", fontSize=6.8 * tf, fillColor=ACCENT))
     grp.scale(scale, scale)
     d = Drawing(width * scale, height * scale)
     d.add(grp)
@@ -693,10 +745,10 @@ def connection_rows(net) -> list[tuple[str, str]]:
     """The connection list: each node and the element pins on it, in name order."""
     pins = defaultdict(list)
     for e in net.elements:
-        if isinstance(e, Diode):
+        if e.symbol == "diode":
             pins[e.anode].append(f"{e.name} anode")
             pins[e.cathode].append(f"{e.name} cathode")
-        elif isinstance(e, MovementElement):
+        elif e.symbol == "movement":
             pins[e.a].append(f"{e.name} +")
             pins[e.b].append(f"{e.name} -")
         else:

@@ -31,6 +31,7 @@ SECTION_TITLES = (
     "Positions",
     "Misrange matrix",
     "Build and acceptance",
+    "Scale plate",
     "Methods and assumptions",
     "Appendix: project file",
 )

@@ -40,6 +40,11 @@ def without_clamps(net):
         elems = keep
 
 
+#: Sweep of an ohms position's protection curve without a declared maximum input [V]:
+#: the crest of a 230 V rms outlet (common practice for a European outlet).
+OHMS_SPAN_V = 230.0 * 2 ** 0.5
+
+
 def protection_curve(engine: Engine, bare: Engine | None, position, *, span=None, points: int = CURVE_POINTS) -> dict:
     """Movement current over a sweep of the applied quantity, with and without the clamps.
 
@@ -70,14 +75,16 @@ def protection_curve(engine: Engine, bare: Engine | None, position, *, span=None
         if position.kind.source == "voltage" and spec.faults.max_input_v is not None:
             span = spec.faults.max_input_v
         else:
-            span = 10.0 * position.full_scale
+            drive = position.kind.full_scale_drive(position)
+            # an ohms range is driven by its battery: sweep up to the wall outlet's crest instead
+            span = 10.0 * drive if drive > 0 else OHMS_SPAN_V
     x = np.linspace(-span, span, points)
     i_c = engine.operate(position.name, x).movement_current_a[0]
     i_u = bare.operate(position.name, x).movement_current_a[0] if bare is not None else i_c
     return {
         "position": position.name,
         "quantity": position.measures,
-        "unit": position.unit,
+        "unit": "V" if position.kind.source == "voltage" else "A",
         "applied": x.tolist(),
         "movement_current_a": i_c.tolist(),
         "movement_current_unclamped_a": i_u.tolist(),

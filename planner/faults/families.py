@@ -10,30 +10,23 @@ column order.
 
 from __future__ import annotations
 
-import re
-
-from ..errors import ProjectError
+from ..categories import IMPULSE_SOURCE_OHM, IMPULSE_TABLE_V, category_impulse  # noqa: F401 (re-exported)
 from ..model import Spec
 from ..stimulus import Stimulus
 from ..tools import fmt
-from ..units import QuantityError, parse
 
-#: Rated impulse voltages [V peak] by line-to-neutral voltage and category
-#: (CAT II, CAT III, CAT IV). IEC 61010-1 / IEC 61010-2-030 as quoted in
-#: secondary sources: verify against the standard before relying on them.
-IMPULSE_TABLE_V = {
-    150.0: (1500.0, 2500.0, 4000.0),
-    300.0: (2500.0, 4000.0, 6000.0),
-    600.0: (4000.0, 6000.0, 8000.0),
-    1000.0: (6000.0, 8000.0, 12000.0),
-}
-#: Test source impedance of the impulse [ohm] by category (secondary source, verify).
-IMPULSE_SOURCE_OHM = {"II": 12.0, "III": 2.0, "IV": 2.0}
-_CATS = ("II", "III", "IV")
+#: Compliance [V] of the current sources of the matrix when none is given (the built-in
+#: ``range up`` / ``range down`` on current ranges, the current transitions, a project's
+#: current source without ``compliance``): the top of a common bench supply, the
+#: circuit a misranged ammeter is most often in (common practice); never above the
+#: declared maximum input. Higher-voltage circuits are the ``max input`` and mains
+#: families' business.
+DEFAULT_COMPLIANCE_V = 30.0
 
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
-BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range")
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range", "mains on ohms range",
+                  "battery reversed")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
@@ -41,55 +34,6 @@ NEIGHBOUR_COLUMNS = {
     "range up": "full scale of the next higher range of the same quantity",
     "range down": "full scale of the next lower range of the same quantity",
 }
-
-
-def category_impulse(category: str) -> tuple[float, float, str]:
-    """Rated impulse voltage and test source impedance of a measurement category.
-
-    Parameters
-    ----------
-    category : str
-        ``'CAT II 300 V'``, ``'CAT III 600 V'``, ... (any voltage up to 1000 V: the
-        next higher tabulated line-to-neutral voltage applies).
-
-    Returns
-    -------
-    peak_v : float
-        Rated impulse voltage [V].
-    r_source_ohm : float
-        Test source impedance [ohm].
-    label : str
-        The category as used for the column name.
-
-    Raises
-    ------
-    ProjectError
-        An unknown category or a voltage above 1000 V.
-
-    References
-    ----------
-    IEC 61010-1:2010 and IEC 61010-2-030:2017, rated impulse voltages by
-    measurement category, as quoted in secondary sources (manufacturers'
-    application notes): 150 V: 1500/2500/4000 V, 300 V: 2500/4000/6000 V, 600 V:
-    4000/6000/8000 V, 1000 V: 6000/8000/12000 V for CAT II/III/IV; test source
-    impedance 12 ohm (CAT II), 2 ohm (CAT III, IV). Secondary source: verify.
-    """
-    text = " ".join(str(category).split())
-    m = re.fullmatch(r"(?i)CAT\s*(II|III|IV)\s+(.+)", text)
-    if m is None:
-        raise ProjectError(f"faults.category is '{text}'; write the measurement category and its voltage, "
-                           "e.g. 'CAT II 300 V' (CAT II, CAT III or CAT IV)")
-    cat = m.group(1).upper()
-    try:
-        v = float(parse(m.group(2), "voltage", where="faults.category"))
-    except QuantityError as e:
-        raise ProjectError(e.message) from None
-    rows = [k for k in sorted(IMPULSE_TABLE_V) if k >= v * (1.0 - 1e-12)]
-    if not rows or v <= 0:
-        raise ProjectError(f"faults.category '{text}': the impulse table covers line-to-neutral voltages up to "
-                           "1000 V; give 150 V, 300 V, 600 V or 1000 V")
-    row = rows[0]
-    return IMPULSE_TABLE_V[row][_CATS.index(cat)], IMPULSE_SOURCE_OHM[cat], f"CAT {cat} {row:g} V"
 
 
 def impulse_stimulus(category: str) -> Stimulus:
@@ -114,10 +58,29 @@ def same_kind_neighbours(net, p):
     return ((lower[-1], name[lower[-1]]) if lower else None), ((higher[0], name[higher[0]]) if higher else None)
 
 
+def default_compliance_v(spec: Spec) -> float:
+    """Compliance of a current source the project does not bound [V]: ``DEFAULT_COMPLIANCE_V``,
+    or the declared maximum input where that is lower."""
+    m = spec.faults.max_input_v
+    return DEFAULT_COMPLIANCE_V if m is None else min(DEFAULT_COMPLIANCE_V, m)
+
+
 def project_sources(spec: Spec) -> list[Stimulus]:
-    """The project's own ``faults.sources`` as stimuli (a current source has no impedance or limit)."""
-    return [Stimulus(s.name, s.kind, s.value, s.waveform, s.r_source_ohm if s.kind == "voltage" else 0.0,
-                     s.current_limit_a if s.kind == "voltage" else None) for s in spec.faults.sources]
+    """The project's own ``faults.sources`` as stimuli (a current source has no impedance or limit,
+    and a compliance: its own or :func:`default_compliance_v`)."""
+    out = []
+    for s in spec.faults.sources:
+        cur = s.kind == "current"
+        comp = (s.compliance_v if s.compliance_v is not None else default_compliance_v(spec)) if cur else None
+        extra = {"frequency_hz": s.frequency_hz} if s.frequency_hz is not None else {}
+        out.append(Stimulus(s.name, s.kind, s.value, s.waveform, 0.0 if cur else s.r_source_ohm,
+                            None if cur else s.current_limit_a, compliance_v=comp, **extra))
+    return out
+
+
+def _compliance(spec: Spec, kind: str) -> float | None:
+    """The default compliance of a built-in stimulus of a source kind (None for a voltage)."""
+    return default_compliance_v(spec) if kind == "current" else None
 
 
 def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
@@ -137,14 +100,16 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     """
     f = spec.faults
     out = project_sources(spec)
-    lower, higher = same_kind_neighbours(net, position)
+    lower, higher = same_kind_neighbours(net, position) if position.kind.range_steps else (None, None)
     unit = position.unit
     if higher:
         out.append(Stimulus("range up", position.kind.source, higher[0],
-                            detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'"))
+                            detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'",
+                            compliance_v=_compliance(spec, position.kind.source)))
     if lower:
         out.append(Stimulus("range down", position.kind.source, lower[0],
-                            detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'"))
+                            detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'",
+                            compliance_v=_compliance(spec, position.kind.source)))
     if f.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
         out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
@@ -162,7 +127,8 @@ def column_of(s: Stimulus) -> dict:
 
 def transition_stimuli(spec: Spec, p) -> list[Stimulus]:
     """What stays applied while the switch turns away from position ``p``: its full scale, the declared input."""
-    out = [Stimulus("full scale", p.kind.source, p.full_scale, detail="full scale of the position being left")]
+    out = [Stimulus("full scale", p.kind.source, p.kind.full_scale_drive(p), detail="full scale of the position being left",
+                    compliance_v=_compliance(spec, p.kind.source))]
     if spec.faults.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", spec.faults.max_input_v, detail="declared maximum input"))
     return out

@@ -14,6 +14,7 @@ from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import SolveError
 from ..model import Spec
+from ..ohms import reversed_battery
 from ..stress import FAILING, assess
 from .cautions import matrix_cautions
 from .curves import protection_curve, without_clamps
@@ -212,6 +213,12 @@ def _position_cases(engine: Engine, design: Design, positions, acceptance: _Acce
                 columns.append(column_of(s))
         for c in _assess_named(engine, p.name, stims):
             cases.append(acceptance.mark(_trim(c), p.name))
+        for stim, eng in reversed_battery(engine, p):  # a changed network: the ohms battery put in backwards
+            matrix[p.name].append(stim.name)
+            if stim.name not in [c["name"] for c in columns]:
+                columns.append(column_of(stim))
+            for c in _assess_named(eng, p.name, [stim]):
+                cases.append(acceptance.mark(_trim(c), p.name))
         curves.append(protection_curve(engine, bare, p))
         tick(p.name)
     return cases, curves, columns, matrix

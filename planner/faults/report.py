@@ -20,7 +20,7 @@ from ..tools import fmt
 from .families import NEIGHBOUR_COLUMNS
 
 #: Verdict words of the matrix cells.
-_WORD = {"ok": "ok", "pegs": "pegs", "overstress": "OVER", "hazard": "HAZ"}
+_WORD = {"ok": "ok", "pegs": "pegs", "opens": "opens", "overstress": "OVER", "hazard": "HAZ"}
 #: Width of the terminal report [columns].
 _WIDTH = 100
 
@@ -65,7 +65,8 @@ def format_faults(result: dict) -> str:
     lines += _matrix_lines(result, codes)
     lines += _column_lines(cols, codes)
     marks = "".join(lines)
-    legend = "Cells: verdict and largest stress/rating; pegs: pointer past its stop; * accepted"
+    legend = ("Cells: verdict and largest stress/rating; pegs: pointer past its stop; opens: the fuse opens "
+              "safely; HAZ: a person at risk (a named rule); * accepted")
     legend += "; - not applicable" if " - " in marks or marks.endswith("-") else ""
     legend += "; . not shown (only failing)" if ". " in marks else ""
     lines += _wrap_flat("", legend + ".")
@@ -92,7 +93,7 @@ def _matrix_lines(result: dict, codes: list) -> list[str]:
     by = {(c["position"], c["stimulus"]): c for c in result["cases"]}
     applicable = result.get("matrix", {})
     pos_w = max([len("position")] + [len(p) for p in result["positions"]]) + 2
-    cell_w = 10
+    cell_w = 11
     per_block = max(1, (_WIDTH - pos_w) // cell_w)
     lines = []
     for lo in range(0, len(cols), per_block):
@@ -210,13 +211,12 @@ def _summary_lines(cases, only_failing: bool = False) -> list[str]:
         acc = sum(1 for c in cases if c.get("accepted"))
         return wrap("", f"{n} failing case{'s' if n != 1 else ''} shown (only failing): {acc} accepted, "
                         f"{n - acc} not.", _WIDTH)
-    count = {v: sum(1 for c in cases if c["verdict"] == v) for v in ("ok", "pegs", "overstress", "hazard")}
+    count = {v: sum(1 for c in cases if c["verdict"] == v) for v in ("ok", "pegs", "opens", "overstress", "hazard")}
     acc = sum(1 for c in cases if c.get("accepted") and c["verdict"] in FAILING)
     fail = count["overstress"] + count["hazard"] - acc
-    fused = sum(1 for c in cases if c.get("fuse_opens") and c["verdict"] not in FAILING)
-    text = (f"{n} cases: {count['ok'] + count['pegs']} survive ({count['ok']} ok, {count['pegs']} pegs"
-            + (f"; {fused} as a fuse opens" if fused else "") + f"), {acc} fail but are accepted, "
-            + (f"{fail} FAIL." if fail else "0 fail."))
+    text = (f"{n} cases: {count['ok'] + count['pegs'] + count['opens']} survive ({count['ok']} ok, "
+            f"{count['pegs']} pegs, {count['opens']} as a fuse opens), {count['overstress']} overstress and "
+            f"{count['hazard']} hazard, of which {acc} accepted: " + (f"{fail} FAIL." if fail else "0 fail."))
     return wrap("", text, _WIDTH)
 
 
@@ -225,7 +225,7 @@ def _fuse_lines(cases, code_of) -> list[str]:
     ok = [c for c in cases if c.get("fuse_opens") and c["verdict"] not in FAILING and c.get("event_time_s")]
     if not ok:
         return []
-    out = ["Survived because the fuse opens (replace the fuse afterwards):"]
+    out = ["Survived because a protective part acts (replace a fuse that opens; a PTC resets):"]
     by: dict[tuple, list[dict]] = {}
     for c in ok:
         by.setdefault((c["position"], c["fuse"]), []).append(c)
@@ -237,7 +237,9 @@ def _fuse_lines(cases, code_of) -> list[str]:
         duty = [x for c in group for x in c["stresses"] if x["limit"] == "safety"]
         when = fmt(min(t), "s", 3) + ("" if max(t) == min(t) else f" to {fmt(max(t), 's', 3)}")
         stims = " ".join(code_of.get(c["stimulus"], c["stimulus"]) for c in group)
-        text = (f"{pos} ({stims}): {fuse} opens in {when}, let-through up to {i2t:.3g} A^2 s; closest part: "
+        ptc = any(f.get("kind") == "ptc" and f["name"] == fuse for c in group for f in c["fuses"])
+        text = (f"{pos} ({stims}): {fuse} {'trips (and resets)' if ptc else 'opens'} in {when}, let-through up to "
+                f"{i2t:.3g} A^2 s; closest part: "
                 f"{describe_stress(worst)}")
         for q in ("prospective current", "voltage across the open fuse"):
             xs = [x for x in duty if x["quantity"].startswith(q)]

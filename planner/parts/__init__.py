@@ -7,14 +7,19 @@ contributor guide, ``DEVELOPERS.md``).
 """
 
 from .base import Parameter, Part
+from .battery import Battery
 from .contact import Contact
 from .diode import Diode, DiodeModel
 from .fuse import Fuse, FuseModel
 from .movement import MovementElement
+from .ptc import Ptc, PtcModel
 from .resistor import Resistor, ResistorParts
+from .rheostat import Rheostat
+from .varistor import Varistor, VaristorModel
 
 #: Element classes by the project file's ``kind``.
-KINDS = {cls.kind: cls for cls in (Resistor, MovementElement, Diode, Contact, Fuse)}
+KINDS = {cls.kind: cls for cls in (Resistor, MovementElement, Diode, Contact, Fuse, Battery, Rheostat, Ptc,
+                                   Varistor)}
 
 __all__ = ["Part", "Parameter", "KINDS", "Resistor", "ResistorParts", "MovementElement", "Diode", "DiodeModel",
-           "Contact", "Fuse", "FuseModel"]
+           "Contact", "Fuse", "FuseModel", "Battery", "Rheostat", "Ptc", "PtcModel", "Varistor", "VaristorModel"]

@@ -45,6 +45,30 @@ judges that stand-in. Each receives a *judging context* (built by
 ``ctx.entry(...)``, ``ctx.exceeds(value, rating)``
     a stress entry (:func:`planner.stress.verdict.stress_entry`) and the
     comparison every limit uses.
+
+How a circuit simulator sees it (``planner netlist``, :mod:`planner.export.netlist`):
+:meth:`Part.spice` returns the element's SPICE lines, written with the element
+equations of the design contract. It receives a *deck* (see
+:class:`planner.export.netlist.Deck`):
+
+``deck.node(name)``
+    the SPICE node of a network node (nodes joined by ideal contacts are one
+    node; the input's minus terminal is ``0``);
+``deck.instance(letter, designator, role='')``
+    a unique instance name that starts with the SPICE letter (``R``, ``D``,
+    ``V``, ``B`` ...);
+``deck.inner(designator, role)``
+    a fresh internal node (between a part's own sub-elements);
+``deck.model(name, text)``
+    declare a ``.model`` once per deck; returns its name;
+``deck.num(x)``
+    a float written so that the simulator reads back the same double;
+``deck.spec``, ``deck.temperature_k``, ``deck.t_ref_k``, ``deck.gmin``
+    the project, the deck's and the reference temperature [K] (the deck sets
+    ``temp`` and ``tnom`` to them), the simulator's gmin [S];
+``deck.vt_ratio``
+    (k/q of the contract) / (k/q of the simulator): scale a native diode's
+    ``N`` and ``XTI`` by it so that its N V_t is the contract's n V_t exactly.
 """
 
 from __future__ import annotations
@@ -53,6 +77,15 @@ from dataclasses import dataclass, field
 from typing import ClassVar
 
 import numpy as np
+
+
+#: Power multiple of a part's rating, held for longer than ``IGNITION_TIME_S``, from which
+#: the ``ignition`` hazard rule applies (from memory, range 10-25 x; see docs/safety.md and
+#: :data:`planner.stress.verdict.HAZARD_RULES`).
+IGNITION_POWER_FACTOR = 10.0
+#: Time [s] beyond which a part held at ``IGNITION_POWER_FACTOR`` x its rating can ignite: the
+#: 5 s of the short-time overload of IEC 60115-1, a level parts survive (from memory).
+IGNITION_TIME_S = 5.0
 
 
 @dataclass(frozen=True)
@@ -129,6 +162,28 @@ class Part:
     clamp: ClassVar[bool] = False
     #: True when the part carries power ratings judged in the misrange analysis.
     rated: ClassVar[bool] = True
+    #: Its keys as an entry of the project file's ``network.elements`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = ()
+
+    # --- the project file --------------------------------------------------------
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Part":
+        """The element from its entry of ``network.elements``.
+
+        Parameters
+        ----------
+        e : planner.project.reader.Section
+            The entry, its keys already checked against :attr:`file_keys`. It reads
+            typed values (``e.qty``, ``e.text``, ``e.choice``, ``e.boolean``), node
+            names (``e.pair``, ``e.node_name``), catalogue references (``e.model``)
+            and refuses the file at a line (``e.fail``); every error names the file
+            and line.
+        name : str
+            Its designator, already read and checked unique.
+        parts : planner.model.Parts
+            The catalogue: resistor defaults, diode and fuse models.
+        """
+        raise NotImplementedError(f"element kind {cls.kind!r} cannot be read from a project file")
 
     @property
     def nodes(self) -> tuple[str, str]:
@@ -157,6 +212,10 @@ class Part:
         """
         raise NotImplementedError(f"{self.kind} has no linear resistance")
 
+    def emf(self, level: str = "nominal") -> float:
+        """EMF in series with a ``branch`` element [V], plus side facing its first node (0: none)."""
+        return 0.0
+
     def junction(self, spec, t_k):
         """Junction parameters of a ``junction`` element at ``t_k`` (see :mod:`planner.parts.diode`)."""
         raise NotImplementedError(f"{self.kind} is no junction")
@@ -173,6 +232,26 @@ class Part:
     def yaml(self) -> str:
         """The element as a project-file flow mapping (see :mod:`planner.writer`)."""
         raise NotImplementedError(f"no project-file form for element kind {self.kind!r}")
+
+    # --- a circuit simulator (planner netlist) ---------------------------------------
+    def spice(self, deck) -> list[str]:
+        """Its SPICE lines in a deck, with the contract's element equation.
+
+        Parameters
+        ----------
+        deck : planner.export.netlist.Deck
+            Node and instance names, models, the project and the temperature
+            (see the module docstring).
+
+        Returns
+        -------
+        list of str
+            Comment lines (``*``), element lines and, through ``deck.model``,
+            models. Called only where the element is in circuit and does not
+            merge its nodes.
+        """
+        raise NotImplementedError(f"element kind {self.kind!r} has no SPICE form: give its class a spice() method "
+                                  "(see DEVELOPERS.md, 'How to add a part model')")
 
     # --- misrange ratings (planner.stress) -----------------------------------------
     def checks(self, ctx) -> list[dict]:

@@ -17,8 +17,9 @@ from typing import ClassVar
 
 import numpy as np
 
-from ..solve import saturation_current, thermal_voltage
+from ..solve import BOLTZMANN, CHARGE, saturation_current, thermal_voltage
 from .base import Parameter, Part
+from .resistor import ignition_entries
 
 #: Duration of a diode's non-repetitive surge-current rating: one half-cycle of
 #: 60 Hz (JEDEC 8.3 ms half-sine; common practice in diode data sheets) [s].
@@ -86,6 +87,53 @@ class DiodeModel:
     i_s_spread: float = 0.0
     i2t_a2s: float | None = None
 
+    #: Keys of one model of ``parts.diodes`` (``docs/project-file.md``).
+    file_keys: ClassVar[tuple[str, ...]] = (
+        "saturation_current", "emission", "series_resistance", "leakage_resistance", "band_gap", "xti",
+        "temperature", "breakdown_voltage", "breakdown_current", "max_current", "surge_current", "max_power",
+        "saturation_current_spread", "i2t",
+    )
+    file_example: ClassVar[str] = "{saturation_current: 5 nA, emission: 1.9}"
+
+    @classmethod
+    def read(cls, m, name: str) -> "DiodeModel":
+        """The model ``name`` from its mapping of ``parts.diodes`` (a
+        :class:`planner.project.reader.Section`); implausible emission coefficients,
+        band gaps and XTI are refused (a unit mistake, most likely)."""
+        d = cls(name=name, i_s_a=1.0)
+        i_s = m.qty("saturation_current", "current", check="pos", example="5 nA")
+        n = m.qty("emission", "dimensionless", d.n, check="pos")
+        if n > 10:
+            m.fail(f"{m.at('emission')} is {n:g}; an emission coefficient lies between about 1 and 4: give e.g. 1.9",
+                   m.line_of("emission"))
+        r_s = m.qty("series_resistance", "resistance", d.r_s_ohm, check="nonneg")
+        r_p = m.qty("leakage_resistance", "resistance", d.r_p_ohm, check="pos")
+        eg = m.qty("band_gap", "energy_ev", d.eg_ev, check="pos")
+        if eg > 10:
+            m.fail(f"{m.at('band_gap')} is {eg:g} eV; a band gap is a few eV (silicon 1.11 eV): check the value",
+                   m.line_of("band_gap"))
+        xti = m.qty("xti", "dimensionless", d.xti)
+        if abs(xti) > 50:
+            m.fail(f"{m.at('xti')} is {xti:g}; the saturation-current temperature exponent is about 2 to 3",
+                   m.line_of("xti"))
+        return cls(
+            name=name,
+            i_s_a=i_s,
+            n=n,
+            r_s_ohm=r_s,
+            r_p_ohm=r_p,
+            eg_ev=eg,
+            xti=xti,
+            t_nom_k=m.qty("temperature", "temperature", d.t_nom_k, check="pos"),
+            bv_v=m.qty("breakdown_voltage", "voltage", d.bv_v, check="pos"),
+            ibv_a=m.qty("breakdown_current", "current", d.ibv_a, check="pos"),
+            max_current_a=m.qty("max_current", "current", d.max_current_a, check="pos"),
+            surge_current_a=m.qty("surge_current", "current", d.surge_current_a, check="pos"),
+            max_power_w=m.qty("max_power", "power", d.max_power_w, check="pos"),
+            i_s_spread=m.qty("saturation_current_spread", "fraction", d.i_s_spread, check="frac"),
+            i2t_a2s=m.qty("i2t", "i2t", None, check="pos"),
+        )
+
 
 @dataclass(frozen=True)
 class Diode(Part):
@@ -101,6 +149,17 @@ class Diode(Part):
     stamp: ClassVar[str] = "junction"
     symbol: ClassVar[str] = "diode"
     clamp: ClassVar[bool] = True
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "anode", "cathode", "model")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "Diode":
+        """Its anode, cathode (two different nodes) and a model of ``parts.diodes``."""
+        an = e.node_name("anode", "m_plus")
+        ca = e.node_name("cathode", "com")
+        if an == ca:
+            e.fail(f"{e.where} has anode and cathode both on node '{an}'; give two different nodes")
+        return cls(name=name, anode=an, cathode=ca, model=e.model("model", parts.diodes, "diode", "si_generic"),
+                   line=e.line)
 
     @property
     def nodes(self) -> tuple[str, str]:
@@ -130,6 +189,72 @@ class Diode(Part):
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, model: {self.model}}}"
 
+    def spice(self, deck) -> list[str]:
+        """A native SPICE diode for the junction, made the contract's law where SPICE's differs.
+
+        Notes
+        -----
+        The junction is SPICE's ``D`` with ``RS=0``; R_s is a resistor in series
+        and R_p a resistor across the junction alone (less the simulator's gmin,
+        which it puts across every junction), so
+        :math:`I_j = I_s (e^{V_j/(n V_t)} - 1) + V_j / R_p`. ``N`` and ``XTI`` are
+        scaled by ``deck.vt_ratio`` so that ``N`` V_t in the simulator's constants is
+        n V_t in the exact SI ones (ngspice uses CODATA 2014 k and q) and XTI/N =
+        xti/n: SPICE's saturation-current law is then the contract's,
+        :math:`I_s(T) = I_s(T_0) (T/T_0)^{XTI/n} \\exp((T/T_0 - 1) E_g / (n V_t))`,
+        with ``TNOM`` at the model's temperature. Two behavioural current sources
+        across the junction finish the contract's law:
+
+        * below :math:`-3 n V_t` SPICE replaces the exponential by the SPICE2
+          approximation :math:`-I_s (1 + (3 n V_t / (e V))^3)`; the source adds
+          :math:`I_s(T) (e^{u/(n V_t)} + (3 n V_t/(e u))^3)` with
+          :math:`u = \\min(V, -3 n V_t)`, which is zero above that voltage;
+        * reverse breakdown (a model with ``bv_v``):
+          :math:`-I_{BV} e^{-(V + BV)/(n V_t)}` (SPICE's own BV model refits BV).
+
+        Both hold :math:`n V_t` and :math:`I_s(T)` at the deck's temperature as
+        numbers (a deck for another temperature is written with ``--temperature``;
+        the native diode and the resistors follow ``temp`` by themselves).
+
+        References
+        ----------
+        P. Antognetti and G. Massobrio, *Semiconductor Device Modeling with SPICE*,
+        2nd ed., McGraw-Hill, 1993, ch. 1 (diode model, temperature law); the
+        ngspice manual (version 39), "Diodes", and its sources ``dioload.c``,
+        ``diotemp.c`` (the reverse approximation and the temperature law).
+        """
+        d = deck.spec.parts.diodes[self.model]
+        num = deck.num
+        t_nom = d.t_nom_k if d.t_nom_k is not None else deck.t_ref_k
+        an, ca = deck.node(self.anode), deck.node(self.cathode)
+        words = [f"I_s {num(d.i_s_a)} A at {deck.celsius(t_nom)} degC", f"n {num(d.n)}", f"R_s {num(d.r_s_ohm)} ohm",
+                 f"R_p {num(d.r_p_ohm) + ' ohm' if math.isfinite(d.r_p_ohm) else 'none'}", f"E_g {num(d.eg_ev)} eV", f"XTI {num(d.xti)}"]
+        if d.bv_v is not None:
+            words.append(f"breakdown {num(d.bv_v)} V at {num(d.ibv_a)} A")
+        out = [f"* {self.name}: diode, model {self.model} ({', '.join(words)})"]
+        j = an
+        if d.r_s_ohm > 0.0:
+            j = deck.inner(self.name, "j")
+            out.append(f"{deck.instance('R', self.name, 's')} {an} {j} {num(d.r_s_ohm)}")
+        # the simulator's gmin across the junction stands in for a leakage below it
+        if math.isfinite(d.r_p_ohm) and 1.0 / d.r_p_ohm > deck.gmin:
+            r_p = d.r_p_ohm if deck.gmin == 0.0 else 1.0 / (1.0 / d.r_p_ohm - deck.gmin)
+            out.append(f"{deck.instance('R', self.name, 'p')} {j} {ca} {num(r_p)}")
+        breakdown = "" if d.bv_v is None else f" BV={num(d.bv_v)} IBV={num(d.ibv_a)}"
+        model = deck.model(f"d_{self.model}", f"D(IS={num(d.i_s_a)} N={num(d.n * deck.vt_ratio)} RS=0 "
+                                              f"EG={num(d.eg_ev)} XTI={num(d.xti * deck.vt_ratio)} "
+                                              f"TNOM={deck.celsius(t_nom)}{breakdown})")
+        out.append(f"{deck.instance('D', self.name)} {j} {ca} {model}")
+        # the behavioural sources hold n V_t and I_s(T) at the deck's temperature as numbers
+        nvt = d.n * BOLTZMANN / CHARGE * deck.temperature_k
+        isat = float(saturation_current(d.i_s_a, d.n, d.eg_ev, d.xti, deck.temperature_k, t_nom))
+        v = f"v({j},{ca})"
+        u = f"min({v},{num(-3.0 * nvt)})"
+        w = f"({num(3.0 * nvt / math.e)}/{u})"  # negative: cubed as a product
+        out.append(f"{deck.instance('B', self.name, 'rev')} {j} {ca} I={num(isat)}*(exp({u}*{num(1.0 / nvt)})"
+                   f"+{w}*{w}*{w})")
+        return out
+
     def checks(self, ctx) -> list[dict]:
         """Average, peak (surge) current and power against its model's ratings; I^2 t while a fuse opens.
 
@@ -148,17 +273,20 @@ class Diode(Part):
             t_ev = ev.event_time_s
             allowed = diode_i2t_allowed_a2s(d, t_ev)
             if math.isfinite(allowed):
-                out.append(ctx.entry(self.name, self.kind, f"I2t {ev.words}{ph}", i_st["rms"] ** 2 * t_ev, allowed,
-                                     "A^2 s", "rating", duration_s=t_ev))
+                i2t = ctx.pulse["i2t_a2s"] if ctx.pulse else i_st["rms"] ** 2 * t_ev
+                out.append(ctx.entry(self.name, self.kind, f"I2t {ev.words}{ph}", i2t, allowed,
+                                     "A^2 s", "rating", limit_name="diode I2t", duration_s=t_ev))
             return out
         if not ctx.peak_only and math.isfinite(d.max_current_a):
             out.append(ctx.entry(self.name, self.kind, f"average current{ph}", i_st["mean_abs"], d.max_current_a,
-                                 "A", "rating"))
+                                 "A", "rating", limit_name="diode average current"))
         if math.isfinite(d.surge_current_a):
             out.append(ctx.entry(self.name, self.kind, f"peak current{ph}", i_st["peak"], d.surge_current_a,
-                                 "A", "rating"))
+                                 "A", "rating", limit_name="diode surge current"))
         if not ctx.peak_only and math.isfinite(d.max_power_w):
-            out.append(ctx.entry(self.name, self.kind, f"power{ph}", abs(ctx.power_w), d.max_power_w, "W", "rating"))
+            out.append(ctx.entry(self.name, self.kind, f"power{ph}", abs(ctx.power_w), d.max_power_w, "W", "rating",
+                                 limit_name="diode power"))
+            out += ignition_entries(ctx, self.name, self.kind, abs(ctx.power_w), d.max_power_w)
         return out
 
 

@@ -10,12 +10,17 @@ judges its current against those limits for :mod:`planner.stress`.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import ClassVar
 
 import numpy as np
 
 from .base import Parameter, Part
+
+#: Relative size [of the peak multiple] below which a cycle mean is solver round-off
+#: around zero (a pointer at rest under a symmetric wave), not a reading.
+ROUND_OFF = 1e-9
 
 
 @dataclass(frozen=True)
@@ -30,6 +35,13 @@ class MovementElement(Part):
     kind: ClassVar[str] = "movement"
     stamp: ClassVar[str] = "branch"
     symbol: ClassVar[str] = "movement"
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "between")
+
+    @classmethod
+    def read(cls, e, name: str, parts) -> "MovementElement":
+        """Its two nodes: current from the first to the second reads up the scale."""
+        a, b = e.pair("between", "[m_plus, com]")
+        return cls(name=name, a=a, b=b, line=e.line)
 
     def resistance(self, spec, dt_k) -> np.ndarray:
         """Coil resistance :math:`R_m (1 + \\alpha_{coil} \\Delta T)` [ohm]."""
@@ -48,39 +60,83 @@ class MovementElement(Part):
                 "tolerance_pct": float(m.tolerance * 100.0), "tempco_ppm_per_k": float(m.tempco_per_k * 1e6),
                 "full_scale_current_a": float(m.i_fs_a), "i_fs_tolerance_pct": float(m.i_fs_tolerance * 100.0)}
 
+    def spice(self, deck) -> list[str]:
+        """``VMOVE`` (0 V) from the first node to the coil, then the coil's resistance.
+
+        Notes
+        -----
+        A SPICE voltage source's current flows from its plus node through the
+        source to its minus node, so ``i(vmove)`` is the movement current from the
+        element's first node to its second, the sign of its reading (design
+        contract). The coil is :math:`R_m (1 + \alpha_{coil} (T - T_{ref}))` as
+        ``tc1`` against the deck's ``tnom``.
+        """
+        m = deck.spec.movement
+        coil = deck.inner(self.name, "coil")
+        tc = f" tc1={deck.num(m.tempco_per_k)}" if m.tempco_per_k else ""
+        return [f"VMOVE {deck.node(self.a)} {coil} DC 0",
+                f"{deck.instance('R', self.name)} {coil} {deck.node(self.b)} {deck.num(m.r_coil_ohm)}{tc}"]
+
     def yaml(self) -> str:
         return f"{{name: {self.name}, kind: movement, between: [{self.a}, {self.b}]}}"
 
     def checks(self, ctx) -> list[dict]:
-        """Peak and rms multiples of I_fs against its overload limits; the pointer against its stops.
+        """The movement's damage limits (short-time peak, thermal, mechanical) and its end stops.
 
         Notes
         -----
-        The peak multiple against ``overload.short_time`` always; for a DC or
-        periodic stimulus also the rms multiple (heating follows the rms, and
-        :math:`|\\bar I| \\le I_{rms}`, so it covers the mean too) against
-        ``short_time`` while a fuse opens fast (``ctx.short_exposure``) or
-        ``continuous`` otherwise, and the mean multiple (what the pointer follows)
-        against the end stop ``peg``; a negative mean against the zero-end stop,
-        assumed as far below zero as the forward stop is beyond full scale
-        (common practice: a few percent).
+        Each entry names its limit (``limit_name``):
+
+        ``movement short-time peak``
+            the peak multiple against ``overload.short_time``, always;
+        ``movement thermal``
+            the rms multiple (heating follows the rms) against
+            :meth:`planner.model.Overload.thermal_limit` over the exposure: over
+            the pulse's window while a fuse opens fast (``ctx.short_exposure``,
+            the rms of ``ctx.pulse``; an unknown time counts as the short-time
+            limit), else the cycle's rms indefinitely (``continuous``);
+        ``movement mechanical``
+            the mean multiple (what drives the pointer against its stop) against
+            ``overload.mechanical``, for a lasting exposure (during a short event
+            the pointer barely moves; the peak limit covers the kick);
+        ``movement end stop``
+            the mean multiple against ``peg`` (or, for a reverse mean, against the
+            zero-end stop, as far below zero as the forward stop is beyond full
+            scale; common practice: a few percent): the verdict ``pegs``, not damage.
+
+        A mean within round-off of zero (a pointer at rest under a symmetric
+        wave) is zero: no stress below zero is listed for it.
         """
         ov = ctx.spec.movement.overload
         ms, ph = ctx.movement_multiple, ctx.phase
-        out = [ctx.entry(self.name, self.kind, f"peak multiple{ph}", ms["peak"], ov.short_time, "x I_fs", "rating")]
+        out = [ctx.entry(self.name, self.kind, f"peak multiple{ph}", ms["peak"], ov.short_time, "x I_fs", "rating",
+                         limit_name="movement short-time peak")]
         if ctx.peak_only:
             return out
+        ev = ctx.event
         if ctx.short_exposure:
-            rating, words = ov.short_time, " until the fuse opens"
+            duration = ev.event_time_s if ev is not None else 0.0
+            words = " until the fuse opens"
         else:
-            rating, words = ov.continuous, ""
+            duration, words = math.inf, ""
         q = "rms multiple" if ctx.stimulus.waveform.cyclic else "multiple"
-        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", ms["rms"], rating, "x I_fs", "rating"))
-        if ms["mean"] >= 0.0:
-            out.append(ctx.entry(self.name, self.kind, f"pointer (mean multiple){ph}", ms["mean"], ov.peg,
-                                 "x I_fs", "end stop"))
+        extra = {"duration_s": duration} if math.isfinite(duration) else {}
+        rms = ms["rms"]
+        if ctx.short_exposure and ctx.pulse is not None:  # the rms over the pulse's own window
+            rms = ctx.pulse["rms_a"] / ctx.spec.movement.i_fs_a
+        out.append(ctx.entry(self.name, self.kind, f"{q}{words}{ph}", rms, ov.thermal_limit(duration), "x I_fs",
+                             "rating", limit_name="movement thermal", **extra))
+        mean = ms["mean"]
+        if abs(mean) <= ROUND_OFF * max(ms["peak"], 1.0):
+            mean = 0.0
+        if not ctx.short_exposure:
+            out.append(ctx.entry(self.name, self.kind, f"pointer drive (|mean multiple|){ph}", abs(mean),
+                                 ov.mechanical, "x I_fs", "rating", limit_name="movement mechanical"))
+        if mean >= 0.0:
+            out.append(ctx.entry(self.name, self.kind, f"pointer (mean multiple){ph}", mean, ov.peg, "x I_fs",
+                                 "end stop", limit_name="movement end stop"))
         else:
             back = max(ov.peg - 1.0, 1e-3)
-            out.append(ctx.entry(self.name, self.kind, f"pointer below zero (mean multiple){ph}", -ms["mean"], back,
-                                 "x I_fs", "end stop"))
+            out.append(ctx.entry(self.name, self.kind, f"pointer below zero (mean multiple){ph}", mean, -back,
+                                 "x I_fs", "end stop", limit_name="movement zero-end stop"))
         return out

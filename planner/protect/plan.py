@@ -131,7 +131,31 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     finals = _final_rows(ctx, points, evaluated, across, across_row)
     table, chosen = _pareto_table(finals)
     result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
+    _judge_on_matrix(design, result, share, ctx.say)
     return json_safe(result)
+
+
+def _judge_on_matrix(design: Design, result: dict, share, say) -> None:
+    """The clamp choice and the protection parts judged on the misrange matrix (:mod:`planner.protect.judged`).
+
+    ``result`` gains ``matrix`` (the judgement); its ``chosen`` is dropped when the
+    placement protects worse than the project as given; ``requirements_met``
+    becomes: the plan that would be written (or the project as given, when no
+    plan is better) leaves no failing case in the misrange matrix, transitions
+    included.
+    """
+    from .judged import judge_plans
+    from .write import protected_text
+    worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
+    judged = judge_plans(design, result, protected_text, worst_share, say)
+    result["matrix"] = judged
+    if result["chosen"] is None:
+        for r in result["pareto"]:
+            r["chosen"] = False
+            if r.get("label") == "chosen":
+                r["label"] = "pareto"
+    result["requirements_met"] = bool(judged["planned"]["failing"] == 0)
+    result["writes"] = bool(result["chosen"] is not None or judged["chosen_parts"] is not None)
 
 
 def _check_settings(share, max_candidates, seed) -> None:

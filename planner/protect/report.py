@@ -241,8 +241,8 @@ def _baseline_lines(result: dict) -> list[str]:
 def _chosen_lines(result: dict) -> list[str]:
     c = result["chosen"]
     if c is None:
-        return ["RESULT: no placement meets the requirement; raise the share of the class, use lower-leakage "
-                "diodes, or accept the protection of the project as given."]
+        return ["No clamp placement is chosen: none meets the accuracy share and protects at least as well as the "
+                "project as given."]
     b = result["baseline"]["across_movement"]
     where = c["site"]
     if c["site_kind"] == "split":
@@ -266,9 +266,9 @@ def _chosen_lines(result: dict) -> list[str]:
     err, cls = _pct(c["hot_linearity_error_pct"]), _pct(_hundred(c["share_of_class"]), ".1f")
     lines.append(f"  worst case: {wc.get('position')} | {wc.get('stimulus')}; clamp error at the hottest ambient "
                  f"{err} % ({cls} % of class); diode stress {_pct(c['clamp_stress_ratio'], '.2f')} of rating")
-    lines.append("RESULT: " + ("the chosen placement protects better than clamps across the movement"
-                               if result["improves_on_across_movement"] else
-                               "no placement protects better than clamps across the movement"))
+    lines.append("  " + ("the chosen placement protects the movement better than clamps across it"
+                         if result["improves_on_across_movement"] else
+                         "no placement protects the movement better than clamps across it"))
     return lines
 
 
@@ -291,4 +291,33 @@ def format_protect(result: dict) -> str:
     str
     """
     lines = _heading_lines(result) + _table_lines(result) + _baseline_lines(result) + [""] + _chosen_lines(result)
+    lines += _matrix_lines(result)
     return "\n".join(lines) + "\n"
+
+
+def _matrix_text(m: dict) -> str:
+    return f"{m['failing']} failing ({m['failing_cases']} cases, {m['failing_transitions']} transitions), " \
+           f"worst ratio {m['worst_ratio']:.3g}"
+
+
+def _matrix_lines(result: dict) -> list[str]:
+    """The plans judged on the misrange matrix: as given, the clamp plan, the protection parts, the result."""
+    j = result.get("matrix")
+    if not j:
+        return []
+    lines = ["", "Judged on the misrange matrix (planner faults):", f"  as given: {_matrix_text(j['as_given'])}"]
+    if j["clamp_plan"] is not None:
+        lines.append(f"  clamp placement: {_matrix_text(j['clamp_plan'])}")
+    best = j["parts"][0] if j["parts"] and result.get("writes") else None
+    for r in j["parts"][:6]:
+        mark = " <- chosen" if r is best else (" (as given)" if r["as_given"] else "")
+        lines.append(f"  {r['clamps']} clamps, protection {r['label']}: {_matrix_text(r['matrix'])}; price "
+                     f"{r['price_pct']:.3f} % ({100 * r['price_share']:.0f} % of the share), {r['parts_added']} "
+                     f"parts{mark}")
+    lines += ["  " + n for n in j["notes"]]
+    if not result.get("writes"):
+        lines.append("  nothing protects better than the project as given: the file stays as it is")
+    lines.append(f"  the plan: {_matrix_text(j['planned'])}")
+    lines.append("RESULT: " + ("requirement met: no failing case in the misrange matrix" if result["requirements_met"]
+                               else "requirement NOT met: failing cases remain in the misrange matrix"))
+    return lines

@@ -20,6 +20,7 @@ from ..model import ClampRequest, Spec
 from ..project import loads
 from .candidates import Combo, Site, Stack, place_clamp, sites
 from .context import SearchContext
+from .judged import with_protection
 from .report import multiple_text, si_text
 
 __all__ = ["protected_text", "write_protected"]
@@ -142,8 +143,10 @@ def write_protected(design: Design | Spec, result: dict, out_path) -> str:
 
     Returns
     -------
-    str
-        The text written.
+    str or None
+        The text written; None when neither a clamp placement nor protection parts
+        protect better than the project as given (nothing is written: a plan that
+        protects worse than its input is never written).
 
     Raises
     ------
@@ -159,7 +162,19 @@ def write_protected(design: Design | Spec, result: dict, out_path) -> str:
     """
     design = as_design(design)
     spec = design.spec
-    text = protected_text(design, result)
+    parts = (result.get("matrix") or {}).get("chosen_parts")
+    if not result.get("chosen") and parts is None:
+        return None  # nothing protects better than the project as given: nothing is written
+    if not spec.text:
+        raise ProjectError("the project has no file text to extend; load it from a file (planner.project.load) first",
+                           spec.path)
+    text = protected_text(design, result) if result.get("chosen") else spec.text
+    if parts is not None:
+        m = parts["matrix"]
+        text = with_protection(text, parts, header=[
+            f"# Protection parts chosen by the search: {parts['label']}; the misrange matrix then has "
+            f"{m['failing']} failing cases (worst ratio {m['worst_ratio']:.3g}), price in accuracy "
+            f"{parts['price_pct']:.3f} % of full scale at the hottest ambient."])
     build(loads(text, str(out_path)))  # sizes and checks it as any command would
     emit(out_path, text, protect=[spec.path] if spec.path else [])
     return text

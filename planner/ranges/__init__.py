@@ -8,17 +8,18 @@
 from .base import RangeKind
 from .dc_current import DCCurrent
 from .dc_voltage import DCVoltage
+from .resistance import Resistance
 
 #: Range kinds by a position's ``measures``.
-KINDS = {k.measures: k for k in (DCVoltage(), DCCurrent())}
+KINDS = {k.measures: k for k in (DCVoltage(), DCCurrent(), Resistance())}
 
 
 def of(measures: str) -> RangeKind:
-    """The range kind of a position's ``measures`` (``voltage``, ``current``)."""
+    """The range kind of a position's ``measures`` (``voltage``, ``current``, ``resistance``)."""
     try:
         return KINDS[measures]
     except KeyError:
         raise ValueError(f"no range kind measures {measures!r}; known: {', '.join(KINDS)}") from None
 
 
-__all__ = ["RangeKind", "KINDS", "of", "DCVoltage", "DCCurrent"]
+__all__ = ["RangeKind", "KINDS", "of", "DCVoltage", "DCCurrent", "Resistance"]

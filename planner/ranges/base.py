@@ -34,6 +34,8 @@ class RangeKind:
     unit: ClassVar[str] = ""
     source: ClassVar[str] = ""
     label: ClassVar[str] = ""
+    #: Whether the neighbouring ranges' full scales are misrange stimuli (``range up``/``down``).
+    range_steps: ClassVar[bool] = True
 
     def reading(self, movement_multiple: np.ndarray, full_scale: float) -> np.ndarray:
         """The reading from the movement current as a multiple of full scale [unit].
@@ -43,9 +45,45 @@ class RangeKind:
         """
         return movement_multiple * full_scale
 
+    def full_scale_drive(self, position) -> float:
+        """The source value [V] or [A] that drives the position to full deflection."""
+        return position.full_scale
+
     def input_figures(self, full_scale: float, source_current_a: float, terminal_v: float) -> dict:
         """What the instrument presents to the measured circuit at full scale (JSON fields)."""
         return {}
+
+    def plate_scale(self, position) -> str | None:
+        """Which scale of the dial marks this position (``planner scale``, the dossier's plate).
+
+        Returns
+        -------
+        str or None
+            ``"linear"``: the shared linear DC scale, fraction = value / full
+            scale (reading = FS x I_m / I_fs); ``"own"``: a scale of its own, which
+            :meth:`scale_definition` draws from the solved response; None: no scale.
+        """
+        return "linear"
+
+    def scale_definition(self, response, position):
+        """A scale of its own for this position (used where :meth:`plate_scale` says ``"own"``).
+
+        Parameters
+        ----------
+        response : callable
+            D(values): the nominal deflection I_m / I_fs of this position for an
+            array of applied values (nominal parts, reference temperature; the
+            solver seam of :mod:`planner.scale.solved`).
+        position : Position
+
+        Returns
+        -------
+        planner.scale.ScaleDef or None
+            E.g. ``ScaleDef(name, "ac", (ScalePosition(...),), sampled_response(response,
+            full_scale, "ac"))``; an ohms scale uses kind ``"ohms"`` with its centre
+            value as the position's full scale.
+        """
+        return None
 
     def misrange(self, position, faults) -> list:
         """Misrange stimuli that belong to this kind of range (list of :class:`planner.stimulus.Stimulus`).

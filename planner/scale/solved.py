@@ -133,9 +133,8 @@ def linear_definitions(engine, positions=None) -> tuple[list[ScaleDef], list[Pos
         (``DC 2`` ...).
     checks : list of PositionCheck
     """
-    pos = [p for p in (positions if positions is not None else engine.positions)
-           if p.measures in ("voltage", "current")]
-    sps = [ScalePosition(p.name, "V" if p.measures == "voltage" else "A", p.full_scale) for p in pos]
+    pos = [p for p in (positions if positions is not None else engine.positions) if p.kind.plate_scale(p) == "linear"]
+    sps = [ScalePosition(p.name, p.kind.unit, p.full_scale) for p in pos]
     groups: list[list[ScalePosition]] = []
     for row in rows_of(tuple(sps)):
         members = [sp for sp in sps if sp.name in {rp.name for rp in row.positions}]
@@ -187,8 +186,11 @@ def scale_project(design, *, engine=None, defs: list[ScaleDef] | None = None) ->
     engine : Engine, optional
         An engine on ``design`` (made when not given).
     defs : list of ScaleDef, optional
-        Extra scales (AC scales of their own, ohms scales) to draw beside the
-        shared linear scale of the DC positions.
+        Extra scales to draw beside those of the positions. A position's range
+        kind says which scale marks it (:meth:`planner.ranges.RangeKind.plate_scale`):
+        the shared linear scale, or one of its own that the kind defines
+        (:meth:`planner.ranges.RangeKind.scale_definition`; AC scales of their own,
+        ohms scales).
 
     Raises
     ------
@@ -204,12 +206,18 @@ def scale_project(design, *, engine=None, defs: list[ScaleDef] | None = None) ->
     spec = design.spec
     engine = engine or Engine(design)
     linear, checks = linear_definitions(engine)
+    own = []  # scales of their own (AC, ohms): each range kind draws its own from the solved response
+    for p in engine.positions:
+        if p.kind.plate_scale(p) == "own":
+            d = p.kind.scale_definition(lambda v, name=p.name: nominal_response(engine, name, v), p)
+            if d is not None:
+                own.append(d)
     geo = spec.movement.scale
     m = spec.movement
     info = PlateInfo(title=spec.title, revision=spec.revision, date=spec.date,
                      movement=f"{_quantity_text(m.i_fs_a, 'A')}, {_quantity_text(m.r_coil_ohm, 'ohm')}, "
                               f"class {m.class_index:g}")
-    all_defs = linear + list(defs or [])
+    all_defs = linear + own + list(defs or [])
     if not all_defs:
         raise ProjectError("the project has no position a scale can serve; add voltage or current ranges",
                            spec.path, geo.line)

@@ -149,7 +149,7 @@ def separate_shunts(i_ranges_a, i_fs_a: float, r_m_ohm: float) -> list[float]:
 
     References
     ----------
-    Textbook examples quoted in references.md: 1 mA, 43 ohm to 1 A gives 43.04 mohm;
+    Textbook worked examples of the shunt formula: 1 mA, 43 ohm to 1 A gives 43.04 mohm;
     50 uA, 1 kohm to 500 uA gives 111.1 ohm.
     """
     return [r_m_ohm * i_fs_a / (float(i) - i_fs_a) for i in i_ranges_a]
@@ -200,7 +200,8 @@ def voltage_meter(spec: Spec) -> tuple[float, float]:
     .. math:: I = I_{fs} (1 + R_b / R_t) = I_1, \\qquad
               R = R_b R_t / (R_b + R_t)
 
-    where I_1 is the lowest current range (the ring's defining equation).
+    where I_1 is the lowest current range the ring makes (the ring's defining
+    equation; a range of exactly I_fs is the bare movement and makes none).
     Otherwise (``switched_out``, separate shunts, no current ranges) the
     multipliers see the bare movement: I = I_fs, R = R_m.
 
@@ -209,8 +210,10 @@ def voltage_meter(spec: Spec) -> tuple[float, float]:
     Series and parallel resistance and the Ayrton relation as in ``ayrton_total``.
     """
     m = spec.movement
-    if ring_across(spec):
+    # a range of exactly I_fs is the bare movement, not part of the ring
+    shunted = [x for x in spec.current.full_scales if abs(x / m.i_fs_a - 1.0) > 1e-9] if spec.current else []
+    if ring_across(spec) and shunted:
         r_b = current_branch_ohm(spec)
-        r_t = ayrton_total(spec.current.full_scales, m.i_fs_a, r_b)
+        r_t = ayrton_total(shunted, m.i_fs_a, r_b)
         return m.i_fs_a * (1.0 + r_b / r_t), r_b * r_t / (r_b + r_t)
     return m.i_fs_a, m.r_coil_ohm

@@ -138,6 +138,12 @@ class Layout:
     taps: list[Tap] = field(default_factory=list)
     multiplier_base: str = M_PLUS
     current_feed: str = PLUS
+    #: The node the voltage positions' contacts join, and the series resistance ahead of it [ohm]
+    #: (input protection: :mod:`planner.sizing.sections.protection`).
+    voltage_feed: str = PLUS
+    feed_ohm: float = 0.0
+    #: (rated current [A], node): current ranges below that full scale are fed from the node (a mA fuse).
+    low_current_feed: tuple | None = None
 
 
 class SizingSection:

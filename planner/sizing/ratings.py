@@ -16,8 +16,13 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import network as nw
+from ..categories import category_impulse
 from ..errors import SolveError
 from ..model import Contact, NetworkSpec, Position, Resistor, ResistorParts, Spec
+from ..parts.fuse import fuse_let_through
+from ..parts.fusible import time_to_open_s
+from ..parts.ptc import time_to_trip_s
+from ..parts.resistor import SHORT_OVERLOAD_POWER_FACTOR, SHORT_OVERLOAD_S
 from ..solve import Junctions, solve
 from ..tools import fmt
 from .assemble import PartRow
@@ -51,7 +56,7 @@ class LinearNetwork:
 
     def __init__(self, spec: Spec, net: NetworkSpec):
         self.spec = spec
-        self.elements = tuple(e for e in net.elements if e.stamp != "junction")
+        self.elements = tuple(e for e in net.elements if e.stamp not in ("junction", "varistor"))
         self.positions = net.positions
         self._nets: dict[tuple, NetworkSpec] = {}
 
@@ -82,7 +87,10 @@ class LinearNetwork:
             r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
                                 for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
             z = np.zeros((1, 0))
-            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]))
+            e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
+                           for br in c.branches]])
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]),
+                        emf=e if np.any(e != 0.0) else None)
         except SolveError:
             return None
 
@@ -107,11 +115,12 @@ def rating_cases(spec: Spec, layout: Layout):
     ]
     for p in layout.positions:
         unit = p.unit
-        out.append((f"full scale on {p.name}", p, p.full_scale, (), True))
-        if p.kind.source == "voltage" and vmax is not None and vmax > p.full_scale:
+        drive = p.kind.full_scale_drive(p)
+        out.append((f"full scale on {p.name}", p, drive, (), True))
+        if p.kind.source == "voltage" and vmax is not None and vmax > drive:
             for sh in corners:
                 how = "" if not sh else f", clamp at {'+'.join(sh)} shorted"
-                out.append((f"{fmt(vmax, unit)} max input on {p.name}{how}", p, vmax, sh, False))
+                out.append((f"{fmt(vmax, 'V')} max input on {p.name}{how}", p, vmax, sh, False))
     return out
 
 
@@ -131,10 +140,10 @@ class Stress:
     errors: dict[str, float] = field(default_factory=dict)  # position -> relative error
 
 
-def _add_parts(st: Stress, dv: dict, values: dict, fs: bool) -> None:
+def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, powers: dict | None = None) -> None:
     for name, r in values.items():
         vv = abs(dv.get(name, 0.0))
-        pp = vv * vv / r
+        pp = vv * vv / r if powers is None else powers.get(name, vv * vv / r)
         st.v[name] = max(st.v.get(name, 0.0), vv)
         st.p[name] = max(st.p.get(name, 0.0), pp)
         if fs:
@@ -142,14 +151,15 @@ def _add_parts(st: Stress, dv: dict, values: dict, fs: bool) -> None:
             st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
 
 
-def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool) -> None:
+def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, powers: dict | None = None) -> None:
     for j, parts in enumerate(seg_parts):
         # voltage across the whole segment: sum of the series units' voltages
         seen_units = {}
         for name, val, a, b in parts:
             seen_units.setdefault((a, b), dv.get(name, 0.0))
         sv = abs(sum(seen_units.values()))
-        sp = sum(dv.get(name, 0.0) ** 2 / val for name, val, _, _ in parts)
+        sp = sum(dv.get(name, 0.0) ** 2 / val if powers is None else powers.get(name, dv.get(name, 0.0) ** 2 / val)
+                 for name, val, _, _ in parts)
         if sp > st.seg_p[j]:
             st.seg_p[j] = sp
             st.seg_case[j] = label
@@ -169,6 +179,8 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m.
     """
     lin = LinearNetwork(spec, net)
+    ladder = rating_ladder(spec)
+    pulses = ladder_pulses(spec, ladder)
     st = Stress()
     nseg = len(seg_parts)
     st.seg_v, st.seg_p = [0.0] * nseg, [0.0] * nseg
@@ -180,12 +192,100 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         dv = lin.solve(pos, value, shorted)
         if dv is None:
             continue
-        if fs:
+        if fs and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
-        _add_parts(st, dv, values, fs)
-        _add_segments(st, dv, seg_parts, label, fs)
+        powers = None
+        t_act = None if fs else protective_time(spec, net, dv)
+        if t_act is not None:  # a protective part acts first: each part rated for the pulse until it does
+            powers = {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
+            label += f" (until the protection acts, {t_act:.3g} s)"
+        _add_parts(st, dv, values, fs, powers)
+        _add_segments(st, dv, seg_parts, label, fs, powers)
+    for label, pos, value, shorted in impulse_cases(spec, layout):  # peak voltage only: no heating
+        dv = lin.solve(pos, value, shorted)
+        if dv is not None:
+            zero = {n: 0.0 for n in values}
+            _add_parts(st, dv, values, False, zero)
+            _add_segments(st, dv, seg_parts, label, False, zero)
     return st
+
+
+def impulse_cases(spec: Spec, layout: Layout):
+    """(label, position, peak [V], shorted nodes) of the declared category's impulse on every voltage position.
+
+    The rated impulse of ``faults.category`` (:func:`planner.categories.category_impulse`)
+    from an ideal source, each clamp node open and shorted: an upper bound of the
+    peak voltage across every part (the source impedance and the varistors only
+    lower it). Judged on the limiting element voltage alone (an impulse is too
+    short to heat a part).
+    """
+    if not spec.faults.category:
+        return []
+    v_imp, _, label = category_impulse(spec.faults.category)
+    corners = [tuple(s) for r in range(len(layout.clamp_nodes) + 1)
+               for s in itertools.combinations(layout.clamp_nodes, r)]
+    return [(f"{label} impulse {fmt(v_imp, 'V')} on {p.name}" + (f", clamp at {'+'.join(sh)} shorted" if sh else ""),
+             p, v_imp, sh) for p in layout.positions if p.kind.source == "voltage" for sh in corners]
+
+
+def protective_time(spec: Spec, net: NetworkSpec, dv: dict) -> float | None:
+    """How soon a protective part acts in a linear rating case [s] (None: none within the 5 s short-time overload).
+
+    The input PTC trips (:func:`planner.parts.ptc.time_to_trip_s` at its cold-state
+    current), a fusible resistor opens (:func:`planner.parts.fusible.time_to_open_s`
+    at its power), a fuse clears (:func:`planner.parts.fuse.fuse_let_through`); the
+    first of them ends the pulse the other parts carry.
+    """
+    t = math.inf
+    for e in net.elements:
+        v = abs(dv.get(e.name, 0.0))
+        if e.kind == "ptc":
+            m = spec.parts.ptcs[e.model]
+            tt = time_to_trip_s(m, v / m.r_cold_ohm)
+        elif e.kind == "resistor" and getattr(e, "fusible", False):
+            tt = time_to_open_s(e.fusing, v * v / e.value_ohm)
+        elif e.kind == "fuse":
+            f = spec.parts.fuses[e.model]
+            lt = fuse_let_through(f, v / f.r_cold_ohm) if f.r_cold_ohm > 0 else None
+            tt = lt["event_time_s"] if lt else None
+        else:
+            continue
+        if tt is not None:
+            t = min(t, tt)
+    return t if t <= SHORT_OVERLOAD_S else None
+
+
+def ladder_pulses(spec: Spec, ladder) -> list:
+    """The single-pulse energy [J] of each rating of the ladder (None where the catalogue gives none)."""
+    rp = spec.parts.resistors
+    out = []
+    for pw, vr in ladder:
+        pe = None
+        for k, p in enumerate(rp.power_ratings_w):
+            if p == pw and k < len(rp.pulse_energies_j):
+                pe = rp.pulse_energies_j[k]
+        if pe is None and pw == rp.power_w:
+            pe = rp.pulse_energy_j
+        out.append(pe)
+    return out
+
+
+def equivalent_power_w(p_w: float, t_s: float, ladder, pulses) -> float:
+    r"""The continuous rating a part needs to carry ``p_w`` for ``t_s`` [W].
+
+    Notes
+    -----
+    The first rating :math:`P_r` of the ladder whose pulse limit carries the
+    energy, :math:`P t \le \max(E_{pulse}, 6.25 P_r t)` (IEC 60115-1 short-time
+    overload, from memory; the maker's single-pulse energy); with none, ``p_w``
+    itself (no rating carries it: the sizer falls back as for any misrange).
+    """
+    e = p_w * t_s
+    for (pr, _), pe in zip(ladder, pulses):
+        if e <= max(pe or 0.0, SHORT_OVERLOAD_POWER_FACTOR * pr * t_s):
+            return min(p_w, pr)
+    return p_w
 
 
 def rating_ladder(spec: Spec) -> list[tuple[float, float]]:

@@ -104,7 +104,7 @@ def network_yaml(spec: Spec, sizing: Sizing) -> str:
     """A project file holding the sized network explicitly.
 
     The file's own text is kept, comments and all, except its ``voltage``,
-    ``current``, ``clamps`` and ``network`` sections: those stay as comments (the
+    ``current``, ``resistance``, ``clamps`` and ``network`` sections: those stay as comments (the
     record of what was asked) and the explicit ``network:`` section is appended,
     so the loader reads back exactly the sized network and nothing is sized
     twice. Quantities carry units and parse back to the same floats; each
@@ -125,7 +125,8 @@ def network_yaml(spec: Spec, sizing: Sizing) -> str:
         f"(allowed error {sizing.allowed_error_pct:.3g} % per segment); edit the values freely."
     ]
     return writer.replace_sections(
-        spec.text, ("voltage", "current", "clamps", "network"), writer.network_lines(sizing.network),
+        spec.text, ("voltage", "current", "resistance", "clamps", "network", "protection"),
+        writer.network_lines(sizing.network),
         header=header, record="# The request the network below was sized from (kept for the record):")
 
 
@@ -168,7 +169,7 @@ def format_sizing_table(sizing: Sizing) -> str:
                 p.name,
                 fmt(p.input_resistance_ohm, "ohm"),
                 "" if p.burden_voltage_v is None else fmt(p.burden_voltage_v, "V"),
-                f"{p.nominal_error_pct:+.4f}",
+                "(check)" if p.nominal_error_pct is None else f"{p.nominal_error_pct:+.4f}",
             )
         )
     out += _columns(prow)

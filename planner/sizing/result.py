@@ -149,6 +149,7 @@ class Sizing:
         """True when every segment is within the allowed share and rated for full scale."""
         return not self.flags and all(
             abs(p.nominal_error_pct) <= self.allowed_error_pct * (1 + 1e-9) for p in self.positions
+            if p.nominal_error_pct is not None  # ohms positions: proved by planner check after zeroing
         )
 
     def segment(self, name: str) -> Segment:

@@ -220,7 +220,7 @@ def _result(req: _Request, choices, rates, net: NetworkSpec, seg_parts, st: Stre
             full_scale=p.full_scale,
             input_resistance_ohm=lay.ideal[p.name][0],
             burden_voltage_v=lay.ideal[p.name][1],
-            nominal_error_pct=100.0 * st.errors.get(p.name, float("nan")),
+            nominal_error_pct=100.0 * st.errors[p.name] if p.name in st.errors else None,
         )
         for p in lay.positions
     )

@@ -43,6 +43,9 @@ VARISTOR_FLOOR = 1e-12
 #: node's largest current term, is below this at the start of its last step (a vanishing slope
 #: or a start far off gives a small step, not convergence).
 BALANCE_TOL = 1e-6
+#: Absolute current below which a node's balance holds whatever its terms [A]: at a zero
+#: stimulus every term is itself next to nothing, and a ratio of such numbers is noise.
+BALANCE_FLOOR_A = 1e-24
 
 JUNCTION_FIELDS = ("i_s", "nvt", "bv", "ibv", "r_s", "g_p")
 VARISTOR_FIELDS = ("v1", "alpha", "i1")
@@ -374,7 +377,7 @@ def _unbalanced(res, terms, sel):
             ax = np.abs(x[sel]) if isinstance(x, np.ndarray) else abs(x)
             size = ax if size is None else np.maximum(size, ax)
         r = res[m]
-        off = (np.abs(r[sel]) if isinstance(r, np.ndarray) else abs(r)) > BALANCE_TOL * size
+        off = (np.abs(r[sel]) if isinstance(r, np.ndarray) else abs(r)) > BALANCE_TOL * size + BALANCE_FLOOR_A
         out = off if out is None else out | off
     return out
 

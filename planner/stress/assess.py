@@ -17,7 +17,8 @@ from ..design import Design
 from ..engine import Engine
 from .judge import Judgement, judge
 from .text import fuse_detail
-from .verdict import verdict_of
+from .tripped import settle
+from .verdict import decided_by, hazards_of, verdict_of
 from .waveforms import solve_waveforms
 
 #: Resistance [ohm] that stands in for a fuse once it has opened: the insulation
@@ -121,9 +122,8 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     opened = j.opened
     after = None
     while opened and not s.peak_only:
-        eng = _open_fuse_engine(engine, opened)
-        wf2 = solve_waveforms(eng, st, [s], temperature_k=temperature_k, n_phase=n_phase)[0]
-        label = "after " + ", ".join(sorted(opened)) + (" opens" if len(opened) == 1 else " open")
+        eng, wf2 = settle(_open_fuse_engine(engine, opened), st, s, temperature_k=temperature_k, n_phase=n_phase)
+        label = _after_label(opened, fuses)
         j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False, original=engine.net)
         stresses += j2.stresses
         fuses += [dict(f, after=sorted(opened)) for f in j2.fuses]
@@ -139,9 +139,18 @@ def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) 
     return {"stresses": stresses, "fuses": fuses, "notes": notes, "hazardous": hazardous, "after": after}
 
 
+def _after_label(opened: frozenset, fuses: list) -> str:
+    """The phase label once parts have acted: ``after F1 opens``, ``after RT1 trips``."""
+    ptcs = {f["name"] for f in fuses if f.get("kind") == "ptc"}
+    verb = ("trips" if len(opened) == 1 else "trip") if opened <= ptcs else ("opens" if len(opened) == 1 else "open")
+    return "after " + ", ".join(sorted(opened)) + " " + verb
+
+
 def _case(st, s, j: Judgement, phases: dict) -> dict:
     """The case record of the design contract (see :func:`assess`)."""
-    verdict, deciding = verdict_of(phases["stresses"], phases["hazardous"])
+    # a PTC that trips resets once the fault is gone: the case survives without a part to replace
+    opens = any(f["opens"] and not f.get("resets") for f in phases["fuses"])
+    verdict, deciding = verdict_of(phases["stresses"], phases["hazardous"], opens=opens)
     mv = j.movement
     after = phases["after"]
     first = [f for f in j.fuses if f["opens"]]
@@ -153,6 +162,9 @@ def _case(st, s, j: Judgement, phases: dict) -> dict:
         "stimulus_detail": s.as_dict(),
         "verdict": verdict,
         "deciding": deciding,
+        "decided_by": decided_by(deciding),
+        "hazards": hazards_of(phases["stresses"]),
+        "asks": asks_of(verdict, deciding),
         "movement_current_a": mv["current_a"],
         "movement_peak_current_a": mv["peak_current_a"],
         "movement_rms_current_a": mv["rms_current_a"],
@@ -168,7 +180,24 @@ def _case(st, s, j: Judgement, phases: dict) -> dict:
         "fuse_opens": bool(first),
         "fuse": ev.fuse if ev else (first[0]["name"] if first else None),
         "pre_arcing_time_s": ev.pre_arcing_time_s if ev else None,
+        "pre_arcing_onset": ev.onset if ev else None,
         "let_through_i2t_a2s": ev.let_through_i2t_a2s if ev else None,
         "event_time_s": ev.event_time_s if ev else None,
         "detail": fuse_detail(first, ev, verdict),
     }
+
+
+def asks_of(verdict: str, deciding: dict | None) -> list[dict]:
+    """What the planner asks for where a missing figure decides a case (``asks[]``).
+
+    A resistor's pulse energy judged by the conservative rule (no maker's
+    ``pulse_energy``) that decides an ``overstress`` case: give the figure.
+    """
+    if verdict != "overstress" or not deciding or deciding.get("limit_name") != "resistor pulse energy":
+        return []
+    if deciding.get("pulse_energy_given"):
+        return []
+    return [{"part": deciding["part"], "key": "pulse_energy",
+             "message": f"{deciding['part']}: its pulse energy decides this case and is judged by the conservative "
+                        "rule (no maker's figure); give its single-pulse energy as `pulse_energy` on the element or "
+                        "its rating in parts.resistors"}]

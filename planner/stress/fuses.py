@@ -48,6 +48,13 @@ class FuseEvent:
         (:func:`planner.parts.fuse.fuse_let_through`).
     words : str
         Phase words for the quantities judged over it (``'while F1 opens'``).
+    onset : str or None
+        Where in the cycle the fault starts for the deciding fuse (``'crest'`` or
+        ``'zero crossing'``: the slower), None for DC.
+    onset_rad : float
+        That onset's phase on the stimulus's cycle [rad].
+    period_s : float or None
+        Period of the cycle [s] (None for DC).
     """
 
     fuses: tuple
@@ -56,6 +63,9 @@ class FuseEvent:
     let_through_i2t_a2s: float
     event_time_s: float
     words: str
+    onset: str | None = None
+    onset_rad: float = 0.0
+    period_s: float | None = None
 
 
 def trip_parts(elements, contexts: dict, opened, original) -> tuple[list, list, list, list]:
@@ -97,7 +107,29 @@ def trip_parts(elements, contexts: dict, opened, original) -> tuple[list, list, 
         notes += trip.notes
         if trip.opens:
             newly.append(e.name)
+    notes += series_first(fuses, newly)
     return stresses, fuses, notes, newly
+
+
+def series_first(fuses: list, newly: list) -> list[str]:
+    """Of protective parts in series (the same current), only the fastest opens: the others are told so.
+
+    ``fuses`` (the records) and ``newly`` (the names that open) are changed in place.
+    Parts carry the same current when their rms currents agree to 1e-9; the one with
+    the shortest ``event_time_s`` opens and the current stops in the others.
+    """
+    opening = [f for f in fuses if f["opens"] and f.get("event_time_s") is not None]
+    notes = []
+    for f in opening:
+        faster = [g for g in opening if g is not f and g["opens"] and g["event_time_s"] < f["event_time_s"]
+                  and abs(g["current_rms_a"] - f["current_rms_a"]) <= 1e-9 * max(f["current_rms_a"], 1e-30)]
+        if faster:
+            f.update(opens=False, pre_arcing_time_s=None, let_through_i2t_a2s=None, arcing_i2t_a2s=None,
+                     event_time_s=None, opened_first=faster[0]["name"])
+            newly.remove(f["name"])
+            notes.append(f"{f['name']} carries the same current as {faster[0]['name']}, which opens first: "
+                         f"{f['name']} does not open")
+    return notes
 
 
 def exposure(fuses: list, short_exposure: bool | None, overload) -> tuple[bool, list]:
@@ -126,12 +158,12 @@ def exposure(fuses: list, short_exposure: bool | None, overload) -> tuple[bool, 
     notes = []
     if short_exposure and (fast or unknown):
         names = ", ".join(f["name"] for f in fast + unknown)
-        notes.append(f"the movement is judged on its short-time overload ({overload.short_time:g} x) because "
-                     f"{names} opens within {SHORT_TIME_S:g} s (or an unknown time); what follows is judged "
-                     "after it opens")
+        notes.append(f"the movement is judged on its thermal limit over the pulse (up to its short-time peak "
+                     f"limit of {overload.short_time:g} x) because {names} opens within {SHORT_TIME_S:g} s (or an "
+                     "unknown time); what follows is judged after it opens")
     elif any(f["opens"] for f in fuses):
         notes.append(f"a fuse opens only after more than {SHORT_TIME_S:g} s, so the movement is judged "
-                     "on its continuous overload")
+                     "on its continuous (thermal and mechanical) limits")
     return bool(short_exposure), notes
 
 
@@ -161,7 +193,8 @@ def fuse_event(fuses: list, short_exposure: bool) -> tuple[FuseEvent | None, lis
         names = " and ".join(f["name"] for f in opening)
         event = FuseEvent(tuple(f["name"] for f in opening), lead["name"], lead["pre_arcing_time_s"],
                           lead["let_through_i2t_a2s"], lead["event_time_s"],
-                          f"while {names} open{'s' if len(opening) == 1 else ''}")
+                          f"while {names} open{'s' if len(opening) == 1 else ''}",
+                          lead.get("onset"), lead.get("onset_rad") or 0.0, lead.get("period_s"))
     elif opening and short_exposure:
         notes.append("a fuse opens in an unknown or long time, so resistors and diodes are judged on their "
                      "continuous ratings")

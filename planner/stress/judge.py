@@ -19,8 +19,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 
+import math
+
 import numpy as np
 
+from ..cycle.prearc import window_integral
 from ..engine import Engine
 from ..model import Spec
 from ..stimulus import Stimulus, hazardous_live
@@ -53,7 +56,18 @@ class JudgingContext:
     event : FuseEvent or None
         The pulse while fuses open, when they open in a known, finite time.
     short_exposure : bool
-        The movement is judged on its short-time overload (a fuse opens fast).
+        The movement is judged over the pulse (a fuse opens fast).
+    samples_i, samples_v : ndarray or None
+        The element's current [A] and voltage [V] at each sample of the
+        stimulus (one for DC, the phases of one cycle for a periodic wave).
+    pulse : dict or None
+        While fuses open in a known time: the element's own share of the pulse,
+        integrated over the event's window from its onset
+        (:func:`pulses_of`): ``energy_j`` [J], ``i2t_a2s`` [A^2 s],
+        ``duration_s`` [s], ``rms_a`` [A] over the window.
+    duration_s : float
+        How long the stimulus lasts in this network [s]: until the last fuse
+        that opens has opened (when every such time is known), else ``inf``.
     """
 
     spec: Spec
@@ -66,6 +80,10 @@ class JudgingContext:
     phase: str = ""
     event: FuseEvent | None = None
     short_exposure: bool = False
+    samples_i: np.ndarray | None = None
+    samples_v: np.ndarray | None = None
+    pulse: dict | None = None
+    duration_s: float = math.inf
 
     #: A stress entry (:func:`planner.stress.verdict.stress_entry`).
     entry = staticmethod(stress_entry)
@@ -152,8 +170,12 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
 
     # each part's checks; the movement closes the list (the pointer sums the case up)
     rated = sorted((e for e in elements if e.name not in opened), key=lambda e: e.name == engine.movement.name)
+    lasting = lasting_s(fuses)
+    pulses = pulses_of(contexts, event)
     for e in rated:
-        stresses += e.checks(replace(contexts[e.name], event=event, short_exposure=short_exposure))
+        ctx = contexts[e.name]
+        stresses += e.checks(replace(ctx, event=event, short_exposure=short_exposure, pulse=pulses.get(e.name),
+                                     duration_s=lasting))
     return Judgement(stresses, fuses, notes, frozenset(newly), short_exposure, hazardous,
                      movement_reading(wf, ms, spec.movement.i_fs_a), parts, event)
 
@@ -184,8 +206,9 @@ def source_notes(wf: Waveform) -> list[str]:
     if wf.open_input:
         notes.append(f"{wf.state.name}: no path joins the input terminals, so no current flows")
     if wf.limited.any():
-        notes.append(f"the source's current limit of {s.current_limit_a:g} A takes over "
-                     f"on {int(wf.limited.sum())} of {wf.limited.size} samples")
+        what = (f"current limit of {s.current_limit_a:g} A" if s.kind == "voltage" else
+                f"compliance of {s.compliance_v:g} V")
+        notes.append(f"the source's {what} takes over on {int(wf.limited.sum())} of {wf.limited.size} samples")
     return notes
 
 
@@ -197,8 +220,64 @@ def element_contexts(spec: Spec, wf: Waveform, elements, movement_multiple: dict
         i = wf.current_a[e.name]
         v = wf.voltage_v[e.name]
         out[e.name] = JudgingContext(spec, wf.stimulus, cycle_stats(i), cycle_stats(v), float(np.mean(i * v)),
-                                     movement_multiple, prospective, phase)
+                                     movement_multiple, prospective, phase, samples_i=i, samples_v=v)
     return out
+
+
+def lasting_s(fuses: list) -> float:
+    """How long the stimulus lasts in a network [s]: the longest time of the fuses that open, else ``inf``."""
+    opening = [f for f in fuses if f["opens"]]
+    if not opening or any(f["event_time_s"] is None for f in opening):
+        return math.inf
+    return float(max(f["event_time_s"] for f in opening))
+
+
+def pulses_of(contexts: dict, event: FuseEvent | None) -> dict:
+    r"""Each element's share of the pulse while fuses open: energy and Joule integral over the event's window.
+
+    Parameters
+    ----------
+    contexts : dict of str -> JudgingContext
+        The elements' contexts (their samples over the stimulus).
+    event : FuseEvent or None
+
+    Returns
+    -------
+    dict of str -> dict
+        By designator (empty without an event): ``energy_j`` =
+        :math:`\int v i \, dt`, ``i2t_a2s`` = :math:`\int i^2 dt` and ``rms_a`` = :math:`\sqrt{I^2t / t_{ev}}` over the window
+        :math:`[t_0, t_0 + t_{ev}]` from the event's onset (for DC, :math:`P t_{ev}`
+        and :math:`I^2 t_{ev}`); ``duration_s`` = :math:`t_{ev}`.
+
+    Notes
+    -----
+    The window is the one of the fuse that sets the event, from the onset phase
+    that decides its pre-arcing time (:meth:`planner.parts.fuse.Fuse.trip`). A
+    part in series with that fuse takes exactly :math:`R \, I^2t`; a part behind
+    a clamp takes what the clamp lets through during the window, which a longer
+    window makes larger: that is why the slower onset decides.
+
+    References
+    ----------
+    IEC 60269-1 (Joule integral over a stated interval); :func:`planner.cycle.window_integral`.
+    """
+    if event is None or not contexts:
+        return {}
+    t = event.event_time_s
+    names = [n for n, c in contexts.items() if c.samples_i is not None]
+    if not names:
+        return {}
+    first = contexts[names[0]]
+    if first.samples_i.size == 1 or event.period_s is None:
+        i2t = np.array([contexts[n].current["rms"] ** 2 * t for n in names])
+        energy = np.array([abs(contexts[n].power_w) * t for n in names])
+    else:
+        cur = np.column_stack([contexts[n].samples_i for n in names])
+        pw = np.column_stack([contexts[n].samples_i * contexts[n].samples_v for n in names])
+        i2t = window_integral(cur, event.period_s, event.onset_rad, t, square=True)
+        energy = np.abs(window_integral(pw, event.period_s, event.onset_rad, t))
+    return {n: {"energy_j": float(energy[k]), "i2t_a2s": float(i2t[k]), "duration_s": t,
+                "rms_a": math.sqrt(max(float(i2t[k]), 0.0) / t) if t > 0 else 0.0} for k, n in enumerate(names)}
 
 
 def part_row(e, ctx: JudgingContext) -> dict:

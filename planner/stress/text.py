@@ -51,7 +51,8 @@ def describe_stress(x: dict | None) -> str:
         val, rat = f"{x['value']:.4g} A^2 s", f"{x['rating']:.4g} A^2 s"
     else:
         val, rat = fmt(x["value"], unit, 4), fmt(x["rating"], unit, 4)
-    return f"{x['part']} {x['quantity']} {val} of {rat} {LIMITS[x['limit']].word} ({ratio_text(x['ratio'])})"
+    rule = f", rule: {x['rule']}" if x.get("rule") else ""
+    return f"{x['part']} {x['quantity']} {val} of {rat} {LIMITS[x['limit']].word} ({ratio_text(x['ratio'])}{rule})"
 
 
 def fuse_detail(opening: list, event, verdict: str) -> str:
@@ -74,7 +75,7 @@ def fuse_detail(opening: list, event, verdict: str) -> str:
         return f"{names} above its rating but below its curve: it may not open for a long time"
     text = (f"fuse opens: {names} in {fmt(event.event_time_s, 's', 3)}, let-through "
             f"{event.let_through_i2t_a2s:.3g} A^2 s")
-    if verdict in ("ok", "pegs"):
+    if verdict in ("ok", "pegs", "opens"):
         text += "; every part survives the pulse: replace the fuse"
     return text
 
@@ -113,6 +114,10 @@ def format_apply(result: dict) -> str:
         lines.append("Beyond a limit:")
         for x in sorted(bad, key=lambda x: -x["ratio"]):
             lines += wrap("  ", describe_stress(x))
+    for h in result.get("hazards", []):
+        lines += wrap("HAZARD: ", f"rule '{h['rule']}': {h['detail']} ({h['source']})")
+    for a in result.get("asks", []):
+        lines += wrap("Give: ", a["message"])
     for n in result.get("notes", []):
         lines += wrap("Note: ", n)
     for c in result.get("cautions", []):
@@ -169,11 +174,13 @@ def _fuse_lines(result: dict) -> list[str]:
     for f in result["fuses"]:
         t = f["pre_arcing_time_s"]
         when = " (after " + ", ".join(f["after"]) + " opened)" if f.get("after") else ""
-        state = "opens" if f["opens"] else "holds"
-        extra = f", pre-arcing time {t:.3g} s" if (f["opens"] and t is not None) else ""
+        ptc = f.get("kind") == "ptc"
+        state = ("trips" if ptc else "opens") if f["opens"] else "holds"
+        extra = f", {'time to trip' if ptc else 'pre-arcing time'} {t:.3g} s" if (f["opens"] and t is not None) else ""
         if f["opens"] and f.get("let_through_i2t_a2s") is not None:
             extra += f", let-through {f['let_through_i2t_a2s']:.3g} A^2 s"
-        lines += wrap("", f"Fuse {f['name']}{when}: {fmt(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
+        what = {"ptc": "PTC", "fusible resistor": "Fusible resistor"}.get(f.get("kind"), "Fuse")
+        lines += wrap("", f"{what} {f['name']}{when}: {fmt(f['current_rms_a'], 'A', 4)} rms, {state}{extra}; "
                           f"prospective {fmt(f['prospective_current_a'], 'A', 4)} vs breaking capacity "
                           f"{fmt(f['breaking_capacity_a'], 'A', 4)}")
     return lines

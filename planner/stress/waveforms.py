@@ -41,7 +41,8 @@ class Waveform:
         Open-circuit value of the source at each sample [V] (voltage sources) or
         the terminal voltage (current sources).
     limited : ndarray of bool (n,)
-        Samples where the source's current limit took over.
+        Samples where the source's current limit (a voltage source) or its
+        compliance (a current source) took over.
     open_input : bool
         True when no path joins the input terminals in this state.
     """
@@ -182,6 +183,8 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
     }
     if kind == "voltage":
         _cross_over(engine, st, stimuli, rows, sol, temperature_k)
+    else:
+        _compliance(engine, st, stimuli, rows, sol, temperature_k)
     out = []
     for row, s in enumerate(stimuli):
         n = len(rows[row])
@@ -195,25 +198,37 @@ def _solve_group(engine: Engine, st, stimuli, kind: str, has_r: bool, temperatur
     return out
 
 
-def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
-    """Solve again, as a current source of the limit, the samples where a source's current limit takes over.
+def _compliance(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
+    """Solve again, as a voltage source of the compliance, the samples where a current source runs out of voltage.
 
-    ``sol`` (the group's solved arrays: ``cur``, ``vol``, ``i_m``, ``i_src``,
-    ``v_t``, ``limited``) is patched in place at those samples.
+    A current source holds its current only up to its compliance voltage; beyond
+    it, it holds that voltage (a real calibrator or a circuit's supply). For a
+    resistive network with diodes the terminal voltage rises monotonically with
+    the current, so the samples whose terminal voltage at the nominal current
+    exceeds the compliance are exactly those solved at the compliance, with the
+    sign of that voltage. ``sol`` is patched in place at those samples.
     """
-    i_src = sol["i_src"]
+    patch = _beyond(sol["v_t"], [s.compliance_v for s in stimuli], rows)
+    if patch:
+        _patch(engine, st, patch, "voltage", sol, temperature_k)
+
+
+def _beyond(values: np.ndarray, limits: list, rows) -> list:
+    """(row, sample, signed limit) of every sample whose ``|values|`` exceeds its row's limit (None: no limit)."""
     patch = []
-    for row, s in enumerate(stimuli):
-        lim = s.current_limit_a
+    for row, lim in enumerate(limits):
         if lim is None:
             continue
         n = len(rows[row])
-        for k in np.nonzero(np.abs(i_src[row, :n]) > lim)[0]:
-            patch.append((row, k, math.copysign(lim, i_src[row, k])))
-    if not patch:
-        return
+        for k in np.nonzero(np.abs(values[row, :n]) > lim)[0]:
+            patch.append((row, k, math.copysign(lim, values[row, k])))
+    return patch
+
+
+def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k) -> None:
+    """Solve the samples ``patch`` ((row, sample, value)) with a source of ``kind`` and write them into ``sol``."""
     plus, minus = st.position.input
-    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind="current", temperature_k=temperature_k)
+    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind=kind, temperature_k=temperature_k)
     rr = np.array([p[0] for p in patch])
     kk = np.array([p[1] for p in patch])
     for e in stress_elements(engine):
@@ -224,7 +239,19 @@ def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> 
         sol["vol"][e.name][rr, kk] = es.voltage_v[0]
     sol["i_m"] = np.array(sol["i_m"])
     sol["i_m"][rr, kk] = op2.movement_current_a[0]
-    i_src[rr, kk] = op2.source_current_a[0]
+    sol["i_src"] = np.array(sol["i_src"])
+    sol["i_src"][rr, kk] = op2.source_current_a[0]
     sol["v_t"] = np.array(sol["v_t"])
     sol["v_t"][rr, kk] = (op2.node_voltage(plus) - op2.node_voltage(minus))[0]
     sol["limited"][rr, kk] = True
+
+
+def _cross_over(engine: Engine, st, stimuli, rows, sol: dict, temperature_k) -> None:
+    """Solve again, as a current source of the limit, the samples where a source's current limit takes over.
+
+    ``sol`` (the group's solved arrays: ``cur``, ``vol``, ``i_m``, ``i_src``,
+    ``v_t``, ``limited``) is patched in place at those samples.
+    """
+    patch = _beyond(sol["i_src"], [s.current_limit_a for s in stimuli], rows)
+    if patch:
+        _patch(engine, st, patch, "current", sol, temperature_k)

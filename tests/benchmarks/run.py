@@ -22,6 +22,9 @@ One run, on one machine, with the two simulators taking turns inside each repeti
 * **The stack**: ``planner faults`` of ``tests/reliability/ideal_stack_50.yaml`` (a clamp of
   50 ideal junctions per direction at a tap, 1000 V maximum input) as a whole process, with
   the same project at one junction per direction beside it; the target is under 2 s.
+* **The commands**: ``planner dossier``, ``faults`` and ``protect`` of the largest example as
+  whole processes against ``planner check`` of it, and the dossier's peak memory
+  (``tests/benchmarks/commands.py``; targets 1.5 x, 2 x, 2 x and 300 MiB).
 * **The check**: ``planner check projects/bench_multimeter.yaml`` (every position, 2000
   builds, the temperature points, linearity tables, worst case) as a whole process,
   against ngspice solving the same operating points: the engine calls of the check
@@ -58,11 +61,9 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import os
 import platform
 import statistics
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -76,6 +77,7 @@ import spice  # noqa: E402  (tests/spice.py: the deck writer and runner)
 
 sys.path.insert(0, str(ROOT / "tests" / "benchmarks"))
 import parts  # noqa: E402  (the newer parts' decks and the ideal-junction stack)
+import commands  # noqa: E402  (whole commands against planner check)
 
 EXAMPLE = ROOT / "projects" / "bench_multimeter.yaml"
 #: ngspice options of the benchmark: tight enough for agreement to about 1e-9.
@@ -308,12 +310,7 @@ def timed(fn):
 
 
 def process_seconds(cmd) -> float:
-    t0 = time.perf_counter()
-    proc = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True)
-    elapsed = time.perf_counter() - t0
-    if proc.returncode not in (0, 1):
-        raise RuntimeError(f"{' '.join(cmd)} failed ({proc.returncode}): {proc.stderr[-2000:]}")
-    return elapsed
+    return commands.run_seconds(cmd, ROOT)
 
 
 def planner_exe():
@@ -475,6 +472,9 @@ def main(argv=None) -> int:
     results["stack"] = {"faults_50_s": t50, "faults_1_s": t1, "faults_50_median_s": med(t50),
                         "faults_1_median_s": med(t1), "target_s": 2.0, "met": med(t50) < 2.0}
 
+    # whole commands against planner check (dossier, faults, protect), the dossier's memory -----------
+    results["commands"] = commands.measure(planner_exe(), EXAMPLE, ROOT, repeat=max(3, repeat))
+
     # planner --help ------------------------------------------------------------------------------------
     help_s = [process_seconds(planner_exe() + ["--help"]) for _ in range(max(3, repeat))]
     results["planner_help_s"] = med(help_s)
@@ -558,6 +558,8 @@ def table(r) -> str:
     st = r["stack"]
     lines.append(f"planner faults, 50-junction ideal stack: {st['faults_50_median_s']:.2f} s (one junction: "
                  f"{st['faults_1_median_s']:.2f} s; target < {st['target_s']:.0f} s: {'met' if st['met'] else 'NOT met'})")
+    if "commands" in r:
+        lines.extend(commands.table_lines(r["commands"]))
     lines.append(f"planner --help: {r['planner_help_s'] * 1e3:.0f} ms; load {r['machine']['load_before'][0]:.2f} "
                  f"before, {r['machine']['load_after'][0]:.2f} after")
     return "\n".join(lines)

@@ -8,7 +8,10 @@ positions, contacts and devices to the :class:`planner.sizing.layout.Layout`.
   split at the clamp taps);
 - ``dc_current.py``: ``current`` ranges (Ayrton ring or separate shunts, swamp);
 - ``clamp_diodes.py``: ``clamps`` (taps, diode stacks);
-- ``input_fuse.py``: ``current.fuse`` (the fuse ahead of the current positions).
+- ``input_fuse.py``: ``current.fuse`` (the fuse ahead of the current positions);
+- ``resistance.py``: ``resistance`` ohms ranges (battery, series resistors, range
+  shunts, zero adjuster).
+- ``protection.py``: ``protection`` (input PTC, fusible input resistor, ring crowbar, mA fuse).
 
 To size a new kind of range or a new protection part, add a file here with a
 ``SizingSection`` subclass and put an instance in :data:`SECTIONS`: its place in the
@@ -19,9 +22,13 @@ from .clamp_diodes import ClampDiodesSizing
 from .dc_current import DCCurrentSizing
 from .dc_voltage import DCVoltageSizing
 from .input_fuse import InputFuseSizing
+from .protection import ProtectionSizing
+from .resistance import ResistanceSizing
 
 #: The registered sections, in designator order: resistors (R), diodes (D), fuses (F),
 #: positions and contacts (S) follow this order within their kind.
-SECTIONS = (DCVoltageSizing(), DCCurrentSizing(), ClampDiodesSizing(), InputFuseSizing())
+SECTIONS = (DCVoltageSizing(), DCCurrentSizing(), ClampDiodesSizing(), InputFuseSizing(), ResistanceSizing(),
+            ProtectionSizing())
 
-__all__ = ["SECTIONS", "DCVoltageSizing", "DCCurrentSizing", "ClampDiodesSizing", "InputFuseSizing"]
+__all__ = ["SECTIONS", "DCVoltageSizing", "DCCurrentSizing", "ClampDiodesSizing", "InputFuseSizing", "ResistanceSizing",
+           "ProtectionSizing"]

@@ -4,7 +4,12 @@ A clamp ``at: movement`` goes from ``m_plus`` to common; ``at: {above_movement: 
 declares a tap R above the movement (the voltage section splits its multiplier
 there) and puts the stack from the tap to common. Forward diodes have the anode
 toward the tap, reverse ones the cathode; ``count: n`` puts n in series in each
-direction (``docs/sizing.md``, section 3).
+direction (``docs/sizing.md``, section 3). ``bidirectional: true`` makes one string
+of n back-to-back pairs instead (zeners or TVS diodes: the forward model's cathode
+toward the tap, its anode to the reverse model's anode), clamping both polarities
+at breakdown plus one junction; a tap may split any segment of a multiplier chain.
+``across: ring`` is a crowbar across the Ayrton ring on its own switch pole
+(:func:`planner.sizing.sections.protection.ring_crowbar`).
 """
 
 from __future__ import annotations
@@ -14,6 +19,7 @@ import math
 from ...model import Diode, Spec
 from ..layout import COM, M_PLUS, Device, Layout, SizingSection, Tap
 from ..request import request_error
+from .protection import ring_crowbar
 
 
 class ClampDiodesSizing(SizingSection):
@@ -41,7 +47,10 @@ class ClampDiodesSizing(SizingSection):
         if int(cl.count) < 1:
             raise request_error(spec, f"clamp count {cl.count} must be at least 1", cl.line)
         if isinstance(cl.at, str):
-            if cl.at != "movement":
+            if cl.at == "ring" and (spec.current is None or not spec.current.fuse):
+                raise request_error(spec, "a clamp across the ring sits behind the current ranges' fuse; give "
+                                    "current.fuse (a crowbar without a fuse would short the source for good)", cl.line)
+            if cl.at not in ("movement", "ring"):
                 raise request_error(
                     spec, f"clamp at '{cl.at}': use 'movement' or a resistance above the movement, e.g. '1 kohm'",
                     cl.line)
@@ -65,9 +74,21 @@ class ClampDiodesSizing(SizingSection):
     def lay_out(self, spec: Spec, layout: Layout) -> None:
         tap_node = {t.ohm: t.node for t in layout.taps}
         for j, cl in enumerate(spec.clamps, 1):
+            if cl.at == "ring":  # a crowbar across the ring, on its own switch pole
+                for model in dict.fromkeys(x for x in (cl.forward, cl.reverse) if x is not None):
+                    ring_crowbar(spec, layout, model, int(cl.count), cl.line)
+                continue
             node = M_PLUS if isinstance(cl.at, str) else tap_node[float(cl.at)]
             if node not in layout.clamp_nodes:
                 layout.clamp_nodes.append(node)
+            if cl.bidirectional:  # back-to-back pairs: tap -|<- mid ->|- ... to common
+                here = node
+                for i in range(1, int(cl.count) + 1):
+                    mid, nxt = f"clamp{j}_mid{i}", (COM if i == int(cl.count) else f"clamp{j}_pair{i}")
+                    layout.devices.append(Device("D", Diode, (mid, here, cl.forward, cl.line)))
+                    layout.devices.append(Device("D", Diode, (mid, nxt, cl.reverse, cl.line)))
+                    here = nxt
+                continue
             for direction, model in (("fwd", cl.forward), ("rev", cl.reverse)):
                 if model is None:
                     continue

@@ -1,0 +1,275 @@
+"""Plans judged on the misrange matrix: protection parts searched, no plan worse than the project as given.
+
+The clamp search (:mod:`planner.protect.search`) ranks placements by the movement's
+worst current multiple. A plan is written only when the misrange matrix of
+``planner faults`` (:func:`planner.faults.faults_project`), solved on the plan as it
+would be written and loaded again, is at least as good as the project's own:
+
+1. **the clamp plan**: the placement the clamp search chose, written into the
+   project text (:func:`planner.protect.write.protected_text`) and loaded again; when
+   its matrix is worse than the project's, it is not chosen;
+2. **protection parts** (a sized project whose catalogue has them): every
+   combination of the ``protection:`` section's parts the catalogue offers (an
+   input PTC from ``parts.ptcs``, a ring crowbar from ``parts.diodes`` behind the
+   current ranges' fuse, a mA fuse from ``parts.fuses`` rated between the lowest
+   and the highest current range), each sized and judged on the whole matrix.
+
+Objective, lexicographic (:func:`plan_key`): the failing cases (positions and
+transitions, ``overstress`` or ``hazard`` and not accepted), fewest first; the
+worst ratio of the stress that decides a case over its rating (over every case),
+smallest first; the price in accuracy (the largest change of a full-scale reading
+at the hottest ambient that the protection causes, against the share of the
+class: a plan beyond the share is not chosen); the number of parts added.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import replace
+
+from ..design import Design, build
+from ..engine import Engine
+from ..errors import PlannerError
+from ..faults import faults_project
+from ..project import loads
+from ..model import ProtectionRequest
+from ..sizing.sections.protection import protection_lines
+from ..stress.verdict import FAILING
+from .. import writer
+
+__all__ = ["matrix_score", "plan_key", "protection_candidates", "judge_plans"]
+
+#: Most protection-part combinations judged (each is one whole misrange matrix).
+MAX_PART_PLANS = 48
+
+
+def matrix_score(faults: dict) -> dict:
+    """The misrange matrix summed up: failing cases, worst deciding ratio, counts.
+
+    Parameters
+    ----------
+    faults : dict
+        What :func:`planner.faults.faults_project` returned.
+
+    Returns
+    -------
+    dict
+        ``failing`` (cases and transitions judged ``overstress`` or ``hazard`` and
+        not accepted), ``failing_cases``, ``failing_transitions``, ``worst_ratio``
+        (largest ratio of a case's deciding stress over its rating, every case),
+        ``verdicts`` (count per verdict over the cases), ``requirements_met``.
+    """
+    def failing(c):
+        return c["verdict"] in FAILING and not c.get("accepted")
+
+    cases, trans = faults["cases"], faults["transitions"]
+    worst = max([c["deciding"]["ratio"] for c in cases + trans if c.get("deciding")] or [0.0])
+    verdicts: dict = {}
+    for c in cases:
+        verdicts[c["verdict"]] = verdicts.get(c["verdict"], 0) + 1
+    fc, ft = sum(map(failing, cases)), sum(map(failing, trans))
+    return {"failing": fc + ft, "failing_cases": fc, "failing_transitions": ft, "worst_ratio": float(worst),
+            "verdicts": verdicts, "requirements_met": bool(faults["requirements_met"])}
+
+
+def plan_key(row: dict) -> tuple:
+    """Sort key of a judged plan (smaller is better): failing, worst ratio, over-share price, price, parts."""
+    s = row["matrix"]
+    price = row.get("price_share", 0.0)
+    return (s["failing"], round(s["worst_ratio"], 9), price > 1.0 + 1e-12, round(price, 9), row.get("parts_added", 0))
+
+
+def not_worse(a: dict, b: dict) -> bool:
+    """Whether matrix ``a`` protects at least as well as ``b``: no more failing cases, no larger worst ratio."""
+    return (a["failing"], round(a["worst_ratio"], 9)) <= (b["failing"], round(b["worst_ratio"], 9))
+
+
+def protection_candidates(spec) -> list:
+    """Every ``protection:`` combination the catalogue offers (None: no protection parts), as given first."""
+    cat = spec.parts
+    given = spec.protection
+    ptcs = [None] + (list(cat.ptcs) if spec.voltage is not None else [])
+    fused = spec.current is not None and bool(spec.current.fuse)
+    # a crowbar is forward junctions that carry the fault until the main fuse opens
+    main_a = cat.fuses[spec.current.fuse].rated_current_a if fused else math.inf
+    crowbars = [None] + [k for k, d in cat.diodes.items() if fused and d.bv_v is None and d.max_current_a >= main_a]
+    ma = [None]
+    if fused:
+        lo, hi = min(spec.current.full_scales), max(spec.current.full_scales)
+        main = cat.fuses[spec.current.fuse].rated_current_a
+        ma += [k for k, f in cat.fuses.items() if k != spec.current.fuse and lo < f.rated_current_a < min(hi, main)]
+    count = given.ring_crowbar_count if given is not None else 2
+    out = [given]
+    for ptc, cb, fz in itertools.product(ptcs, crowbars, ma):
+        req = None if (ptc, cb, fz) == (None, None, None) else ProtectionRequest(
+            input_ptc=ptc, ring_crowbar=cb, ring_crowbar_count=count, ma_fuse=fz,
+            fusible_input=bool(given and given.fusible_input), fusible_ohm=given.fusible_ohm if given else None,
+            fusing=given.fusing if given else (), breaking_voltage_v=given.breaking_voltage_v if given else math.inf)
+        if req not in out:
+            out.append(req)
+    return out[:MAX_PART_PLANS]
+
+
+def _parts_added(req) -> int:
+    if req is None:
+        return 0
+    return (1 if req.input_ptc else 0) + (1 if req.fusible_input else 0) + (1 if req.ma_fuse else 0) + \
+        (2 * req.ring_crowbar_count if req.ring_crowbar else 0)
+
+
+def _hot_readings(design: Design, t_hot: float) -> dict:
+    """Each position's full-scale reading at the hottest ambient, relative to full scale."""
+    eng = Engine(design)
+    out = {}
+    for p in design.net.positions:
+        if p.measures not in ("voltage", "current"):
+            continue
+        out[p.name] = float(eng.reading(p.name, [p.full_scale], temperature_k=t_hot)[0]) / p.full_scale
+    return out
+
+
+def _judge_protection(spec, req, t_hot: float, bare: dict, share: float, say) -> dict | None:
+    """One protection combination sized and judged, or None when the sizer refuses it."""
+    try:
+        design = build(replace(spec, protection=req))
+        faults = faults_project(design)
+    except PlannerError as e:
+        say(f"protection {describe(req)}: not buildable ({e})")
+        return None
+    hot = _hot_readings(design, t_hot)
+    cls = spec.movement.class_index
+    price = max((abs(hot[k] - bare.get(k, hot[k])) * 100.0 for k in hot), default=0.0)
+    return {"protection": as_dict(req), "label": describe(req), "matrix": matrix_score(faults),
+            "price_pct": price, "price_share": price / (share * cls) if cls > 0 else 0.0,
+            "parts_added": _parts_added(req)}
+
+
+def describe(req) -> str:
+    """The protection combination in words."""
+    if req is None:
+        return "none"
+    bits = []
+    if req.input_ptc:
+        bits.append(f"input PTC {req.input_ptc}")
+    if req.fusible_input:
+        bits.append("fusible input resistor")
+    if req.ring_crowbar:
+        bits.append(f"ring crowbar {req.ring_crowbar} x{req.ring_crowbar_count}")
+    if req.ma_fuse:
+        bits.append(f"mA fuse {req.ma_fuse}")
+    return ", ".join(bits) or "none"
+
+
+def as_dict(req) -> dict | None:
+    if req is None:
+        return None
+    return {"input_ptc": req.input_ptc, "fusible_input": req.fusible_input, "ring_crowbar": req.ring_crowbar,
+            "ring_crowbar_count": req.ring_crowbar_count, "ma_fuse": req.ma_fuse,
+            "fusible_resistance_ohm": req.fusible_ohm, "fusing": [list(x) for x in req.fusing],
+            "breaking_voltage_v": req.breaking_voltage_v}
+
+
+def from_dict(p: dict | None):
+    """The :class:`ProtectionRequest` of :func:`as_dict`."""
+    if p is None:
+        return None
+    return ProtectionRequest(input_ptc=p["input_ptc"], fusible_input=p["fusible_input"],
+                             fusible_ohm=p["fusible_resistance_ohm"], fusing=tuple(tuple(x) for x in p["fusing"]),
+                             breaking_voltage_v=p["breaking_voltage_v"], ring_crowbar=p["ring_crowbar"],
+                             ring_crowbar_count=p["ring_crowbar_count"], ma_fuse=p["ma_fuse"])
+
+
+def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None) -> dict:
+    """Judge the clamp search's choice and the protection parts on the misrange matrix (see the module).
+
+    Parameters
+    ----------
+    design : Design
+        The project as given.
+    result : dict
+        The clamp search's result (:func:`planner.protect.protect_project`); its
+        ``chosen`` is dropped when its matrix is worse than the project's.
+    text_of : callable(Design, dict) -> str
+        The project text with a result's clamp placement written in
+        (:func:`planner.protect.write.protected_text`).
+    share : float
+        Share of the class the protection may cost at the hottest ambient.
+
+    Returns
+    -------
+    dict
+        ``as_given`` (its matrix), ``clamp_plan`` (its matrix, or None),
+        ``parts[]`` (each protection combination judged, best first), ``chosen_parts``
+        (the protection combination written, or None: keep the file's),
+        ``planned`` (the matrix of the plan as written), ``improves``
+        (strictly better than as given) and ``notes[]``.
+    """
+    spec = design.spec
+    notes = []
+    say("the misrange matrix of the project as given")
+    given = matrix_score(faults_project(design))
+    bases = [("as given", spec, given)]
+    clamp_plan = None
+    if result.get("chosen") and spec.text:
+        say("the misrange matrix of the chosen clamp placement")
+        try:
+            planned = loads(text_of(design, result), spec.path or "<plan>")
+            clamp_plan = matrix_score(faults_project(build(planned)))
+            bases.append(("clamp placement", planned, clamp_plan))
+        except PlannerError as e:
+            notes.append(f"the chosen clamp placement does not build ({e}); kept as given")
+    rows = []
+    if spec.network is None and (spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes):
+        t_hot = float(spec.ambient.t_max_k)
+        for clamps, base_spec, base_matrix in bases:
+            bare = _hot_readings(build(replace(base_spec, protection=None)), t_hot)
+            for req in protection_candidates(base_spec):
+                say(f"protection parts with the clamps {clamps}: {describe(req)}")
+                if req == base_spec.protection:
+                    row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
+                           "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
+                    if req is not None:  # its price against no protection parts at all
+                        row = _judge_protection(base_spec, req, t_hot, bare, share, say) or row
+                else:
+                    row = _judge_protection(base_spec, req, t_hot, bare, share, say)
+                if row is not None:
+                    row["clamps"] = clamps
+                    row["as_given"] = clamps == "as given" and req == spec.protection
+                    rows.append(row)
+        rows.sort(key=plan_key)
+    else:
+        rows = [{"protection": as_dict(spec.protection), "label": describe(spec.protection), "matrix": m,
+                 "price_pct": 0.0, "price_share": 0.0, "parts_added": 0, "clamps": c,
+                 "as_given": c == "as given"} for c, _, m in bases]
+        rows.sort(key=plan_key)
+    mine = next(r for r in rows if r["as_given"]) if any(r["as_given"] for r in rows) else \
+        {"matrix": given, "price_share": 0.0, "parts_added": 0}
+    best = rows[0] if rows else None
+    chosen_parts = None
+    base = given
+    if best is not None and not best["as_given"] and plan_key(best) < plan_key(mine) \
+            and not_worse(best["matrix"], given) and best["price_share"] <= 1.0 + 1e-12:
+        base = best["matrix"]
+        if best["protection"] != as_dict(spec.protection):
+            chosen_parts = best
+        if best["clamps"] != "clamp placement":
+            result["chosen"] = None
+    else:
+        result["chosen"] = None
+    if clamp_plan is not None and result.get("chosen") is None:
+        notes.append(f"the clamp placement found leaves {clamp_plan['failing']} failing cases (worst ratio "
+                     f"{clamp_plan['worst_ratio']:.3g}; {given['failing']}, {given['worst_ratio']:.3g} as given): "
+                     "the clamps stay as they are")
+    improves = (base["failing"], round(base["worst_ratio"], 9)) < (given["failing"], round(given["worst_ratio"], 9))
+    return {"as_given": given, "clamp_plan": clamp_plan, "parts": rows, "chosen_parts": chosen_parts,
+            "planned": base, "improves": bool(improves), "notes": notes}
+
+
+def with_protection(text: str, row: dict | None, header=()) -> str:
+    """Project text with its ``protection:`` section replaced by a judged combination's (unchanged for None)."""
+    if row is None:
+        return text
+    req = from_dict(row["protection"])
+    return writer.replace_sections(text, ("protection",), protection_lines(req), header=list(header),
+                                   record="# The protection parts before the search (kept for the record):")
