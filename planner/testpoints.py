@@ -18,7 +18,7 @@ from .model import NetworkSpec
 __all__ = ["pin_names", "test_points", "test_points_at", "linear_test_points"]
 
 #: Which part a probe goes on first, by kind (a fixed part before a switch contact).
-_PRIORITY = {"movement": 0, "resistor": 1, "fuse": 2, "ptc": 3, "varistor": 4, "battery": 5, "rheostat": 6,
+_PRIORITY = {"movement": 0, "battery": 0.5, "resistor": 1, "fuse": 2, "ptc": 3, "varistor": 4, "rheostat": 6,
              "diode": 7, "contact": 9}
 
 
@@ -27,9 +27,9 @@ def _rank(e) -> tuple:
 
 
 def _pin(e, node: str) -> str:
-    """A pin in words: the movement's + or - terminal, a diode's anode or cathode, else the part's end."""
+    """A pin in words: the movement's or a battery's + or - terminal, a diode's anode or cathode, else the part's end."""
     a, b = e.nodes
-    if e.kind == "movement":
+    if e.kind in ("movement", "battery"):  # both written [plus, minus]
         return f"{e.name} {'+' if node == a else '-'} terminal"
     if e.kind == "diode":
         return f"{e.name} {'anode' if node == a else 'cathode'}"
@@ -47,7 +47,7 @@ def pin_names(net: NetworkSpec) -> dict[str, dict]:
 
     Notes
     -----
-    The name probes the part first in the order movement, resistor, fuse, ..., diode,
+    The name probes the part first in the order movement, battery, resistor, fuse, ..., diode,
     contact (a fixed part before a switch contact), pointing toward the next part on
     the node; a node that is an input terminal says so.
     """
@@ -62,7 +62,7 @@ def pin_names(net: NetworkSpec) -> dict[str, dict]:
         pins.sort(key=lambda x: _rank(x[0]))
         first = pins[0][0]
         others = [e for e, _ in pins[1:] if e.name != first.name]
-        if first.kind == "movement":
+        if first.kind in ("movement", "battery"):  # a terminal of its own: no need to say toward what
             name = _pin(first, node)
         elif others:
             name = f"{_pin(first, node)} toward {others[0].name}"

@@ -173,6 +173,12 @@ def _calibration_points(spec: Spec, sizing) -> list[tuple[str, str, float]]:
     return out
 
 
+def _free_name(elements) -> str:
+    """The next trimmer designator ``RVn`` no element has yet (an ohmmeter's zero adjuster may hold RV1)."""
+    used = {e.name for e in elements}
+    return next(f"RV{k}" for k in range(1, len(used) + 2) if f"RV{k}" not in used)
+
+
 def _fit(target: float, half: float, series: str) -> tuple[float, float] | None:
     """(fixed, trimmer value) whose range holds ``target`` +- ``half``, or None when no fixed part fits."""
     if target - half <= 0:
@@ -239,7 +245,7 @@ def plan_trims(spec: Spec, sizing):
                          f"({fmt(half, 'ohm')}); select on test")
             continue
         fixed, span = fit
-        name = f"RV{len(trims) + 1}"
+        name = _free_name(elements)
         old = next(e for e in elements if e.name == part.name)
         mid = f"{part.name.lower()}_{name.lower()}"
         setting = share - fixed

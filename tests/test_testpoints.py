@@ -81,3 +81,15 @@ def test_check_and_size_json_carry_the_test_points():
     hand = mov.i_fs_a * (_below(sizing.network, BELOW_R9_R10) + mov.r_coil_ohm)
     np.testing.assert_allclose({v["position"]: v["voltage_v"] for v in tp["r9_r10"]["voltages"]}["50 V"], hand,
                                rtol=1e-5)  # the E96 values carry a little less than I_fs (nominal error)
+
+
+def test_a_battery_is_probed_at_its_terminals():
+    """The ohmmeter's cells: each node on a battery pin is named by the battery's + or - terminal
+    (written [plus, minus], as the movement); every pin of every element still named once."""
+    net = build(load(ROOT / "projects" / "pocket_ohmmeter.yaml")).net
+    names = pin_names(net)
+    for b in (e for e in net.elements if e.kind == "battery"):
+        assert names[b.a]["name"].endswith(f"{b.name} + terminal")
+        assert names[b.b]["name"].endswith("- terminal")  # this cell's or its neighbour's on the same node
+    pins = sorted(p for v in names.values() for p in v["pins"])
+    assert pins == sorted(f"{e.name}.{i}" for e in net.elements for i in (1, 2))

@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from planner.accuracy import check_project
+from planner.accuracy import check_project, format_check
 from planner.design import build
 from planner.project import load
 from planner.sizing import size
@@ -110,3 +110,23 @@ def test_an_explicit_network_gets_no_trimmer(tmp_path):
     result = check_project(build(load(path)), samples=50)
     assert result["trim"] == [] and result["calibration"] == []
     assert all("verdict_after_trim" in q for q in result["positions"])
+
+
+def test_an_ohmmeter_keeps_its_zero_adjuster_and_gets_the_next_designator(tmp_path):
+    """The ohms ranges' zero adjuster is RV1 (a rheostat); the planned trimmer takes the next
+    free designator, and the resistance positions (zeroed, not trimmed) keep their verdicts."""
+    text = (Path(__file__).resolve().parent.parent / "projects" / "pocket_ohmmeter.yaml").read_text()
+    path = tmp_path / "ohms.yaml"
+    path.write_text(text.replace("title:", "analysis: {trim: true}\ntitle:", 1))
+    design = build(load(path))
+    names = [e.name for e in design.net.elements]
+    assert len(names) == len(set(names))  # every designator once
+    assert design.net.element("RV1").kind == "rheostat"
+    assert [t.part for t in design.sizing.trims] == ["RV2"]
+    result = check_project(design, samples=20)
+    for q in result["positions"]:
+        if q["measures"] == "resistance":
+            assert "verdict_after_trim" not in q
+        else:
+            assert q["verdict_after_trim"] in ("within class", "outside class")
+    assert "after trimming" in format_check(result)

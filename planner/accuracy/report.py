@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..ohms_check import ohms_lines
+from ..trim import format_trim
 from ..model import ZERO_CELSIUS_K
 from ..units import format_si
 from .position import LINEARITY_FRACTIONS
@@ -96,6 +97,7 @@ def format_check(result: dict) -> str:
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
     lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
+    lines += format_trim(result)  # analysis.trim: the worst case after trimming and the calibration steps
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:
         lines.append("RESULT: requirement met - every position within class")
