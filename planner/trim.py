@@ -5,7 +5,11 @@ choice) makes a part of some segments a fixed part plus a trimmer in series:
 
 1. the swamping resistor, calibrated at the lowest current range (it sets the
    ratio of the meter branch to the ring or shunt: the coil's, the full-scale
-   current's and the ring's tolerances at once);
+   current's and the ring's tolerances at once), when there is one current range or
+   the movement's own spread (coil tolerance x R_m / R_b + the full-scale current's)
+   exceeds the resistors' tolerance: on a ring of several ranges the setting also
+   absorbs the lowest range's share of the ring's spread, which the higher taps do not
+   share, so a well-known movement is better left untrimmed there;
 2. the lowest voltage range's own multiplier segment, calibrated at that range's
    full scale (the coil's and the full-scale current's tolerance and that segment's);
 3. each higher voltage range whose first-order tolerance stack, after the trims
@@ -135,6 +139,45 @@ def _loop_tolerance(spec: Spec, net) -> float:
     return t + mov.i_fs_tolerance
 
 
+def _series_spread_ohm(spec: Spec, net, pos, sized: set) -> float:
+    """Tolerance spread [ohm] of the parts in series with a position's whole loop that the sizer did not size.
+
+    The input protection (a PTC, a fusible resistor, a fuse) carries the loop current of a
+    voltage range: its cold resistance's tolerance adds to the spread the first trimmer of
+    the chain must remove. Found as the single parts whose removal parts the input
+    terminals in the position's state (diodes and open contacts left out; graph bridges,
+    Tarjan's algorithm via networkx).
+    """
+    import networkx as nx
+
+    g = nx.Graph()
+    for e in net.elements:
+        if e.stamp == "junction" or (e.kind == "contact" and pos.name not in e.closed_in):
+            continue
+        a, b = e.nodes
+        if g.has_edge(a, b):
+            g[a][b]["parts"].append(e)
+        else:
+            g.add_edge(a, b, parts=[e])
+    plus, minus = pos.input
+    if plus not in g or minus not in g or not nx.has_path(g, plus, minus):
+        return 0.0
+    spread = 0.0
+    for a, b in nx.bridges(g):
+        parts = g[a][b]["parts"]
+        e = parts[0]
+        if len(parts) != 1 or e.name in sized or e.kind in ("movement", "contact"):
+            continue
+        h = g.copy()
+        h.remove_edge(a, b)
+        if nx.has_path(h, plus, minus):
+            continue  # not on the loop
+        tol = max((p.tolerance for p in e.parameters(spec)), default=0.0)
+        if tol > 0:
+            spread += tol * float(np.asarray(e.resistance(spec, np.zeros((1, 1)))).ravel()[0])
+    return spread
+
+
 def _calibration_points(spec: Spec, sizing) -> list[tuple[str, str, float]]:
     """(segment, position, half-span to remove [ohm]) in calibration order (see the module text)."""
     mov = spec.movement
@@ -151,13 +194,17 @@ def _calibration_points(spec: Spec, sizing) -> list[tuple[str, str, float]]:
         shunt = ring or next((s.target_ohm for s in sizing.segments if s.name == f"shunt {low.name}"), 0.0)
         r_branch = mov.r_coil_ohm + segs["swamp"].target_ohm
         t = t_all - mov.i_fs_tolerance
-        out.append(("swamp", low.name, 2.0 * t * r_branch + mov.i_fs_tolerance * (r_branch + shunt)))
+        t_movement = mov.tolerance * mov.r_coil_ohm / r_branch + mov.i_fs_tolerance
+        if len(amps) == 1 or t_movement > t_res:  # else it would trade the ring's ratio spread for the lowest range's
+                out.append(("swamp", low.name, 2.0 * t * r_branch + mov.i_fs_tolerance * (r_branch + shunt)))
     volts = sorted((p for p in positions if p.measures == "voltage"), key=lambda p: p.full_scale)
     chain = [p for p in volts if f"chain {p.name}" in segs]
     separate = [p for p in volts if f"multiplier {p.name}" in segs]
+    sized = {q.name for s in sizing.segments for q in s.parts}
     if chain:
         r_in = [p.full_scale / mov.i_fs_a for p in chain]
-        out.append((f"chain {chain[0].name}", chain[0].name, t_all * r_in[0]))
+        extra = _series_spread_ohm(spec, sizing.network, chain[0], sized)  # the input protection's spread
+        out.append((f"chain {chain[0].name}", chain[0].name, t_all * r_in[0] + extra))
         last = 0
         for k in range(1, len(chain)):
             stack = r_in[k] - r_in[last]
@@ -169,7 +216,7 @@ def _calibration_points(spec: Spec, sizing) -> list[tuple[str, str, float]]:
         seg = segs[f"multiplier {p.name}"]
         stack = (t_res * seg.target_ohm + mov.tolerance * mov.r_coil_ohm) / r_in + mov.i_fs_tolerance
         if i == 0 or stack > TRIM_SHARE * cls:
-            out.append((seg.name, p.name, t_all * r_in))
+            out.append((seg.name, p.name, t_all * r_in + _series_spread_ohm(spec, sizing.network, p, sized)))
     return out
 
 
@@ -211,7 +258,8 @@ def plan_trims(spec: Spec, sizing):
     The half-span :math:`h` a trimmer must remove is the first-order tolerance stack of
     the loop it is set in: :math:`h = (t + t_{I_{fs}}) R_{loop}` for the first trim of a
     kind (:math:`t` the largest resistor or coil tolerance, :math:`R_{loop} = V/I_{fs}`
-    for a voltage range); for the swamp, whose change must also absorb the ring's or
+    for a voltage range, plus :math:`\\sum_j t_j R_j` of the unsized parts in series with
+    the whole loop, the input protection); for the swamp, whose change must also absorb the ring's or
     shunt's tolerance, :math:`h = 2 t R_b + t_{I_{fs}} (R_b + R_{sh})` with the meter
     branch :math:`R_b = R_m + R_{swamp}` and the ring or shunt :math:`R_{sh}`; and
     :math:`h = (t_R + t_{I_{fs}})(R_{in,k} - R_{in,l})` for chain range :math:`k` above

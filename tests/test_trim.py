@@ -130,3 +130,43 @@ def test_an_ohmmeter_keeps_its_zero_adjuster_and_gets_the_next_designator(tmp_pa
         else:
             assert q["verdict_after_trim"] in ("within class", "outside class")
     assert "after trimming" in format_check(result)
+
+
+@pytest.fixture(scope="module")
+def bench_trimmed(tmp_path_factory):
+    text = (Path(__file__).resolve().parent.parent / "projects" / "bench_multimeter.yaml").read_text()
+    path = tmp_path_factory.mktemp("bench") / "bench.yaml"
+    path.write_text(text.replace("title:", "analysis: {trim: true}\ntitle:", 1))
+    return load(path)
+
+
+def test_the_first_chain_trimmer_also_covers_the_input_ptc(bench_trimmed):
+    """The chain sits behind the input PTC: the half-span of the 500 mV trimmer is the loop's
+    stack (t + t_Ifs) V / I_fs plus the PTC's cold-resistance tolerance times its value."""
+    spec = bench_trimmed
+    sizing = size(spec)
+    (t,) = [t for t in sizing.trims if t.segment == "chain 500 mV"]
+    ptc = sizing.network.element("RT1").part_row(spec)
+    r_in = 0.5 / spec.movement.i_fs_a
+    t_all = spec.parts.resistors.tolerance + spec.movement.i_fs_tolerance  # the movement is measured: 0 %
+    half = t_all * r_in + ptc["tolerance_pct"] / 100.0 * ptc["value_ohm"]
+    assert ptc["tolerance_pct"] > 0  # the example's PTC has a stated tolerance
+    share = t.fixed_ohm + t.setting_ohm
+    lo, hi = t.range_ohm
+    assert lo <= share - half + 1e-9 and hi >= share + half - 1e-9
+
+
+def test_a_ring_on_a_well_known_movement_gets_no_swamp_trimmer(bench_trimmed):
+    """Coil and full-scale current without tolerance (a measured movement) and a ring of four:
+    trimming the swamp would trade the ring's spread among the ranges; none is planned."""
+    assert bench_trimmed.movement.tolerance == 0.0 and bench_trimmed.movement.i_fs_tolerance == 0.0
+    assert [t.segment for t in size(bench_trimmed).trims] == ["chain 500 mV"]
+
+
+def test_one_current_range_gets_its_swamp_trimmed(tmp_path):
+    path = tmp_path / "amm.yaml"
+    path.write_text(ONE_RANGE.replace("voltage: {arrangement: chain, full_scales: [10 V]}",
+                                      "current: {arrangement: ring, full_scales: [1 mA], swamp: 2 kohm}")
+                    .replace("TRIM", "true"))
+    sizing = size(load(path))
+    assert [(t.segment, t.position) for t in sizing.trims] == [("swamp", "1 mA")]
