@@ -459,7 +459,8 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--ohms", metavar="R", help="a resistor across the input of a resistance position, e.g. '4.7 kohm'")
     sp.add_argument("--source-impedance", metavar="R", help="source impedance of a voltage stimulus, e.g. '0.5 ohm'")
     sp.add_argument("--temperature", metavar="T", help="ambient, degC as a bare number or with a unit")
-    sp.add_argument("--waveform", choices=["dc", "sine"], default="dc", help="dc value or sine given as rms")
+    sp.add_argument("--waveform", choices=["dc", "sine", "square", "triangle"], default="dc",
+                    help="dc value, or a sine, square or triangle wave given as rms")
     sp.set_defaults(func=cmd_apply)
 
     sp = sub.add_parser("dossier", help="write the PDF design dossier (and, with --bom, the BOM as CSV)")

@@ -24,6 +24,7 @@ import numpy as np
 from . import network as nw
 from .design import Design
 from .errors import UsageError
+from .ranges.ac import operate_cycle
 from .solve import Junctions, Solution, Varistors, solve
 
 
@@ -262,7 +263,8 @@ class Engine:
     # --- solving ---------------------------------------------------------------------
     def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
                 r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None,
-                settings: Mapping[str, np.ndarray] | None = None, emf=None) -> Operating:
+                settings: Mapping[str, np.ndarray] | None = None, emf=None,
+                waveform: str | None = None) -> Operating:
         """Solve one switch state for a batch of stimuli and parameter sets.
 
         Parameters
@@ -286,12 +288,24 @@ class Engine:
         emf : str or mapping, optional
             Battery EMFs: a level (``min``, ``nominal``, ``max``) or arrays (P,) per
             designator [V] (:meth:`emfs`); nominal by default.
+        waveform : str, optional
+            Solve the stimulus as cycle quantities of this wave, ``stimulus`` being
+            rms values, shape (T,) (:func:`planner.ranges.ac.operate_cycle`). By
+            default a position's own stimulus (``kind`` not given) is the waveform
+            its range kind reads (``sine`` on AC ranges: a
+            :class:`planner.ranges.ac.CycleOperating` comes back), and a stimulus
+            of a given ``kind`` is instantaneous values.
 
         Returns
         -------
         Operating
         """
         st = self.state(state)
+        if waveform is None and kind is None:
+            waveform = st.position.kind.waveform
+        if waveform is not None and (waveform != "dc" or st.position.kind.waveform != "dc"):
+            return operate_cycle(self, st, stimulus, waveform, kind=kind or st.position.kind.source,
+                                 temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
         kind = kind or st.position.kind.source
         if kind not in ("voltage", "current"):
             raise UsageError(f"stimulus kind must be 'voltage' or 'current', not {kind!r}")

@@ -219,6 +219,9 @@ class Position:
         Full-scale value [V] or [A].
     input : tuple of str
         The two input terminals (+, -).
+    scale : {'shared', 'own'}
+        AC (rectifier) positions: read on the shared linear DC scale or on an
+        AC scale of their own (design contract); ``shared`` for every other kind.
     center : float or None
         Centre-scale value of a resistance position [ohm] (its ``full_scale``
         holds the same number); None for other kinds.
@@ -229,6 +232,7 @@ class Position:
     full_scale: float
     input: tuple[str, str]
     line: int | None = None
+    scale: str = "shared"
     center: float | None = None
 
     @property
@@ -292,6 +296,26 @@ class CurrentRanges:
     swamp_ohm: float = 0.0
     fuse: str | None = None
     line: int | None = None
+
+
+@dataclass(frozen=True)
+class ACRanges:
+    """Wanted AC (rectifier) ranges: ``ac_voltage`` or ``ac_current`` of the project file.
+
+    ``arrangement`` is ``chain`` or ``separate`` (volts), ``ring`` or ``separate``
+    (amps); ``full_scales`` are rms values of a sine [V] or [A]; ``rectifier`` is
+    ``bridge`` or ``half_wave``; ``diode`` names a model in ``parts.diodes``;
+    ``scale`` is ``shared`` (the DC linear scale) or ``own`` (an AC scale);
+    ``swamp_ohm`` (AC current only) a resistor in series with the rectifier [ohm].
+    """
+
+    arrangement: str
+    full_scales: tuple[float, ...]
+    rectifier: str = "bridge"
+    diode: str = ""
+    scale: str = "shared"
+    line: int | None = None
+    swamp_ohm: float = 0.0  # ac_current: a resistor in series with the rectifier branch (0 for none)
 
 
 @dataclass(frozen=True)
@@ -427,6 +451,8 @@ class Spec:
     current: CurrentRanges | None = None
     resistance: ResistanceRanges | None = None
     clamps: tuple[ClampRequest, ...] = ()
+    ac_voltage: ACRanges | None = None
+    ac_current: ACRanges | None = None
     faults: Faults = field(default_factory=Faults)
     network: NetworkSpec | None = None
     analysis: Analysis = field(default_factory=Analysis)

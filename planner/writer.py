@@ -84,8 +84,9 @@ def network_lines(net: NetworkSpec, notes: Mapping[str, str] | None = None) -> l
     for p in net.positions:
         fs = quantity(p.full_scale, p.unit)
         key = "center" if p.center is not None else "full_scale"  # an ohms range has a centre, no full scale
+        scale = f", scale: {p.scale}" if p.scale != "shared" else ""
         lines.append(f"    - {{name: {yaml_string(p.name)}, measures: {p.measures}, {key}: {fs}, "
-                     f"input: [{p.input[0]}, {p.input[1]}]}}")
+                     f"input: [{p.input[0]}, {p.input[1]}]{scale}}}")
     return lines
 
 

@@ -15,7 +15,7 @@ import numpy as np
 from ..model import Spec
 from .classes import class_figures
 from .result import PositionArrays
-from .tolerances import CountingEngine, current_carrying, error_pct, worst_case
+from .tolerances import MAX_CORNER_PARAMETERS, CountingEngine, current_carrying, error_pct, worst_case
 
 #: Points of the linearity tables, fractions of full scale.
 LINEARITY_FRACTIONS = np.arange(1, 11) / 10.0
@@ -173,8 +173,11 @@ def check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors,
         say(f"{pos.name}: loading")
         _loading(run, pos, source_impedance_ohm, out, arrays)
     say(f"{pos.name}: worst case over {len(params)} toleranced parameters")
-    out.update(worst_case(run, pos.name, fs, params, rng_corners))
+    limit = pos.kind.corner_parameters
+    out.update(worst_case(run, pos.name, fs, params, rng_corners,
+                          MAX_CORNER_PARAMETERS if limit is None else min(limit, MAX_CORNER_PARAMETERS)))
     say(f"{pos.name}: Monte Carlo, {samples} builds")
     ok = _monte_carlo(run, pos, params, mc_factors, samples, cls, out, arrays)
+    out.update(pos.kind.check_figures(run.engine, pos))  # figures of the range kind (AC: waveform errors)
     out.update(class_figures(spec, out, arrays))
     return out, ok, arrays

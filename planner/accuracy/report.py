@@ -5,6 +5,7 @@ from __future__ import annotations
 from ..ohms_check import ohms_lines
 from ..trim import format_trim
 from ..model import ZERO_CELSIUS_K
+from ..ranges.ac_report import format_ac_figures
 from ..units import format_si
 from .position import LINEARITY_FRACTIONS
 
@@ -47,7 +48,7 @@ def format_check(result: dict) -> str:
             f"{'permitted':>11}{'class %':>9}  {'verdict':<14}{'yield':>7}{'budget %':>10}{'margin':>8}  {'input':<s}")
     lines += [head, "-" * (len(head) + 24)]
     for p in result["positions"]:
-        if p["measures"] == "voltage":
+        if "ohms_per_volt" in p:
             inp = (f"{format_si(p['input_resistance_ohm'], 'ohm')} "
                    f"({format_si(p['ohms_per_volt'], 'ohm/V')})")
         elif p["measures"] == "resistance":
@@ -97,6 +98,7 @@ def format_check(result: dict) -> str:
                      f"worst over scale: median {w['p50']:.3f}, 99th pct {w['p99']:.3f}")
     lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
+    lines += format_ac_figures(result["positions"])
     lines += format_trim(result)  # analysis.trim: the worst case after trimming and the calibration steps
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:

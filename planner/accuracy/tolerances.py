@@ -140,12 +140,13 @@ class CountingEngine:
     def operate(self, *args, **kwargs):
         op = self.engine.operate(*args, **kwargs)
         p, s = op.shape
-        self.points += p * s
+        self.points += getattr(op, "solved_points", p * s)  # an AC cycle: its rule's nodes, not its targets
         self.calls += 1
         return op
 
 
-def worst_case(run: CountingEngine, state, full_scale: float, params: list[Parameter], rng) -> dict:
+def worst_case(run: CountingEngine, state, full_scale: float, params: list[Parameter], rng,
+               max_corner_parameters: int = MAX_CORNER_PARAMETERS) -> dict:
     """Largest |error| at full scale over the parts' tolerance extremes [% of full scale].
 
     Parameters
@@ -160,6 +161,10 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
         The parameters that matter in this position.
     rng : numpy.random.Generator
         Draws the verification corners of the sensitivity bound.
+    max_corner_parameters : int
+        Every corner up to this many parameters, the sensitivity bound above
+        (:data:`MAX_CORNER_PARAMETERS`; a range kind whose solves cost more may
+        ask for fewer, :attr:`planner.ranges.RangeKind.corner_parameters`).
 
     Returns
     -------
@@ -171,7 +176,7 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
 
     Notes
     -----
-    With k parameters, k <= 12: every corner of the tolerance box, 2**k cases in
+    With k parameters, k <= 12 (``max_corner_parameters``): every corner of the tolerance box, 2**k cases in
     one batched solve; the result is :math:`\\max |e|`. Above 12: central
     extremes :math:`\\Delta_j^\\pm = e(x_j^\\pm) - e_0` (2k + 1 cases, one solve)
     give the first-order bound
@@ -197,7 +202,7 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
         e = error_pct(run.operate(state, [full_scale]).reading()[:, 0], full_scale)
         return {"worst_case_error_pct": float(abs(e[0])), "worst_case_method": "corners",
                 "worst_case_parameters": [], "worst_case_corners": 1, "worst_case_corner": {}}
-    if k <= MAX_CORNER_PARAMETERS:
+    if k <= max_corner_parameters:
         signs = _corner_signs(k)
         e = error_pct(run.operate(state, [full_scale], factors=_factors_from_signs(params, signs)).reading()[:, 0],
                        full_scale)

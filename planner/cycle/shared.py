@@ -31,6 +31,7 @@ agrees with the 15-point one, confirmed on solved values.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 from typing import Callable, Sequence
 
 import numpy as np
@@ -136,19 +137,26 @@ def _panel_moments(target: Target, span: float, lo: float, hi: float) -> tuple[n
     panel's local coordinate in [-1, 1], and the target's probability mass on the
     panel (:math:`m_0`).
     """
-    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
-    scale = target.peak / span
-    sh = target.shape
-    m = np.zeros(MAX_DEGREE + 1)
     if _is_atomic(target, span):
-        return m, 0.0  # solved exactly at its own nodes (see _Shared)
+        return np.zeros(MAX_DEGREE + 1), 0.0  # solved exactly at its own nodes (see _Shared)
+    m = _moments(target.shape, float(target.peak / span), float(lo), float(hi))
+    return m, float(m[0])
+
+
+@lru_cache(maxsize=1 << 16)
+def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
+    """The moments of :func:`_panel_moments` (read-only; kept: a rule's verification, its refinements and
+    the other rules of the same position ask for the same panels again)."""
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    m = np.zeros(MAX_DEGREE + 1)
     length = sh.domain[1] - sh.domain[0]
     ts, tw = gauss_legendre(PHASE_POINTS_PER_PIECE)
     for t1, t2 in _phase_pieces(sh, scale, lo, hi):
         tm, th = 0.5 * (t1 + t2), 0.5 * (t2 - t1)
         y = scale * sh.x_of(tm + th * ts)
         m += (th * tw / length) @ np.polynomial.legendre.legvander((y - mid) / half, MAX_DEGREE)
-    return m, float(m[0])
+    m.flags.writeable = False
+    return m
 
 
 def _weights_from_moments(moments, z) -> np.ndarray:
@@ -422,12 +430,14 @@ class SharedRule:
         """Largest |q| at the crests of each target (the peak of a monotone response)."""
         return np.max(np.abs(self.crest_values(q)), axis=-1)
 
-    def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN) -> "SharedRule":
+    def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN, known=None) -> "SharedRule":
         """Check the rule on other rows (extreme builds); refine where they miss.
 
         Same contract as :meth:`planner.cycle.adaptive.AdaptiveRule.verify`: returns
         ``self`` (check recorded) or a refined rule (``refined`` True) whose nodes
-        must be solved again.
+        must be solved again. ``known``, the rows' values at the rule's own nodes
+        when the batch has solved them already (shape (R, S)), spares solving them
+        again: only the Kronrod points of the panels are solved.
         """
         prob = _Shared(self.targets, evaluate, self.span)
         panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
@@ -436,7 +446,7 @@ class SharedRule:
         for i, p in enumerate(panels):
             p.kq = q[:, i * xk.size:(i + 1) * xk.size]
             prob.prepare(p)
-        qn = prob(self.nodes)
+        qn = prob(self.nodes) if known is None else _ad._rows(np.asarray(known, dtype=float), self.nodes.size)
         a1, a2 = prob.atom_part(qn[:, qn.shape[1] - self.n_atoms:])
         mean = sum((p.kq @ p.wk.T for p in panels), a1)  # (R, T): K15 panels + exact atoms
         ms = sum(((p.kq * p.kq) @ p.wk.T for p in panels), a2)

@@ -10,6 +10,8 @@ column order.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from ..categories import IMPULSE_SOURCE_OHM, IMPULSE_TABLE_V, category_impulse  # noqa: F401 (re-exported)
 from ..model import Spec
 from ..stimulus import Stimulus
@@ -25,8 +27,9 @@ DEFAULT_COMPLIANCE_V = 30.0
 
 #: Column order of the built-in stimuli (after the project's own sources); the
 #: impulse column, named after the category, comes last.
-BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "mains on A range", "mains on ohms range",
-                  "battery reversed")
+BUILT_IN_ORDER = ("range up", "range down", "max input", "max input reversed", "max input sine", "mains on A range",
+                  "mains on AC range", "mains on ohms range", "battery reversed", "DC on AC range",
+                  "DC on AC range reversed", "AC on DC range")
 
 #: What the matrix column of a neighbouring range's full scale says (each
 #: position's own stimulus names its range).
@@ -102,19 +105,26 @@ def stimuli_for(spec: Spec, net, position) -> list[Stimulus]:
     out = project_sources(spec)
     lower, higher = same_kind_neighbours(net, position) if position.kind.range_steps else (None, None)
     unit = position.unit
+    wave = position.kind.waveform  # an AC range's neighbour is a sine of its rms
     if higher:
-        out.append(Stimulus("range up", position.kind.source, higher[0],
+        out.append(Stimulus("range up", position.kind.source, higher[0], wave,
                             detail=f"{fmt(higher[0], unit, 4)}, full scale of '{higher[1]}'",
                             compliance_v=_compliance(spec, position.kind.source)))
     if lower:
-        out.append(Stimulus("range down", position.kind.source, lower[0],
+        out.append(Stimulus("range down", position.kind.source, lower[0], wave,
                             detail=f"{fmt(lower[0], unit, 4)}, full scale of '{lower[1]}'",
                             compliance_v=_compliance(spec, position.kind.source)))
     if f.max_input_v is not None:
         out.append(Stimulus("max input", "voltage", f.max_input_v, detail="declared maximum input, DC, ideal source"))
         out.append(Stimulus("max input reversed", "voltage", -f.max_input_v,
                             detail="declared maximum input, reverse polarity"))
-    out += position.kind.misrange(position, f)
+    # a range kind's own current stimuli get the default compliance like the built-in ones
+    out += [replace(s, compliance_v=_compliance(spec, s.kind)) if s.kind == "current" and s.compliance_v is None
+            else s for s in position.kind.misrange(position, f)]
+    if wave == "dc" and any(q.kind.waveform != "dc" for q in net.positions):
+        out.append(Stimulus("AC on DC range", position.kind.source, position.full_scale, "sine",
+                            detail="a sine of the full scale's rms on a DC range (an AC measurement on the wrong "
+                                   "position)", compliance_v=_compliance(spec, position.kind.source)))
     if f.category:
         out.append(impulse_stimulus(f.category))
     return out

@@ -144,22 +144,31 @@ class Diode(Part):
     cathode: str
     model: str
     line: int | None = None
+    #: ``clamp`` (protection: taken out to see what it protects) or ``rectifier`` (in the signal
+    #: path of an AC range: part of the measurement).
+    role: str = "clamp"
 
     kind: ClassVar[str] = "diode"
     stamp: ClassVar[str] = "junction"
     symbol: ClassVar[str] = "diode"
-    clamp: ClassVar[bool] = True
-    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "anode", "cathode", "model")
+    file_keys: ClassVar[tuple[str, ...]] = ("name", "kind", "anode", "cathode", "model", "role")
+
+    @property
+    def clamp(self) -> bool:
+        """True for a protection diode, False for a rectifier's."""
+        return self.role != "rectifier"
 
     @classmethod
     def read(cls, e, name: str, parts) -> "Diode":
-        """Its anode, cathode (two different nodes) and a model of ``parts.diodes``."""
+        """Its anode, cathode (two different nodes), a model of ``parts.diodes`` and its role
+        (``clamp``, the default, or ``rectifier``)."""
         an = e.node_name("anode", "m_plus")
         ca = e.node_name("cathode", "com")
         if an == ca:
             e.fail(f"{e.where} has anode and cathode both on node '{an}'; give two different nodes")
-        return cls(name=name, anode=an, cathode=ca, model=e.model("model", parts.diodes, "diode", "si_generic"),
-                   line=e.line)
+        mdl = e.model("model", parts.diodes, "diode", "si_generic")
+        role = e.choice("role", ("clamp", "rectifier"), "clamp")
+        return cls(name=name, anode=an, cathode=ca, model=mdl, line=e.line, role=role)
 
     @property
     def nodes(self) -> tuple[str, str]:
@@ -187,7 +196,9 @@ class Diode(Part):
         return [Parameter(self.name, f"{self.name} I_s", "diode", self.name, float(spread))] if spread > 0 else []
 
     def yaml(self) -> str:
-        return f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, model: {self.model}}}"
+        role = ", role: rectifier" if self.role == "rectifier" else ""
+        return (f"{{name: {self.name}, kind: diode, anode: {self.anode}, cathode: {self.cathode}, "
+                f"model: {self.model}{role}}}")
 
     def spice(self, deck) -> list[str]:
         """A native SPICE diode for the junction, made the contract's law where SPICE's differs.

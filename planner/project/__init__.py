@@ -15,7 +15,7 @@ The package, top to bottom:
 ``limits``      resource caps and closed lists
 ``movement``    ``movement:`` and ``ambient:``
 ``catalogue``   ``parts:`` (each model read by its part kind in ``planner.parts``)
-``ranges``      the sizing request: ``voltage:``, ``current:``, ``clamps:``
+``ranges``      the sizing request: ``voltage:``, ``current:``, ``ac_voltage:``, ``ac_current:``, ``clamps:``
 ``network``     an explicit ``network:`` (each element read by its part kind)
 ``faults``      ``faults:`` and ``analysis:``
 ``spec``        the top level assembled into a :class:`planner.model.Spec`

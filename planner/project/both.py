@@ -19,7 +19,7 @@ from ..units import format_si
 
 __all__ = ["same_meter"]
 
-_UNITS = {"voltage": "V", "current": "A", "resistance": "ohm"}
+_UNITS = {"voltage": "V", "current": "A", "resistance": "ohm", "ac_voltage": "V~", "ac_current": "A~"}
 
 
 def same_meter(spec: Spec) -> None:
@@ -30,12 +30,13 @@ def same_meter(spec: Spec) -> None:
     planner.errors.ProjectError
         At the line of the first range section, naming what differs and what to remove.
     """
-    net, voltage, current, ohms = spec.network, spec.voltage, spec.current, spec.resistance
-    if net is None or (voltage is None and current is None and ohms is None):
+    net = spec.network
+    sections = [(k, getattr(spec, k)) for k in ("voltage", "current", "resistance", "ac_voltage", "ac_current")]
+    sections = [(k, s) for k, s in sections if s is not None]
+    if net is None or not sections:
         return
-    asked = [("voltage", x) for x in (voltage.full_scales if voltage else ())]
-    asked += [("current", x) for x in (current.full_scales if current else ())]
-    asked += [("resistance", x) for x in (ohms.centers if ohms else ())]  # a resistance position's full_scale: its centre
+    # a resistance position's full_scale: its centre
+    asked = [(k, x) for k, s in sections for x in (s.centers if k == "resistance" else s.full_scales)]
     given = [(p.measures, p.full_scale) for p in net.positions]
 
     def missing(a, b):
@@ -51,9 +52,8 @@ def same_meter(spec: Spec) -> None:
     if only_given:
         what.append("the network has " + ", ".join(format_si(x, _UNITS.get(k, "")) for k, x in only_given[:4])
                     + " that the ranges do not ask for")
-    sections = " and ".join(f"'{k}:'" for k, s in (("voltage", voltage), ("current", current), ("resistance", ohms))
-                            if s is not None)
-    line = (voltage or current or ohms).line
+    line = sections[0][1].line
+    sections = " and ".join(f"'{k}:'" for k, _ in sections)
     first = net.positions[0].line if net.positions else None
     raise ProjectError(
         f"the file gives both {sections} ranges to size and an explicit 'network:'"

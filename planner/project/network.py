@@ -19,7 +19,7 @@ __all__ = ["NETWORK_KEYS", "ELEMENT_KEYS", "POSITION_KEYS", "read_network"]
 NETWORK_KEYS = ("contact_style", "elements", "positions")
 #: Keys of a network element by its ``kind`` (each part kind's ``file_keys``).
 ELEMENT_KEYS = {kind: cls.file_keys for kind, cls in KINDS.items()}
-POSITION_KEYS = ("name", "measures", "full_scale", "center", "input")
+POSITION_KEYS = ("name", "measures", "full_scale", "center", "input", "scale")
 #: The element key that names switch positions (checked against ``network.positions``).
 _POSITION_REFS = "closed_in"
 
@@ -102,12 +102,16 @@ def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str])
         name = p.text("name", example="'2.5 V'")
         distinct_name(ctx, name, p.line, keys, "position")
         p.where = f"position '{name}'"
-        measures = p.choice("measures", ("voltage", "current", "resistance"))
+        measures = p.choice("measures", ("voltage", "current", "resistance", "ac_voltage", "ac_current"))
         center = None
         if measures == "resistance":  # an ohms range has a centre value, no full scale
             center = fs = p.qty("center", "resistance", check="pos", example="1 kohm")
         else:
-            fs = p.qty("full_scale", measures, check="pos")
+            fs = p.qty("full_scale", measures.removeprefix("ac_"), check="pos")
+        scale = p.choice("scale", ("shared", "own"), "shared")
+        if scale != "shared" and not measures.startswith("ac_"):
+            ctx.fail(f"{p.at('scale')}: an own scale is for AC positions (measures: ac_voltage or ac_current); "
+                     "remove scale or change measures", p.get("scale").line)
         inp_node = p.req("input", "[vin, com]")
         inp = pair(ctx, inp_node, p.at("input"), "[vin, com]")
         for nd in inp:
@@ -118,5 +122,5 @@ def _positions(ctx: Reader, pos_items: list[Node], pos_ex: str, nodes: set[str])
                     inp_node.line,
                 )
         positions.append(model.Position(name=name, measures=measures, full_scale=fs, input=inp, line=p.line,
-                                        center=center))
+                                        center=center, scale=scale))
     return positions, [p.name for p in positions]

@@ -1,4 +1,4 @@
-"""The sizing request sections: ``voltage:`` and ``current:`` ranges and ``clamps:``.
+"""The sizing request sections: ``voltage:``, ``current:``, ``ac_voltage:``, ``ac_current:`` ranges and ``clamps:``.
 
 The sizer (:mod:`planner.sizing`) lays these out as a network; here they are read
 and checked on their own: full scales rising, current ranges above the movement's
@@ -14,10 +14,11 @@ from .reader import Reader, capped, model_ref
 from .tree import Node
 
 __all__ = ["VOLTAGE_KEYS", "CURRENT_KEYS", "CLAMP_KEYS", "CLAMP_AT_KEYS", "read_voltage", "read_current",
-           "read_clamps", "diode_ref", "fuse_ref"]
+           "read_clamps", "read_ac_ranges", "AC_KEYS", "diode_ref", "fuse_ref"]
 
 VOLTAGE_KEYS = ("arrangement", "full_scales")
 CURRENT_KEYS = ("arrangement", "full_scales", "ring_on_voltage", "swamp", "fuse")
+AC_KEYS = ("arrangement", "full_scales", "rectifier", "diode", "scale", "swamp")
 CLAMP_KEYS = ("across", "at", "forward", "reverse", "count", "bidirectional")
 CLAMP_AT_KEYS = ("above_movement",)
 
@@ -82,6 +83,29 @@ def read_current(
         fuse=fuse,
         line=key_line or m.line,
     )
+
+
+def read_ac_ranges(ctx: Reader, node: Node | None, key: str, parts: model.Parts,
+                   key_line: int | None) -> model.ACRanges | None:
+    """``ac_voltage`` / ``ac_current``: rectifier ranges, full scales in rms of a sine."""
+    if node is None:
+        return None
+    volts = key == "ac_voltage"
+    ex = "[10 V, 50 V, 250 V]" if volts else "[10 mA, 100 mA, 1 A]"
+    arrangements = ("chain", "separate") if volts else ("separate", "ring")
+    m = ctx.mapping(node, key, AC_KEYS, f"{{arrangement: {arrangements[0]}, full_scales: {ex}, rectifier: bridge, "
+                                        "diode: si_generic}")
+    arr = m.choice("arrangement", arrangements)
+    fs, _ = _ascending(ctx, m.req("full_scales", ex), "voltage" if volts else "current", f"{key}.full_scales", ex)
+    rect = m.choice("rectifier", ("bridge", "half_wave"), "bridge")
+    diode = diode_ref(ctx, m.req("diode", "si_generic"), parts, f"{key}.diode")
+    scale = m.choice("scale", ("shared", "own"), "shared")
+    swamp = m.qty("swamp", "resistance", 0.0, check="nonneg")
+    if volts and swamp:
+        ctx.fail("ac_voltage.swamp: the multiplier already swamps the rectifier of a voltage range; remove swamp "
+                 "(it is for ac_current)", m.get("swamp").line)
+    return model.ACRanges(arrangement=arr, full_scales=tuple(fs), rectifier=rect, diode=diode, scale=scale,
+                          line=key_line or m.line, swamp_ohm=swamp)
 
 
 def diode_ref(ctx: Reader, node: Node, parts: model.Parts, where: str) -> str:

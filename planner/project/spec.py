@@ -17,7 +17,7 @@ from .movement import read_ambient, read_movement
 from .network import read_network
 from .ohms import read_resistance
 from .protection import read_protection
-from .ranges import read_clamps, read_current, read_voltage
+from .ranges import read_ac_ranges, read_clamps, read_current, read_voltage
 from .reader import Reader
 from .tree import Node
 
@@ -37,6 +37,8 @@ TOP_KEYS = (
     "faults",
     "network",
     "analysis",
+    "ac_voltage",
+    "ac_current",
     "protection",
 )
 
@@ -58,14 +60,17 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
     current = read_current(ctx, top.get("current"), movement, top.node.key_lines.get("current"), parts)
     resistance = read_resistance(ctx, top.get("resistance"), top.node.key_lines.get("resistance"))
     clamps = read_clamps(ctx, top.get("clamps"), parts)
+    ac_voltage = read_ac_ranges(ctx, top.get("ac_voltage"), "ac_voltage", parts, top.node.key_lines.get("ac_voltage"))
+    ac_current = read_ac_ranges(ctx, top.get("ac_current"), "ac_current", parts, top.node.key_lines.get("ac_current"))
     network = read_network(ctx, top.get("network"), parts)
     faults = read_faults(ctx, top.get("faults"))
     analysis = read_analysis(ctx, top.get("analysis"))
     protection = read_protection(ctx, top.get("protection"), parts)
-    if voltage is None and current is None and resistance is None and network is None:
+    if (voltage is None and current is None and resistance is None and network is None and ac_voltage is None
+            and ac_current is None):
         ctx.fail(
-            "nothing to plan: give 'voltage:', 'current:' or 'resistance:' ranges for the planner to size, or an explicit "
-            "'network:' (or both)",
+            "nothing to plan: give 'voltage:', 'current:', 'resistance:', 'ac_voltage:' or 'ac_current:' ranges for "
+            "the planner to size, or an explicit 'network:' (or both)",
             root.line,
         )
     return model.Spec(
@@ -77,6 +82,8 @@ def read_spec(ctx: Reader, root: Node) -> model.Spec:
         current=current,
         resistance=resistance,
         clamps=clamps,
+        ac_voltage=ac_voltage,
+        ac_current=ac_current,
         faults=faults,
         network=network,
         analysis=analysis,

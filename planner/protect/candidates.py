@@ -173,7 +173,8 @@ def clamp_diodes(net: NetworkSpec) -> list[str]:
 
     A clamp diode is one whose diode-only connected group (a stack and its
     intermediate nodes) reaches the movement's second node: a clamp to the
-    movement's common side, at the movement or at a tap.
+    movement's common side, at the movement or at a tap. A rectifier's diodes
+    (``role: rectifier``) are part of the measurement, never a clamp.
 
     Parameters
     ----------
@@ -185,13 +186,13 @@ def clamp_diodes(net: NetworkSpec) -> list[str]:
     """
     mov = nw.movement_element(net)
     g = nx.MultiGraph()
-    for e in net.elements:
-        if isinstance(e, Diode):
-            g.add_edge(e.anode, e.cathode, key=e.name)
+    clamps = [e for e in net.elements if isinstance(e, Diode) and e.clamp]
+    for e in clamps:
+        g.add_edge(e.anode, e.cathode, key=e.name)
     if mov.b not in g:
         return []
     comp = nx.node_connected_component(g, mov.b)
-    return [e.name for e in net.elements if isinstance(e, Diode) and e.anode in comp]
+    return [e.name for e in clamps if e.anode in comp]
 
 
 # --- what the search may try -------------------------------------------------------------------

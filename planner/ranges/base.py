@@ -28,12 +28,20 @@ class RangeKind:
         What drives it at full scale: ``voltage`` or ``current``.
     label : str
         Words for reports (``DC voltage``).
+    waveform : str
+        The waveform a position of this kind is calibrated for and read with
+        (:data:`planner.cycle.SHAPES`): ``dc`` for DC ranges, ``sine`` for the
+        average-responding AC ranges (their applied value is its rms).
     """
 
     measures: ClassVar[str] = ""
     unit: ClassVar[str] = ""
     source: ClassVar[str] = ""
     label: ClassVar[str] = ""
+    waveform: ClassVar[str] = "dc"
+    #: Most toleranced parameters whose every corner ``planner check`` solves for the worst case
+    #: (above: the sensitivity bound with its verification corners); None: the check's own limit.
+    corner_parameters: ClassVar[int | None] = None
     #: Whether the neighbouring ranges' full scales are misrange stimuli (``range up``/``down``).
     range_steps: ClassVar[bool] = True
 
@@ -51,6 +59,16 @@ class RangeKind:
 
     def input_figures(self, full_scale: float, source_current_a: float, terminal_v: float) -> dict:
         """What the instrument presents to the measured circuit at full scale (JSON fields)."""
+        return {}
+
+    def check_figures(self, engine, position) -> dict:
+        """Figures of ``planner check`` that belong to this kind of range (JSON fields).
+
+        Parameters
+        ----------
+        engine : planner.engine.Engine
+        position : Position
+        """
         return {}
 
     def plate_scale(self, position) -> str | None:

@@ -57,8 +57,15 @@ def nominal_response(engine, position: str, values) -> np.ndarray:
 
     Notes
     -----
-    D = I_m / I_fs; the reading of a DC position is FS x D (design contract).
+    D = I_m / I_fs; the reading of a DC position is FS x D (design contract). An
+    AC position's D is the cycle mean of I_m / I_fs at the sine's rms
+    (:func:`planner.ranges.ac.nominal_response`: solved at a grid of the full
+    scale, exact there, a cubic spline between).
     """
+    if engine.state(position).position.kind.waveform != "dc":
+        from ..ranges.ac import nominal_response as cycle_response
+
+        return np.asarray(cycle_response(engine, position)(np.asarray(values, dtype=float)), dtype=float)
     return np.asarray(engine.operate(position, np.asarray(values, dtype=float)).movement_multiple[0], dtype=float)
 
 

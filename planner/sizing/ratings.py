@@ -27,6 +27,7 @@ from ..solve import Junctions, solve
 from ..tools import fmt
 from .assemble import PartRow
 from .layout import COM, Layout, SegmentPlan
+from .sections.rectifier import nominal_error
 from .request import line_of_key, request_error
 from .values import CATALOG_MAX_OHM
 
@@ -58,6 +59,12 @@ class LinearNetwork:
         self.spec = spec
         self.elements = tuple(e for e in net.elements if e.stamp not in ("junction", "varistor"))
         self.positions = net.positions
+        # on AC (rectifier) voltage positions the diodes conduct: shorted, the multiplier sees the
+        # whole input (rms), the bound its rating needs; on AC current positions they stay open, so
+        # the shunt takes the whole input current
+        ac = tuple(p.name for p in net.positions if p.kind.waveform != "dc" and p.kind.source == "voltage")
+        self._conducting = tuple(Contact(f"__conducting_{e.name}", *e.nodes, ac)
+                                 for e in net.elements if e.stamp == "junction") if ac else ()
         self._nets: dict[tuple, NetworkSpec] = {}
 
     def _net(self, shorted) -> NetworkSpec:
@@ -65,7 +72,7 @@ class LinearNetwork:
         if key not in self._nets:
             shorts = tuple(Contact(f"__short{j}", node, COM, tuple(p.name for p in self.positions))
                            for j, node in enumerate(shorted))
-            self._nets[key] = NetworkSpec(self.elements + shorts, self.positions, None)
+            self._nets[key] = NetworkSpec(self.elements + self._conducting + shorts, self.positions, None)
         return self._nets[key]
 
     def solve(self, pos: Position, value: float, shorted=()):
@@ -140,10 +147,11 @@ class Stress:
     errors: dict[str, float] = field(default_factory=dict)  # position -> relative error
 
 
-def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, powers: dict | None = None) -> None:
+def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, powers: dict | None = None, crest: float = 1.0) -> None:
     for name, r in values.items():
         vv = abs(dv.get(name, 0.0))
         pp = vv * vv / r if powers is None else powers.get(name, vv * vv / r)
+        vv *= crest  # the peak of a wave given as rms: what the limiting element voltage is held against
         st.v[name] = max(st.v.get(name, 0.0), vv)
         st.p[name] = max(st.p.get(name, 0.0), pp)
         if fs:
@@ -151,13 +159,14 @@ def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, powers: dict | None
             st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
 
 
-def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, powers: dict | None = None) -> None:
+def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, powers: dict | None = None,
+                  crest: float = 1.0) -> None:
     for j, parts in enumerate(seg_parts):
         # voltage across the whole segment: sum of the series units' voltages
         seen_units = {}
         for name, val, a, b in parts:
             seen_units.setdefault((a, b), dv.get(name, 0.0))
-        sv = abs(sum(seen_units.values()))
+        sv = abs(sum(seen_units.values())) * crest
         sp = sum(dv.get(name, 0.0) ** 2 / val if powers is None else powers.get(name, dv.get(name, 0.0) ** 2 / val)
                  for name, val, _, _ in parts)
         if sp > st.seg_p[j]:
@@ -176,7 +185,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     -----
     P = V^2 / R per resistor; a segment's voltage is the sum over its series units,
     its power the sum over its parts. The nominal error of a position is
-    I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m.
+    I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m. On an AC position the value is
+    the rms of a sine: the power is the rms one, the voltage its peak
+    (:math:`\\sqrt 2 V_{rms}`), as :func:`planner.findings.design_findings` judges it.
     """
     lin = LinearNetwork(spec, net)
     ladder = rating_ladder(spec)
@@ -192,7 +203,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         dv = lin.solve(pos, value, shorted)
         if dv is None:
             continue
-        if fs and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
+        if fs and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
+            st.errors[pos.name] = nominal_error(spec, net, pos)
+        elif fs and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         powers = None
@@ -200,8 +213,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         if t_act is not None:  # a protective part acts first: each part rated for the pulse until it does
             powers = {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
             label += f" (until the protection acts, {t_act:.3g} s)"
-        _add_parts(st, dv, values, fs, powers)
-        _add_segments(st, dv, seg_parts, label, fs, powers)
+        crest = math.sqrt(2.0) if fs and pos.kind.waveform == "sine" else 1.0
+        _add_parts(st, dv, values, fs, powers, crest)
+        _add_segments(st, dv, seg_parts, label, fs, powers, crest)
     for label, pos, value, shorted in impulse_cases(spec, layout):  # peak voltage only: no heating
         dv = lin.solve(pos, value, shorted)
         if dv is not None:

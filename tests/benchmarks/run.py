@@ -25,6 +25,11 @@ One run, on one machine, with the two simulators taking turns inside each repeti
 * **The commands**: ``planner dossier``, ``faults`` and ``protect`` of the largest example as
   whole processes against ``planner check`` of it, and the dossier's peak memory
   (``tests/benchmarks/commands.py``; targets 1.5 x, 2 x, 2 x and 300 MiB).
+* **AC ranges** (``tests/benchmarks/bench_ac.py``): ``planner check`` of
+  ``projects/service_multimeter.yaml`` against the same file without its AC sections, as whole
+  processes and in process (target 2 x), and the AC deck (cycle means of Monte Carlo builds
+  of a 2.5 V~ bridge and a 10 mA~ range) against ngspice's ``.tran`` of the same sine
+  (targets 20 x, 1e-5).
 * **The check**: ``planner check projects/bench_multimeter.yaml`` (every position, 2000
   builds, the temperature points, linearity tables, worst case) as a whole process,
   against ngspice solving the same operating points: the engine calls of the check
@@ -78,6 +83,7 @@ import spice  # noqa: E402  (tests/spice.py: the deck writer and runner)
 sys.path.insert(0, str(ROOT / "tests" / "benchmarks"))
 import parts  # noqa: E402  (the newer parts' decks and the ideal-junction stack)
 import commands  # noqa: E402  (whole commands against planner check)
+import bench_ac  # noqa: E402  (the check with AC ranges against its DC ranges alone; the AC deck against .tran)
 
 EXAMPLE = ROOT / "projects" / "bench_multimeter.yaml"
 #: ngspice options of the benchmark: tight enough for agreement to about 1e-9.
@@ -463,6 +469,9 @@ def main(argv=None) -> int:
                               "scaling_exponent": exponent, "fit_intercept_s": a, "fit_per_build_s": b,
                               "fit_per_build_position_s": b / max(positions, 1)}
 
+    # AC ranges: the check with them against the same project's DC ranges alone; the AC deck against .tran ----
+    results["ac"] = measure_ac(repeat, 3 if args.quick else 10, have_spice)
+
     # the 50-junction ideal stack: planner faults as a whole process, beside one junction ---------------
     cmd_50, cmd_1 = parts.stack_commands(planner_exe())
     t50, t1 = [], []
@@ -504,6 +513,41 @@ def main(argv=None) -> int:
         print(f"FAIL: agreement {worst:.2e} is worse than {FAIL_ABOVE:g}")
         return 1
     return 0
+
+
+def measure_ac(repeat: int, builds: int, have_spice: bool) -> dict:
+    """``planner check`` of the AC example against its DC ranges alone (whole processes and in process), and the
+    AC deck (cycle means of Monte Carlo builds) against ngspice's ``.tran`` (``tests/benchmarks/bench_ac.py``)."""
+    import tempfile
+
+    text = bench_ac.EXAMPLE.read_text()
+    print("ac: check with and without the AC ranges ...", flush=True)
+    t_ac, _ = bench_ac.time_check(text, repeat, None)
+    t_dc, _ = bench_ac.time_check(bench_ac.dc_only(text), repeat, None)
+    with tempfile.TemporaryDirectory() as tmp:
+        dc_path = Path(tmp) / "dc_only.yaml"
+        dc_path.write_text(bench_ac.dc_only(text))
+        p_ac, p_dc = bench_ac.time_process(bench_ac.EXAMPLE, repeat), bench_ac.time_process(dc_path, repeat)
+    out = {"project": bench_ac.EXAMPLE.name, "check_process_s": p_ac, "check_dc_only_process_s": p_dc,
+           "process_ratio": p_ac / p_dc, "check_in_process_s": t_ac, "check_dc_only_in_process_s": t_dc,
+           "in_process_ratio": t_ac / t_dc, "target_ratio": 2.0}
+    if have_spice:
+        print(f"ac: the AC deck, {builds} builds x 4 amplitudes, against ngspice .tran ...", flush=True)
+        out["deck"] = [{"position": pos, "cycles": cases, "planner_s": t_o, "ngspice_s": t_s, "ratio": t_s / t_o,
+                        "max_diff": worst} for pos, cases, t_o, t_s, worst in bench_ac.deck(builds)]
+    return out
+
+
+def _ac_lines(a: dict) -> list[str]:
+    lines = [f"planner check with AC ranges / DC ranges alone ({a['project']}): processes "
+             f"{a['check_process_s']:.2f} s / {a['check_dc_only_process_s']:.2f} s = {a['process_ratio']:.1f} x; "
+             f"in process {a['check_in_process_s']:.2f} s / {a['check_dc_only_in_process_s']:.3f} s = "
+             f"{a['in_process_ratio']:.1f} x (target <= {a['target_ratio']:g} x)"]
+    for d in a.get("deck", []):
+        lines.append(f"AC deck {d['position']}: {d['cycles']} cycles, planner {d['planner_s']:.3f} s, ngspice .tran "
+                     f"{d['ngspice_s']:.1f} s: {d['ratio']:.0f} x (target >= 20 x); largest difference "
+                     f"{d['max_diff']:.1e} of max(|I|, 1e-3 I_fs) (target 1e-5)")
+    return lines
 
 
 def _fmt(x, unit="", digits=3):
@@ -558,6 +602,8 @@ def table(r) -> str:
     st = r["stack"]
     lines.append(f"planner faults, 50-junction ideal stack: {st['faults_50_median_s']:.2f} s (one junction: "
                  f"{st['faults_1_median_s']:.2f} s; target < {st['target_s']:.0f} s: {'met' if st['met'] else 'NOT met'})")
+    if "ac" in r:
+        lines.extend(_ac_lines(r["ac"]))
     if "commands" in r:
         lines.extend(commands.table_lines(r["commands"]))
     lines.append(f"planner --help: {r['planner_help_s'] * 1e3:.0f} ms; load {r['machine']['load_before'][0]:.2f} "

@@ -196,10 +196,10 @@ def bom(ctx: Context) -> list:
                      f"{r['tolerance_pct']:g} %" if r["tolerance_pct"] else None,
                      f"{r['tempco_ppm_per_k']:g} ppm/K" if r["tempco_ppm_per_k"] else None, pw, vv,
                      "; ".join(r["notes"]) or None])
+    out.append(p("'!' marks a requirement above the rating at full scale (normal use), which needs a different part. "
+                 "n/a: no such rating or no such stress.", "caption"))
     out.append(table(["Ref", "Value", "Series", "Tol.", "Tempco", "Power rated / req.", "Voltage rated / req.",
                       "Notes"], rows, [0.06, 0.13, 0.08, 0.065, 0.095, 0.13, 0.13, 0.31], align="lllrrrrl",
                      extra=verdict_fill(fills)))
-    out.append(p("'!' marks a requirement above the rating at full scale (normal use), which needs a different part. "
-                 "n/a: no such rating or no such stress.", "caption"))
     out.append(PageBreak())
     return out

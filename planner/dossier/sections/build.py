@@ -66,12 +66,18 @@ def build(ctx: Context) -> list:
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
     calibration = (ctx.check or {}).get("calibration") or []
-    if calibration:  # planner.trim: the trimmers in order, each at its own position
+    if calibration:  # planner.trim: the trimmers in order, each at its own position (DC ranges)
         steps += [c.split(". ", 1)[1] for c in calibration]
-    elif trims:
+    acpos = [q for q in net.positions if q.measures in ("ac_voltage", "ac_current")]
+    if acpos:
+        steps.append("AC ranges after the DC ones: " + ", ".join(q.name for q in acpos) + ". Apply a sine of known "
+                     "rms (a calibrator, or a low-distortion source checked with a true-rms meter) at 10 %, 50 % and "
+                     "100 % of full scale; the readings should match the check's linearity table for that scale. "
+                     "A distorted source reads off by its form factor (see the waveform errors of each range).")
+    if not calibration and trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
-    else:
+    elif not calibration:
         steps.append("No trimmer is planned. If a range misses the acceptance limits, select the value of its own "
                      "segment on test (the resistor between its tap and the tap below) rather than touching a lower "
                      "segment.")
@@ -91,7 +97,7 @@ def build(ctx: Context) -> list:
     out.append(p("Voltage of each node against the input's minus terminal with the full-scale value applied to each "
                  "position (nominal parts, reference temperature). Node names are those of the schematic, each with "
                  "the part pin to probe. A dash: the node is not connected in that position.", "small"))
-    names = [q.name for q in net.positions if q.measures in ("voltage", "current")]
+    names = [q.name for q in net.positions if any((n, q.name) in volts for n in nodes)]  # none: no column
     pins = pin_names(net)  # planner.testpoints: each node named by the parts' pins on it
     per = 6
     for start in range(0, len(names), per):
@@ -113,7 +119,11 @@ def build(ctx: Context) -> list:
     out.append(p(f"Apply each value from a source whose uncertainty is at most a quarter of the class "
                  f"({cls / 4:g} % of full scale); the reading must lie within the limits, which are the applied "
                  f"value \u00b1 the class ({cls:g} % of full scale, IEC 60051). <i>Expect</i> is the reading computed "
-                 "with nominal parts at the reference temperature, clamp leakage included.", "small"))
+                 "with nominal parts at the reference temperature, clamp leakage included."
+                 + (" On the AC positions (<i>rms~</i>) apply a sine of that rms value, 50 Hz, from a low-distortion "
+                    "source: the pointer follows the mean and the scale is marked in rms of a sine, so a distorted "
+                    "source reads off by its form factor." if any(q.kind.waveform == "sine" for q in net.positions)
+                    else ""), "small"))
     rows, fills, outside, groups = [], [], [], []
     for q in net.positions:
         arr = ctx.arrays(q.name)
@@ -126,7 +136,8 @@ def build(ctx: Context) -> list:
             if not inside:
                 outside.append(f"{q.name} at {quantity(a, q.unit)}")
             limits = f"{quantity(a - tol, q.unit)} to {quantity(a + tol, q.unit)}"
-            rows.append([q.name, quantity(a, q.unit), quantity(r, q.unit) + ("" if inside else " !"),
+            wave = " rms~" if q.kind.waveform == "sine" else ""  # an AC position: a sine of that rms
+            rows.append([q.name, quantity(a, q.unit) + wave, quantity(r, q.unit) + ("" if inside else " !"),
                          "\u00b1 " + value_text(tol, q.unit), limits, "", ""])
             if not inside:
                 fills.append((2, len(rows), "overstress"))
@@ -149,6 +160,12 @@ def build(ctx: Context) -> list:
         inst.append(f"DC current source (or supply with series resistor and reference ammeter), "
                     f"{value_text(min(q.full_scale for q in ipos) * 0.2, 'A')} to "
                     f"{value_text(max(q.full_scale for q in ipos), 'A')}, uncertainty at most {cls / 4:g} %.")
+    acpos = [q for q in net.positions if q.kind.waveform == "sine"]
+    if acpos:
+        inst.append(f"AC calibrator, or a low-distortion 50 Hz sine source checked with a true-rms reference meter, "
+                    f"up to {value_text(max(q.full_scale for q in acpos if q.kind.source == 'voltage'), 'V')} rms"
+                    if any(q.kind.source == "voltage" for q in acpos) else "AC current source (50 Hz sine)")
+        inst[-1] += f", distortion under 0.1 % and uncertainty at most {cls / 4:g} % of full scale."
     inst.append(f"Current source for the bare movement, up to {value_text(spec.movement.i_fs_a * 1.1, 'A')}.")
     inst.append("Digital multimeter (4\u00bd digits or better) for the test-point voltages and the resistor values; "
                 "four-wire resistance for values below 10 ohm.")

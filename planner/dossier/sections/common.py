@@ -45,7 +45,7 @@ def unit_of(measures: str) -> str:
 
 
 def hazardous_position(pos) -> bool:
-    return pos.measures == "voltage" and is_hazardous(pos.full_scale)
+    return pos.measures in ("voltage", "ac_voltage") and is_hazardous(pos.full_scale)
 
 
 def sources(spec) -> list:

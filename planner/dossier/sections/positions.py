@@ -153,9 +153,17 @@ def _accuracy_table(ctx: Context, q: dict) -> Table:
                      f"temperature; 1 % to 99 %: {pct(mc.get('p1'))} to {pct(mc.get('p99'))}"
                      + (f"; 99 % of builds within \u00b1{pct_abs(q['intrinsic_monte_carlo_pct'])}"
                         if q.get("intrinsic_monte_carlo_pct") is not None else "")])
-    if q.get("measures") == "voltage" and q.get("input_resistance_ohm") is not None:
-        rows.append(["Input resistance", value_text(q["input_resistance_ohm"], "ohm"),
+    if q.get("measures") in ("voltage", "ac_voltage") and q.get("input_resistance_ohm") is not None:
+        what = "Input impedance (rms V / rms I)" if q.get("measures") == "ac_voltage" else "Input resistance"
+        rows.append([what, value_text(q["input_resistance_ohm"], "ohm"),
                      f"{value_text(q.get('ohms_per_volt'), 'ohm/V')} at full scale"])
+    waves = q.get("waveform_errors") or ()
+    if waves:  # one row: the page keeps room for the linearity table below the charts
+        dcs = q.get("dc_readings") or ()
+        rows.append(["Other waveforms at full-scale rms", pct(waves[0]["error_pct"]),
+                     ", ".join(f"{w['waveform']} {pct(w['error_pct'], 2)}" for w in waves)
+                     + (", DC +/\u2013 " + " / ".join(pct(d["error_pct"], 2) for d in dcs) if dcs else "")
+                     + " (mean-responding, scale in rms of a sine)"])
     if q.get("burden_voltage_v") is not None:
         rows.append(["Burden voltage at full scale", value_text(q["burden_voltage_v"], "V"),
                      f"input resistance {value_text(q.get('input_resistance_ohm'), 'ohm')}"])

@@ -7,6 +7,8 @@ positions, contacts and devices to the :class:`planner.sizing.layout.Layout`.
 - ``dc_voltage.py``: ``voltage`` ranges (multiplier chain or separate multipliers,
   split at the clamp taps);
 - ``dc_current.py``: ``current`` ranges (Ayrton ring or separate shunts, swamp);
+- ``ac_voltage.py``, ``ac_current.py``: ``ac_voltage`` and ``ac_current`` ranges (multipliers
+  or shunts solved through the nonlinear solver, each section's rectifier: ``rectifier.py``);
 - ``clamp_diodes.py``: ``clamps`` (taps, diode stacks);
 - ``input_fuse.py``: ``current.fuse`` (the fuse ahead of the current positions);
 - ``resistance.py``: ``resistance`` ohms ranges (battery, series resistors, range
@@ -18,6 +20,8 @@ To size a new kind of range or a new protection part, add a file here with a
 tuple is its place in the designator and switch order (see ``DEVELOPERS.md``).
 """
 
+from .ac_current import ACCurrentSizing
+from .ac_voltage import ACVoltageSizing
 from .clamp_diodes import ClampDiodesSizing
 from .dc_current import DCCurrentSizing
 from .dc_voltage import DCVoltageSizing
@@ -27,8 +31,8 @@ from .resistance import ResistanceSizing
 
 #: The registered sections, in designator order: resistors (R), diodes (D), fuses (F),
 #: positions and contacts (S) follow this order within their kind.
-SECTIONS = (DCVoltageSizing(), DCCurrentSizing(), ClampDiodesSizing(), InputFuseSizing(), ResistanceSizing(),
-            ProtectionSizing())
+SECTIONS = (DCVoltageSizing(), DCCurrentSizing(), ACVoltageSizing(), ACCurrentSizing(), ClampDiodesSizing(),
+            InputFuseSizing(), ResistanceSizing(), ProtectionSizing())
 
-__all__ = ["SECTIONS", "DCVoltageSizing", "DCCurrentSizing", "ClampDiodesSizing", "InputFuseSizing", "ResistanceSizing",
-           "ProtectionSizing"]
+__all__ = ["SECTIONS", "DCVoltageSizing", "DCCurrentSizing", "ACVoltageSizing", "ACCurrentSizing", "ClampDiodesSizing",
+           "InputFuseSizing", "ResistanceSizing", "ProtectionSizing"]
