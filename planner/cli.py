@@ -314,12 +314,21 @@ def cmd_dossier(args) -> int:
 def _dossier_plate(design):
     """The scale plate for the dossier, or the error text when it cannot be laid out (shown in its section)."""
     from .errors import PlannerError
-    from .scale import scale_project
 
     try:
-        return scale_project(design)
+        return _plate(design)
     except PlannerError as exc:
         return exc.one_line()
+
+
+def _plate(design):
+    """The scale plate of ``planner scale`` and the dossier: every scale, the ohms arcs from the zeroed response."""
+    from .engine import Engine
+    from .ohms import scale_definitions
+    from .scale import scale_project
+
+    engine = Engine(design)
+    return scale_project(design, engine=engine, defs=scale_definitions(engine))
 
 
 def cmd_protect(args) -> int:
@@ -381,14 +390,10 @@ def cmd_scale(args) -> int:
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from . import __version__
     from .fsio import write_all
-    from .scale import format_scale, plate_pdf, plate_svg, scale_json, scale_project
-
-    from .engine import Engine
-    from .ohms import scale_definitions
+    from .scale import format_scale, plate_pdf, plate_svg, scale_json
 
     design = _design(spec)
-    engine = Engine(design)
-    result = scale_project(design, engine=engine, defs=scale_definitions(engine))
+    result = _plate(design)
     title = f"{spec.title} \u2013 scale plate"
     items = [(out, plate_pdf(result.plate, title=title, creator=f"planner {__version__}"))]
     if args.svg:

@@ -101,7 +101,8 @@ def design_findings(design: Design, engine: Engine | None = None) -> list[dict]:
     Notes
     -----
     Each position gets its own full-scale stimulus (a voltage or current source
-    of its full scale; the rms of a sine for an AC position) and every rated
+    of its full scale; the rms of a sine for an AC position; the terminals
+    shorted on an ohms position, which its battery drives to full deflection) and every rated
     part's cycle statistics are read off the solved operating points
     (:func:`planner.stress.solve_waveforms`): resistors' mean power and peak
     voltage against their rating and the derating shares, fuses' rms current
@@ -118,7 +119,8 @@ def design_findings(design: Design, engine: Engine | None = None) -> list[dict]:
         if source not in ("voltage", "current") or not pos.full_scale:
             continue
         shape = "sine" if str(pos.measures).startswith("ac") else "dc"
-        wf = solve_waveforms(engine, pos.name, [Stimulus("full scale", source, float(pos.full_scale), shape)])[0]
+        drive = float(pos.kind.full_scale_drive(pos))  # an ohms range: 0 V, the terminals shorted
+        wf = solve_waveforms(engine, pos.name, [Stimulus("full scale", source, drive, shape)])[0]
         for e in stress_elements(engine):
             i, v = wf.current_a[e.name], wf.voltage_v[e.name]
             if not np.any(i):

@@ -382,6 +382,9 @@ class ProtectionRequest:
     ring_crowbar_count: int = 2
     ma_fuse: str | None = None
     line: int | None = None
+    ohms_fuse: str | None = None
+    ohms_crowbar: str | None = None
+    ohms_crowbar_count: int = 4
 
 
 @dataclass(frozen=True)

@@ -390,6 +390,46 @@ class MarkedScale:
         return self.factor * self.scale.reading(d)
 
 
+#: Largest deflection still read as 0 ohm (numerical slack at the 0 ohm mark) [fraction].
+ZERO_MARK_SLACK = 1e-9
+
+
+def pointer_reading(scale: MarkedScale, d: float) -> float | None:
+    """The ohms value a practitioner reads at deflection D on a position's arc [ohm].
+
+    Returns
+    -------
+    float or None
+        The R_x the arc marks at D for 0 < D <= 1 (0 at the 0 ohm mark, D = 1); None
+        when the pointer is past either end of the ohms scale: beyond the 0 ohm
+        mark (D > 1, toward or against the full-scale stop) or at or below the
+        infinity mark (D <= 0, against the zero stop; a reversed current).
+    """
+    d = float(d)
+    if not np.isfinite(d) or d <= 0.0 or d > 1.0 + ZERO_MARK_SLACK:
+        return None
+    r = float(scale.reading(min(d, 1.0)))
+    return r if np.isfinite(r) else None
+
+
+def fault_readings(engine: Engine, cases) -> None:
+    """Set ``reading`` of each misrange case on a resistance position to :func:`pointer_reading` (in place).
+
+    ``movement_mean_multiple`` is the pointer's deflection D; the arc is the one the
+    position is read on (:class:`MarkedScale`, nominal battery, zeroed). A
+    transition's reading is on the arc of the position being left.
+    """
+    scales: dict[str, MarkedScale] = {}
+    by_name = {p.name: p for p in engine.positions}
+    for c in cases:
+        pos = by_name.get(c["position"])
+        if pos is None or pos.measures != "resistance":
+            continue
+        if pos.name not in scales:
+            scales[pos.name] = MarkedScale(engine, pos)
+        c["reading"] = pointer_reading(scales[pos.name], c["movement_mean_multiple"])
+
+
 def scale_definitions(engine: Engine) -> list:
     """The ohms scales of a project's resistance positions for :func:`planner.scale.scale_project`.
 

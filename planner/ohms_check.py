@@ -29,6 +29,11 @@ from .ohms import MarkedScale, Scale, deflection, parts_of, zero, zero_span
 
 #: Scale marks the errors are given at, multiples of the position's asked centre.
 MARKS = (0.1, 0.2, 0.5, 1.0, 2.0, 5.0, 10.0)
+#: Reference resistors of the acceptance test, multiples of the asked centre (the middle of the
+#: scale, where an ohms scale is read best: common practice).
+ACCEPTANCE_MARKS = (0.5, 1.0, 2.0)
+#: Points of the drawn scale kept for the outputs: R_x from 1/100 to 100 times the centre.
+SCALE_CURVE_DECADES, SCALE_CURVE_POINTS = 2, 81
 #: Largest number of toleranced parameters whose corners are all evaluated.
 MAX_CORNER_PARAMETERS = 10
 #: Random corners evaluated (besides the all-low and all-high ones) above that.
@@ -224,6 +229,8 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
                           "full_scale_error_pct": _stats(err_m[:, 0]),
                           "worst_linearity_error_pct": _stats(worst),
                           "center_reading_error_pct": _stats(100.0 * (rd_m[:, 0] - rc) / rc)}
+    out["scale_points"] = scale_points(scale, float(pos.center or pos.full_scale))
+    out["acceptance"] = acceptance_rows(scale, marks, rd[1, 1:], cls)
     budget = out["worst_case_error_pct"] + out["temperature_error_pct"]
     out["budget_pct"] = float(budget)
     out["verdict"] = "within class" if budget <= cls and span_ok and out["all_cases_zeroed"] else "outside class"
@@ -231,6 +238,54 @@ def check_resistance(run, spec, pos, params, mc_factors, samples, rng, temperatu
     arrays = {"marks": marks, "readings": rd[1, 1:], "temperatures_k": t, "i_ref": i_ref,
               "center_deflection": d_t[:, 0], "mc_readings": rd_m[:, 1:], "mc_error_pct": err_m[:, 0]}
     return out, ok, arrays
+
+
+def scale_points(scale: MarkedScale, center: float) -> list[dict]:
+    """The arc the position is read on, as points for the outputs: ``r_ohm`` and nominal ``deflection``.
+
+    R_x spaced evenly in log from 1/100 to 100 x the asked centre, and R_x = 0 first
+    (full deflection); D from the solved nominal scale (:class:`planner.ohms.MarkedScale`).
+    """
+    r = np.concatenate([[0.0], center * np.logspace(-SCALE_CURVE_DECADES, SCALE_CURVE_DECADES, SCALE_CURVE_POINTS)])
+    return [{"r_ohm": float(a), "deflection": float(b)} for a, b in zip(r, scale.deflection(r))]
+
+
+def acceptance_rows(scale: MarkedScale, marks, readings, class_index: float) -> list[dict]:
+    r"""The acceptance test of an ohms position: reference resistors, expected readings and limits.
+
+    Parameters
+    ----------
+    scale : MarkedScale
+        The arc the position is read on.
+    marks, readings : ndarray (M,)
+        The check's marks [ohm] and their nominal readings (nominal battery, re-zeroed) [ohm].
+    class_index : float
+        [% of scale length].
+
+    Returns
+    -------
+    list of dict
+        At each :data:`ACCEPTANCE_MARKS` multiple of the centre: ``applied_ohm``,
+        ``expect_ohm`` and the limits ``low_ohm``, ``high_ohm``.
+
+    Notes
+    -----
+    The class of an ohms range is read in % of scale length, so the limits are the
+    values the arc marks :math:`\pm c/100` of its length from the reference
+    resistor's own mark: :math:`R_{lo,hi} = R(D_{nom}(R_x) \pm c / 100)` (the higher
+    deflection gives the lower value). The fiducial value of a non-linear scale with an
+    infinite mark is its length (IEC 60051-1, from memory).
+    """
+    centre = float(marks[list(MARKS).index(1.0)])
+    out = []
+    for m in ACCEPTANCE_MARKS:
+        j = list(MARKS).index(m)
+        d0 = float(scale.deflection(marks[j]))
+        out.append({"applied_ohm": float(marks[j]), "expect_ohm": float(readings[j]),
+                    "low_ohm": float(scale.reading(min(d0 + class_index / 100.0, 1.0))),
+                    "high_ohm": float(scale.reading(max(d0 - class_index / 100.0, 0.0))),
+                    "multiple_of_center": float(marks[j] / centre)})
+    return out
 
 
 def ohms_lines(result: dict) -> list[str]:

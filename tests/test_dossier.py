@@ -535,3 +535,53 @@ def test_a_builder_can_wire_trim_and_probe_from_the_dossier(tmp_path):
         assert _norm(f"{node}: {info['name']}")[:30] in text
     runs = _page_texts(pdf)
     assert min(size for page in runs for size, _, _ in page) >= MIN_PRINT_PT - 1e-6
+
+
+def test_ohms_positions_in_every_section_rendered_without_solving(tmp_path, monkeypatch):
+    """``planner dossier`` of the pocket multimeter: each ohms position's page (centre, centre error,
+    open-circuit voltage, short-circuit current, the non-linear scale), the zeroing step and the reference
+    resistors of the acceptance tests, the ohms arc on the plate; no solve and no Engine while rendering."""
+    import planner.dossier
+    import planner.engine
+    import planner.solve
+    from planner.cli import main
+
+    counts = {"analyses": 0, "render": 0, "engine_render": 0}
+    phase = ["analyses"]
+    for mod in (planner.solve, planner.engine):
+        fn = mod.solve
+
+        def wrapped(*args, _fn=fn, **kwargs):
+            counts[phase[0]] += 1
+            return _fn(*args, **kwargs)
+        monkeypatch.setattr(mod, "solve", wrapped)
+    engine_init = planner.engine.Engine.__init__
+
+    def init(self, *args, **kwargs):
+        counts["engine_render"] += phase[0] == "render"
+        engine_init(self, *args, **kwargs)
+    monkeypatch.setattr(planner.engine.Engine, "__init__", init)
+    render = planner.dossier.render
+
+    def rendering(*args, **kwargs):
+        phase[0] = "render"
+        try:
+            return render(*args, **kwargs)
+        finally:
+            phase[0] = "analyses"
+    monkeypatch.setattr(planner.dossier, "render", rendering)
+    out = tmp_path / "pocket.pdf"
+    assert main(["dossier", str(ROOT / "projects" / "pocket_ohmmeter.yaml"), "-o", str(out), "--samples", "40"]) == 0
+    assert counts["analyses"] > 0 and counts["render"] == 0 and counts["engine_render"] == 0
+    text = _norm("\n".join(p.extract_text() or "" for p in PdfReader(str(out)).pages))
+    for name in ("R 20 ohm", "R 200 ohm", "R 2 kohm", "R 20 kohm"):
+        assert f"Position {name} \u2013 resistance, centre" in text
+    for words in ("Centre (half deflection)", "Centre error (worst case)", "Zero adjustment span",
+                  "Open-circuit voltage", "Short-circuit current", "Ohms scale: deflection against the resistance",
+                  "error at the centre [% of scale length]", "short the probes and set the zero adjuster (RV1)",
+                  "Reference resistors", "ohms (ohms, reversed)", "zero-ohms adjuster"):
+        assert words in text, words
+    # the acceptance limits of the 20 ohm range at its centre: the arc marks R_c (1/D - 1), so 2.5 % of the scale
+    # length either side of D = 1/2 is R_c (1/0.525 - 1) to R_c (1/0.475 - 1) (Lessons in Electric Circuits,
+    # Vol. I, ch. 8, "Ohmmeter design"): 18.10 ohm to 22.11 ohm with R_c = 20.00 ohm (4 digits)
+    assert "18.10 ohm to 22.11 ohm" in text

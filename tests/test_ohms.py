@@ -310,3 +310,75 @@ def test_apply_ohms_zero_is_full_deflection_through_the_cli(tmp_path):
     np.testing.assert_allclose(res["movement_multiple"], 1.0, rtol=1e-9)
     np.testing.assert_allclose(res["ohms"]["deflection"], 1.0, rtol=1e-9)
     assert res["ohms"]["reading_ohm"] == 0.0 and res["verdict"] == "ok"
+
+
+# --- misrange: what the ohms ranges of projects/pocket_ohmmeter.yaml survive, and what they read -------------------
+
+@pytest.fixture(scope="module")
+def pocket_faults():
+    from pathlib import Path
+
+    from planner.faults import faults_project
+    from planner.project import load
+
+    path = Path(__file__).resolve().parent.parent / "projects" / "pocket_ohmmeter.yaml"
+    return faults_project(ohms.zeroed_design(build(load(path))))  # as planner faults: adjuster at its nominal zero
+
+
+def test_pocket_fault_matrix_every_case_survives(pocket_faults):
+    """The example's misrange matrix: every case ok, pegs or opens (a fuse), on every position, both polarities
+    of the declared maximum input, the bench supply and the reversed battery; every transition of either
+    contact style survives."""
+    res = pocket_faults
+    assert len(res["cases"]) == 29
+    assert {c["verdict"] for c in res["cases"]} <= {"ok", "pegs", "opens"}
+    assert {t["verdict"] for t in res["transitions"]} <= {"ok", "pegs", "opens"}
+    assert res["contact_style_needed"] == "either" and res["requirements_met"]
+    by = {(c["position"], c["stimulus"]): c for c in res["cases"]}
+    for pos in ("R 20 ohm", "R 200 ohm", "R 2 kohm"):  # behind the crowbar: the ohms fuse opens
+        for stim in ("bench supply", "max input", "max input reversed"):
+            c = by[(pos, stim)]
+            assert c["verdict"] == "opens" and c["fuse"] == "F1", (pos, stim)
+    # the bench supply crosses over to its 3 A limit through the crowbar: F1's time is the adiabatic
+    # extension of its last curve point, 4 ms (1.6 A / 3 A)^2 (IEC 60127-1 pre-arcing I2t; hand computation)
+    c = by[("R 20 ohm", "bench supply")]
+    np.testing.assert_allclose(c["pre_arcing_time_s"], 4e-3 * (1.6 / 3.0) ** 2, rtol=1e-6)  # 3 A to round-off
+    # while F1 opens the 1.5 V cell carries the pulse, judged on its short-circuit current E / r = 1.5 V / 0.5 ohm
+    b1 = [s for s in by[("R 20 ohm", "max input")]["stresses"] if s["part"] == "B1"]
+    assert all(s["rating"] == pytest.approx(3.0) for s in b1 if "short-time" in s["limit_name"])
+    # the 9 V range has no crowbar: its parts and the movement's clamp take 50 V for good
+    assert by[("R 20 kohm", "max input")]["verdict"] == "pegs"
+
+
+def test_fault_reading_of_an_ohms_range_is_the_ohms_value_on_its_arc(pocket_faults):
+    """reading on a resistance position: the R_x the arc marks at the pointer's deflection, None past
+    either end (beyond the 0 ohm mark, or at/below the infinity mark); a series ohmmeter's arc is
+    D = R_c / (R_c + R_x) (Lessons in Electric Circuits, Vol. I, ch. 8), so R = R_c (1/D - 1)."""
+    res = pocket_faults
+    for c in res["cases"] + res["transitions"]:
+        if not c["position"].startswith("R "):
+            continue
+        d = c["movement_mean_multiple"]
+        if d <= 0.0 or d > 1.0 + 1e-9:
+            assert c["reading"] is None, (c["state"], c["stimulus"], d)
+        else:
+            centre = {"R 20 ohm": 20.0, "R 200 ohm": 200.0, "R 2 kohm": 2e3, "R 20 kohm": 2e4}[c["position"]]
+            # tolerance: the drawn arc is the solved nominal one, whose centre is the asked one to the E96 choice
+            np.testing.assert_allclose(c["reading"], centre * (1.0 / d - 1.0), rtol=5e-3, atol=centre * 1e-6)
+    by = {(c["position"], c["stimulus"]): c for c in res["cases"]}
+    assert by[("R 20 ohm", "battery reversed")]["reading"] is None  # D = -1: against the zero stop
+    assert by[("R 2 kohm", "max input")]["reading"] is None  # D = 5.9: past the 0 ohm mark
+    assert any(c["reading"] is not None and c["reading"] > 0 for c in res["transitions"]
+               if c["position"].startswith("R "))
+
+
+def test_pointer_reading_at_the_ends_of_the_arc():
+    eng = Engine(build(loads(SERIES_OHMMETER, "x.yaml")))
+    (pos,) = eng.positions
+    scale = ohms.MarkedScale(eng, pos)
+    rc = 30000.0  # R_int = 27999 + 1 ohm + 2 kohm (Lessons in Electric Circuits, "Ohmmeter design")
+    assert ohms.pointer_reading(scale, 1.0) == 0.0
+    np.testing.assert_allclose(ohms.pointer_reading(scale, 0.5), rc, rtol=1e-9)  # ideal battery: exact to round-off
+    np.testing.assert_allclose(ohms.pointer_reading(scale, 0.25), 3 * rc, rtol=1e-9)
+    assert ohms.pointer_reading(scale, 0.0) is None and ohms.pointer_reading(scale, -0.3) is None
+    assert ohms.pointer_reading(scale, 1.05) is None

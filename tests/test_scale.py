@@ -614,3 +614,40 @@ def test_range_kind_hook_gives_a_scale_of_its_own(monkeypatch):
         d_fs = float(eng.operate(p.name, [p.full_scale]).movement_multiple[0, 0])
         for t in s["ticks"]:
             np.testing.assert_allclose(t["fraction"], d_fs * t["value"] / p.full_scale, rtol=0, atol=1e-9)
+
+
+def test_pocket_ohmmeter_plate_draws_its_ohms_arc_reversed_from_the_solved_response():
+    """projects/pocket_ohmmeter.yaml, the plate of planner scale and the dossier: one ohms arc for its four
+    ranges (centres a decade apart), reversed (0 ohm at full deflection, infinity at rest), non-linear
+    (the centre at half deflection, D = R_c / (R_c + R) of a series ohmmeter [1] to within the crowbar's
+    leakage), every tick on the solved nominal response, no two labels or a label and a mark overlapping."""
+    from planner import ohms
+    from planner.cli import _plate
+
+    design = ohms.zeroed_design(build(load(ROOT / "projects" / "pocket_ohmmeter.yaml")))
+    result = _plate(design)
+    scales = scale_json(result)["scales"]
+    (arc,) = [s for s in scales if s["unit"] == "ohm"]
+    assert arc["positions"] == ["R 20 ohm", "R 200 ohm", "R 2 kohm", "R 20 kohm"]
+    ticks = [t for t in arc["ticks"] if t["value"] is not None]
+    values = np.array([t["value"] for t in ticks])
+    fractions = np.array([t["fraction"] for t in ticks])
+    order = np.argsort(values)
+    assert np.all(np.diff(fractions[order]) < 0)  # reversed: more ohms, less deflection
+    assert fractions[values == 0.0] == pytest.approx(1.0, abs=1e-9)
+    eng = Engine(design)
+    scale = ohms.Scale(eng, ohms.parts_of(eng, "R 20 ohm"))
+    # each tick where the solved nominal response puts it (planner.ohms.Scale; interpolation to 1e-9)
+    np.testing.assert_allclose(fractions, scale.deflection(values), atol=1e-9)
+    rc = scale.center_ohm
+    # the series ohmmeter's closed form [1] to within the crowbar's leakage across R_x: 1e-3 of the scale
+    np.testing.assert_allclose(fractions, rc / (rc + values), atol=1e-3)
+    texts = [t for t in result.plate.art if isinstance(t, Text)]
+    boxes = [text_box(t) for t in texts]
+    for (a, ba), (b, bb) in itertools.combinations(zip(texts, boxes), 2):
+        assert separated(ba, bb), f"labels {a.text!r} and {b.text!r} overlap"
+    marks = [list(m.points) if isinstance(m, Poly) else [(m.x1, m.y1), (m.x2, m.y2)]
+             for m in result.plate.art if isinstance(m, (Poly, Line))]
+    for t, box in zip(texts, boxes):
+        for m in marks:
+            assert separated(box, m), f"label {t.text!r} crosses a mark"

@@ -9,6 +9,7 @@ memory: 6.25 x the rated power for up to 5 s) against the maker's pulse energy.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -100,3 +101,79 @@ def test_bidirectional_clamp_is_back_to_back_pairs(flagship):
     assert len(tvs) == 2
     (mid,) = {e.anode for e in tvs}  # anode to anode
     assert {e.cathode for e in tvs} == {"tap2", "com"} and mid.startswith("clamp")
+
+
+# --- the ohms ranges' fuse and crowbar (projects/pocket_ohmmeter.yaml) ----------------------------------------------
+
+POCKET = ROOT / "projects" / "pocket_ohmmeter.yaml"
+
+
+@pytest.fixture(scope="module")
+def pocket():
+    spec = load(POCKET)
+    return spec, build(spec).net
+
+
+def test_ohms_fuse_time_to_open_at_two_currents_by_hand():
+    fm = load(POCKET).parts.fuses["f_160ma"]
+    # between the points [440 mA, 1 s] and [640 mA, 50 ms], log-log: at 0.5 A
+    # ln t = ln 1 + (ln 0.05 - ln 1) ln(0.5/0.44) / ln(0.64/0.44) = -2.995732 x 0.127833 / 0.374693 = -1.022043,
+    # t = 0.35986 s (hand computation; log-log interpolation of a time-current curve, common practice)
+    np.testing.assert_allclose(pre_arcing_time_s(fm, 0.5), 0.35986, rtol=1e-4)  # 5 digits carried by hand
+    # beyond the last point [1.6 A, 4 ms], constant I2t (IEC 60127-1 pre-arcing I2t): 3 A -> 4 ms (1.6/3)^2 = 1.1378 ms
+    np.testing.assert_allclose(pre_arcing_time_s(fm, 3.0), 4e-3 * (1.6 / 3.0) ** 2, rtol=1e-12)
+    # below the curve's lowest current (320 mA) it does not open
+    assert pre_arcing_time_s(fm, 0.2) == float("inf")
+
+
+def test_ohms_fuse_feeds_both_batteries_and_comes_off_the_series_resistors(pocket):
+    spec, net = pocket
+    f1 = net.element("F1")
+    assert f1.kind == "fuse" and (f1.a, f1.b) == ("plus", "p_ohm") and f1.model == "f_160ma"
+    bats = [e for e in net.elements if e.kind == "battery"]
+    assert len(bats) == 2 and all(b.b == "p_ohm" for b in bats)
+    # R 20 ohm: R_s = R_c - r_bat - R_fuse - sigma R_b, sigma R_b = R_h || R_b at the nominal setting
+    # (Lessons in Electric Circuits, Vol. I, ch. 8, "Ohmmeter design"; docs/ohms.md): the centre stays 20 ohm,
+    # so series + fuse + battery + the shunted branch add up to it
+    rs = sum(e.value_ohm for e in net.elements if isinstance(e, m.Resistor) and e.group == "ohms series R 20 ohm")
+    from planner.sizing.sections.resistance import ohms_targets
+    t = ohms_targets(spec, spec.movement.i_fs_a, spec.movement.r_coil_ohm, 1.8)
+    sigma_rb = t.shunt_ohm[0] * t.branch_ohm / (t.shunt_ohm[0] + t.branch_ohm)
+    np.testing.assert_allclose(rs + 1.8 + 0.5 + sigma_rb, 20.0, rtol=2.5e-3)  # E96 choice within 0.25 %
+
+
+def test_ohms_crowbar_serves_the_ranges_of_the_low_battery_only(pocket):
+    spec, net = pocket
+    (pole,) = [e for e in net.elements if e.kind == "contact" and "ohms_crowbar" in (e.a, e.b)]
+    assert pole.a == "p_ohm" and set(pole.closed_in) == {"R 20 ohm", "R 200 ohm", "R 2 kohm"}  # not R 20 kohm (9 V)
+    stack = [e for e in net.elements if e.kind == "diode" and e.model == "si_1a"]
+    assert len(stack) == 10  # five each way
+
+
+def test_crowbar_holding_voltage_and_the_rating_case_below_it(pocket):
+    from scipy.constants import e as q, k
+
+    from planner.sizing.sections.protection import crowbar_holding_v
+
+    spec, net = pocket
+    # Shockley with series resistance (W. Shockley, Bell Syst. Tech. J. 28 (1949)): 5 x (n kT/q ln(1 + I/I_s) + I R_s)
+    # at 23 degC, I = 160 mA, I_s = 2 nA, n = 1.8, R_s = 0.2 ohm (scipy.constants for k and q)
+    vt = k * (273.15 + 23.0) / q
+    want = 5 * (1.8 * vt * np.log1p(0.16 / 2e-9) + 0.16 * 0.2)
+    np.testing.assert_allclose(crowbar_holding_v(spec, "si_1a", 5, 0.16), want, rtol=1e-12)
+    # R 20 ohm's series resistor carries about ((V_hold + 0.16 A x 1.8 ohm) - ~1.5 V) / 20 ohm for good below it:
+    # more than 0.25 W, so the sizer chose a 1 W part (parts.resistors.ratings)
+    (r10,) = [e for e in net.elements if isinstance(e, m.Resistor) and e.group == "ohms series R 20 ohm"]
+    v_in = want + 0.16 * 1.8
+    assert (v_in + 1.6) ** 2 / 20.0 ** 2 * r10.value_ohm > 0.25 and r10.power_w == 1.0
+
+
+def test_ohms_protection_needs_what_it_guards():
+    text = POCKET.read_text(encoding="utf-8")
+    with pytest.raises(ProjectError, match="ohms_crowbar sits behind the ohms fuse"):
+        build(loads(text.replace("  ohms_fuse: f_160ma\n", ""), "x.yaml"))
+    # 1.6 V / 20 ohm = 80 mA on the 20 ohm range with the probes shorted: a 50 mA fuse would open in use
+    with pytest.raises(ProjectError, match="draw up to 80.00 mA"):
+        build(loads(text.replace("rated_current: 160 mA", "rated_current: 50 mA"), "x.yaml"))
+    with pytest.raises(ProjectError, match="no resistance section"):
+        build(loads(re.sub(r"\nresistance:\n(  .*\n)+", "\n", text).replace("  ohms_crowbar: si_1a\n", ""), "x.yaml"))

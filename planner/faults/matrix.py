@@ -14,7 +14,7 @@ from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import SolveError
 from ..model import Spec
-from ..ohms import reversed_battery
+from ..ohms import fault_readings, reversed_battery
 from ..stress import FAILING, assess
 from .cautions import matrix_cautions
 from .curves import protection_curve, without_clamps
@@ -95,6 +95,7 @@ def faults_project(design: Design | Spec, *, position: str | None = None, only_f
 
     cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
     transitions = _transition_cases(engine, tstates, acceptance, tick)
+    fault_readings(engine, cases + transitions)  # an ohms range reads ohms on its own arc (docs/ohms.md)
     needed, transitions_ok = contact_style(transitions, bool(tstates), net.contact_style)
     met = not any(_failing(c) for c in cases) and transitions_ok
 

@@ -20,6 +20,7 @@ import numpy as np
 from ..tools import quantity
 from ..units import format_si
 from .base import Part
+from .resistor import SHORT_OVERLOAD_S
 
 #: Default largest current a battery may carry either way [A]: a small primary cell's
 #: continuous drain (common practice for AA/9 V cells in test instruments; from memory,
@@ -117,6 +118,19 @@ class Battery(Part):
                 f"voltage: {quantity(self.voltage_v, 'V')}, min: {quantity(self.v_min_v, 'V')}, "
                 f"max: {quantity(self.v_max_v, 'V')}, internal_resistance: {quantity(self.r_int_ohm, 'ohm')}{extra}}}")
 
+    def short_time_current_a(self) -> float:
+        r"""The largest current it may carry for a pulse of up to 5 s [A]: its own short-circuit current.
+
+        Notes
+        -----
+        :math:`I_{st} = \max(I_{max}, E_{nom} / r)`: a cell delivers its short-circuit
+        current :math:`E / r` when its terminals touch, and a pulse of that size either
+        way, ended within the short-time window by a fuse, moves a charge
+        :math:`I t` far below what harms it (from memory: makers rate small primary
+        cells for short-circuit pulses, not for sustained charging).
+        """
+        return max(self.max_current_a, self.voltage_v / self.r_int_ohm)
+
     def checks(self, ctx) -> list[dict]:
         """Its current either way against ``max_current_a`` (a primary cell must not be charged hard).
 
@@ -124,6 +138,9 @@ class Battery(Part):
         -----
         :math:`I_{rms}` of the branch against the rating; a voltage applied to an
         ohms range drives it backwards (charging), which this bounds as well.
+        While fuses open within the 5 s short-time window (``ctx.event``) the
+        current lasts only the event and is judged against
+        :meth:`short_time_current_a`.
 
         References
         ----------
@@ -134,5 +151,10 @@ class Battery(Part):
         if ctx.peak_only:
             return [ctx.entry(self.name, self.kind, f"peak current{ctx.phase}", ctx.current["peak"],
                               self.max_current_a, "A", "rating")]
+        ev = ctx.event
+        if ev is not None and ev.event_time_s <= SHORT_OVERLOAD_S:
+            return [ctx.entry(self.name, self.kind, f"current {ev.words}{ctx.phase}", ctx.current["rms"],
+                              self.short_time_current_a(), "A", "rating", limit_name="battery short-time current",
+                              duration_s=ev.event_time_s)]
         return [ctx.entry(self.name, self.kind, f"current{ctx.phase}", ctx.current["rms"], self.max_current_a,
                           "A", "rating")]

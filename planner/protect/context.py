@@ -105,7 +105,9 @@ class SearchContext:
         self.allowed = spec.analysis.allowed_share * self.class_index / 100.0
         self.sized = spec.network is None
         self._prepare_base(design)
-        self.positions = list(self.base.positions)
+        # the linear ranges: an ohms range's accuracy is re-zeroed (planner check) and its faults are
+        # judged on the whole misrange matrix with the plan (judged.py)
+        self.positions = [p for p in self.base.positions if p.measures != "resistance"]
         self.t_hot = float(spec.ambient.t_max_k)
         self.limits = {}
         for p in self.positions:

@@ -102,10 +102,12 @@ def protection_candidates(spec) -> list:
     count = given.ring_crowbar_count if given is not None else 2
     out = [given]
     for ptc, cb, fz in itertools.product(ptcs, crowbars, ma):
-        req = None if (ptc, cb, fz) == (None, None, None) else ProtectionRequest(
+        req = None if (ptc, cb, fz) == (None, None, None) and not (given and given.ohms_fuse) else ProtectionRequest(
             input_ptc=ptc, ring_crowbar=cb, ring_crowbar_count=count, ma_fuse=fz,
             fusible_input=bool(given and given.fusible_input), fusible_ohm=given.fusible_ohm if given else None,
-            fusing=given.fusing if given else (), breaking_voltage_v=given.breaking_voltage_v if given else math.inf)
+            fusing=given.fusing if given else (), breaking_voltage_v=given.breaking_voltage_v if given else math.inf,
+            ohms_fuse=given.ohms_fuse if given else None, ohms_crowbar=given.ohms_crowbar if given else None,
+            ohms_crowbar_count=given.ohms_crowbar_count if given else 4)
         if req not in out:
             out.append(req)
     return out[:MAX_PART_PLANS]
@@ -115,7 +117,7 @@ def _parts_added(req) -> int:
     if req is None:
         return 0
     return (1 if req.input_ptc else 0) + (1 if req.fusible_input else 0) + (1 if req.ma_fuse else 0) + \
-        (2 * req.ring_crowbar_count if req.ring_crowbar else 0)
+        (1 if req.ohms_fuse else 0) + (2 * req.ohms_crowbar_count if req.ohms_crowbar else 0) + (2 * req.ring_crowbar_count if req.ring_crowbar else 0)
 
 
 def _hot_readings(design: Design, t_hot: float) -> dict:
@@ -158,6 +160,10 @@ def describe(req) -> str:
         bits.append(f"ring crowbar {req.ring_crowbar} x{req.ring_crowbar_count}")
     if req.ma_fuse:
         bits.append(f"mA fuse {req.ma_fuse}")
+    if req.ohms_fuse:
+        bits.append(f"ohms fuse {req.ohms_fuse}")
+    if req.ohms_crowbar:
+        bits.append(f"ohms crowbar {req.ohms_crowbar} x{req.ohms_crowbar_count}")
     return ", ".join(bits) or "none"
 
 
@@ -167,7 +173,8 @@ def as_dict(req) -> dict | None:
     return {"input_ptc": req.input_ptc, "fusible_input": req.fusible_input, "ring_crowbar": req.ring_crowbar,
             "ring_crowbar_count": req.ring_crowbar_count, "ma_fuse": req.ma_fuse,
             "fusible_resistance_ohm": req.fusible_ohm, "fusing": [list(x) for x in req.fusing],
-            "breaking_voltage_v": req.breaking_voltage_v}
+            "breaking_voltage_v": req.breaking_voltage_v, "ohms_fuse": req.ohms_fuse,
+            "ohms_crowbar": req.ohms_crowbar, "ohms_crowbar_count": req.ohms_crowbar_count}
 
 
 def from_dict(p: dict | None):
@@ -177,7 +184,9 @@ def from_dict(p: dict | None):
     return ProtectionRequest(input_ptc=p["input_ptc"], fusible_input=p["fusible_input"],
                              fusible_ohm=p["fusible_resistance_ohm"], fusing=tuple(tuple(x) for x in p["fusing"]),
                              breaking_voltage_v=p["breaking_voltage_v"], ring_crowbar=p["ring_crowbar"],
-                             ring_crowbar_count=p["ring_crowbar_count"], ma_fuse=p["ma_fuse"])
+                             ring_crowbar_count=p["ring_crowbar_count"], ma_fuse=p["ma_fuse"],
+                             ohms_fuse=p.get("ohms_fuse"), ohms_crowbar=p.get("ohms_crowbar"),
+                             ohms_crowbar_count=p.get("ohms_crowbar_count", 4))
 
 
 def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None) -> dict:

@@ -144,6 +144,15 @@ class Layout:
     feed_ohm: float = 0.0
     #: (rated current [A], node): current ranges below that full scale are fed from the node (a mA fuse).
     low_current_feed: tuple | None = None
+    #: The node the ohms ranges' batteries hang from, and the series resistance ahead of it [ohm]
+    #: (an ohms fuse: :mod:`planner.sizing.sections.protection`).
+    ohms_feed: str = PLUS
+    ohms_feed_ohm: float = 0.0
+    #: Crowbars behind a fuse, (node, positions served, input voltage at which the crowbar carries the
+    #: fuse's rated current [V]): see :func:`planner.sizing.ratings.rating_cases`.
+    crowbars: list[tuple[str, tuple[str, ...], float]] = field(default_factory=list)
+    #: Ohms position name -> index of its battery (0: ``battery``, 1: ``high_battery``).
+    ohms_battery: dict[str, int] = field(default_factory=dict)
 
 
 class SizingSection:

@@ -113,7 +113,11 @@ def rating_cases(spec: Spec, layout: Layout):
 
     Every position at its full scale; every position driven by a voltage under
     ``faults.max_input`` (when it exceeds the full scale) with each clamp node
-    open and shorted to common, in every combination.
+    open and shorted to common, in every combination. On a position a crowbar
+    behind a fuse serves (``layout.crowbars``) the maximum input fires it, so
+    the crowbar node is shorted too (the fuse opens: a pulse), and one more
+    case takes the highest input the fuse stands for good: the voltage at which
+    the crowbar carries the fuse's rated current, crowbar open.
     """
     out = []
     vmax = spec.faults.max_input_v
@@ -127,7 +131,12 @@ def rating_cases(spec: Spec, layout: Layout):
         if p.kind.source == "voltage" and vmax is not None and vmax > drive:
             for sh in corners:
                 how = "" if not sh else f", clamp at {'+'.join(sh)} shorted"
-                out.append((f"{fmt(vmax, 'V')} max input on {p.name}{how}", p, vmax, sh, False))
+                fired = tuple(node for node, served, _ in layout.crowbars if p.name in served)
+                out.append((f"{fmt(vmax, 'V')} max input on {p.name}{how}", p, vmax, sh + fired, False))
+                for node, served, v_hold in layout.crowbars:
+                    if p.name in served and v_hold < vmax:
+                        out.append((f"{fmt(v_hold, 'V')} on {p.name}, just below its crowbar's fuse current{how}",
+                                    p, v_hold, sh, False))
     return out
 
 

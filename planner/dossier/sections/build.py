@@ -9,6 +9,7 @@ from ...model import Diode, Resistor
 from ...testpoints import pin_names
 from ..layout import RULE, STYLES, caution_box, esc, p, table
 from ..text import celsius, hazard_reminder, is_hazardous, quantity, value_text
+from . import ohms
 from .context import Context
 from .common import error_note, hazardous_position, natural, verdict_fill
 
@@ -74,6 +75,9 @@ def build(ctx: Context) -> list:
                      "rms (a calibrator, or a low-distortion source checked with a true-rms meter) at 10 %, 50 % and "
                      "100 % of full scale; the readings should match the check's linearity table for that scale. "
                      "A distorted source reads off by its form factor (see the waveform errors of each range).")
+    rpos = [q for q in net.positions if ohms.is_ohms(q)]
+    if rpos:
+        steps.append(ohms.zeroing_step(ctx, rpos))
     if not calibration and trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
@@ -123,9 +127,19 @@ def build(ctx: Context) -> list:
                  + (" On the AC positions (<i>rms~</i>) apply a sine of that rms value, 50 Hz, from a low-distortion "
                     "source: the pointer follows the mean and the scale is marked in rms of a sine, so a distorted "
                     "source reads off by its form factor." if any(q.kind.waveform == "sine" for q in net.positions)
-                    else ""), "small"))
+                    else "")
+                 + (" Ohms ranges: zero first (probes shorted), then connect each reference resistor; the class "
+                    "is a share of the scale length, so the limits are the values the arc marks that far either "
+                    "side of the resistor's own mark." if rpos else ""), "small"))
     rows, fills, outside, groups = [], [], [], []
     for q in net.positions:
+        if ohms.is_ohms(q):
+            groups.append(len(rows) + 1)
+            more, out_of = ohms.acceptance_rows(ctx, q)
+            fills += [(2, len(rows) + 1 + k, "overstress") for k, r in enumerate(more) if r[2].endswith(" !")]
+            rows += more
+            outside += out_of
+            continue
         arr = ctx.arrays(q.name)
         applied = ACCEPTANCE_FRACTIONS * q.full_scale
         reading = [arr.reading_at(f) for f in ACCEPTANCE_FRACTIONS]
@@ -166,6 +180,8 @@ def build(ctx: Context) -> list:
                     f"up to {value_text(max(q.full_scale for q in acpos if q.kind.source == 'voltage'), 'V')} rms"
                     if any(q.kind.source == "voltage" for q in acpos) else "AC current source (50 Hz sine)")
         inst[-1] += f", distortion under 0.1 % and uncertainty at most {cls / 4:g} % of full scale."
+    if rpos and ohms.reference_resistors(ctx, rpos):
+        inst.append(ohms.reference_resistors(ctx, rpos))
     inst.append(f"Current source for the bare movement, up to {value_text(spec.movement.i_fs_a * 1.1, 'A')}.")
     inst.append("Digital multimeter (4\u00bd digits or better) for the test-point voltages and the resistor values; "
                 "four-wire resistance for values below 10 ohm.")

@@ -9,6 +9,7 @@ from .. import charts
 from ..layout import MUTED, RULE, Heading, caution_box, p, table
 from ..text import celsius, hazard_reminder, pct, pct_abs, quantity, value_text
 from .context import CHART_H, CHART_W, Context
+from . import ohms
 from .common import axis_scale, error_note, hazardous_position, verdict_fill, why
 
 
@@ -32,6 +33,9 @@ def _position_charts(ctx: Context, name: str, q: dict | None, pos) -> list:
     t_hot = celsius(q.get("hot_temperature_k", ctx.spec.ambient.t_max_k)) if q else ""
     # error over the scale: the error at the reference; at the hottest ambient only what is left once
     # the gain change with temperature is taken out (that change has its own chart)
+    if q and ohms.is_ohms(q):  # a reversed, non-linear scale: its own charts (section ohms)
+        return _grid([ohms.scale_chart(ctx, q), _protection_or_message(ctx, name), ohms.error_chart(ctx, q),
+                      ohms.mc_chart(ctx, name, q)])
     if q and q.get("linearity") and arr is not None:
         lin = q["linearity"]
         x = [r["applied"] / scale for r in lin]
@@ -42,13 +46,7 @@ def _position_charts(ctx: Context, name: str, q: dict | None, pos) -> list:
                                          bands=[charts.Band(-cls, cls, f"class {cls:g} limits")]))
     else:
         charts_.append(charts.message_drawing(CHART_W, CHART_H, "Error over the scale", why(ctx, "check")))
-    # protection
-    curves = _protection_curves(ctx, name)
-    if curves:
-        charts_.append(_protection_chart(ctx, curves))
-    else:
-        charts_.append(charts.message_drawing(CHART_W, CHART_H, "Protection curve", why(ctx, "faults",
-                                              "no protection curve for this position")))
+    charts_.append(_protection_or_message(ctx, name))
     # temperature: the gain change (full-scale reading) apart from the non-linearity, against the
     # permitted variation (a share of the class per 10 K from the reference)
     if q and arr is not None and arr.temperatures_k.size > 1:
@@ -69,6 +67,19 @@ def _position_charts(ctx: Context, name: str, q: dict | None, pos) -> list:
         charts_.append(charts.message_drawing(CHART_W, CHART_H, "Temperature", why(ctx, "check")))
     # Monte Carlo
     charts_.append(_mc_chart(ctx, name, q, cls))
+    return _grid(charts_)
+
+
+def _protection_or_message(ctx: Context, name: str):
+    curves = _protection_curves(ctx, name)
+    if curves:
+        return _protection_chart(ctx, curves)
+    return charts.message_drawing(CHART_W, CHART_H, "Protection curve", why(ctx, "faults",
+                                  "no protection curve for this position"))
+
+
+def _grid(charts_: list) -> list:
+    """Four charts, two by two."""
     grid = Table([[charts_[0], charts_[1]], [charts_[2], charts_[3]]], colWidths=[CHART_W + 6] * 2,
                  hAlign="LEFT")
     grid.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 6),
@@ -206,7 +217,9 @@ def positions(ctx: Context) -> list:
         pos = ctx.net.position(name) if ctx.net is not None else None
         q = ctx.check_position(name)
         head = f"Position {name}"
-        if pos is not None:
+        if pos is not None and ohms.is_ohms(pos):
+            head += f" \u2013 resistance, centre {value_text(pos.center or pos.full_scale, 'ohm')}"
+        elif pos is not None:
             head += f" \u2013 {pos.measures}, full scale {value_text(pos.full_scale, pos.unit)}"
         out.append(Heading(head, 1, f"pos{k + 1}"))
         if pos is not None and hazardous_position(pos):
@@ -215,11 +228,15 @@ def positions(ctx: Context) -> list:
             out.append(Spacer(1, 4))
         if q is None:
             out += error_note(ctx, "Accuracy check", "check")
+        elif ohms.is_ohms(q):
+            out.append(ohms.accuracy_table(ctx, q))
         else:
             out.append(_accuracy_table(ctx, q))
         out.append(Spacer(1, 6))
         out += _position_charts(ctx, name, q, pos)
-        if q is not None and pos is not None and q.get("linearity"):
+        if q is not None and ohms.is_ohms(q):
+            out.append(ohms.marks_table(ctx, q))
+        elif q is not None and pos is not None and q.get("linearity"):
             out.append(_linearity_table(ctx, q, pos, ctx.arrays(name)))
     out.append(PageBreak())
     return out

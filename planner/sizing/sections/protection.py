@@ -16,7 +16,17 @@ Topology (node names of ``docs/sizing.md``, section 5):
   one) in the current positions it serves: across the Ayrton ring on those ranges
   only (the same as ``clamps: - {across: ring, ...}``);
 - ``ma_fuse: <fuse model>``: a second fuse from the current feed to ``a_ma`` that
-  feeds the current ranges whose full scale is below its rated current.
+  feeds the current ranges whose full scale is below its rated current;
+- ``ohms_fuse: <fuse model>``: a fuse from ``plus`` to ``p_ohm``, the node the ohms
+  ranges' batteries hang from, so that every current an outside voltage drives
+  through an ohms range passes it; its cold resistance comes off every range's
+  series resistor (``docs/ohms.md``, "Protection");
+- ``ohms_crowbar: <diode model>``: ``ohms_crowbar_count`` diodes in series each
+  way from ``ohms_crowbar`` to common, and a switch pole joining it to ``p_ohm``
+  on the ohms positions of the first battery (``resistance.battery``): a voltage
+  on those ranges fires it and opens the ohms fuse; the ranges on
+  ``high_battery`` (an open-circuit voltage the stack would leak at) are left to
+  the fuse and their parts' ratings. Needs ``ohms_fuse``.
 
 Every other part is rated by the sizer for full scale and the declared maximum
 input (:mod:`planner.sizing.ratings`); what it must carry until the protective part
@@ -31,7 +41,8 @@ from ..layout import COM, PLUS, Device, Layout, SizingSection
 from ..request import request_error
 
 #: Nodes the section adds.
-P_PTC, P_IN, A_MA, CROWBAR = "p_ptc", "p_in", "a_ma", "crowbar"
+P_PTC, P_IN, A_MA, CROWBAR, P_OHM, OHMS_CROWBAR = \
+    "p_ptc", "p_in", "a_ma", "crowbar", "p_ohm", "ohms_crowbar"
 
 
 def feed_ohm(spec: Spec) -> float:
@@ -50,6 +61,26 @@ def crowbar_stack(layout: Layout, node: str, model: str, count: int, tag: str, l
         for a, b in zip(stack[:-1], stack[1:]):
             anode, cathode = (a, b) if direction == "fwd" else (b, a)
             layout.devices.append(Device("D", Diode, (anode, cathode, model, line)))
+
+
+def crowbar_holding_v(spec: Spec, model: str, count: int, i_a: float) -> float:
+    r"""Voltage across a crowbar stack of ``count`` diodes carrying ``i_a`` forward [V] (reference temperature).
+
+    Notes
+    -----
+    Each diode :math:`V = n V_t \ln(1 + I / I_s) + I R_s` (Shockley with series
+    resistance; its leakage resistance is left out, a bound from above), with
+    :math:`V_t = k T / q` at the reference ambient.
+
+    References
+    ----------
+    W. Shockley, "The theory of p-n junctions in semiconductors", *Bell Syst.
+    Tech. J.* 28 (1949) 435; the series resistance as in the SPICE diode model.
+    """
+    from ...solve.junction import thermal_voltage
+    d = spec.parts.diodes[model]
+    vt = float(thermal_voltage(spec.ambient.t_ref_k))
+    return count * (d.n * vt * math.log1p(i_a / d.i_s_a) + i_a * d.r_s_ohm)
 
 
 def ring_crowbar(spec: Spec, layout: Layout, model: str, count: int, line) -> None:
@@ -81,6 +112,11 @@ class ProtectionSizing(SizingSection):
             raise request_error(spec, "protection.ring_crowbar and ma_fuse sit behind the current ranges' fuse; "
                                 "give current.fuse (a crowbar without a fuse would short the source for good)",
                                 pr.line)
+        if pr.ohms_fuse:
+            _validate_ohms_fuse(spec, pr)
+        if pr.ohms_crowbar and not pr.ohms_fuse:
+            raise request_error(spec, "protection.ohms_crowbar sits behind the ohms fuse; give protection.ohms_fuse "
+                                "(a crowbar without a fuse would short the source for good)", pr.line)
         if pr.ma_fuse and not any(i < spec.parts.fuses[pr.ma_fuse].rated_current_a for i in spec.current.full_scales):
             raise request_error(spec, f"protection.ma_fuse '{pr.ma_fuse}' is rated below every current range's full "
                                 "scale, so it would feed none; choose a fuse rated above the mA ranges", pr.line)
@@ -96,6 +132,9 @@ class ProtectionSizing(SizingSection):
         layout.feed_ohm = feed_ohm(spec)
         if pr.ma_fuse:
             layout.low_current_feed = (spec.parts.fuses[pr.ma_fuse].rated_current_a, A_MA)
+        if pr.ohms_fuse:
+            layout.ohms_feed = P_OHM
+            layout.ohms_feed_ohm = spec.parts.fuses[pr.ohms_fuse].r_cold_ohm
 
     def lay_out(self, spec: Spec, layout: Layout) -> None:
         pr = spec.protection
@@ -110,6 +149,23 @@ class ProtectionSizing(SizingSection):
             layout.devices.append(Device("F", Fuse, (layout.current_feed, A_MA, pr.ma_fuse, pr.line)))
         if pr.ring_crowbar:
             ring_crowbar(spec, layout, pr.ring_crowbar, pr.ring_crowbar_count, pr.line)
+        if pr.ohms_fuse:
+            layout.devices.append(Device("F", Fuse, (PLUS, P_OHM, pr.ohms_fuse, pr.line)))
+        if pr.ohms_crowbar:
+            names = tuple(n for n, j in layout.ohms_battery.items() if j == 0)
+            layout.contacts.append((P_OHM, OHMS_CROWBAR, names))
+            f = spec.parts.fuses[pr.ohms_fuse]
+            hold = crowbar_holding_v(spec, pr.ohms_crowbar, pr.ohms_crowbar_count, f.rated_current_a)
+            layout.crowbars.append((OHMS_CROWBAR, names, hold + f.rated_current_a * f.r_cold_ohm))
+            crowbar_stack(layout, OHMS_CROWBAR, pr.ohms_crowbar, pr.ohms_crowbar_count, "ohms_crowbar", pr.line)
+
+
+def _validate_ohms_fuse(spec: Spec, pr: ProtectionRequest) -> None:
+    """Refuse an ohms fuse without ohms ranges (its rating is checked against the ranges where they are laid
+    out: :func:`planner.sizing.sections.resistance.check_ohms_fuse`)."""
+    if spec.resistance is None:
+        raise request_error(spec, "protection.ohms_fuse guards the ohms ranges, but the project has no resistance "
+                            "section; drop ohms_fuse or add the ranges", pr.line)
 
 
 def _fusible(name, a, b, pr: ProtectionRequest, rp) -> Resistor:
@@ -138,4 +194,8 @@ def protection_lines(req: ProtectionRequest | None) -> list[str]:
         lines += [f"  ring_crowbar: {req.ring_crowbar}", f"  ring_crowbar_count: {req.ring_crowbar_count}"]
     if req.ma_fuse:
         lines.append(f"  ma_fuse: {req.ma_fuse}")
+    if req.ohms_fuse:
+        lines.append(f"  ohms_fuse: {req.ohms_fuse}")
+    if req.ohms_crowbar:
+        lines += [f"  ohms_crowbar: {req.ohms_crowbar}", f"  ohms_crowbar_count: {req.ohms_crowbar_count}"]
     return lines

@@ -1,7 +1,7 @@
 """Ohms ranges (``resistance:``): battery, series resistors, range shunts and the zero adjuster.
 
 Topology (``docs/ohms.md``): battery j between ``[bp<j>, plus]`` (its minus on the
-plus terminal, so the plus terminal is the negative one on ohms, as in most analog
+plus terminal, or on ``p_ohm`` behind an ohms fuse, so the plus terminal is the negative one on ohms, as in most analog
 multimeters); for range k a series resistor R_s,k from ``bp<j>`` to ``o<k>`` and a
 contact ``o<k>``-``ox``; a range shunt R_h,k from ``h<k>`` to ``com`` and a contact
 ``h<k>``-``ox``; the meter branch from ``ox`` to ``com``. With ``zero_adjust: shunt``
@@ -90,7 +90,7 @@ def assign_batteries(spec: Spec, i_b: float) -> list[int]:
     return out
 
 
-def ohms_targets(spec: Spec, i_m: float, r_m: float) -> OhmsTargets:
+def ohms_targets(spec: Spec, i_m: float, r_m: float, feed_ohm: float = 0.0) -> OhmsTargets:
     """Ideal series resistors, range shunts and zero adjuster of the ohms ranges.
 
     Parameters
@@ -99,6 +99,9 @@ def ohms_targets(spec: Spec, i_m: float, r_m: float) -> OhmsTargets:
     i_m, r_m : float
         Full-deflection current [A] and resistance [ohm] of the meter the ohms
         network drives.
+    feed_ohm : float
+        Series resistance ahead of the batteries (an ohms fuse) [ohm]; it adds
+        to the battery's internal resistance r_bat.
 
     Notes
     -----
@@ -162,15 +165,37 @@ def ohms_targets(spec: Spec, i_m: float, r_m: float) -> OhmsTargets:
                 f"meter branch ({fmt(b.voltage_v / i_b, 'ohm')} at most); add or raise high_battery, or lower the centre",
                 res.line)
         shunt = None if sigma >= 1.0 - 1e-9 else sigma * branch / (1.0 - sigma)
-        rs = c - b.r_int_ohm - sigma * branch
+        rs = c - b.r_int_ohm - feed_ohm - sigma * branch
         if rs < 0.0:
             raise request_error(
-                spec, f"resistance centre {fmt(c, 'ohm')} is below the battery's internal resistance and the meter "
-                f"branch it sees ({fmt(b.r_int_ohm + sigma * branch, 'ohm')}); raise the centre or use zero_adjust: "
-                "shunt", res.line)
+                spec, f"resistance centre {fmt(c, 'ohm')} is below the battery's internal resistance"
+                f"{', the ohms fuse' if feed_ohm else ''} and the meter branch it sees "
+                f"({fmt(b.r_int_ohm + feed_ohm + sigma * branch, 'ohm')}); raise the centre"
+                f"{', choose a fuse of lower cold resistance' if feed_ohm else ''} or use zero_adjust: shunt", res.line)
         series.append(rs)
         shunts.append(shunt)
     return OhmsTargets(branch, fixed, pot, setting, tuple(which), tuple(series), tuple(shunts), swamp)
+
+
+def check_ohms_fuse(spec: Spec, t: OhmsTargets) -> None:
+    """Refuse an ohms fuse (``protection.ohms_fuse``) rated below a range's short-circuit current.
+
+    Notes
+    -----
+    With the terminals shorted, range k's battery at its freshest drives at most
+    :math:`E_{max} / R_{c,k}` (a series ohmmeter's internal resistance is its centre
+    value), so a fuse rated at or below that would open in use.
+    """
+    pr = spec.protection
+    if pr is None or not pr.ohms_fuse:
+        return
+    f = spec.parts.fuses[pr.ohms_fuse]
+    bats = _batteries(spec.resistance)
+    i_sc, c = max((bats[j].v_max_v / c, c) for c, j in zip(spec.resistance.centers, t.battery))
+    if i_sc >= f.rated_current_a:
+        raise request_error(spec, f"protection.ohms_fuse '{pr.ohms_fuse}' is rated {fmt(f.rated_current_a, 'A')}, but "
+                            f"shorted terminals on the {fmt(c, 'ohm')} range draw up to {fmt(i_sc, 'A')} from a fresh "
+                            "battery; choose a fuse rated above that", pr.line)
 
 
 class ResistanceSizing(SizingSection):
@@ -192,14 +217,15 @@ class ResistanceSizing(SizingSection):
     def lay_out(self, spec: Spec, layout: Layout) -> None:
         res = spec.resistance
         base = layout.multiplier_base
-        t = ohms_targets(spec, layout.meter_i_a, layout.meter_r_ohm)
+        t = ohms_targets(spec, layout.meter_i_a, layout.meter_r_ohm, layout.ohms_feed_ohm)
+        check_ohms_fuse(spec, t)
         names = self.labels(spec)
         bats = _batteries(res)
         top = OX
         for j, b in enumerate(bats):
             if j in t.battery:
-                layout.devices.append(Device("B", Battery, (f"bp{j + 1}", PLUS, b.voltage_v, b.v_min_v, b.v_max_v,
-                                                            b.r_int_ohm, 0.1, b.line)))
+                layout.devices.append(Device("B", Battery, (f"bp{j + 1}", layout.ohms_feed, b.voltage_v, b.v_min_v,
+                                                            b.v_max_v, b.r_int_ohm, 0.1, b.line)))
         on_ohms = tuple(names)
         if res.zero_adjust == "shunt":
             if t.fixed_ohm > 0:
@@ -225,4 +251,5 @@ class ResistanceSizing(SizingSection):
                                                    f"h{k + 1}", res.line))
                 layout.contacts.append((f"h{k + 1}", top, (names[k],)))
             layout.positions.append(Position(names[k], "resistance", float(c), (PLUS, COM), res.line, center=float(c)))
+            layout.ohms_battery[names[k]] = j
             layout.ideal[names[k]] = (float(c), None)
