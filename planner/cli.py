@@ -174,8 +174,8 @@ def _cautions_tail(result: dict) -> str:
 def cmd_size(args) -> int:
     if args.retrim:
         return cmd_retrim(args)
-    if args.write_network:
-        _check_output(args.write_network, args.project, args)
+    if args.output:
+        _check_output(args.output, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .fsio import emit
     from .sizing import format_sizing_table, network_yaml, size, sizing_json
@@ -187,11 +187,11 @@ def cmd_size(args) -> int:
         print(f"planner: note: {args.project} also gives an explicit network; 'size' sizes the ranges anew, "
               "the other commands analyse the network as it is", file=sys.stderr)
     sizing = size(spec)  # the sizer alone: `size` reports the sizing, it needs no solved design
-    result = sizing_json(sizing)
+    result = sizing_json(sizing, spec)
     result["findings"] = sizing_findings(spec, sizing)
-    if args.write_network:
-        if emit(args.write_network, network_yaml(spec, sizing), protect=[args.project]):
-            print(f"wrote {args.write_network}", file=sys.stderr)
+    if args.output:
+        if emit(args.output, network_yaml(spec, sizing), protect=[args.project]):
+            print(f"wrote {args.output}", file=sys.stderr)
         else:  # '-': stdout carries the network alone
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
     _emit(args, result, format_sizing_table(sizing) + _lines_tail(finding_lines(result["findings"])))
@@ -332,8 +332,8 @@ def _plate(design):
 
 
 def cmd_protect(args) -> int:
-    if args.write:
-        _check_output(args.write, args.project, args)
+    if args.output:
+        _check_output(args.output, args.project, args)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner
     from .protect import format_protect, protect_project, write_protected
 
@@ -350,19 +350,19 @@ def cmd_protect(args) -> int:
         result = protect_project(design, share=share, seed=args.seed, max_candidates=args.max_candidates, progress=show)
     finally:
         _end_progress(show)
-    if args.write:
-        written = write_protected(design, result, args.write)
-        if written is None and args.write == "-":  # stdout carries a project: the one given, unchanged
+    if args.output:
+        written = write_protected(design, result, args.output)
+        if written is None and args.output == "-":  # stdout carries a project: the one given, unchanged
             sys.stdout.write("# planner protect: nothing protects better than this project as given; it is "
                              "unchanged\n" + (spec.text or ""))
             print("nothing protects better than the project as given: it is written unchanged", file=sys.stderr)
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
         if written is None:
             print("nothing protects better than the project as given: nothing written", file=sys.stderr)
-        elif args.write == "-":  # stdout carries the project alone
+        elif args.output == "-":  # stdout carries the project alone
             return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
         else:
-            print(f"wrote {args.write}", file=sys.stderr)
+            print(f"wrote {args.output}", file=sys.stderr)
     _emit(args, result, format_protect(result))
     return EXIT_OK if result.get("requirements_met", True) else EXIT_SHORT
 
@@ -431,8 +431,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     sp = sub.add_parser("size", help="synthesize multipliers and shunts from standard values")
     common(sp)
-    sp.add_argument("--write-network", metavar="OUT.yaml",
-                    help="write the sized network as an editable project file ('-': to stdout, instead of the table)")
+    sp.add_argument("-o", "--output", "--write-network", dest="output", metavar="OUT.yaml",
+                    help="write the sized network as an editable project file ('-': to stdout, instead of the "
+                         "table; --write-network is the older name)")
     sp.add_argument("--retrim", action="store_true",
                     help="keep the file's explicit network; propose the fewest new values that bring every "
                          "position within a tenth of the class")
@@ -483,8 +484,9 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--share", metavar="S", help="share of the class the clamps may cost in linearity (default 0.25)")
     sp.add_argument("--seed", metavar="N", help="seed of the search (default from the file)")
     sp.add_argument("--max-candidates", default=2000, metavar="N", help="bound on candidates (default 2000)")
-    sp.add_argument("-o", "--write", metavar="OUT.yaml",
-                    help="write the project with the chosen placement ('-': to stdout, instead of the table)")
+    sp.add_argument("-o", "--output", "--write", dest="output", metavar="OUT.yaml",
+                    help="write the project with the chosen placement ('-': to stdout, instead of the table; "
+                         "--write is the older name)")
     sp.add_argument("--quiet", action="store_true", help="no progress on stderr")
     sp.set_defaults(func=cmd_protect)
 
@@ -591,8 +593,8 @@ def _series_option(text):
 def cmd_retrim(args) -> int:
     from .errors import UsageError
 
-    if args.write_network:
-        raise UsageError("--write-network writes a sized network; with --retrim the file keeps its network: fit the "
+    if args.output:
+        raise UsageError("-o/--output writes a sized network; with --retrim the file keeps its network: fit the "
                          "parts listed and change their values in the file")
     series = _series_option(args.series)
     spec = _load(args)  # before the heavy imports: bad input is answered sooner

@@ -439,6 +439,7 @@ class Analysis:
     samples: int = 2000
     seed: int = 1
     allowed_share: float = 0.1  # sizing: share of class a single value may miss by
+    trim: bool = False  # sizing: plan trimmers and their calibration (planner.trim)
 
 
 @dataclass(frozen=True)

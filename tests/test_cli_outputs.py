@@ -336,3 +336,47 @@ def test_hostile_diode_files_raise_no_numpy_warning(tmp_path):
         assert r.returncode == (1 if key in ("scrambled", "resistor") else 2), r.stderr
         assert "internal error" not in r.stderr, r.stderr
         assert time.perf_counter() - t0 < 2 * LIMIT_S
+
+
+#: The commands that write files and the options naming them: the written file is always
+#: -o/--output (the same name for the same thing in every command); a second file has its
+#: own name (--bom, --svg).
+WRITERS = {"size": (), "protect": (), "dossier": ("--bom",), "scale": ("--svg",), "netlist": ()}
+
+
+def _subparsers():
+    import argparse
+
+    from planner.cli import build_parser
+
+    action = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
+    return action.choices
+
+
+def test_every_command_that_writes_names_its_file_with_o_output():
+    for name, sub in _subparsers().items():
+        opts = {s: a for a in sub._actions for s in a.option_strings}
+        if name in WRITERS:
+            assert "-o" in opts and opts["-o"] is opts.get("--output"), name  # one option, both names
+            assert opts["-o"].dest == "output", name
+            for extra in WRITERS[name]:
+                assert extra in opts, (name, extra)
+        else:  # a command that writes no file has no -o to confuse
+            assert "-o" not in opts and "--output" not in opts, name
+
+
+def test_every_file_written_is_named_on_stderr(tmp_path):
+    src = tmp_path / "s.yaml"
+    src.write_text(SIZED, encoding="utf-8")
+    for argv, files in (
+        (["size", src, "-o", tmp_path / "net.yaml"], ["net.yaml"]),
+        (["size", src, "--output", tmp_path / "net2.yaml"], ["net2.yaml"]),
+        (["netlist", VOLTMETER, "--position", "10 V", "--output", tmp_path / "ten.cir"], ["ten.cir"]),
+        (["scale", VOLTMETER, "-o", tmp_path / "plate.pdf", "--svg", tmp_path / "plate.svg"],
+         ["plate.pdf", "plate.svg"]),
+    ):
+        run = run_cli(argv, tmp_path / "cwd")
+        assert run.returncode in (0, 1), run.stderr
+        wrote = [line for line in run.stderr.splitlines() if line.startswith("wrote ")]
+        assert wrote == [f"wrote {tmp_path / f}" for f in files], run.stderr
+        assert all((tmp_path / f).stat().st_size > 0 for f in files)

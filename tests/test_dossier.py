@@ -489,6 +489,54 @@ def test_the_dossier_command_names_every_file_it_writes(tmp_path, capsys):
     assert capsys.readouterr().err.splitlines() == [f"wrote {pdf}", f"wrote {bom}"]
 
 
+TRIMMED = """\
+title: Trimmed three-range voltmeter (an invented scenario)
+movement: {full_scale_current: 50 uA, coil_resistance: 2 kohm, class: 1, tolerance: 2 %, full_scale_tolerance: 1 %}
+ambient: {reference: 23 degC, min: 15 degC, max: 31 degC}
+parts:
+  resistors: {series: E96, tolerance: 1 %, tempco: 25 ppm/K, power: 0.25 W, max_voltage: 250 V}
+voltage: {arrangement: chain, full_scales: [2.5 V, 10 V, 50 V]}
+analysis: {trim: true, samples: 50}
+"""
+
+
+def test_a_builder_can_wire_trim_and_probe_from_the_dossier(tmp_path):
+    """The builder's pages: a wiring table per deck with its wafer drawing, the calibration
+    steps of the check in order, and test points named by the parts' pins; still no text
+    under 6 pt and no thin page inside a section."""
+    from planner.design import build
+    from planner.testpoints import pin_names
+    from planner.wiring import wire_switch
+
+    if shutil.which("pdftotext") is None:
+        pytest.skip("pdftotext (poppler-utils) is not installed")
+    path = tmp_path / "trimmed.yaml"
+    path.write_text(TRIMMED, encoding="utf-8")
+    spec = load(path)
+    pdf = build_dossier(spec, tmp_path / "trimmed.pdf", samples=50)
+    text = _norm(subprocess.run(["pdftotext", "-layout", str(pdf), "-"], check=True, capture_output=True,
+                                text=True).stdout)
+    design = build(spec)
+    wiring = wire_switch(design.net, design.net.contact_style)
+    assert "Switch wiring" in text
+    for deck in range(1, wiring.decks + 1):
+        assert f"Deck {deck}" in text
+        for pole in wiring.deck_poles(deck):
+            assert f"pole {pole.pole}: common {pole.common}" in text  # the wafer drawing's label
+            for t in pole.contacts:
+                assert f"{t.position}: {t.node}" in text  # each terminal drawn with its position and node
+    trims = design.sizing.trims
+    assert trims  # the sizer planned trimmers for this example
+    for t in trims:  # each calibration step, in order, names its position and its trimmer
+        assert f"adjust {t.part} (" in text and f"Set the switch to {t.position}" in text
+    order = [text.index(f"adjust {t.part} (") for t in trims]
+    assert order == sorted(order)
+    for node, info in pin_names(design.net).items():  # every node named by its pins in the test points
+        assert _norm(f"{node}: {info['name']}")[:30] in text
+    runs = _page_texts(pdf)
+    assert min(size for page in runs for size, _, _ in page) >= MIN_PRINT_PT - 1e-6
+
+
 def test_ohms_positions_in_every_section_rendered_without_solving(tmp_path, monkeypatch):
     """``planner dossier`` of the pocket multimeter: each ohms position's page (centre, centre error,
     open-circuit voltage, short-circuit current, the non-linear scale), the zeroing step and the reference

@@ -163,7 +163,8 @@ def test_retrim_needs_an_explicit_network(capsys):
         retrim(spec)
     assert main(["size", str(BENCH), "--retrim"]) == 2
     assert main(["size", str(WORN), "--retrim", "--write-network", "out.yaml"]) == 2
-    assert "--write-network" in capsys.readouterr().err
+    assert "-o/--output" in capsys.readouterr().err
+    assert main(["size", str(WORN), "--retrim", "-o", "out.yaml"]) == 2  # the same option by its short name
     assert main(["size", str(WORN), "--retrim", "--series", "E5"]) == 2
 
 

@@ -18,6 +18,8 @@ from ..engine import Engine
 from ..errors import SolveError, UsageError
 from ..findings import design_findings
 from ..model import Spec
+from ..testpoints import test_points_at
+from ..trim import calibrated_check
 from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, TEMPERATURE_SOURCE
 from .ohms import check_ohms_position
 from .position import check_position
@@ -152,8 +154,14 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     }
     if source_impedance_ohm is not None:
         result["source_impedance_ohm"] = source_impedance_ohm
-    outside = [p["name"] for p in positions if p["verdict"] != "within class"]
-    result["positions_outside_class"] = outside
+    result["test_points"] = test_points_at(engine.net, {q: a.node_voltages_v for q, a in arrays.items()})
+    trims = tuple(getattr(design.sizing, "trims", ()) or ()) if spec.analysis.trim else ()
+    if spec.analysis.trim:  # the calibration simulated (planner.trim); the verdicts after trimming decide
+        say("calibration: trimmers set at their positions")
+        result.update(calibrated_check(run, trims, params, positions, float(spec.movement.class_index), int(seed)))
+    verdict = "verdict_after_trim" if trims else "verdict"
+    outside = [p["name"] for p in positions if p.get(verdict, p["verdict"]) != "within class"]
+    result["positions_outside_class"] = outside  # after trimming, where trimmers are planned
     result["requirements_met"] = not outside
     result["findings"] = design_findings(design, engine)  # ratings at full scale (planner.findings)
     _assert_finite(result)

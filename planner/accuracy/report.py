@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..ohms_check import ohms_lines
+from ..trim import format_trim
 from ..model import ZERO_CELSIUS_K
 from ..ranges.ac_report import format_ac_figures
 from ..units import format_si
@@ -98,6 +99,7 @@ def format_check(result: dict) -> str:
     lines += ohms_lines(result)
     lines.append(f"builds with every position within class: {result['instrument_yield_fraction'] * 100:.1f} %")
     lines += format_ac_figures(result["positions"])
+    lines += format_trim(result)  # analysis.trim: the worst case after trimming and the calibration steps
     lines += ["", f"budget rule: {result['budget_rule']}"]
     if result["requirements_met"]:
         lines.append("RESULT: requirement met - every position within class")

@@ -38,6 +38,7 @@ from ..design import Design, as_design
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
 from ..sizing import sizing_json
+from ..wiring import choose_style, wire_switch
 from . import layout, restoration as restoration_section, scaleplate, sections
 from .sections import Context
 
@@ -118,6 +119,9 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.faults = faults.faults_project(design)
     except Exception as exc:  # noqa: BLE001 - shown in the dossier
         ctx.errors["faults"] = _error_text(exc)
+    if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
+        style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
+        ctx.wiring = wire_switch(design.net, style, style_source=source)
     extra = [c for c in faults.cautions_for(spec) if c not in ctx.cautions]
     ctx.cautions += extra
     return ctx

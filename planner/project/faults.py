@@ -22,7 +22,7 @@ __all__ = ["FAULTS_KEYS", "SOURCE_KEYS", "ACCEPT_KEYS", "ANALYSIS_KEYS", "read_f
 FAULTS_KEYS = ("sources", "max_input", "category", "accept")
 SOURCE_KEYS = ("name", "voltage", "current", "waveform", "impedance", "current_limit", "compliance", "frequency")
 ACCEPT_KEYS = ("position", "stimulus", "reason")
-ANALYSIS_KEYS = ("samples", "seed", "allowed_share")
+ANALYSIS_KEYS = ("samples", "seed", "allowed_share", "trim")
 
 
 def _source_extras(ctx: Reader, s, where: str, kind: str, waveform: str):
@@ -162,4 +162,4 @@ def read_analysis(ctx: Reader, node: Node | None) -> model.Analysis:
             f"analysis.allowed_share is {share:g}; it is a share of the class, at most 1 (100 %)",
             m.get("allowed_share").line,
         )
-    return model.Analysis(samples=samples, seed=seed, allowed_share=share)
+    return model.Analysis(samples=samples, seed=seed, allowed_share=share, trim=m.boolean("trim", False))

@@ -7,6 +7,8 @@ The JSON fields marked contract in the design are listed at :func:`sizing_json`.
 from __future__ import annotations
 
 from .. import writer
+from ..testpoints import linear_test_points
+from ..wiring import wire_switch, wiring_json
 from ..errors import ProjectError
 from ..model import Spec
 from ..tools import fmt, json_safe
@@ -15,12 +17,16 @@ from .result import Sizing
 __all__ = ["sizing_json", "network_yaml", "format_sizing_table"]
 
 
-def sizing_json(sizing: Sizing) -> dict:
+def sizing_json(sizing: Sizing, spec: Spec | None = None) -> dict:
     """The sizing as a JSON-ready dict (SI units, unit in each field's name).
 
     Contract fields: ``segments[]`` with ``name``, ``target_ohm``, ``achieved_ohm``,
     ``parts[]`` (``name``, ``value_ohm``, ``series``, ``trimmer``),
-    ``power_required_w``, ``voltage_required_v``. A figure that is not finite
+    ``power_required_w``, ``voltage_required_v``; ``switch.poles[]`` (``deck``,
+    ``pole``, ``common``, ``contacts[]`` with ``position`` and ``node``: the
+    wiring of :func:`planner.wiring.wire_switch`); with ``spec``, ``test_points[]``
+    (:func:`planner.testpoints.linear_test_points`: each node named by the parts'
+    pins, its voltage at full scale by the linear estimate). A figure that is not finite
     (the nominal error of a position the estimate could not solve) is null.
     """
     segs = []
@@ -62,6 +68,11 @@ def sizing_json(sizing: Sizing) -> dict:
                 "cautions": list(s.cautions),
             }
         )
+    extra = {"test_points": linear_test_points(spec, sizing.network)} if spec is not None else {}
+    if sizing.trims:  # analysis.trim: the calibration points (planner check simulates them)
+        extra["trim"] = [{"order": t.order, "part": t.part, "fixed": t.fixed, "segment": t.segment,
+                          "position": t.position, "applied": t.applied, "range_ohm": list(t.range_ohm),
+                          "trimmer_ohm": t.span_ohm, "setting_ohm": t.setting_ohm} for t in sizing.trims]
     return json_safe({
         "series": sizing.series,
         "allowed_error_pct": sizing.allowed_error_pct,
@@ -80,9 +91,11 @@ def sizing_json(sizing: Sizing) -> dict:
             }
             for p in sizing.positions
         ],
+        "switch": wiring_json(wire_switch(sizing.network, sizing.network.contact_style)),
         "flags": list(sizing.flags),
         "cautions": list(sizing.cautions),
         "notes": list(sizing.notes),
+        **extra,
         "requirements_met": sizing.requirements_met,
     })
 

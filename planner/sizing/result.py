@@ -134,6 +134,7 @@ class Sizing:
     network: NetworkSpec
     max_input_v: float | None = None
     notes: tuple[str, ...] = ()
+    trims: tuple = ()  # planner.trim.Trim, in calibration order (analysis.trim)
 
     @property
     def flags(self) -> tuple[str, ...]:

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from ..model import NetworkSpec, Spec
 from ..tools import fmt
+from ..trim import plan_trims
 from .assemble import PartRow, assemble
 from .layout import Layout, SegmentPlan, lay_out
 from .ratings import Rate, Stress, initial_rate, rating_ladder, revise_rates, stresses
@@ -90,7 +91,7 @@ def size(spec: Spec) -> Sizing:
     _check_catalogue(req)
     rates, st0 = _first_rates(req)
     choices, net, seg_parts, st = _settle(req, rates, st0)
-    return _result(req, choices, rates, net, seg_parts, st)
+    return plan_trims(spec, _result(req, choices, rates, net, seg_parts, st))
 
 
 def _check_catalogue(req: _Request) -> None:

@@ -87,7 +87,12 @@ def bom_rows(ctx: Context) -> list[dict]:
                        tempco_ppm_per_k=1e6 * e.tempco_per_k, power_rated_w=e.power_w, voltage_rated_v=e.max_voltage_v)
             row["series"] = e.series or _series_of(spec, e.value_ohm)
             sp = sized.get(e.name)
-            if e.trimmer or (sp and sp.get("trimmer")):
+            if sp and sp.get("trimmer"):  # planner.trim: the part is the trimmer, set in calibration
+                row.update(value=f"{value_text(sp['value_ohm'], 'ohm')} trimmer", value_si=sp["value_ohm"],
+                           series="trimmer", tolerance_pct=None)
+                row["notes"].append(f"set to about {value_text(e.value_ohm, 'ohm')} in calibration "
+                                    f"(section {ctx.number('Build and acceptance')})")
+            elif e.trimmer:
                 row["notes"].append("trimmer / select on test")
             if e.target_ohm is not None and abs(e.target_ohm - e.value_ohm) > 1e-9 * e.target_ohm:
                 row["notes"].append(f"target {value_text(e.target_ohm, 'ohm', 5)}")

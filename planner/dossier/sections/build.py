@@ -6,6 +6,7 @@ import numpy as np
 from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer
 
 from ...model import Diode, Resistor
+from ...testpoints import pin_names
 from ..layout import RULE, STYLES, caution_box, esc, p, table
 from ..text import celsius, hazard_reminder, is_hazardous, quantity, value_text
 from . import ohms
@@ -65,6 +66,9 @@ def build(ctx: Context) -> list:
         steps.append("Voltage ranges next, lowest range first: " + ", ".join(q.name for q in vpos) + ". In a "
                      "multiplier chain every higher range includes the lower segments, so a segment is only trimmed "
                      "after the ranges below it read correctly.")
+    calibration = (ctx.check or {}).get("calibration") or []
+    if calibration:  # planner.trim: the trimmers in order, each at its own position (DC ranges)
+        steps += [c.split(". ", 1)[1] for c in calibration]
     acpos = [q for q in net.positions if q.measures in ("ac_voltage", "ac_current")]
     if acpos:
         steps.append("AC ranges after the DC ones: " + ", ".join(q.name for q in acpos) + ". Apply a sine of known "
@@ -74,10 +78,10 @@ def build(ctx: Context) -> list:
     rpos = [q for q in net.positions if ohms.is_ohms(q)]
     if rpos:
         steps.append(ohms.zeroing_step(ctx, rpos))
-    if trims:
+    if not calibration and trims:
         steps.append("Trim positions: " + ", ".join(trims) + " (marked in the bill of materials); adjust each "
                      "at full scale of the lowest range that uses it.")
-    else:
+    elif not calibration:
         steps.append("No trimmer is planned. If a range misses the acceptance limits, select the value of its own "
                      "segment on test (the resistor between its tap and the tap below) rather than touching a lower "
                      "segment.")
@@ -95,16 +99,19 @@ def build(ctx: Context) -> list:
         out.append(caution_box(title, lines))
         out.append(Spacer(1, 4))
     out.append(p("Voltage of each node against the input's minus terminal with the full-scale value applied to each "
-                 "position (nominal parts, reference temperature). Node names are those of the schematic. A dash: "
-                 "the node is not connected in that position.", "small"))
-    names = [q.name for q in net.positions]
+                 "position (nominal parts, reference temperature). Node names are those of the schematic, each with "
+                 "the part pin to probe. A dash: the node is not connected in that position.", "small"))
+    names = [q.name for q in net.positions if any((n, q.name) in volts for n in nodes)]  # none: no column
+    pins = pin_names(net)  # planner.testpoints: each node named by the parts' pins on it
     per = 6
     for start in range(0, len(names), per):
         chunk = names[start:start + per]
         rows = []
         for n in nodes:
-            rows.append([n] + [quantity(volts[(n, q)], "V", 4) if (n, q) in volts else None for q in chunk])
-        out.append(table(["Node"] + chunk, rows, [0.16] + [0.84 / per] * len(chunk), align="l" + "r" * len(chunk)))
+            where = f"{n}: {pins[n]['name']}" if n in pins else n
+            rows.append([where] + [quantity(volts[(n, q)], "V", 4) if (n, q) in volts else None for q in chunk])
+        out.append(table(["Node: probe at"] + chunk, rows, [0.28] + [0.72 / per] * len(chunk),
+                         align="l" + "r" * len(chunk)))
         out.append(Spacer(1, 6))
     # acceptance
     out.append(CondPageBreak(220))

@@ -5,7 +5,7 @@ from __future__ import annotations
 from reportlab.platypus import CondPageBreak, PageBreak
 
 from ...model import Contact
-from .. import layout, schematic as sch
+from .. import layout, schematic as sch, wafer
 from ..layout import FRAME_WIDTH, esc, p, table
 from ..text import value_text
 from .context import Context
@@ -53,6 +53,7 @@ def schematic(ctx: Context) -> list:
     else:
         text += " Both make-before-break and break-before-make are checked in section 6."
     out.append(p(esc(text), "caption"))
+    out += wafer.wiring_flowables(ctx.wiring)
     out.append(p("Connection list", "h2"))
     out.append(table(["Node", "Pins on it"], [list(r) for r in sch.connection_rows(net)], [0.2, 0.8]))
     out.append(PageBreak())

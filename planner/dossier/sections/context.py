@@ -35,6 +35,8 @@ class Context:
         The accuracy check with the arrays it keeps (Monte Carlo errors, the
         sweep, node voltages and part stresses at full scale); None when it
         failed.
+    wiring : planner.wiring.Wiring or None
+        The range switch's wiring (every contact on a pole of a deck).
     errors : dict of str -> str
         Analysis name -> error text, for every analysis that raised.
     cautions : list of str
@@ -53,6 +55,7 @@ class Context:
     sizing: dict | None = None
     check: dict | None = None
     faults: dict | None = None
+    wiring: object = None  # planner.wiring.Wiring (computed in gather), rendered by planner.dossier.wafer
     errors: dict = field(default_factory=dict)
     cautions: list = field(default_factory=list)
     samples: int = 0
