@@ -171,16 +171,26 @@ def _bridge_mean(v_rms, r1, r_m, i_s, nvt, r_s):
 
     guess = [np.zeros(3)]
 
-    def movement(theta):
-        v = math.sqrt(2.0) * v_rms * math.sin(theta)
-
+    def solve_at(v, x0):
         def kcl(x):
             a, dc, com = x
             return [(v - a) / r1 + diode(com - a) - diode(a - dc),
                     diode(a - dc) + diode(0.0 - dc) - (dc - com) / r_m,
                     (dc - com) / r_m - diode(com - a) - diode(com - 0.0)]
 
-        x = fsolve(kcl, guess[0], xtol=1e-12)
+        x, info, ier, _ = fsolve(kcl, x0, xtol=1e-12, full_output=True)
+        # fsolve may stop short of xtol where its step is below the rounding of the node
+        # voltages: accepted only with Kirchhoff's law met to a femtoampere
+        return x, ier == 1 or np.max(np.abs(info["fvec"])) < 1e-15
+
+    def movement(theta):
+        v = math.sqrt(2.0) * v_rms * math.sin(theta)
+        x, ok = solve_at(v, guess[0])
+        if not ok:  # a cold start far up the diode law: walk the source up from zero instead
+            x = np.zeros(3)
+            for step in np.linspace(0.0, v, 41)[1:]:
+                x, ok = solve_at(step, x)
+            assert ok, (theta, v)
         guess[0] = x
         return (x[1] - x[2]) / r_m
 
