@@ -231,9 +231,11 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         crest = math.sqrt(2.0) if pos.kind.waveform == "sine" else 1.0
         _add_parts(st, dv, values, fs, powers, crest)
         _add_segments(st, dv, seg_parts, label, fs, powers, crest)
-        if fs and pos.kind.source == "current" and vmax is not None and lin.last_input_v > 0.0:
-            # the maximum input voltage across a current position: its current is vmax / R_in (linear,
-            # diodes open), and its parts carry that pulse until the fuse ahead of them clears
+        separate = pos.kind.waveform != "dc" or (spec.current is not None and spec.current.arrangement == "separate")
+        if fs and separate and pos.kind.source == "current" and vmax is not None and lin.last_input_v > 0.0:
+            # the maximum input voltage across a separate (or AC) shunt: its current is vmax / R_in (linear,
+            # diodes open), and its parts carry that pulse until the fuse ahead of them clears (a ring is
+            # left to its crowbar and fuse, judged by the faults analysis)
             dv = lin.solve(pos, value * vmax / lin.last_input_v, shorted)
             if dv is None:
                 continue
