@@ -293,8 +293,8 @@ def test_faults_families_of_ac_and_dc_positions(service):
 
 
 def test_ac_worst_case_bound_covers_every_corner(service):
-    """An AC position with 11 toleranced parameters takes the sensitivity bound (a corner costs a cycle); the
-    bound is never below the largest error over all 2048 corners, enumerated here, and close to it.
+    """An AC position with 10 toleranced parameters takes the sensitivity bound (a corner costs a cycle); the
+    bound is never below the largest error over all 1024 corners, enumerated here, and close to it.
 
     Source: the first-order worst-case bound by linearised sensitivities, checked by corner enumeration
     (common practice in circuit tolerance analysis); the error is monotone in each part here, so the two
@@ -303,7 +303,7 @@ def test_ac_worst_case_bound_covers_every_corner(service):
     from planner.accuracy import MAX_CORNER_PARAMETERS, CountingEngine, current_carrying, worst_case
 
     eng = Engine(service)
-    pos = service.net.position("50 V~")
+    pos = service.net.position("10 V~")
     carrying = current_carrying(eng, pos.name)
     params = [q for q in parameters(eng) if q.element is None or q.element in carrying]
     assert len(params) > pos.kind.corner_parameters

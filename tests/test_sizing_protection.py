@@ -177,3 +177,38 @@ def test_ohms_protection_needs_what_it_guards():
         build(loads(text.replace("rated_current: 160 mA", "rated_current: 50 mA"), "x.yaml"))
     with pytest.raises(ProjectError, match="no resistance section"):
         build(loads(re.sub(r"\nresistance:\n(  .*\n)+", "\n", text).replace("  ohms_crowbar: si_1a\n", ""), "x.yaml"))
+
+
+SERVICE = ROOT / "projects" / "service_multimeter.yaml"
+
+
+@pytest.fixture(scope="module")
+def service():
+    spec = load(SERVICE)
+    return spec, build(spec).net
+
+
+def test_separate_shunt_rated_for_the_max_input_until_the_fuse_clears(service):
+    """The 10 mA~ shunt (R24 + R25, separate, behind F1) with 250 V across the position: the
+    current I ~ 250 V / (R_F1 + R_shunt) clears F1 after t = I2t_clearing / I^2 (IEC 60127-1
+    definitions), so the shunt takes E = I^2 R t = I2t_clearing x R_shunt, whatever the current:
+    0.05 A^2 s x 291.3 ohm = 14.6 J. Of the file's ratings (pulse energies 10 mJ, 2 J, 50 mJ, 30 J,
+    invented figures) only the 3 W part's 30 J carries it (6.25 x P t for t = 69 ms stays below
+    14.6 J for the others; IEC 60115-1 short-time overload, from memory)."""
+    spec, net = service
+    shunt = [e for e in net.elements if isinstance(e, m.Resistor) and e.group == "AC shunt 10 mA~"]
+    r = sum(e.value_ohm for e in shunt)
+    energy = spec.parts.fuses["ceramic_200mA"].clearing_i2t_a2s * r
+    np.testing.assert_allclose(energy, 14.6, rtol=0.01)  # J, by hand (1 % for the E96 rounding)
+    assert all(e.power_w == 3.0 for e in shunt)
+
+
+def test_ac_chain_parts_rated_for_the_peak_of_the_max_input_sine(service):
+    """250 V rms on the 50 V~ position with the bridge conducting: each chain part takes at most
+    sqrt(2) x 250 V x R_part / R_path of the 354 V peak (a voltage divider; R_path the chain from the
+    input to the 50 V~ node), and no part may exceed its limiting element voltage (IEC 60115-1)."""
+    spec, net = service
+    path = [e for e in net.elements if isinstance(e, m.Resistor) and e.group in ("AC chain 10 V~", "AC chain 50 V~")]
+    r_path = sum(e.value_ohm for e in path)
+    for e in path:
+        assert np.sqrt(2.0) * 250.0 * e.value_ohm / r_path <= e.max_voltage_v, e.name

@@ -26,7 +26,7 @@ from ..parts.resistor import SHORT_OVERLOAD_POWER_FACTOR, SHORT_OVERLOAD_S
 from ..solve import Junctions, solve
 from ..tools import fmt
 from .assemble import PartRow
-from .layout import COM, Layout, SegmentPlan
+from .layout import COM, PLUS, Layout, SegmentPlan
 from .sections.rectifier import nominal_error
 from .request import line_of_key, request_error
 from .values import CATALOG_MAX_OHM
@@ -66,6 +66,7 @@ class LinearNetwork:
         self._conducting = tuple(Contact(f"__conducting_{e.name}", *e.nodes, ac)
                                  for e in net.elements if e.stamp == "junction") if ac else ()
         self._nets: dict[tuple, NetworkSpec] = {}
+        self.last_input_v = 0.0  # the input terminals' voltage of the last solve [V]
 
     def _net(self, shorted) -> NetworkSpec:
         key = tuple(shorted)
@@ -105,7 +106,9 @@ class LinearNetwork:
             i = c.node_index.get(node)
             return np.zeros((1, 1)) if i is None else sol.node_voltage(i)
 
-        return {e.name: float((v(e.nodes[0]) - v(e.nodes[1]))[0, 0]) for e in self.elements if e.rated}
+        out = {e.name: float((v(e.nodes[0]) - v(e.nodes[1]))[0, 0]) for e in self.elements if e.rated}
+        self.last_input_v = float((v(PLUS) - v(COM))[0, 0])  # the voltage at the input terminals [V]
+        return out
 
 
 def rating_cases(spec: Spec, layout: Layout):
@@ -208,6 +211,7 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     st.seg_case = [""] * nseg
     values = {e.name: e.value_ohm for e in net.elements if isinstance(e, Resistor)}
     m = spec.movement
+    vmax = spec.faults.max_input_v
     for label, pos, value, shorted, fs in rating_cases(spec, layout):
         dv = lin.solve(pos, value, shorted)
         if dv is None:
@@ -222,9 +226,26 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         if t_act is not None:  # a protective part acts first: each part rated for the pulse until it does
             powers = {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
             label += f" (until the protection acts, {t_act:.3g} s)"
-        crest = math.sqrt(2.0) if fs and pos.kind.waveform == "sine" else 1.0
+        # an AC position is read with a sine, and the maximum input comes as a sine too (faults' max input
+        # sine): the peak is what the limiting element voltage is held against
+        crest = math.sqrt(2.0) if pos.kind.waveform == "sine" else 1.0
         _add_parts(st, dv, values, fs, powers, crest)
         _add_segments(st, dv, seg_parts, label, fs, powers, crest)
+        separate = pos.kind.waveform != "dc" or (spec.current is not None and spec.current.arrangement == "separate")
+        if fs and separate and pos.kind.source == "current" and vmax is not None and lin.last_input_v > 0.0:
+            # the maximum input voltage across a separate (or AC) shunt: its current is vmax / R_in (linear,
+            # diodes open), and its parts carry that pulse until the fuse ahead of them clears (a ring is
+            # left to its crowbar and fuse, judged by the faults analysis)
+            dv = lin.solve(pos, value * vmax / lin.last_input_v, shorted)
+            if dv is None:
+                continue
+            t_act = protective_time(spec, net, dv)
+            powers = None if t_act is None else {
+                n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
+            mlabel = f"{fmt(vmax, 'V')} max input on {pos.name}" + (
+                "" if t_act is None else f" (until the protection acts, {t_act:.3g} s)")
+            _add_parts(st, dv, values, False, powers)
+            _add_segments(st, dv, seg_parts, mlabel, False, powers)
     for label, pos, value, shorted in impulse_cases(spec, layout):  # peak voltage only: no heating
         dv = lin.solve(pos, value, shorted)
         if dv is not None:
