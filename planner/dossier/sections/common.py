@@ -5,12 +5,14 @@ from __future__ import annotations
 import math
 import re
 
+import numpy as np
 from reportlab.platypus import Paragraph
 
 from ...stress import describe_stress
+from .. import charts
 from ..layout import INK, STYLES, VERDICT_FILL, VERDICT_TEXT, esc, note_box
 from ..text import is_hazardous, value_text
-from .context import VERDICT_ORDER, Context
+from .context import CHART_H, CHART_W, VERDICT_ORDER, Context
 
 
 # --- helpers -----------------------------------------------------------------------------------------
@@ -158,3 +160,22 @@ def axis_scale(fs: float):
         if abs(fs) < 1000 * factor:
             return factor, prefix
     return 1.0, ""
+
+
+def mc_histogram(ctx: Context, name: str, q: dict | None, title: str, x_label: str):
+    """Histogram of a position's Monte Carlo errors (``arrays(name).mc_error_pct``) against the class."""
+    arr = ctx.arrays(name)
+    if not q or arr is None or arr.mc_error_pct.size == 0:
+        return charts.message_drawing(CHART_W, CHART_H, "Monte Carlo", why(ctx, "check"))
+    cls = ctx.spec.movement.class_index
+    err = arr.mc_error_pct
+    lo, hi = float(np.min(err)), float(np.max(err))
+    if hi - lo < 1e-9:
+        lo, hi = lo - 0.01, hi + 0.01
+    edges = np.linspace(lo, hi, 25)
+    counts, _ = np.histogram(err, bins=edges)
+    mc = (q.get("monte_carlo") or {}).get("full_scale_error_pct") or {}
+    note = (f"yield {100 * q.get('yield_fraction', float('nan')):.1f} % of {ctx.samples} builds; "
+            f"mean {mc.get('mean', float('nan')):+.3f} %, sd {mc.get('std', float('nan')):.3f} %")
+    limits = [(-cls, f"class -{cls:g} %"), (cls, f"class +{cls:g} %")]
+    return charts.histogram(CHART_W, CHART_H, title, x_label, list(edges), list(counts), limits=limits, note=note)

@@ -11,13 +11,12 @@ the arc marks that far either side of the reference resistor's mark.
 
 from __future__ import annotations
 
-import numpy as np
 from reportlab.platypus import Table
 
 from .. import charts
 from ..layout import table
 from ..text import pct, pct_abs, quantity, value_text
-from .common import axis_scale, verdict_fill, why
+from .common import axis_scale, mc_histogram, verdict_fill, why
 from .context import CHART_H, CHART_W, Context
 
 
@@ -107,22 +106,8 @@ def error_chart(ctx: Context, q: dict):
 
 def mc_chart(ctx: Context, name: str, q: dict):
     """Histogram of the centre error of the Monte Carlo builds [% of scale length]."""
-    arr = ctx.arrays(name)
-    if arr is None or arr.mc_error_pct.size == 0:
-        return charts.message_drawing(CHART_W, CHART_H, "Monte Carlo", why(ctx, "check"))
-    cls = ctx.spec.movement.class_index
-    err = arr.mc_error_pct
-    lo, hi = float(np.min(err)), float(np.max(err))
-    if hi - lo < 1e-9:
-        lo, hi = lo - 0.01, hi + 0.01
-    edges = np.linspace(lo, hi, 25)
-    counts, _ = np.histogram(err, bins=edges)
-    st = (q.get("monte_carlo") or {}).get("full_scale_error_pct") or {}
-    note = (f"yield {100 * q.get('yield_fraction', float('nan')):.1f} % of {ctx.samples} builds; "
-            f"mean {st.get('mean', float('nan')):+.3f} %, sd {st.get('std', float('nan')):.3f} %")
-    return charts.histogram(CHART_W, CHART_H, "Monte Carlo: error at the centre of the builds",
-                            "error at the centre [% of scale length]", list(edges), list(counts),
-                            limits=[(-cls, f"class -{cls:g} %"), (cls, f"class +{cls:g} %")], note=note)
+    return mc_histogram(ctx, name, q, "Monte Carlo: error at the centre of the builds",
+                        "error at the centre [% of scale length]")
 
 
 def marks_table(ctx: Context, q: dict) -> Table:

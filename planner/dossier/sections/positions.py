@@ -10,7 +10,7 @@ from ..layout import MUTED, RULE, Heading, caution_box, p, table
 from ..text import celsius, hazard_reminder, pct, pct_abs, quantity, value_text
 from .context import CHART_H, CHART_W, Context
 from . import ohms
-from .common import axis_scale, error_note, hazardous_position, verdict_fill, why
+from .common import axis_scale, error_note, hazardous_position, mc_histogram, verdict_fill, why
 
 
 # --- 5: positions -------------------------------------------------------------------------------------------
@@ -120,22 +120,8 @@ def _protection_chart(ctx: Context, curves: list[dict]):
 
 def _mc_chart(ctx: Context, name: str, q: dict | None, cls: float):
     """Histogram of the full-scale errors of the accuracy check's Monte Carlo builds."""
-    arr = ctx.arrays(name)
-    if not q or arr is None or arr.mc_error_pct.size == 0:
-        return charts.message_drawing(CHART_W, CHART_H, "Monte Carlo", why(ctx, "check"))
-    err = arr.mc_error_pct
-    lo, hi = float(np.min(err)), float(np.max(err))
-    if hi - lo < 1e-9:
-        lo, hi = lo - 0.01, hi + 0.01
-    edges = np.linspace(lo, hi, 25)
-    counts, _ = np.histogram(err, bins=edges)
-    mc = (q.get("monte_carlo") or {}).get("full_scale_error_pct") or {}
-    note = (f"yield {100 * q.get('yield_fraction', float('nan')):.1f} % of {ctx.samples} builds; "
-            f"mean {mc.get('mean', float('nan')):+.3f} %, sd {mc.get('std', float('nan')):.3f} %")
-    limits = [(-cls, f"class -{cls:g} %"), (cls, f"class +{cls:g} %")]
-    return charts.histogram(CHART_W, CHART_H, "Monte Carlo: full-scale error of the builds",
-                            "error at full scale [% of full scale]", list(edges), list(counts), limits=limits,
-                            note=note)
+    return mc_histogram(ctx, name, q, "Monte Carlo: full-scale error of the builds",
+                        "error at full scale [% of full scale]")
 
 
 def _accuracy_table(ctx: Context, q: dict) -> Table:
