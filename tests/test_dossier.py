@@ -339,6 +339,20 @@ def test_the_dossier_command_sizes_once_and_renders_without_solving(tmp_path, mo
     accuracy check's arrays). Counted by wrapping the sizer, ``planner.design.build``,
     every entry to the solver and the Engine's constructor.
     """
+    out = tmp_path / "multimeter.pdf"
+    counts = _dossier_counting_solves(monkeypatch, ROOT / "projects" / "bench_multimeter.yaml", out, 50)
+    assert out.stat().st_size > 0
+    assert counts["size"] == 1 and counts["build"] == 1
+    assert counts["solve_analyses"] > 0  # the counter sees the analyses' solves
+    assert counts["solve_render"] == 0 and counts["engine_render"] == 0
+
+
+def _dossier_counting_solves(monkeypatch, project, out, samples: int) -> dict:
+    """Run ``planner dossier`` with every sizing, Design build, solver entry and Engine counted.
+
+    Returns the counts: ``size``, ``build``, ``solve_analyses`` and ``solve_render`` (solver
+    calls while the analyses run and while the PDF is laid out) and ``engine_render``.
+    """
     import planner.design
     import planner.dossier
     import planner.engine
@@ -378,13 +392,8 @@ def test_the_dossier_command_sizes_once_and_renders_without_solving(tmp_path, mo
             phase[0] = "analyses"
 
     monkeypatch.setattr(planner.dossier, "render", rendering)
-    out = tmp_path / "multimeter.pdf"
-    assert main(["dossier", str(ROOT / "projects" / "bench_multimeter.yaml"), "-o", str(out),
-                 "--samples", "50"]) == 0
-    assert out.stat().st_size > 0
-    assert counts["size"] == 1 and counts["build"] == 1
-    assert counts["solve_analyses"] > 0  # the counter sees the analyses' solves
-    assert counts["solve_render"] == 0 and counts["engine_render"] == 0
+    assert main(["dossier", str(project), "-o", str(out), "--samples", str(samples)]) == 0
+    return counts
 
 
 def test_acceptance_and_histogram_come_from_the_check(tmp_path):
@@ -541,38 +550,9 @@ def test_ohms_positions_in_every_section_rendered_without_solving(tmp_path, monk
     """``planner dossier`` of the pocket multimeter: each ohms position's page (centre, centre error,
     open-circuit voltage, short-circuit current, the non-linear scale), the zeroing step and the reference
     resistors of the acceptance tests, the ohms arc on the plate; no solve and no Engine while rendering."""
-    import planner.dossier
-    import planner.engine
-    import planner.solve
-    from planner.cli import main
-
-    counts = {"analyses": 0, "render": 0, "engine_render": 0}
-    phase = ["analyses"]
-    for mod in (planner.solve, planner.engine):
-        fn = mod.solve
-
-        def wrapped(*args, _fn=fn, **kwargs):
-            counts[phase[0]] += 1
-            return _fn(*args, **kwargs)
-        monkeypatch.setattr(mod, "solve", wrapped)
-    engine_init = planner.engine.Engine.__init__
-
-    def init(self, *args, **kwargs):
-        counts["engine_render"] += phase[0] == "render"
-        engine_init(self, *args, **kwargs)
-    monkeypatch.setattr(planner.engine.Engine, "__init__", init)
-    render = planner.dossier.render
-
-    def rendering(*args, **kwargs):
-        phase[0] = "render"
-        try:
-            return render(*args, **kwargs)
-        finally:
-            phase[0] = "analyses"
-    monkeypatch.setattr(planner.dossier, "render", rendering)
     out = tmp_path / "pocket.pdf"
-    assert main(["dossier", str(ROOT / "projects" / "pocket_ohmmeter.yaml"), "-o", str(out), "--samples", "40"]) == 0
-    assert counts["analyses"] > 0 and counts["render"] == 0 and counts["engine_render"] == 0
+    counts = _dossier_counting_solves(monkeypatch, ROOT / "projects" / "pocket_ohmmeter.yaml", out, 40)
+    assert counts["solve_analyses"] > 0 and counts["solve_render"] == 0 and counts["engine_render"] == 0
     text = _norm("\n".join(p.extract_text() or "" for p in PdfReader(str(out)).pages))
     for name in ("R 20 ohm", "R 200 ohm", "R 2 kohm", "R 20 kohm"):
         assert f"Position {name} \u2013 resistance, centre" in text

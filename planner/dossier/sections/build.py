@@ -69,7 +69,7 @@ def build(ctx: Context) -> list:
     calibration = (ctx.check or {}).get("calibration") or []
     if calibration:  # planner.trim: the trimmers in order, each at its own position (DC ranges)
         steps += [c.split(". ", 1)[1] for c in calibration]
-    acpos = [q for q in net.positions if q.measures in ("ac_voltage", "ac_current")]
+    acpos = [q for q in net.positions if q.kind.waveform == "sine"]  # the AC (rectifier) positions
     if acpos:
         steps.append("AC ranges after the DC ones: " + ", ".join(q.name for q in acpos) + ". Apply a sine of known "
                      "rms (a calibrator, or a low-distortion source checked with a true-rms meter) at 10 %, 50 % and "
@@ -126,7 +126,7 @@ def build(ctx: Context) -> list:
                  "with nominal parts at the reference temperature, clamp leakage included."
                  + (" On the AC positions (<i>rms~</i>) apply a sine of that rms value, 50 Hz, from a low-distortion "
                     "source: the pointer follows the mean and the scale is marked in rms of a sine, so a distorted "
-                    "source reads off by its form factor." if any(q.kind.waveform == "sine" for q in net.positions)
+                    "source reads off by its form factor." if acpos
                     else "")
                  + (" Ohms ranges: zero first (probes shorted), then connect each reference resistor; the class "
                     "is a share of the scale length, so the limits are the values the arc marks that far either "
@@ -174,14 +174,14 @@ def build(ctx: Context) -> list:
         inst.append(f"DC current source (or supply with series resistor and reference ammeter), "
                     f"{value_text(min(q.full_scale for q in ipos) * 0.2, 'A')} to "
                     f"{value_text(max(q.full_scale for q in ipos), 'A')}, uncertainty at most {cls / 4:g} %.")
-    acpos = [q for q in net.positions if q.kind.waveform == "sine"]
     if acpos:
         inst.append(f"AC calibrator, or a low-distortion 50 Hz sine source checked with a true-rms reference meter, "
                     f"up to {value_text(max(q.full_scale for q in acpos if q.kind.source == 'voltage'), 'V')} rms"
                     if any(q.kind.source == "voltage" for q in acpos) else "AC current source (50 Hz sine)")
         inst[-1] += f", distortion under 0.1 % and uncertainty at most {cls / 4:g} % of full scale."
-    if rpos and ohms.reference_resistors(ctx, rpos):
-        inst.append(ohms.reference_resistors(ctx, rpos))
+    references = ohms.reference_resistors(ctx, rpos) if rpos else None
+    if references:
+        inst.append(references)
     inst.append(f"Current source for the bare movement, up to {value_text(spec.movement.i_fs_a * 1.1, 'A')}.")
     inst.append("Digital multimeter (4\u00bd digits or better) for the test-point voltages and the resistor values; "
                 "four-wire resistance for values below 10 ohm.")
