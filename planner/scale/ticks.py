@@ -44,7 +44,7 @@ from .numbers import M125, M1225, dec, display_number, div, is_nice, mantissa, n
 from .text import Text, centred, overlap, runs_for, upright
 
 __all__ = ["KINDS", "ScalePosition", "Response", "ScaleDef", "Band", "RowPosition", "Row", "Tick", "Scale",
-           "place", "rows_of", "display_number", "number_text"]
+           "rows_of", "display_number", "number_text"]
 
 KINDS = ("linear", "ac", "ohms")
 UNITS = ("V", "A", "ohm")

@@ -128,7 +128,6 @@ def rating_cases(spec: Spec, layout: Layout):
         tuple(s) for r in range(len(layout.clamp_nodes) + 1) for s in itertools.combinations(layout.clamp_nodes, r)
     ]
     for p in layout.positions:
-        unit = p.unit
         drive = p.kind.full_scale_drive(p)
         out.append((f"full scale on {p.name}", p, drive, (), True))
         if p.kind.source == "voltage" and vmax is not None and vmax > drive:
