@@ -17,6 +17,7 @@ as it would have in the parent.
 from __future__ import annotations
 
 import os
+import warnings
 from typing import Any, Callable
 
 __all__ = ["beside", "Pending", "cores"]
@@ -46,7 +47,11 @@ class Pending:
         ctx = multiprocessing.get_context("fork")
         recv, send = ctx.Pipe(duplex=False)
         proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send), daemon=True)
-        proc.start()
+        with warnings.catch_warnings():
+            # newer Pythons warn that forking a process with threads (numpy's BLAS pool) may deadlock
+            # in the child; the child here runs numpy only, whose BLAS library re-initialises after a fork
+            warnings.simplefilter("ignore", DeprecationWarning)
+            proc.start()
         send.close()
         self._proc, self._conn = proc, recv
 
