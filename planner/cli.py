@@ -236,7 +236,8 @@ def cmd_faults(args) -> int:
 
     show = _progress(args)
     try:
-        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=show)
+        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=show,
+                                parallel=None)
     finally:
         _end_progress(show)
     _add_cautions(spec, result)

@@ -118,7 +118,7 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.cautions += list(ctx.sizing.get("cautions", []))
     # the misrange matrix on a second core while this one runs the check (the same answer, computed
     # here when there is no second core)
-    matrix = beside(lambda: faults.faults_project(design), _error_text, parallel=parallel)
+    matrix = beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel)
     try:
         say("dossier: accuracy check")
         try:
