@@ -211,7 +211,7 @@ def test_an_analysis_that_raises_is_reported_in_its_section(tmp_path, monkeypatc
 
 def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     """The misrange matrix computed in a child beside the check equals the one computed after it."""
-    import json
+    from jsontree import assert_same_json
 
     from planner.dossier import gather
 
@@ -219,9 +219,8 @@ def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     beside = gather(spec, samples=20, parallel=True)
     after = gather(spec, samples=20, parallel=False)
     assert beside.errors == after.errors == {}
-    assert json.dumps(beside.faults, sort_keys=True, default=str) == json.dumps(after.faults, sort_keys=True,
-                                                                                 default=str)
-    assert beside.check == after.check
+    assert_same_json(beside.faults, after.faults)
+    assert_same_json(beside.check, after.check)
 
 
 def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, monkeypatch):

@@ -16,6 +16,8 @@ from planner.errors import ProjectError
 from planner.faults import (cautions_for, category_impulse, faults_project, format_faults, stimuli_for)
 from planner.stress import assess
 
+from jsontree import assert_same_json
+
 OVERLOAD = m.Overload(peg=1.1, short_time=10.0, continuous=1.2)
 SI = m.DiodeModel("si", i_s_a=5e-9, n=1.9, r_s_ohm=0.5, r_p_ohm=1e9, max_current_a=0.2, surge_current_a=1.0,
                   max_power_w=0.5)
@@ -324,25 +326,8 @@ def test_transitions_judged_beside_the_positions_give_the_same_matrix(name):
     design = _example(name)
     alone = faults_project(design, parallel=False)
     beside = faults_project(design, parallel=True)
-    _same(beside, alone)
+    assert_same_json(beside, alone)
     assert beside["transitions"]  # there were transitions to share out
-
-
-def _same(a, b, path=""):
-    """Equal JSON trees; numbers to rtol 1e-9, atol 1e-15 (threaded linear algebra moves the last digits between
-    processes: seen 2e-8 relative on a current of 2e-13 of full scale through an opened fuse)."""
-    if isinstance(a, dict):
-        assert isinstance(b, dict) and sorted(a) == sorted(b), path
-        for k in a:
-            _same(a[k], b[k], f"{path}/{k}")
-    elif isinstance(a, (list, tuple)):
-        assert isinstance(b, (list, tuple)) and len(a) == len(b), path
-        for i, (x, y) in enumerate(zip(a, b)):
-            _same(x, y, f"{path}[{i}]")
-    elif isinstance(a, float) and not isinstance(b, bool) and isinstance(b, (int, float)):
-        assert math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-15) or (math.isnan(a) and math.isnan(b)), (path, a, b)
-    else:
-        assert a == b, (path, a, b)
 
 
 def test_a_transition_that_fails_in_the_child_raises_its_own_error_here(monkeypatch):
