@@ -235,8 +235,9 @@ def cmd_faults(args) -> int:
     from .faults import faults_project, format_faults
 
     show = _progress(args)
+    tick = None if show is None else (lambda done, total, label: show(f"faults: {done}/{total} {label}"))
     try:
-        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=show,
+        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=tick,
                                 parallel=None)
     finally:
         _end_progress(show)
