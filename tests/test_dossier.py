@@ -232,6 +232,19 @@ def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, m
     assert fast == full
 
 
+def test_a_paragraph_asked_again_at_a_width_breaks_as_a_fresh_one():
+    """The kept line breaks equal reportlab's own at every width, asked in any order."""
+    from reportlab.platypus import Paragraph
+
+    text = "A fuse in the ohms feed, a diode crowbar on its own pole behind it; " * 6
+    kept = layout.Para(text, layout.STYLES["body"])
+    for width in (400.0, 120.0, 400.0, 55.0, 120.0):
+        fresh = Paragraph(text, layout.STYLES["body"])
+        assert kept.wrap(width, 800.0) == fresh.wrap(width, 800.0)
+        assert [line.words if hasattr(line, "words") else line for line in kept.blPara.lines] == \
+            [line.words if hasattr(line, "words") else line for line in fresh.blPara.lines]
+
+
 def test_project_file_is_never_overwritten(tmp_path):
     src = tmp_path / "meter.yaml"
     src.write_text((ROOT / "projects" / "bench_ammeter.yaml").read_text())
