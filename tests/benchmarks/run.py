@@ -19,6 +19,14 @@ One run, on one machine, with the two simulators taking turns inside each repeti
 * **Decks V and O, the newer parts** (``tests/benchmarks/parts.py``): a varistor at the
   input of a voltmeter and a battery-driven ohms range with a clamp pair, against ngspice
   on solver-level decks (``tests/spice_flat.py``), 1000 builds of 201 points each.
+* **Deck P, a tripped PTC** (``tests/benchmarks/parts.py``): a voltmeter whose input PTC
+  has tripped and holds a constant 0.5 W (10 kohm and a 2 kohm / 50 uA movement behind
+  it), a DC sweep of 201 points from 200 V to 1000 V in 100 builds (R1 drawn within
+  +/-0.25 %): the planner settles every point at constant power
+  (:func:`planner.stress.tripped.settle_all` on the network with the PTC's stand-in,
+  each build's engine made before the timer starts); ngspice solves the PTC as a
+  behavioural current source of constant power, on the stable (high-voltage) root.
+  The settling stops at 1e-9 in ln R, so the agreement is about 1e-9 here.
 * **The stack**: ``planner faults`` of ``tests/reliability/ideal_stack_50.yaml`` (a clamp of
   50 ideal junctions per direction at a tap, 1000 V maximum input) as a whole process, with
   the same project at one junction per direction beside it; the target is under 2 s.
@@ -377,15 +385,17 @@ def main(argv=None) -> int:
                "repeat": repeat, "quick": bool(args.quick)}
     tight_diffs = []
 
-    # decks A and B, and the newer parts' decks V and O ------------------------------------------------
+    # decks A and B, and the newer parts' decks V, O and P ---------------------------------------------
     decks = []
     for key, build, builds in (("deck_a", deck_a, builds_a), ("deck_b", deck_b, builds_b)):
         eng, jobs = build(builds)
         decks.append((key, (lambda eng=eng, jobs=jobs: solve_jobs(eng, jobs)),
                       (lambda native=False, eng=eng, jobs=jobs: spice_jobs(eng, jobs, native=native)),
                       eng.spec.movement.i_fs_a, sum(len(s) * len(next(iter(f.values()))) for _, s, f in jobs)))
-    for key, build in (("deck_v", parts.deck_v), ("deck_o", parts.deck_o)):
-        fd = build(builds_a)
+    # deck P settles each point by iteration on an engine of its own per build: a tenth of the builds
+    for key, build, builds in (("deck_v", parts.deck_v, builds_a), ("deck_o", parts.deck_o, builds_a),
+                               ("deck_p", parts.deck_p, max(builds_a // 10, 2))):
+        fd = build(builds)
         decks.append((key, fd.solve, (lambda native=False, fd=fd: fd.spice()), fd.i_fs, fd.circuits))
     for key, solve_fn, spice_fn, i_fs, circuits in decks:
         solve_fn()  # warm the engine's compiled states and numpy
@@ -584,7 +594,8 @@ def table(r) -> str:
     """The summary table."""
     lines = ["", f"{'':34}{'planner':>14}{'ngspice':>14}{'ratio':>9}{'max diff':>11}{'median diff':>13}"]
     for key, title in (("deck_a", "deck A: meter deck, 201 points"), ("deck_b", "deck B: bench_multimeter"),
-                       ("deck_v", "deck V: varistor at the input"), ("deck_o", "deck O: ohms range, battery")):
+                       ("deck_v", "deck V: varistor at the input"), ("deck_o", "deck O: ohms range, battery"),
+                       ("deck_p", "deck P: tripped PTC, constant P")):
         e = r[key]
         lines.append(f"{title:<34}{_fmt(e['planner_circuits_per_s']) + '/s':>14}"
                      f"{_fmt(e.get('ngspice_circuits_per_s')) + '/s':>14}{_fmt(e.get('throughput_ratio')) + 'x':>9}"
