@@ -10,7 +10,8 @@ How the deck matches the contract's element equations (design.md, "Element
 equations"):
 
 * Resistors and the coil: R(T) = R (1 + tc (T - T_ref)) is computed here in Python
-  and written as a plain value (no ngspice temperature coefficients). Fuses,
+  and written as a plain value (no ngspice temperature coefficients); a PTC (in
+  normal use, not tripped) likewise at its cold resistance and tempco. Fuses,
   contacts and the diodes' R_s and R_p are constant, as in the contract.
 * Zero-ohm closed contacts are merged into one node (no 0-V sources, so a loop of
   closed contacts cannot make the matrix singular); open contacts and the parts not
@@ -75,7 +76,7 @@ import networkx as nx
 import numpy as np
 
 from planner.network import UnionFind
-from planner.model import Contact, Diode, Fuse, MovementElement, Resistor, ZERO_CELSIUS_K
+from planner.model import Contact, Diode, Fuse, MovementElement, Ptc, Resistor, ZERO_CELSIUS_K
 from planner.solve import BOLTZMANN, CHARGE, saturation_current
 
 #: The ngspice executable, or None when it is not installed.
@@ -290,6 +291,11 @@ def netlist(engine, state, kind: str | None, stimuli, temperature_k: float | Non
             body.append(f"R{j}_{tag} m{j} {node(b)} {_num(val * factors.get(e.name, 1.0))}")
             if e.name == movement.name:
                 vectors.append(("movement", f"i(Vm{j}_{tag})"))
+        elif isinstance(e, Ptc):
+            p = spec.parts.ptcs[e.model]
+            val = p.r_cold_ohm * (1.0 + p.tempco_per_k * dt)
+            values.append(f"* value: {e.name} R{j}_{tag} {_num(val)}")
+            body.append(f"R{j}_{tag} {node(a)} {node(b)} {_num(val * factors.get(e.name, 1.0))}")
         elif isinstance(e, Fuse):
             body.append(f"R{j}_{tag} {node(a)} {node(b)} {_num(spec.parts.fuses[e.model].r_cold_ohm)}")
         elif isinstance(e, Contact):

@@ -9,6 +9,7 @@ crossing of a sweep does not divide by nothing.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -260,3 +261,32 @@ def test_ohmmeter_battery_network_against_ngspice(r_x):
     col = spice_flat.simulate(c, r, sweep, emf=emf, junctions=jn)
     sol = solve(c, r, jn, col["applied"], emf=emf)
     _flat_compare(c, sol, col, v_floor=1e-3, i_floor=1e-6)
+
+
+@pytest.mark.parametrize("dt_k", [-20.0, 0.0, 20.0])
+def test_cold_ptc_in_the_deck(dt_k):
+    """A PTC in normal use is its cold resistance with its tempco (planner.parts.ptc): a voltmeter with
+    a PTC at its input and a clamp pair across the movement against ngspice, the deck writing the PTC
+    as a resistor (left out, the deck was open at the PTC and ngspice read no current)."""
+    from planner.model import PtcModel, Ptc
+
+    ptc = PtcModel("p", 0.01, 0.02, 470.0, 600.0, 1.0, tripped_power_w=0.5, tempco_per_k=0.004)
+    d = DiodeModel("si", 1e-9, n=1.8, r_s_ohm=0.8, r_p_ohm=2e9)
+    spec = make_spec([Ptc("RT1", "plus", "a", "p"), Resistor("R1", "a", "m", 9.5e3, tempco_per_k=0.0),
+                      MovementElement("M1", "m", "com"),
+                      Diode("D1", "m", "com", "si"), Diode("D2", "com", "m", "si")],
+                     [Position("10 V", "voltage", 10.0, ("plus", "com"))], i_fs_a=1e-3, r_coil_ohm=500.0, diodes=[d])
+    spec = dataclasses.replace(spec, parts=dataclasses.replace(spec.parts, ptcs={"p": ptc}))
+    eng = Engine(build(spec))
+    t_k = spec.ambient.t_ref_k + dt_k
+    case = (eng, "10 V", "voltage", t_k, 0.0)
+    decks, results = run_cases([case], [np.linspace(-50.0, 50.0, 101)])
+    assert "RT1" in decks[0]  # the PTC is in the deck
+    compare([case], decks, results, 1e-3)
+    # below the clamps' knee the movement sees Ohm's law with the PTC at R_c (1 + alpha dT) (the PTC's
+    # tempco moves the current by 0.36 % at 20 K)
+    col = by_name(decks[0], results[0])
+    k = np.argmin(np.abs(col["applied"] - 1.0))
+    r_tot = 470.0 * (1.0 + 0.004 * dt_k) + 9.5e3 + 500.0
+    # the clamp pair's small-signal conductance 2 I_s(T) / (n V_t) is below 3e-4 of the coil's at +20 K
+    np.testing.assert_allclose(col["movement"][k], col["applied"][k] / r_tot, rtol=5e-4)
