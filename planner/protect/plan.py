@@ -27,8 +27,8 @@ from .candidates import Combo, Site, Stack
 from .context import DEFAULT_SHARE, MAX_CANDIDATES, SearchContext
 from .evaluate import Point
 from .ordering import PARETO_ROWS, choose, lex_compare, ordered, pareto, ranked, row_multiples
-from .realise import final, realise_explicit, realise_sized
-from .report import as_given_row, placement_row
+from .realise import failing_hint, final, realise_explicit, realise_sized
+from .report import as_given_row, placement_row, row_key
 from .search import branch_and_bound
 
 __all__ = ["protect_project"]
@@ -180,7 +180,9 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     The clamps across the movement come first (as a candidate); then up to
     twice :data:`PARETO_ROWS` placements, best first, each realised
     (:mod:`planner.protect.realise`) and evaluated at the reported resolution;
-    a placement that realises to a row already there is left out.
+    a placement that realises to a row already there is left out, and so is an
+    infeasible one (only feasible rows enter the Pareto table: it is found out
+    at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
     """
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
@@ -197,8 +199,12 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
             q = realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
         if q is None:
             continue
-        q = final(ctx, q)
-        row = placement_row(ctx, "candidate", q, clamps=q.clamps)
+        # only a feasible row can enter the table: an infeasible one is found out at its first failing position
+        fq = final(ctx, q, feasible_only=True, first=failing_hint(p))
+        if fq is None:
+            seen.add(row_key(q.combo, q.r))
+            continue
+        row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
         if row["key"] not in seen:
             seen.add(row["key"])
             finals.append(row)
