@@ -326,8 +326,9 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
     count : bool
         Counted as one evaluation of the search (True) or of the final pass (False), as :func:`run`.
     first : sequence of str
-        Positions to judge first (those that failed a similar candidate): only the order of the work
-        changes, never the answer.
+        Positions to judge early: after those that failed the last candidates judged so
+        (``ctx.failed_at``, most recent first), before the rest (in switch order). Only
+        the order of the work changes, never the answer.
 
     Returns
     -------
@@ -349,7 +350,9 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
         ctx.evaluated += 1
     else:
         ctx.reevaluated += 1
-    rank = {name: i for i, name in enumerate(first)}
+    rank: dict = {}
+    for name in list(ctx.failed_at) + list(first):
+        rank.setdefault(name, len(rank))
     order = sorted(ctx.positions, key=lambda q: rank.get(q.name, len(rank)))
     try:
         if topo.carrying is None:
@@ -360,6 +363,7 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
             ok = (r["error"][0] <= ctx.limits[p.name] * EXCEED and r["stress"][0] <= EXCEED
                   and np.isfinite(np.maximum(r["forward"], r["reverse"])[0]))
             if not ok:
+                ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
                 return False, p.name
     except SolveError:
         return False, None

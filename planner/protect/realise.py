@@ -206,8 +206,7 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
         except ProjectError:
             break
         topo = topology_of(ctx, net, sized_watch(net))
-        ok, failing = feasible_alone(ctx, topo, first=first)
-        first = (failing,) + first if failing else first
+        ok, _ = feasible_alone(ctx, topo, first=first)
         tap = [e for e in net.elements if isinstance(e, Resistor) and e.group == "tap 1"]
         # the sizer's node of the (only) clamp tap is "tap1"; the segment above it ends there
         above = {e.group for e in net.elements if isinstance(e, Resistor) and e.group not in (None, "tap 1")
