@@ -8,13 +8,15 @@ protection parts find a plan at least as good as the hand design (no more failin
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
 from planner.faults import faults_project
 from planner.project import load, loads
 from planner.protect import protect_project, write_protected
-from planner.protect.judged import matrix_score, not_worse, plan_key, protection_candidates
+from planner.protect.judged import matrix_score, not_worse, plan_key, protection_candidates, same_request
 
 from conftest import VOLTMETER
 from test_sizing_protection import FLAGSHIP
@@ -52,6 +54,12 @@ def test_protection_candidates_of_the_flagship():
     assert {c.ring_crowbar for c in cands if c is not None} == {None, "si_6a"}
     assert {c.ma_fuse for c in cands if c is not None} == {None, "ma_315"}
     assert {c.input_ptc for c in cands if c is not None} == {None, "ptc_meter"}
+    # each combination once: 2 PTC choices x 2 crowbar choices x 2 mA fuse choices, the file's own among
+    # them (read from the file it carries its line; the same parts built from the catalogue do not)
+    assert len(cands) == 2 * 2 * 2
+    assert not any(same_request(a, b) for i, a in enumerate(cands) for b in cands[i + 1:])
+    assert same_request(spec.protection, replace(spec.protection, line=None))
+    assert not same_request(spec.protection, replace(spec.protection, ma_fuse=None)) and not same_request(None, cands[0])
 
 
 def test_pocket_voltmeter_plan_is_never_worse_and_reproduces_its_matrix(tmp_path):
