@@ -107,3 +107,19 @@ def test_stripped_multimeter_gets_a_plan_as_good_as_the_hand_design(stripped, tm
     np.testing.assert_allclose(back["worst_ratio"], j["planned"]["worst_ratio"], rtol=1e-9)
     text = out.read_text(encoding="utf-8")
     assert "# Protection parts chosen by the search" in text and text.count("\nprotection:") == 1
+
+
+def test_judged_beside_the_search_decides_as_in_one_process():
+    """The project as given judged in a child process beside the clamp search (``parallel=True``) and
+    in the calling process after it (``parallel=False``): the same plan, the same failing counts."""
+    spec = load(VOLTMETER)
+    two = protect_project(spec, parallel=True)
+    one = protect_project(spec, parallel=False)
+    assert (two["chosen"] or {}).get("key") == (one["chosen"] or {}).get("key")
+    assert (two["writes"], two["requirements_met"]) == (one["writes"], one["requirements_met"])
+    for key in ("as_given", "planned"):
+        a, b = two["matrix"][key], one["matrix"][key]
+        assert (a["failing"], a["verdicts"]) == (b["failing"], b["verdicts"])
+        # the matrix's figures may differ in their last digits with the solver's history in the process
+        np.testing.assert_allclose(a["worst_ratio"], b["worst_ratio"], rtol=1e-6)
+    assert [r["label"] for r in two["matrix"]["parts"]] == [r["label"] for r in one["matrix"]["parts"]]

@@ -38,7 +38,7 @@ from ..sizing.sections.protection import protection_lines
 from ..stress.verdict import FAILING
 from .. import writer
 
-__all__ = ["matrix_score", "plan_key", "same_request", "protection_candidates", "judge_plans"]
+__all__ = ["matrix_score", "plan_key", "same_request", "protection_candidates", "judge_given", "judge_plans"]
 
 #: Most protection-part combinations judged (each is one whole misrange matrix).
 MAX_PART_PLANS = 48
@@ -241,7 +241,62 @@ def from_dict(p: dict | None):
                              ohms_crowbar_count=p.get("ohms_crowbar_count", 4))
 
 
-def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None) -> dict:
+def _parts_searched(spec) -> bool:
+    """Whether protection-part combinations are searched: a sized project whose catalogue has such parts."""
+    return spec.network is None and bool(spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes)
+
+
+def _base_rows(designs: _Designs, clamps: str, base_spec, base_matrix: dict, spec, share: float, say) -> list[dict]:
+    """Every protection combination with the clamps of one base (as given, or the clamp placement), judged."""
+    rows = []
+    bare = designs.hot(designs.build(clamps, base_spec, None))
+    for req in protection_candidates(base_spec):
+        say(f"protection parts with the clamps {clamps}: {describe(req)}")
+        if same_request(req, base_spec.protection):
+            row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
+                   "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
+            if req is not None:  # its price against no protection parts at all
+                row = _judge_protection(base_spec, req, designs, clamps, bare, share, say, base_matrix) or row
+        else:
+            row = _judge_protection(base_spec, req, designs, clamps, bare, share, say)
+        if row is not None:
+            row["clamps"] = clamps
+            row["as_given"] = clamps == "as given" and same_request(req, spec.protection)
+            rows.append(row)
+    return rows
+
+
+def judge_given(design: Design, share: float, say=lambda _m: None) -> dict:
+    """The project as given on the misrange matrix: its own matrix and its protection combinations judged.
+
+    The part of :func:`judge_plans` that does not depend on the clamp search, so that
+    it may run beside it (:func:`planner.background.beside`).
+
+    Parameters
+    ----------
+    design : Design
+        The project as given.
+    share : float
+        Share of the class the protection may cost at the hottest ambient.
+
+    Returns
+    -------
+    dict
+        ``matrix`` (:func:`matrix_score` of the project as given) and ``rows`` (each
+        protection combination with the project's own clamps judged, in the order of
+        :func:`protection_candidates`; none when :func:`judge_plans` searches no parts).
+    """
+    spec = design.spec
+    designs = _Designs(float(spec.ambient.t_max_k))
+    designs.know("as given", spec.protection, design)
+    say("the misrange matrix of the project as given")
+    given = matrix_score(faults_project(design))
+    rows = _base_rows(designs, "as given", spec, given, spec, share, say) if _parts_searched(spec) else []
+    return {"matrix": given, "rows": rows}
+
+
+def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None,
+                given: dict | None = None) -> dict:
     """Judge the clamp search's choice and the protection parts on the misrange matrix (see the module).
 
     Parameters
@@ -256,6 +311,9 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
         (:func:`planner.protect.write.protected_text`).
     share : float
         Share of the class the protection may cost at the hottest ambient.
+    given : dict, optional
+        What :func:`judge_given` returned for this design and share (computed
+        beside the search); computed here when None.
 
     Returns
     -------
@@ -268,10 +326,10 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
     """
     spec = design.spec
     notes = []
+    if given is None:
+        given = judge_given(design, share, say)
+    given_rows, given = list(given["rows"]), given["matrix"]
     designs = _Designs(float(spec.ambient.t_max_k))
-    designs.know("as given", spec.protection, design)
-    say("the misrange matrix of the project as given")
-    given = matrix_score(faults_project(design))
     bases = [("as given", spec, given)]
     clamp_plan = None
     if result.get("chosen") and spec.text:
@@ -284,23 +342,10 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
             bases.append(("clamp placement", planned, clamp_plan))
         except PlannerError as e:
             notes.append(f"the chosen clamp placement does not build ({e}); kept as given")
-    rows = []
-    if spec.network is None and (spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes):
-        for clamps, base_spec, base_matrix in bases:
-            bare = designs.hot(designs.build(clamps, base_spec, None))
-            for req in protection_candidates(base_spec):
-                say(f"protection parts with the clamps {clamps}: {describe(req)}")
-                if same_request(req, base_spec.protection):
-                    row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
-                           "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
-                    if req is not None:  # its price against no protection parts at all
-                        row = _judge_protection(base_spec, req, designs, clamps, bare, share, say, base_matrix) or row
-                else:
-                    row = _judge_protection(base_spec, req, designs, clamps, bare, share, say)
-                if row is not None:
-                    row["clamps"] = clamps
-                    row["as_given"] = clamps == "as given" and same_request(req, spec.protection)
-                    rows.append(row)
+    if _parts_searched(spec):
+        rows = given_rows
+        for clamps, base_spec, base_matrix in bases[1:]:
+            rows += _base_rows(designs, clamps, base_spec, base_matrix, spec, share, say)
         rows.sort(key=plan_key)
     else:
         rows = [{"protection": as_dict(spec.protection), "label": describe(spec.protection), "matrix": m,
