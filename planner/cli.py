@@ -235,8 +235,10 @@ def cmd_faults(args) -> int:
     from .faults import faults_project, format_faults
 
     show = _progress(args)
+    tick = None if show is None else (lambda done, total, label: show(f"faults: {done}/{total} {label}"))
     try:
-        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=show)
+        result = faults_project(_design(spec), position=args.position, only_failing=args.only_failing, progress=tick,
+                                parallel=None)
     finally:
         _end_progress(show)
     _add_cautions(spec, result)
@@ -299,7 +301,7 @@ def cmd_dossier(args) -> int:
         from .diagnose import diagnose, diagnosis_json
 
         diagnosis = diagnosis_json(diagnose(spec, args.readings))
-    plate = _dossier_plate(design)
+    plate = lambda: _dossier_plate(design)  # noqa: E731 - made while the matrix is computed beside the check
     show = _progress(args)
     try:
         path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,
