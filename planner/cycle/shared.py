@@ -430,6 +430,23 @@ class SharedRule:
         """Largest |q| at the crests of each target (the peak of a monotone response)."""
         return np.max(np.abs(self.crest_values(q)), axis=-1)
 
+    def check_nodes(self) -> np.ndarray:
+        """The source values :meth:`verify` solves first, fractions of ``span``: the 15 Gauss-Kronrod
+        nodes of every panel, in panel order (a batch may solve them with the rule's nodes, then hand
+        them to :meth:`verify` through its ``evaluate``)."""
+        xk, _, _ = gauss_kronrod(GK_ORDER)
+        panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
+        return np.concatenate([p.mid + p.half * xk for p in panels]) if panels else np.empty(0)
+
+    def padded(self, extra) -> "SharedRule":
+        """The same rule over its nodes followed by other solved values ``extra`` (fractions of ``span``),
+        weighted zero: a batch solved on the rule's nodes and its :meth:`check_nodes` reduces through it.
+        Reductions only: its last nodes are no longer its atoms, so it is not verified or refined."""
+        n = np.asarray(extra, dtype=float).size
+        return replace(self, nodes=np.concatenate([self.nodes, np.asarray(extra, dtype=float)]),
+                       weights=np.pad(self.weights, ((0, 0), (0, n))),
+                       crest_weights=np.pad(self.crest_weights, ((0, 0), (0, 0), (0, n))))
+
     def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN, known=None) -> "SharedRule":
         """Check the rule on other rows (extreme builds); refine where they miss.
 
@@ -442,7 +459,7 @@ class SharedRule:
         prob = _Shared(self.targets, evaluate, self.span)
         panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
         xk, _, _ = gauss_kronrod(GK_ORDER)
-        q = prob(np.concatenate([p.mid + p.half * xk for p in panels]))
+        q = prob(self.check_nodes())
         for i, p in enumerate(panels):
             p.kq = q[:, i * xk.size:(i + 1) * xk.size]
             prob.prepare(p)

@@ -50,6 +50,9 @@ TOLERANCE_RMS_FS = 1e-5
 #: rule in phase (Gauss-Chebyshev for a sine, Gauss-Legendre for the triangle), as accurate as 2048 equally
 #: spaced phases: within 5e-7 of full scale on the sharpest knee of a 250 V range, far closer on low ranges.
 SINGLE_ROW_NODES = 1024
+#: Parameter rows up to which a batch is solved on its rule's check nodes too and verified on every row
+#: from that one solve (:func:`_checked_small`); larger batches verify their extreme rows in a second solve.
+SMALL_BATCH = 48
 #: Waveforms whose reading error ``planner check`` reports on an AC position (at full-scale rms).
 CHECK_WAVEFORMS = ("square", "triangle", "flat-top mains")
 #: Steps of the nominal response an ``own`` AC scale is marked from, fractions of full scale
@@ -85,12 +88,14 @@ class ACRange(RangeKind):
         the waveform's true rms at full-scale rms (design contract).
         """
         fs = float(position.full_scale)
+        read = waveform_readings(engine, position.name, [(name, [fs]) for name in CHECK_WAVEFORMS]
+                                 + [("dc", [fs, -fs])])
         rows = []
-        for name in CHECK_WAVEFORMS:
-            r = float(engine.operate(position.name, [fs], waveform=name).reading()[0, 0])
+        for name, r in zip(CHECK_WAVEFORMS, read):
+            r = float(r[0])
             rows.append({"waveform": name, "form_factor": float(_cycle().SHAPES[name].form_factor),
                          "reading": r, "error_pct": (r - fs) / fs * 100.0})
-        dc = engine.operate(position.name, [fs, -fs], waveform="dc").reading()[0]
+        dc = read[-1]
         return {"waveform_errors": rows,
                 "dc_readings": [{"applied": float(a), "reading": float(r), "error_pct": float((r - abs(a)) / fs * 100.0)}
                                 for a, r in zip((fs, -fs), dc)],
@@ -400,6 +405,8 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         return CycleOperating(engine, st, op, rule, values)
     key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
+    if 1 < _row_count(temperature_k, r_source_ohm, factors) <= SMALL_BATCH and shape.atoms is None:
+        return _checked_small(engine, st, key, rule, idx, values, kw)
     op = engine.operate(st, rule.points(), **kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
@@ -419,6 +426,79 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
             op = engine.operate(st, rule.points(), **kw)
     rule = _subset(rule, idx)
     return CycleOperating(engine, st, op, rule, values)
+
+
+def _row_count(temperature_k, r_source_ohm, factors) -> int:
+    """Parameter rows of a request: the longest of its per-row arguments."""
+    sizes = [np.size(temperature_k if temperature_k is not None else 0.0), np.size(r_source_ohm)]
+    sizes += [np.size(v) for v in (factors or {}).values()]
+    return int(max(sizes))
+
+
+def _checked_small(engine, st, key, rule, idx, values, kw) -> CycleOperating:
+    """A small batch (temperature points, sensitivity rows) solved on the rule's nodes and its check nodes
+    at once, the rule verified on every row from that one solve.
+
+    Notes
+    -----
+    For at most :data:`SMALL_BATCH` rows the Gauss-Kronrod nodes of every row cost less than the
+    separate solve of the extreme rows' ones (a solve of a few rows costs its Newton iterations
+    whatever its size), and every row is checked, not only the extremes. Where the rule misses on a
+    row it is refined and solved again, as in :func:`operate_cycle`.
+    """
+    y = rule.check_nodes()
+    xk = rule.span * y
+    n = rule.size
+    op = engine.operate(st, np.concatenate([rule.points(), xk]), **kw)
+    q = op.movement_current_a
+
+    def evaluate(x):
+        x = np.asarray(x, dtype=float)
+        if x.shape == xk.shape and np.array_equal(x, xk):
+            return q[:, n:]  # solved above
+        return engine.operate(st, x, **kw).movement_current_a
+
+    checked = rule.verify(evaluate, known=q[:, :n])
+    if checked.refined:  # keep the refined nodes for every later request of this position
+        engine.__dict__["_cycle_rules"][key] = checked
+        op = engine.operate(st, checked.points(), **kw)
+        return CycleOperating(engine, st, op, _subset(checked, idx), values)
+    return CycleOperating(engine, st, op, _subset(checked.padded(y), idx), values)
+
+
+def waveform_readings(engine, position: str, requests) -> list:
+    """Nominal readings of a position for several waveforms, from one solve.
+
+    Parameters
+    ----------
+    engine : planner.engine.Engine
+    position : str
+    requests : sequence of (str, array_like)
+        A shape of :data:`planner.cycle.SHAPES` and its applied values (rms of the
+        wave, the level of a DC one) [V] or [A].
+
+    Returns
+    -------
+    list of ndarray
+        The readings [V] or [A] of each request, in order: the same as
+        ``engine.operate(position, values, waveform=shape).reading()[0]`` one request
+        at a time (each wave's fixed rule of :data:`SINGLE_ROW_NODES` nodes), with the
+        nodes of every request solved as one batch of instantaneous operating points
+        (nominal parts, reference temperature).
+    """
+    st = engine.state(position)
+    c = _cycle()
+    blocks = [_Blocks(c.SHAPES[name], np.atleast_1d(np.asarray(values, dtype=float))) for name, values in requests]
+    points = [b.points() for b in blocks]
+    op = engine.operate(st, np.concatenate(points), kind=st.position.kind.source)
+    i_m = op.movement_current_a[0]
+    out, lo = [], 0
+    pos = st.position
+    for b, x in zip(blocks, points):
+        mm = b.mean(i_m[lo:lo + x.size]) / engine.spec.movement.i_fs_a
+        lo += x.size
+        out.append(own_scale(engine, pos.name)(mm) if pos.scale == "own" else pos.kind.reading(mm, pos.full_scale))
+    return out
 
 
 def _grid_response(engine, position: str):
