@@ -182,6 +182,14 @@ class _SPanel:
     wk: np.ndarray | None = None  # (T, 15) weights of the K15 interpolant per target
     w7: np.ndarray | None = None  # (T, 7) weights of the G7 interpolant
     mass: np.ndarray | None = None  # (T,)
+    halves: tuple | None = None  # its two halves, made (and solved) ahead of the need for them
+
+    def split(self) -> tuple:
+        """The panel's two halves (the same pair on every call)."""
+        if self.halves is None:
+            m = self.mid
+            self.halves = (_SPanel(self.a, m, min_order=self.min_order), _SPanel(m, self.b, min_order=self.min_order))
+        return self.halves
 
     @property
     def mid(self):
@@ -257,12 +265,31 @@ def _shares(p: _SPanel, tol, ms_tol, factor):
     return factor * p.mass * tol, factor * p.mass[None, :] * ms_tol
 
 
+#: Levels of halves solved ahead with a panel that has to be solved: a solve costs its Newton iterations
+#: more than its points, and a knee is reached by several halvings in a row.
+LOOKAHEAD = 2
+
+
+def _ahead(panels, depth: int) -> list:
+    """The panels and their halves down to ``depth`` levels, those not yet solved."""
+    out, level = [], list(panels)
+    for _ in range(depth + 1):
+        out += [p for p in level if p.kq is None]
+        level = [h for p in level for h in p.split()]
+    return out
+
+
 def _refine_shared(prob: _Shared, panels, tol, ms_tol, factor, notes):
+    """Halve panels until each meets its share of the tolerance (every panel's K15 values solved).
+
+    A panel solved for the first time is solved with its halves down to :data:`LOOKAHEAD` levels (one
+    solve for several halvings); the panels kept are those the plain halving keeps.
+    """
     xk, _, _ = gauss_kronrod(GK_ORDER)
     todo = list(panels)
     done = []
     while todo:
-        fresh = [p for p in todo if p.kq is None]
+        fresh = _ahead([p for p in todo if p.kq is None], LOOKAHEAD)
         if fresh:
             q = prob(np.concatenate([p.mid + p.half * xk for p in fresh]))
             for i, p in enumerate(fresh):
@@ -279,8 +306,7 @@ def _refine_shared(prob: _Shared, panels, tol, ms_tol, factor, notes):
                                  "(refinement limit reached)")
                 done.append(p)
             else:
-                m = p.mid
-                nxt += [_SPanel(p.a, m, min_order=p.min_order), _SPanel(m, p.b, min_order=p.min_order)]
+                nxt += list(p.split())
         todo = nxt
     done.sort(key=lambda p: p.a)
     return done
