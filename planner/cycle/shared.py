@@ -39,7 +39,7 @@ from scipy.optimize import brentq
 
 from . import adaptive as _ad
 from .rules import gauss_kronrod, gauss_legendre
-from .shapes import Shape
+from .shapes import Shape, Sine
 
 __all__ = ["Target", "SharedRule", "adapt_shared", "PHASE_POINTS_PER_PIECE"]
 
@@ -159,6 +159,34 @@ def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
     return m
 
 
+def _sine_moments(scales, lo: float, hi: float) -> np.ndarray:
+    """The moments of :func:`_moments` for sines of several scales at once: (len(scales), MAX_DEGREE + 1).
+
+    Notes
+    -----
+    For :math:`y = s \sin t`, t uniform on :math:`[-\pi/2, \pi/2]`, the phases that map into
+    [lo, hi] are :math:`[\arcsin(c_{lo}/s), \arcsin(c_{hi}/s)]` with the panel clipped to
+    :math:`[-|s|, |s|]` (the distribution of :math:`s \sin t` is that of :math:`|s| \sin t`); the
+    same Gauss-Legendre points in phase as :func:`_moments`, the phase ends in closed form
+    instead of by root finding, every scale in one Vandermonde evaluation.
+    """
+    s = np.abs(np.asarray(scales, dtype=float))
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    c_lo, c_hi = np.maximum(lo, -s), np.minimum(hi, s)
+    live = (c_hi > c_lo) & (s > 0)
+    out = np.zeros((s.size, MAX_DEGREE + 1))
+    if not np.any(live):
+        return out
+    s, c_lo, c_hi = s[live], c_lo[live], c_hi[live]
+    t1, t2 = np.arcsin(np.clip(c_lo / s, -1.0, 1.0)), np.arcsin(np.clip(c_hi / s, -1.0, 1.0))
+    ts, tw = gauss_legendre(PHASE_POINTS_PER_PIECE)
+    tm, th = 0.5 * (t1 + t2), 0.5 * (t2 - t1)
+    y = s[:, None] * np.sin(tm[:, None] + th[:, None] * ts[None, :])  # (L, 48)
+    v = np.polynomial.legendre.legvander((y - mid) / half, MAX_DEGREE)  # (L, 48, D)
+    out[live] = np.einsum("lk,lkd->ld", (th[:, None] * tw[None, :]) / np.pi, v)
+    return out
+
+
 def _weights_from_moments(moments, z) -> np.ndarray:
     """Interpolatory weights of the local nodes z from Legendre moments: (T, len(z)).
 
@@ -215,6 +243,11 @@ class _Shared:
         self.atom_w = np.zeros((T, A))
         self.atom_crest = np.zeros((T, 2, A))
         self.atomic = np.array([_is_atomic(t, span) for t in targets])
+        # continuous targets: the sines' moments in closed-form phase, the other shapes' by root finding
+        sine = np.array([not self.atomic[j] and type(t.shape) is Sine for j, t in enumerate(targets)], dtype=bool)
+        self.sines = np.nonzero(sine)[0]
+        self.sine_scales = np.array([targets[j].peak / span for j in self.sines], dtype=float)
+        self.others = [j for j in range(T) if not sine[j] and not self.atomic[j]]
         for j, t in enumerate(targets):
             if not self.atomic[j]:
                 continue
@@ -244,9 +277,12 @@ class _Shared:
 
     def prepare(self, p: _SPanel):
         if p.moments is None:
-            out = [_panel_moments(t, self.span, p.a, p.b) for t in self.targets]
-            p.moments = np.array([m for m, _ in out])
-            p.mass = np.array([w for _, w in out])
+            p.moments = np.zeros((len(self.targets), MAX_DEGREE + 1))
+            if self.sines.size:
+                p.moments[self.sines] = _sine_moments(self.sine_scales, p.a, p.b)
+            for j in self.others:
+                p.moments[j] = _panel_moments(self.targets[j], self.span, p.a, p.b)[0]
+            p.mass = p.moments[:, 0].copy()
             xk, _, _ = gauss_kronrod(GK_ORDER)
             p.wk = _weights_from_moments(p.moments, xk)
             p.w7 = _weights_from_moments(p.moments, xk[1::2])
