@@ -194,8 +194,17 @@ def _weights_from_moments(moments, z) -> np.ndarray:
     (V the Legendre Vandermonde matrix of z), so :math:`w = V^{-T} m_{0..n-1}`.
     """
     z = np.asarray(z, dtype=float)
-    v = np.polynomial.legendre.legvander(z, z.size - 1)
-    return np.linalg.solve(v.T, np.asarray(moments)[:, :z.size].T).T
+    return np.asarray(moments)[:, :z.size] @ _inverse_vandermonde(z.tobytes())
+
+
+@lru_cache(maxsize=256)
+def _inverse_vandermonde(key: bytes) -> np.ndarray:
+    """:math:`V^{-1}` of the Legendre Vandermonde matrix of local nodes (their bytes: the few node sets of
+    the Gauss rules recur on every panel), so that the weights are :math:`w^T = m^T V^{-1}`."""
+    z = np.frombuffer(key, dtype=float)
+    inv = np.linalg.inv(np.polynomial.legendre.legvander(z, z.size - 1))
+    inv.flags.writeable = False
+    return inv
 
 
 @dataclass
