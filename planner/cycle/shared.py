@@ -160,7 +160,7 @@ def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
 
 
 def _sine_moments(scales, lo: float, hi: float) -> np.ndarray:
-    """The moments of :func:`_moments` for sines of several scales at once: (len(scales), MAX_DEGREE + 1).
+    r"""The moments of :func:`_moments` for sines of several scales at once: (len(scales), MAX_DEGREE + 1).
 
     Notes
     -----
