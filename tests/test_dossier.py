@@ -209,6 +209,30 @@ def test_an_analysis_that_raises_is_reported_in_its_section(tmp_path, monkeypatc
     assert "Misrange matrix" in text and "Fault analysis not available" in text
 
 
+def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
+    """The misrange matrix computed in a child beside the check equals the one computed after it."""
+    import json
+
+    from planner.dossier import gather
+
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    beside = gather(spec, samples=20, parallel=True)
+    after = gather(spec, samples=20, parallel=False)
+    assert beside.errors == after.errors == {}
+    assert json.dumps(beside.faults, sort_keys=True, default=str) == json.dumps(after.faults, sort_keys=True,
+                                                                                 default=str)
+    assert beside.check == after.check
+
+
+def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, monkeypatch):
+    """The pass that only finds the pages is not drawn: the PDF is the one drawn in every pass."""
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    fast = build_dossier(spec, tmp_path / "fast.pdf", samples=20).read_bytes()
+    monkeypatch.setattr(layout.DossierDoc, "draw_first_pass", True)
+    full = build_dossier(spec, tmp_path / "full.pdf", samples=20).read_bytes()
+    assert fast == full
+
+
 def test_project_file_is_never_overwritten(tmp_path):
     src = tmp_path / "meter.yaml"
     src.write_text((ROOT / "projects" / "bench_ammeter.yaml").read_text())

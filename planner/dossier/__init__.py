@@ -37,6 +37,7 @@ from typing import Callable
 from ..design import Design, as_design
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
+from ..background import beside
 from ..sizing import sizing_json
 from ..wiring import choose_style, wire_switch
 from . import layout, restoration as restoration_section, scaleplate, sections
@@ -73,7 +74,7 @@ def _date(spec, date) -> tuple[str, str]:
 
 
 def gather(design, *, date=None, samples: int | None = None, seed: int | None = None,
-           progress: Callable[[str], None] | None = None) -> Context:
+           progress: Callable[[str], None] | None = None, parallel: bool | None = None) -> Context:
     """Run the analyses of a dossier on one design; an analysis that fails is kept as text.
 
     Parameters
@@ -88,6 +89,10 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         Monte Carlo builds and seed; the project's ``analysis`` settings by default.
     progress : callable(str), optional
         Receives a short message before each step.
+    parallel : bool, optional
+        Run the misrange matrix in a child process beside the check (True), in
+        this process after it (False), or the first where a second core allows
+        it (None, :func:`planner.background.beside`). The results are the same.
 
     Returns
     -------
@@ -107,18 +112,23 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     if design.sizing is not None:
         ctx.sizing = sizing_json(design.sizing)
         ctx.cautions += list(ctx.sizing.get("cautions", []))
-    say("dossier: accuracy check")
+    # the misrange matrix on a second core while this one runs the check (the same answer, computed
+    # here when there is no second core)
+    matrix = beside(lambda: faults.faults_project(design), _error_text, parallel=parallel)
     try:
-        ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
-                                      progress=(lambda m: say(f"dossier: check {m}")))
-        ctx.check = ctx.accuracy.json
-    except Exception as exc:  # noqa: BLE001 - shown in the dossier
-        ctx.errors["check"] = _error_text(exc)
-    say("dossier: misrange faults")
-    try:
-        ctx.faults = faults.faults_project(design)
-    except Exception as exc:  # noqa: BLE001 - shown in the dossier
-        ctx.errors["faults"] = _error_text(exc)
+        say("dossier: accuracy check")
+        try:
+            ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
+                                          progress=(lambda m: say(f"dossier: check {m}")))
+            ctx.check = ctx.accuracy.json
+        except Exception as exc:  # noqa: BLE001 - shown in the dossier
+            ctx.errors["check"] = _error_text(exc)
+        say("dossier: misrange faults")
+        ctx.faults, error = matrix.result()
+    finally:
+        matrix.cancel()
+    if error is not None:
+        ctx.errors["faults"] = error
     if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
         style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
         ctx.wiring = wire_switch(design.net, style, style_source=source)

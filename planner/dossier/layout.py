@@ -13,6 +13,7 @@ builds of the same project give the same bytes.
 
 from __future__ import annotations
 
+import weakref
 from xml.sax.saxutils import escape
 
 from reportlab.lib import colors
@@ -279,11 +280,29 @@ def _used_width(flowable) -> float | None:
     return float(w) if isinstance(w, (int, float)) else None
 
 
+def _skip_draw(*_args, **_kwargs) -> None:
+    """Stands in for a flowable's ``drawOn`` in a pass whose pages are thrown away."""
+
+
 class _CheckedFrame(Frame):
-    """A frame that records any flowable drawn wider than it is."""
+    """A frame that records any flowable drawn wider than it is.
+
+    In the first pass of the build (which only finds the page of each heading and
+    the page total, and is never the pass that is saved: see :class:`PageCount`)
+    flowables are laid out but not drawn; the pass's layout is the same, its
+    pages are discarded.
+    """
 
     def _add(self, flowable, canv, trySplit=0):
-        done = super()._add(flowable, canv, trySplit)
+        doc = self._dossier_doc()
+        if not doc.draw_first_pass and doc.page_count.previous is None:  # the first pass: lay out only
+            flowable.__dict__["drawOn"] = _skip_draw  # past a Drawing's attribute check
+            try:
+                done = super()._add(flowable, canv, trySplit)
+            finally:
+                flowable.__dict__.pop("drawOn", None)
+        else:
+            done = super()._add(flowable, canv, trySplit)
         if done:
             aw = self._getAvailableWidth()
             w = _used_width(flowable)
@@ -371,6 +390,9 @@ class DossierDoc(BaseDocTemplate):
         PDF metadata.
     """
 
+    #: Draw the flowables in the first pass too (its pages are discarded either way).
+    draw_first_pass = False
+
     def __init__(self, buffer, *, title: str, subject: str, creator: str, author: str = "",
                  head_text: str = "", foot_text: str = ""):
         super().__init__(buffer, pagesize=PAGE, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=TOP,
@@ -383,6 +405,7 @@ class DossierDoc(BaseDocTemplate):
         frame = _CheckedFrame(MARGIN, BOTTOM, FRAME_WIDTH, FRAME_HEIGHT, id="body",
                               leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
         frame._dossier_overflow = self.overflow
+        frame._dossier_doc = weakref.ref(self)  # a weak reference: KeepTogether deep-copies the frame
         self.addPageTemplates([PageTemplate(id="page", frames=[frame], onPageEnd=_running)])
 
     def build_dossier(self, story, max_passes: int = 8):

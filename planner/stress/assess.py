@@ -17,7 +17,7 @@ from ..design import Design
 from ..engine import Engine
 from .judge import Judgement, judge
 from .text import fuse_detail
-from .tripped import settle
+from .tripped import settle_all
 from .verdict import decided_by, hazards_of, verdict_of
 from .waveforms import solve_waveforms
 
@@ -96,47 +96,58 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
     st = engine.state(state)
     stimuli = list(stimuli)
     wfs = solve_waveforms(engine, st, stimuli, temperature_k=temperature_k, n_phase=n_phase)
+    judged = [judge(engine, wf) for wf in wfs]
+    phases = _after_opening(engine, st, stimuli, judged, temperature_k, n_phase)
     results = []
-    for s, wf in zip(stimuli, wfs):
-        j = judge(engine, wf)
-        phases = _after_opening(engine, st, s, j, temperature_k, n_phase)
-        case = _case(st, s, j, phases)
+    for s, j, ph in zip(stimuli, judged, phases):
+        case = _case(st, s, j, ph)
         if with_parts:
             case["parts"] = j.parts
         results.append(case)
     return results
 
 
-def _after_opening(engine: Engine, st, s, j: Judgement, temperature_k, n_phase) -> dict:
-    """The case followed through the fuses it opens: every phase's stresses, fuses and notes.
+def _after_opening(engine: Engine, st, stimuli, judged: list, temperature_k, n_phase) -> list[dict]:
+    """Each case followed through the fuses it opens: every phase's stresses, fuses and notes.
+
+    The cases that leave the same parts open are solved together, one network and
+    one batch per set of open parts (:func:`planner.stress.tripped.settle_all`),
+    round after round until no case opens a further part.
 
     Returns
     -------
-    dict
+    list of dict, one per case
         ``stresses``, ``fuses``, ``notes`` (of every phase, the first included),
         ``hazardous`` and ``after`` (the movement once the last fuse has opened,
         or None when none opens).
     """
-    stresses, fuses, notes = list(j.stresses), list(j.fuses), list(j.notes)
-    hazardous = j.hazardous
-    opened = j.opened
-    after = None
-    while opened and not s.peak_only:
-        eng, wf2 = settle(_open_fuse_engine(engine, opened), st, s, temperature_k=temperature_k, n_phase=n_phase)
-        label = _after_label(opened, fuses)
-        j2 = judge(eng, wf2, phase=label, opened=opened, short_exposure=False, original=engine.net)
-        stresses += j2.stresses
-        fuses += [dict(f, after=sorted(opened)) for f in j2.fuses]
-        notes += j2.notes
-        hazardous = hazardous or j2.hazardous
-        after = {"opened": sorted(opened), "movement_multiple": j2.movement["multiple"],
-                 "movement_rms_multiple": j2.movement["rms_multiple"],
-                 "movement_mean_multiple": j2.movement["mean_multiple"]}
-        new = j2.opened - opened
-        if not new:
-            break
-        opened = opened | new
-    return {"stresses": stresses, "fuses": fuses, "notes": notes, "hazardous": hazardous, "after": after}
+    out = [{"stresses": list(j.stresses), "fuses": list(j.fuses), "notes": list(j.notes),
+            "hazardous": j.hazardous, "after": None} for j in judged]
+    opened = {i: j.opened for i, j in enumerate(judged) if j.opened and not stimuli[i].peak_only}
+    while opened:
+        groups: dict[frozenset, list[int]] = {}
+        for i, parts in opened.items():
+            groups.setdefault(parts, []).append(i)
+        following = {}
+        for parts, idx in groups.items():
+            settled = settle_all(_open_fuse_engine(engine, parts), st, [stimuli[i] for i in idx],
+                                 temperature_k=temperature_k, n_phase=n_phase)
+            for i, (eng, wf2) in zip(idx, settled):
+                ph = out[i]
+                j2 = judge(eng, wf2, phase=_after_label(parts, ph["fuses"]), opened=parts, short_exposure=False,
+                           original=engine.net)
+                ph["stresses"] += j2.stresses
+                ph["fuses"] += [dict(f, after=sorted(parts)) for f in j2.fuses]
+                ph["notes"] += j2.notes
+                ph["hazardous"] = ph["hazardous"] or j2.hazardous
+                ph["after"] = {"opened": sorted(parts), "movement_multiple": j2.movement["multiple"],
+                               "movement_rms_multiple": j2.movement["rms_multiple"],
+                               "movement_mean_multiple": j2.movement["mean_multiple"]}
+                new = j2.opened - parts
+                if new:
+                    following[i] = parts | new
+        opened = following
+    return out
 
 
 def _after_label(opened: frozenset, fuses: list) -> str:

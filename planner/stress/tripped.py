@@ -72,6 +72,24 @@ def settle(engine: Engine, st, stimulus, *, temperature_k=None, n_phase=None):
     tripped_resistance_ohm`; fixed-point and secant iteration: any numerical
     analysis text (e.g. Press et al., *Numerical Recipes*, 3rd ed., 9.2).
     """
+    return settle_all(engine, st, [stimulus], temperature_k=temperature_k, n_phase=n_phase)[0]
+
+
+def settle_all(engine: Engine, st, stimuli, *, temperature_k=None, n_phase=None) -> list[tuple]:
+    """:func:`settle` for several stimuli on one network, solved together.
+
+    Without a part that holds a tripped power, the stimuli are one batch of
+    :func:`planner.stress.waveforms.solve_waveforms`. With one, each stimulus
+    keeps its own iteration (its own resistances, given to the solver as factors
+    per row); the stimuli of one source kind are solved in one batch per step, and
+    a stimulus leaves the batch at the step where it has settled, so each ends
+    where it would alone.
+
+    Returns
+    -------
+    list of (Engine, Waveform), one per stimulus
+    """
+    stimuli = list(stimuli)
     ptcs = engine.spec.parts.ptcs
     fixed = {e.name: ptcs[e.ptc_model].tripped_resistance_ohm for e in engine.net.elements
              if isinstance(e, TrippedPtc) and ptcs[e.ptc_model].tripped_resistance_ohm is not None}
@@ -79,36 +97,61 @@ def settle(engine: Engine, st, stimulus, *, temperature_k=None, n_phase=None):
         engine = _with(engine, fixed)
     held = _holding(engine)
     if not held:
-        return engine, solve_waveforms(engine, st, [stimulus], temperature_k=temperature_k, n_phase=n_phase)[0]
+        wfs = solve_waveforms(engine, st, stimuli, temperature_k=temperature_k, n_phase=n_phase)
+        return [(engine, wf) for wf in wfs]
     models = {e.name: engine.spec.parts.ptcs[e.ptc_model] for e in held}
-    v0 = max(abs(stimulus.value), 1.0) if stimulus.kind == "voltage" else 1e3
-    x = {n: math.log(v0 * v0 / m.tripped_power_w) for n, m in models.items()}
-    prev = None
-    # one network with each held part at 1 ohm, its resistance given as a factor per step
-    # (the same resistances as a network per step, without building one each time)
+    # one network with each held part at 1 ohm, its resistance given as a factor per row and step
+    # (the same resistances as a network per stimulus and step, without building one each time)
     unit = _with(engine, {n: 1.0 for n in models})
-    used = x
-    wf = None
-    for _ in range(SETTLE_MAX):
-        used = x
-        wf = solve_waveforms(unit, st, [stimulus], temperature_k=temperature_k, n_phase=n_phase,
-                             factors={n: np.array([math.exp(v)]) for n, v in x.items()})[0]
-        g = {}
-        for n, m in models.items():
-            v = wf.voltage_v[n]
-            v_rms = float(math.sqrt(float((v * v).mean()))) if v.size else 0.0
-            g[n] = math.log(tripped_resistance_ohm(m, v_rms))
-        h = {n: g[n] - x[n] for n in x}
-        if all(abs(h[n]) < SETTLE_RTOL for n in x):
+    out: list = [None] * len(stimuli)
+    kinds: dict[tuple, list[int]] = {}
+    for i, s in enumerate(stimuli):  # one batch per source kind, as solve_waveforms groups them
+        kinds.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0.0), []).append(i)
+    for idx in kinds.values():
+        for i, (used, wf) in zip(idx, _iterate(unit, st, [stimuli[i] for i in idx], models, temperature_k, n_phase)):
+            out[i] = (_with(engine, {n: math.exp(v) for n, v in used.items()}), wf)
+    return out
+
+
+def _iterate(unit: Engine, st, stimuli, models: dict, temperature_k, n_phase) -> list[tuple]:
+    """The settling iteration of :func:`settle` for stimuli of one source kind, one batch per step.
+
+    Returns (the ln-resistances used, the waveform) per stimulus.
+    """
+    x = []
+    for s in stimuli:
+        v0 = max(abs(s.value), 1.0) if s.kind == "voltage" else 1e3
+        x.append({n: math.log(v0 * v0 / m.tripped_power_w) for n, m in models.items()})
+    prev: list = [None] * len(stimuli)
+    done: list = [None] * len(stimuli)
+    active = list(range(len(stimuli)))
+    for step in range(SETTLE_MAX):
+        factors = {n: np.array([math.exp(x[i][n]) for i in active]) for n in models}
+        wfs = solve_waveforms(unit, st, [stimuli[i] for i in active], temperature_k=temperature_k,
+                              n_phase=n_phase, factors=factors)
+        still = []
+        for i, wf in zip(active, wfs):
+            g = {}
+            for n, m in models.items():
+                v = wf.voltage_v[n]
+                v_rms = float(math.sqrt(float((v * v).mean()))) if v.size else 0.0
+                g[n] = math.log(tripped_resistance_ohm(m, v_rms))
+            h = {n: g[n] - x[i][n] for n in x[i]}
+            if all(abs(h[n]) < SETTLE_RTOL for n in x[i]) or step == SETTLE_MAX - 1:
+                done[i] = (x[i], wf)
+                continue
+            new = dict(g)
+            if len(x[i]) == 1 and prev[i] is not None:
+                (n,) = x[i]
+                xp, hp = prev[i]
+                if h[n] != hp and xp != x[i][n]:
+                    dx = -h[n] * (x[i][n] - xp) / (h[n] - hp)
+                    if math.isfinite(dx) and abs(dx) < 5.0:
+                        new[n] = x[i][n] + dx
+            prev[i] = (next(iter(x[i].values())), next(iter(h.values()))) if len(x[i]) == 1 else None
+            x[i] = new
+            still.append(i)
+        active = still
+        if not active:
             break
-        new = dict(g)
-        if len(x) == 1 and prev is not None:
-            (n,) = x
-            xp, hp = prev
-            if h[n] != hp and xp != x[n]:
-                step = -h[n] * (x[n] - xp) / (h[n] - hp)
-                if math.isfinite(step) and abs(step) < 5.0:
-                    new[n] = x[n] + step
-        prev = (next(iter(x.values())), next(iter(h.values()))) if len(x) == 1 else None
-        x = new
-    return _with(engine, {n: math.exp(v) for n, v in used.items()}), wf
+    return done

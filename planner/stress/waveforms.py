@@ -130,8 +130,9 @@ def solve_waveforms(engine: Engine, state, stimuli, *, temperature_k=None,
     n_phase : int, optional
         Phase points per sine cycle; ``PHASE_POINTS`` by default.
     factors : mapping, optional
-        Multipliers of nominal values per designator (:meth:`Engine.operate`), one
-        value for every stimulus.
+        Multipliers of nominal values per designator (:meth:`Engine.operate`): one
+        value for every stimulus, or one per stimulus (arrays as long as
+        ``stimuli``, all of one source kind).
 
     Returns
     -------
@@ -242,22 +243,35 @@ def _beyond(values: np.ndarray, limits: list, rows) -> list:
 def _patch(engine: Engine, st, patch: list, kind: str, sol: dict, temperature_k, factors=None) -> None:
     """Solve the samples ``patch`` ((row, sample, value)) with a source of ``kind`` and write them into ``sol``."""
     plus, minus = st.position.input
-    op2 = engine.operate(st, np.array([p[2] for p in patch]), kind=kind, temperature_k=temperature_k,
-                         factors=None if factors is None else {k: np.asarray(v)[:1] for k, v in factors.items()})
     rr = np.array([p[0] for p in patch])
     kk = np.array([p[1] for p in patch])
+    values = np.array([p[2] for p in patch])
+    if factors is not None and any(np.asarray(v).size > 1 for v in factors.values()):
+        # factors per row (one parameter set per stimulus): one parameter set per patched sample
+        per = {k: (np.asarray(v)[rr] if np.asarray(v).size > 1 else np.repeat(np.asarray(v)[:1], rr.size))
+               for k, v in factors.items()}
+        op2 = engine.operate(st, values.reshape(-1, 1), kind=kind, temperature_k=temperature_k, factors=per)
+
+        def take(a):
+            return np.asarray(a)[:, 0]
+    else:
+        op2 = engine.operate(st, values, kind=kind, temperature_k=temperature_k,
+                             factors=None if factors is None else {k: np.asarray(v)[:1] for k, v in factors.items()})
+
+        def take(a):
+            return np.asarray(a)[0]
     for e in stress_elements(engine):
         es = op2.element(e.name)
         sol["cur"][e.name] = np.array(sol["cur"][e.name])
         sol["vol"][e.name] = np.array(sol["vol"][e.name])
-        sol["cur"][e.name][rr, kk] = es.current_a[0]
-        sol["vol"][e.name][rr, kk] = es.voltage_v[0]
+        sol["cur"][e.name][rr, kk] = take(es.current_a)
+        sol["vol"][e.name][rr, kk] = take(es.voltage_v)
     sol["i_m"] = np.array(sol["i_m"])
-    sol["i_m"][rr, kk] = op2.movement_current_a[0]
+    sol["i_m"][rr, kk] = take(op2.movement_current_a)
     sol["i_src"] = np.array(sol["i_src"])
-    sol["i_src"][rr, kk] = op2.source_current_a[0]
+    sol["i_src"][rr, kk] = take(op2.source_current_a)
     sol["v_t"] = np.array(sol["v_t"])
-    sol["v_t"][rr, kk] = (op2.node_voltage(plus) - op2.node_voltage(minus))[0]
+    sol["v_t"][rr, kk] = take(op2.node_voltage(plus) - op2.node_voltage(minus))
     sol["limited"][rr, kk] = True
 
 

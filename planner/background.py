@@ -1,0 +1,135 @@
+"""One analysis run beside another on a second core: :func:`beside`.
+
+A command that needs two independent analyses of one design (the dossier: the
+accuracy check and the misrange matrix) can run one of them in a forked child
+process while it computes the other itself. The child inherits the design as it
+is in memory (nothing is pickled on the way in), computes, and sends its result
+back through a pipe; the parent takes it when it needs it.
+
+Where there is no second core, no ``fork`` start method (Windows, macOS's default)
+or the child fails to start or dies, the analysis is computed in the calling
+process when its result is asked for, so the answer is the same either way, only
+the time differs. An exception the analysis raises in the child comes back as its
+one-line text through ``on_error`` (the caller's own rendering of an exception),
+as it would have in the parent.
+"""
+
+from __future__ import annotations
+
+import os
+from typing import Any, Callable
+
+__all__ = ["beside", "Pending", "cores"]
+
+
+def cores() -> int:
+    """The processor cores this process may run on."""
+    try:
+        return len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        return os.cpu_count() or 1
+
+
+class Pending:
+    """The result of :func:`beside`: :meth:`result` gives ``(value, None)`` or ``(None, error text)``."""
+
+    def __init__(self, fn: Callable[[], Any], on_error: Callable[[BaseException], str]):
+        self._fn = fn
+        self._on_error = on_error
+        self._proc = None
+        self._conn = None
+        self._done: tuple | None = None
+
+    def _start(self) -> None:
+        import multiprocessing
+
+        ctx = multiprocessing.get_context("fork")
+        recv, send = ctx.Pipe(duplex=False)
+        proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send), daemon=True)
+        proc.start()
+        send.close()
+        self._proc, self._conn = proc, recv
+
+    def _here(self) -> tuple:
+        try:
+            return self._fn(), None
+        except Exception as exc:  # noqa: BLE001 - handed to the caller as text, as the child does
+            return None, self._on_error(exc)
+
+    def result(self) -> tuple:
+        """``(value, None)`` when the analysis returned, ``(None, text)`` when it raised."""
+        if self._done is None:
+            got = None
+            if self._conn is not None:
+                try:
+                    got = self._conn.recv()
+                except (EOFError, OSError):
+                    got = None  # the child died: compute here
+                finally:
+                    self._close()
+            self._done = got if got is not None else self._here()
+        return self._done
+
+    def _close(self) -> None:
+        if self._conn is not None:
+            self._conn.close()
+            self._conn = None
+        if self._proc is not None:
+            self._proc.join(timeout=5.0)
+            if self._proc.is_alive():
+                self._proc.terminate()
+                self._proc.join()
+            self._proc = None
+
+    def cancel(self) -> None:
+        """Stop the child (if any) without waiting for its answer."""
+        if self._proc is not None and self._proc.is_alive():
+            self._proc.terminate()
+        self._close()
+
+
+def _child(fn, on_error, send) -> None:
+    """The child's work: compute, send ``(value, None)`` or ``(None, text)``, exit."""
+    try:
+        out = (fn(), None)
+    except Exception as exc:  # noqa: BLE001 - sent as text
+        out = (None, on_error(exc))
+    try:
+        send.send(out)
+    except Exception as exc:  # noqa: BLE001 - an unpicklable result: the parent computes it itself
+        del exc
+    finally:
+        send.close()
+
+
+def beside(fn: Callable[[], Any], on_error: Callable[[BaseException], str], *, parallel: bool | None = None) -> Pending:
+    """Start ``fn()`` in a forked child where a second core allows it.
+
+    Parameters
+    ----------
+    fn : callable
+        The analysis, with everything it needs bound (the child sees the parent's
+        memory as it is at this call).
+    on_error : callable(BaseException) -> str
+        The text an exception of ``fn`` is reported as.
+    parallel : bool, optional
+        Force (True) or forbid (False) the child; by default a child is started
+        when this process may run on two cores or more and ``fork`` exists.
+
+    Returns
+    -------
+    Pending
+        Ask :meth:`Pending.result` when the value is needed.
+    """
+    pending = Pending(fn, on_error)
+    if parallel is None:
+        parallel = cores() >= 2
+    if parallel:
+        try:
+            import multiprocessing
+
+            if "fork" in multiprocessing.get_all_start_methods():
+                pending._start()
+        except (OSError, ValueError, ImportError):
+            pending._proc = pending._conn = None  # no child: computed here when asked
+    return pending

@@ -1,0 +1,60 @@
+"""One analysis beside another: the same answer from a forked child as from the calling process."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+import pytest
+
+from planner.background import beside, cores
+
+fork_only = pytest.mark.skipif(sys.platform == "win32", reason="no fork start method")
+
+
+def _text(exc: BaseException) -> str:
+    return f"{type(exc).__name__}: {exc}"
+
+
+@fork_only
+def test_a_value_computed_in_the_child_comes_back_whole():
+    parent = os.getpid()
+    pending = beside(lambda: {"pid_differs": os.getpid() != parent, "values": list(range(100_000))}, _text,
+                     parallel=True)
+    value, error = pending.result()
+    assert error is None
+    assert value["pid_differs"]  # computed in another process
+    assert value["values"] == list(range(100_000))
+
+
+def test_without_a_child_the_value_is_computed_here_when_asked():
+    calls = []
+    pending = beside(lambda: calls.append(os.getpid()) or 42, _text, parallel=False)
+    assert calls == []  # nothing computed before it is asked for
+    assert pending.result() == (42, None)
+    assert calls == [os.getpid()]
+    assert pending.result() == (42, None) and len(calls) == 1  # computed once
+
+
+@pytest.mark.parametrize("parallel", [False, True])
+def test_an_exception_comes_back_as_its_text(parallel):
+    def fails():
+        raise ValueError("no matrix today")
+
+    assert beside(fails, _text, parallel=parallel).result() == (None, "ValueError: no matrix today")
+
+
+@fork_only
+def test_a_child_that_dies_leaves_the_work_to_the_parent():
+    parent = os.getpid()
+
+    def dies_in_the_child():
+        if os.getpid() != parent:
+            os._exit(9)  # killed before it could answer
+        return "computed by the parent"
+
+    assert beside(dies_in_the_child, _text, parallel=True).result() == ("computed by the parent", None)
+
+
+def test_cores_counts_at_least_one():
+    assert cores() >= 1
