@@ -302,6 +302,26 @@ def test_waveform_figures_from_one_solve_equal_one_wave_at_a_time(service):
             np.testing.assert_allclose(b, a, rtol=0, atol=1e-12 * fs)
 
 
+def test_own_scale_grid_agrees_with_the_fixed_rule(service, high_bridge):
+    """The grid an ``own`` scale is marked from: the nested midpoint rules where they agree, else the fixed rule;
+    either way within 1e-10 of I_fs of the 1024-phase rule (Gauss-Chebyshev, Abramowitz and Stegun 25.4.38).
+
+    A current range's smooth response takes the shorter rules; the 1000 V bridge's sharp knee does not.
+    """
+    from planner.ranges.ac import SCALE_GRID, _grid_response, _nested_sine_means, operate_cycle
+
+    for design, name, nested in ((service, "10 mA~", True), (high_bridge, high_bridge.net.positions[0].name, False)):
+        eng = Engine(design)
+        st = eng.state(name)
+        fs = st.position.full_scale
+        fixed = operate_cycle(eng, st, SCALE_GRID * fs, "sine", kind=st.position.kind.source, temperature_k=None,
+                              r_source_ohm=0.0, factors=None).movement_multiple[0]
+        assert (_nested_sine_means(eng, st, SCALE_GRID * fs) is not None) == nested
+        a, d = _grid_response(eng, name)
+        np.testing.assert_allclose(d[1:], fixed, rtol=0, atol=1e-10)
+        np.testing.assert_allclose(a[1:], SCALE_GRID * fs, rtol=1e-15)
+
+
 def test_faults_families_of_ac_and_dc_positions(service):
     """DC on AC positions (both polarities), AC on DC positions, range up/down as sines, max input as a sine."""
     net = service.net
