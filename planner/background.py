@@ -17,6 +17,7 @@ as it would have in the parent.
 from __future__ import annotations
 
 import os
+import warnings
 from typing import Any, Callable
 
 __all__ = ["beside", "Pending", "cores"]
@@ -45,9 +46,20 @@ class Pending:
 
         ctx = multiprocessing.get_context("fork")
         recv, send = ctx.Pipe(duplex=False)
-        proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send), daemon=True)
-        proc.start()
-        send.close()
+        # not a daemon: a child may start a child of its own (the dossier's matrix shares out its transitions);
+        # the caller ends it with cancel() in every case
+        proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send), daemon=False)
+        try:
+            with warnings.catch_warnings():
+                # newer Pythons warn that forking a process with threads (numpy's BLAS pool) may deadlock
+                # in the child; the child here runs numpy only, whose BLAS library re-initialises after a fork
+                warnings.simplefilter("ignore", DeprecationWarning)
+                proc.start()
+        except BaseException:
+            recv.close()
+            raise
+        finally:
+            send.close()
         self._proc, self._conn = proc, recv
 
     def _here(self) -> tuple:
@@ -130,6 +142,6 @@ def beside(fn: Callable[[], Any], on_error: Callable[[BaseException], str], *, p
 
             if "fork" in multiprocessing.get_all_start_methods():
                 pending._start()
-        except (OSError, ValueError, ImportError):
-            pending._proc = pending._conn = None  # no child: computed here when asked
+        except Exception:  # noqa: BLE001 - no child could be started: computed here when asked
+            pending._proc = pending._conn = None
     return pending

@@ -56,5 +56,15 @@ def test_a_child_that_dies_leaves_the_work_to_the_parent():
     assert beside(dies_in_the_child, _text, parallel=True).result() == ("computed by the parent", None)
 
 
+@fork_only
+def test_a_child_may_share_its_work_with_a_child_of_its_own():
+    def inner():
+        return beside(lambda: os.getpid(), _text, parallel=True).result()
+
+    (grandchild, error), outer_error = beside(lambda: (inner()[0], None), _text, parallel=True).result()
+    assert outer_error is None and error is None
+    assert grandchild != os.getpid()
+
+
 def test_cores_counts_at_least_one():
     assert cores() >= 1

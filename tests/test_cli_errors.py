@@ -10,7 +10,9 @@ folder; and the answer within 2 s.
 
 Timing: the runs go two at a time to keep this file quick; a run slower than 2 s is
 repeated once on its own (the machine is shared, and a loaded neighbour is no fault of
-the planner) and the repeat must meet the 2 s.
+the planner) and the repeat must meet the 2 s, or, when the machine is loaded so that
+even a good project is slow, 1.5 times ``planner size`` of the pocket voltmeter measured
+right then (a ratio against a reference in the same run, as the benchmarks measure speed).
 
 ``check`` runs on every file; ``faults`` on every third network file; ``size`` and
 ``faults`` on every sixteenth loader file (all subcommands share the loader, so the
@@ -50,6 +52,10 @@ VOLTMETER = ROOT / "projects" / "pocket_voltmeter.yaml"
 
 #: The requirement: an answer to bad input within 2 s (wall time of the whole process).
 LIMIT_S = 2.0
+#: On a loaded machine: an answer to bad input within this many times ``planner size`` of the
+#: pocket voltmeter (start-up, loading and sizing: the most that any answer here needs before
+#: it can find the input bad, about 1 s on a quiet machine) measured at that moment.
+REFERENCE_RATIO = 1.5
 
 #: Words of a remedy: every message says what to do, not only what is wrong.
 REMEDY = re.compile(
@@ -130,13 +136,19 @@ def assert_one_line_error(run: Run, *, must_name: str | None = None):
 
 
 def assert_quick(run: Run, cwd: Path):
-    """The 2 s requirement; a slow run is repeated once alone (see the module docstring)."""
+    """The 2 s requirement; a slow run is repeated once alone, and on a loaded machine held against
+    ``planner size`` of a good project measured at that moment (see the module docstring)."""
     if run.elapsed_s < LIMIT_S:
         return
     again = run_cli(run.args, cwd)
     assert again.returncode == run.returncode and again.stderr == run.stderr
-    assert again.elapsed_s < LIMIT_S, (
-        f"planner {' '.join(run.args)} took {run.elapsed_s:.2f} s, and {again.elapsed_s:.2f} s when repeated alone")
+    if again.elapsed_s < LIMIT_S:
+        return
+    ref = min(run_cli(["size", VOLTMETER, "--json"], cwd.parent / f"{cwd.name}-reference-{k}").elapsed_s
+              for k in range(2))
+    assert again.elapsed_s < max(LIMIT_S, REFERENCE_RATIO * ref), (
+        f"planner {' '.join(run.args)} took {run.elapsed_s:.2f} s, {again.elapsed_s:.2f} s when repeated alone, "
+        f"and planner size of the pocket voltmeter {ref:.2f} s")
 
 
 def test_catalogue_is_large_and_distinct():

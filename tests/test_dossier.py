@@ -211,7 +211,7 @@ def test_an_analysis_that_raises_is_reported_in_its_section(tmp_path, monkeypatc
 
 def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     """The misrange matrix computed in a child beside the check equals the one computed after it."""
-    import json
+    from jsontree import assert_same_json
 
     from planner.dossier import gather
 
@@ -219,9 +219,8 @@ def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     beside = gather(spec, samples=20, parallel=True)
     after = gather(spec, samples=20, parallel=False)
     assert beside.errors == after.errors == {}
-    assert json.dumps(beside.faults, sort_keys=True, default=str) == json.dumps(after.faults, sort_keys=True,
-                                                                                 default=str)
-    assert beside.check == after.check
+    assert_same_json(beside.faults, after.faults)
+    assert_same_json(beside.check, after.check)
 
 
 def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, monkeypatch):
@@ -231,6 +230,19 @@ def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, m
     monkeypatch.setattr(layout.DossierDoc, "draw_first_pass", True)
     full = build_dossier(spec, tmp_path / "full.pdf", samples=20).read_bytes()
     assert fast == full
+
+
+def test_a_paragraph_asked_again_at_a_width_breaks_as_a_fresh_one():
+    """The kept line breaks equal reportlab's own at every width, asked in any order."""
+    from reportlab.platypus import Paragraph
+
+    text = "A fuse in the ohms feed, a diode crowbar on its own pole behind it; " * 6
+    kept = layout.Para(text, layout.STYLES["body"])
+    for width in (400.0, 120.0, 400.0, 55.0, 120.0):
+        fresh = Paragraph(text, layout.STYLES["body"])
+        assert kept.wrap(width, 800.0) == fresh.wrap(width, 800.0)
+        assert [line.words if hasattr(line, "words") else line for line in kept.blPara.lines] == \
+            [line.words if hasattr(line, "words") else line for line in fresh.blPara.lines]
 
 
 def test_project_file_is_never_overwritten(tmp_path):

@@ -16,6 +16,8 @@ from planner.errors import ProjectError
 from planner.faults import (cautions_for, category_impulse, faults_project, format_faults, stimuli_for)
 from planner.stress import assess
 
+from jsontree import assert_same_json
+
 OVERLOAD = m.Overload(peg=1.1, short_time=10.0, continuous=1.2)
 SI = m.DiodeModel("si", i_s_a=5e-9, n=1.9, r_s_ohm=0.5, r_p_ohm=1e9, max_current_a=0.2, surge_current_a=1.0,
                   max_power_w=0.5)
@@ -308,3 +310,34 @@ def test_example_multimeter_survives_its_category_and_max_input_without_accept_e
                if t["style"] == "break_before_make")
     text = format_faults(res_)
     assert max(len(line) for line in text.splitlines()) <= 100
+
+
+def _example(name: str):
+    from pathlib import Path
+
+    from planner.project import load
+
+    return build(load(Path(__file__).resolve().parents[1] / "projects" / f"{name}.yaml"))
+
+
+@pytest.mark.parametrize("name", ["pocket_ohmmeter", "service_multimeter"])
+def test_transitions_judged_beside_the_positions_give_the_same_matrix(name):
+    """The transitions judged in a child process give the JSON of the matrix judged in one process."""
+    design = _example(name)
+    alone = faults_project(design, parallel=False)
+    beside = faults_project(design, parallel=True)
+    assert_same_json(beside, alone)
+    assert beside["transitions"]  # there were transitions to share out
+
+
+def test_a_transition_that_fails_in_the_child_raises_its_own_error_here(monkeypatch):
+    """The child's failure is not turned into text: the transitions are judged again here and raise."""
+    import planner.faults.matrix as fm
+    from planner.errors import SolveError
+
+    def fails(*args, **kwargs):
+        raise SolveError("no operating point for this transition")
+
+    monkeypatch.setattr(fm, "_transition_cases", fails)
+    with pytest.raises(SolveError, match="no operating point"):
+        faults_project(_example("pocket_ohmmeter"), parallel=True)

@@ -74,7 +74,8 @@ def _date(spec, date) -> tuple[str, str]:
 
 
 def gather(design, *, date=None, samples: int | None = None, seed: int | None = None,
-           progress: Callable[[str], None] | None = None, parallel: bool | None = None) -> Context:
+           progress: Callable[[str], None] | None = None, parallel: bool | None = None,
+           meanwhile: Callable[[], None] | None = None) -> Context:
     """Run the analyses of a dossier on one design; an analysis that fails is kept as text.
 
     Parameters
@@ -93,6 +94,9 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         Run the misrange matrix in a child process beside the check (True), in
         this process after it (False), or the first where a second core allows
         it (None, :func:`planner.background.beside`). The results are the same.
+    meanwhile : callable, optional
+        The caller's own work (the scale plate), called once the check is done,
+        while the matrix may still be computed beside it.
 
     Returns
     -------
@@ -114,7 +118,7 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.cautions += list(ctx.sizing.get("cautions", []))
     # the misrange matrix on a second core while this one runs the check (the same answer, computed
     # here when there is no second core)
-    matrix = beside(lambda: faults.faults_project(design), _error_text, parallel=parallel)
+    matrix = beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel)
     try:
         say("dossier: accuracy check")
         try:
@@ -123,6 +127,8 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
             ctx.check = ctx.accuracy.json
         except Exception as exc:  # noqa: BLE001 - shown in the dossier
             ctx.errors["check"] = _error_text(exc)
+        if meanwhile is not None:
+            meanwhile()
         say("dossier: misrange faults")
         ctx.faults, error = matrix.result()
     finally:
@@ -242,7 +248,8 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
     plate, diagnosis, readings : optional
         Results the command computed for the scale-plate and restoration
         sections (see :func:`render`); the dossier renders them and computes
-        neither.
+        neither. ``plate`` may be a callable that computes it: it is called
+        while the misrange matrix is computed beside the check.
     protect : sequence of path-like
         More inputs never to be overwritten (the readings file).
 
@@ -278,7 +285,10 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
     check_targets(outputs, protect)
     _date(spec, date)
     design = as_design(design)  # a project whose network cannot be built or checked is bad input
-    ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress)
+    made = []
+    ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress,
+                 meanwhile=(lambda: made.append(plate())) if callable(plate) else None)
+    plate = made[0] if made else plate
     pdf = render(ctx, progress=progress, plate=plate, diagnosis=diagnosis,
                  readings=None if readings is None else str(readings))
     items = [(out, pdf)] + ([(bom_path, bom_csv(ctx))] if bom_path is not None else [])

@@ -118,13 +118,36 @@ def esc(text) -> str:
     return escape(str(text))
 
 
+class Para(Paragraph):
+    """A paragraph that breaks its lines once per width.
+
+    The layout asks a paragraph for its size again and again at the same width (a
+    table's row heights, again for each piece of a table split over pages, again in
+    the second pass); the lines it broke at a width are kept and given back. The
+    breaking depends on the width, the text and the style only, so the pages are
+    the same, byte for byte.
+    """
+
+    def wrap(self, availWidth, availHeight):
+        if availWidth < 1e-8:  # reportlab's "cannot fit here" answer, nothing to keep
+            return super().wrap(availWidth, availHeight)
+        kept = self.__dict__.setdefault("_dossier_wrapped", {})
+        hit = kept.get(availWidth)
+        if hit is None:
+            w, h = super().wrap(availWidth, availHeight)
+            kept[availWidth] = (w, h, self._wrapWidths, self.blPara)
+            return w, h
+        self.width, self.height, self._wrapWidths, self.blPara = hit
+        return hit[0], hit[1]
+
+
 def p(text: str, style: str = "body") -> Paragraph:
     """A paragraph of (already escaped) markup in a named style."""
-    return Paragraph(text, STYLES[style])
+    return Para(text, STYLES[style])
 
 
 # --- headings that feed the contents list and the PDF outline --------------------------------
-class Heading(Paragraph):
+class Heading(Para):
     """A section heading: registers itself in the contents and the PDF outline.
 
     Parameters
@@ -163,7 +186,7 @@ def _cellify(value, style: str):
         return value
     if value is None:
         value = "\u2013"
-    return Paragraph(str(value), STYLES[style])
+    return Para(str(value), STYLES[style])
 
 
 def table(header, rows, widths, *, align=None, zebra=True, extra=(), header_rows=1,
@@ -225,13 +248,13 @@ def table(header, rows, widths, *, align=None, zebra=True, extra=(), header_rows
 
 
 def _box(title: str, lines, border, fill, title_style="caution_title") -> Table:
-    content = [Paragraph(title, STYLES[title_style])]
+    content = [Para(title, STYLES[title_style])]
     lines = [x for x in lines if x]
     if len(lines) == 1:
-        content.append(Paragraph(lines[0], STYLES["body"]))
+        content.append(Para(lines[0], STYLES["body"]))
     else:
         for line in lines:
-            content.append(Paragraph(line, STYLES["bullet"], bulletText="\u2022"))
+            content.append(Para(line, STYLES["bullet"], bulletText="\u2022"))
     t = Table([[content]], colWidths=[FRAME_WIDTH], hAlign="LEFT")
     t.setStyle(TableStyle([
         ("BOX", (0, 0), (-1, -1), 1.1, border),

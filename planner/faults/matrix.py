@@ -10,6 +10,7 @@ contact style the transitions call for (:func:`contact_style`) and the cautions.
 from __future__ import annotations
 
 from .. import network as nw
+from ..background import beside
 from ..design import Design, as_design
 from ..engine import Engine
 from ..errors import SolveError
@@ -43,7 +44,7 @@ def transition_states(engine: Engine) -> list[nw.SwitchState]:
 
 
 def faults_project(design: Design | Spec, *, position: str | None = None, only_failing: bool = False, progress=None,
-                   engine: Engine | None = None) -> dict:
+                   engine: Engine | None = None, parallel: bool | None = False) -> dict:
     """The misrange matrix, protection curves and switch transitions of a project.
 
     Parameters
@@ -60,6 +61,11 @@ def faults_project(design: Design | Spec, *, position: str | None = None, only_f
         Called as ``progress(done, total, label)`` after each position and state.
     engine : Engine, optional
         A ready engine on ``design``.
+    parallel : bool or None
+        Judge the transitions in a child process on a second core while this one
+        judges the positions (:func:`planner.background.beside`; None: where a
+        second core allows it). The answer is the same; False (the default) keeps
+        everything in this process.
 
     Returns
     -------
@@ -93,8 +99,25 @@ def faults_project(design: Design | Spec, *, position: str | None = None, only_f
     acceptance = _Acceptance(spec)
     tick = _progress(progress, len(positions) + len(tstates))
 
-    cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
-    transitions = _transition_cases(engine, tstates, acceptance, tick)
+    beside_ = None
+    if parallel is not False and tstates and positions:  # the transitions on a second core
+        beside_ = beside(lambda: (_transition_cases(engine, tstates, acceptance, lambda _label: None),
+                                  acceptance.used), str, parallel=parallel)
+    try:
+        cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
+        transitions = None
+        if beside_ is not None:
+            got, error = beside_.result()
+            if error is None:
+                transitions, used = got
+                acceptance.used |= used
+                for st in tstates:
+                    tick(st.name)
+    finally:
+        if beside_ is not None:
+            beside_.cancel()
+    if transitions is None:  # in this process (or again, where the child failed: its error raised here)
+        transitions = _transition_cases(engine, tstates, acceptance, tick)
     fault_readings(engine, cases + transitions)  # an ohms range reads ohms on its own arc (docs/ohms.md)
     needed, transitions_ok = contact_style(transitions, bool(tstates), net.contact_style)
     met = not any(_failing(c) for c in cases) and transitions_ok

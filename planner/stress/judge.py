@@ -29,7 +29,7 @@ from ..model import Spec
 from ..stimulus import Stimulus, hazardous_live
 from .fuses import FuseEvent, exposure, fuse_event, trip_parts
 from .verdict import exceeds, stress_entry
-from .waveforms import Waveform, cycle_stats, stress_elements
+from .waveforms import Waveform, cycle_stats, cycle_stats_rows, stress_elements
 
 
 @dataclass(frozen=True)
@@ -215,13 +215,15 @@ def source_notes(wf: Waveform) -> list[str]:
 def element_contexts(spec: Spec, wf: Waveform, elements, movement_multiple: dict, phase: str) -> dict:
     """Each element's :class:`JudgingContext` (no event yet), by designator."""
     prospective = float(np.max(np.abs(wf.source_current_a))) if wf.source_current_a.size else 0.0
-    out = {}
-    for e in elements:
-        i = wf.current_a[e.name]
-        v = wf.voltage_v[e.name]
-        out[e.name] = JudgingContext(spec, wf.stimulus, cycle_stats(i), cycle_stats(v), float(np.mean(i * v)),
-                                     movement_multiple, prospective, phase, samples_i=i, samples_v=v)
-    return out
+    if not elements:
+        return {}
+    cur = np.array([wf.current_a[e.name] for e in elements])  # (parts, samples): every part's statistics at once
+    vol = np.array([wf.voltage_v[e.name] for e in elements])
+    i_st, v_st = cycle_stats_rows(cur), cycle_stats_rows(vol)
+    power = (cur * vol).sum(axis=1) / cur.shape[1]
+    return {e.name: JudgingContext(spec, wf.stimulus, i_st[k], v_st[k], float(power[k]), movement_multiple,
+                                   prospective, phase, samples_i=wf.current_a[e.name], samples_v=wf.voltage_v[e.name])
+            for k, e in enumerate(elements)}
 
 
 def lasting_s(fuses: list) -> float:

@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import numpy as np
-from reportlab.platypus import CondPageBreak, PageBreak, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, PageBreak, Spacer
 
 from ...model import Diode, Resistor
 from ...testpoints import pin_names
-from ..layout import RULE, STYLES, caution_box, esc, p, table
+from ..layout import RULE, STYLES, Para, caution_box, esc, p, table
 from ..text import celsius, hazard_reminder, is_hazardous, quantity, value_text
 from . import ohms
 from .context import Context
@@ -88,7 +88,7 @@ def build(ctx: Context) -> list:
     steps.append("Finally repeat the acceptance table below at the reference temperature "
                  f"({celsius(spec.ambient.t_ref_k)}), after the instrument has settled for at least an hour.")
     for i, s in enumerate(steps, start=1):
-        out.append(Paragraph(esc(s), STYLES["bullet"], bulletText=f"{i}."))
+        out.append(Para(esc(s), STYLES["bullet"], bulletText=f"{i}."))
     # test points
     out.append(p("Test points: node voltages at full scale", "h2"))
     nodes, volts = _test_points(ctx)
@@ -190,6 +190,6 @@ def build(ctx: Context) -> list:
                     "fitted.")
     inst.append("Thermometer for the ambient temperature of the acceptance test.")
     for s in inst:
-        out.append(Paragraph(esc(s), STYLES["bullet"], bulletText="\u2022"))
+        out.append(Para(esc(s), STYLES["bullet"], bulletText="\u2022"))
     out.append(PageBreak())
     return out

@@ -6,11 +6,10 @@ import math
 import re
 
 import numpy as np
-from reportlab.platypus import Paragraph
 
 from ...stress import describe_stress
 from .. import charts
-from ..layout import INK, STYLES, VERDICT_FILL, VERDICT_TEXT, esc, note_box
+from ..layout import INK, STYLES, VERDICT_FILL, VERDICT_TEXT, Para, esc, note_box
 from ..text import is_hazardous, value_text
 from .context import CHART_H, CHART_W, VERDICT_ORDER, Context
 
@@ -23,13 +22,13 @@ def error_note(ctx: Context, what: str, key: str) -> list:
                                                "the dossier again."])]
 
 
-def verdict_cell(verdict: str, extra: str = "") -> Paragraph:
+def verdict_cell(verdict: str, extra: str = "") -> Para:
     v = (verdict or "error").lower()
     word = v.upper()
     style = STYLES["cell_c"]
     colour = VERDICT_TEXT.get(v, INK).hexval()[2:]
     text = f"<font color='#{colour}'><b>{esc(word)}</b>{('<br/>' + esc(extra)) if extra else ''}</font>"
-    return Paragraph(text, style)
+    return Para(text, style)
 
 
 def verdict_fill(cells: list[tuple[int, int, str]]):

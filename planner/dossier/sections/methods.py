@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from reportlab.platypus import PageBreak, Paragraph, Spacer, XPreformatted
+from reportlab.platypus import PageBreak, Spacer, XPreformatted
 
-from ..layout import FRAME_WIDTH, STYLES, esc, p, table
+from ..layout import FRAME_WIDTH, STYLES, Para, esc, p, table
 from ..text import METHODS, REFERENCES, celsius, value_text
 from .context import Context
 
@@ -53,7 +53,7 @@ def methods(ctx: Context) -> list:
     out.append(table(["Item", "Parameters"], rows, [0.22, 0.78]))
     out.append(p("Sources", "h2"))
     for i, ref in enumerate(REFERENCES, start=1):
-        out.append(Paragraph(ref, STYLES["bullet"], bulletText=f"[{i}]"))
+        out.append(Para(ref, STYLES["bullet"], bulletText=f"[{i}]"))
     out.append(PageBreak())
     return out
 

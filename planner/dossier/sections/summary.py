@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from collections import defaultdict
 
-from reportlab.platypus import PageBreak, Paragraph, Spacer
+from reportlab.platypus import PageBreak, Spacer
 
-from ..layout import STYLES, caution_box, esc, p, table
+from ..layout import STYLES, Para, caution_box, esc, p, table
 from ..text import hazard_reminder, pct, pct_abs, value_text
 from .context import Context
 from .common import (
@@ -136,7 +136,7 @@ def summary(ctx: Context) -> list:
         findings.append("No finding needs action: every position is within class and every foreseeable misrange "
                         "is survived or accepted. Verify by test before use.")
     for f in findings:
-        out.append(Paragraph(f, STYLES["bullet"], bulletText="\u2022"))
+        out.append(Para(f, STYLES["bullet"], bulletText="\u2022"))
     acc = [c for c in ctx.fault_cases() if c.get("verdict") in ("overstress", "hazard") and is_accepted(ctx, c)]
     if acc:
         out.append(p(f"{len(acc)} failing misrange case(s) are accepted in the project file with a reason "
