@@ -8,13 +8,15 @@ protection parts find a plan at least as good as the hand design (no more failin
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
 from planner.faults import faults_project
 from planner.project import load, loads
 from planner.protect import protect_project, write_protected
-from planner.protect.judged import matrix_score, not_worse, plan_key, protection_candidates
+from planner.protect.judged import matrix_score, not_worse, plan_key, protection_candidates, same_request
 
 from conftest import VOLTMETER
 from test_sizing_protection import FLAGSHIP
@@ -52,6 +54,12 @@ def test_protection_candidates_of_the_flagship():
     assert {c.ring_crowbar for c in cands if c is not None} == {None, "si_6a"}
     assert {c.ma_fuse for c in cands if c is not None} == {None, "ma_315"}
     assert {c.input_ptc for c in cands if c is not None} == {None, "ptc_meter"}
+    # each combination once: 2 PTC choices x 2 crowbar choices x 2 mA fuse choices, the file's own among
+    # them (read from the file it carries its line; the same parts built from the catalogue do not)
+    assert len(cands) == 2 * 2 * 2
+    assert not any(same_request(a, b) for i, a in enumerate(cands) for b in cands[i + 1:])
+    assert same_request(spec.protection, replace(spec.protection, line=None))
+    assert not same_request(spec.protection, replace(spec.protection, ma_fuse=None)) and not same_request(None, cands[0])
 
 
 def test_pocket_voltmeter_plan_is_never_worse_and_reproduces_its_matrix(tmp_path):
@@ -99,3 +107,19 @@ def test_stripped_multimeter_gets_a_plan_as_good_as_the_hand_design(stripped, tm
     np.testing.assert_allclose(back["worst_ratio"], j["planned"]["worst_ratio"], rtol=1e-9)
     text = out.read_text(encoding="utf-8")
     assert "# Protection parts chosen by the search" in text and text.count("\nprotection:") == 1
+
+
+def test_judged_beside_the_search_decides_as_in_one_process():
+    """The project as given judged in a child process beside the clamp search (``parallel=True``) and
+    in the calling process after it (``parallel=False``): the same plan, the same failing counts."""
+    spec = load(VOLTMETER)
+    two = protect_project(spec, parallel=True)
+    one = protect_project(spec, parallel=False)
+    assert (two["chosen"] or {}).get("key") == (one["chosen"] or {}).get("key")
+    assert (two["writes"], two["requirements_met"]) == (one["writes"], one["requirements_met"])
+    for key in ("as_given", "planned"):
+        a, b = two["matrix"][key], one["matrix"][key]
+        assert (a["failing"], a["verdicts"]) == (b["failing"], b["verdicts"])
+        # the matrix's figures may differ in their last digits with the solver's history in the process
+        np.testing.assert_allclose(a["worst_ratio"], b["worst_ratio"], rtol=1e-6)
+    assert [r["label"] for r in two["matrix"]["parts"]] == [r["label"] for r in one["matrix"]["parts"]]

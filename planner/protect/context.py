@@ -79,6 +79,9 @@ class SearchContext:
         Counted evaluations, evaluations of the reported rows' final pass, pruned branches.
     truncated : bool
         Whether the cap stopped the search.
+    failed_at : list of str
+        Positions that failed the last candidates judged position by position, most
+        recent first (:func:`planner.protect.evaluate.feasible_alone` judges them first).
     """
 
     def __init__(self, design: Design, share: float | Mapping[str, float] = DEFAULT_SHARE, seed: int | None = None,
@@ -92,6 +95,7 @@ class SearchContext:
         self.reevaluated = 0
         self.pruned = 0
         self.truncated = False
+        self.failed_at: list[str] = []  # positions that failed the last candidates judged (the order of the work)
         self.seed = spec.analysis.seed if seed is None else seed
         self.rng = np.random.default_rng(int(self.seed))
         self.class_index = float(spec.movement.class_index)

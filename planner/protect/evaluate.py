@@ -40,6 +40,7 @@ __all__ = [
     "topology_of",
     "bare_readings",
     "run",
+    "feasible_alone",
     "accuracy_ok",
     "feasible",
     "slack",
@@ -195,7 +196,7 @@ def _readings(ctx: SearchContext, net: NetworkSpec) -> dict:
 
 
 def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase: int = SEARCH_PHASE_POINTS,
-        count: bool = True) -> Metrics:
+        count: bool | None = True) -> Metrics:
     """Evaluate a topology for a batch of split resistances (one row when None).
 
     Parameters
@@ -209,9 +210,10 @@ def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase:
         row instead (standard values).
     n_phase : int
         Phase points per sine cycle.
-    count : bool
+    count : bool or None
         False leaves the evaluation out of the candidate count (the reported
-        rows' final pass).
+        rows' final pass); None counts it nowhere (already counted by
+        :func:`feasible_alone`).
 
     Returns
     -------
@@ -234,7 +236,7 @@ def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase:
         rows = 1 if r_rows is None else len(r_rows)
     if count:
         ctx.evaluated += rows
-    else:
+    elif count is not None:
         ctx.reevaluated += rows
     try:
         return _run_rows(ctx, topo, _factors(topo, r_rows, pairs), rows, n_phase, pairs is not None)
@@ -284,10 +286,7 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
         if varies:
             r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name])
         else:
-            key = (p.name, n_phase)
-            if key not in topo.static:
-                topo.static[key] = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1])
-            r = topo.static[key]
+            r = _static_position(ctx, topo, p, n_phase, bare)
         if not varies and rows > 1:
             r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
                  for key, v in r.items()}
@@ -303,6 +302,72 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
         mi_r[:] = np.maximum(mi_r, r["max_input_reverse"])
         power[:] = np.maximum(power, r["power"])
     return Metrics(fwd, rev, fcase, rcase, mi_f, mi_r, err, tot, stress, scase, power, pf, pr)
+
+
+def _static_position(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict) -> dict:
+    """A position's figures for the topology's own values (one row), solved once and kept in ``topo.static``."""
+    key = (p.name, n_phase)
+    if key not in topo.static:
+        topo.static[key] = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1])
+    return topo.static[key]
+
+
+def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_PHASE_POINTS, count: bool = True,
+                   first=()) -> tuple[bool, str | None]:
+    """Whether a topology's own values are feasible, judged position by position until one fails.
+
+    Parameters
+    ----------
+    ctx : SearchContext
+    topo : Topology
+        Run at its own values (one row, as :func:`run` without rows).
+    n_phase : int
+        Phase points per sine cycle.
+    count : bool
+        Counted as one evaluation of the search (True) or of the final pass (False), as :func:`run`.
+    first : sequence of str
+        Positions to judge early: after those that failed the last candidates judged so
+        (``ctx.failed_at``, most recent first), before the rest (in switch order). Only
+        the order of the work changes, never the answer.
+
+    Returns
+    -------
+    feasible : bool
+        ``feasible(ctx, run(ctx, topo, n_phase=n_phase))[0]``, exactly.
+    failing : str or None
+        The position that failed (None when feasible, or when the solver failed).
+
+    Notes
+    -----
+    Feasibility is a conjunction over the positions (:func:`feasible`: each
+    position's clamp error within its limit, the clamp diodes' worst ratio
+    at most one, finite multiples; the worst over the positions is their
+    maximum), so the first position that fails decides it and the others
+    need not be solved. The positions solved are kept in ``topo.static``:
+    a following :func:`run` of the same topology reuses them.
+    """
+    if count:
+        ctx.evaluated += 1
+    else:
+        ctx.reevaluated += 1
+    rank: dict = {}
+    for name in list(ctx.failed_at) + list(first):
+        rank.setdefault(name, len(rank))
+    order = sorted(ctx.positions, key=lambda q: rank.get(q.name, len(rank)))
+    try:
+        if topo.carrying is None:
+            topo.carrying = {q.name: current_carrying(topo.engine, q.name) for q in ctx.positions}
+        bare = bare_readings(ctx, topo)
+        for p in order:
+            r = _static_position(ctx, topo, p, n_phase, bare)
+            ok = (r["error"][0] <= ctx.limits[p.name] * EXCEED and r["stress"][0] <= EXCEED
+                  and np.isfinite(np.maximum(r["forward"], r["reverse"])[0]))
+            if not ok:
+                ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
+                return False, p.name
+    except SolveError:
+        return False, None
+    return True, None
 
 
 def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare) -> dict:

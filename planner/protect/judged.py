@@ -38,7 +38,7 @@ from ..sizing.sections.protection import protection_lines
 from ..stress.verdict import FAILING
 from .. import writer
 
-__all__ = ["matrix_score", "plan_key", "protection_candidates", "judge_plans"]
+__all__ = ["matrix_score", "plan_key", "same_request", "protection_candidates", "judge_given", "judge_plans"]
 
 #: Most protection-part combinations judged (each is one whole misrange matrix).
 MAX_PART_PLANS = 48
@@ -85,8 +85,19 @@ def not_worse(a: dict, b: dict) -> bool:
     return (a["failing"], round(a["worst_ratio"], 9)) <= (b["failing"], round(b["worst_ratio"], 9))
 
 
+def same_request(a, b) -> bool:
+    """Whether two protection requests ask for the same parts (the file line they were read from aside)."""
+    if a is None or b is None:
+        return a is None and b is None
+    return replace(a, line=None) == replace(b, line=None)
+
+
 def protection_candidates(spec) -> list:
-    """Every ``protection:`` combination the catalogue offers (None: no protection parts), as given first."""
+    """Every ``protection:`` combination the catalogue offers (None: no protection parts), as given first.
+
+    Each combination once: the file's own is not listed again when the catalogue's
+    combinations reach it (:func:`same_request`).
+    """
     cat = spec.parts
     given = spec.protection
     ptcs = [None] + (list(cat.ptcs) if spec.voltage is not None else [])
@@ -108,7 +119,7 @@ def protection_candidates(spec) -> list:
             fusing=given.fusing if given else (), breaking_voltage_v=given.breaking_voltage_v if given else math.inf,
             ohms_fuse=given.ohms_fuse if given else None, ohms_crowbar=given.ohms_crowbar if given else None,
             ohms_crowbar_count=given.ohms_crowbar_count if given else 4)
-        if req not in out:
+        if not any(same_request(req, o) for o in out):
             out.append(req)
     return out[:MAX_PART_PLANS]
 
@@ -118,6 +129,42 @@ def _parts_added(req) -> int:
         return 0
     return (1 if req.input_ptc else 0) + (1 if req.fusible_input else 0) + (1 if req.ma_fuse else 0) + \
         (1 if req.ohms_fuse else 0) + (2 * req.ohms_crowbar_count if req.ohms_crowbar else 0) + (2 * req.ring_crowbar_count if req.ring_crowbar else 0)
+
+
+class _Designs:
+    """The designs of one judgement, each protection combination built (and read hot) once.
+
+    ``known`` seeds it with designs already built: the project as given, the clamp plan.
+    A combination the sizer refuses is remembered as its error and raised again.
+    """
+
+    def __init__(self, t_hot: float):
+        self.t_hot = t_hot
+        self._built: dict = {}
+        self._hot: dict = {}
+
+    def _key(self, base: str, req) -> tuple:
+        return base, None if req is None else replace(req, line=None)
+
+    def know(self, base: str, req, design: Design) -> None:
+        self._built[self._key(base, req)] = design
+
+    def build(self, base: str, base_spec, req) -> Design:
+        key = self._key(base, req)
+        if key not in self._built:
+            try:
+                self._built[key] = build(replace(base_spec, protection=req))
+            except PlannerError as e:
+                self._built[key] = e
+        got = self._built[key]
+        if isinstance(got, PlannerError):
+            raise got
+        return got
+
+    def hot(self, design: Design) -> dict:
+        if id(design) not in self._hot:
+            self._hot[id(design)] = (design, _hot_readings(design, self.t_hot))
+        return self._hot[id(design)][1]
 
 
 def _hot_readings(design: Design, t_hot: float) -> dict:
@@ -131,19 +178,20 @@ def _hot_readings(design: Design, t_hot: float) -> dict:
     return out
 
 
-def _judge_protection(spec, req, t_hot: float, bare: dict, share: float, say, known: dict | None = None) -> dict | None:
+def _judge_protection(spec, req, designs: "_Designs", base: str, bare: dict, share: float, say,
+                      known: dict | None = None) -> dict | None:
     """One protection combination sized and judged, or None when the sizer refuses it.
 
     ``known``: its matrix score when already judged (the project's own combination),
     so that only its price is found here.
     """
     try:
-        design = build(replace(spec, protection=req))
+        design = designs.build(base, spec, req)
         score = known if known is not None else matrix_score(faults_project(design))
     except PlannerError as e:
         say(f"protection {describe(req)}: not buildable ({e})")
         return None
-    hot = _hot_readings(design, t_hot)
+    hot = designs.hot(design)
     cls = spec.movement.class_index
     price = max((abs(hot[k] - bare.get(k, hot[k])) * 100.0 for k in hot), default=0.0)
     return {"protection": as_dict(req), "label": describe(req), "matrix": score,
@@ -193,7 +241,62 @@ def from_dict(p: dict | None):
                              ohms_crowbar_count=p.get("ohms_crowbar_count", 4))
 
 
-def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None) -> dict:
+def _parts_searched(spec) -> bool:
+    """Whether protection-part combinations are searched: a sized project whose catalogue has such parts."""
+    return spec.network is None and bool(spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes)
+
+
+def _base_rows(designs: _Designs, clamps: str, base_spec, base_matrix: dict, spec, share: float, say) -> list[dict]:
+    """Every protection combination with the clamps of one base (as given, or the clamp placement), judged."""
+    rows = []
+    bare = designs.hot(designs.build(clamps, base_spec, None))
+    for req in protection_candidates(base_spec):
+        say(f"protection parts with the clamps {clamps}: {describe(req)}")
+        if same_request(req, base_spec.protection):
+            row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
+                   "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
+            if req is not None:  # its price against no protection parts at all
+                row = _judge_protection(base_spec, req, designs, clamps, bare, share, say, base_matrix) or row
+        else:
+            row = _judge_protection(base_spec, req, designs, clamps, bare, share, say)
+        if row is not None:
+            row["clamps"] = clamps
+            row["as_given"] = clamps == "as given" and same_request(req, spec.protection)
+            rows.append(row)
+    return rows
+
+
+def judge_given(design: Design, share: float, say=lambda _m: None) -> dict:
+    """The project as given on the misrange matrix: its own matrix and its protection combinations judged.
+
+    The part of :func:`judge_plans` that does not depend on the clamp search, so that
+    it may run beside it (:func:`planner.background.beside`).
+
+    Parameters
+    ----------
+    design : Design
+        The project as given.
+    share : float
+        Share of the class the protection may cost at the hottest ambient.
+
+    Returns
+    -------
+    dict
+        ``matrix`` (:func:`matrix_score` of the project as given) and ``rows`` (each
+        protection combination with the project's own clamps judged, in the order of
+        :func:`protection_candidates`; none when :func:`judge_plans` searches no parts).
+    """
+    spec = design.spec
+    designs = _Designs(float(spec.ambient.t_max_k))
+    designs.know("as given", spec.protection, design)
+    say("the misrange matrix of the project as given")
+    given = matrix_score(faults_project(design))
+    rows = _base_rows(designs, "as given", spec, given, spec, share, say) if _parts_searched(spec) else []
+    return {"matrix": given, "rows": rows}
+
+
+def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda _m: None,
+                given: dict | None = None) -> dict:
     """Judge the clamp search's choice and the protection parts on the misrange matrix (see the module).
 
     Parameters
@@ -208,6 +311,9 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
         (:func:`planner.protect.write.protected_text`).
     share : float
         Share of the class the protection may cost at the hottest ambient.
+    given : dict, optional
+        What :func:`judge_given` returned for this design and share (computed
+        beside the search); computed here when None.
 
     Returns
     -------
@@ -220,36 +326,26 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
     """
     spec = design.spec
     notes = []
-    say("the misrange matrix of the project as given")
-    given = matrix_score(faults_project(design))
+    if given is None:
+        given = judge_given(design, share, say)
+    given_rows, given = list(given["rows"]), given["matrix"]
+    designs = _Designs(float(spec.ambient.t_max_k))
     bases = [("as given", spec, given)]
     clamp_plan = None
     if result.get("chosen") and spec.text:
         say("the misrange matrix of the chosen clamp placement")
         try:
             planned = loads(text_of(design, result), spec.path or "<plan>")
-            clamp_plan = matrix_score(faults_project(build(planned)))
+            planned_design = build(planned)
+            designs.know("clamp placement", planned.protection, planned_design)
+            clamp_plan = matrix_score(faults_project(planned_design))
             bases.append(("clamp placement", planned, clamp_plan))
         except PlannerError as e:
             notes.append(f"the chosen clamp placement does not build ({e}); kept as given")
-    rows = []
-    if spec.network is None and (spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes):
-        t_hot = float(spec.ambient.t_max_k)
-        for clamps, base_spec, base_matrix in bases:
-            bare = _hot_readings(build(replace(base_spec, protection=None)), t_hot)
-            for req in protection_candidates(base_spec):
-                say(f"protection parts with the clamps {clamps}: {describe(req)}")
-                if req == base_spec.protection:
-                    row = {"protection": as_dict(req), "label": describe(req), "matrix": base_matrix,
-                           "price_pct": 0.0, "price_share": 0.0, "parts_added": _parts_added(req)}
-                    if req is not None:  # its price against no protection parts at all
-                        row = _judge_protection(base_spec, req, t_hot, bare, share, say, base_matrix) or row
-                else:
-                    row = _judge_protection(base_spec, req, t_hot, bare, share, say)
-                if row is not None:
-                    row["clamps"] = clamps
-                    row["as_given"] = clamps == "as given" and req == spec.protection
-                    rows.append(row)
+    if _parts_searched(spec):
+        rows = given_rows
+        for clamps, base_spec, base_matrix in bases[1:]:
+            rows += _base_rows(designs, clamps, base_spec, base_matrix, spec, share, say)
         rows.sort(key=plan_key)
     else:
         rows = [{"protection": as_dict(spec.protection), "label": describe(spec.protection), "matrix": m,

@@ -19,6 +19,7 @@ from typing import Callable, Mapping
 
 import numpy as np
 
+from ..background import beside
 from ..design import Design, as_design
 from ..errors import UsageError
 from ..model import Spec
@@ -26,9 +27,10 @@ from ..tools import json_safe
 from .candidates import Combo, Site, Stack
 from .context import DEFAULT_SHARE, MAX_CANDIDATES, SearchContext
 from .evaluate import Point
+from .judged import judge_given, judge_plans
 from .ordering import PARETO_ROWS, choose, lex_compare, ordered, pareto, ranked, row_multiples
-from .realise import final, realise_explicit, realise_sized
-from .report import as_given_row, placement_row
+from .realise import failing_hint, final, realise_explicit, realise_sized
+from .report import as_given_row, placement_row, row_key
 from .search import branch_and_bound
 
 __all__ = ["protect_project"]
@@ -36,7 +38,7 @@ __all__ = ["protect_project"]
 
 def protect_project(design: Design | Spec, *, share: float | Mapping[str, float] = DEFAULT_SHARE,
                     seed: int | None = None, max_candidates: int = MAX_CANDIDATES,
-                    progress: Callable[[str], None] | None = None) -> dict:
+                    progress: Callable[[str], None] | None = None, parallel: bool | None = None) -> dict:
     """Search the clamp placement that best protects the movement within an accuracy share.
 
     Parameters
@@ -57,6 +59,12 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         over the reported rows is counted apart (``rows_reevaluated``).
     progress : callable(str), optional
         Receives a short message before each batch.
+    parallel : bool, optional
+        Judge the project as given and its protection-part combinations on the
+        misrange matrix in a child process beside the clamp search (True), in this
+        process after it (False), or the first where a second core allows it (None,
+        :func:`planner.background.beside`). The decisions are the same; the matrix
+        figures may differ in their last digits (see ``docs/performance.md``).
 
     Returns
     -------
@@ -115,39 +123,47 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         if unknown:
             raise UsageError(f"the accuracy share names no position '{unknown[0]}'; positions: "
                              f"{', '.join(ctx.limits)}")
-    ctx.say("the project as given")
-    as_given = as_given_row(ctx)
-    model = ctx.default_model()
-    movement = Site("movement", "movement", ctx.movement.a)
-    across = Combo(movement, Stack(model, 1), Stack(model, 1))
+    # the project as given on the misrange matrix does not depend on the clamp search: on a second core
+    worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
+    given = beside(lambda: judge_given(design, worst_share), lambda exc: str(exc), parallel=parallel)
+    try:
+        ctx.say("the project as given")
+        as_given = as_given_row(ctx)
+        model = ctx.default_model()
+        movement = Site("movement", "movement", ctx.movement.a)
+        across = Combo(movement, Stack(model, 1), Stack(model, 1))
 
-    points, info, evaluated = branch_and_bound(ctx)
+        points, info, evaluated = branch_and_bound(ctx)
 
-    # every feasible placement found, best first -> standard values -> the faults
-    # matrix's phase points -> Pareto set and choice on those final numbers
-    ctx.say("clamps across the movement")
-    pa = final(ctx, Point(across, None, None, False))
-    across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
-    finals = _final_rows(ctx, points, evaluated, across, across_row)
-    table, chosen = _pareto_table(finals)
-    result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
-    _judge_on_matrix(design, result, share, ctx.say)
+        # every feasible placement found, best first -> standard values -> the faults
+        # matrix's phase points -> Pareto set and choice on those final numbers
+        ctx.say("clamps across the movement")
+        pa = final(ctx, Point(across, None, None, False))
+        across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
+        finals = _final_rows(ctx, points, evaluated, across, across_row)
+        table, chosen = _pareto_table(finals)
+        result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
+        ctx.say("the misrange matrices of the project as given and of its protection parts")
+        judged_given, error = given.result()
+        _judge_on_matrix(design, result, worst_share, ctx.say, None if error is not None else judged_given)
+    finally:
+        given.cancel()
     return json_safe(result)
 
 
-def _judge_on_matrix(design: Design, result: dict, share, say) -> None:
+def _judge_on_matrix(design: Design, result: dict, worst_share: float, say, given: dict | None = None) -> None:
     """The clamp choice and the protection parts judged on the misrange matrix (:mod:`planner.protect.judged`).
 
     ``result`` gains ``matrix`` (the judgement); its ``chosen`` is dropped when the
     placement protects worse than the project as given; ``requirements_met``
     becomes: the plan that would be written (or the project as given, when no
     plan is better) leaves no failing case in the misrange matrix, transitions
-    included.
+    included. ``given``: :func:`planner.protect.judged.judge_given` of the design,
+    when computed already (None: computed here, so an error it raises is raised
+    here as it would be without a child process).
     """
-    from .judged import judge_plans
     from .write import protected_text
-    worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
-    judged = judge_plans(design, result, protected_text, worst_share, say)
+    judged = judge_plans(design, result, protected_text, worst_share, say, given)
     result["matrix"] = judged
     if result["chosen"] is None:
         for r in result["pareto"]:
@@ -180,7 +196,9 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     The clamps across the movement come first (as a candidate); then up to
     twice :data:`PARETO_ROWS` placements, best first, each realised
     (:mod:`planner.protect.realise`) and evaluated at the reported resolution;
-    a placement that realises to a row already there is left out.
+    a placement that realises to a row already there is left out, and so is an
+    infeasible one (only feasible rows enter the Pareto table: it is found out
+    at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
     """
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
@@ -197,8 +215,12 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
             q = realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
         if q is None:
             continue
-        q = final(ctx, q)
-        row = placement_row(ctx, "candidate", q, clamps=q.clamps)
+        # only a feasible row can enter the table: an infeasible one is found out at its first failing position
+        fq = final(ctx, q, feasible_only=True, first=failing_hint(p))
+        if fq is None:
+            seen.add(row_key(q.combo, q.r))
+            continue
+        row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
         if row["key"] not in seen:
             seen.add(row["key"])
             finals.append(row)

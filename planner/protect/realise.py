@@ -24,12 +24,15 @@ from ..model import ClampRequest, NetworkSpec, Resistor
 from ..sizing import choose_value, size
 from .candidates import Combo, Site
 from .context import SearchContext
-from .evaluate import EXCEED, REPORT_PHASE_POINTS, Point, Topology, feasible, run, topology, topology_of
+from .evaluate import (EXCEED, REPORT_PHASE_POINTS, Point, Topology, feasible, feasible_alone, run, topology,
+                       topology_of)
 from .ordering import lex_best
 from .search import REFINE_XTOL_REL, SPLIT_HI, SPLIT_LO
 
 __all__ = [
     "REALISE_TRIES",
+    "failing_hint",
+    "final_topology",
     "split_values",
     "realise_explicit",
     "sized_clamps",
@@ -173,11 +176,14 @@ def sized_watch(net: NetworkSpec) -> tuple:
 
 
 def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
-    """The point as a ``clamps:`` request, sized by the sizer and evaluated.
+    """The point as a ``clamps:`` request, sized by the sizer and judged.
 
     A split's tap goes to the standard value at or below the search's
     resistance, and one step lower each time the sized result is infeasible
-    (at most :data:`REALISE_TRIES` tries).
+    (at most :data:`REALISE_TRIES` tries). Each try is judged for feasibility
+    alone (:func:`planner.protect.evaluate.feasible_alone`, which stops at the
+    first position that fails): the point returned for a split carries no
+    metrics (``metrics`` None), :func:`final` evaluates it.
     """
     if p.combo.site.kind != "split":
         clamps = sized_clamps(ctx, p.combo, None)
@@ -190,6 +196,7 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
     best = None
     # a standard value for the tap, so the sizer makes the tap segment of one part
     r = eseries.at_or_below(ctx.series, p.r)
+    first = failing_hint(p)
     for _ in range(REALISE_TRIES):
         if not ctx.room(1):
             break
@@ -199,13 +206,13 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
         except ProjectError:
             break
         topo = topology_of(ctx, net, sized_watch(net))
-        m = run(ctx, topo)
+        ok, _ = feasible_alone(ctx, topo, first=first)
         tap = [e for e in net.elements if isinstance(e, Resistor) and e.group == "tap 1"]
         # the sizer's node of the (only) clamp tap is "tap1"; the segment above it ends there
         above = {e.group for e in net.elements if isinstance(e, Resistor) and e.group not in (None, "tap 1")
                  and "tap1" in e.nodes}
         upper = tuple(e.value_ohm for e in net.elements if isinstance(e, Resistor) and e.group in above)
-        q = Point(p.combo, r, m, bool(feasible(ctx, m)[0]), upper=upper, lower=tuple(e.value_ohm for e in tap),
+        q = Point(p.combo, r, None, ok, upper=upper, lower=tuple(e.value_ohm for e in tap),
                   stage="realised", clamps=clamps, net=net)
         if best is None or (q.feasible and not best.feasible):
             best = q
@@ -218,8 +225,14 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
 # --- the reported pass ------------------------------------------------------------------------
 
 
-def final(ctx: SearchContext, p: Point) -> Point:
-    """The point evaluated again on its realised network, :data:`REPORT_PHASE_POINTS` per sine cycle."""
+def failing_hint(p: Point) -> tuple:
+    """The position where a point's clamp diodes were stressed most (judged first when it is realised)."""
+    case = p.metrics.stress_case[0] if p.metrics is not None and p.metrics.stress_case else None
+    return (case[0],) if case else ()
+
+
+def final_topology(ctx: SearchContext, p: Point) -> tuple[Topology, tuple | None]:
+    """The realised network of a point, ready to run, and its ``clamps:`` requests (sized projects)."""
     clamps = None
     if ctx.sized:
         clamps = p.clamps or sized_clamps(ctx, p.combo, p.r)
@@ -229,5 +242,23 @@ def final(ctx: SearchContext, p: Point) -> Point:
         topo = topology(ctx, p.combo, upper=p.upper, lower=p.lower)
     else:
         topo = topology(ctx, p.combo)
-    m = run(ctx, topo, n_phase=REPORT_PHASE_POINTS, count=False)
+    return topo, clamps
+
+
+def final(ctx: SearchContext, p: Point, *, feasible_only: bool = False, first=()) -> Point | None:
+    """The point evaluated again on its realised network, :data:`REPORT_PHASE_POINTS` per sine cycle.
+
+    With ``feasible_only``, an infeasible point is only found out (position by
+    position, :func:`planner.protect.evaluate.feasible_alone`, the positions in
+    ``first`` judged first) and None returned; a feasible one is evaluated in full
+    on the positions already solved. Either way it counts one row of the final pass.
+    """
+    topo, clamps = final_topology(ctx, p)
+    if feasible_only:
+        ok, _ = feasible_alone(ctx, topo, n_phase=REPORT_PHASE_POINTS, count=False, first=first)
+        if not ok:
+            return None
+        m = run(ctx, topo, n_phase=REPORT_PHASE_POINTS, count=None)
+    else:
+        m = run(ctx, topo, n_phase=REPORT_PHASE_POINTS, count=False)
     return Point(p.combo, p.r, m, bool(feasible(ctx, m)[0]), p.upper, p.lower, stage="final", clamps=clamps)

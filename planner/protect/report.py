@@ -20,7 +20,7 @@ from .context import SearchContext
 from .evaluate import (EXCEED, REPORT_PHASE_POINTS, Metrics, Point, accuracy_ok, feasible, run, share_of_class,
                        topology_of)
 
-__all__ = ["placement_row", "as_given_row", "position_rows", "format_protect", "si_text", "multiple_text"]
+__all__ = ["row_key", "placement_row", "as_given_row", "position_rows", "format_protect", "si_text", "multiple_text"]
 
 
 # --- rows -------------------------------------------------------------------------------------
@@ -57,6 +57,11 @@ def _figures(ctx: SearchContext, m: Metrics) -> dict:
         "hot_linearity_total_pct": json_safe(max(float(m.total_pct[q.name][0]) for q in ctx.positions)),
         "positions": position_rows(ctx, m),
     }
+
+
+def row_key(combo: Combo, r: float | None) -> str:
+    """The ``key`` of a row: the placement (site, stacks) and its split resistance."""
+    return "|".join(str(x) for x in combo.key()) + f"|{r!r}"
 
 
 def placement_row(ctx: SearchContext, label: str, p: Point, combo: Combo | None = None, *, clamps=None) -> dict:
@@ -110,7 +115,7 @@ def placement_row(ctx: SearchContext, label: str, p: Point, combo: Combo | None 
         "stress_ok": bool(m.stress[0] <= EXCEED),
         "feasible": bool(p.feasible),
         "stage": p.stage,
-        "key": "|".join(str(x) for x in combo.key()) + f"|{p.r!r}",
+        "key": row_key(combo, p.r),
     }
     if m.failed:
         row["solver_error"] = m.failed

@@ -66,6 +66,7 @@ class LinearNetwork:
         self._conducting = tuple(Contact(f"__conducting_{e.name}", *e.nodes, ac)
                                  for e in net.elements if e.stamp == "junction") if ac else ()
         self._nets: dict[tuple, NetworkSpec] = {}
+        self._cases: dict[tuple, tuple | None] = {}  # (shorted, position) -> what every solve of it reuses
         self.last_input_v = 0.0  # the input terminals' voltage of the last solve [V]
 
     def _net(self, shorted) -> NetworkSpec:
@@ -87,28 +88,50 @@ class LinearNetwork:
         shorted : sequence of str
             Nodes joined to common for this case.
         """
-        net = self._net(shorted)
-        st = nw.position_states(net)[[p.name for p in net.positions].index(pos.name)]
+        case = self._case(tuple(shorted), pos.name)
+        if case is None:
+            return None
+        c, r, z, emf, pins = case
         try:
-            c = nw.compiled(self.spec, st, net=net)
-            dt = np.zeros((1, 1))
-            r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
-                                for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
-            z = np.zeros((1, 0))
-            e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
-                           for br in c.branches]])
-            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]),
-                        emf=e if np.any(e != 0.0) else None)
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]), emf=emf)
         except SolveError:
             return None
+        zero = np.zeros((1, 1))
 
-        def v(node):
-            i = c.node_index.get(node)
-            return np.zeros((1, 1)) if i is None else sol.node_voltage(i)
+        def v(i):
+            return zero if i is None else sol.node_voltage(i)
 
-        out = {e.name: float((v(e.nodes[0]) - v(e.nodes[1]))[0, 0]) for e in self.elements if e.rated}
-        self.last_input_v = float((v(PLUS) - v(COM))[0, 0])  # the voltage at the input terminals [V]
+        out = {name: float((v(a) - v(b))[0, 0]) for name, a, b in pins[:-1]}
+        _, a, b = pins[-1]
+        self.last_input_v = float((v(a) - v(b))[0, 0])  # the input terminals' voltage of the last solve [V]
         return out
+
+    def _case(self, shorted: tuple, position: str):
+        """The compiled state, branch resistances, EMFs and node indices of one (shorted, position) case.
+
+        Made once per network and case: every rating case of that position with those
+        nodes shorted solves the same circuit at another input value. None when the
+        state does not compile.
+        """
+        key = (shorted, position)
+        if key not in self._cases:
+            net = self._net(shorted)
+            st = nw.position_states(net)[[p.name for p in net.positions].index(position)]
+            try:
+                c = nw.compiled(self.spec, st, net=net)
+                dt = np.zeros((1, 1))
+                r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
+                                    for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
+                e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
+                               for br in c.branches]])
+            except SolveError:
+                self._cases[key] = None
+                return None
+            idx = c.node_index.get
+            pins = [(el.name, idx(el.nodes[0]), idx(el.nodes[1])) for el in self.elements if el.rated]
+            pins.append((None, idx(PLUS), idx(COM)))  # the input terminals
+            self._cases[key] = (c, r, np.zeros((1, 0)), e if np.any(e != 0.0) else None, pins)
+        return self._cases[key]
 
 
 def rating_cases(spec: Spec, layout: Layout):
