@@ -226,8 +226,12 @@ def test_linearity_bridge_shared_scale_against_nodal_solve():
                                   "diode: d1}\n",
                                   "ac_current: {arrangement: separate, full_scales: [10 mA], rectifier: half_wave, "
                                   "diode: d1}\n"])
-def test_rule_converged_against_4096_phases(body):
-    """Readings at 10 % .. 100 % of full scale, nominal and 40 Monte Carlo builds, to 1e-6 of full scale.
+@pytest.mark.parametrize("builds", [40, 60], ids=["verified-every-row", "verified-extreme-rows"])
+def test_rule_converged_against_4096_phases(body, builds):
+    """Readings at 10 % .. 100 % of full scale, nominal and 40 or 60 Monte Carlo builds, to 1e-6 of full scale.
+
+    40 builds are a small batch (solved on the rule's check nodes too, every row verified), 60 a large
+    one (the extreme rows verified in a second solve): both paths of ``planner.ranges.ac``.
 
     Source: the rectangle rule on 4096 equally spaced phases of the periodic integrand
     (exponentially convergent for a smooth one: Trefethen and Weideman, SIAM Review 56,
@@ -238,7 +242,7 @@ def test_rule_converged_against_4096_phases(body):
     eng = Engine(design)
     pos = design.net.positions[0]
     fs = pos.full_scale
-    fac = draw_factors(parameters(eng), 40, np.random.default_rng(3))
+    fac = draw_factors(parameters(eng), builds, np.random.default_rng(3))
     applied = np.arange(1, 11) * 0.1 * fs
     ours = eng.operate(pos.name, applied, factors=fac).movement_current_a
     phases = np.sin(2 * np.pi * np.arange(4096) / 4096)
@@ -278,6 +282,44 @@ def test_example_check_has_ac_figures(service):
     own = next(p for p in ac if p["name"] == "10 mA~")
     assert own["scale"] == "own"
     assert max(abs(r["error_pct"]) for r in own["linearity"]) < 1e-4  # the own scale is marked from this response
+
+
+def test_waveform_figures_from_one_solve_equal_one_wave_at_a_time(service):
+    """The check's waveform figures come from one batch; each wave solved on its own gives the same reading.
+
+    Source: the same fixed cycle rule per wave either way (midpoint in phase, 1024 nodes), so the two may differ by
+    the solver's convergence alone (common practice: 1e-12 of full scale).
+    """
+    from planner.ranges.ac import CHECK_WAVEFORMS, waveform_readings
+
+    eng = Engine(service)
+    for name in ("250 V~", "10 mA~"):  # a shared and an own scale
+        fs = eng.state(name).position.full_scale
+        batch = waveform_readings(eng, name, [(w, [fs]) for w in CHECK_WAVEFORMS] + [("dc", [fs, -fs])])
+        alone = [eng.operate(name, [fs], waveform=w).reading()[0] for w in CHECK_WAVEFORMS]
+        alone.append(eng.operate(name, [fs, -fs], waveform="dc").reading()[0])
+        for b, a in zip(batch, alone):
+            np.testing.assert_allclose(b, a, rtol=0, atol=1e-12 * fs)
+
+
+def test_own_scale_grid_agrees_with_the_fixed_rule(service, high_bridge):
+    """The grid an ``own`` scale is marked from: the nested midpoint rules where they agree, else the fixed rule;
+    either way within 1e-10 of I_fs of the 1024-phase rule (Gauss-Chebyshev, Abramowitz and Stegun 25.4.38).
+
+    A current range's smooth response takes the shorter rules; the 1000 V bridge's sharp knee does not.
+    """
+    from planner.ranges.ac import SCALE_GRID, _grid_response, _nested_sine_means, operate_cycle
+
+    for design, name, nested in ((service, "10 mA~", True), (high_bridge, high_bridge.net.positions[0].name, False)):
+        eng = Engine(design)
+        st = eng.state(name)
+        fs = st.position.full_scale
+        fixed = operate_cycle(eng, st, SCALE_GRID * fs, "sine", kind=st.position.kind.source, temperature_k=None,
+                              r_source_ohm=0.0, factors=None).movement_multiple[0]
+        assert (_nested_sine_means(eng, st, SCALE_GRID * fs) is not None) == nested
+        a, d = _grid_response(eng, name)
+        np.testing.assert_allclose(d[1:], fixed, rtol=0, atol=1e-10)
+        np.testing.assert_allclose(a[1:], SCALE_GRID * fs, rtol=1e-15)
 
 
 def test_faults_families_of_ac_and_dc_positions(service):

@@ -462,3 +462,77 @@ def test_shared_weights_are_exact_for_a_polynomial_response():
     crest = rule.crest_values(g(rule.nodes * rule.span))
     np.testing.assert_allclose(crest[2], [g(1.0), g(-1.0)], rtol=1e-12)
     np.testing.assert_allclose(crest[6], [g(-0.4), g(-0.4)], rtol=1e-12)
+
+
+# --- the shared rule's building blocks: moments, look-ahead, check nodes ------------------------------------
+
+
+@pytest.mark.parametrize("scale,lo,hi", [(1.0, -1.0, -0.5), (0.7, -0.2, 0.3), (-0.4, 0.1, 0.9), (0.3, 0.5, 0.8),
+                                         (1.0, 0.99, 1.0)])
+def test_sine_moments_against_quad(scale, lo, hi):
+    # the Legendre moments of the arcsine law of s sin t on a panel, against scipy quad of
+    # P_k((y - mid) / half) / (pi sqrt(s^2 - y^2)) with the end singularities as quad's 'alg' weight
+    from planner.cycle.shared import MAX_DEGREE, _sine_moments
+
+    got = _sine_moments([scale], lo, hi)[0]
+    s = abs(scale)
+    a, b = max(lo, -s), min(hi, s)
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    al, be = (-0.5 if a == -s else 0.0), (-0.5 if b == s else 0.0)  # (y - a)^al (b - y)^be: quad's 'alg' weight
+    want = np.zeros(MAX_DEGREE + 1)
+    for k in range(MAX_DEGREE + 1):
+        pk = np.polynomial.legendre.Legendre.basis(k)
+
+        def rest(y, pk=pk):  # the density 1 / (pi sqrt(s^2 - y^2)) without the factors the weight holds
+            return float(pk((y - mid) / half)) / math.pi * (s + y) ** (-0.5 - al) * (s - y) ** (-0.5 - be)
+
+        want[k] = quad(rest, a, b, weight="alg", wvar=(al, be), epsabs=1e-14, epsrel=1e-11)[0] if b > a else 0.0
+    np.testing.assert_allclose(got, want, rtol=0, atol=1e-12)  # quad to 1e-11 relative; the 48-point phase rule is exact there
+
+
+def test_look_ahead_keeps_the_rule(rectifier, monkeypatch):
+    # solving halves ahead changes how many solves a rule takes, not the rule: the same panels, orders and
+    # weights as plain halving (a sharp-kneed 250 V bridge and the fixture's 2.5 V rectifier)
+    import planner.cycle.shared as sh
+
+    kind, eng, fac, temps = rectifier
+    for engine, fs in ((eng, 2.5), (rx.sized("bridge", 250.0), 250.0)):
+        targets = [Target(Sine(), Sine().peak_of(f * fs)) for f in np.arange(1, 11) / 10.0]
+        calls = []
+
+        def ev(x, engine=engine):
+            calls.append(len(x))
+            return rx.evaluator(engine, temperatures=[rx.T_COLD, rx.T_HOT])(x)
+
+        rules = {}
+        for depth in (0, sh.LOOKAHEAD):
+            monkeypatch.setattr(sh, "LOOKAHEAD", depth)
+            calls.clear()
+            rules[depth] = (adapt_shared(targets, ev, TOL_A), len(calls))
+        (plain, n0), (ahead, n2) = rules[0], rules[sh.LOOKAHEAD]
+        np.testing.assert_array_equal(ahead.panels, plain.panels)
+        np.testing.assert_array_equal(ahead.orders, plain.orders)
+        np.testing.assert_allclose(ahead.weights, plain.weights, rtol=0, atol=1e-13)
+        assert n2 <= n0
+
+
+def test_check_nodes_are_what_verify_solves_and_padding_keeps_the_means(rectifier):
+    kind, eng, fac, temps = rectifier
+    targets = [Target(Sine(), Sine().peak_of(f * 2.5)) for f in (0.3, 1.0)]
+    rule = adapt_shared(targets, rx.evaluator(eng), TOL_A)
+    asked = []
+
+    def ev(x):
+        asked.append(np.array(x))
+        return rx.evaluator(eng, fac, temps, rows=[0, 1])(x)
+
+    q = rx.evaluator(eng, fac, temps, rows=[0, 1])(rule.points())
+    rule.verify(ev, known=q)
+    np.testing.assert_array_equal(asked[0], rule.span * rule.check_nodes())  # the same floats
+    extra = rule.check_nodes()
+    padded = rule.padded(extra)
+    q_all = np.concatenate([q, ev(rule.span * extra)], axis=1)
+    np.testing.assert_array_equal(padded.points(), np.concatenate([rule.points(), rule.span * extra]))
+    np.testing.assert_allclose(padded.mean(q_all), rule.mean(q), rtol=1e-15, atol=0)
+    np.testing.assert_allclose(padded.rms(q_all), rule.rms(q), rtol=1e-15, atol=0)
+    np.testing.assert_allclose(padded.peak(q_all), rule.peak(q), rtol=1e-15, atol=0)

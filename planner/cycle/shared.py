@@ -39,7 +39,7 @@ from scipy.optimize import brentq
 
 from . import adaptive as _ad
 from .rules import gauss_kronrod, gauss_legendre
-from .shapes import Shape
+from .shapes import Shape, Sine
 
 __all__ = ["Target", "SharedRule", "adapt_shared", "PHASE_POINTS_PER_PIECE"]
 
@@ -159,6 +159,34 @@ def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
     return m
 
 
+def _sine_moments(scales, lo: float, hi: float) -> np.ndarray:
+    r"""The moments of :func:`_moments` for sines of several scales at once: (len(scales), MAX_DEGREE + 1).
+
+    Notes
+    -----
+    For :math:`y = s \sin t`, t uniform on :math:`[-\pi/2, \pi/2]`, the phases that map into
+    [lo, hi] are :math:`[\arcsin(c_{lo}/s), \arcsin(c_{hi}/s)]` with the panel clipped to
+    :math:`[-|s|, |s|]` (the distribution of :math:`s \sin t` is that of :math:`|s| \sin t`); the
+    same Gauss-Legendre points in phase as :func:`_moments`, the phase ends in closed form
+    instead of by root finding, every scale in one Vandermonde evaluation.
+    """
+    s = np.abs(np.asarray(scales, dtype=float))
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    c_lo, c_hi = np.maximum(lo, -s), np.minimum(hi, s)
+    live = (c_hi > c_lo) & (s > 0)
+    out = np.zeros((s.size, MAX_DEGREE + 1))
+    if not np.any(live):
+        return out
+    s, c_lo, c_hi = s[live], c_lo[live], c_hi[live]
+    t1, t2 = np.arcsin(np.clip(c_lo / s, -1.0, 1.0)), np.arcsin(np.clip(c_hi / s, -1.0, 1.0))
+    ts, tw = gauss_legendre(PHASE_POINTS_PER_PIECE)
+    tm, th = 0.5 * (t1 + t2), 0.5 * (t2 - t1)
+    y = s[:, None] * np.sin(tm[:, None] + th[:, None] * ts[None, :])  # (L, 48)
+    v = np.polynomial.legendre.legvander((y - mid) / half, MAX_DEGREE)  # (L, 48, D)
+    out[live] = np.einsum("lk,lkd->ld", (th[:, None] * tw[None, :]) / np.pi, v)
+    return out
+
+
 def _weights_from_moments(moments, z) -> np.ndarray:
     """Interpolatory weights of the local nodes z from Legendre moments: (T, len(z)).
 
@@ -166,8 +194,17 @@ def _weights_from_moments(moments, z) -> np.ndarray:
     (V the Legendre Vandermonde matrix of z), so :math:`w = V^{-T} m_{0..n-1}`.
     """
     z = np.asarray(z, dtype=float)
-    v = np.polynomial.legendre.legvander(z, z.size - 1)
-    return np.linalg.solve(v.T, np.asarray(moments)[:, :z.size].T).T
+    return np.asarray(moments)[:, :z.size] @ _inverse_vandermonde(z.tobytes())
+
+
+@lru_cache(maxsize=256)
+def _inverse_vandermonde(key: bytes) -> np.ndarray:
+    """:math:`V^{-1}` of the Legendre Vandermonde matrix of local nodes (their bytes: the few node sets of
+    the Gauss rules recur on every panel), so that the weights are :math:`w^T = m^T V^{-1}`."""
+    z = np.frombuffer(key, dtype=float)
+    inv = np.linalg.inv(np.polynomial.legendre.legvander(z, z.size - 1))
+    inv.flags.writeable = False
+    return inv
 
 
 @dataclass
@@ -182,6 +219,14 @@ class _SPanel:
     wk: np.ndarray | None = None  # (T, 15) weights of the K15 interpolant per target
     w7: np.ndarray | None = None  # (T, 7) weights of the G7 interpolant
     mass: np.ndarray | None = None  # (T,)
+    halves: tuple | None = None  # its two halves, made (and solved) ahead of the need for them
+
+    def split(self) -> tuple:
+        """The panel's two halves (the same pair on every call)."""
+        if self.halves is None:
+            m = self.mid
+            self.halves = (_SPanel(self.a, m, min_order=self.min_order), _SPanel(m, self.b, min_order=self.min_order))
+        return self.halves
 
     @property
     def mid(self):
@@ -207,6 +252,11 @@ class _Shared:
         self.atom_w = np.zeros((T, A))
         self.atom_crest = np.zeros((T, 2, A))
         self.atomic = np.array([_is_atomic(t, span) for t in targets])
+        # continuous targets: the sines' moments in closed-form phase, the other shapes' by root finding
+        sine = np.array([not self.atomic[j] and type(t.shape) is Sine for j, t in enumerate(targets)], dtype=bool)
+        self.sines = np.nonzero(sine)[0]
+        self.sine_scales = np.array([targets[j].peak / span for j in self.sines], dtype=float)
+        self.others = [j for j in range(T) if not sine[j] and not self.atomic[j]]
         for j, t in enumerate(targets):
             if not self.atomic[j]:
                 continue
@@ -236,9 +286,12 @@ class _Shared:
 
     def prepare(self, p: _SPanel):
         if p.moments is None:
-            out = [_panel_moments(t, self.span, p.a, p.b) for t in self.targets]
-            p.moments = np.array([m for m, _ in out])
-            p.mass = np.array([w for _, w in out])
+            p.moments = np.zeros((len(self.targets), MAX_DEGREE + 1))
+            if self.sines.size:
+                p.moments[self.sines] = _sine_moments(self.sine_scales, p.a, p.b)
+            for j in self.others:
+                p.moments[j] = _panel_moments(self.targets[j], self.span, p.a, p.b)[0]
+            p.mass = p.moments[:, 0].copy()
             xk, _, _ = gauss_kronrod(GK_ORDER)
             p.wk = _weights_from_moments(p.moments, xk)
             p.w7 = _weights_from_moments(p.moments, xk[1::2])
@@ -257,12 +310,31 @@ def _shares(p: _SPanel, tol, ms_tol, factor):
     return factor * p.mass * tol, factor * p.mass[None, :] * ms_tol
 
 
+#: Levels of halves solved ahead with a panel that has to be solved: a solve costs its Newton iterations
+#: more than its points, and a knee is reached by several halvings in a row.
+LOOKAHEAD = 2
+
+
+def _ahead(panels, depth: int) -> list:
+    """The panels and their halves down to ``depth`` levels, those not yet solved."""
+    out, level = [], list(panels)
+    for _ in range(depth + 1):
+        out += [p for p in level if p.kq is None]
+        level = [h for p in level for h in p.split()]
+    return out
+
+
 def _refine_shared(prob: _Shared, panels, tol, ms_tol, factor, notes):
+    """Halve panels until each meets its share of the tolerance (every panel's K15 values solved).
+
+    A panel solved for the first time is solved with its halves down to :data:`LOOKAHEAD` levels (one
+    solve for several halvings); the panels kept are those the plain halving keeps.
+    """
     xk, _, _ = gauss_kronrod(GK_ORDER)
     todo = list(panels)
     done = []
     while todo:
-        fresh = [p for p in todo if p.kq is None]
+        fresh = _ahead([p for p in todo if p.kq is None], LOOKAHEAD)
         if fresh:
             q = prob(np.concatenate([p.mid + p.half * xk for p in fresh]))
             for i, p in enumerate(fresh):
@@ -279,8 +351,7 @@ def _refine_shared(prob: _Shared, panels, tol, ms_tol, factor, notes):
                                  "(refinement limit reached)")
                 done.append(p)
             else:
-                m = p.mid
-                nxt += [_SPanel(p.a, m, min_order=p.min_order), _SPanel(m, p.b, min_order=p.min_order)]
+                nxt += list(p.split())
         todo = nxt
     done.sort(key=lambda p: p.a)
     return done
@@ -430,6 +501,23 @@ class SharedRule:
         """Largest |q| at the crests of each target (the peak of a monotone response)."""
         return np.max(np.abs(self.crest_values(q)), axis=-1)
 
+    def check_nodes(self) -> np.ndarray:
+        """The source values :meth:`verify` solves first, fractions of ``span``: the 15 Gauss-Kronrod
+        nodes of every panel, in panel order (a batch may solve them with the rule's nodes, then hand
+        them to :meth:`verify` through its ``evaluate``)."""
+        xk, _, _ = gauss_kronrod(GK_ORDER)
+        panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
+        return np.concatenate([p.mid + p.half * xk for p in panels]) if panels else np.empty(0)
+
+    def padded(self, extra) -> "SharedRule":
+        """The same rule over its nodes followed by other solved values ``extra`` (fractions of ``span``),
+        weighted zero: a batch solved on the rule's nodes and its :meth:`check_nodes` reduces through it.
+        Reductions only: its last nodes are no longer its atoms, so it is not verified or refined."""
+        n = np.asarray(extra, dtype=float).size
+        return replace(self, nodes=np.concatenate([self.nodes, np.asarray(extra, dtype=float)]),
+                       weights=np.pad(self.weights, ((0, 0), (0, n))),
+                       crest_weights=np.pad(self.crest_weights, ((0, 0), (0, 0), (0, n))))
+
     def verify(self, evaluate: Callable, *, margin: float = _ad.BUILD_MARGIN, known=None) -> "SharedRule":
         """Check the rule on other rows (extreme builds); refine where they miss.
 
@@ -442,7 +530,7 @@ class SharedRule:
         prob = _Shared(self.targets, evaluate, self.span)
         panels = [_SPanel(float(a), float(b)) for a, b in self.panels]
         xk, _, _ = gauss_kronrod(GK_ORDER)
-        q = prob(np.concatenate([p.mid + p.half * xk for p in panels]))
+        q = prob(self.check_nodes())
         for i, p in enumerate(panels):
             p.kq = q[:, i * xk.size:(i + 1) * xk.size]
             prob.prepare(p)

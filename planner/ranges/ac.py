@@ -50,8 +50,16 @@ TOLERANCE_RMS_FS = 1e-5
 #: rule in phase (Gauss-Chebyshev for a sine, Gauss-Legendre for the triangle), as accurate as 2048 equally
 #: spaced phases: within 5e-7 of full scale on the sharpest knee of a 250 V range, far closer on low ranges.
 SINGLE_ROW_NODES = 1024
+#: Parameter rows up to which a batch is solved on its rule's check nodes too and verified on every row
+#: from that one solve (:func:`_checked_small`); larger batches verify their extreme rows in a second solve.
+SMALL_BATCH = 48
 #: Waveforms whose reading error ``planner check`` reports on an AC position (at full-scale rms).
 CHECK_WAVEFORMS = ("square", "triangle", "flat-top mains")
+#: Phases of the shorter midpoint rule an ``own`` scale's grid is first solved with (and three times as
+#: many; :func:`_nested_sine_means`).
+GRID_NODES = 171
+#: Largest difference of the two midpoint rules [fraction of I_fs] at which the finer one marks the grid.
+GRID_AGREEMENT = 1e-10
 #: Steps of the nominal response an ``own`` AC scale is marked from, fractions of full scale
 #: (0.025 steps up to 1.3: the linearity points 10 % .. 100 % are grid points).
 SCALE_GRID = np.round(np.arange(1, 53) * 0.025, 10)
@@ -85,12 +93,14 @@ class ACRange(RangeKind):
         the waveform's true rms at full-scale rms (design contract).
         """
         fs = float(position.full_scale)
+        read = waveform_readings(engine, position.name, [(name, [fs]) for name in CHECK_WAVEFORMS]
+                                 + [("dc", [fs, -fs])])
         rows = []
-        for name in CHECK_WAVEFORMS:
-            r = float(engine.operate(position.name, [fs], waveform=name).reading()[0, 0])
+        for name, r in zip(CHECK_WAVEFORMS, read):
+            r = float(r[0])
             rows.append({"waveform": name, "form_factor": float(_cycle().SHAPES[name].form_factor),
                          "reading": r, "error_pct": (r - fs) / fs * 100.0})
-        dc = engine.operate(position.name, [fs, -fs], waveform="dc").reading()[0]
+        dc = read[-1]
         return {"waveform_errors": rows,
                 "dc_readings": [{"applied": float(a), "reading": float(r), "error_pct": float((r - abs(a)) / fs * 100.0)}
                                 for a, r in zip((fs, -fs), dc)],
@@ -400,6 +410,8 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         return CycleOperating(engine, st, op, rule, values)
     key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
+    if 1 < _row_count(temperature_k, r_source_ohm, factors) <= SMALL_BATCH and shape.atoms is None:
+        return _checked_small(engine, st, key, rule, idx, values, kw)
     op = engine.operate(st, rule.points(), **kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
@@ -421,14 +433,120 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     return CycleOperating(engine, st, op, rule, values)
 
 
+def _row_count(temperature_k, r_source_ohm, factors) -> int:
+    """Parameter rows of a request: the longest of its per-row arguments."""
+    sizes = [np.size(temperature_k if temperature_k is not None else 0.0), np.size(r_source_ohm)]
+    sizes += [np.size(v) for v in (factors or {}).values()]
+    return int(max(sizes))
+
+
+def _checked_small(engine, st, key, rule, idx, values, kw) -> CycleOperating:
+    """A small batch (temperature points, sensitivity rows) solved on the rule's nodes and its check nodes
+    at once, the rule verified on every row from that one solve.
+
+    Notes
+    -----
+    For at most :data:`SMALL_BATCH` rows the Gauss-Kronrod nodes of every row cost less than the
+    separate solve of the extreme rows' ones (a solve of a few rows costs its Newton iterations
+    whatever its size), and every row is checked, not only the extremes. Where the rule misses on a
+    row it is refined and solved again, as in :func:`operate_cycle`.
+    """
+    y = rule.check_nodes()
+    xk = rule.span * y
+    n = rule.size
+    op = engine.operate(st, np.concatenate([rule.points(), xk]), **kw)
+    q = op.movement_current_a
+
+    def evaluate(x):
+        x = np.asarray(x, dtype=float)
+        if x.shape == xk.shape and np.array_equal(x, xk):
+            return q[:, n:]  # solved above
+        return engine.operate(st, x, **kw).movement_current_a
+
+    checked = rule.verify(evaluate, known=q[:, :n])
+    if checked.refined:  # keep the refined nodes for every later request of this position
+        engine.__dict__["_cycle_rules"][key] = checked
+        op = engine.operate(st, checked.points(), **kw)
+        return CycleOperating(engine, st, op, _subset(checked, idx), values)
+    return CycleOperating(engine, st, op, _subset(checked.padded(y), idx), values)
+
+
+def waveform_readings(engine, position: str, requests) -> list:
+    """Nominal readings of a position for several waveforms, from one solve.
+
+    Parameters
+    ----------
+    engine : planner.engine.Engine
+    position : str
+    requests : sequence of (str, array_like)
+        A shape of :data:`planner.cycle.SHAPES` and its applied values (rms of the
+        wave, the level of a DC one) [V] or [A].
+
+    Returns
+    -------
+    list of ndarray
+        The readings [V] or [A] of each request, in order: the same as
+        ``engine.operate(position, values, waveform=shape).reading()[0]`` one request
+        at a time (each wave's fixed rule of :data:`SINGLE_ROW_NODES` nodes), with the
+        nodes of every request solved as one batch of instantaneous operating points
+        (nominal parts, reference temperature).
+    """
+    st = engine.state(position)
+    c = _cycle()
+    blocks = [_Blocks(c.SHAPES[name], np.atleast_1d(np.asarray(values, dtype=float))) for name, values in requests]
+    points = [b.points() for b in blocks]
+    op = engine.operate(st, np.concatenate(points), kind=st.position.kind.source)
+    i_m = op.movement_current_a[0]
+    out, lo = [], 0
+    pos = st.position
+    for b, x in zip(blocks, points):
+        mm = b.mean(i_m[lo:lo + x.size]) / engine.spec.movement.i_fs_a
+        lo += x.size
+        out.append(own_scale(engine, pos.name)(mm) if pos.scale == "own" else pos.kind.reading(mm, pos.full_scale))
+    return out
+
+
+def _nested_sine_means(engine, st, values):
+    """I_mean / I_fs of sines of these rms values (nominal parts, reference temperature) from the midpoint
+    rule of 3 x :data:`GRID_NODES` phases, or None where it and its every third node (the rule of
+    :data:`GRID_NODES` phases) differ by more than :data:`GRID_AGREEMENT` of I_fs.
+
+    Notes
+    -----
+    The midpoint rule in phase of 3n points holds the n-point rule's nodes (every third), so the
+    pair costs 3n solved points, and their difference bounds the finer one's error: the rule
+    converges geometrically on a smooth periodic integrand, and at least as :math:`n^{-2}` on a
+    knee. An ``own`` scale is marked from these values and its low end magnifies their error in a
+    reading, hence an agreement far below :data:`TOLERANCE_FS`; a response that does not meet it
+    (the sharp knees of a high voltage range) is solved with the :data:`SINGLE_ROW_NODES` rule.
+
+    References
+    ----------
+    L. N. Trefethen and J. A. C. Weideman, "The exponentially convergent trapezoidal rule",
+    SIAM Review 56(3), 385-458, 2014 (periodic integrands; nested rules as error estimates).
+    """
+    c = _cycle()
+    sine = c.SHAPES["sine"]
+    fine = c.fixed_rule(sine, 3 * GRID_NODES, crests=False)
+    peaks = np.array([sine.peak_of(v) for v in values], dtype=float)
+    op = engine.operate(st, (peaks[:, None] * fine.nodes[None, :]).ravel(), kind=st.position.kind.source)
+    q = op.movement_current_a[0].reshape(peaks.size, fine.nodes.size) / engine.spec.movement.i_fs_a
+    hi, lo = q.mean(axis=1), q[:, 1::3].mean(axis=1)
+    return hi if np.all(np.abs(hi - lo) <= GRID_AGREEMENT) else None
+
+
 def _grid_response(engine, position: str):
-    """(applied [unit], D_nom) at 0 and :data:`SCALE_GRID` x full scale, solved once per engine and position."""
+    """(applied [unit], D_nom) at 0 and :data:`SCALE_GRID` x full scale, solved once per engine and position
+    (:func:`_nested_sine_means`, else the fixed rule of :data:`SINGLE_ROW_NODES` phases)."""
     cache = engine.__dict__.setdefault("_ac_responses", {})
     if position not in cache:
-        pos = engine.state(position).position
+        st = engine.state(position)
+        pos = st.position
         fs = float(pos.full_scale)
-        d = operate_cycle(engine, engine.state(position), SCALE_GRID * fs, "sine", kind=pos.kind.source,
-                          temperature_k=None, r_source_ohm=0.0, factors=None).movement_multiple[0]
+        d = _nested_sine_means(engine, st, SCALE_GRID * fs)
+        if d is None:  # the response bends too sharply for the shorter rules: the fixed rule
+            d = operate_cycle(engine, st, SCALE_GRID * fs, "sine", kind=pos.kind.source,
+                              temperature_k=None, r_source_ohm=0.0, factors=None).movement_multiple[0]
         d = np.concatenate([[0.0], d])
         a = np.concatenate([[0.0], SCALE_GRID * fs])
         if np.any(np.diff(d) <= 0):

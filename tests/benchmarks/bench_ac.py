@@ -2,7 +2,7 @@
 
 Usage::
 
-    python tests/benchmarks/bench_ac.py [--repeat 3] [--builds 20] [--quick]
+    python tests/benchmarks/bench_ac.py [--repeat 3] [--builds 20] [--quick] [--no-deck]
 
 1. ``check``: ``planner.accuracy.check_project`` of ``projects/service_multimeter.yaml``
    (7 DC and 5 AC positions) and of the same file without its ``ac_voltage`` and
@@ -157,6 +157,7 @@ def main(argv=None) -> int:
     ap.add_argument("--builds", type=int, default=20, help="Monte Carlo builds of the deck comparison")
     ap.add_argument("--samples", type=int, default=None, help="Monte Carlo builds of the check (project's default)")
     ap.add_argument("--quick", action="store_true", help="one repetition, 3 builds")
+    ap.add_argument("--no-deck", action="store_true", help="the check alone (no ngspice comparison)")
     args = ap.parse_args(argv)
     rep = 1 if args.quick else args.repeat
     builds = 3 if args.quick else args.builds
@@ -173,6 +174,9 @@ def main(argv=None) -> int:
     print(f"check as a process: with AC {p_ac:.2f} s, DC alone {p_dc:.2f} s, ratio {p_ac / p_dc:.1f}")
     import shutil
 
+    if args.no_deck:
+        print(f"load average at the end: {os.getloadavg()}")
+        return 0
     if shutil.which("ngspice") is None:
         print("ngspice not found: the deck comparison is skipped")
         return 0
