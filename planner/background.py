@@ -99,6 +99,12 @@ class Pending:
             self._proc.terminate()
         self._close()
 
+    def __enter__(self) -> "Pending":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.cancel()  # the child never outlives the block, whatever ends it
+
 
 def _child(fn, on_error, send) -> None:
     """The child's work: compute, send ``(value, None)`` or ``(None, text)``, exit."""
@@ -131,7 +137,9 @@ def beside(fn: Callable[[], Any], on_error: Callable[[BaseException], str], *, p
     Returns
     -------
     Pending
-        Ask :meth:`Pending.result` when the value is needed.
+        Ask :meth:`Pending.result` when the value is needed; use it as a context
+        manager (``with beside(...) as pending:``) so that the child is stopped
+        however the block ends.
     """
     pending = Pending(fn, on_error)
     if parallel is None:

@@ -381,7 +381,7 @@ class ProtectionRequest:
     ring_crowbar: str | None = None
     ring_crowbar_count: int = 2
     ma_fuse: str | None = None
-    line: int | None = None
+    line: int | None = field(default=None, compare=False)  # where it was read: not part of what it asks
     ohms_fuse: str | None = None
     ohms_crowbar: str | None = None
     ohms_crowbar_count: int = 4

@@ -118,8 +118,7 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         ctx.cautions += list(ctx.sizing.get("cautions", []))
     # the misrange matrix on a second core while this one runs the check (the same answer, computed
     # here when there is no second core)
-    matrix = beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel)
-    try:
+    with beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel) as matrix:
         say("dossier: accuracy check")
         try:
             ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
@@ -131,8 +130,6 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
             meanwhile()
         say("dossier: misrange faults")
         ctx.faults, error = matrix.result()
-    finally:
-        matrix.cancel()
     if error is not None:
         ctx.errors["faults"] = error
     if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it

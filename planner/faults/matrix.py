@@ -99,23 +99,19 @@ def faults_project(design: Design | Spec, *, position: str | None = None, only_f
     acceptance = _Acceptance(spec)
     tick = _progress(progress, len(positions) + len(tstates))
 
-    beside_ = None
+    transitions = None
     if parallel is not False and tstates and positions:  # the transitions on a second core
-        beside_ = beside(lambda: (_transition_cases(engine, tstates, acceptance, lambda _label: None),
-                                  acceptance.used), str, parallel=parallel)
-    try:
+        with beside(lambda: (_transition_cases(engine, tstates, acceptance, lambda _label: None), acceptance.used),
+                    str, parallel=parallel) as pending:
+            cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
+            got, error = pending.result()
+        if error is None:
+            transitions, used = got
+            acceptance.used |= used
+            for st in tstates:
+                tick(st.name)
+    else:
         cases, curves, columns, matrix = _position_cases(engine, design, positions, acceptance, tick)
-        transitions = None
-        if beside_ is not None:
-            got, error = beside_.result()
-            if error is None:
-                transitions, used = got
-                acceptance.used |= used
-                for st in tstates:
-                    tick(st.name)
-    finally:
-        if beside_ is not None:
-            beside_.cancel()
     if transitions is None:  # in this process (or again, where the child failed: its error raised here)
         transitions = _transition_cases(engine, tstates, acceptance, tick)
     fault_readings(engine, cases + transitions)  # an ohms range reads ohms on its own arc (docs/ohms.md)

@@ -86,10 +86,9 @@ def not_worse(a: dict, b: dict) -> bool:
 
 
 def same_request(a, b) -> bool:
-    """Whether two protection requests ask for the same parts (the file line they were read from aside)."""
-    if a is None or b is None:
-        return a is None and b is None
-    return replace(a, line=None) == replace(b, line=None)
+    """Whether two protection requests ask for the same parts (the file line they were read from aside:
+    :class:`planner.model.ProtectionRequest` leaves it out of its comparison)."""
+    return a == b
 
 
 def protection_candidates(spec) -> list:
@@ -144,7 +143,7 @@ class _Designs:
         self._hot: dict = {}
 
     def _key(self, base: str, req) -> tuple:
-        return base, None if req is None else replace(req, line=None)
+        return base, req
 
     def know(self, base: str, req, design: Design) -> None:
         self._built[self._key(base, req)] = design

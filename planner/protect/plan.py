@@ -125,8 +125,7 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
                              f"{', '.join(ctx.limits)}")
     # the project as given on the misrange matrix does not depend on the clamp search: on a second core
     worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
-    given = beside(lambda: judge_given(design, worst_share), lambda exc: str(exc), parallel=parallel)
-    try:
+    with beside(lambda: judge_given(design, worst_share), str, parallel=parallel) as given:
         ctx.say("the project as given")
         as_given = as_given_row(ctx)
         model = ctx.default_model()
@@ -146,8 +145,6 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         ctx.say("the misrange matrices of the project as given and of its protection parts")
         judged_given, error = given.result()
         _judge_on_matrix(design, result, worst_share, ctx.say, None if error is not None else judged_given)
-    finally:
-        given.cancel()
     return json_safe(result)
 
 

@@ -106,21 +106,17 @@ def cycle_stats(x) -> dict:
     functions): L. N. Trefethen and J. A. C. Weideman, "The exponentially
     convergent trapezoidal rule", SIAM Review 56 (2014), doi:10.1137/130932132.
     """
-    x = np.asarray(x, dtype=float)
-    n = x.size
-    ax = np.abs(x)
-    # sums over n, not np.mean: the same pairwise sums (the same numbers), without np.mean's
-    # per-call cost (this runs once per part, quantity and case: 22 000 times for a 50-stack)
-    return {"peak": float(ax.max()), "mean": float(x.sum() / n), "rms": float(np.sqrt((x * x).sum() / n)),
-            "mean_abs": float(ax.sum() / n)}
+    return cycle_stats_rows(np.reshape(np.asarray(x, dtype=float), (1, -1)))[0]
 
 
 def cycle_stats_rows(x) -> list[dict]:
-    """:func:`cycle_stats` of each row of a 2-D array, computed for all rows at once.
+    """:func:`cycle_stats` of each row of a 2-D array (one cycle of samples per row), all rows at once.
 
-    The same numbers as :func:`cycle_stats` row by row (each row's sums run over
-    its own contiguous samples, in the same order).
+    Each row's sums run over its own contiguous samples, so a row's figures are
+    the same numbers whether it is alone or among others.
     """
+    # sums over n, not np.mean: the same pairwise sums (the same numbers), without np.mean's
+    # per-call cost (this runs once per case, or per part where a caller asks part by part)
     x = np.ascontiguousarray(x, dtype=float)
     n = x.shape[1]
     ax = np.abs(x)
