@@ -338,8 +338,7 @@ def _subset(rule, idx):
 
 def _single_row(temperature_k, r_source_ohm, factors) -> bool:
     """One parameter row: a scalar temperature and source impedance, no tolerance draws."""
-    return (np.size(temperature_k if temperature_k is not None else 0.0) == 1 and np.size(r_source_ohm) == 1
-            and not factors)
+    return not factors and _row_count(temperature_k, r_source_ohm, factors) == 1
 
 
 def _cached(engine, st, shape, values) -> bool:
