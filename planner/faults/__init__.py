@@ -36,7 +36,7 @@ Where things live:
     :func:`protection_curve`, :func:`without_clamps`;
 ``matrix``
     :func:`faults_project` in named steps, :func:`transition_states`,
-    :func:`contact_style`;
+    :func:`contact_style`, :func:`matrix_states` (the cases state by state, for a tally);
 ``report``
     :func:`format_faults`.
 """
@@ -47,7 +47,7 @@ from .cautions import cautions_for, matrix_cautions
 from .curves import CURVE_POINTS, protection_curve, without_clamps
 from .families import (BUILT_IN_ORDER, IMPULSE_SOURCE_OHM, IMPULSE_TABLE_V, category_impulse, impulse_stimulus,
                        same_kind_neighbours, stimuli_for, transition_stimuli)
-from .matrix import KEEP_AT_LEAST, KEEP_RATIO, contact_style, faults_project, transition_states
+from .matrix import KEEP_AT_LEAST, KEEP_RATIO, contact_style, faults_project, matrix_states, transition_states
 from .report import format_faults
 
 __all__ = [
@@ -55,5 +55,5 @@ __all__ = [
     "FAILING", "MAINS_V_RMS", "MAINS_SOURCE_OHM",
     "category_impulse", "impulse_stimulus", "same_kind_neighbours", "stimuli_for", "transition_stimuli",
     "cautions_for", "matrix_cautions", "protection_curve", "without_clamps", "transition_states", "contact_style",
-    "faults_project", "format_faults",
+    "faults_project", "matrix_states", "format_faults",
 ]

@@ -226,33 +226,79 @@ def _position_cases(engine: Engine, design: Design, positions, acceptance: _Acce
     bare = Engine(design.variant(without_clamps(net), validate=True)) if any(e.clamp for e in net.elements) else None
     cases, curves, columns, matrix = [], [], [], {}
     for p in positions:
-        stims = stimuli_for(spec, net, p)
+        got, stims = _one_position(engine, p, acceptance)
+        cases += got
         matrix[p.name] = [s.name for s in stims]
         for s in stims:
             if s.name not in [c["name"] for c in columns]:
                 columns.append(column_of(s))
-        for c in _assess_named(engine, p.name, stims):
-            cases.append(acceptance.mark(_trim(c), p.name))
-        for stim, eng in reversed_battery(engine, p):  # a changed network: the ohms battery put in backwards
-            matrix[p.name].append(stim.name)
-            if stim.name not in [c["name"] for c in columns]:
-                columns.append(column_of(stim))
-            for c in _assess_named(eng, p.name, [stim]):
-                cases.append(acceptance.mark(_trim(c), p.name))
         curves.append(protection_curve(engine, bare, p))
         tick(p.name)
     return cases, curves, columns, matrix
+
+
+def _one_position(engine: Engine, p, acceptance: _Acceptance) -> tuple[list[dict], list]:
+    """One position's cases under its stimuli (the reversed battery of an ohms position included), and the stimuli."""
+    stims = stimuli_for(engine.spec, engine.net, p)
+    cases = [acceptance.mark(_trim(c), p.name) for c in _assess_named(engine, p.name, stims)]
+    for stim, eng in reversed_battery(engine, p):  # a changed network: the ohms battery put in backwards
+        stims = stims + [stim]
+        cases += [acceptance.mark(_trim(c), p.name) for c in _assess_named(eng, p.name, [stim])]
+    return cases, stims
+
+
+def _one_transition(engine: Engine, st, acceptance: _Acceptance) -> list[dict]:
+    """One transition state's cases under what stays applied from the position being left."""
+    out = []
+    for c in _assess_named(engine, st, transition_stimuli(engine.spec, st.position)):
+        c = acceptance.mark(_trim(c), st.name)
+        c.update(style=st.kind, target=st.target.name, position=st.position.name, state=st.name,
+                 turn=f"{st.position.name} -> {st.target.name}")
+        out.append(c)
+    return out
+
+
+def matrix_states(design: Design, *, first=(), engine: Engine | None = None):
+    """The misrange matrix judged one switch state at a time, for a caller that only tallies it.
+
+    The cases of :func:`faults_project`, the same verdicts and deciding stresses,
+    without what only its report needs (protection curves, ohms readings,
+    cautions), so that a caller may stop as soon as it knows enough.
+
+    Parameters
+    ----------
+    design : Design
+    first : sequence of str
+        Names of positions or transition states to judge first (in this order);
+        the rest follow in switch order, the positions before the transitions.
+    engine : Engine, optional
+        A ready engine on ``design``.
+
+    Yields
+    ------
+    (name, cases, is_transition, total)
+        A state's name, its judged cases (``verdict``, ``accepted``, ``deciding``, ...),
+        whether it is a transition state, and how many states there are in all.
+    """
+    engine = engine or Engine(design)
+    acceptance = _Acceptance(design.spec)
+    states = [(p.name, p, False) for p in engine.net.positions] + \
+        [(st.name, st, True) for st in transition_states(engine)]
+    rank: dict = {}
+    for name in first:
+        rank.setdefault(name, len(rank))
+    states.sort(key=lambda s: rank.get(s[0], len(rank)))  # stable: switch order otherwise
+    for name, state, is_transition in states:
+        cases = _one_transition(engine, state, acceptance) if is_transition else \
+            _one_position(engine, state, acceptance)[0]
+        yield name, cases, is_transition, len(states)
 
 
 def _transition_cases(engine: Engine, tstates, acceptance: _Acceptance, tick) -> list[dict]:
     """Each transition state under what stays applied from the position being left."""
     out = []
     for st in tstates:
-        for c in _assess_named(engine, st, transition_stimuli(engine.spec, st.position)):
-            c = acceptance.mark(_trim(c), st.name)
-            c.update(style=st.kind, target=st.target.name, position=st.position.name, state=st.name,
-                     turn=f"{st.position.name} -> {st.target.name}")
-            out.append(c)
+        out += _one_transition(engine, st, acceptance)
         tick(st.name)
     return out
 

@@ -31,14 +31,15 @@ from dataclasses import replace
 from ..design import Design, build
 from ..engine import Engine
 from ..errors import PlannerError
-from ..faults import faults_project
+from ..faults import contact_style, matrix_states
 from ..project import loads
 from ..model import ProtectionRequest
 from ..sizing.sections.protection import protection_lines
 from ..stress.verdict import FAILING
 from .. import writer
 
-__all__ = ["matrix_score", "plan_key", "same_request", "protection_candidates", "judge_given", "judge_plans"]
+__all__ = ["matrix_score", "matrix_tally", "plan_key", "same_request", "protection_candidates", "judge_given",
+           "judge_plans"]
 
 #: Most protection-part combinations judged (each is one whole misrange matrix).
 MAX_PART_PLANS = 48
@@ -71,6 +72,63 @@ def matrix_score(faults: dict) -> dict:
     fc, ft = sum(map(failing, cases)), sum(map(failing, trans))
     return {"failing": fc + ft, "failing_cases": fc, "failing_transitions": ft, "worst_ratio": float(worst),
             "verdicts": verdicts, "requirements_met": bool(faults["requirements_met"])}
+
+
+def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[dict, dict | None]:
+    """:func:`matrix_score` of a design's misrange matrix, judged state by state, stopped past a bound.
+
+    Parameters
+    ----------
+    design : Design
+    bound : int, optional
+        Stop as soon as more than this many failing cases are counted (None: judge
+        every state).
+    first : sequence of str
+        States (positions or transitions) to judge first: where the failing cases
+        of the last combination were (only the order of the work changes).
+
+    Returns
+    -------
+    score : dict
+        The fields of :func:`matrix_score`; of a stopped matrix, what was counted
+        until it stopped (``failing`` then a lower bound of the whole matrix's).
+    stopped : dict or None
+        None when every state was judged (the score is then the whole matrix's,
+        exactly :func:`matrix_score` of :func:`planner.faults.faults_project`); else
+        ``failing_at_least``, ``bound``, ``states_judged``, ``states`` and
+        ``failing_states`` (the states with failing cases, judged first next time).
+
+    Notes
+    -----
+    The failing cases of a matrix are a sum over its states, so the count after
+    some states is a lower bound of the whole count: a combination with more
+    failing cases than the best plan's so far can never be the plan
+    (:func:`plan_key` orders by the failing cases first) nor protect as well
+    as the project as given, whatever its other states hold.
+    """
+    def failing(c):
+        return c["verdict"] in FAILING and not c.get("accepted")
+
+    cases, trans, failing_states = [], [], []
+    n_fail, judged, n_trans, stopped = 0, 0, 0, None
+    for name, got, is_transition, total in matrix_states(design, first=first):
+        judged += 1
+        n_trans += bool(is_transition)
+        (trans if is_transition else cases).extend(got)
+        bad = sum(map(failing, got))
+        if bad:
+            n_fail += bad
+            failing_states.append(name)
+        if bound is not None and n_fail > bound and judged < total:
+            stopped = {"failing_at_least": n_fail, "bound": int(bound), "states_judged": judged, "states": total,
+                       "failing_states": failing_states}
+            break
+    if stopped is None:
+        _, transitions_ok = contact_style(trans, n_trans > 0, design.net.contact_style)
+        met = not any(map(failing, cases)) and transitions_ok
+    else:
+        met = False  # more failing cases than the bound, at least one
+    return matrix_score({"cases": cases, "transitions": trans, "requirements_met": met}), stopped
 
 
 def plan_key(row: dict) -> tuple:
@@ -178,24 +236,49 @@ def _hot_readings(design: Design, t_hot: float) -> dict:
 
 
 def _judge_protection(spec, req, designs: "_Designs", base: str, bare: dict, share: float, say,
-                      known: dict | None = None) -> dict | None:
+                      known: dict | None = None, bound: "_Bound | None" = None) -> dict | None:
     """One protection combination sized and judged, or None when the sizer refuses it.
 
     ``known``: its matrix score when already judged (the project's own combination),
-    so that only its price is found here.
+    so that only its price is found here. ``bound``: the fewest failing cases of a
+    whole matrix judged so far; the matrix is stopped past it (:func:`matrix_tally`)
+    and the row then says so under ``stopped``.
     """
+    stopped = None
     try:
         design = designs.build(base, spec, req)
-        score = known if known is not None else matrix_score(faults_project(design))
+        if known is not None:
+            score = known
+        else:
+            score, stopped = matrix_tally(design, bound.failing if bound else None, bound.first if bound else ())
+            if bound is not None:
+                bound.saw(score, stopped)
     except PlannerError as e:
         say(f"protection {describe(req)}: not buildable ({e})")
         return None
     hot = designs.hot(design)
     cls = spec.movement.class_index
     price = max((abs(hot[k] - bare.get(k, hot[k])) * 100.0 for k in hot), default=0.0)
-    return {"protection": as_dict(req), "label": describe(req), "matrix": score,
-            "price_pct": price, "price_share": price / (share * cls) if cls > 0 else 0.0,
-            "parts_added": _parts_added(req)}
+    row = {"protection": as_dict(req), "label": describe(req), "matrix": score,
+           "price_pct": price, "price_share": price / (share * cls) if cls > 0 else 0.0,
+           "parts_added": _parts_added(req)}
+    if stopped is not None:
+        row["stopped"] = {k: v for k, v in stopped.items() if k != "failing_states"}
+    return row
+
+
+class _Bound:
+    """The fewest failing cases of a whole matrix judged so far, and where the last stopped one failed."""
+
+    def __init__(self, *scores: dict):
+        self.failing = min(s["failing"] for s in scores)
+        self.first: list = []
+
+    def saw(self, score: dict, stopped: dict | None) -> None:
+        if stopped is None:
+            self.failing = min(self.failing, score["failing"])
+        else:
+            self.first = stopped["failing_states"] + [n for n in self.first if n not in stopped["failing_states"]]
 
 
 def describe(req) -> str:
@@ -245,8 +328,14 @@ def _parts_searched(spec) -> bool:
     return spec.network is None and bool(spec.parts.ptcs or spec.parts.fuses or spec.parts.diodes)
 
 
-def _base_rows(designs: _Designs, clamps: str, base_spec, base_matrix: dict, spec, share: float, say) -> list[dict]:
-    """Every protection combination with the clamps of one base (as given, or the clamp placement), judged."""
+def _base_rows(designs: _Designs, clamps: str, base_spec, base_matrix: dict, spec, share: float, say,
+               bound: _Bound) -> list[dict]:
+    """Every protection combination with the clamps of one base (as given, or the clamp placement), judged.
+
+    A combination's matrix is stopped once it counts more failing cases than
+    ``bound`` (the fewest of a whole matrix so far, which the rows judged here
+    lower when they do better).
+    """
     rows = []
     bare = designs.hot(designs.build(clamps, base_spec, None))
     for req in protection_candidates(base_spec):
@@ -257,7 +346,7 @@ def _base_rows(designs: _Designs, clamps: str, base_spec, base_matrix: dict, spe
             if req is not None:  # its price against no protection parts at all
                 row = _judge_protection(base_spec, req, designs, clamps, bare, share, say, base_matrix) or row
         else:
-            row = _judge_protection(base_spec, req, designs, clamps, bare, share, say)
+            row = _judge_protection(base_spec, req, designs, clamps, bare, share, say, bound=bound)
         if row is not None:
             row["clamps"] = clamps
             row["as_given"] = clamps == "as given" and same_request(req, spec.protection)
@@ -289,8 +378,9 @@ def judge_given(design: Design, share: float, say=lambda _m: None) -> dict:
     designs = _Designs(float(spec.ambient.t_max_k))
     designs.know("as given", spec.protection, design)
     say("the misrange matrix of the project as given")
-    given = matrix_score(faults_project(design))
-    rows = _base_rows(designs, "as given", spec, given, spec, share, say) if _parts_searched(spec) else []
+    given, _ = matrix_tally(design)
+    rows = _base_rows(designs, "as given", spec, given, spec, share, say, _Bound(given)) \
+        if _parts_searched(spec) else []
     return {"matrix": given, "rows": rows}
 
 
@@ -337,14 +427,16 @@ def judge_plans(design: Design, result: dict, text_of, share: float, say=lambda 
             planned = loads(text_of(design, result), spec.path or "<plan>")
             planned_design = build(planned)
             designs.know("clamp placement", planned.protection, planned_design)
-            clamp_plan = matrix_score(faults_project(planned_design))
+            clamp_plan, _ = matrix_tally(planned_design)
             bases.append(("clamp placement", planned, clamp_plan))
         except PlannerError as e:
             notes.append(f"the chosen clamp placement does not build ({e}); kept as given")
     if _parts_searched(spec):
         rows = given_rows
+        bound = _Bound(given, *[r["matrix"] for r in given_rows if "stopped" not in r],
+                       *[m for _, _, m in bases[1:]])
         for clamps, base_spec, base_matrix in bases[1:]:
-            rows += _base_rows(designs, clamps, base_spec, base_matrix, spec, share, say)
+            rows += _base_rows(designs, clamps, base_spec, base_matrix, spec, share, say, bound)
         rows.sort(key=plan_key)
     else:
         rows = [{"protection": as_dict(spec.protection), "label": describe(spec.protection), "matrix": m,

@@ -316,7 +316,11 @@ def _matrix_lines(result: dict) -> list[str]:
     best = j["parts"][0] if j["parts"] and result.get("writes") else None
     for r in j["parts"][:6]:
         mark = " <- chosen" if r is best else (" (as given)" if r["as_given"] else "")
-        lines.append(f"  {r['clamps']} clamps, protection {r['label']}: {_matrix_text(r['matrix'])}; price "
+        judged = _matrix_text(r["matrix"]) if not r.get("stopped") else \
+            (f"at least {r['stopped']['failing_at_least']} failing, more than the best plan's "
+             f"{r['stopped']['bound']} (stopped after {r['stopped']['states_judged']} of "
+             f"{r['stopped']['states']} states)")
+        lines.append(f"  {r['clamps']} clamps, protection {r['label']}: {judged}; price "
                      f"{r['price_pct']:.3f} % ({100 * r['price_share']:.0f} % of the share), {r['parts_added']} "
                      f"parts{mark}")
     lines += ["  " + n for n in j["notes"]]
