@@ -24,12 +24,13 @@ from ..design import Design, as_design
 from ..errors import UsageError
 from ..model import Spec
 from ..tools import json_safe
+from .ahead import Ahead
 from .candidates import Combo, Site, Stack
 from .context import DEFAULT_SHARE, MAX_CANDIDATES, SearchContext
 from .evaluate import Point
 from .judged import judge_given, judge_plans
 from .ordering import PARETO_ROWS, choose, lex_compare, ordered, pareto, ranked, row_multiples
-from .realise import failing_hint, final, realise_explicit, realise_sized
+from .realise import REALISE_TRIES, failing_hint, final, realise_explicit, realise_sized
 from .report import as_given_row, placement_row, row_key
 from .search import branch_and_bound
 
@@ -132,14 +133,14 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         movement = Site("movement", "movement", ctx.movement.a)
         across = Combo(movement, Stack(model, 1), Stack(model, 1))
 
-        points, info, evaluated = branch_and_bound(ctx)
+        points, info, evaluated = branch_and_bound(ctx, parallel=parallel)
 
         # every feasible placement found, best first -> standard values -> the faults
         # matrix's phase points -> Pareto set and choice on those final numbers
         ctx.say("clamps across the movement")
         pa = final(ctx, Point(across, None, None, False))
         across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
-        finals = _final_rows(ctx, points, evaluated, across, across_row)
+        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel)
         table, chosen = _pareto_table(finals)
         result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         ctx.say("the misrange matrices of the project as given and of its protection parts")
@@ -187,7 +188,8 @@ def _check_settings(share, max_candidates, seed) -> None:
         raise UsageError(f"seed must be a whole number of at least 0, not {seed!r}")
 
 
-def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict) -> list[dict]:
+def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict,
+                parallel: bool | None = False) -> list[dict]:
     """The rows of the best feasible placements, made of standard values and evaluated again.
 
     The clamps across the movement come first (as a candidate); then up to
@@ -196,32 +198,60 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     a placement that realises to a row already there is left out, and so is an
     infeasible one (only feasible rows enter the Pareto table: it is found out
     at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
+    With ``parallel``, the next placement is realised ahead in a forked worker
+    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one.
     """
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
     ctx.say("standard values for the best placements")
     best_first = ranked([p for p in points if p.feasible])
-    for p in best_first[:2 * PARETO_ROWS]:
-        if p.combo.key() == across.key():
-            continue
-        if p.combo.site.kind != "split":
-            q = p
-        elif ctx.sized:
-            q = realise_sized(ctx, p)
-        else:
-            q = realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
-        if q is None:
-            continue
-        # only a feasible row can enter the table: an infeasible one is found out at its first failing position
-        fq = final(ctx, q, feasible_only=True, first=failing_hint(p))
-        if fq is None:
-            seen.add(row_key(q.combo, q.r))
-            continue
-        row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
-        if row["key"] not in seen:
-            seen.add(row["key"])
-            finals.append(row)
+    todo = [p for p in best_first[:2 * PARETO_ROWS] if p.combo.key() != across.key()]
+
+    def task(i):
+        # in the worker: one placement realised and judged, with what it added to the counts
+        before = (ctx.evaluated, ctx.reevaluated)
+        q, fq = _realised(ctx, todo[i], evaluated)
+        return q, fq, (ctx.evaluated - before[0], ctx.reevaluated - before[1])
+
+    # a placement costs at most 2 x REALISE_TRIES evaluations: with room for all of them the cap cannot
+    # stop the pass, so the placements are independent and the next one may be realised ahead on the worker
+    room = ctx.max_candidates - ctx.evaluated >= 2 * REALISE_TRIES * len(todo)
+    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False) as ahead:
+        for i, p in enumerate(todo):
+            got = ahead.take() if ahead.holds(i) else None
+            if got is not None:
+                q, fq, (n_eval, n_re) = got
+                ctx.evaluated += n_eval
+                ctx.reevaluated += n_re
+            else:
+                if ahead.idle and i + 1 < len(todo):
+                    ahead.send(i + 1, i + 1)
+                q, fq = _realised(ctx, p, evaluated)
+            if q is None:
+                continue
+            if fq is None:
+                seen.add(row_key(q.combo, q.r))
+                continue
+            row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
+            if row["key"] not in seen:
+                seen.add(row["key"])
+                finals.append(row)
     return finals
+
+
+def _realised(ctx: SearchContext, p: Point, evaluated: dict) -> tuple:
+    """A placement made of standard values (None when it cannot be) and evaluated at the reported resolution
+    (None when infeasible: only a feasible row can enter the table, and an infeasible one is found out at its
+    first failing position)."""
+    if p.combo.site.kind != "split":
+        q = p
+    elif ctx.sized:
+        q = realise_sized(ctx, p)
+    else:
+        q = realise_explicit(ctx, p, evaluated[p.combo.key()][0] if p.combo.key() in evaluated else None)
+    if q is None:
+        return None, None
+    return q, final(ctx, q, feasible_only=True, first=failing_hint(p))
 
 
 def _pareto_table(finals: list[dict]) -> tuple[list[dict], dict | None]:

@@ -14,12 +14,14 @@ Public API
 
 from __future__ import annotations
 
+import copy
 import math
 from dataclasses import replace
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
+from .ahead import Ahead
 from .candidates import Combo, Site, Stack, sites, stacks
 from .context import SearchContext
 from .evaluate import Metrics, Point, Topology, feasible, run, slack, topology
@@ -64,30 +66,66 @@ class _Stop(Exception):
 # --- one combo --------------------------------------------------------------------------------
 
 
-def split_grid(ctx: SearchContext, site: Site) -> np.ndarray:
-    """Split resistances of the batched grid [ohm], ascending (seeded random probes included)."""
+def split_grid(ctx: SearchContext, site: Site, rng: np.random.Generator | None = None) -> np.ndarray:
+    """Split resistances of the batched grid [ohm], ascending (seeded random probes included).
+
+    The probes are drawn from ``ctx.rng`` (or ``rng``, a copy of it, to know a
+    grid ahead without drawing it).
+    """
     r = site.r_ohm
     lo, hi = math.log(SPLIT_LO * r), math.log(SPLIT_HI * r)
     pts = list(np.exp(np.linspace(lo, hi, GRID_POINTS)))
-    pts += list(np.exp(ctx.rng.uniform(lo, hi, RANDOM_PROBES)))
+    pts += list(np.exp((ctx.rng if rng is None else rng).uniform(lo, hi, RANDOM_PROBES)))
     if ctx.sized:
         pts += [float(c.at) for c in ctx.spec.clamps
                 if not isinstance(c.at, str) and SPLIT_LO * r <= float(c.at) <= SPLIT_HI * r]
     return np.unique(np.asarray(pts, dtype=float))
 
 
-def evaluate_combo(ctx: SearchContext, combo: Combo) -> tuple[Topology, np.ndarray | None, Metrics] | None:
-    """A combo evaluated on its split grid (one row off splits); None when the cap leaves no room."""
+def evaluate_combo(ctx: SearchContext, combo: Combo, ahead: Ahead | None = None,
+                   following=()) -> tuple[Topology, np.ndarray | None, Metrics] | None:
+    """A combo evaluated on its split grid (one row off splits); None when the cap leaves no room.
+
+    With ``ahead`` (a worker, :class:`planner.protect.ahead.Ahead`): the combo's
+    metrics are the worker's when it evaluated this combo on this grid already;
+    else the first of ``following`` (the combos that would come next, best
+    guess) is sent to the worker, its grid drawn from a copy of the random
+    generator, while this one is evaluated here. The answer is the same.
+    """
     topo = topology(ctx, combo)
     r = split_grid(ctx, combo.site) if combo.site.kind == "split" else None
     rows = 1 if r is None else len(r)
     if not ctx.room(rows):
         return None
-    m = run(ctx, topo, r)
+    m = None
+    if ahead is not None and ahead.holds(_ahead_key(combo, r)):
+        m = ahead.take()
+        if m is not None:
+            ctx.evaluated += rows
+    elif ahead is not None:
+        ahead.drop_done()  # a guess the search did not follow, when the worker is done with it
+        for nxt in (following if ahead.idle else ()):
+            rn = split_grid(ctx, nxt.site, copy.deepcopy(ctx.rng)) if nxt.site.kind == "split" else None
+            ahead.send(_ahead_key(nxt, rn), ("combo", nxt, rn))
+            break
+    if m is None:
+        m = run(ctx, topo, r)
     if r is not None:
         for i, ri in enumerate(r):
             topo.memo[float(ri)] = m.row(i)
     return topo, r, m
+
+
+def _ahead_key(combo: Combo, r) -> tuple:
+    return combo.key(), None if r is None else np.asarray(r, dtype=float).tobytes()
+
+
+def ahead_task(ctx: SearchContext):
+    """What the worker of :func:`evaluate_combo` runs: a combo's metrics on a grid (uncounted there)."""
+    def task(payload):
+        _, combo, r = payload
+        return run(ctx, topology(ctx, combo), r, count=None)
+    return task
 
 
 def best_point(ctx: SearchContext, combo: Combo, r, m: Metrics, stage="grid") -> Point:
@@ -202,8 +240,10 @@ def _worth_refining(r: np.ndarray, score: np.ndarray, i: int) -> bool:
 class _BranchAndBound:
     """The state of one branch-and-bound run and its three steps (see :func:`branch_and_bound`)."""
 
-    def __init__(self, ctx: SearchContext):
+    def __init__(self, ctx: SearchContext, ahead: Ahead | None = None):
         self.ctx = ctx
+        self.ahead = ahead
+        self.pruning: set = set()  # the combos of the walk under way that are pruned at their turn
         self.points: dict[tuple, Point] = {}
         self.evaluated: dict[tuple, tuple] = {}
         self.seen: set = set()
@@ -217,15 +257,20 @@ class _BranchAndBound:
         self.n_pos = len(ctx.positions)
 
     # --- evaluating and pruning one combo ---------------------------------------------------
-    def visit(self, combo: Combo):
-        """Evaluate a combo once (a combo with the signature of one seen is skipped); stop at the cap."""
+    def visit(self, combo: Combo, following=()):
+        """Evaluate a combo once (a combo with the signature of one seen is skipped); stop at the cap.
+
+        ``following``: the combos that may come next (:meth:`walk`), the first
+        that would be evaluated then is evaluated ahead on the worker.
+        """
         sig = combo.signature()
         if combo.key() in self.evaluated or sig in self.seen:
             return self.evaluated.get(combo.key())
         self.seen.add(sig)
         self.ctx.say(f"{combo.site.label}: forward {combo.forward.label() if combo.forward else 'none'}, "
                      f"reverse {combo.reverse.label() if combo.reverse else 'none'}")
-        res = evaluate_combo(self.ctx, combo)
+        nxt = (c for c in following if not self.would_skip(c))
+        res = evaluate_combo(self.ctx, combo, self.ahead, nxt)
         if res is None:
             raise _Stop
         topo, r, m = res
@@ -252,26 +297,54 @@ class _BranchAndBound:
 
     def prune(self, c: Combo) -> bool:
         """Whether to skip a combo: seen, a needless longer reverse stack, or a bound that cannot win."""
+        why = self._prune_reason(c)
+        if why == "bound":
+            self.info["pruned_combos"] += 1
+            self.ctx.pruned += 1
+        return why is not None
+
+    def _prune_reason(self, c: Combo) -> str | None:
+        """Why :meth:`prune` skips a combo now (``seen`` or ``bound``), None when it does not; no counting."""
         if c.key() in self.points or c.signature() in self.seen:
-            return True
+            return "seen"
         # a reverse stack longer than one diode: only if the one-diode stack fails
         if c.reverse is not None and c.reverse.count > 1:
             one = self.points.get(Combo(c.site, c.forward, replace(c.reverse, count=1)).key())
             if one is None or one.feasible:
-                self.info["pruned_combos"] += 1
-                self.ctx.pruned += 1
-                return True
+                return "bound"
         if not self.beats_incumbent(self.combo_bound(c)):
-            self.info["pruned_combos"] += 1
-            self.ctx.pruned += 1
+            return "bound"
+        return None
+
+    def would_skip(self, c: Combo) -> bool:
+        """Whether the combo would not be evaluated were it visited now (seen, or pruned when pruning applies)."""
+        if c.key() in self.evaluated or c.signature() in self.seen:
             return True
-        return False
+        return c in self.pruning and self._prune_reason(c) is not None
+
+    def walk(self, combos: list, following=(), prune: bool = False) -> None:
+        """Visit ``combos`` in order (each pruned first when ``prune``), the next one evaluated ahead.
+
+        ``following``: combos visited after these (the guess may reach into them).
+        """
+        combos = list(combos)
+        self.pruning = set(combos) if prune else set()
+        for i, c in enumerate(combos):
+            if prune and self.prune(c):
+                continue
+            self.visit(c, combos[i + 1:] + list(following))
+        self.pruning = set()
 
     # --- the three steps --------------------------------------------------------------------
     def bound_sites(self) -> None:
         """Step 1: the strongest stack of each kind at every site, and each site's bound."""
         ctx = self.ctx
-        for site in self.sites:
+        plans = [[Combo(site, Stack(mdl, 1), Stack(mdl, 1)) for mdl in ctx.models] +
+                 [c for z in ctx.zeners for c in (Combo(site, Stack(z, 1, "breakdown"), None),
+                                                  Combo(site, None, Stack(z, 1, "breakdown")))]
+                 for site in self.sites]
+        for k, site in enumerate(self.sites):
+            self.walk(plans[k], [c for p in plans[k + 1:] for c in p])
             lb = np.full(self.n_pos, np.inf)
             for mdl in ctx.models:
                 _, _, m = self.visit(Combo(site, Stack(mdl, 1), Stack(mdl, 1)))
@@ -301,18 +374,12 @@ class _BranchAndBound:
             ones = [st for st in self.rev_stacks if st.count == 1]
             rv0 = min(lex_best(ones, lambda st: self.rb[(site.label, st.model, st.mode)]),
                       key=lambda st: (lex_score(self.rb[(site.label, st.model, st.mode)]), st.mode, st.model))
-            for f in self.fwd_stacks:
-                for rv in ((rv0, None) if f.mode == "breakdown" else (rv0,)):
-                    c = Combo(site, f, rv)
-                    if not self.prune(c):
-                        self.visit(c)
+            self.walk([Combo(site, f, rv) for f in self.fwd_stacks
+                       for rv in ((rv0, None) if f.mode == "breakdown" else (rv0,))], prune=True)
             here = [p for p in self.points.values() if p.combo.site == site and p.feasible and p.combo.forward]
-            for p in ranked(here)[:2]:
-                f = p.combo.forward
-                for rv in list(self.rev_stacks) + ([None] if f.mode == "breakdown" else []):
-                    c = Combo(site, f, rv)
-                    if not self.prune(c):
-                        self.visit(c)
+            self.walk([Combo(site, p.combo.forward, rv) for p in ranked(here)[:2]
+                       for rv in list(self.rev_stacks) + ([None] if p.combo.forward.mode == "breakdown" else [])],
+                      prune=True)
 
     def refine_splits(self) -> None:
         """Step 3: refine the split resistance of the most promising split combos."""
@@ -327,12 +394,16 @@ class _BranchAndBound:
                 self.points[p.combo.key()] = q
 
 
-def branch_and_bound(ctx: SearchContext) -> tuple[list[Point], dict, dict]:
+def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
     """Branch-and-bound over sites and stacks.
 
     Parameters
     ----------
     ctx : SearchContext
+    parallel : bool or None
+        Evaluate the combo that would come next in a forked worker while this
+        process evaluates the current one (:class:`planner.protect.ahead.Ahead`;
+        None: where a second core allows it). The search is the same.
 
     Returns
     -------
@@ -372,11 +443,17 @@ def branch_and_bound(ctx: SearchContext) -> tuple[list[Point], dict, dict]:
     A. H. Land and A. G. Doig, "An automatic method of solving discrete
     programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
     """
-    bb = _BranchAndBound(ctx)
-    try:
-        bb.bound_sites()
-        bb.branch()
-        bb.refine_splits()
-    except _Stop:
-        pass
+    with Ahead(ahead_task(ctx), parallel=parallel) as ahead:
+        bb = _BranchAndBound(ctx, ahead)
+        try:
+            bb.bound_sites()
+            bb.branch()
+        except _Stop:
+            pass
+        else:
+            ahead.close()  # the refinement is one evaluation after the other
+            try:
+                bb.refine_splits()
+            except _Stop:
+                pass
     return list(bb.points.values()), bb.info, bb.evaluated
