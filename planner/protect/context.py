@@ -82,6 +82,9 @@ class SearchContext:
     failed_at : list of str
         Positions that failed the last candidates judged position by position, most
         recent first (:func:`planner.protect.evaluate.feasible_alone` judges them first).
+    failed_stimulus : dict of str to str
+        Per position, the stimulus that last put a clamp diode beyond its rating there
+        (its group of stimuli is solved first).
     """
 
     def __init__(self, design: Design, share: float | Mapping[str, float] = DEFAULT_SHARE, seed: int | None = None,
@@ -96,6 +99,7 @@ class SearchContext:
         self.pruned = 0
         self.truncated = False
         self.failed_at: list[str] = []  # positions that failed the last candidates judged (the order of the work)
+        self.failed_stimulus: dict[str, str] = {}  # position -> the stimulus that overstressed a clamp there last
         self.seed = spec.analysis.seed if seed is None else seed
         self.rng = np.random.default_rng(int(self.seed))
         self.class_index = float(spec.movement.class_index)
