@@ -36,6 +36,7 @@ __all__ = [
     "REFINE_XTOL_REL",
     "REFINE_MAXITER",
     "REFINE_GAIN",
+    "REFINE_ROOM",
     "split_grid",
     "evaluate_combo",
     "best_point",
@@ -57,6 +58,9 @@ REFINE_XTOL_REL = 0.015
 REFINE_MAXITER = 8
 #: Least relative gain an interior refinement must promise (see :func:`_worth_refining`).
 REFINE_GAIN = 0.005
+#: Evaluations a refinement is granted under the cap before refinements run side by side: more
+#: than the root finder's and minimiser's iterations and the edge's steps back can take.
+REFINE_ROOM = 64
 
 
 class _Stop(Exception):
@@ -381,17 +385,41 @@ class _BranchAndBound:
                        for rv in list(self.rev_stacks) + ([None] if p.combo.forward.mode == "breakdown" else [])],
                       prune=True)
 
-    def refine_splits(self) -> None:
-        """Step 3: refine the split resistance of the most promising split combos."""
+    def refine_splits(self, parallel: bool | None = False) -> None:
+        """Step 3: refine the split resistance of the most promising split combos.
+
+        Each refinement reads and extends its own combo's memo alone; with room
+        under the cap for every evaluation they can take (so that the cap cannot
+        stop one of them), the next one runs ahead in a forked worker
+        (``parallel``) and sends back its point, its new memo entries and its count.
+        """
+        ctx = self.ctx
         splits = [p for p in self.points.values() if p.combo.site.kind == "split" and p.feasible]
-        for p in ranked(splits)[:REFINE_COMBOS]:
-            topo, r, m = self.evaluated[p.combo.key()]
-            self.ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
-                         f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
-            q = refine(self.ctx, topo, p.combo, r, m)
-            if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
-                                  (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
-                self.points[p.combo.key()] = q
+        todo = ranked(splits)[:REFINE_COMBOS]
+
+        def one(i):
+            topo, r, m = self.evaluated[todo[i].combo.key()]
+            before, n0 = set(topo.memo), ctx.evaluated
+            q = refine(ctx, topo, todo[i].combo, r, m)
+            return q, {x: v for x, v in topo.memo.items() if x not in before}, ctx.evaluated - n0
+
+        room = ctx.max_candidates - ctx.evaluated >= REFINE_ROOM * len(todo)
+        with Ahead(one, parallel=parallel if room and len(todo) > 1 else False) as ahead:
+            for i, p in enumerate(todo):
+                ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
+                        f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
+                got = ahead.take() if ahead.holds(i) else None
+                if got is not None:
+                    q, memo, n = got
+                    self.evaluated[p.combo.key()][0].memo.update(memo)
+                    ctx.evaluated += n
+                else:
+                    if ahead.idle and i + 1 < len(todo):
+                        ahead.send(i + 1, i + 1)
+                    q = one(i)[0]
+                if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
+                                      (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
+                    self.points[p.combo.key()] = q
 
 
 def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
@@ -451,9 +479,9 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
         except _Stop:
             pass
         else:
-            ahead.close()  # the refinement is one evaluation after the other
+            ahead.close()  # the refinements have a worker of their own, forked with the search's points
             try:
-                bb.refine_splits()
+                bb.refine_splits(parallel)
             except _Stop:
                 pass
     return list(bb.points.values()), bb.info, bb.evaluated
