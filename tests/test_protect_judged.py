@@ -16,7 +16,9 @@ import pytest
 from planner.faults import faults_project
 from planner.project import load, loads
 from planner.protect import protect_project, write_protected
-from planner.protect.judged import matrix_score, not_worse, plan_key, protection_candidates, same_request
+from planner.design import build
+from planner.protect.judged import (from_dict, matrix_score, matrix_tally, not_worse, plan_key, protection_candidates,
+                                    same_request)
 
 from conftest import VOLTMETER
 from test_sizing_protection import FLAGSHIP
@@ -123,3 +125,51 @@ def test_judged_beside_the_search_decides_as_in_one_process():
         # the matrix's figures may differ in their last digits with the solver's history in the process
         np.testing.assert_allclose(a["worst_ratio"], b["worst_ratio"], rtol=1e-6)
     assert [r["label"] for r in two["matrix"]["parts"]] == [r["label"] for r in one["matrix"]["parts"]]
+    # the search's next candidate, refinement and final placement evaluated ahead on a worker: the same search
+    for key in ("candidates_evaluated", "rows_reevaluated", "pruned", "pruned_sites", "truncated"):
+        assert two[key] == one[key], key
+    assert [r["key"] for r in two["pareto"]] == [r["key"] for r in one["pareto"]]
+    for a, b in zip(two["sites"], one["sites"]):
+        assert a["site"] == b["site"]
+        np.testing.assert_allclose(list(a["bound_multiples"].values()), list(b["bound_multiples"].values()),
+                                   rtol=1e-9)  # the same solves in another process: round-off at most
+
+
+def test_matrix_tally_is_the_whole_matrix_score():
+    """Tallied state by state without a bound, the matrix scores as ``planner faults`` does (the reference:
+    :func:`planner.faults.faults_project` with its protection curves and readings, summed up by
+    :func:`matrix_score`); with a bound it stops at a count above the bound and below the whole count."""
+    for path in (VOLTMETER, FLAGSHIP):
+        design = build(load(path))
+        whole = matrix_score(faults_project(design))
+        tally, stopped = matrix_tally(design)
+        assert stopped is None
+        assert {k: v for k, v in tally.items() if k != "worst_ratio"} == \
+            {k: v for k, v in whole.items() if k != "worst_ratio"}
+        np.testing.assert_allclose(tally["worst_ratio"], whole["worst_ratio"], rtol=1e-12)  # the same solves
+    # the flagship as given fails two transitions: a bound of one stops it at the second
+    part, stopped = matrix_tally(design, bound=1)
+    assert whole["failing"] == 2 and stopped is not None
+    assert stopped["failing_at_least"] == part["failing"] == 2 and stopped["bound"] == 1
+    assert stopped["states_judged"] <= stopped["states"] and not part["requirements_met"]
+    # the states that failed are judged first next time: found at once
+    again, st2 = matrix_tally(design, bound=0, first=stopped["failing_states"])
+    assert st2["states_judged"] == 1 and again["failing"] >= 1
+
+
+def test_stopped_combinations_could_never_be_the_plan(stripped):
+    """A combination whose matrix was stopped counted more failing cases than a whole matrix judged before
+    it; judged whole, it keeps at least that many (the count is a sum over the states)."""
+    spec, result, _ = stripped
+    rows = result["matrix"]["parts"]
+    whole = [r for r in rows if "stopped" not in r]
+    stopped = [r for r in rows if "stopped" in r]
+    assert whole and stopped  # both occur on the stripped flagship
+    best = min(r["matrix"]["failing"] for r in whole)
+    assert rows[0] in whole and rows[0]["matrix"]["failing"] == best
+    for r in stopped:
+        assert r["matrix"]["failing"] == r["stopped"]["failing_at_least"] > r["stopped"]["bound"] >= best
+        assert r["stopped"]["states_judged"] < r["stopped"]["states"]
+    r = stopped[0]
+    full = matrix_score(faults_project(build(replace(spec, protection=from_dict(r["protection"])))))
+    assert full["failing"] >= r["stopped"]["failing_at_least"]
