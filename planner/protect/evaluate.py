@@ -406,10 +406,18 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     order = list(groups)
     if stop_over is not None:
         order.sort(key=lambda g: not any(stims[j].name == stop_over for j in groups[g]))
-    solved = {}
+    # the linearity points at the hottest ambient ride with the DC group of the position's own kind
+    own = (p.kind.source, False)
+    with_hot = own if p.kind.waveform == "dc" and own in groups and \
+        all(len(stims[j].samples(n_phase)) == 1 for j in groups[own]) else None
+    solved, hot_mult = {}, None
     for g in order:
         group = [stims[j] for j in groups[g]]
-        solved[g] = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase)
+        got = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase,
+                           hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None)
+        solved[g] = got[:4]
+        if g == with_hot:
+            hot_mult = got[4]
         if stop_over is not None:
             probe = {"stress": np.zeros(rows), "stress_case": [None] * rows, "power": np.zeros(rows)}
             _, cur, vol, width = solved[g]
@@ -421,17 +429,21 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         mult, cur, vol, width = solved[g]
         _record_multiples(out, p, group, mult.reshape(rows, len(group), width), rows)
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
-    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare)
+    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare, hot_mult)
     return out
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
-                 n_phase: int):
+                 n_phase: int, hot: tuple | None = None):
     """Solve one group of stimuli (one kind, one source-impedance flag) for every row.
 
     Returns the movement multiples (rows x G, W), the watched parts' currents and
     voltages by designator (same shape) and the samples per stimulus W; samples
     over a source's current limit are solved again as a current source at the limit.
+    With ``hot`` (the linearity points [V or A] and the hottest ambient [K]; for a
+    group of DC stimuli of the position's own kind without source resistance),
+    those points are solved in the same call, one solver row each at that
+    temperature, and their movement multiples (rows x points) come fifth.
     """
     g = len(group)
     samples = [s.samples(n_phase) for s in group]
@@ -440,11 +452,22 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
     stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
     r_src = np.tile([s.r_source_ohm for s in group], rows) if has_r else 0.0
     f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
-    op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
-    mult = np.array(op.movement_multiple)
-    cur = {n: np.array(op.element(n).current_a) for n in topo.watch}
-    vol = {n: np.array(op.element(n).voltage_v) for n in topo.watch}
-    i_src = np.array(op.source_current_a)
+    n_main = stim.shape[0]
+    if hot is None:
+        op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
+    else:
+        # the rows are solved independently: the same figures as two calls, for one call's overhead
+        applied, t_hot = hot
+        a = applied.size
+        stim = np.vstack([stim, np.tile(applied, rows)[:, None]])
+        t = np.concatenate([np.full(n_main, eng.spec.ambient.t_ref_k), np.full(rows * a, t_hot)])
+        both = None if fac is None else {k: np.concatenate([f_rows[k], np.repeat(v, a)]) for k, v in fac.items()}
+        op = eng.operate(p.name, stim, kind=kind, temperature_k=t, r_source_ohm=r_src, factors=both)
+    mult = np.array(op.movement_multiple[:n_main])
+    cur = {n: np.array(op.element(n).current_a[:n_main]) for n in topo.watch}
+    vol = {n: np.array(op.element(n).voltage_v[:n_main]) for n in topo.watch}
+    i_src = np.array(op.source_current_a[:n_main])
+    hot_mult = None if hot is None else np.asarray(op.movement_multiple[n_main:, 0]).reshape(rows, -1)
     lims = np.tile([s.current_limit_a or np.inf for s in group], rows)
     if kind == "voltage" and np.isfinite(lims).any():
         rr, kk = np.nonzero(np.abs(i_src) > lims[:, None])
@@ -456,6 +479,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
             for n in topo.watch:
                 cur[n][rr, kk] = op2.element(n).current_a[:, 0]
                 vol[n][rr, kk] = op2.element(n).voltage_v[:, 0]
+    if hot is not None:
+        return mult, cur, vol, width, hot_mult
     return mult, cur, vol, width
 
 
@@ -501,10 +526,17 @@ def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: 
     out["power"] = np.maximum(out["power"], tot_p.max(axis=1))
 
 
-def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare) -> tuple[np.ndarray, np.ndarray]:
-    """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale]."""
+def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare,
+                hot_mult: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale].
+
+    ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`).
+    """
     applied = FRACTIONS * p.full_scale
-    rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac).reading()
+    if hot_mult is None:
+        rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac).reading()
+    else:
+        rd = p.kind.reading(hot_mult, p.full_scale)
     rd = np.broadcast_to(rd, (rows, applied.size))
     error = np.max(np.abs(rd - np.broadcast_to(bare, rd.shape)), axis=1) / p.full_scale * 100.0
     total = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
