@@ -452,22 +452,37 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
     stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
     r_src = np.tile([s.r_source_ohm for s in group], rows) if has_r else 0.0
     f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
-    n_main = stim.shape[0]
-    if hot is None:
+    hot_mult = None
+    if has_r:  # a source impedance per stimulus: one parameter set per row and stimulus
         op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
+
+        def laid(x):
+            return np.array(x)
     else:
-        # the rows are solved independently: the same figures as two calls, for one call's overhead
-        applied, t_hot = hot
-        a = applied.size
-        stim = np.vstack([stim, np.tile(applied, rows)[:, None]])
-        t = np.concatenate([np.full(n_main, eng.spec.ambient.t_ref_k), np.full(rows * a, t_hot)])
-        both = None if fac is None else {k: np.concatenate([f_rows[k], np.repeat(v, a)]) for k, v in fac.items()}
-        op = eng.operate(p.name, stim, kind=kind, temperature_k=t, r_source_ohm=r_src, factors=both)
-    mult = np.array(op.movement_multiple[:n_main])
-    cur = {n: np.array(op.element(n).current_a[:n_main]) for n in topo.watch}
-    vol = {n: np.array(op.element(n).voltage_v[:n_main]) for n in topo.watch}
-    i_src = np.array(op.source_current_a[:n_main])
-    hot_mult = None if hot is None else np.asarray(op.movement_multiple[n_main:, 0]).reshape(rows, -1)
+        # no source impedance: the group's samples side by side in one parameter set per row (the solver's
+        # work grows with the parameter sets far more than with the stimuli of each); the linearity points
+        # at the hottest ambient ride along as parameter sets of their own (rows independent: the same
+        # figures as separate calls)
+        line = block.reshape(-1)
+        if hot is None:
+            op = eng.operate(p.name, line, kind=kind, factors=fac)
+        else:
+            applied, t_hot = hot
+            cols = max(line.size, applied.size)
+            both = np.vstack([np.resize(line, cols), np.resize(applied, cols)])  # short rows repeat themselves
+            both = np.repeat(both, rows, axis=0)  # rows at the reference temperature, then rows hot
+            t = np.repeat([eng.spec.ambient.t_ref_k, t_hot], rows)
+            f2 = None if fac is None else {k: np.tile(v, 2) for k, v in fac.items()}
+            op = eng.operate(p.name, both, kind=kind, temperature_k=t, factors=f2)
+            hot_mult = np.asarray(op.movement_multiple)[rows:, :applied.size]
+
+        def laid(x):
+            x = np.broadcast_to(np.asarray(x)[:rows, :line.size], (rows, line.size))
+            return np.array(x).reshape(rows * g, width)
+    mult = laid(op.movement_multiple)
+    cur = {n: laid(op.element(n).current_a) for n in topo.watch}
+    vol = {n: laid(op.element(n).voltage_v) for n in topo.watch}
+    i_src = laid(op.source_current_a)
     lims = np.tile([s.current_limit_a or np.inf for s in group], rows)
     if kind == "voltage" and np.isfinite(lims).any():
         rr, kk = np.nonzero(np.abs(i_src) > lims[:, None])
