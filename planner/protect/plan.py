@@ -62,8 +62,10 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         Receives a short message before each batch.
     parallel : bool, optional
         Judge the project as given and its protection-part combinations on the
-        misrange matrix in a child process beside the clamp search (True), in this
-        process after it (False), or the first where a second core allows it (None,
+        misrange matrix in a child process beside the clamp search, and evaluate
+        the search's next candidate, refinement and realised placement ahead in a
+        forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
+        this process (False); or the first where a second core allows it (None,
         :func:`planner.background.beside`). The decisions are the same; the matrix
         figures may differ in their last digits (see ``docs/performance.md``).
 
