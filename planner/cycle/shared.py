@@ -312,7 +312,7 @@ def _shares(p: _SPanel, tol, ms_tol, factor):
 
 #: Levels of halves solved ahead with a panel that has to be solved: a solve costs its Newton iterations
 #: more than its points, and a knee is reached by several halvings in a row.
-LOOKAHEAD = 2
+LOOKAHEAD = 3
 
 
 def _ahead(panels, depth: int) -> list:
