@@ -82,6 +82,8 @@ def test_first_guess_brackets_the_root():
     """
     x = np.array([-1.0, 0.0, 0.5, 1.0, 1.2, 1.5, 3.0])
     f = np.exp(-x) - 0.3
-    guess, a, b = rx._first_guess(x, f)
-    assert a <= -math.log(0.3) <= b
+    guess, a, b, below = rx._first_guess(x, f, -5.0, 5.0)
+    assert a <= -math.log(0.3) <= b and below > 0  # exp(-x) - 0.3 is above zero below its root
     assert abs(guess + math.log(0.3)) < 1e-3  # cubic through samples 0.3 to 0.5 apart
+    guess, a, b, below = rx._first_guess(x[4:], f[4:], -5.0, 5.0)  # the root in the first interval
+    assert a == -5.0 and b == x[6] and abs(guess + math.log(0.3)) < 1e-2  # samples 0.3 and 1.5 apart

@@ -301,39 +301,44 @@ def _root_steps(lo: float, hi: float, start: float, refuse):
     A solver call costs its Newton iterations more than its rows, so the rounds are few
     and wide:
 
-    1. the excess at lo, hi and at :data:`SCAN` around the start on the
-       :data:`SCAN_NODES`-node rule (lo and hi again on the fine rule where either is
-       within :data:`EDGE` of zero, so that a refusal never rests on the coarse rule); the
-       inverse cubic through the four values around the sign change gives the first
+    1. the excess at :data:`SCAN` around the start on the :data:`SCAN_NODES`-node rule;
+       where it changes sign there the range can be reached (the excess is monotone in
+       ln R), else at lo and hi too, ``refuse`` judging those (on the fine rule where either
+       is within :data:`EDGE` of zero, so that a refusal never rests on the coarse rule);
+       the inverse cubic through the four values around the sign change gives the first
        estimate (:func:`_first_guess`), within about 1e-4 in ln R;
     2. Newton's method on the :data:`SIZING_NODES`-node rule from there, safeguarded by
        bisection in the bracket of the scan widened by one point on each side
        (:func:`_newton`): usually two more rounds.
     """
-    xs = sorted({min(max(start + o, lo), hi) for o in SCAN} | {lo, hi})
+    xs = sorted({min(max(start + o, lo), hi) for o in SCAN})
     f = np.asarray((yield SCAN_NODES, xs), dtype=float)
-    f_lo, f_hi = f[0], f[-1]
-    if min(abs(f_lo), abs(f_hi)) < EDGE:
-        f_lo, f_hi = (yield SIZING_NODES, [lo, hi])
-    refuse(float(f_lo), float(f_hi))
-    x, a, b = _first_guess(np.asarray(xs), f)
+    if not np.any(np.sign(f[:-1]) != np.sign(f[1:])):  # the scan does not hold the root: the bracket's ends
+        f_lo, f_hi = (yield SCAN_NODES, [lo, hi])
+        if min(abs(f_lo), abs(f_hi)) < EDGE:
+            f_lo, f_hi = (yield SIZING_NODES, [lo, hi])
+        refuse(float(f_lo), float(f_hi))
+        xs, f = [lo] + xs + [hi], np.concatenate([[f_lo], f, [f_hi]])
+    x, a, b, below = _first_guess(np.asarray(xs), f, lo, hi)
     f0, f1 = yield SIZING_NODES, [x, x + NEWTON_STEP]
-    x = yield from _newton(SIZING_NODES, a, b, f_lo, x, f0, f1)
+    x = yield from _newton(SIZING_NODES, a, b, below, x, f0, f1)
     return x
 
 
-def _first_guess(x: np.ndarray, f: np.ndarray) -> tuple[float, float, float]:
-    """A first estimate of the root of a monotone excess sampled at ascending x, and a bracket.
+def _first_guess(x: np.ndarray, f: np.ndarray, lo: float, hi: float) -> tuple[float, float, float, float]:
+    """A first estimate of the root of a monotone excess sampled at ascending x, a bracket, and the
+    excess's sign at the bracket's lower end.
 
     The inverse cubic (x as a polynomial in f) through the four samples around the sign
     change, or the secant of the two beside it where that falls outside them; the bracket
-    is those two widened by one sample on each side (the coarse rule's error cannot
-    move the root past a neighbouring sample).
+    is those two widened by one sample on each side, or to ``lo`` and ``hi`` at the ends of
+    the samples (the coarse rule's error cannot move the root past a neighbouring sample).
     """
     change = np.nonzero(np.sign(f[:-1]) != np.sign(f[1:]))[0]
     i = int(change[0]) if change.size else int(np.argmin(np.abs(f)))
     i = min(i, x.size - 2)
-    a, b = x[max(i - 1, 0)], x[min(i + 2, x.size - 1)]
+    a = x[i - 1] if i >= 1 else lo
+    b = x[i + 2] if i + 2 < x.size else hi
     sel = np.arange(max(i - 1, 0), min(i + 3, x.size))
     fs, xs = f[sel], x[sel]
     guess = float(sum(xs[j] * np.prod([-fs[m] / (fs[j] - fs[m]) for m in range(sel.size) if m != j])
@@ -341,7 +346,7 @@ def _first_guess(x: np.ndarray, f: np.ndarray) -> tuple[float, float, float]:
     if not x[i] <= guess <= x[i + 1]:
         df = f[i + 1] - f[i]
         guess = float(x[i] - f[i] * (x[i + 1] - x[i]) / df) if df != 0 else 0.5 * (x[i] + x[i + 1])
-    return guess, float(a), float(b)
+    return guess, float(a), float(b), float(f[i])
 
 
 def _newton(nodes: int, lo: float, hi: float, f_lo: float, x: float, f: float, f_step: float):
