@@ -47,6 +47,12 @@ BALANCE_TOL = 1e-6
 #: stimulus every term is itself next to nothing, and a ratio of such numbers is noise.
 BALANCE_FLOOR_A = 1e-24
 
+#: A starting junction voltage is at most this many n V_t above the junction's critical
+#: voltage (where it carries n V_t / sqrt(2) A; e^10 times that here): the start of a
+#: segment solved in closed form is near its answer also at fault currents, and Newton
+#: descends an overestimate by about n V_t a step.
+START_ABOVE_VCRIT = 10.0
+
 JUNCTION_FIELDS = ("i_s", "nvt", "bv", "ibv", "r_s", "g_p")
 VARISTOR_FIELDS = ("v1", "alpha", "i1")
 
@@ -75,6 +81,7 @@ class Junction:
         with np.errstate(divide="ignore"):
             self.ln_ibv = np.log(ibv) if self.has_bv else 0.0
             self.vcr_bv = nvt * np.log(nvt / (np.sqrt(2.0) * ibv)) if self.has_bv else 0.0
+        self.w_start_max = np.maximum(self.vcrit + START_ABOVE_VCRIT * nvt, 1.5)
 
     def subset(self, idx):
         return Junction(*(take(getattr(self, f), idx) for f in JUNCTION_FIELDS))
@@ -96,8 +103,9 @@ class Junction:
         return bool((step_abs.max() > two) if not isinstance(two, np.ndarray) else (step_abs > two).any())
 
     def start_limits(self, w):
-        """Keep a starting junction voltage off the far exponential (forward) and out of deep breakdown."""
-        w = np.minimum(w, np.maximum(self.vcrit, 1.5))
+        """Keep a starting junction voltage off the far exponential (forward: at most
+        :data:`START_ABOVE_VCRIT` n V_t above the critical voltage) and out of deep breakdown."""
+        w = np.minimum(w, self.w_start_max)
         if self.has_bv:
             w = np.maximum(w, -self.bv)
         return w

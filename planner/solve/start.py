@@ -165,11 +165,105 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
 
 def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
     """Current (ends[0] -> ends[1]) and the voltage of each group (ends[0] side less the other)
-    of one segment behind a Thevenin source; fills the parts' voltages into ``w``."""
+    of one segment behind a Thevenin source; fills the parts' voltages into ``w``.
+
+    A chain that can conduct with some of its groups in breakdown (a zener or a
+    suppressor pair) is also solved that way, and takes that answer in the cases
+    where it carries more current in its direction than the forward-only one.
+    """
+    has_var = any(rows.parts[d].kind == "varistor" for g in sg.steps for d, _ in g)
+    cur, steps_v = _segment_plain(rows, sg, v_th, r_th, w, has_var)
+    if has_var:
+        return cur, steps_v
+    for o, chosen in _breakdown_chains(rows.parts, sg):
+        wb = list(w)
+        cur_b, sv_b = _through_breakdown(rows, sg, o * v_th, o, chosen, r_th, wb)
+        take = (cur_b > 0.0) & (cur_b > o * cur)
+        if not np.any(take):
+            continue
+        for d in range(len(w)):
+            if wb[d] is not w[d]:
+                w[d] = np.where(take, wb[d], w[d])
+        cur = np.where(take, o * cur_b, cur)
+        steps_v = [np.where(take, b_, a_) for a_, b_ in zip(steps_v, sv_b)]
+    return cur, steps_v
+
+
+def _breakdown_chains(parts, sg: Segment) -> list:
+    """The ways a segment conducts with some groups in breakdown: (direction, [(part, in breakdown)]).
+
+    In direction o each group conducts through its most conducting part biased forward,
+    or, with none, through the part with the lowest breakdown voltage biased in reverse.
+    """
+    out = []
+    for o in (1.0, -1.0):
+        chosen, any_bd = [], False
+        for g in sg.steps:
+            fwd = [d for d, od in g if od == o]
+            if fwd:
+                chosen.append((max(fwd, key=lambda d: float(np.max(parts[d].i_s))), False))
+                continue
+            rev = [d for d, od in g if od != o and parts[d].has_bv]
+            if not rev:
+                chosen = None
+                break
+            chosen.append((min(rev, key=lambda d: float(np.min(parts[d].bv))), True))
+            any_bd = True
+        if chosen is not None and any_bd:
+            out.append((o, chosen))
+    return out
+
+
+def _through_breakdown(rows: Rows, sg: Segment, v_dir, o, chosen, r_th, w):
+    r"""A chain conducting in direction o with some groups in breakdown: the current in that
+    direction and each group's voltage (ends[0] side less the other); fills ``w``.
+
+    Notes
+    -----
+    A junction in breakdown carries :math:`I_{BV} e^{(-v - BV)/nV_t}` (the contract's
+    reverse law): the law of a forward junction of saturation current I_BV shifted by
+    BV. The chain is one composite junction of :math:`nV_t = \sum nV_{t,k}` and
+    :math:`\ln I_s = \sum nV_{t,k} \ln I_k / nV_t` behind :math:`V - \sum BV_k`, solved in
+    closed form (:func:`planner.solve.junction.single_diode`); each group then sits at
+    its own law's voltage at that current.
+    """
+    parts = rows.parts
+    with np.errstate(all="ignore"):
+        offset = 0.0
+        nvt = 0.0
+        acc = 0.0
+        r = r_th
+        for d, bd in chosen:
+            p = parts[d]
+            nvt = nvt + p.nvt
+            acc = acc + p.nvt * (p.ln_ibv if bd else p.ln_is)
+            r = r + p.r_s
+            if bd:
+                offset = offset + p.bv
+        cur = single_diode(v_dir - offset, r, np.exp(acc / nvt), nvt)
+        cur = np.where(np.isfinite(cur), cur, 0.0)
+        pos = np.maximum(cur, 1e-300)
+        steps_v = []
+        for g, (d, bd) in zip(sg.steps, chosen):
+            p = parts[d]
+            if bd:
+                vk = np.maximum(p.bv + p.nvt * (np.log(pos) - p.ln_ibv), 0.0)
+                own = np.maximum(-vk, -(p.bv + np.maximum(p.vcr_bv, 1.5)))
+            else:
+                vk = p.nvt * np.log1p(pos / p.i_s)
+                own = p.start_limits(vk)
+            gv = o * (vk + p.r_s * pos)
+            steps_v.append(gv)
+            for dd, od in g:
+                w[dd] = own if dd == d else parts[dd].start_limits(od * gv)
+    return cur, steps_v
+
+
+def _segment_plain(rows: Rows, sg: Segment, v_th, r_th, w, has_var):
+    """:func:`_segment` with each group conducting forward only (varistor chains: by their laws)."""
     parts = rows.parts
     n = rows.n
     k = len(sg.steps)
-    has_var = any(parts[d].kind == "varistor" for g in sg.steps for d, _ in g)
     if has_var:
         if k == 1:
             est = None
