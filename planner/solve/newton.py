@@ -275,8 +275,7 @@ def _evaluate(p, w, need_plain, need_log):
             if p.has_bv:
                 ell = np.maximum(ell, p.ln_ibv + we)
             if nonzero(p.g_p):
-                with np.errstate(divide="ignore"):
-                    ell = np.maximum(ell, np.log(p.g_p * np.abs(w)))
+                ell = np.maximum(ell, np.log(p.g_p * np.abs(w)))
             const = np.where(x < jl.DEEP, -p.i_s, 0.0)
         return i, y, ell, const, (x, xe, wv, we)
     lu, a = vl.log_ratio(w, p)
@@ -290,8 +289,7 @@ def _evaluate(p, w, need_plain, need_log):
     if need_log:
         ell = np.where(a > 0.0, p.ln_i1 + p.alpha * lu, -np.inf)  # exactly 0 V: no current
         if nonzero(p.g_p):
-            with np.errstate(divide="ignore"):
-                ell = np.maximum(ell, np.log(p.g_p * a))
+            ell = np.maximum(ell, np.log(p.g_p * a))
     return i, y, ell, 0.0, (lu, a)
 
 
@@ -404,9 +402,8 @@ def _floating_rows(st: Structure, parts, W, drive, ev, res, a):
                 c_sum = c_sum + const if s > 0 else c_sum - const
         dm = drive[m]
         tot = c_sum - dm if nonzero(dm) else c_sum
-        with np.errstate(divide="ignore"):
-            if nonzero(tot):
-                big_l = np.maximum(big_l, np.log(np.abs(tot)))
+        if nonzero(tot):
+            big_l = np.maximum(big_l, np.log(np.abs(tot)))
         big_l = np.where(np.isfinite(big_l), big_l, 0.0)
         e_l = np.exp(np.minimum(-big_l, 709.0))
         acc = tot * e_l if nonzero(tot) else 0.0
@@ -519,7 +516,6 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     U = [np.array(r, dtype=float) for r in u_out]
     W = [np.array(r, dtype=float) for r in w_out]
     idx = np.arange(n0)
-    R = rows
 
     def setup(R):
         held = R.held if scale == 1.0 else R.held * scale
@@ -528,8 +524,18 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
         vs = R.vscale * scale if scale != 1.0 else R.vscale
         return held, drive, parts, vs
 
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # once for the whole loop
+        return _iterate(rows, setup, u_out, w_out, ok, U, W, idx, max_iter)
+
+
+def _iterate(rows: Rows, setup, u_out, w_out, ok, U, W, idx, max_iter):
+    """:func:`newton`'s loop (overflow, invalid values and zero divides go unreported: the limits
+    and the fallbacks handle them)."""
+    st = rows.st
+    t, nd = st.t, len(st.kinds)
+    R = rows
     held, drive, parts, vs = setup(R)
-    pending = np.zeros(n0, dtype=bool)
+    pending = np.zeros(rows.n, dtype=bool)
     it = 0
     for it in range(1, max_iter + 1):
         ev = _linearise(st, parts, U, W, held)
