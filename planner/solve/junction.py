@@ -122,12 +122,16 @@ def single_diode(v_oc, r, i_s, nvt):
     T. C. Banwell and A. Jayakumar, "Exact analytical solution for current flow
     through diode with series resistance", Electronics Letters 36(4), 291-292, 2000.
     """
-    if np.size(v_oc) <= SMALL and np.size(r) <= SMALL and np.size(i_s) <= SMALL and np.size(nvt) <= SMALL:
+    args = (v_oc, r, i_s, nvt)
+    shape = max((np.shape(a) for a in args), key=len)
+    if len(shape) <= 1 and (not shape or shape[0] <= SMALL):
         try:  # a few cases: one float at a time (numpy's cost per call is most of the time there)
-            b = np.broadcast_arrays(v_oc, r, i_s, nvt)
-            out = [_single_diode_float(*x) for x in zip(*(a.ravel().tolist() for a in b))]
-            return np.array(out).reshape(b[0].shape)
-        except (ValueError, ZeroDivisionError, OverflowError):
+            n = shape[0] if shape else 1
+            cols = [a.tolist() if isinstance(a, np.ndarray) and a.ndim == 1 and a.shape[0] == n
+                    else [float(a)] * n for a in args]
+            out = np.array([_single_diode_float(*x) for x in zip(*cols)])
+            return out if shape else out[0]
+        except (ValueError, ZeroDivisionError, OverflowError, TypeError):
             pass  # a zero or infinite resistance, an overflow: the array form's limits
     arg = np.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt
     exact = (nvt / r) * wright_omega(arg) - i_s
