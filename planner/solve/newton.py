@@ -74,6 +74,9 @@ class Junction:
     def __init__(self, i_s, nvt, bv, ibv, r_s, g_p):
         self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p = i_s, nvt, bv, ibv, r_s, g_p
         self.inv_nvt = 1.0 / nvt
+        self.neg_inv_nvt = -self.inv_nvt
+        self.is_nvt = i_s * self.inv_nvt
+        self.ibv_nvt = ibv * self.inv_nvt
         self.two_nvt = 2.0 * nvt
         self.ln_is = np.log(i_s)
         self.vcrit = nvt * np.log(nvt / (np.sqrt(2.0) * i_s))
@@ -256,16 +259,19 @@ def _evaluate(p, w, need_plain, need_log):
             ex = em + 1.0
             i = em + ex * (x - xe) if xe is not x else em
             i *= p.i_s
-            ex *= p.i_s * p.inv_nvt
+            ex *= p.is_nvt
             y = ex
         we = wv = None
         if p.has_bv:
-            wv = (w + p.bv) * (-p.inv_nvt)
-            we = np.minimum(wv, jl.EXP_MAX)
+            wv = (w + p.bv) * p.neg_inv_nvt
+            we = np.minimum(wv, jl.EXP_MAX) if wv.max() > jl.EXP_MAX else wv
             if need_plain:
                 ew = np.exp(we)
-                i = i - p.ibv * ew * (1.0 + np.fmax(wv - we, 0.0))  # no BV: -inf - -inf -> 0
-                y = y + ew * (p.ibv * p.inv_nvt)
+                if we is wv:  # not continued linearly (no BV: -inf)
+                    i = i - p.ibv * ew
+                else:
+                    i = i - p.ibv * ew * (1.0 + np.fmax(wv - we, 0.0))  # no BV: -inf - -inf -> 0
+                y = y + ew * p.ibv_nvt
         if need_plain and nonzero(p.g_p):
             i += p.g_p * w
             y += p.g_p
@@ -305,7 +311,7 @@ def _scaled(p, w, aux, big_l, e_l):
         ysc = t * p.inv_nvt
         if p.has_bv:
             tb = np.exp(p.ln_ibv + we - big_l)
-            part = part - tb * (1.0 + np.fmax(wv - we, 0.0))
+            part = part - tb if we is wv else part - tb * (1.0 + np.fmax(wv - we, 0.0))
             ysc = ysc + tb * p.inv_nvt
     else:
         lu, a = aux
