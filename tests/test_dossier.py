@@ -232,6 +232,19 @@ def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, m
     assert fast == full
 
 
+def test_shared_parses_and_line_breaks_change_no_byte(tmp_path, monkeypatch):
+    """Paragraphs of one text and style share reportlab's parse and line breaks: the same PDF as each its own."""
+    spec = load(ROOT / "projects" / "pocket_voltmeter.yaml")
+    monkeypatch.setattr(layout.Para, "_kept", {})
+    shared = build_dossier(spec, tmp_path / "shared.pdf", samples=20).read_bytes()
+    assert any(k[0] == "wrap" for k in layout.Para._kept)  # the sharing was used
+    monkeypatch.setattr(layout.Para, "share", False)
+    monkeypatch.setattr(layout.Para, "_kept", {})
+    alone = build_dossier(spec, tmp_path / "alone.pdf", samples=20).read_bytes()
+    assert not layout.Para._kept
+    assert shared == alone
+
+
 def test_a_paragraph_asked_again_at_a_width_breaks_as_a_fresh_one():
     """The kept line breaks equal reportlab's own at every width, asked in any order."""
     from reportlab.platypus import Paragraph

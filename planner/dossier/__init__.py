@@ -40,12 +40,19 @@ from .. import accuracy, faults
 from ..background import beside
 from ..sizing import sizing_json
 from ..wiring import choose_style, wire_switch
-from . import layout, restoration as restoration_section, scaleplate, sections
-from .sections import Context
+
+# The layout (reportlab) is imported where it is used, not here: the dossier starts its misrange
+# matrix on a second core first, and the import is made on the first core while it runs.
 
 __all__ = ["build_dossier", "gather", "render", "bom_csv", "DossierLayoutError"]
 
-DossierLayoutError = layout.DossierLayoutError
+
+def __getattr__(name: str):
+    if name == "DossierLayoutError":
+        from .layout import DossierLayoutError
+
+        return DossierLayoutError
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 _DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
@@ -109,16 +116,18 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     spec = design.spec
     text, source = _date(spec, date)
     sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
-    ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
-                  samples=int(spec.analysis.samples if samples is None else samples),
-                  seed=int(spec.analysis.seed if seed is None else seed))
-    ctx.net = design.net
-    if design.sizing is not None:
-        ctx.sizing = sizing_json(design.sizing)
-        ctx.cautions += list(ctx.sizing.get("cautions", []))
     # the misrange matrix on a second core while this one runs the check (the same answer, computed
     # here when there is no second core)
     with beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel) as matrix:
+        from .sections import Context  # the layout's import, made while the matrix runs
+
+        ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
+                      samples=int(spec.analysis.samples if samples is None else samples),
+                      seed=int(spec.analysis.seed if seed is None else seed))
+        ctx.net = design.net
+        if design.sizing is not None:
+            ctx.sizing = sizing_json(design.sizing)
+            ctx.cautions += list(ctx.sizing.get("cautions", []))
         say("dossier: accuracy check")
         try:
             ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
@@ -166,6 +175,8 @@ def render(ctx: Context, *, progress: Callable[[str], None] | None = None, plate
     """
     from reportlab.platypus.doctemplate import LayoutError
 
+    from . import layout, restoration as restoration_section, scaleplate, sections
+
     say = progress or (lambda message: None)
     spec = ctx.spec
     story = []
@@ -205,6 +216,8 @@ def _csv_num(x) -> str:
 def bom_csv(ctx: Context) -> str:
     """The bill of materials as CSV text (SI units, unit in each column's name)."""
     out = io.StringIO()
+    from . import sections
+
     w = _csv.writer(out, lineterminator="\n")
     w.writerow(["designator", "kind", "value", "value_si", "series", "tolerance_pct", "tempco_ppm_per_k",
                 "power_rated_w", "power_required_w", "voltage_rated_v", "voltage_required_v", "notes"])

@@ -119,23 +119,51 @@ def esc(text) -> str:
 
 
 class Para(Paragraph):
-    """A paragraph that breaks its lines once per width.
+    """A paragraph that parses its markup and breaks its lines once per text, style and width.
 
     The layout asks a paragraph for its size again and again at the same width (a
     table's row heights, again for each piece of a table split over pages, again in
-    the second pass); the lines it broke at a width are kept and given back. The
-    breaking depends on the width, the text and the style only, so the pages are
-    the same, byte for byte.
+    the second pass), and a dossier repeats the same short texts in many cells (a
+    dash, a tolerance, a value). Reportlab's parse of a text in a style, and the
+    lines it broke at a width, are kept and given to every paragraph of the same
+    text and style. Both depend on the text, the style and the width only, so the
+    pages are the same, byte for byte (tests compare with :attr:`share` off).
     """
+
+    #: Share parses and line breaks between paragraphs (off: each paragraph its own, as reportlab).
+    share = True
+    #: Kept parses and line breaks; emptied at :data:`KEEP` entries.
+    _kept: dict = {}
+    KEEP = 50_000
+
+    def _setup(self, text, style, bulletText, frags, cleaner):
+        if frags is not None or not self.share:
+            return super()._setup(text, style, bulletText, frags, cleaner)
+        key = ("parse", text, id(style), bulletText)
+        hit = self._kept.get(key)
+        if hit is None:
+            super()._setup(text, style, bulletText, frags, cleaner)
+            if len(self._kept) >= self.KEEP:
+                self._kept.clear()
+            # the style itself is kept with it, so its id names no other style while the entry lives
+            self._kept[key] = (self.text, self.frags, self.style, self.bulletText, style)
+        else:
+            self.text, self.frags, self.style, self.bulletText = hit[:4]
+            self.debug = 0
+        self._shared_as = key[1:]
 
     def wrap(self, availWidth, availHeight):
         if availWidth < 1e-8:  # reportlab's "cannot fit here" answer, nothing to keep
             return super().wrap(availWidth, availHeight)
-        kept = self.__dict__.setdefault("_dossier_wrapped", {})
-        hit = kept.get(availWidth)
+        shared = self.__dict__.get("_shared_as")
+        if shared is not None:
+            key, kept = ("wrap", *shared, availWidth), self._kept
+        else:
+            key, kept = availWidth, self.__dict__.setdefault("_dossier_wrapped", {})
+        hit = kept.get(key)
         if hit is None:
             w, h = super().wrap(availWidth, availHeight)
-            kept[availWidth] = (w, h, self._wrapWidths, self.blPara)
+            kept[key] = (w, h, self._wrapWidths, self.blPara)
             return w, h
         self.width, self.height, self._wrapWidths, self.blPara = hit
         return hit[0], hit[1]
