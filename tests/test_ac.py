@@ -358,6 +358,36 @@ def test_ac_worst_case_bound_covers_every_corner(service):
     np.testing.assert_allclose(bound["worst_case_error_pct"], every["worst_case_error_pct"], atol=0.05)  # % of FS
 
 
+def test_corners_solved_with_the_builds_equal_each_batch_alone(service):
+    """The check solves an AC position's worst-case corners with its Monte Carlo builds (one solve, the rule
+    verified on each batch's extreme rows); the figures are those of the corners and the builds solved apart.
+
+    Source: the same rule on the same parameter rows gives the same cycle means whatever else shares the
+    solve; the solver converges every case to its step tolerance (common practice: 1e-12 of full scale).
+    """
+    from planner.accuracy import CountingEngine, current_carrying, worst_case
+    from planner.accuracy.position import LINEARITY_FRACTIONS, check_position
+
+    eng = Engine(service)
+    params_all = parameters(eng)
+    builds = draw_factors(params_all, 300, np.random.default_rng(5))
+    for name in ("50 V~", "100 mA~"):
+        pos = service.net.position(name)
+        fs = pos.full_scale
+        run = CountingEngine(eng)
+        out, _, arrays = check_position(run, service.spec, pos, params_all, builds, 300, np.random.default_rng(7),
+                                        None, lambda message: None)
+        carrying = current_carrying(eng, name)
+        params = [q for q in params_all if q.element is None or q.element in carrying]
+        alone = worst_case(CountingEngine(eng), name, fs, params, np.random.default_rng(7), pos.kind.corner_parameters)
+        assert out["worst_case_method"] == alone["worst_case_method"] == "sensitivity"
+        assert out["worst_case_corner"] == alone["worst_case_corner"]
+        for key in ("worst_case_error_pct", "worst_case_bound_pct", "worst_case_corner_max_pct"):
+            np.testing.assert_allclose(out[key], alone[key], rtol=0, atol=1e-10)  # % of full scale
+        mc = eng.operate(name, LINEARITY_FRACTIONS * fs, factors={q.key: builds[q.key] for q in params}).reading()
+        np.testing.assert_allclose(arrays.mc_readings, mc, rtol=0, atol=1e-12 * fs)
+
+
 @pytest.mark.parametrize("text,what", [
     ("ac_voltage: {arrangement: chain, full_scales: [10 V], rectifier: full, diode: d1}\n", "rectifier"),
     ("ac_voltage: {arrangement: chain, full_scales: [10 V], diode: nope}\n", "diode"),

@@ -15,7 +15,7 @@ import numpy as np
 from ..model import Spec
 from .classes import class_figures
 from .result import PositionArrays
-from .tolerances import MAX_CORNER_PARAMETERS, CountingEngine, current_carrying, error_pct, worst_case
+from .tolerances import MAX_CORNER_PARAMETERS, CountingEngine, current_carrying, error_pct, worst_case_steps
 
 #: Points of the linearity tables, fractions of full scale.
 LINEARITY_FRACTIONS = np.arange(1, 11) / 10.0
@@ -105,14 +105,15 @@ def _loading(run: CountingEngine, pos, source_impedance_ohm: float, out: dict, a
 
 
 def _monte_carlo(run: CountingEngine, pos, params, mc_factors, samples: int, cls: float, out: dict,
-                 arrays: PositionArrays) -> np.ndarray:
-    """The shared builds over the whole scale: one solve; returns which builds are within class."""
+                 arrays: PositionArrays, mrd=None) -> np.ndarray:
+    """The shared builds over the whole scale: one solve (``mrd``: their readings, solved already);
+    returns which builds are within class."""
     fs = float(pos.full_scale)
     applied = arrays.applied
     fac = {p.key: mc_factors[p.key] for p in params}
-    if fac:
+    if mrd is None and fac:
         mrd = run.operate(pos.name, applied, factors=fac).reading()  # (N, 10)
-    else:
+    elif mrd is None:
         mrd = np.broadcast_to(arrays.readings[arrays.i_ref], (samples, applied.size))
     err = (mrd - applied[None, :]) / fs * 100.0
     fs_err = err[:, -1]
@@ -129,6 +130,34 @@ def _monte_carlo(run: CountingEngine, pos, params, mc_factors, samples: int, cls
     arrays.mc_readings = np.array(mrd, dtype=float)
     arrays.mc_error_pct = np.array(fs_err, dtype=float)
     return ok
+
+
+def _worst_case(run: CountingEngine, pos, params, mc_factors, rng, limit: int, arrays: PositionArrays, say):
+    """The worst case (:func:`planner.accuracy.tolerances.worst_case_steps`), its last batch (the corners)
+    solved with the Monte Carlo builds where the range kind asks for it and they are at least
+    :attr:`planner.ranges.RangeKind.corners_with_builds`.
+
+    Returns the worst case's dict and the builds' readings (N, 10) where they were solved, else None.
+    """
+    fs = float(pos.full_scale)
+    least = pos.kind.corners_with_builds
+    steps = worst_case_steps(params, rng, limit)
+    factors, last = next(steps)
+    mrd = None
+    while True:
+        rows = 0 if factors is None else len(next(iter(factors.values())))
+        if last and params and least is not None and rows >= least:
+            say(f"{pos.name}: Monte Carlo, {len(mc_factors[params[0].key])} builds, with the corners")
+            fac = {p.key: np.concatenate([factors[p.key], mc_factors[p.key]]) for p in params}
+            groups = (rows, len(mc_factors[params[0].key]))
+            rd = pos.kind.operate_groups(run, pos, arrays.applied, fac, groups).reading()
+            e, mrd = error_pct(rd[:rows, -1], fs), rd[rows:]
+        else:
+            e = error_pct(run.operate(pos.name, [fs], factors=factors).reading()[:, 0], fs)
+        try:
+            factors, last = steps.send(e)
+        except StopIteration as done:
+            return done.value, mrd
 
 
 def check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors, samples: int, rng_corners,
@@ -174,10 +203,12 @@ def check_position(run: CountingEngine, spec: Spec, pos, params_all, mc_factors,
         _loading(run, pos, source_impedance_ohm, out, arrays)
     say(f"{pos.name}: worst case over {len(params)} toleranced parameters")
     limit = pos.kind.corner_parameters
-    out.update(worst_case(run, pos.name, fs, params, rng_corners,
-                          MAX_CORNER_PARAMETERS if limit is None else min(limit, MAX_CORNER_PARAMETERS)))
-    say(f"{pos.name}: Monte Carlo, {samples} builds")
-    ok = _monte_carlo(run, pos, params, mc_factors, samples, cls, out, arrays)
+    limit = MAX_CORNER_PARAMETERS if limit is None else min(limit, MAX_CORNER_PARAMETERS)
+    wc, mrd = _worst_case(run, pos, params, mc_factors, rng_corners, limit, arrays, say)
+    out.update(wc)
+    if mrd is None:
+        say(f"{pos.name}: Monte Carlo, {samples} builds")
+    ok = _monte_carlo(run, pos, params, mc_factors, samples, cls, out, arrays, mrd)
     out.update(pos.kind.check_figures(run.engine, pos))  # figures of the range kind (AC: waveform errors)
     out.update(class_figures(spec, out, arrays))
     return out, ok, arrays

@@ -196,16 +196,32 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
     linearised sensitivities: common practice (e.g. the tolerance analyses of
     SPICE simulators).
     """
+    steps = worst_case_steps(params, rng, max_corner_parameters)
+    factors, _ = next(steps)
+    while True:
+        e = error_pct(run.operate(state, [full_scale], factors=factors).reading()[:, 0], full_scale)
+        try:
+            factors, _ = steps.send(e)
+        except StopIteration as done:
+            return done.value
+
+
+def worst_case_steps(params: list[Parameter], rng, max_corner_parameters: int = MAX_CORNER_PARAMETERS):
+    """:func:`worst_case` as a generator of batches, for a caller that solves them with others.
+
+    Yields ``(factors, last)``: the parameter rows of a batch at full scale (``None``: the
+    nominal row alone) and whether it is the last batch; receives the errors of its rows
+    [% of full scale], shape (P,); returns the dict of :func:`worst_case`.
+    """
     k = len(params)
     labels = [p.label for p in params]
     if k == 0:
-        e = error_pct(run.operate(state, [full_scale]).reading()[:, 0], full_scale)
+        e = yield None, True
         return {"worst_case_error_pct": float(abs(e[0])), "worst_case_method": "corners",
                 "worst_case_parameters": [], "worst_case_corners": 1, "worst_case_corner": {}}
     if k <= max_corner_parameters:
         signs = _corner_signs(k)
-        e = error_pct(run.operate(state, [full_scale], factors=_factors_from_signs(params, signs)).reading()[:, 0],
-                       full_scale)
+        e = yield _factors_from_signs(params, signs), True
         i = int(np.argmax(np.abs(e)))
         return {"worst_case_error_pct": float(abs(e[i])), "worst_case_method": "corners",
                 "worst_case_parameters": labels, "worst_case_corners": int(len(e)),
@@ -217,7 +233,7 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
         lo, hi = p.extremes()
         factors[p.key][1 + 2 * j] = lo
         factors[p.key][2 + 2 * j] = hi
-    e = error_pct(run.operate(state, [full_scale], factors=factors).reading()[:, 0], full_scale)
+    e = yield factors, False
     e0 = e[0]
     d_lo, d_hi = e[1::2] - e0, e[2::2] - e0
     hi_sum = e0 + np.sum(np.maximum(np.maximum(d_lo, d_hi), 0.0))
@@ -225,13 +241,10 @@ def worst_case(run: CountingEngine, state, full_scale: float, params: list[Param
     bound = float(max(abs(hi_sum), abs(lo_sum)))
     up = np.where(d_hi >= d_lo, 1.0, -1.0)
     signs = np.vstack([up, -up, rng.choice([-1.0, 1.0], size=(VERIFY_CORNERS, k))])
-    ec = error_pct(run.operate(state, [full_scale], factors=_factors_from_signs(params, signs)).reading()[:, 0],
-                    full_scale)
+    ec = yield _factors_from_signs(params, signs), True
     i = int(np.argmax(np.abs(ec)))
     corner_max = float(abs(ec[i]))
     return {"worst_case_error_pct": max(bound, corner_max), "worst_case_method": "sensitivity",
             "worst_case_parameters": labels, "worst_case_corners": int(len(ec)),
             "worst_case_corner": {lab: int(s) for lab, s in zip(labels, signs[i])},
             "worst_case_bound_pct": bound, "worst_case_corner_max_pct": corner_max}
-
-

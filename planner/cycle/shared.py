@@ -160,6 +160,20 @@ def _moments(sh: Shape, scale: float, lo: float, hi: float) -> np.ndarray:
 
 
 def _sine_moments(scales, lo: float, hi: float) -> np.ndarray:
+    """:func:`_sine_moments_of` kept by scales and panel (read-only): a rule's verifications ask for the
+    panels its build computed, and the same position's requests for them again."""
+    s = np.ascontiguousarray(scales, dtype=float)
+    return _sine_moments_kept(s.tobytes(), float(lo), float(hi))
+
+
+@lru_cache(maxsize=1 << 14)
+def _sine_moments_kept(key: bytes, lo: float, hi: float) -> np.ndarray:
+    m = _sine_moments_of(np.frombuffer(key, dtype=float), lo, hi)
+    m.flags.writeable = False
+    return m
+
+
+def _sine_moments_of(scales, lo: float, hi: float) -> np.ndarray:
     r"""The moments of :func:`_moments` for sines of several scales at once: (len(scales), MAX_DEGREE + 1).
 
     Notes
@@ -312,7 +326,7 @@ def _shares(p: _SPanel, tol, ms_tol, factor):
 
 #: Levels of halves solved ahead with a panel that has to be solved: a solve costs its Newton iterations
 #: more than its points, and a knee is reached by several halvings in a row.
-LOOKAHEAD = 2
+LOOKAHEAD = 3
 
 
 def _ahead(panels, depth: int) -> list:

@@ -80,6 +80,8 @@ class ACRange(RangeKind):
     #: A corner of an AC range costs a whole cycle (40 to 70 phase nodes, not one point): above 6
     #: parameters (64 corners) the sensitivity bound and its 256 verification corners cost less.
     corner_parameters = 6
+    #: Fewer corners are a small batch (solved on the rule's check nodes too, every row verified).
+    corners_with_builds = SMALL_BATCH + 1
 
     def check_figures(self, engine, position) -> dict:
         """``waveform_errors[]`` and the readings of a DC level equal to the full scale, both polarities.
@@ -105,6 +107,41 @@ class ACRange(RangeKind):
                 "dc_readings": [{"applied": float(a), "reading": float(r), "error_pct": float((r - abs(a)) / fs * 100.0)}
                                 for a, r in zip((fs, -fs), dc)],
                 "scale": position.scale}
+
+    def operate_groups(self, run, position, values, factors, groups):
+        """Several batches of parameter rows of a position at the reference temperature as one solve.
+
+        Parameters
+        ----------
+        run : planner.accuracy.tolerances.CountingEngine
+            Counts the solve.
+        position : Position
+        values : array_like (T,)
+            Applied rms values [V] or [A].
+        factors : dict
+            The batches' factors one after the other, arrays of shape (P,).
+        groups : sequence of int
+            Rows of each batch (summing to P).
+
+        Returns
+        -------
+        CycleOperating
+            Shape (P, T).
+
+        Notes
+        -----
+        Every request of an AC position is solved on its scale rule's nodes whatever its
+        applied values, so the worst case's corners (asked at full scale) cost a whole
+        cycle as a Monte Carlo build does: solved with the builds, they share one solver
+        call and one verification of the rule (each batch's extreme rows,
+        :func:`operate_cycle` ``groups``), where apart they took two of each.
+        """
+        st = run.engine.state(position.name)
+        op = operate_cycle(run.engine, st, values, self.waveform, kind=self.source, temperature_k=None,
+                           r_source_ohm=0.0, factors=factors, groups=groups)
+        run.calls += 1
+        run.points += op.solved_points
+        return op
 
     def plate_scale(self, position) -> str:
         """``linear`` on the shared DC scale (``scale: shared``), ``own`` for an AC scale of its own."""
@@ -368,7 +405,8 @@ def _rule_for(engine, st, shape, values, kind, r_source_ohm):
     return key, cache[key], [pairs.index(w) for w in wanted]
 
 
-def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source_ohm, factors) -> CycleOperating:
+def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source_ohm, factors,
+                  groups=None) -> CycleOperating:
     """Solve a periodic (or DC) stimulus of given rms values on a state, as cycle quantities.
 
     Parameters
@@ -382,6 +420,9 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     kind : {'voltage', 'current'}
     temperature_k, r_source_ohm, factors
         As :meth:`planner.engine.Engine.operate` (per-row arrays of P values or numbers).
+    groups : sequence of int, optional
+        Row counts of consecutive groups of a merged batch (summing to P): the rule is
+        verified on each group's extreme rows, as it would be on each group solved alone.
 
     Returns
     -------
@@ -416,7 +457,9 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
         big = idx[int(np.argmax(np.abs(values)))]
-        rows = _cycle().extreme_rows(rule.mean(op.movement_current_a)[:, big], 2)
+        at_big = rule.mean(op.movement_current_a)[:, big]
+        ends = np.cumsum([0] + list(groups if groups is not None else [p]))
+        rows = np.unique(np.concatenate([a + _cycle().extreme_rows(at_big[a:b], 2) for a, b in zip(ends[:-1], ends[1:])]))
         t = t_ref if temperature_k is None else temperature_k
         f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
 

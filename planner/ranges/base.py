@@ -42,6 +42,10 @@ class RangeKind:
     #: Most toleranced parameters whose every corner ``planner check`` solves for the worst case
     #: (above: the sensitivity bound with its verification corners); None: the check's own limit.
     corner_parameters: ClassVar[int | None] = None
+    #: The fewest worst-case corners ``planner check`` solves with the Monte Carlo builds, at every applied
+    #: value (:meth:`planner.ranges.ac.ACRange.operate_groups`); None: never. For kinds whose every request
+    #: costs the same nodes whatever its applied values (a cycle rule), not where a value costs a point.
+    corners_with_builds: ClassVar[int | None] = None
     #: Whether the neighbouring ranges' full scales are misrange stimuli (``range up``/``down``).
     range_steps: ClassVar[bool] = True
 

@@ -212,8 +212,12 @@ def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, powers:
             st.seg_p_fs[j] = max(st.seg_p_fs[j], sp)
 
 
-def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[PartRow]]) -> Stress:
+def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[PartRow]], *,
+             errors: bool = True) -> Stress:
     """The worst voltage and power of every part and segment, and each position's nominal error.
+
+    ``errors=False`` leaves the nominal errors out (``Stress.errors`` empty): the ideal network's
+    rates need none, and an AC position's costs a rectifier solve.
 
     Notes
     -----
@@ -238,9 +242,9 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         dv = lin.solve(pos, value, shorted)
         if dv is None:
             continue
-        if fs and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
+        if fs and errors and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
             st.errors[pos.name] = nominal_error(spec, net, pos)
-        elif fs and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
+        elif fs and errors and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
             i_m = dv["M1"] / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         powers = None

@@ -112,7 +112,7 @@ def _first_rates(req: _Request) -> tuple[list[Rate], Stress]:
     segs = req.layout.segments
     ideal_choices = [Choice(((sp.target,),), "ideal") for sp in segs]
     net0, parts0 = assemble(req.spec, req.layout, ideal_choices, [req.ladder[0]] * len(segs), req.series)
-    st0 = stresses(req.spec, req.layout, net0, parts0)
+    st0 = stresses(req.spec, req.layout, net0, parts0, errors=False)  # the rates need no nominal errors
     rates = [
         initial_rate(req.ladder, st0.seg_v[j], st0.seg_p[j], st0.seg_v_fs[j], st0.seg_p_fs[j], sp.target)
         for j, sp in enumerate(segs)

@@ -2,7 +2,7 @@
 
 Each shunt is solved through the nonlinear solver so that the mean movement
 current at full-scale rms is I_fs
-(:func:`planner.sizing.sections.rectifier.solve_for_mean`): the input current
+(:func:`planner.sizing.sections.rectifier.solve_for_means`, every range in one batch): the input current
 divides between the shunt and the rectifier branch, whose share is not a fixed
 fraction (the diodes' resistance falls as the current rises), so the division
 is solved, not taken from the DC formula. A ``swamp`` resistor in series with the
@@ -19,7 +19,7 @@ from ...tools import fmt
 from ..layout import PLUS, Layout, SegmentPlan, SizingSection
 from ..request import request_error
 from .ac_voltage import ac_label, check_ac_request
-from .rectifier import input_minus, lay_out_rectifier, solve_for_mean
+from .rectifier import input_minus, lay_out_rectifier, solve_for_means
 
 #: Node prefix of the section's rectifier and shunts.
 PREFIX = "aca"
@@ -51,8 +51,8 @@ class ACCurrentSizing(SizingSection):
         c = spec.ac_current
         names = self.labels(spec)
         lo = input_minus(PREFIX, c.rectifier)
-        for k, fs in enumerate(c.full_scales):
-            r = solve_for_mean(spec, PREFIX, c.rectifier, c.diode, "ac_current", fs, c.line, c.swamp_ohm)
+        shunts = solve_for_means(spec, PREFIX, c.rectifier, c.diode, "ac_current", c.full_scales, c.line, c.swamp_ohm)
+        for k, (fs, r) in enumerate(zip(c.full_scales, shunts)):
             top = f"{PREFIX}{k + 1}"
             layout.segments.append(SegmentPlan(f"AC shunt {names[k]}", "shunt", r, lo, top, c.line))
             layout.positions.append(Position(names[k], "ac_current", float(fs), (PLUS, lo), c.line,

@@ -2,7 +2,7 @@
 
 Each range's total multiplier is solved through the nonlinear solver so that the
 mean movement current at full-scale rms is I_fs
-(:func:`planner.sizing.sections.rectifier.solve_for_mean`); a chain's segments are
+(:func:`planner.sizing.sections.rectifier.solve_for_means`, every range in one batch); a chain's segments are
 the differences of consecutive totals. The rectifier (bridge or half wave) is the
 section's own; its DC corner joins the movement through a contact closed on the
 section's positions. Topology and names in ``docs/ac.md``.
@@ -14,7 +14,7 @@ from ...model import Position, Spec
 from ...tools import fmt
 from ..layout import PLUS, Layout, SegmentPlan, SizingSection, position_label
 from ..request import check_ranges, request_error
-from .rectifier import RECTIFIERS, input_minus, lay_out_rectifier, solve_for_mean
+from .rectifier import RECTIFIERS, input_minus, lay_out_rectifier, solve_for_means
 
 #: Node prefix of the section's rectifier and multiplier.
 PREFIX = "acv"
@@ -60,7 +60,7 @@ class ACVoltageSizing(SizingSection):
     def totals(self, spec: Spec) -> list[float]:
         """Total multiplier of each range [ohm], lowest range first (nonlinear solve)."""
         v = spec.ac_voltage
-        return [solve_for_mean(spec, PREFIX, v.rectifier, v.diode, "ac_voltage", fs, v.line) for fs in v.full_scales]
+        return solve_for_means(spec, PREFIX, v.rectifier, v.diode, "ac_voltage", v.full_scales, v.line)
 
     def lay_out(self, spec: Spec, layout: Layout) -> None:
         v = spec.ac_voltage

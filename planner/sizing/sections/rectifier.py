@@ -35,7 +35,7 @@ from ..layout import COM, M_PLUS, Device, Layout
 from ..request import request_error
 
 __all__ = ["RECTIFIERS", "SIZING_NODES", "ideal_factor", "lay_out_rectifier", "input_minus", "nominal_error",
-           "solve_for_mean"]
+           "solve_for_mean", "solve_for_means"]
 
 #: The rectifier kinds the sizer lays out.
 RECTIFIERS = ("bridge", "half_wave")
@@ -117,19 +117,27 @@ def _compiled(spec: Spec, net: NetworkSpec, pos_name: str, kind: str):
     return c, r, jn
 
 
-def _mean_of(c, r, jn, fs: float, movement: str):
-    """Cycle mean of the movement current [A] at full-scale rms of a sine (SIZING_NODES-node rule).
-
-    One value for one row of branch resistances ``r`` (1, L); an array (P,) for P rows.
-    """
+def _rule(nodes: int):
+    """The midpoint rule in phase of a sine over a half cycle (Gauss-Chebyshev in x), without crests."""
     from ...cycle import SHAPES, fixed_rule  # on first use: it brings scipy's interpolation
 
-    rule = fixed_rule(SHAPES["sine"], SIZING_NODES, crests=False)
+    return SHAPES["sine"], fixed_rule(SHAPES["sine"], nodes, crests=False)
+
+
+def _mean_of(c, r, jn, fs, movement: str, nodes: int = SIZING_NODES):
+    """Cycle mean of the movement current [A] at full-scale rms of a sine (a ``nodes``-node rule).
+
+    One value for one row of branch resistances ``r`` (1, L) and one full scale; an array (P,)
+    for P rows, ``fs`` a number or one full scale per row (P,).
+    """
+    sine, rule = _rule(nodes)
     m_j = next(j for j, br in enumerate(c.branches) if br.element == movement)
     rows = r.shape[0]
     if rows > 1:
         jn = jn.map(lambda a: np.repeat(a, rows, axis=0))
-    means = rule.mean(solve(c, r, jn, rule.points(SHAPES["sine"].peak_of(fs))).branch_current(m_j))
+    peaks = np.asarray([sine.peak_of(float(f)) for f in np.atleast_1d(fs)], dtype=float)
+    stim = peaks[:, None] * rule.nodes[None, :] if peaks.size > 1 else rule.points(peaks[0])
+    means = rule.mean(solve(c, r, jn, stim).branch_current(m_j))
     return float(means[0]) if rows == 1 else np.asarray(means, dtype=float)
 
 
@@ -137,7 +145,7 @@ def nominal_error(spec: Spec, net: NetworkSpec, pos: Position) -> float:
     """Relative reading error at full scale of an AC position of a sized network (nominal parts, reference).
 
     The same solve as :func:`solve_for_mean`, on the whole network with the chosen
-    values (clamps and every other part included): :math:`\bar I_m / I_{fs} - 1`.
+    values (clamps and every other part included): :math:`\\bar I_m / I_{fs} - 1`.
     """
     movement = nw.movement_element(net).name
     c, r, jn = _compiled(spec, net, pos.name, pos.kind.source)
@@ -147,6 +155,15 @@ def nominal_error(spec: Spec, net: NetworkSpec, pos: Position) -> float:
 def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures: str, fs: float,
                    line, swamp_ohm: float = 0.0) -> float:
     """The resistance [ohm] that makes the mean movement current I_fs at full-scale rms of a sine.
+
+    One range of :func:`solve_for_means` (see there).
+    """
+    return solve_for_means(spec, prefix, rectifier, model, measures, [fs], line, swamp_ohm)[0]
+
+
+def solve_for_means(spec: Spec, prefix: str, rectifier: str, model: str, measures: str, full_scales,
+                    line, swamp_ohm: float = 0.0) -> list[float]:
+    """The resistance [ohm] of each range that makes the mean movement current I_fs at full-scale rms of a sine.
 
     Parameters
     ----------
@@ -160,8 +177,8 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
         ``ac_voltage``: the total multiplier in series with the rectifier;
         ``ac_current``: the shunt across the input with the rectifier and
         movement across it.
-    fs : float
-        Full-scale rms [V] or [A].
+    full_scales : sequence of float
+        Full-scale rms of each range [V] or [A].
     line : int or None
         The section's line (for messages).
     swamp_ohm : float
@@ -169,7 +186,8 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
 
     Returns
     -------
-    float
+    list of float
+        One resistance per range, in the order of ``full_scales``.
 
     Raises
     ------
@@ -181,64 +199,165 @@ def solve_for_mean(spec: Spec, prefix: str, rectifier: str, model: str, measures
     -----
     Solve :math:`\\bar I_m(R) = I_{fs}` with :math:`\\bar I_m` the cycle mean over
     the instantaneous DC states of the position's network (nominal parts,
-    reference temperature). The mean
+    reference temperature) on the :data:`SIZING_NODES`-node rule. The mean
     rises monotonically as a multiplier falls and as a shunt rises. The root is
-    found by Newton's method on :math:`\\ln R` from the ideal rectifier's value,
-    safeguarded by bisection (:func:`_root`): three to five solver calls, each a
-    batch of two rows, where a bracketing method takes a dozen.
+    found from the ideal rectifier's value (:func:`_root_steps`): a scan of
+    resistances around it on the :data:`SCAN_NODES`-node rule places the first
+    estimate, then Newton's method on :math:`\\ln R`, safeguarded by bisection, on the
+    fine rule, each step solving the value and its neighbour ``ln R + NEWTON_STEP`` as
+    two parameter rows. The ranges of a section are one network with another
+    resistance and source value per row, so each round of every range's requests is
+    one solver call: three rounds for the section where one search per range took
+    four or five.
 
     References
     ----------
     W. H. Press et al., *Numerical Recipes*, 3rd ed., Cambridge University Press, 2007,
     section 9.4 (safeguarded Newton-Raphson).
     """
-    net = _network(spec, prefix, rectifier, model, measures, fs, swamp_ohm)
+    full_scales = [float(f) for f in full_scales]
+    net = _network(spec, prefix, rectifier, model, measures, full_scales[0], swamp_ohm)
     c, r, jn = _compiled(spec, net, "x", "voltage" if measures == "ac_voltage" else "current")
     jx = next(j for j, br in enumerate(c.branches) if br.element == "RX")
     i_fs = spec.movement.i_fs_a
-
-    def excess(log_rs):
-        rr = np.repeat(r, len(log_rs), axis=0)
-        rr[:, jx] = np.exp(log_rs)
-        return _mean_of(c, rr, jn, fs, "M1") / i_fs - 1.0
-
     ideal = ideal_factor(rectifier)
     r_m = spec.movement.r_coil_ohm
-    if measures == "ac_voltage":
-        lo, hi = math.log(1e-3), math.log(max(ideal * fs / i_fs, 2.0) * 1.05)
-        start = math.log(max(ideal * fs / i_fs - r_m, 1.0))  # the ideal rectifier's multiplier
-    else:
-        lo, hi = math.log(1e-6), math.log(1e9)
-        # a shunt that leaves the ideal rectifier's branch (coil and swamp) I_fs on average
-        start = math.log(max((r_m + swamp_ohm) * i_fs / (ideal * fs), 1e-6))
-    start = min(max(start, lo), hi)
-    f_lo, f_hi, f0, f1 = excess([lo, hi, start, start + NEWTON_STEP])
-    if measures == "ac_voltage" and f_lo < 0:
-        raise request_error(
-            spec, f"AC voltage range {fmt(fs, 'V')} is too low for the {rectifier.replace('_', ' ')} rectifier: "
-            f"with no multiplier the mean movement current is below I_fs (the diodes' drops and the coil "
-            f"{fmt(r_m, 'ohm')} take it all); raise the lowest AC range or use a more sensitive movement", line)
-    if measures != "ac_voltage" and f_hi < 0:
-        raise request_error(
-            spec, f"AC current range {fmt(fs, 'A')} cannot reach full scale through the "
-            f"{rectifier.replace('_', ' ')} rectifier (the mean of its rectified sine is below I_fs even "
-            "unshunted); raise the range", line)
-    return math.exp(_root(excess, lo, hi, f_lo, start, f0, f1))
+
+    def refusal(fs: float):
+        def refuse(f_lo: float, f_hi: float) -> None:
+            if measures == "ac_voltage" and f_lo < 0:
+                raise request_error(
+                    spec, f"AC voltage range {fmt(fs, 'V')} is too low for the {rectifier.replace('_', ' ')} "
+                    f"rectifier: with no multiplier the mean movement current is below I_fs (the diodes' drops and "
+                    f"the coil {fmt(r_m, 'ohm')} take it all); raise the lowest AC range or use a more sensitive "
+                    "movement", line)
+            if measures != "ac_voltage" and f_hi < 0:
+                raise request_error(
+                    spec, f"AC current range {fmt(fs, 'A')} cannot reach full scale through the "
+                    f"{rectifier.replace('_', ' ')} rectifier (the mean of its rectified sine is below I_fs even "
+                    "unshunted); raise the range", line)
+        return refuse
+
+    steps = []
+    for fs in full_scales:
+        if measures == "ac_voltage":
+            lo, hi = math.log(1e-3), math.log(max(ideal * fs / i_fs, 2.0) * 1.05)
+            start = math.log(max(ideal * fs / i_fs - r_m, 1.0))  # the ideal rectifier's multiplier
+        else:
+            lo, hi = math.log(1e-6), math.log(1e9)
+            # a shunt that leaves the ideal rectifier's branch (coil and swamp) I_fs on average
+            start = math.log(max((r_m + swamp_ohm) * i_fs / (ideal * fs), 1e-6))
+        steps.append(_root_steps(lo, hi, min(max(start, lo), hi), refusal(fs)))
+    out: list = [None] * len(full_scales)
+    asks = {k: next(g) for k, g in enumerate(steps)}
+    while asks:  # one round: every range's request, one solve per rule
+        answers = {}
+        for nodes in sorted({a[0] for a in asks.values()}):
+            ks = [k for k, a in asks.items() if a[0] == nodes]
+            logs = np.concatenate([np.asarray(asks[k][1], dtype=float) for k in ks])
+            fss = np.concatenate([np.full(len(asks[k][1]), full_scales[k]) for k in ks])
+            rr = np.repeat(r, logs.size, axis=0)
+            rr[:, jx] = np.exp(logs)
+            f = np.atleast_1d(_mean_of(c, rr, jn, fss, "M1", nodes)) / i_fs - 1.0
+            pos = 0
+            for k in ks:
+                n = len(asks[k][1])
+                answers[k] = f[pos:pos + n]
+                pos += n
+        for k in sorted(answers):
+            try:
+                asks[k] = steps[k].send(answers[k])
+            except StopIteration as done:
+                del asks[k]
+                out[k] = math.exp(done.value)
+    return out
 
 
 #: Step in ln R of the derivative's difference quotient.
 NEWTON_STEP = 1e-7
 #: Relative error of the mean at which the root is taken (round-off of the cycle mean is near 1e-15).
 RESIDUAL = 1e-13
+#: A Newton step (in ln R) below this is the last: the next would be about its square.
+LAST_STEP = 1e-7
+#: Nodes of the first round's rule (the midpoint rule in phase; within 2e-5 of the mean on the sharpest
+#: knee of a 250 V range: it places the first fine solve, never the root).
+SCAN_NODES = 171
+#: Offsets in ln R of the first round's resistances from the ideal rectifier's value.
+SCAN = (-0.8, -0.4, -0.2, -0.1, 0.0, 0.1, 0.2, 0.4, 0.8)
+#: |excess| at a bracket's end below which the fine rule decides whether the range can be reached.
+EDGE = 1e-3
 
 
-def _root(excess, lo: float, hi: float, f_lo: float, x: float, f: float, f_step: float) -> float:
-    """The root of ``excess`` in [lo, hi] (ln R): Newton's method safeguarded by bisection.
+def _root_steps(lo: float, hi: float, start: float, refuse):
+    """The root of a range's excess in [lo, hi] (ln R), as a generator of solve requests.
+
+    Yields ``(nodes, [ln R, ...])``: the rule (:data:`SCAN_NODES` or
+    :data:`SIZING_NODES` nodes) and the resistances whose relative excess of the mean
+    over I_fs is wanted; receives those excesses as an array; returns the root (ln R).
+    ``refuse(f_lo, f_hi)`` raises where the excesses at the bracket's ends show no root.
+
+    Notes
+    -----
+    A solver call costs its Newton iterations more than its rows, so the rounds are few
+    and wide:
+
+    1. the excess at :data:`SCAN` around the start on the :data:`SCAN_NODES`-node rule;
+       where it changes sign there the range can be reached (the excess is monotone in
+       ln R), else at lo and hi too, ``refuse`` judging those (on the fine rule where either
+       is within :data:`EDGE` of zero, so that a refusal never rests on the coarse rule);
+       the inverse cubic through the four values around the sign change gives the first
+       estimate (:func:`_first_guess`), within about 1e-4 in ln R;
+    2. Newton's method on the :data:`SIZING_NODES`-node rule from there, safeguarded by
+       bisection in the bracket of the scan widened by one point on each side
+       (:func:`_newton`): usually two more rounds.
+    """
+    xs = sorted({min(max(start + o, lo), hi) for o in SCAN})
+    f = np.asarray((yield SCAN_NODES, xs), dtype=float)
+    if not np.any(np.sign(f[:-1]) != np.sign(f[1:])):  # the scan does not hold the root: the bracket's ends
+        f_lo, f_hi = (yield SCAN_NODES, [lo, hi])
+        if min(abs(f_lo), abs(f_hi)) < EDGE:
+            f_lo, f_hi = (yield SIZING_NODES, [lo, hi])
+        refuse(float(f_lo), float(f_hi))
+        xs, f = [lo] + xs + [hi], np.concatenate([[f_lo], f, [f_hi]])
+    x, a, b, below = _first_guess(np.asarray(xs), f, lo, hi)
+    f0, f1 = yield SIZING_NODES, [x, x + NEWTON_STEP]
+    x = yield from _newton(SIZING_NODES, a, b, below, x, f0, f1)
+    return x
+
+
+def _first_guess(x: np.ndarray, f: np.ndarray, lo: float, hi: float) -> tuple[float, float, float, float]:
+    """A first estimate of the root of a monotone excess sampled at ascending x, a bracket, and the
+    excess's sign at the bracket's lower end.
+
+    The inverse cubic (x as a polynomial in f) through the four samples around the sign
+    change, or the secant of the two beside it where that falls outside them; the bracket
+    is those two widened by one sample on each side, or to ``lo`` and ``hi`` at the ends of
+    the samples (the coarse rule's error cannot move the root past a neighbouring sample).
+    """
+    change = np.nonzero(np.sign(f[:-1]) != np.sign(f[1:]))[0]
+    i = int(change[0]) if change.size else int(np.argmin(np.abs(f)))
+    i = min(i, x.size - 2)
+    a = x[i - 1] if i >= 1 else lo
+    b = x[i + 2] if i + 2 < x.size else hi
+    sel = np.arange(max(i - 1, 0), min(i + 3, x.size))
+    fs, xs = f[sel], x[sel]
+    guess = float(sum(xs[j] * np.prod([-fs[m] / (fs[j] - fs[m]) for m in range(sel.size) if m != j])
+                      for j in range(sel.size))) if np.all(np.diff(fs) != 0) else math.nan
+    if not x[i] <= guess <= x[i + 1]:
+        df = f[i + 1] - f[i]
+        guess = float(x[i] - f[i] * (x[i + 1] - x[i]) / df) if df != 0 else 0.5 * (x[i] + x[i + 1])
+    return guess, float(a), float(b), float(f[i])
+
+
+def _newton(nodes: int, lo: float, hi: float, f_lo: float, x: float, f: float, f_step: float):
+    """Newton's method safeguarded by bisection on one rule (a generator of solve requests, as
+    :func:`_root_steps`); returns the root (ln R).
 
     Each step solves the value and its neighbour ``x + NEWTON_STEP`` in one batch (two
     parameter rows), so the derivative costs no extra solver call; a step that leaves
-    the bracket bisects it instead. Converged when the mean is within :data:`RESIDUAL` of I_fs
-    or a step is below 1e-12 (relative R).
+    the bracket bisects it instead. Converged when the excess is within :data:`RESIDUAL`,
+    or after a step below :data:`LAST_STEP` (the next one would be about its square), or
+    when the bracket has shrunk below 1e-12. Only the sign of ``f_lo`` is used.
 
     References
     ----------
@@ -249,15 +368,17 @@ def _root(excess, lo: float, hi: float, f_lo: float, x: float, f: float, f_step:
         if abs(f) <= RESIDUAL:
             return x
         if (f < 0) == (f_lo < 0):
-            lo, f_lo = x, f
+            lo = x
         else:
             hi = x
         d = (f_step - f) / NEWTON_STEP
         xn = x - f / d if d != 0.0 else math.nan
         if not lo < xn < hi:
             xn = 0.5 * (lo + hi)
-        if abs(xn - x) <= 1e-12 or hi - lo <= 1e-12:
+        elif abs(xn - x) <= LAST_STEP:
+            return xn
+        if hi - lo <= 1e-12:
             return xn
         x = xn
-        f, f_step = excess([x, x + NEWTON_STEP])
+        f, f_step = yield nodes, [x, x + NEWTON_STEP]
     return x
