@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import io
+import os
 import re
 import shutil
 import subprocess
@@ -221,6 +222,32 @@ def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     assert beside.errors == after.errors == {}
     assert_same_json(beside.faults, after.faults)
     assert_same_json(beside.check, after.check)
+
+
+def test_the_plate_made_beside_the_check_is_the_one_made_here():
+    """The scale plate, made after the matrix in its child, equals the plate made in this process; a
+    plate that raises there is made again here, so that its exception is raised as without a child."""
+    from planner.cli import _dossier_plate
+    from planner.design import build
+    from planner.dossier import gather
+    from planner.scale import plate_svg, scale_json
+
+    design = build(load(ROOT / "projects" / "pocket_voltmeter.yaml"))
+    beside = gather(design, samples=20, parallel=True, plate=lambda: _dossier_plate(design))
+    after = gather(design, samples=20, parallel=False, plate=lambda: _dossier_plate(design))
+    assert beside.plate is not None and not isinstance(beside.plate, str)
+    assert scale_json(beside.plate) == scale_json(after.plate)
+    assert plate_svg(beside.plate.plate, title="t") == plate_svg(after.plate.plate, title="t")
+
+    calls = []
+
+    def fails_once_made_anywhere():
+        calls.append(os.getpid())
+        raise RuntimeError("plate exploded")
+
+    with pytest.raises(RuntimeError, match="plate exploded"):
+        gather(design, samples=20, parallel=True, plate=fails_once_made_anywhere)
+    assert calls == [os.getpid()]  # raised here; the child's attempt is not seen by this process
 
 
 def test_the_first_pass_lays_out_without_drawing_and_changes_no_byte(tmp_path, monkeypatch):
@@ -450,6 +477,7 @@ def test_acceptance_and_histogram_come_from_the_check(tmp_path):
     from planner.accuracy import check
     from planner.design import build
     from planner.dossier import gather
+    from planner.scale import plate_svg, scale_json
 
     design = build(load(ROOT / "projects" / "pocket_voltmeter.yaml"))
     ctx = gather(design, samples=40, seed=3)

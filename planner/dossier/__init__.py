@@ -57,6 +57,10 @@ def __getattr__(name: str):
 _DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
 
+class _NotMade:
+    """Stands for a plate that raised in the matrix's process (made again in this one)."""
+
+
 def _error_text(exc: BaseException) -> str:
     if isinstance(exc, PlannerError):
         return exc.one_line()
@@ -82,7 +86,7 @@ def _date(spec, date) -> tuple[str, str]:
 
 def gather(design, *, date=None, samples: int | None = None, seed: int | None = None,
            progress: Callable[[str], None] | None = None, parallel: bool | None = None,
-           meanwhile: Callable[[], None] | None = None) -> Context:
+           plate: Callable[[], object] | None = None) -> Context:
     """Run the analyses of a dossier on one design; an analysis that fails is kept as text.
 
     Parameters
@@ -101,9 +105,12 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         Run the misrange matrix in a child process beside the check (True), in
         this process after it (False), or the first where a second core allows
         it (None, :func:`planner.background.beside`). The results are the same.
-    meanwhile : callable, optional
-        The caller's own work (the scale plate), called once the check is done,
-        while the matrix may still be computed beside it.
+    plate : callable, optional
+        Makes the scale plate (the command's own: the plate, or its error text);
+        called after the matrix, in the process that computes the matrix (the
+        second core's, while this one runs the check). Its result is ``ctx.plate``.
+        Where it raises there, it is called again here, so that what it raises
+        is raised as it would be without a second process.
 
     Returns
     -------
@@ -116,9 +123,18 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     spec = design.spec
     text, source = _date(spec, date)
     sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
-    # the misrange matrix on a second core while this one runs the check (the same answer, computed
-    # here when there is no second core)
-    with beside(lambda: faults.faults_project(design, parallel=parallel), _error_text, parallel=parallel) as matrix:
+    # the misrange matrix, then the scale plate, on a second core while this one runs the check (the
+    # same answers, computed here when there is no second core)
+    def matrix_and_plate():
+        found = faults.faults_project(design, parallel=parallel)
+        if plate is None:
+            return found, None
+        try:
+            return found, plate()
+        except Exception:  # noqa: BLE001 - made again where the result is taken, and raised there
+            return found, _NotMade()
+
+    with beside(matrix_and_plate, _error_text, parallel=parallel) as matrix:
         from .sections import Context  # the layout's import, made while the matrix runs
 
         ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
@@ -135,12 +151,13 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
             ctx.check = ctx.accuracy.json
         except Exception as exc:  # noqa: BLE001 - shown in the dossier
             ctx.errors["check"] = _error_text(exc)
-        if meanwhile is not None:
-            meanwhile()
         say("dossier: misrange faults")
-        ctx.faults, error = matrix.result()
+        found, error = matrix.result()
+    ctx.faults, made = found if error is None else (None, _NotMade())
     if error is not None:
         ctx.errors["faults"] = error
+    if plate is not None:
+        ctx.plate = plate() if isinstance(made, _NotMade) else made
     if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
         style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
         ctx.wiring = wire_switch(design.net, style, style_source=source)
@@ -259,7 +276,7 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
         Results the command computed for the scale-plate and restoration
         sections (see :func:`render`); the dossier renders them and computes
         neither. ``plate`` may be a callable that computes it: it is called
-        while the misrange matrix is computed beside the check.
+        beside the check, after the misrange matrix (:func:`gather`).
     protect : sequence of path-like
         More inputs never to be overwritten (the readings file).
 
@@ -295,11 +312,9 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
     check_targets(outputs, protect)
     _date(spec, date)
     design = as_design(design)  # a project whose network cannot be built or checked is bad input
-    made = []
     ctx = gather(design, date=date, samples=samples, seed=seed, progress=progress,
-                 meanwhile=(lambda: made.append(plate())) if callable(plate) else None)
-    plate = made[0] if made else plate
-    pdf = render(ctx, progress=progress, plate=plate, diagnosis=diagnosis,
+                 plate=plate if callable(plate) else None)
+    pdf = render(ctx, progress=progress, plate=ctx.plate if callable(plate) else plate, diagnosis=diagnosis,
                  readings=None if readings is None else str(readings))
     items = [(out, pdf)] + ([(bom_path, bom_csv(ctx))] if bom_path is not None else [])
     write_all(items, protect=protect)

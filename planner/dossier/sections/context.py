@@ -43,6 +43,9 @@ class Context:
         Project-specific cautions (from the fault analysis and the sizer).
     samples, seed : int
         Monte Carlo settings used.
+    plate : planner.scale.ScaleResult or str or None
+        The scale plate the command had made beside the matrix (``plate`` of
+        :func:`planner.dossier.gather`), or its error text; None when not asked for.
     """
 
     spec: object
@@ -60,6 +63,7 @@ class Context:
     cautions: list = field(default_factory=list)
     samples: int = 0
     seed: int = 0
+    plate: object = None
     _cache: dict = field(default_factory=dict)
 
     def number(self, title: str) -> str:
