@@ -49,6 +49,7 @@ class Operating:
         self.solution = solution
         self.i_fs_a = i_fs_a  # shape (P, 1)
         self._branch_of = {}
+        self._elements: dict = {}  # element() by name: its arrays are formed once
         for j, br in enumerate(circuit.branches):
             self._branch_of.setdefault((br.element, br.role), j)
 
@@ -116,7 +117,13 @@ class Operating:
         return out
 
     def element(self, name: str) -> ElementStress:
-        """Current, voltage and power of one element (zero where it is out of circuit)."""
+        """Current, voltage and power of one element (zero where it is out of circuit); formed once per name."""
+        hit = self._elements.get(name)
+        if hit is None:
+            hit = self._elements[name] = self._element(name)
+        return hit
+
+    def _element(self, name: str) -> ElementStress:
         e = self.engine.elements[name]
         a, b = e.nodes
         v = self.node_voltage(a) - self.node_voltage(b)
@@ -153,9 +160,14 @@ class Engine:
     design : Design
         The project with its network (:func:`planner.design.build`), checked and
         with its states compiled once for every engine on it.
+    warm : bool
+        Start each solve of a compiled state from this engine's previous solution of
+        it, case by case where the stimulus rows are the same (an iteration that
+        changes a part's value a little per step, :mod:`planner.stress.tripped`):
+        fewer Newton steps, the same operating points to the solver's tolerance.
     """
 
-    def __init__(self, design: Design):
+    def __init__(self, design: Design, *, warm: bool = False):
         if not isinstance(design, Design):
             raise TypeError("Engine takes a Design: Engine(planner.design.build(spec))")
         self.design = design
@@ -163,6 +175,8 @@ class Engine:
         self.net = design.net
         self.elements = design.elements
         self.movement = design.movement
+        self.warm = warm
+        self._last: dict = {}  # with warm: id(circuit) -> (circuit, stimulus rows (P, S), Solution)
 
     # --- states -------------------------------------------------------------------
     @property
@@ -315,13 +329,40 @@ class Engine:
         r = self.branch_resistances(circuit, t, factors, r_source_ohm, settings)
         jn = self.junctions(circuit, t, factors)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
-        sol = solve(circuit, r, jn, stim, emf=self.emfs(circuit, emf), varistors=self.varistors(circuit))
+        emfs = self.emfs(circuit, emf)
+        start = self._start(circuit, stim, r, jn, emfs) if self.warm else None
+        sol = solve(circuit, r, jn, stim, emf=emfs, varistors=self.varistors(circuit), start=start)
+        if self.warm and sol.start_rows is not None:
+            self._last[id(circuit)] = (circuit, np.broadcast_to(np.atleast_2d(stim), sol.shape), sol)
         i_fs = self.spec.movement.i_fs_a * np.ones((sol.shape[0], 1))
         if factors and "i_fs" in factors:
             i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)
         op = Operating(self, st, circuit, sol, i_fs)
         op._stimulus = stim if stim.ndim == 2 else stim[None, :]
         return op
+
+    def _start(self, circuit, stim, r, jn, emfs):
+        """The previous solution's rows of this circuit, one per case, where every new stimulus
+        row is one of its rows (the first such), else None."""
+        last = self._last.get(id(circuit))
+        if last is None or last[0] is not circuit:
+            return None
+        _, prev_stim, prev = last
+        stim2 = np.atleast_2d(stim)
+        p = max(stim2.shape[0], r.shape[0], jn.i_s.shape[0], 1 if emfs is None else emfs.shape[0])
+        if stim2.shape[1] != prev_stim.shape[1] or stim2.shape[0] not in (1, p):
+            return None
+        rows = []
+        for row in np.broadcast_to(stim2, (p, stim2.shape[1])):
+            same = np.nonzero(np.all(prev_stim == row, axis=1))[0]
+            if not same.size:
+                return None
+            rows.append(int(same[0]))
+        u, w = prev.start_rows
+        s = prev_stim.shape[1]
+        u = u.reshape(prev_stim.shape[0], s, -1)[rows].reshape(p * s, -1)
+        w = w.reshape(prev_stim.shape[0], s, -1)[rows].reshape(p * s, -1)
+        return u, w
 
     def reading(self, position, applied, **kwargs) -> np.ndarray:
         """Pointer reading [V or A] of a position for applied values of its own quantity.

@@ -240,24 +240,83 @@ def _current_carrying(g: nx.MultiGraph, plus: str, minus: str):
         Nodes of the current-carrying block.
     alias : dict
         Every other node connected to the input, mapped to the node of ``main`` it hangs on.
+
+    Notes
+    -----
+    The block is found by Hopcroft and Tarjan's depth-first search (low points, a stack
+    of edges) from the plus terminal, stopping at the block that holds the source edge;
+    the rest by a breadth-first search over the edges outside the block.
+
+    References
+    ----------
+    J. Hopcroft and R. Tarjan, "Algorithm 447: efficient algorithms for graph
+    manipulation", Communications of the ACM 16(6), 372-378, 1973.
     """
-    h = nx.Graph()
-    h.add_edges_from((a, b) for a, b in g.edges() if a != b)
-    h.add_edge(plus, minus)
-    main = {plus, minus}
-    for block in nx.biconnected_component_edges(h):
-        if (plus, minus) in block or (minus, plus) in block:
-            main = {n for edge in block for n in edge}
-            break
-    rest = nx.Graph(h)
-    rest.remove_edges_from([(a, b) for a, b in h.edges() if a in main and b in main])
+    adj: dict = {}
+    for a, b in g.edges():
+        if a != b:
+            adj.setdefault(a, set()).add(b)
+            adj.setdefault(b, set()).add(a)
+    adj.setdefault(plus, set()).add(minus)
+    adj.setdefault(minus, set()).add(plus)
+    main = _block_with(adj, plus, minus)
     alias = {}
-    for comp in nx.connected_components(rest):
-        anchors = comp & main
+    seen = set()
+    for start in adj:
+        if start in seen or start in main:
+            continue
+        comp, todo = {start}, [start]
+        anchors = set()
+        while todo:  # the nodes joined to ``start`` by edges that leave the block
+            v = todo.pop()
+            for w in adj[v]:
+                if w in main:
+                    anchors.add(w)
+                elif w not in comp:
+                    comp.add(w)
+                    todo.append(w)
+        seen |= comp
         if len(anchors) == 1:
             (at,) = anchors
-            alias.update({n: at for n in comp if n not in main})
+            alias.update({n: at for n in comp})
     return main, alias
+
+
+def _block_with(adj: dict, plus, minus) -> set:
+    """The nodes of the biconnected block of a simple graph (``adj``: node -> neighbours) that
+    holds the edge plus-minus (depth-first search from ``plus``, Hopcroft and Tarjan)."""
+    disc, low = {plus: 0}, {plus: 0}
+    edges: list = []
+    stack = [(plus, None, iter(adj[plus]))]
+    while stack:
+        v, parent, it = stack[-1]
+        for w in it:
+            if w == parent:
+                continue
+            if w not in disc:
+                disc[w] = low[w] = len(disc)
+                edges.append((v, w))
+                stack.append((w, v, iter(adj[w])))
+                break
+            if disc[w] < disc[v]:  # a back edge
+                low[v] = min(low[v], disc[w])
+                edges.append((v, w))
+        else:
+            stack.pop()
+            if not stack:
+                break
+            u = stack[-1][0]
+            low[u] = min(low[u], low[v])
+            if low[v] >= disc[u]:  # u separates the block of the tree edge (u, v): pop it
+                block = []
+                while True:
+                    e = edges.pop()
+                    block.append(e)
+                    if e == (u, v):
+                        break
+                if any({a, b} == {plus, minus} for a, b in block):
+                    return {n for e in block for n in e}
+    return {plus, minus}
 
 
 def _with_sources(net, g, st, plus, minus, live, alias):

@@ -642,3 +642,20 @@ def test_ohms_positions_in_every_section_rendered_without_solving(tmp_path, monk
     # length either side of D = 1/2 is R_c (1/0.525 - 1) to R_c (1/0.475 - 1) (Lessons in Electric Circuits,
     # Vol. I, ch. 8, "Ohmmeter design"): 18.10 ohm to 22.11 ohm with R_c = 20.00 ohm (4 digits)
     assert "18.10 ohm to 22.11 ohm" in text
+
+
+def test_worst_case_ties_go_to_the_first_column():
+    """Both polarities of a symmetric network peg equally but for rounding: the first column's case is named.
+
+    (Common practice: a table names one representative of equal cases, here the first in the
+    matrix's column order, not the one rounding happens to favour.)
+    """
+    from planner.dossier.sections.common import worst_case
+
+    up = {"stimulus": "max input", "verdict": "pegs", "movement_multiple": 9.62517927843754}
+    down = {"stimulus": "max input reversed", "verdict": "pegs", "movement_multiple": 9.625179278437543}
+    assert worst_case([up, down]) is up and worst_case([down, up]) is down
+    bigger = dict(down, movement_multiple=9.6252)
+    assert worst_case([up, bigger]) is bigger
+    opens = dict(up, verdict="opens", movement_multiple=1.0)
+    assert worst_case([up, bigger, opens]) is opens

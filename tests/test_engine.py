@@ -17,7 +17,7 @@ from conftest import make_spec
 from planner.design import build
 from planner.engine import Engine
 from planner.errors import PlannerError
-from planner.model import Contact, MovementElement, Position, Resistor
+from planner.model import Contact, Diode, DiodeModel, MovementElement, Position, Resistor
 
 
 def spice_is(i_s, n, eg, xti, t, t0):
@@ -154,3 +154,42 @@ def test_bad_requests(voltmeter):
     assert "10 V" in err.value.one_line()
     with pytest.raises(PlannerError):
         voltmeter.operate("10 V", [1.0], kind="resistance")
+
+
+def test_warm_engine_same_operating_points():
+    """An Engine(warm=True) starts each solve of a state from its previous one: the same answers.
+
+    A tap clamped by two zeners back to back (a suppressor pair) behind 10 kohm, the movement
+    from the tap to com, at voltages where the pair blocks and where it breaks down; the series
+    resistor stepped by 1 % per call as an iteration over a part's value does. Each call
+    against a cold engine's (both iterate to the solver's step tolerance: 1e-12 relative), the
+    stepped calls in fewer Newton steps. A call whose stimulus rows are not among the previous
+    call's starts cold.
+    """
+    z = DiodeModel("z68", 1e-12, n=1.5, r_s_ohm=0.0, r_p_ohm=1e10, bv_v=6.8, ibv_a=1e-3)
+    elements = [Resistor("R1", "plus", "t", 1e4), MovementElement("M1", "t", "com"),
+                Diode("Z1", "m", "t", "z68"), Diode("Z2", "m", "com", "z68")]
+    design = build(make_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], i_fs_a=1e-3,
+                             r_coil_ohm=500.0, diodes=[z]))
+    cold, warm = Engine(design), Engine(design, warm=True)
+    volts = np.array([[3.0, 30.0, 300.0, -30.0], [3.0, 30.0, 300.0, -30.0]])
+    steps_cold = steps_warm = 0
+    for k in range(4):
+        factors = {"R1": np.array([1.0, 1.02]) * 1.01 ** k}
+        a = cold.operate("P", volts, factors=factors)
+        b = warm.operate("P", volts, factors=factors)
+        np.testing.assert_allclose(b.movement_current_a, a.movement_current_a, rtol=1e-12)
+        np.testing.assert_allclose(b.element("Z1").current_a, a.element("Z1").current_a, rtol=1e-12, atol=1e-21)
+        if k:
+            steps_cold += a.solution.iterations
+            steps_warm += b.solution.iterations
+    assert steps_warm < steps_cold
+    other = warm.operate("P", [[7.0]])  # no previous row at 7 V: a cold start
+    np.testing.assert_allclose(other.movement_current_a, cold.operate("P", [[7.0]]).movement_current_a, rtol=1e-12)
+
+
+def test_element_arrays_formed_once(voltmeter):
+    """An Operating's element() gives the same arrays on every call (formed once per name)."""
+    op = voltmeter.operate(voltmeter.positions[0].name, [0.1, 1.0])
+    name = voltmeter.net.elements[0].name
+    assert op.element(name) is op.element(name)

@@ -588,3 +588,102 @@ def test_back_to_back_zener_pair_exact_and_started_near():
         np.testing.assert_allclose(op.movement_current_a[0, 0], v_t / 500.0, rtol=1e-9)
         # a cold start near the solution: five or six steps (19 to 21 started on the exponential)
         assert op.solution.iterations <= 12, (volts, op.solution.iterations)
+
+
+@pytest.mark.parametrize("pair", [True, False], ids=["suppressor pair", "single zener"])
+def test_clamp_in_breakdown_started_on_its_breakdown_law(pair):
+    """A tap clamped in breakdown (a suppressor pair back to back, or one zener to com), against brentq.
+
+    plus -R1 (10 kohm)- t; the movement (500 ohm) from t to com; the clamp from t to com. At
+    300 V and 1 kV the blocking junction is deep in breakdown. The reference: the current
+    balance at t by brentq (scipy) on the contract's junction law
+    i(x) = I_s (e^{x/nV_t} - 1) - I_BV e^{-(x + BV)/nV_t} + x/R_p (the pair's middle node by
+    brentq as well). The start solves the clamp as a junction of saturation current I_BV
+    shifted by BV behind the tap's Thevenin source, so a cold start is two or three Newton
+    steps from the answer (six when the clamp was started as not conducting).
+    """
+    from scipy.optimize import brentq
+
+    t_ref = 296.15
+    z = DiodeModel("z68", 1e-12, n=1.5, r_s_ohm=0.0, r_p_ohm=1e10, bv_v=6.8, ibv_a=1e-3)
+    clamp = [Diode("Z1", "m", "t", "z68"), Diode("Z2", "m", "com", "z68")] if pair else [Diode("Z1", "com", "t", "z68")]
+    elements = [Resistor("R1", "plus", "t", 1e4), MovementElement("M1", "t", "com")] + clamp
+    spec = make_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], i_fs_a=1e-3,
+                     r_coil_ohm=500.0, diodes=[z], t_ref_k=t_ref)
+    eng = Engine(build(spec))
+    nvt = z.n * 1.380649e-23 * t_ref / 1.602176634e-19
+
+    def law(x):  # exponents capped far beyond any root
+        return (z.i_s_a * math.expm1(min(x / nvt, 700.0)) - z.ibv_a * math.exp(min(-(x + z.bv_v) / nvt, 700.0))
+                + x / z.r_p_ohm)
+
+    def into_clamp(v):  # current from t into the clamp [A]
+        if not pair:
+            return -law(-v)
+        if v == 0.0:
+            return 0.0
+        m = brentq(lambda m: -law(m - v) - law(m), min(0.0, v), max(0.0, v), xtol=1e-15, rtol=1e-15)
+        return law(m)
+
+    for volts in (300.0, 1000.0, -1000.0):
+        v_t = brentq(lambda v: (volts - v) / 1e4 - v / 500.0 - into_clamp(v), min(0.0, volts), max(0.0, volts),
+                     xtol=1e-15, rtol=1e-15)
+        op = eng.operate("P", [volts])
+        # the movement current against the reference: 1e-9 relative (the brief's agreement)
+        np.testing.assert_allclose(op.movement_current_a[0, 0], v_t / 500.0, rtol=1e-9)
+        assert op.solution.iterations <= 3, (volts, op.solution.iterations)
+
+
+def test_start_from_an_earlier_solution():
+    """solve(start=) from a neighbouring parameter set: the same operating points in fewer steps.
+
+    The back-to-back clamp of the test above at 1 kV and at -1 kV (cases far up the breakdown
+    law); the series resistor then moves by 0.1 %. Started from the first solution's rows, every
+    case ends where a cold start ends (to 1e-12: both iterate to the same step tolerance), in
+    fewer Newton steps.
+    """
+    z = DiodeModel("z68", 1e-12, n=1.5, r_s_ohm=0.0, r_p_ohm=1e10, bv_v=6.8, ibv_a=1e-3)
+    elements = [Resistor("R1", "plus", "t", 1e4), MovementElement("M1", "t", "com"),
+                Diode("Z1", "m", "t", "z68"), Diode("Z2", "m", "com", "z68")]
+    eng = Engine(build(make_spec(elements, [Position("P", "voltage", 1.0, ("plus", "com"))], i_fs_a=1e-3,
+                                 r_coil_ohm=500.0, diodes=[z])))
+    st = eng.state("P")
+    circuit = eng.circuit(st, "voltage", False)
+    r = eng.branch_resistances(circuit, 296.15, None)
+    jn = eng.junctions(circuit, 296.15)
+    volts = np.array([1000.0, -1000.0, 3.0, 0.0])
+    first = solve(circuit, r, jn, volts)
+    moved = r.copy()
+    moved[:, [b.element for b in circuit.branches].index("R1")] *= 1.001
+    cold = solve(circuit, moved, jn, volts)
+    warm = solve(circuit, moved, jn, volts, start=first.start_rows)
+    for i in range(circuit.n_nodes):
+        np.testing.assert_allclose(warm.node_voltage(i), cold.node_voltage(i), rtol=1e-12, atol=1e-15)
+    assert warm.iterations < cold.iterations
+    # rows of another shape (another number of cases) are ignored: a cold start
+    other = solve(circuit, moved, jn, volts[:2], start=first.start_rows)
+    np.testing.assert_allclose(other.node_voltage(1), cold.node_voltage(1)[:, :2], rtol=1e-12)
+
+
+def test_closed_form_diode_current_of_a_few_cases():
+    """The start's closed-form current in floats (a few cases) against the array form and Banwell's formula.
+
+    Banwell and Jayakumar's exact solution (the reference above, by scipy's lambertw and
+    wrightomega) over nine decades of resistance and forward and reverse drive; a batch of at
+    most :data:`planner.solve.junction.SMALL` cases takes the float form.
+    """
+    from planner.solve.junction import SMALL, single_diode
+
+    rng = np.random.default_rng(7)
+    v = rng.uniform(-60.0, 60.0, 64)
+    r = 10.0 ** rng.uniform(-2.0, 7.0, 64)
+    i_s = 10.0 ** rng.uniform(-15.0, -7.0, 64)
+    nvt = rng.uniform(0.025, 0.2, 64)
+    with np.errstate(over="ignore"):  # the array form's exponential of a start far out, replaced by its limit
+        whole = single_diode(v, r, i_s, nvt)
+    for k in range(0, 64, SMALL):
+        part = single_diode(v[k:k + SMALL], r[k:k + SMALL], i_s[k:k + SMALL], nvt[k:k + SMALL])
+        np.testing.assert_allclose(part, whole[k:k + SMALL], rtol=1e-14, atol=0.0)  # the same formula
+    ref = np.array([banwell_current(v[k], r[k], i_s[k], nvt[k]) for k in range(64)])
+    np.testing.assert_allclose([single_diode(v[k], r[k], i_s[k], nvt[k]) for k in range(64)], ref,
+                               rtol=1e-12, atol=1e-3 * i_s.min())  # Banwell and Jayakumar (2000)

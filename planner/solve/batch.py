@@ -167,10 +167,16 @@ class Problem:
         return initial(rows, self.segs, w_inv, oc)
 
     # --- strategies ----------------------------------------------------------------------------
-    def solve(self):
-        """Every case: node rows (P*S, T), part voltages (P*S, D) and part currents (P*S, D)."""
+    def solve(self, start=None):
+        """Every case: node rows (P*S, T), part voltages (P*S, D) and part currents (P*S, D).
+
+        ``start``: node rows (P*S, T) and part voltages (P*S, D) to start every case from.
+        """
         p, s = self.p, self.s
         b = p * s
+        if start is not None:
+            u0, w0 = start
+            return self.solve_cases(np.arange(b), lambda c: (u0[c].T, w0[c].T), finish=True)
         if p > 1 and b >= WARM_MIN_CASES and np.all(self.stim == self.stim[:1]) and self.close_sets():
             # one representative parameter set first; every set starts from it
             rep = self.representative()
@@ -344,7 +350,7 @@ def _params(x, p, m, name, what):
 
 
 def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varistors: Varistors | None = None,
-          emf=None) -> Solution:
+          emf=None, start: tuple | None = None) -> Solution:
     """Solve a batch of operating points of one compiled switch state.
 
     Parameters
@@ -363,6 +369,11 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
         resistance in series with a source whose plus side faces its first node, so
         that with no current ``v_a - v_b = e_j``, and its current from a to b is
         ``(v_a - v_b - e_j) / r_j``.
+    start : tuple of ndarray, optional
+        Where every case starts: node rows (P*S, T) and part voltages (P*S, D) in the
+        form of :attr:`Solution.start_rows` of an earlier solution of the same circuit,
+        one row per case (a neighbouring parameter set: the next step of an iteration
+        over a part's value). Ignored where the reduced equations differ in shape.
 
     Returns
     -------
@@ -388,6 +399,7 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
       steps;
     * sweeps of at least :data:`SWEEP_MIN` stimuli: a coarse subset first, the rest
       from its straight-line interpolation;
+    * rows of an earlier solution given as ``start``: every case from its own row;
     * otherwise, and for any case that a warm start leaves unconverged after
       :data:`WARM_MAX_ITER` steps: each chain of parts solved behind its Thevenin
       equivalent (:mod:`planner.solve.start`).
@@ -448,9 +460,13 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
                         np.zeros((p, s_count, d)), emf=e, v_varistor=np.zeros((p, s_count, m)),
                         i_varistor=np.zeros((p, s_count, m)), between=red.between if red is not None else None)
     prob = Problem(flat, lin, fjn, varistors, stim, r, e)
+    warm = start
+    if warm is not None and (warm[0].shape != (p * s_count, t) or warm[1].shape != (p * s_count, fd + m)):
+        warm = None
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        u, w, i = prob.solve()
+        u, w, i = prob.solve(warm)
     _beyond(flat, fjn, varistors, w, stim, p, s_count)
+    rows = (u, w)
     u = u.reshape(p, s_count, t)
     w = w.reshape(p, s_count, fd + m)
     i = i.reshape(p, s_count, fd + m)
@@ -458,9 +474,11 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
     if red is not None:  # each junction of a stack: the composite's voltage over N, its current
         vj = vj[:, :, red.source] / red.divisor
         i_d = i_d[:, :, red.source]
-    return Solution(circuit, stim, lin, r, u, vj, i_d, prob.iterations, prob.fallbacks, emf=e,
-                    v_varistor=w[:, :, fd:] if m else empty, i_varistor=i[:, :, fd:] if m else empty,
-                    between=red.between if red is not None else None)
+    sol = Solution(circuit, stim, lin, r, u, vj, i_d, prob.iterations, prob.fallbacks, emf=e,
+                   v_varistor=w[:, :, fd:] if m else empty, i_varistor=i[:, :, fd:] if m else empty,
+                   between=red.between if red is not None else None)
+    sol.start_rows = rows
+    return sol
 
 
 def _beyond(circuit, jn, var, w, stim, p, s_count):

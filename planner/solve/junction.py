@@ -6,6 +6,8 @@ Everything here is a pure function of arrays; the Newton iteration
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 #: Boltzmann constant [J/K], exact (SI 2019).
@@ -120,6 +122,17 @@ def single_diode(v_oc, r, i_s, nvt):
     T. C. Banwell and A. Jayakumar, "Exact analytical solution for current flow
     through diode with series resistance", Electronics Letters 36(4), 291-292, 2000.
     """
+    args = (v_oc, r, i_s, nvt)
+    shape = max((np.shape(a) for a in args), key=len)
+    if len(shape) <= 1 and (not shape or shape[0] <= SMALL):
+        try:  # a few cases: one float at a time (numpy's cost per call is most of the time there)
+            n = shape[0] if shape else 1
+            cols = [a.tolist() if isinstance(a, np.ndarray) and a.ndim == 1 and a.shape[0] == n
+                    else [float(a)] * n for a in args]
+            out = np.array([_single_diode_float(*x) for x in zip(*cols)])
+            return out if shape else out[0]
+        except (ValueError, ZeroDivisionError, OverflowError, TypeError):
+            pass  # a zero or infinite resistance, an overflow: the array form's limits
     arg = np.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt
     exact = (nvt / r) * wright_omega(arg) - i_s
     # near zero the difference above cancels to rounding residue; there the junction's
@@ -127,6 +140,32 @@ def single_diode(v_oc, r, i_s, nvt):
     # the current proportional to V, so that a tiny stimulus gets a tiny start
     small = np.abs(v_oc) < 1e-4 * nvt
     return np.where(small, v_oc * i_s / (nvt + i_s * r), exact)
+
+
+#: Batches of at most this many cases take :func:`single_diode`'s float-at-a-time form.
+SMALL = 8
+
+
+def _single_diode_float(v_oc, r, i_s, nvt):
+    """:func:`single_diode` of one case in floats (the same formula and branches)."""
+    if abs(v_oc) < 1e-4 * nvt:
+        return v_oc * i_s / (nvt + i_s * r)
+    return (nvt / r) * _omega_float(math.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt) - i_s
+
+
+def _omega_float(z):
+    """:func:`wright_omega` of one float (the same start, iteration and limits)."""
+    if z < -700.0:
+        return math.exp(max(z, -800.0))
+    if z > 1e12:
+        return z - math.log(z)
+    w = math.exp(z) if z < 1.0 else (0.5 * (z + 1.0) if z < 3.0 else z - math.log(z))
+    for _ in range(3):
+        r = z - w - math.log(w)
+        wp1 = w + 1.0
+        t = 2.0 * wp1 * (wp1 + 2.0 * r / 3.0)
+        w = w * (1.0 + r / wp1 * (t - r) / (t - 2.0 * r))
+    return w
 
 
 def pnjlim(v_new, v_old, nvt, vcrit):

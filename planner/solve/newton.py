@@ -47,6 +47,12 @@ BALANCE_TOL = 1e-6
 #: stimulus every term is itself next to nothing, and a ratio of such numbers is noise.
 BALANCE_FLOOR_A = 1e-24
 
+#: A starting junction voltage is at most this many n V_t above the junction's critical
+#: voltage (where it carries n V_t / sqrt(2) A; e^10 times that here): the start of a
+#: segment solved in closed form is near its answer also at fault currents, and Newton
+#: descends an overestimate by about n V_t a step.
+START_ABOVE_VCRIT = 10.0
+
 JUNCTION_FIELDS = ("i_s", "nvt", "bv", "ibv", "r_s", "g_p")
 VARISTOR_FIELDS = ("v1", "alpha", "i1")
 
@@ -68,6 +74,9 @@ class Junction:
     def __init__(self, i_s, nvt, bv, ibv, r_s, g_p):
         self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p = i_s, nvt, bv, ibv, r_s, g_p
         self.inv_nvt = 1.0 / nvt
+        self.neg_inv_nvt = -self.inv_nvt
+        self.is_nvt = i_s * self.inv_nvt
+        self.ibv_nvt = ibv * self.inv_nvt
         self.two_nvt = 2.0 * nvt
         self.ln_is = np.log(i_s)
         self.vcrit = nvt * np.log(nvt / (np.sqrt(2.0) * i_s))
@@ -75,6 +84,7 @@ class Junction:
         with np.errstate(divide="ignore"):
             self.ln_ibv = np.log(ibv) if self.has_bv else 0.0
             self.vcr_bv = nvt * np.log(nvt / (np.sqrt(2.0) * ibv)) if self.has_bv else 0.0
+        self.w_start_max = np.maximum(self.vcrit + START_ABOVE_VCRIT * nvt, 1.5)
 
     def subset(self, idx):
         return Junction(*(take(getattr(self, f), idx) for f in JUNCTION_FIELDS))
@@ -96,8 +106,9 @@ class Junction:
         return bool((step_abs.max() > two) if not isinstance(two, np.ndarray) else (step_abs > two).any())
 
     def start_limits(self, w):
-        """Keep a starting junction voltage off the far exponential (forward) and out of deep breakdown."""
-        w = np.minimum(w, np.maximum(self.vcrit, 1.5))
+        """Keep a starting junction voltage off the far exponential (forward: at most
+        :data:`START_ABOVE_VCRIT` n V_t above the critical voltage) and out of deep breakdown."""
+        w = np.minimum(w, self.w_start_max)
         if self.has_bv:
             w = np.maximum(w, -self.bv)
         return w
@@ -248,16 +259,19 @@ def _evaluate(p, w, need_plain, need_log):
             ex = em + 1.0
             i = em + ex * (x - xe) if xe is not x else em
             i *= p.i_s
-            ex *= p.i_s * p.inv_nvt
+            ex *= p.is_nvt
             y = ex
         we = wv = None
         if p.has_bv:
-            wv = (w + p.bv) * (-p.inv_nvt)
-            we = np.minimum(wv, jl.EXP_MAX)
+            wv = (w + p.bv) * p.neg_inv_nvt
+            we = np.minimum(wv, jl.EXP_MAX) if wv.max() > jl.EXP_MAX else wv
             if need_plain:
                 ew = np.exp(we)
-                i = i - p.ibv * ew * (1.0 + np.fmax(wv - we, 0.0))  # no BV: -inf - -inf -> 0
-                y = y + ew * (p.ibv * p.inv_nvt)
+                if we is wv:  # not continued linearly (no BV: -inf)
+                    i = i - p.ibv * ew
+                else:
+                    i = i - p.ibv * ew * (1.0 + np.fmax(wv - we, 0.0))  # no BV: -inf - -inf -> 0
+                y = y + ew * p.ibv_nvt
         if need_plain and nonzero(p.g_p):
             i += p.g_p * w
             y += p.g_p
@@ -267,8 +281,7 @@ def _evaluate(p, w, need_plain, need_log):
             if p.has_bv:
                 ell = np.maximum(ell, p.ln_ibv + we)
             if nonzero(p.g_p):
-                with np.errstate(divide="ignore"):
-                    ell = np.maximum(ell, np.log(p.g_p * np.abs(w)))
+                ell = np.maximum(ell, np.log(p.g_p * np.abs(w)))
             const = np.where(x < jl.DEEP, -p.i_s, 0.0)
         return i, y, ell, const, (x, xe, wv, we)
     lu, a = vl.log_ratio(w, p)
@@ -282,8 +295,7 @@ def _evaluate(p, w, need_plain, need_log):
     if need_log:
         ell = np.where(a > 0.0, p.ln_i1 + p.alpha * lu, -np.inf)  # exactly 0 V: no current
         if nonzero(p.g_p):
-            with np.errstate(divide="ignore"):
-                ell = np.maximum(ell, np.log(p.g_p * a))
+            ell = np.maximum(ell, np.log(p.g_p * a))
     return i, y, ell, 0.0, (lu, a)
 
 
@@ -299,7 +311,7 @@ def _scaled(p, w, aux, big_l, e_l):
         ysc = t * p.inv_nvt
         if p.has_bv:
             tb = np.exp(p.ln_ibv + we - big_l)
-            part = part - tb * (1.0 + np.fmax(wv - we, 0.0))
+            part = part - tb if we is wv else part - tb * (1.0 + np.fmax(wv - we, 0.0))
             ysc = ysc + tb * p.inv_nvt
     else:
         lu, a = aux
@@ -396,9 +408,8 @@ def _floating_rows(st: Structure, parts, W, drive, ev, res, a):
                 c_sum = c_sum + const if s > 0 else c_sum - const
         dm = drive[m]
         tot = c_sum - dm if nonzero(dm) else c_sum
-        with np.errstate(divide="ignore"):
-            if nonzero(tot):
-                big_l = np.maximum(big_l, np.log(np.abs(tot)))
+        if nonzero(tot):
+            big_l = np.maximum(big_l, np.log(np.abs(tot)))
         big_l = np.where(np.isfinite(big_l), big_l, 0.0)
         e_l = np.exp(np.minimum(-big_l, 709.0))
         acc = tot * e_l if nonzero(tot) else 0.0
@@ -511,7 +522,6 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
     U = [np.array(r, dtype=float) for r in u_out]
     W = [np.array(r, dtype=float) for r in w_out]
     idx = np.arange(n0)
-    R = rows
 
     def setup(R):
         held = R.held if scale == 1.0 else R.held * scale
@@ -520,8 +530,18 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
         vs = R.vscale * scale if scale != 1.0 else R.vscale
         return held, drive, parts, vs
 
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # once for the whole loop
+        return _iterate(rows, setup, u_out, w_out, ok, U, W, idx, max_iter)
+
+
+def _iterate(rows: Rows, setup, u_out, w_out, ok, U, W, idx, max_iter):
+    """:func:`newton`'s loop (overflow, invalid values and zero divides go unreported: the limits
+    and the fallbacks handle them)."""
+    st = rows.st
+    t, nd = st.t, len(st.kinds)
+    R = rows
     held, drive, parts, vs = setup(R)
-    pending = np.zeros(n0, dtype=bool)
+    pending = np.zeros(rows.n, dtype=bool)
     it = 0
     for it in range(1, max_iter + 1):
         ev = _linearise(st, parts, U, W, held)

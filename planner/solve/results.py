@@ -53,6 +53,10 @@ class Solution:
         Largest Newton iteration count used.
     fallbacks : dict
         How many cases needed source stepping or gmin stepping.
+    start_rows : tuple or None
+        The reduced equations' solution, node rows (P*S, T) and part voltages
+        (P*S, D), for a later call to start from (``solve(start=)``); None for a
+        circuit without nonlinear parts.
 
     Notes
     -----
@@ -92,6 +96,7 @@ class Solution:
         self._branch: dict = {}
         self._v_node = None
         self._i_branch = None
+        self.start_rows = None
 
     @property
     def shape(self) -> tuple:

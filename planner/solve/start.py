@@ -102,6 +102,9 @@ def _on_chain(start, first, key, nbrs, inner):
 def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
     """A starting point: node rows (T, n) and part rows (D, n).
 
+    The segment helpers below run inside this function's ``errstate`` (an exponential
+    that overflows, a log of zero: each is replaced by a finite value where it matters).
+
     ``w_inv[(i, j)]``: the anchors' impedance (rows per case), ``oc[m]``: each anchor's
     open-circuit voltage (rows per case).
     """
@@ -133,6 +136,7 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
         return 0.0
 
     with np.errstate(all="ignore"):
+        plans = [_Plan(rows.parts, sg) for sg in segs]
         for _ in range(sweeps if len(segs) > 1 else 1):
             for k, sg in enumerate(segs):
                 e0, e1 = sg.ends
@@ -141,7 +145,7 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
                         inj[e] = inj[e] + sgn * seg_i[k]
                 v0, v1 = volt(e0), volt(e1)
                 r_th = np.maximum(zz(e0, e0) + zz(e1, e1) - 2.0 * zz(e0, e1), 0.0)
-                cur, steps_v = _segment(rows, sg, v0 - v1, r_th, w)
+                cur, steps_v = _segment(rows, sg, plans[k], v0 - v1, r_th, w)
                 cur = np.where(np.isfinite(cur), cur, 0.0)
                 seg_i[k] = cur
                 for e, sgn in ((e0, -1.0), (e1, 1.0)):
@@ -163,14 +167,139 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
     return zero_where_undriven(rows, np.array(u).reshape(t, n), np.array(w).reshape(nd, n))
 
 
-def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
+class _Plan:
+    """What a segment's start needs of its parts' laws, the same in every sweep.
+
+    ``forward``: per direction o in which every group has a part biased forward,
+    (o, the most conducting such part of each group, the composite's n V_t, I_s and
+    series resistance); ``blocks``: with no such direction, which groups block each
+    polarity; ``breakdown``: per direction in which the segment conducts with some
+    groups in breakdown (:func:`_breakdown_chains`), (o, [(part, in breakdown)],
+    the sum of those breakdown voltages, the composite's n V_t, I_s and R_s).
+    """
+
+    def __init__(self, parts, sg: Segment):
+        self.has_var = any(parts[d].kind == "varistor" for g in sg.steps for d, _ in g)
+        self.forward, self.breakdown, self.blocks = [], [], None
+        if self.has_var:
+            return
+        for o in (1.0, -1.0):
+            chosen = []
+            for g in sg.steps:
+                cand = [d for d, od in g if od == o]
+                if not cand:
+                    chosen = None
+                    break
+                chosen.append(max(cand, key=lambda d: float(np.max(parts[d].i_s))))
+            if chosen is None:
+                continue
+            nvt = sum(parts[d].nvt for d in chosen)
+            ln_is = sum(parts[d].nvt * parts[d].ln_is for d in chosen) / nvt
+            self.forward.append((o, chosen, nvt, np.exp(ln_is), sum(parts[d].r_s for d in chosen)))
+        if not self.forward:
+            self.blocks = {o: [all(od != o for _, od in g) for g in sg.steps] for o in (1.0, -1.0)}
+        for o, chosen in _breakdown_chains(parts, sg):
+            offset = nvt = acc = r_s = 0.0
+            for d, bd in chosen:
+                p = parts[d]
+                nvt = nvt + p.nvt
+                acc = acc + p.nvt * (p.ln_ibv if bd else p.ln_is)
+                r_s = r_s + p.r_s
+                if bd:
+                    offset = offset + p.bv
+            self.breakdown.append((o, chosen, offset, nvt, np.exp(acc / nvt), r_s))
+
+
+def _segment(rows: Rows, sg: Segment, plan: _Plan, v_th, r_th, w):
     """Current (ends[0] -> ends[1]) and the voltage of each group (ends[0] side less the other)
-    of one segment behind a Thevenin source; fills the parts' voltages into ``w``."""
+    of one segment behind a Thevenin source; fills the parts' voltages into ``w``.
+
+    A chain that can conduct with some of its groups in breakdown (a zener or a
+    suppressor pair) is also solved that way, and takes that answer in the cases
+    where it carries more current in its direction than the forward-only one.
+    """
+    cur, steps_v = _segment_plain(rows, sg, plan, v_th, r_th, w)
+    for bd in plan.breakdown:
+        o = bd[0]
+        wb = list(w)
+        cur_b, sv_b = _through_breakdown(rows, sg, bd, o * v_th, r_th, wb)
+        take = (cur_b > 0.0) & (cur_b > o * cur)
+        if not np.any(take):
+            continue
+        for d in range(len(w)):
+            if wb[d] is not w[d]:
+                w[d] = np.where(take, wb[d], w[d])
+        cur = np.where(take, o * cur_b, cur)
+        steps_v = [np.where(take, b_, a_) for a_, b_ in zip(steps_v, sv_b)]
+    return cur, steps_v
+
+
+def _breakdown_chains(parts, sg: Segment) -> list:
+    """The ways a segment conducts with some groups in breakdown: (direction, [(part, in breakdown)]).
+
+    In direction o each group conducts through its most conducting part biased forward,
+    or, with none, through the part with the lowest breakdown voltage biased in reverse.
+    """
+    out = []
+    for o in (1.0, -1.0):
+        chosen, any_bd = [], False
+        for g in sg.steps:
+            fwd = [d for d, od in g if od == o]
+            if fwd:
+                chosen.append((max(fwd, key=lambda d: float(np.max(parts[d].i_s))), False))
+                continue
+            rev = [d for d, od in g if od != o and parts[d].has_bv]
+            if not rev:
+                chosen = None
+                break
+            chosen.append((min(rev, key=lambda d: float(np.min(parts[d].bv))), True))
+            any_bd = True
+        if chosen is not None and any_bd:
+            out.append((o, chosen))
+    return out
+
+
+def _through_breakdown(rows: Rows, sg: Segment, chain, v_dir, r_th, w):
+    r"""A chain conducting in its direction o with some groups in breakdown (``chain``, an entry
+    of :attr:`_Plan.breakdown`): the current in that direction and each group's voltage
+    (ends[0] side less the other); fills ``w``.
+
+    Notes
+    -----
+    A junction in breakdown carries :math:`I_{BV} e^{(-v - BV)/nV_t}` (the contract's
+    reverse law): the law of a forward junction of saturation current I_BV shifted by
+    BV. The chain is one composite junction of :math:`nV_t = \sum nV_{t,k}` and
+    :math:`\ln I_s = \sum nV_{t,k} \ln I_k / nV_t` behind :math:`V - \sum BV_k`, solved in
+    closed form (:func:`planner.solve.junction.single_diode`); each group then sits at
+    its own law's voltage at that current.
+    """
+    parts = rows.parts
+    o, chosen, offset, nvt, i_s, r_s = chain
+    cur = single_diode(v_dir - offset, r_th + r_s, i_s, nvt)
+    cur = np.where(np.isfinite(cur), cur, 0.0)
+    pos = np.maximum(cur, 1e-300)
+    steps_v = []
+    for g, (d, bd) in zip(sg.steps, chosen):
+        p = parts[d]
+        if bd:
+            vk = np.maximum(p.bv + p.nvt * (np.log(pos) - p.ln_ibv), 0.0)
+            own = np.maximum(-vk, -(p.bv + np.maximum(p.vcr_bv, 1.5)))
+        else:
+            vk = p.nvt * np.log1p(pos / p.i_s)
+            own = p.start_limits(vk)
+        gv = o * (vk + p.r_s * pos)
+        steps_v.append(gv)
+        for dd, od in g:
+            w[dd] = own if dd == d else parts[dd].start_limits(od * gv)
+    return cur, steps_v
+
+
+def _segment_plain(rows: Rows, sg: Segment, plan: _Plan, v_th, r_th, w):
+    """:func:`_segment` with each group conducting forward only (varistor chains: by their laws)."""
     parts = rows.parts
     n = rows.n
     k = len(sg.steps)
-    has_var = any(parts[d].kind == "varistor" for g in sg.steps for d, _ in g)
-    if has_var:
+    if plan.has_var:
         if k == 1:
             est = None
             for d, o in sg.steps[0]:
@@ -182,28 +311,12 @@ def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
             cur = np.where(r_th > 0, (v_th - est) / np.where(r_th > 0, r_th, 1.0), 0.0)
             return cur, [est]
         return _chain_by_bisection(rows, sg, v_th, r_th, w)
-    options = []
-    for o in (1.0, -1.0):
-        chosen = []
-        for g in sg.steps:
-            cand = [d for d, od in g if od == o]
-            if not cand:
-                chosen = None
-                break
-            chosen.append(max(cand, key=lambda d: float(np.max(parts[d].i_s))))
-        if chosen is None:
-            continue
-        nvt = sum(parts[d].nvt for d in chosen)
-        ln_is = sum(parts[d].nvt * parts[d].ln_is for d in chosen) / nvt
-        r = r_th + sum(parts[d].r_s for d in chosen)
-        cur = single_diode(o * v_th, r, np.exp(ln_is), nvt)
-        options.append((o, chosen, np.where(np.isfinite(cur), cur, 0.0), nvt, r))
-    if not options:  # back to back: no direction conducts forward
+    if plan.blocks is not None:  # back to back: no direction conducts forward
         # the groups that block the case's polarity share its voltage; a group that the
         # polarity biases forward starts at 0 V (it carries only the blocking ones' leakage
         # or breakdown current; started on its exponential, Newton would walk it down by
         # about n V_t a step)
-        blocks = {o: [all(od != o for _, od in g) for g in sg.steps] for o in (1.0, -1.0)}
+        blocks = plan.blocks
         positive = v_th >= 0
         steps_v = [np.where(positive, v_th / sum(blocks[1.0]) if bp else 0.0,
                             v_th / sum(blocks[-1.0]) if bn else 0.0)
@@ -214,7 +327,10 @@ def _segment(rows: Rows, sg: Segment, v_th, r_th, w):
                 w[d] = parts[d].start_limits(o * v)
         return np.zeros(n), steps_v
     results = []
-    for o, chosen, cur, nvt, r in options:
+    for o, chosen, nvt, i_s, r_s in plan.forward:
+        r = r_th + r_s
+        cur = single_diode(o * v_th, r, i_s, nvt)
+        cur = np.where(np.isfinite(cur), cur, 0.0)
         wd = list(w)
         c, sv = _share(rows, sg, o * v_th, o, chosen, cur, nvt, r, wd)
         results.append((cur, c, sv, wd))
@@ -237,28 +353,27 @@ def _carry_leak(parts, sg, blocks, positive, steps_v):
     the series current; a group biased forward then sits at n V_t ln(1 + I / I_s) of its
     most conducting part in that direction (its own law, R_s and G_p left out).
     """
-    with np.errstate(all="ignore"):
-        for o, mask in ((1.0, positive), (-1.0, ~positive)):
-            if not np.any(mask):
+    for o, mask in ((1.0, positive), (-1.0, ~positive)):
+        if not np.any(mask):
+            continue
+        i_series = None
+        for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
+            if not blocking:
                 continue
-            i_series = None
-            for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
-                if not blocking:
-                    continue
-                i_g = sum(np.abs(parts[d].current(parts[d].start_limits(od * v))) for d, od in g)
-                i_series = i_g if i_series is None else np.minimum(i_series, i_g)
-            if i_series is None:
+            i_g = sum(np.abs(parts[d].current(parts[d].start_limits(od * v))) for d, od in g)
+            i_series = i_g if i_series is None else np.minimum(i_series, i_g)
+        if i_series is None:
+            continue
+        out = []
+        for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
+            if blocking:
+                out.append(v)
                 continue
-            out = []
-            for g, v, blocking in zip(sg.steps, steps_v, blocks[o]):
-                if blocking:
-                    out.append(v)
-                    continue
-                best = max((d for d, od in g if od == o), key=lambda d: float(np.max(parts[d].i_s)))
-                pb = parts[best]
-                vf = pb.nvt * np.log1p(i_series / pb.i_s)
-                out.append(np.where(mask & np.isfinite(vf), o * vf, v))
-            steps_v = out
+            best = max((d for d, od in g if od == o), key=lambda d: float(np.max(parts[d].i_s)))
+            pb = parts[best]
+            vf = pb.nvt * np.log1p(i_series / pb.i_s)
+            out.append(np.where(mask & np.isfinite(vf), o * vf, v))
+        steps_v = out
     return steps_v
 
 
@@ -285,24 +400,23 @@ def _chain_by_bisection(rows, sg, v_th, r_th, w, iterations: int = 80):
             best = v if best is None else np.minimum(best, v)
         return best
 
-    with np.errstate(all="ignore"):
-        lo = np.full(n, math.log(1e-300))
-        hi = np.log(np.maximum(np.where(r_th > 0, target / np.where(r_th > 0, r_th, 1.0), 1e30), 1e-300)) + 1.0
-        for _ in range(iterations):
-            mid = 0.5 * (lo + hi)
-            i = np.exp(mid)
-            total = r_th * i + sum(np.where(np.isfinite(v), v, 1e300) for v in (group_v(g, i) for g in sg.steps))
-            over = total > target
-            hi = np.where(over, mid, hi)
-            lo = np.where(over, lo, mid)
-        i = np.exp(0.5 * (lo + hi))
-        steps_v = []
-        for g in sg.steps:
-            v = group_v(g, i)
-            v = np.where(np.isfinite(v), v, target / len(sg.steps))
-            steps_v.append(sgn * v)
-            for d, o in g:
-                w[d] = parts[d].start_limits(o * sgn * v)
+    lo = np.full(n, math.log(1e-300))
+    hi = np.log(np.maximum(np.where(r_th > 0, target / np.where(r_th > 0, r_th, 1.0), 1e30), 1e-300)) + 1.0
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        i = np.exp(mid)
+        total = r_th * i + sum(np.where(np.isfinite(v), v, 1e300) for v in (group_v(g, i) for g in sg.steps))
+        over = total > target
+        hi = np.where(over, mid, hi)
+        lo = np.where(over, lo, mid)
+    i = np.exp(0.5 * (lo + hi))
+    steps_v = []
+    for g in sg.steps:
+        v = group_v(g, i)
+        v = np.where(np.isfinite(v), v, target / len(sg.steps))
+        steps_v.append(sgn * v)
+        for d, o in g:
+            w[d] = parts[d].start_limits(o * sgn * v)
     return np.where(target > 0, sgn * i, 0.0), steps_v
 
 
@@ -322,21 +436,20 @@ def _share(rows, sg, v_dir, o, chosen, cur, nvt_eq, r, w):
     else:
         # forward: each junction's own law at the common current; reverse: the junction
         # with the least I_s takes what the others, each near its own -I_s, leave
-        with np.errstate(all="ignore"):
-            i_min = ps[0].i_s
-            for p in ps[1:]:
-                i_min = np.minimum(i_min, p.i_s)
-            xs = []
-            for p in ps:
-                fwd = np.log1p(np.maximum(cur, 0.0) / p.i_s)
-                ratio = i_min / p.i_s
-                rev = np.where(ratio < 1.0, np.log1p(-np.minimum(ratio, 1.0)), -np.inf)
-                xs.append(np.where(x_eq >= 0, fwd, np.maximum(rev, x_eq)))
-            rest = vj_total - sum(p.nvt * x for p, x in zip(ps, xs))
-            mins = [np.broadcast_to(p.i_s <= i_min, (rows.n,)) for p in ps]
-            nvt_min = sum(np.where(m, p.nvt, 0.0) for p, m in zip(ps, mins))
-            extra = np.where(x_eq < 0, rest / np.where(nvt_min > 0, nvt_min, 1.0), 0.0)
-            xs = [np.where(m, x + extra, x) for x, m in zip(xs, mins)]
+        i_min = ps[0].i_s
+        for p in ps[1:]:
+            i_min = np.minimum(i_min, p.i_s)
+        xs = []
+        for p in ps:
+            fwd = np.log1p(np.maximum(cur, 0.0) / p.i_s)
+            ratio = i_min / p.i_s
+            rev = np.where(ratio < 1.0, np.log1p(-np.minimum(ratio, 1.0)), -np.inf)
+            xs.append(np.where(x_eq >= 0, fwd, np.maximum(rev, x_eq)))
+        rest = vj_total - sum(p.nvt * x for p, x in zip(ps, xs))
+        mins = [np.broadcast_to(p.i_s <= i_min, (rows.n,)) for p in ps]
+        nvt_min = sum(np.where(m, p.nvt, 0.0) for p, m in zip(ps, mins))
+        extra = np.where(x_eq < 0, rest / np.where(nvt_min > 0, nvt_min, 1.0), 0.0)
+        xs = [np.where(m, x + extra, x) for x, m in zip(xs, mins)]
     steps_v = []
     for g, d, p, x in zip(sg.steps, chosen, ps, xs):
         vj = p.nvt * x

@@ -34,9 +34,9 @@ def _holding(engine: Engine) -> list:
             and ptcs[e.ptc_model].tripped_power_w is not None]
 
 
-def _with(engine: Engine, values: dict) -> Engine:
+def _with(engine: Engine, values: dict, warm: bool = False) -> Engine:
     elems = tuple(replace(e, value_ohm=values[e.name]) if e.name in values else e for e in engine.net.elements)
-    return Engine(engine.design.variant(replace(engine.net, elements=elems)))
+    return Engine(engine.design.variant(replace(engine.net, elements=elems)), warm=warm)
 
 
 def settle(engine: Engine, st, stimulus, *, temperature_k=None, n_phase=None):
@@ -102,7 +102,7 @@ def settle_all(engine: Engine, st, stimuli, *, temperature_k=None, n_phase=None)
     models = {e.name: engine.spec.parts.ptcs[e.ptc_model] for e in held}
     # one network with each held part at 1 ohm, its resistance given as a factor per row and step
     # (the same resistances as a network per stimulus and step, without building one each time)
-    unit = _with(engine, {n: 1.0 for n in models})
+    unit = _with(engine, {n: 1.0 for n in models}, warm=True)  # each step starts from the one before
     out: list = [None] * len(stimuli)
     kinds: dict[tuple, list[int]] = {}
     for i, s in enumerate(stimuli):  # one batch per source kind, as solve_waveforms groups them

@@ -58,9 +58,12 @@ def hazardous_sources(spec) -> list:
 
 
 def worst_case(cases: list[dict]) -> dict | None:
+    """The case of the worst verdict, then of the largest movement multiple; of cases equal to 12
+    significant digits (both polarities on a symmetric network: equal but for rounding), the first."""
     if not cases:
         return None
-    return max(cases, key=lambda c: (VERDICT_ORDER.get(c.get("verdict"), -1), c.get("movement_multiple") or 0))
+    return max(cases, key=lambda c: (VERDICT_ORDER.get(c.get("verdict"), -1),
+                                     float(f"{c.get('movement_multiple') or 0:.12g}")))
 
 
 def stim_name(case: dict) -> str:
