@@ -70,8 +70,9 @@ def nominal_response(engine, position: str, values) -> np.ndarray:
 
 
 def has_junction(engine, position: str) -> bool:
-    """Whether the position's active circuit holds a junction (its response may bend)."""
-    return bool(engine.operate(position, np.array([0.0])).circuit.diodes)
+    """Whether the position's active circuit holds a junction (its response may bend): its compiled circuit's."""
+    st = engine.state(position)
+    return bool(engine.circuit(st, st.position.kind.source, False).diodes)
 
 
 def sampled_response(evaluate, full_scale: float, kind: str, n: int = 401) -> Response:
