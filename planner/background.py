@@ -20,7 +20,7 @@ import os
 import warnings
 from typing import Any, Callable
 
-__all__ = ["beside", "Pending", "cores"]
+__all__ = ["beside", "Claim", "Pending", "cores"]
 
 
 def cores() -> int:
@@ -48,7 +48,7 @@ class Pending:
         recv, send = ctx.Pipe(duplex=False)
         # not a daemon: a child may start a child of its own (the dossier's matrix shares out its transitions);
         # the caller ends it with cancel() in every case
-        proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send), daemon=False)
+        proc = ctx.Process(target=_child, args=(self._fn, self._on_error, send, recv), daemon=False)
         try:
             with warnings.catch_warnings():
                 # newer Pythons warn that forking a process with threads (numpy's BLAS pool) may deadlock
@@ -106,8 +106,47 @@ class Pending:
         self.cancel()  # the child never outlives the block, whatever ends it
 
 
-def _child(fn, on_error, send) -> None:
-    """The child's work: compute, send ``(value, None)`` or ``(None, text)``, exit."""
+class Claim:
+    """A piece of work either side of :func:`beside` may do: the first to ask takes it.
+
+    Made before :func:`beside` forks: a byte in memory shared with the child, set
+    under a lock (without ``fork`` there is no child, and a plain flag serves). The
+    dossier's scale plate is made by whichever process is free first: the parent
+    once its check is done, or the child once its matrix is.
+    """
+
+    def __init__(self):
+        self._shared = None
+        self._taken = False
+        try:
+            import multiprocessing
+
+            if "fork" in multiprocessing.get_all_start_methods():
+                self._shared = multiprocessing.get_context("fork").Value("b", 0)
+        except Exception:  # noqa: BLE001 - no shared memory: there will be no child either
+            self._shared = None
+
+    def take(self) -> bool:
+        """True for the first caller (in this process or the other), False for every later one."""
+        if self._shared is None:
+            first, self._taken = not self._taken, True
+            return first
+        with self._shared.get_lock():
+            if self._shared.value:
+                return False
+            self._shared.value = 1
+            return True
+
+
+def _child(fn, on_error, send, recv=None) -> None:
+    """The child's work: compute, send ``(value, None)`` or ``(None, text)``, exit.
+
+    The child first closes its copy of the pipe's reading end: were the parent to
+    die, the pipe then has no reader and the child's send fails at once, instead
+    of blocking for ever on a full pipe that only the child itself holds open.
+    """
+    if recv is not None:
+        recv.close()
     try:
         out = (fn(), None)
     except Exception as exc:  # noqa: BLE001 - sent as text

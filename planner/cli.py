@@ -301,7 +301,7 @@ def cmd_dossier(args) -> int:
         from .diagnose import diagnose, diagnosis_json
 
         diagnosis = diagnosis_json(diagnose(spec, args.readings))
-    plate = lambda: _dossier_plate(design)  # noqa: E731 - made after the matrix, beside the check
+    plate = lambda: _dossier_plate(design)  # noqa: E731 - made by whichever core is free first
     show = _progress(args)
     try:
         path = build_dossier(design, out, bom_path=args.bom, date=args.date, samples=args.samples, progress=show,

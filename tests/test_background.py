@@ -7,7 +7,7 @@ import sys
 
 import pytest
 
-from planner.background import beside, cores
+from planner.background import Claim, beside, cores
 
 fork_only = pytest.mark.skipif(sys.platform == "win32", reason="no fork start method")
 
@@ -66,5 +66,28 @@ def test_a_child_may_share_its_work_with_a_child_of_its_own():
     assert grandchild != os.getpid()
 
 
+@fork_only
+def test_a_child_whose_parent_died_does_not_wait_for_ever():
+    """A parent killed before it reads (a closed pipe downstream, an out-of-memory kill): its child's
+    large answer finds no reader and the child ends, instead of blocking on the full pipe."""
+    from processes import orphan_ends
+
+    assert orphan_ends("import os; from planner.background import beside; "
+                       "p = beside(lambda: b'x' * 4_000_000, str, parallel=True); "
+                       "print(p._proc.pid, flush=True); os._exit(0)")
+
+
 def test_cores_counts_at_least_one():
     assert cores() >= 1
+
+
+@pytest.mark.parametrize("parallel", [True, False])
+def test_a_claim_goes_to_one_process_only(parallel):
+    """Of the parent and its child, exactly one takes a claim, whichever asks first."""
+    claim = Claim()
+    with beside(claim.take, str, parallel=parallel) as pending:
+        mine = claim.take()
+        theirs, error = pending.result()
+    assert error is None
+    assert [mine, theirs].count(True) == 1
+    assert claim.take() is False  # and nobody after them

@@ -55,3 +55,11 @@ def test_without_a_worker_nothing_is_sent():
     with Ahead(_task, parallel=False) as ahead:
         assert not ahead.idle and not ahead.send("k", 1.0) and not ahead.holds("k")
         assert ahead.take() is None
+
+
+def test_a_worker_whose_caller_died_ends():
+    """The caller killed while its worker waits for the next item: the worker ends with it."""
+    from processes import orphan_ends
+
+    assert orphan_ends("import os; from planner.protect.ahead import Ahead; "
+                       "a = Ahead(abs, parallel=True); print(a._proc.pid, flush=True); os._exit(0)")

@@ -37,7 +37,7 @@ from typing import Callable
 from ..design import Design, as_design
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
-from ..background import beside
+from ..background import Claim, beside
 from ..sizing import sizing_json
 from ..wiring import choose_style, wire_switch
 
@@ -107,10 +107,11 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         it (None, :func:`planner.background.beside`). The results are the same.
     plate : callable, optional
         Makes the scale plate (the command's own: the plate, or its error text);
-        called after the matrix, in the process that computes the matrix (the
-        second core's, while this one runs the check). Its result is ``ctx.plate``.
-        Where it raises there, it is called again here, so that what it raises
-        is raised as it would be without a second process.
+        called once, by whichever process is free first: this one once the check
+        is done, or the one that computes the matrix (the second core's) once the
+        matrix is. Its result is ``ctx.plate``. Where it raises in the other
+        process, it is called again here, so that what it raises is raised as it
+        would be without a second process.
 
     Returns
     -------
@@ -123,11 +124,13 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     spec = design.spec
     text, source = _date(spec, date)
     sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
-    # the misrange matrix, then the scale plate, on a second core while this one runs the check (the
-    # same answers, computed here when there is no second core)
+    # the misrange matrix on a second core while this one runs the check (the same answer, computed
+    # here when there is no second core); the scale plate by whichever process is free first
+    plate_claim = Claim() if plate is not None else None
+
     def matrix_and_plate():
         found = faults.faults_project(design, parallel=parallel)
-        if plate is None:
+        if plate_claim is None or not plate_claim.take():
             return found, None
         try:
             return found, plate()
@@ -151,13 +154,15 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
             ctx.check = ctx.accuracy.json
         except Exception as exc:  # noqa: BLE001 - shown in the dossier
             ctx.errors["check"] = _error_text(exc)
+        if plate_claim is not None and plate_claim.take():  # the matrix is still being computed
+            ctx.plate = plate()
         say("dossier: misrange faults")
         found, error = matrix.result()
-    ctx.faults, made = found if error is None else (None, _NotMade())
+    ctx.faults, made = found if error is None else (None, None)
     if error is not None:
         ctx.errors["faults"] = error
-    if plate is not None:
-        ctx.plate = plate() if isinstance(made, _NotMade) else made
+    if plate is not None and ctx.plate is None:  # made beside, or (raised or lost there) made here
+        ctx.plate = plate() if made is None or isinstance(made, _NotMade) else made
     if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
         style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))
         ctx.wiring = wire_switch(design.net, style, style_source=source)
@@ -276,7 +281,8 @@ def build_dossier(design, out_path, *, bom_path=None, date=None,
         Results the command computed for the scale-plate and restoration
         sections (see :func:`render`); the dossier renders them and computes
         neither. ``plate`` may be a callable that computes it: it is called
-        beside the check, after the misrange matrix (:func:`gather`).
+        by whichever core is free first, this one after the check or the
+        second after the misrange matrix (:func:`gather`).
     protect : sequence of path-like
         More inputs never to be overwritten (the readings file).
 

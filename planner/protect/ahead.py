@@ -62,7 +62,7 @@ class Ahead:
             return
         ctx = multiprocessing.get_context("fork")
         mine, theirs = ctx.Pipe(duplex=True)
-        proc = ctx.Process(target=_serve, args=(self._task, theirs), daemon=False)
+        proc = ctx.Process(target=_serve, args=(self._task, theirs, mine), daemon=False)
         with warnings.catch_warnings():
             # numpy's BLAS pool re-initialises after a fork (see planner.background)
             warnings.simplefilter("ignore", DeprecationWarning)
@@ -138,8 +138,14 @@ class Ahead:
         self.close()
 
 
-def _serve(task, conn) -> None:
-    """The worker: answer each payload with ``("ok", task(payload))`` or ``("error", text)`` until None."""
+def _serve(task, conn, other=None) -> None:
+    """The worker: answer each payload with ``("ok", task(payload))`` or ``("error", text)`` until None.
+
+    It first closes its copy of the caller's end (``other``), so that the caller's death
+    ends the pipe and the worker with it (:func:`planner.background._child` does the same).
+    """
+    if other is not None:
+        other.close()
     while True:
         try:
             payload = conn.recv()
