@@ -154,7 +154,7 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
             ctx.check = ctx.accuracy.json
         except Exception as exc:  # noqa: BLE001 - shown in the dossier
             ctx.errors["check"] = _error_text(exc)
-        if plate_claim is not None and plate_claim.take():  # the matrix is still being computed
+        if plate_claim is not None and plate_claim.take():  # not taken by the child: its matrix is not done
             ctx.plate = plate()
         say("dossier: misrange faults")
         found, error = matrix.result()
@@ -237,9 +237,9 @@ def _csv_num(x) -> str:
 
 def bom_csv(ctx: Context) -> str:
     """The bill of materials as CSV text (SI units, unit in each column's name)."""
-    out = io.StringIO()
     from . import sections
 
+    out = io.StringIO()
     w = _csv.writer(out, lineterminator="\n")
     w.writerow(["designator", "kind", "value", "value_si", "series", "tolerance_pct", "tempco_ppm_per_k",
                 "power_rated_w", "power_required_w", "voltage_rated_v", "voltage_required_v", "notes"])
