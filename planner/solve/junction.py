@@ -125,14 +125,10 @@ def single_diode(v_oc, r, i_s, nvt):
     args = (v_oc, r, i_s, nvt)
     shape = max((np.shape(a) for a in args), key=len)
     if len(shape) <= 1 and (not shape or shape[0] <= SMALL):
-        try:  # a few cases: one float at a time (numpy's cost per call is most of the time there)
-            n = shape[0] if shape else 1
-            cols = [a.tolist() if isinstance(a, np.ndarray) and a.ndim == 1 and a.shape[0] == n
-                    else [float(a)] * n for a in args]
-            out = np.array([_single_diode_float(*x) for x in zip(*cols)])
-            return out if shape else out[0]
-        except (ValueError, ZeroDivisionError, OverflowError, TypeError):
-            pass  # a zero or infinite resistance, an overflow: the array form's limits
+        # a few cases: one float at a time (numpy's cost per call is most of the time there)
+        out = _few_in_floats(args, shape)
+        if out is not None:
+            return out
     arg = np.log(i_s * r / nvt) + (v_oc + i_s * r) / nvt
     exact = (nvt / r) * wright_omega(arg) - i_s
     # near zero the difference above cancels to rounding residue; there the junction's
@@ -144,6 +140,19 @@ def single_diode(v_oc, r, i_s, nvt):
 
 #: Batches of at most this many cases take :func:`single_diode`'s float-at-a-time form.
 SMALL = 8
+
+
+def _few_in_floats(args, shape):
+    """:func:`single_diode` of at most :data:`SMALL` cases in floats, or None where a case needs
+    the array form's limits (a zero or infinite resistance, an overflow)."""
+    n = shape[0] if shape else 1
+    try:
+        cols = [a.tolist() if isinstance(a, np.ndarray) and a.ndim == 1 and a.shape[0] == n else [float(a)] * n
+                for a in args]
+        out = np.array([_single_diode_float(*x) for x in zip(*cols)])
+    except (ValueError, ZeroDivisionError, OverflowError, TypeError):
+        return None
+    return out if shape else out[0]
 
 
 def _single_diode_float(v_oc, r, i_s, nvt):

@@ -186,11 +186,11 @@ class _Plan:
         for o in (1.0, -1.0):
             chosen = []
             for g in sg.steps:
-                cand = [d for d, od in g if od == o]
-                if not cand:
+                best = _most_conducting(parts, g, o)
+                if best is None:
                     chosen = None
                     break
-                chosen.append(max(cand, key=lambda d: float(np.max(parts[d].i_s))))
+                chosen.append(best)
             if chosen is None:
                 continue
             nvt = sum(parts[d].nvt for d in chosen)
@@ -234,6 +234,12 @@ def _segment(rows: Rows, sg: Segment, plan: _Plan, v_th, r_th, w):
     return cur, steps_v
 
 
+def _most_conducting(parts, group, o):
+    """The part of a group biased forward in direction o with the largest I_s (None: no such part)."""
+    fwd = [d for d, od in group if od == o]
+    return max(fwd, key=lambda d: float(np.max(parts[d].i_s))) if fwd else None
+
+
 def _breakdown_chains(parts, sg: Segment) -> list:
     """The ways a segment conducts with some groups in breakdown: (direction, [(part, in breakdown)]).
 
@@ -244,9 +250,9 @@ def _breakdown_chains(parts, sg: Segment) -> list:
     for o in (1.0, -1.0):
         chosen, any_bd = [], False
         for g in sg.steps:
-            fwd = [d for d, od in g if od == o]
-            if fwd:
-                chosen.append((max(fwd, key=lambda d: float(np.max(parts[d].i_s))), False))
+            fwd = _most_conducting(parts, g, o)
+            if fwd is not None:
+                chosen.append((fwd, False))
                 continue
             rev = [d for d, od in g if od != o and parts[d].has_bv]
             if not rev:
@@ -369,8 +375,7 @@ def _carry_leak(parts, sg, blocks, positive, steps_v):
             if blocking:
                 out.append(v)
                 continue
-            best = max((d for d, od in g if od == o), key=lambda d: float(np.max(parts[d].i_s)))
-            pb = parts[best]
+            pb = parts[_most_conducting(parts, g, o)]
             vf = pb.nvt * np.log1p(i_series / pb.i_s)
             out.append(np.where(mask & np.isfinite(vf), o * vf, v))
         steps_v = out
