@@ -94,14 +94,30 @@ def wright_omega(z):
     transcendental equation w e^w = x", Communications of the ACM 16(2), 1973.
     """
     z = np.asarray(z, dtype=float)
-    zc = np.clip(z, -700.0, 1e12)
-    w = np.where(zc < 1.0, np.exp(np.minimum(zc, 1.0)), zc - np.log(np.maximum(zc, 1.0)))
-    w = np.where((zc >= 1.0) & (zc < 3.0), 0.5 * (zc + 1.0), w)
-    for _ in range(3):
-        r = zc - w - np.log(w)
+    inside = bool(z.size) and z.min() >= -700.0 and z.max() <= 1e12  # no limit acts (NaN: False)
+    zc = z if inside else np.clip(z, -700.0, 1e12)
+    w = np.exp(np.minimum(zc, 1.0))
+    above = zc >= 1.0
+    if above.any():
+        w = np.where(above, np.where(zc < 3.0, 0.5 * (zc + 1.0), zc - np.log(np.maximum(zc, 1.0))), w)
+    for _ in range(3):  # the iteration below, in place (the same operations in the same order)
+        r = zc - w
+        r -= np.log(w)
         wp1 = w + 1.0
-        t = 2.0 * wp1 * (wp1 + 2.0 * r / 3.0)
-        w = w * (1.0 + r / wp1 * (t - r) / (t - 2.0 * r))
+        t = r * 2.0
+        t /= 3.0
+        t += wp1
+        t *= wp1 * 2.0  # t = 2 (1 + w)(1 + w + 2r/3)
+        num = t - r
+        den = r * 2.0
+        np.subtract(t, den, out=den)
+        q = r / wp1
+        q *= num
+        q /= den
+        q += 1.0
+        w = w * q  # w (1 + r/(1 + w) (t - r)/(t - 2r))
+    if inside:
+        return w
     w = np.where(z < -700.0, np.exp(np.maximum(z, -800.0)), w)
     return np.where(z > 1e12, z - np.log(np.maximum(z, 1.0)), w)
 

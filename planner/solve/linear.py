@@ -71,6 +71,7 @@ class LinearPart:
         voltage = circuit.source_kind == "voltage"
         fixed, self.touched, self.interior, self.floating, self.anchors, self.grounded, self.t_pos, self.i_pos, \
             anchor_nodes, f, pos, s_ff, s_h, s_e = _structure(circuit, tuple(skip))
+        ff_cols, s_ff = s_ff  # the stamp matrix's nonzero columns alone (most of f*f are zero)
         self.circuit = circuit
         self.held = held
         t, ni, na = len(self.touched), len(self.interior), len(self.anchors)
@@ -91,7 +92,9 @@ class LinearPart:
         for lo in range(0, p, step):
             hi = min(p, lo + step)
             g = 1.0 / r[lo:hi]
-            gff = (g @ s_ff).reshape(hi - lo, f, f)
+            gff = np.zeros((hi - lo, f * f))
+            gff[:, ff_cols] = g @ s_ff
+            gff = gff.reshape(hi - lo, f, f)
             b = g @ s_h if voltage else np.zeros((hi - lo, f))
             if inject >= 0:
                 b[:, inject] = 1.0
@@ -159,7 +162,8 @@ def _structure(circuit, skip: tuple):
     every solve, with the same arrays); the arrays are read, never written.
     The touched, interior, floating and anchor nodes, the anchors that reach the reference
     or the held node, the free nodes' order and the stamp matrices (each branch's
-    conductance into the free nodes' matrix, from the held node, of its EMF).
+    conductance into the free nodes' matrix, from the held node, of its EMF; the first as its
+    nonzero columns and those columns alone).
     """
     key = (circuit.n_nodes, circuit.held, circuit.source_kind, circuit.inject, skip,
            circuit.lin_a.tobytes(), circuit.lin_b.tobytes(), circuit.port_a.tobytes(), circuit.port_c.tobytes())
@@ -220,6 +224,8 @@ def _structure(circuit, skip: tuple):
                 s_h[j, ia] += 1.0
             if int(a) == held and ib >= 0:
                 s_h[j, ib] += 1.0
+    ff_cols = np.nonzero(np.any(s_ff != 0.0, axis=0))[0]
+    s_ff = (ff_cols, np.ascontiguousarray(s_ff[:, ff_cols]))
     out = (fixed, touched, interior, floating, anchors, grounded, t_pos, i_pos, anchor_nodes, f, pos, s_ff, s_h, s_e)
     if len(_STRUCTURES) >= STRUCTURES_KEEP:
         _STRUCTURES.clear()

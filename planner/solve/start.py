@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from . import varistor as vl
-from .junction import single_diode
+from .junction import SMALL, single_diode
 from .newton import GROUND, HELD, Rows, Structure
 
 
@@ -333,9 +333,9 @@ def _segment_plain(rows: Rows, sg: Segment, plan: _Plan, v_th, r_th, w):
                 w[d] = parts[d].start_limits(o * v)
         return np.zeros(n), steps_v
     results = []
-    for o, chosen, nvt, i_s, r_s in plan.forward:
+    currents = _forward_currents(plan.forward, v_th, r_th, n)
+    for (o, chosen, nvt, i_s, r_s), cur in zip(plan.forward, currents):
         r = r_th + r_s
-        cur = single_diode(o * v_th, r, i_s, nvt)
         cur = np.where(np.isfinite(cur), cur, 0.0)
         wd = list(w)
         c, sv = _share(rows, sg, o * v_th, o, chosen, cur, nvt, r, wd)
@@ -350,6 +350,28 @@ def _segment_plain(rows: Rows, sg: Segment, plan: _Plan, v_th, r_th, w):
         if w_p[d] is not w_n[d]:
             w[d] = np.where(better, w_n[d], w_p[d])
     return np.where(better, c_n, c_p), [np.where(better, b_, a_) for a_, b_ in zip(sv_p, sv_n)]
+
+
+def _forward_currents(forward, v_th, r_th, n):
+    """The composite junction's current in each direction of ``forward`` (:attr:`_Plan.forward`).
+
+    The two directions of an antiparallel segment go into one :func:`single_diode` call with
+    their cases side by side: the same values as a call each, at half the calls (a few cases,
+    at most :data:`planner.solve.junction.SMALL`, keep a call each: the float form).
+    """
+    if len(forward) != 2 or n <= SMALL:
+        return [single_diode(o * v_th, r_th + r_s, i_s, nvt) for o, _, nvt, i_s, r_s in forward]
+    (o1, _, nvt1, is1, rs1), (o2, _, nvt2, is2, rs2) = forward
+    both = single_diode(*(_side_by_side(a, b, n) for a, b in
+                          ((o1 * v_th, o2 * v_th), (r_th + rs1, r_th + rs2), (is1, is2), (nvt1, nvt2))))
+    return [both[:n], both[n:]]
+
+
+def _side_by_side(a, b, n):
+    """One float where both directions share it, else both directions' rows end to end."""
+    if not isinstance(a, np.ndarray) and not isinstance(b, np.ndarray) and a == b:
+        return a
+    return np.concatenate((np.broadcast_to(a, (n,)), np.broadcast_to(b, (n,))))
 
 
 def _carry_leak(parts, sg, blocks, positive, steps_v):
