@@ -148,7 +148,7 @@ class Problem:
                 x = x + nt.take(self.decols[m], p)
             drive.append(x)
         y = {k: nt.take(v, p) for k, v in self.ycols.items()}
-        parts = [nt.Junction(*(nt.take(self.jcols[f][d], p) for f in nt.JUNCTION_FIELDS))
+        parts = [nt.junction(*(nt.take(self.jcols[f][d], p) for f in nt.JUNCTION_FIELDS))
                  for d in range(len(self.circuit.diodes))]
         if self.vcols is not None:
             parts += [nt.Varistor(*(nt.take(self.vcols[f][m], p) for f in nt.VARISTOR_FIELDS))

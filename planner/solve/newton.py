@@ -87,7 +87,10 @@ class Junction:
         self.w_start_max = np.maximum(self.vcrit + START_ABOVE_VCRIT * nvt, 1.5)
 
     def subset(self, idx):
-        return Junction(*(take(getattr(self, f), idx) for f in JUNCTION_FIELDS))
+        fields = [getattr(self, f) for f in JUNCTION_FIELDS]
+        if not any(isinstance(x, np.ndarray) for x in fields):
+            return self  # every case shares every parameter
+        return Junction(*(take(x, idx) for x in fields))
 
     def with_leak(self, extra_g):
         if extra_g == 0.0:
@@ -112,6 +115,25 @@ class Junction:
         if self.has_bv:
             w = np.maximum(w, -self.bv)
         return w
+
+
+#: Junctions whose every parameter is one float, by their parameters (a switch state's
+#: diodes are the same few in every call); cleared when it holds this many.
+SHARED_KEEP = 1024
+_SHARED: dict = {}
+
+
+def junction(i_s, nvt, bv, ibv, r_s, g_p) -> Junction:
+    """:class:`Junction` of these rows; one made earlier where every parameter is a float."""
+    key = (i_s, nvt, bv, ibv, r_s, g_p)
+    if any(isinstance(x, np.ndarray) for x in key):
+        return Junction(*key)
+    hit = _SHARED.get(key)
+    if hit is None:
+        if len(_SHARED) >= SHARED_KEEP:
+            _SHARED.clear()
+        hit = _SHARED[key] = Junction(*key)
+    return hit
 
 
 class Varistor:
