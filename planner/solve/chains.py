@@ -131,12 +131,8 @@ def reduce(circuit: Circuit, jn: Junctions):
     chains = find_chains(circuit)
     if not chains:
         return None
-    fields = (jn.i_s, jn.nvt, jn.bv, jn.ibv, jn.r_s, jn.g_p)
-    use = []
-    for ch in chains:
-        ds = ch[3]
-        if all(np.array_equal(f[:, ds], np.broadcast_to(f[:, ds[:1]], (f.shape[0], len(ds)))) for f in fields):
-            use.append(ch)
+    fields = np.stack(np.broadcast_arrays(jn.i_s, jn.nvt, jn.bv, jn.ibv, jn.r_s, jn.g_p))  # (6, P, D)
+    use = [ch for ch in chains if bool(np.all(fields[:, :, ch[3]] == fields[:, :, ch[3][:1]]))]
     if not use:
         return None
     gone_ports = {q for ch in use for q in ch[4]}

@@ -70,6 +70,8 @@ class Junction:
     """Per-case parameters of one diode (each a float when every case shares it)."""
 
     kind = "junction"
+    #: Made by :func:`junction` for floats alone and shared by every call that has them.
+    shared = False
 
     def __init__(self, i_s, nvt, bv, ibv, r_s, g_p):
         self.i_s, self.nvt, self.bv, self.ibv, self.r_s, self.g_p = i_s, nvt, bv, ibv, r_s, g_p
@@ -133,6 +135,7 @@ def junction(i_s, nvt, bv, ibv, r_s, g_p) -> Junction:
         if len(_SHARED) >= SHARED_KEEP:
             _SHARED.clear()
         hit = _SHARED[key] = Junction(*key)
+        hit.shared = True
     return hit
 
 
@@ -142,6 +145,7 @@ class Varistor:
     kind = "varistor"
     r_s = 0.0
     has_bv = False
+    shared = False
 
     def __init__(self, v1, alpha, i1, g_p=0.0):
         self.v1, self.alpha, self.i1, self.g_p = v1, alpha, i1, g_p
@@ -346,16 +350,69 @@ def _scaled(p, w, aux, big_l, e_l):
     return part, ysc
 
 
-def _linearise(st: Structure, parts, U, W, held):
+class Together:
+    """The junctions of a circuit that one step evaluates as a single (parts, cases) array.
+
+    Those without a breakdown law and without a node that only parts reach (their rows
+    need no scaling): :func:`_evaluate`'s operations once for all of them instead of once
+    per part (numpy's cost per operation, not per case, is most of a step on a few
+    hundred cases). Empty with fewer than two such junctions.
+    """
+
+    def __init__(self, st: Structure, parts, n):
+        self.idx = [d for d, p in enumerate(parts) if p.kind == "junction" and not p.has_bv
+                    and not st.scaled_ends[d] and (bool(st.plain_ends[d]) or nonzero(p.r_s))]
+        if len(self.idx) < 2:
+            self.idx = []
+            return
+        chosen = [parts[d] for d in self.idx]
+
+        def col(name):
+            vals = [getattr(p, name) for p in chosen]
+            if any(isinstance(v, np.ndarray) for v in vals):
+                return np.array([np.broadcast_to(v, (n,)) for v in vals])
+            return np.array(vals, dtype=float)[:, None]
+
+        self.inv_nvt, self.i_s, self.is_nvt = col("inv_nvt"), col("i_s"), col("is_nvt")
+        self.g_p = [p.g_p for p in chosen]
+
+    def evaluate(self, W) -> dict:
+        """:func:`_evaluate` of each of these junctions at its row of ``W``, by part."""
+        if not self.idx:
+            return {}
+        x = np.array([W[d] for d in self.idx])
+        x *= self.inv_nvt
+        xe = np.minimum(x, jl.EXP_MAX) if x.max() > jl.EXP_MAX else x
+        em = np.expm1(xe)
+        ex = em + 1.0
+        i = em + ex * (x - xe) if xe is not x else em
+        i *= self.i_s
+        ex *= self.is_nvt
+        out = {}
+        for k, d in enumerate(self.idx):
+            ik, yk, g_p = i[k], ex[k], self.g_p[k]
+            if nonzero(g_p):
+                ik = ik + g_p * W[d]
+                yk = yk + g_p
+            out[d] = (ik, yk, None, None, (x[k], xe[k], None, None))
+        return out
+
+
+def _linearise(st: Structure, parts, U, W, held, together=None):
     """Every part at its voltage: (i, y, ell, const, aux, den, r) per part.
 
     ``r`` is the residual of the part's own equation V = w + R_s i(w) and ``den``
     1 + R_s y (None without R_s): eliminating w, the part conducts i + (y/den)(r + dV).
+    ``together``: the :class:`Together` of these parts, evaluated in one array.
     """
     ev = []
+    shared = together.evaluate(W) if together is not None else {}
     for d, p in enumerate(parts):
         vq = part_voltage(st, U, held, d)
-        i, y, ell, const, aux = _evaluate(p, W[d], bool(st.plain_ends[d]) or nonzero(p.r_s), bool(st.scaled_ends[d]))
+        got = shared.get(d)
+        if got is None:
+            got = _evaluate(p, W[d], bool(st.plain_ends[d]) or nonzero(p.r_s), bool(st.scaled_ends[d]))
+        i, y, ell, const, aux = got
         if nonzero(p.r_s):
             den = p.r_s * y
             den += 1.0
@@ -550,7 +607,7 @@ def newton(rows: Rows, u, w, *, scale=1.0, extra_g=0.0, max_iter=MAX_ITER):
         drive = R.drive if scale == 1.0 else [d * scale for d in R.drive]
         parts = [p.with_leak(extra_g) for p in R.parts]
         vs = R.vscale * scale if scale != 1.0 else R.vscale
-        return held, drive, parts, vs
+        return held, drive, parts, vs, Together(R.st, parts, R.n)
 
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # once for the whole loop
         return _iterate(rows, setup, u_out, w_out, ok, U, W, idx, max_iter)
@@ -562,11 +619,11 @@ def _iterate(rows: Rows, setup, u_out, w_out, ok, U, W, idx, max_iter):
     st = rows.st
     t, nd = st.t, len(st.kinds)
     R = rows
-    held, drive, parts, vs = setup(R)
+    held, drive, parts, vs, together = setup(R)
     pending = np.zeros(rows.n, dtype=bool)
     it = 0
     for it in range(1, max_iter + 1):
-        ev = _linearise(st, parts, U, W, held)
+        ev = _linearise(st, parts, U, W, held, together)
         res, a = [None] * t, {}
         terms = _anchor_rows(st, R, U, drive, ev, res, a)
         unbalanced = _floating_rows(st, parts, W, drive, ev, res, a)
@@ -599,7 +656,7 @@ def _iterate(rows: Rows, setup, u_out, w_out, ok, U, W, idx, max_iter):
             U = [r[keep] for r in U]
             W = [r[keep] for r in W]
             R = R.subset(keep)
-            held, drive, parts, vs = setup(R)
+            held, drive, parts, vs, together = setup(R)
     rest = ~ok[idx]
     if rest.any():
         for m in range(t):

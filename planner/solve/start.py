@@ -30,6 +30,7 @@ class Segment:
 
     def __init__(self, ends, nodes, steps):
         self.ends, self.nodes, self.steps = ends, nodes, steps
+        self.plans = {}  # by the parts of the groups, where each is shared across calls (:func:`_plan`)
 
 
 def segments(st: Structure, inject=None):
@@ -136,7 +137,7 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
         return 0.0
 
     with np.errstate(all="ignore"):
-        plans = [_Plan(rows.parts, sg) for sg in segs]
+        plans = [_plan(rows.parts, sg) for sg in segs]
         for _ in range(sweeps if len(segs) > 1 else 1):
             for k, sg in enumerate(segs):
                 e0, e1 = sg.ends
@@ -165,6 +166,24 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
     u = [np.where(np.isfinite(x), x, 0.0) for x in u]
     w = [np.where(np.isfinite(x), x, 0.0) for x in w]
     return zero_where_undriven(rows, np.array(u).reshape(t, n), np.array(w).reshape(nd, n))
+
+
+#: Plans kept per segment (for parts shared across calls); cleared when a segment holds this many.
+PLANS_KEEP = 64
+
+
+def _plan(parts, sg: Segment) -> "_Plan":
+    """The segment's :class:`_Plan`; made once for junctions shared across calls
+    (:attr:`planner.solve.newton.Junction.shared`: every parameter one float)."""
+    mine = tuple(parts[d] for g in sg.steps for d, _ in g)
+    if not all(p.shared for p in mine):
+        return _Plan(parts, sg)
+    hit = sg.plans.get(mine)
+    if hit is None:
+        if len(sg.plans) >= PLANS_KEEP:
+            sg.plans.clear()
+        hit = sg.plans[mine] = _Plan(parts, sg)
+    return hit
 
 
 class _Plan:
