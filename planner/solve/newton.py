@@ -375,23 +375,27 @@ class Together:
 
         self.inv_nvt, self.i_s, self.is_nvt = col("inv_nvt"), col("i_s"), col("is_nvt")
         self.g_p = [p.g_p for p in chosen]
+        self.leak = col("g_p") if all(nonzero(g) for g in self.g_p) else None
 
     def evaluate(self, W) -> dict:
         """:func:`_evaluate` of each of these junctions at its row of ``W``, by part."""
         if not self.idx:
             return {}
-        x = np.array([W[d] for d in self.idx])
-        x *= self.inv_nvt
+        ws = np.array([W[d] for d in self.idx])
+        x = ws * self.inv_nvt
         xe = np.minimum(x, jl.EXP_MAX) if x.max() > jl.EXP_MAX else x
         em = np.expm1(xe)
         ex = em + 1.0
         i = em + ex * (x - xe) if xe is not x else em
         i *= self.i_s
         ex *= self.is_nvt
+        if self.leak is not None:  # every junction here has a leak conductance
+            i += self.leak * ws
+            ex += self.leak
         out = {}
         for k, d in enumerate(self.idx):
             ik, yk, g_p = i[k], ex[k], self.g_p[k]
-            if nonzero(g_p):
+            if self.leak is None and nonzero(g_p):
                 ik = ik + g_p * W[d]
                 yk = yk + g_p
             out[d] = (ik, yk, None, None, (x[k], xe[k], None, None))
@@ -515,6 +519,8 @@ def _node_step(st: Structure, a, res):
     if st.t == 1:
         piv = a[(0, 0)]
         if isinstance(piv, np.ndarray):
+            if piv.min() > 0.0:  # every pivot positive (NaN: False): the plain division
+                return [-(res[0] / piv)]
             return [-np.divide(res[0], piv, out=np.zeros_like(piv), where=piv > 0.0)]
         return [-res[0] / piv if piv > 0.0 else 0.0 * res[0]]
     if st.t:

@@ -78,7 +78,7 @@ class Elimination:
         for c, nb in zip(self.order, self.later):
             piv = a[(c, c)]
             if isinstance(piv, np.ndarray):
-                ic = np.divide(1.0, piv, out=np.zeros_like(piv), where=piv > 0.0)
+                ic = _reciprocal(piv)
             else:
                 ic = 1.0 / piv if piv > 0.0 else 0.0
             inv[c] = ic
@@ -103,3 +103,10 @@ class Elimination:
                 acc = acc - a.get((c, j), 0.0) * x[j]
             x[c] = acc * inv[c]
         return x
+
+
+def _reciprocal(piv):
+    """1 / piv where piv > 0, else 0 (no step); the plain division when every pivot is positive."""
+    if piv.min() > 0.0:  # NaN: False
+        return 1.0 / piv
+    return np.divide(1.0, piv, out=np.zeros_like(piv), where=piv > 0.0)
