@@ -39,6 +39,8 @@ WARM_SPREAD = 1.5
 def column(a):
     """A float when every parameter set has the same value, else the contiguous column."""
     a = np.asarray(a, dtype=float)
+    if a.size == 1:
+        return float(a[0])
     if a.size == 0 or np.all(a == a[0]):
         return float(a[0]) if a.size else 0.0
     return np.ascontiguousarray(a)
@@ -51,6 +53,8 @@ def columns(a) -> list:
         return []
     if not a.shape[0]:
         return [0.0] * a.shape[1]
+    if a.shape[0] == 1:
+        return a[0].tolist()
     same = np.all(a == a[:1], axis=0)
     first = a[0].tolist()
     return [first[k] if same[k] else np.ascontiguousarray(a[:, k]) for k in range(a.shape[1])]
@@ -341,6 +345,11 @@ def _local(cases, sets, s):
     return where * s + (cases - p * s)
 
 
+def _spread(a, shape):
+    """``a`` broadcast to ``shape`` (itself where it has that shape already); read, never written."""
+    return a if a.shape == shape else np.broadcast_to(a, shape)
+
+
 def _params(x, p, m, name, what):
     """A parameter array (P, M) from (P, M), (M,) or a scalar."""
     a = np.atleast_2d(np.asarray(x, dtype=float))
@@ -420,9 +429,9 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
         p = max(p, varistors.v1.shape[0], varistors.alpha.shape[0], varistors.i1.shape[0])
     elif m:
         raise SolveError(f"{circuit.name}: the circuit has {m} varistors but no varistor parameters were given")
-    jn = jn.map(lambda x: np.broadcast_to(x, (p, d)))
-    r = np.ascontiguousarray(np.broadcast_to(r, (p, r.shape[1])))
-    stim = np.ascontiguousarray(np.broadcast_to(stim, (p, stim.shape[1])))
+    jn = jn.map(lambda x: _spread(x, (p, d)))
+    r = np.ascontiguousarray(_spread(r, (p, r.shape[1])))
+    stim = np.ascontiguousarray(_spread(stim, (p, stim.shape[1])))
     if not np.all(np.isfinite(r)) or np.any(r <= 0):
         raise SolveError(f"{circuit.name}: a branch resistance is zero, negative or not finite")
     if not np.all(np.isfinite(stim)):

@@ -390,7 +390,10 @@ def _side_by_side(a, b, n):
     """One float where both directions share it, else both directions' rows end to end."""
     if not isinstance(a, np.ndarray) and not isinstance(b, np.ndarray) and a == b:
         return a
-    return np.concatenate((np.broadcast_to(a, (n,)), np.broadcast_to(b, (n,))))
+    out = np.empty(2 * n)
+    out[:n] = a
+    out[n:] = b
+    return out
 
 
 def _carry_leak(parts, sg, blocks, positive, steps_v):
