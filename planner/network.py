@@ -362,6 +362,23 @@ def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
                   for e in net.elements))
 
 
+#: Topology keys by the network and state objects they were made of (both frozen: a key
+#: is made once per pair, not on every call); cleared when it holds COMPILED_KEEP.
+_KEYS: dict = {}
+
+
+def _topology_key_of(net: NetworkSpec, st: SwitchState) -> tuple:
+    """:func:`topology_key`, kept for these very objects (held with it, so ids are not reused)."""
+    hit = _KEYS.get((id(net), id(st)))
+    if hit is not None and hit[0] is net and hit[1] is st:
+        return hit[2]
+    key = topology_key(net, st)
+    if len(_KEYS) >= COMPILED_KEEP:
+        _KEYS.clear()
+    _KEYS[(id(net), id(st))] = (net, st, key)
+    return key
+
+
 def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source_resistance: bool = False,
              net: NetworkSpec | None = None):
     """:func:`compile_state`, kept per topology (:func:`topology_key`) for the life of the process.
@@ -372,7 +389,7 @@ def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source
     """
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
-    key = (topology_key(net, st), kind, bool(source_resistance))
+    key = (_topology_key_of(net, st), kind, bool(source_resistance))
     circuit = _COMPILED.get(key)
     if circuit is None:
         circuit = compile_state(spec, st, stimulus=kind, source_resistance=source_resistance, net=net)
