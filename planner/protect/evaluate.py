@@ -118,6 +118,9 @@ class Topology:
     carrying: dict | None = None  # position -> designators that carry current in it
     static: dict = field(default_factory=dict)  # (position, phase points) -> figures that no row changes
     bare_engine: Engine | None = None  # the same network without its clamp diodes
+    #: (position, stimulus) where :func:`feasible_alone` found a clamp diode beyond its rating, in a stimulus
+    #: group whose samples are the same at the search's and the report's phase points (None: none such)
+    overstressed: tuple | None = None
 
 
 @dataclass
@@ -133,6 +136,8 @@ class Point:
     stage: str = "grid"
     clamps: tuple | None = None  # the ``clamps:`` requests (sized projects)
     net: NetworkSpec | None = None  # the sized network of those requests
+    #: of a realised point judged infeasible: (position, stimulus) of :attr:`Topology.overstressed`
+    overstressed: tuple | None = None
 
     @property
     def worst(self) -> float:
@@ -179,17 +184,40 @@ def bare_readings(ctx: SearchContext, topo: Topology) -> dict:
         topo.bare = ctx.bare_base
     else:
         if topo.bare_key not in ctx.bare_cache:
-            net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
-            ctx.bare_cache[topo.bare_key] = _readings(ctx, net)
+            ctx.bare_cache[topo.bare_key] = {p.name: bare_reading(ctx, topo, p.name) for p in ctx.positions}
+            ctx.bare_some.pop(topo.bare_key, None)
         topo.bare = ctx.bare_cache[topo.bare_key]
     return topo.bare
+
+
+def bare_reading(ctx: SearchContext, topo: Topology, name: str) -> np.ndarray:
+    """One position's readings of :func:`bare_readings` (10,), solving that position alone when it is new.
+
+    A placement judged for feasibility alone (:func:`feasible_alone`) mostly fails at
+    its first position: the other positions' readings without clamps are not needed.
+    """
+    if topo.bare is not None or topo.bare_key is None or topo.bare_key in ctx.bare_cache:
+        return bare_readings(ctx, topo)[name]
+    got = ctx.bare_some.get(topo.bare_key)
+    if got is None:
+        net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+        got = ctx.bare_some[topo.bare_key] = (Engine(ctx.design.variant(net)), {})
+    eng, readings = got
+    if name not in readings:
+        p = next(q for q in ctx.positions if q.name == name)
+        readings[name] = _reading(ctx, eng, p)
+    return readings[name]
 
 
 def _readings(ctx: SearchContext, net: NetworkSpec) -> dict:
     """Readings of a network at the linearity points at the hottest ambient, per position."""
     eng = Engine(ctx.design.variant(net))
-    return {p.name: eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot).reading()[0]
-            for p in ctx.positions}
+    return {p.name: _reading(ctx, eng, p) for p in ctx.positions}
+
+
+def _reading(ctx: SearchContext, eng: Engine, p) -> np.ndarray:
+    """One position's readings at the linearity points at the hottest ambient (10,)."""
+    return eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot).reading()[0]
 
 
 # --- running a batch ----------------------------------------------------------------------------
@@ -355,9 +383,6 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
         rank.setdefault(name, len(rank))
     order = sorted(ctx.positions, key=lambda q: rank.get(q.name, len(rank)))
     try:
-        if topo.carrying is None:
-            topo.carrying = {q.name: current_carrying(topo.engine, q.name) for q in ctx.positions}
-        bare = bare_readings(ctx, topo)
         for p in order:
             key = (p.name, n_phase)
             if key in topo.static:
@@ -365,11 +390,15 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
             else:
                 # the stimulus group that overstressed a clamp diode here last time is solved first: a diode
                 # beyond its rating makes the position fail whatever the other groups give
-                r = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1],
+                r = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare_reading(ctx, topo, p.name))[:1],
                               stop_over=ctx.failed_stimulus.get(p.name, ""))
                 if isinstance(r, str):
                     ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
                     ctx.failed_stimulus[p.name] = r
+                    stims = ctx.stimuli[p.name]
+                    group = [s for s in stims if _group_of(s) == _group_of(next(x for x in stims if x.name == r))]
+                    if all(np.array_equal(s.samples(n_phase), s.samples(REPORT_PHASE_POINTS)) for s in group):
+                        topo.overstressed = (p.name, r)
                     return False, p.name
                 topo.static[key] = r
             ok = (r["error"][0] <= ctx.limits[p.name] * EXCEED and r["stress"][0] <= EXCEED
@@ -402,7 +431,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     stims = ctx.stimuli[p.name]
     groups: dict[tuple, list[int]] = {}
     for j, s in enumerate(stims):
-        groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
+        groups.setdefault(_group_of(s), []).append(j)
     order = list(groups)
     if stop_over is not None:
         order.sort(key=lambda g: not any(stims[j].name == stop_over for j in groups[g]))
@@ -431,6 +460,11 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
     out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare, hot_mult)
     return out
+
+
+def _group_of(s) -> tuple:
+    """The stimulus group of :func:`_position` a stimulus is solved in: its kind, whether it has a source resistance."""
+    return s.kind, s.kind == "voltage" and s.r_source_ohm > 0
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
