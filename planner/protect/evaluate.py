@@ -118,9 +118,6 @@ class Topology:
     carrying: dict | None = None  # position -> designators that carry current in it
     static: dict = field(default_factory=dict)  # (position, phase points) -> figures that no row changes
     bare_engine: Engine | None = None  # the same network without its clamp diodes
-    #: (position, stimulus) where :func:`feasible_alone` found a clamp diode beyond its rating, in a stimulus
-    #: group whose samples are the same at the search's and the report's phase points (None: none such)
-    overstressed: tuple | None = None
 
 
 @dataclass
@@ -136,8 +133,6 @@ class Point:
     stage: str = "grid"
     clamps: tuple | None = None  # the ``clamps:`` requests (sized projects)
     net: NetworkSpec | None = None  # the sized network of those requests
-    #: of a realised point judged infeasible: (position, stimulus) of :attr:`Topology.overstressed`
-    overstressed: tuple | None = None
 
     @property
     def worst(self) -> float:
@@ -390,15 +385,13 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
             else:
                 # the stimulus group that overstressed a clamp diode here last time is solved first: a diode
                 # beyond its rating makes the position fail whatever the other groups give
-                r = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare_reading(ctx, topo, p.name))[:1],
+                # (its readings without clamps are solved only when no group overstresses a clamp diode)
+                r = _position(ctx, topo, p, None, 1, n_phase,
+                              lambda name=p.name: np.atleast_2d(bare_reading(ctx, topo, name))[:1],
                               stop_over=ctx.failed_stimulus.get(p.name, ""))
                 if isinstance(r, str):
                     ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
                     ctx.failed_stimulus[p.name] = r
-                    stims = ctx.stimuli[p.name]
-                    group = [s for s in stims if _group_of(s) == _group_of(next(x for x in stims if x.name == r))]
-                    if all(np.array_equal(s.samples(n_phase), s.samples(REPORT_PHASE_POINTS)) for s in group):
-                        topo.overstressed = (p.name, r)
                     return False, p.name
                 topo.static[key] = r
             ok = (r["error"][0] <= ctx.limits[p.name] * EXCEED and r["stress"][0] <= EXCEED
@@ -415,7 +408,8 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
               stop_over: str | None = None) -> dict | str:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
-    With ``stop_over`` (one row): the stimulus groups are solved the one holding
+    ``bare``: the readings without clamps (rows x 10), or a callable that gives them
+    when they are needed. With ``stop_over`` (one row): the stimulus groups are solved the one holding
     that stimulus first, and as soon as a group puts a clamp diode beyond its
     rating the name of the stimulus that does is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
@@ -431,7 +425,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     stims = ctx.stimuli[p.name]
     groups: dict[tuple, list[int]] = {}
     for j, s in enumerate(stims):
-        groups.setdefault(_group_of(s), []).append(j)
+        groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
     order = list(groups)
     if stop_over is not None:
         order.sort(key=lambda g: not any(stims[j].name == stop_over for j in groups[g]))
@@ -458,13 +452,8 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         mult, cur, vol, width = solved[g]
         _record_multiples(out, p, group, mult.reshape(rows, len(group), width), rows)
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
-    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare, hot_mult)
+    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare() if callable(bare) else bare, hot_mult)
     return out
-
-
-def _group_of(s) -> tuple:
-    """The stimulus group of :func:`_position` a stimulus is solved in: its kind, whether it has a source resistance."""
-    return s.kind, s.kind == "voltage" and s.r_source_ohm > 0
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,

@@ -213,7 +213,7 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
                  and "tap1" in e.nodes}
         upper = tuple(e.value_ohm for e in net.elements if isinstance(e, Resistor) and e.group in above)
         q = Point(p.combo, r, None, ok, upper=upper, lower=tuple(e.value_ohm for e in tap),
-                  stage="realised", clamps=clamps, net=net, overstressed=None if ok else topo.overstressed)
+                  stage="realised", clamps=clamps, net=net)
         if best is None or (q.feasible and not best.feasible):
             best = q
         if q.feasible:
@@ -223,13 +223,6 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
 
 
 # --- the reported pass ------------------------------------------------------------------------
-
-
-def _overstressed_again(ctx: SearchContext, position: str, stimulus: str) -> None:
-    """The count and the order of work of :func:`feasible_alone` finding the same overstress once more."""
-    ctx.reevaluated += 1
-    ctx.failed_at = [position] + [n for n in ctx.failed_at if n != position]
-    ctx.failed_stimulus[position] = stimulus
 
 
 def failing_hint(p: Point) -> tuple:
@@ -259,16 +252,7 @@ def final(ctx: SearchContext, p: Point, *, feasible_only: bool = False, first=()
     position, :func:`planner.protect.evaluate.feasible_alone`, the positions in
     ``first`` judged first) and None returned; a feasible one is evaluated in full
     on the positions already solved. Either way it counts one row of the final pass.
-    A realised point found beyond a clamp diode's rating on its own network in a
-    stimulus group without sines (``overstressed``: DC and impulse samples are the
-    same at any phase resolution) is not solved again: the same solve gives the
-    same overstress, so it is None at once (still counted).
     """
-    if feasible_only and p.overstressed is not None and p.net is not None:
-        # judged on this network already, in a stimulus group whose samples the report's phase points do not
-        # change: the same solve would find the same clamp diode beyond its rating
-        _overstressed_again(ctx, *p.overstressed)
-        return None
     topo, clamps = final_topology(ctx, p)
     if feasible_only:
         ok, _ = feasible_alone(ctx, topo, n_phase=REPORT_PHASE_POINTS, count=False, first=first)
