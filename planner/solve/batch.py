@@ -11,7 +11,7 @@ from . import newton as nt
 from .chains import reduce as reduce_chains
 from .circuit import Circuit, Junctions, Varistors
 from .junction import EXP_MAX
-from .linear import LinearPart, linear_part
+from .linear import LinearPart
 from .results import Solution, check_batch
 from .start import initial, segments, zero_where_undriven
 
@@ -460,7 +460,7 @@ def solve(circuit: Circuit, r_branch, junctions: Junctions, stimulus, *, varisto
     check_batch(circuit.name, p * s_count, p * s_count * (t_count + 2 * (d + m) + 2) + p * n * 3)
     red = reduce_chains(circuit, jn) if d >= 2 else None
     flat, fjn = (red.circuit, red.junctions) if red is not None else (circuit, jn)
-    lin = linear_part(flat, r, e, skip=red.between if red is not None else ())
+    lin = LinearPart(flat, r, e, skip=red.between if red is not None else ())
     t = len(lin.touched)
     fd = len(flat.diodes)
     empty = np.zeros((p, s_count, 0))

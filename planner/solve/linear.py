@@ -165,7 +165,8 @@ def _structure(circuit, skip: tuple):
     conductance into the free nodes' matrix, from the held node, of its EMF; the first as its
     nonzero columns and those columns alone).
     """
-    key = _topology(circuit, skip)
+    key = (circuit.n_nodes, circuit.held, circuit.source_kind, circuit.inject, skip,
+           circuit.lin_a.tobytes(), circuit.lin_b.tobytes(), circuit.port_a.tobytes(), circuit.port_c.tobytes())
     hit = _STRUCTURES.get(key)
     if hit is not None:
         return hit
@@ -230,46 +231,6 @@ def _structure(circuit, skip: tuple):
         _STRUCTURES.clear()
     _STRUCTURES[key] = out
     return out
-
-
-def _topology(circuit, skip: tuple) -> tuple:
-    """What :func:`_structure` reads of a circuit, as a key."""
-    return (circuit.n_nodes, circuit.held, circuit.source_kind, circuit.inject, skip,
-            circuit.lin_a.tobytes(), circuit.lin_b.tobytes(), circuit.port_a.tobytes(), circuit.port_c.tobytes())
-
-
-#: Reduced linear parts kept by topology and values (:func:`linear_part`); cleared when they
-#: hold this many floats, and none kept above a tenth of it.
-KEEP_FLOATS = 4_000_000
-_KEPT: dict = {}
-_kept_floats = [0]
-
-
-def linear_part(circuit, r, emf=None, skip=()) -> LinearPart:
-    """:class:`LinearPart` of these values, kept for the life of the process (its arrays read-only).
-
-    A search solves the same network with the same values many times (each candidate at
-    several stimuli, the same corner for several checks): the reduction, the same for all
-    of them, is made once. The key holds the topology and every resistance and EMF
-    exactly (their bytes), so a kept part is the one :class:`LinearPart` would make.
-    """
-    skip = tuple(skip)
-    key = (_topology(circuit, skip), r.shape, r.tobytes(), None if emf is None else (emf.shape, emf.tobytes()))
-    hit = _KEPT.get(key)
-    if hit is not None:
-        return hit
-    lin = LinearPart(circuit, r, emf, skip=skip)
-    arrays = [a for a in (lin.ys, lin.d, lin.de, lin.h, lin.he, lin.hu) if a is not None]
-    size = sum(a.size for a in arrays)
-    if size <= KEEP_FLOATS // 10:
-        for a in arrays:
-            a.setflags(write=False)
-        if _kept_floats[0] + size > KEEP_FLOATS:
-            _KEPT.clear()
-            _kept_floats[0] = 0
-        _KEPT[key] = lin
-        _kept_floats[0] += size
-    return lin
 
 
 def isolated_hint(circuit) -> str:
