@@ -452,7 +452,7 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
     if 1 < _row_count(temperature_k, r_source_ohm, factors) <= SMALL_BATCH and shape.atoms is None:
         return _checked_small(engine, st, key, rule, idx, values, kw)
-    op = engine.operate(st, rule.points(), **kw)
+    op = engine.operate(st, rule.points(), start=_predicted(engine, key, rule.points(), kw), **kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
@@ -463,9 +463,11 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         t = t_ref if temperature_k is None else temperature_k
         f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
 
+        kw_rows = dict(kind=kind, temperature_k=_rows(t, rows), r_source_ohm=_rows(r_source_ohm, rows),
+                       factors=f_rows)
+
         def on_rows(x):
-            return engine.operate(st, x, kind=kind, temperature_k=_rows(t, rows),
-                                  r_source_ohm=_rows(r_source_ohm, rows), factors=f_rows).movement_current_a
+            return engine.operate(st, x, start=_predicted(engine, key, x, kw_rows), **kw_rows).movement_current_a
 
         checked = rule.verify(on_rows, known=op.movement_current_a[rows])  # the rule's nodes: solved above
         if checked.refined:  # keep the refined nodes for every later request of this position
@@ -473,6 +475,44 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
             op = engine.operate(st, rule.points(), **kw)
     rule = _subset(rule, idx)
     return CycleOperating(engine, st, op, rule, values)
+
+
+def _at_reference(engine, kw) -> np.ndarray | None:
+    """Which rows of a request are at the reference temperature (bool (P,)), or None where its source
+    impedance differs between rows (a start model holds one)."""
+    if np.size(kw["r_source_ohm"]) != 1:
+        return None
+    p = _row_count(kw["temperature_k"], kw["r_source_ohm"], kw["factors"])
+    t = kw["temperature_k"]
+    if t is None:
+        return np.ones(p, dtype=bool)
+    return np.broadcast_to(np.asarray(t, dtype=float) == engine.spec.ambient.t_ref_k, (p,))
+
+
+def _predicted(engine, key, x, kw):
+    """Where the solver starts a request of the rule ``key`` at source values ``x``: the rows predicted by
+    the position's :class:`planner.cycle.starts.StartModel` (its sensitivity rows, else its nominal row),
+    or None (the solver's own start) where there is none, a row is off the reference temperature or ``x``
+    was not solved for the model."""
+    model = engine.__dict__.get("_cycle_starts", {}).get(key)
+    ref = _at_reference(engine, kw)
+    if model is None or ref is None or not ref.all():
+        return None
+    return model.predict(x, kw["factors"], ref.size)
+
+
+def _remember(engine, key, x, kw, op) -> None:
+    """Keep a solved batch's rows as the start model of the rule ``key`` where they make one (a nominal
+    row at the reference temperature; with the sensitivity rows, their dependences too), unless the one
+    kept knows the sensitivities and this one does not."""
+    rows = op.solution.start_rows
+    ref = _at_reference(engine, kw)
+    if rows is None or ref is None or not ref.any():
+        return
+    model = _cycle().StartModel.from_rows(x, kw["factors"], rows, nominal=ref)
+    cache = engine.__dict__.setdefault("_cycle_starts", {})
+    if model is not None and (model.sensitivities or key not in cache or not cache[key].sensitivities):
+        cache[key] = model
 
 
 def _row_count(temperature_k, r_source_ohm, factors) -> int:
@@ -496,7 +536,9 @@ def _checked_small(engine, st, key, rule, idx, values, kw) -> CycleOperating:
     y = rule.check_nodes()
     xk = rule.span * y
     n = rule.size
-    op = engine.operate(st, np.concatenate([rule.points(), xk]), **kw)
+    x = np.concatenate([rule.points(), xk])
+    op = engine.operate(st, x, start=_predicted(engine, key, x, kw), **kw)
+    _remember(engine, key, x, kw, op)
     q = op.movement_current_a
 
     def evaluate(x):
