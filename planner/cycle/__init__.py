@@ -28,10 +28,10 @@ from .prearc import (Onsets, PreArcing, joule_integral_sine, onsets_on_grid, pre
 from .rules import CycleRule, equal_rule, fixed_rule, gauss_kronrod, gauss_legendre
 from .shapes import DC, SHAPES, FlatTopMains, Impulse, OddHarmonics, Shape, Sine, Square, Triangle, shape_named
 from .shared import SharedRule, Target, adapt_shared
-from .starts import StartModel
+from .starts import SolvedPoints, StartModel
 
 __all__ = ["Shape", "DC", "Sine", "Square", "Triangle", "Impulse", "OddHarmonics", "FlatTopMains", "SHAPES",
            "shape_named", "CycleRule", "fixed_rule", "equal_rule", "gauss_legendre", "gauss_kronrod",
            "AdaptiveRule", "adapt", "extreme_rows", "PreArcing", "joule_integral_sine", "pre_arcing_time_sine",
            "pre_arcing_sine", "pre_arcing_on_grid", "Onsets", "onsets_on_grid", "window_integral", "Target", "SharedRule", "adapt_shared",
-           "StartModel"]
+           "StartModel", "SolvedPoints"]

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["StartModel"]
+__all__ = ["StartModel", "SolvedPoints"]
 
 
 class StartModel:
@@ -142,3 +142,146 @@ class StartModel:
             y = np.broadcast_to(y0, (rows, y0.shape[1]))
         y = y.reshape(rows * s, c)
         return np.ascontiguousarray(y[:, :self.split]), np.ascontiguousarray(y[:, self.split:])
+
+
+#: Parameter rows up to which a request without a usable sensitivity model is started row by row
+#: from the rows solved before (a larger one is left to the solver's own start).
+ROW_BY_ROW = 64
+
+
+def _signature(temperature: float, factors, p: int) -> tuple:
+    """A parameter row's identity: its temperature and the factors that move it."""
+    moved = []
+    for k, v in (factors or {}).items():
+        a = np.asarray(v, dtype=float).reshape(-1)
+        f = float(a[p] if a.size > 1 else a[0])
+        if f != 1.0:
+            moved.append((k, f))
+    return float(temperature), tuple(sorted(moved))
+
+
+class _Curve:
+    """The unknowns of one parameter row against the source value: solved points, merged and sorted."""
+
+    def __init__(self):
+        self.parts = []
+        self._merged = None
+
+    def add(self, x, y):
+        self.parts.append((np.asarray(x, dtype=float), y))
+        self._merged = None
+
+    def merged(self):
+        if self._merged is None:
+            x = np.concatenate([p[0] for p in self.parts])
+            y = np.concatenate([p[1] for p in self.parts])
+            xs, first = np.unique(x, return_index=True)
+            self._merged = (xs, y[first])
+        return self._merged
+
+    def at(self, x):
+        """Piecewise linear in the source value through the solved points (exact at them), straight on
+        beyond the ends along the last panel of at least 5 % of the solved range."""
+        xs, ys = self.merged()
+        x = np.asarray(x, dtype=float)
+        if xs.size == 1:
+            return np.broadcast_to(ys[0], (x.size, ys.shape[1])).copy()
+        i = np.clip(np.searchsorted(xs, x), 1, xs.size - 1)
+        lo, hi = i - 1, i.copy()
+        reach = 0.05 * (xs[-1] - xs[0])
+        below, above = x < xs[0], x > xs[-1]
+        if below.any():
+            lo[below], hi[below] = 0, min(int(np.searchsorted(xs, xs[0] + reach)), xs.size - 1)
+        if above.any():
+            lo[above], hi[above] = max(int(np.searchsorted(xs, xs[-1] - reach, side="right")) - 1, 0), xs.size - 1
+        x0, x1 = xs[lo], xs[hi]
+        t = ((x - x0) / np.where(x1 > x0, x1 - x0, 1.0))[:, None]
+        return ys[lo] * (1.0 - t) + ys[hi] * t
+
+
+class SolvedPoints:
+    """The operating points solved so far on one switch state, by parameter row, and the starts they give.
+
+    A position's check solves the same network many times: the rule's build (the nominal parts at
+    three temperatures, every part at its low and at its high extreme), the temperature rows, the
+    sensitivity rows, the builds, the extreme builds' check nodes, the other waveforms, an own
+    scale's grid. Each request is started from what was solved before: a row solved before, at
+    other source values, from the straight line between its two nearest solved values; a nominal
+    row at another temperature from the quadratic through the three nearest solved temperatures;
+    builds from the sensitivity rows (:class:`StartModel`). Where nothing was solved the solver
+    starts on its own.
+
+    Parameters
+    ----------
+    t_ref : float
+        The reference temperature [K] (the sensitivity rows' temperature).
+    """
+
+    def __init__(self, t_ref: float):
+        self.t_ref = float(t_ref)
+        self.curves: dict = {}
+        self.model: StartModel | None = None
+        self.split: int | None = None
+
+    def add(self, x, temperatures, factors, start_rows) -> None:
+        """Keep a solved request: source values (S,), per-row temperatures (P,) [K], factors, and the
+        solution's :attr:`planner.solve.Solution.start_rows`."""
+        if start_rows is None:
+            return
+        u, w = start_rows
+        x = np.asarray(x, dtype=float)
+        if self.split is not None and (self.split != u.shape[1] or self._width != u.shape[1] + w.shape[1]):
+            return  # another reduced form of the equations: keep the first
+        self.split, self._width = u.shape[1], u.shape[1] + w.shape[1]
+        p = u.shape[0] // x.size
+        y = np.concatenate([u, w], axis=1).reshape(p, x.size, -1)
+        temps = np.broadcast_to(np.asarray(temperatures, dtype=float), (p,))
+        if p <= ROW_BY_ROW:
+            for r in range(p):
+                self.curves.setdefault(_signature(temps[r], factors, r), _Curve()).add(x, y[r])
+        if factors:
+            model = StartModel.from_rows(x, factors, start_rows, nominal=temps == self.t_ref)
+            if model is not None and model.sensitivities:
+                self.model = model
+
+    def predict(self, x, temperatures, factors, rows: int):
+        """Start rows (node rows (P*S, T), part voltages (P*S, D)) for a request, or None."""
+        x = np.asarray(x, dtype=float)
+        temps = np.broadcast_to(np.asarray(temperatures, dtype=float), (rows,))
+        if factors and self.model is not None and np.all(temps == self.t_ref):
+            start = self.model.predict(x, factors, rows)
+            if start is not None:
+                return start
+        if rows > ROW_BY_ROW or self.split is None:
+            return None
+        out = np.empty((rows, x.size, self._width))
+        for r in range(rows):
+            y = self._row(x, _signature(temps[r], factors, r))
+            if y is None:
+                return None
+            out[r] = y
+        out = out.reshape(rows * x.size, -1)
+        return np.ascontiguousarray(out[:, :self.split]), np.ascontiguousarray(out[:, self.split:])
+
+    def _row(self, x, sig):
+        curve = self.curves.get(sig)
+        if curve is not None:
+            return curve.at(x)
+        t, moved = sig
+        nominal = sorted(k[0] for k in self.curves if not k[1])
+        if not nominal:
+            return None
+        if moved:  # a row never solved: the nominal one at its temperature
+            return self._row(x, (t, ()))
+        near = sorted(nominal, key=lambda q: abs(q - t))[:3]
+        if len(near) < 3:
+            return self.curves[(near[0], ())].at(x)
+        ys = [self.curves[(q, ())].at(x) for q in near]
+        out = np.zeros_like(ys[0])
+        for i, (qi, yi) in enumerate(zip(near, ys)):  # Lagrange through the three temperatures
+            li = 1.0
+            for j, qj in enumerate(near):
+                if j != i:
+                    li *= (t - qj) / (qi - qj)
+            out += li * yi
+        return out

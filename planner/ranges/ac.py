@@ -357,8 +357,8 @@ def _build(engine, st, pairs, kind, r0):
     temps, factors = _build_rows(engine)
 
     def nominal(x):
-        return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0,
-                              factors=factors).movement_current_a
+        return _operate(engine, st, x, dict(kind=kind, temperature_k=temps, r_source_ohm=r0,
+                                            factors=factors)).movement_current_a
 
     c = _cycle()
     targets = [c.Target(c.SHAPES[w], c.SHAPES[w].peak_of(v), w) for w, v in pairs]
@@ -452,7 +452,7 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
     if 1 < _row_count(temperature_k, r_source_ohm, factors) <= SMALL_BATCH and shape.atoms is None:
         return _checked_small(engine, st, key, rule, idx, values, kw)
-    op = engine.operate(st, rule.points(), start=_predicted(engine, key, rule.points(), kw), **kw)
+    op = _operate(engine, st, rule.points(), kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
@@ -467,52 +467,58 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
                        factors=f_rows)
 
         def on_rows(x):
-            return engine.operate(st, x, start=_predicted(engine, key, x, kw_rows), **kw_rows).movement_current_a
+            return _operate(engine, st, x, kw_rows).movement_current_a
 
         checked = rule.verify(on_rows, known=op.movement_current_a[rows])  # the rule's nodes: solved above
         if checked.refined:  # keep the refined nodes for every later request of this position
             engine.__dict__["_cycle_rules"][key] = rule = checked
-            op = engine.operate(st, rule.points(), **kw)
+            op = _operate(engine, st, rule.points(), kw)
     rule = _subset(rule, idx)
     return CycleOperating(engine, st, op, rule, values)
 
 
-def _at_reference(engine, kw) -> np.ndarray | None:
-    """Which rows of a request are at the reference temperature (bool (P,)), or None where its source
-    impedance differs between rows (a start model holds one)."""
-    if np.size(kw["r_source_ohm"]) != 1:
+def _solved(engine, st, kw):
+    """The operating points solved so far on a state with this source kind and source impedance
+    (:class:`planner.cycle.starts.SolvedPoints`), or None for per-row source impedances."""
+    r = np.asarray(kw["r_source_ohm"], dtype=float)
+    if r.size != 1:
         return None
-    p = _row_count(kw["temperature_k"], kw["r_source_ohm"], kw["factors"])
-    t = kw["temperature_k"]
-    if t is None:
-        return np.ones(p, dtype=bool)
-    return np.broadcast_to(np.asarray(t, dtype=float) == engine.spec.ambient.t_ref_k, (p,))
+    cache = engine.__dict__.setdefault("_cycle_points", {})
+    key = (st.name, st.closed, kw["kind"], float(r.reshape(-1)[0]))
+    if key not in cache:
+        cache[key] = _cycle().SolvedPoints(engine.spec.ambient.t_ref_k)
+    return cache[key]
 
 
-def _predicted(engine, key, x, kw):
-    """Where the solver starts a request of the rule ``key`` at source values ``x``: the rows predicted by
-    the position's :class:`planner.cycle.starts.StartModel` (its sensitivity rows, else its nominal row),
-    or None (the solver's own start) where there is none, a row is off the reference temperature or ``x``
-    was not solved for the model."""
-    model = engine.__dict__.get("_cycle_starts", {}).get(key)
-    ref = _at_reference(engine, kw)
-    if model is None or ref is None or not ref.all():
+def _temperatures(engine, kw):
+    t = kw.get("temperature_k")
+    return engine.spec.ambient.t_ref_k if t is None else t
+
+
+def _predicted(engine, st, x, kw):
+    """Where the solver starts a request at source values ``x`` (``kw``: its ``kind``, ``temperature_k``,
+    ``r_source_ohm``, ``factors``): predicted from what the state solved before, or None (the solver's
+    own start). The results do not depend on it."""
+    solved = _solved(engine, st, kw)
+    if solved is None:
         return None
-    return model.predict(x, kw["factors"], ref.size)
+    rows = _row_count(kw.get("temperature_k"), kw["r_source_ohm"], kw.get("factors"))
+    return solved.predict(x, _temperatures(engine, kw), kw.get("factors"), rows)
 
 
-def _remember(engine, key, x, kw, op) -> None:
-    """Keep a solved batch's rows as the start model of the rule ``key`` where they make one (a nominal
-    row at the reference temperature; with the sensitivity rows, their dependences too), unless the one
-    kept knows the sensitivities and this one does not."""
-    rows = op.solution.start_rows
-    ref = _at_reference(engine, kw)
-    if rows is None or ref is None or not ref.any():
-        return
-    model = _cycle().StartModel.from_rows(x, kw["factors"], rows, nominal=ref)
-    cache = engine.__dict__.setdefault("_cycle_starts", {})
-    if model is not None and (model.sensitivities or key not in cache or not cache[key].sensitivities):
-        cache[key] = model
+def _remember(engine, st, x, kw, op) -> None:
+    """Keep a solved request's operating points for the requests after it (:func:`_predicted`)."""
+    solved = _solved(engine, st, kw)
+    if solved is not None:
+        solved.add(x, _temperatures(engine, kw), kw.get("factors"), op.solution.start_rows)
+
+
+def _operate(engine, st, x, kw):
+    """``engine.operate`` of instantaneous source values, started from the state's solved points and
+    kept among them."""
+    op = engine.operate(st, x, start=_predicted(engine, st, x, kw), **kw)
+    _remember(engine, st, x, kw, op)
+    return op
 
 
 def _row_count(temperature_k, r_source_ohm, factors) -> int:
@@ -537,20 +543,19 @@ def _checked_small(engine, st, key, rule, idx, values, kw) -> CycleOperating:
     xk = rule.span * y
     n = rule.size
     x = np.concatenate([rule.points(), xk])
-    op = engine.operate(st, x, start=_predicted(engine, key, x, kw), **kw)
-    _remember(engine, key, x, kw, op)
+    op = _operate(engine, st, x, kw)
     q = op.movement_current_a
 
     def evaluate(x):
         x = np.asarray(x, dtype=float)
         if x.shape == xk.shape and np.array_equal(x, xk):
             return q[:, n:]  # solved above
-        return engine.operate(st, x, **kw).movement_current_a
+        return _operate(engine, st, x, kw).movement_current_a
 
     checked = rule.verify(evaluate, known=q[:, :n])
     if checked.refined:  # keep the refined nodes for every later request of this position
         engine.__dict__["_cycle_rules"][key] = checked
-        op = engine.operate(st, checked.points(), **kw)
+        op = _operate(engine, st, checked.points(), kw)
         return CycleOperating(engine, st, op, _subset(checked, idx), values)
     return CycleOperating(engine, st, op, _subset(checked.padded(y), idx), values)
 
@@ -579,7 +584,8 @@ def waveform_readings(engine, position: str, requests) -> list:
     c = _cycle()
     blocks = [_Blocks(c.SHAPES[name], np.atleast_1d(np.asarray(values, dtype=float))) for name, values in requests]
     points = [b.points() for b in blocks]
-    op = engine.operate(st, np.concatenate(points), kind=st.position.kind.source)
+    op = _operate(engine, st, np.concatenate(points), dict(kind=st.position.kind.source, temperature_k=None,
+                                                            r_source_ohm=0.0, factors=None))
     i_m = op.movement_current_a[0]
     out, lo = [], 0
     pos = st.position
@@ -613,7 +619,8 @@ def _nested_sine_means(engine, st, values):
     sine = c.SHAPES["sine"]
     fine = c.fixed_rule(sine, 3 * GRID_NODES, crests=False)
     peaks = np.array([sine.peak_of(v) for v in values], dtype=float)
-    op = engine.operate(st, (peaks[:, None] * fine.nodes[None, :]).ravel(), kind=st.position.kind.source)
+    op = _operate(engine, st, (peaks[:, None] * fine.nodes[None, :]).ravel(),
+                  dict(kind=st.position.kind.source, temperature_k=None, r_source_ohm=0.0, factors=None))
     q = op.movement_current_a[0].reshape(peaks.size, fine.nodes.size) / engine.spec.movement.i_fs_a
     hi, lo = q.mean(axis=1), q[:, 1::3].mean(axis=1)
     return hi if np.all(np.abs(hi - lo) <= GRID_AGREEMENT) else None
