@@ -89,7 +89,7 @@ class StartModel:
         base = np.nonzero(ok & ~moved.any(axis=0))[0]
         if not base.size:
             return None
-        y0 = y[base[0]]
+        y0 = y[base[0]].copy()  # not a view: the batch's rows are not kept
         coef, used = [], []
         for j, k in enumerate(keys):
             alone = np.nonzero(moved[j] & (moved.sum(axis=0) == 1))[0]
@@ -101,6 +101,8 @@ class StartModel:
             if not (np.isfinite(l1) and np.isfinite(l2)) or l1 == l2:
                 return None
             d1, d2 = y[alone[0]] - y0, y[alone[1]] - y0
+            if not (d1.any() or d2.any()):  # no dependence (the full-scale current): nothing to add
+                continue
             den = l1 * l2 * (l2 - l1)  # y - y0 = a l + b l^2 through (l1, d1) and (l2, d2)
             coef.append(((d1 * l2 * l2 - d2 * l1 * l1) / den).ravel())
             coef.append(((d2 * l1 - d1 * l2) / den).ravel())
@@ -127,21 +129,26 @@ class StartModel:
         idx = self.columns(x)
         if idx is None:
             return None
-        s, c = idx.size, self.y0.shape[1]
-        y0 = self.y0[idx].reshape(1, -1)
+        s, c, t = idx.size, self.y0.shape[1], self.split
+        ell = None
         if self.keys and factors:
-            coef = self.coef.reshape(self.coef.shape[0], self.x.size, c)[:, idx].reshape(self.coef.shape[0], -1)
-            ell = np.zeros((rows, coef.shape[0]))
+            ell = np.zeros((rows, self.coef.shape[0]))
             for j, k in enumerate(self.keys):
                 if k in factors:
                     lf = np.log(np.broadcast_to(np.asarray(factors[k], dtype=float), (rows,)))
                     ell[:, 2 * j] = lf
                     ell[:, 2 * j + 1] = lf * lf
-            y = ell @ coef + y0
-        else:
-            y = np.broadcast_to(y0, (rows, y0.shape[1]))
-        y = y.reshape(rows * s, c)
-        return np.ascontiguousarray(y[:, :self.split]), np.ascontiguousarray(y[:, self.split:])
+        coef = self.coef.reshape(self.coef.shape[0], self.x.size, c)[:, idx]
+        out = []
+        for cols in (slice(0, t), slice(t, c)):  # node rows and part voltages, each made in place
+            y0 = self.y0[idx, cols].reshape(1, -1)
+            if ell is None:
+                y = np.repeat(y0, rows, axis=0)
+            else:
+                y = ell @ coef[:, :, cols].reshape(coef.shape[0], -1)
+                y += y0
+            out.append(y.reshape(rows * s, -1))
+        return out[0], out[1]
 
 
 #: Parameter rows up to which a request without a usable sensitivity model is started row by row
@@ -177,6 +184,7 @@ class _Curve:
             y = np.concatenate([p[1] for p in self.parts])
             xs, first = np.unique(x, return_index=True)
             self._merged = (xs, y[first])
+            self.parts = [self._merged]  # held once
         return self._merged
 
     def at(self, x):
@@ -230,15 +238,16 @@ class SolvedPoints:
             return
         u, w = start_rows
         x = np.asarray(x, dtype=float)
+        p = u.shape[0] // max(x.size, 1)
+        if p > ROW_BY_ROW or not x.size:  # the builds: nothing a later request starts from
+            return
         if self.split is not None and (self.split != u.shape[1] or self._width != u.shape[1] + w.shape[1]):
             return  # another reduced form of the equations: keep the first
         self.split, self._width = u.shape[1], u.shape[1] + w.shape[1]
-        p = u.shape[0] // x.size
         y = np.concatenate([u, w], axis=1).reshape(p, x.size, -1)
         temps = np.broadcast_to(np.asarray(temperatures, dtype=float), (p,))
-        if p <= ROW_BY_ROW:
-            for r in range(p):
-                self.curves.setdefault(_signature(temps[r], factors, r), _Curve()).add(x, y[r])
+        for r in range(p):
+            self.curves.setdefault(_signature(temps[r], factors, r), _Curve()).add(x, y[r])
         if factors:
             model = StartModel.from_rows(x, factors, start_rows, nominal=temps == self.t_ref)
             if model is not None and model.sensitivities:

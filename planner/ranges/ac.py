@@ -479,13 +479,16 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
 
 def _solved(engine, st, kw):
     """The operating points solved so far on a state with this source kind and source impedance
-    (:class:`planner.cycle.starts.SolvedPoints`), or None for per-row source impedances."""
+    (:class:`planner.cycle.starts.SolvedPoints`), or None for per-row source impedances. Only the
+    latest position's are kept (a request of another position drops them)."""
     r = np.asarray(kw["r_source_ohm"], dtype=float)
     if r.size != 1:
         return None
     cache = engine.__dict__.setdefault("_cycle_points", {})
     key = (st.name, st.closed, kw["kind"], float(r.reshape(-1)[0]))
     if key not in cache:
+        for other in [k for k in cache if k[0] != st.name]:  # the analyses go position by position
+            del cache[other]
         cache[key] = _cycle().SolvedPoints(engine.spec.ambient.t_ref_k)
     return cache[key]
 
