@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["StartModel", "SolvedPoints"]
+__all__ = ["StartModel", "SolvedPoints", "Curve"]
 
 
 class StartModel:
@@ -167,7 +167,7 @@ def _signature(temperature: float, factors, p: int) -> tuple:
     return float(temperature), tuple(sorted(moved))
 
 
-class _Curve:
+class Curve:
     """The unknowns of one parameter row against the source value: solved points, merged and sorted."""
 
     def __init__(self):
@@ -247,7 +247,7 @@ class SolvedPoints:
         y = np.concatenate([u, w], axis=1).reshape(p, x.size, -1)
         temps = np.broadcast_to(np.asarray(temperatures, dtype=float), (p,))
         for r in range(p):
-            self.curves.setdefault(_signature(temps[r], factors, r), _Curve()).add(x, y[r])
+            self.curves.setdefault(_signature(temps[r], factors, r), Curve()).add(x, y[r])
         if factors:
             model = StartModel.from_rows(x, factors, start_rows, nominal=temps == self.t_ref)
             if model is not None and model.sensitivities:

@@ -162,7 +162,7 @@ class _RoundStarts:
         self.split = None
 
     def start(self, ks, asks, full_scales, nodes):
-        from ...cycle.starts import _Curve
+        from ...cycle.starts import Curve
 
         sine, rule = _rule(nodes)
         out = []
@@ -176,7 +176,7 @@ class _RoundStarts:
                 if x0.shape == x.shape and np.array_equal(x0, x):
                     out.append(row)
                 else:
-                    curve = _Curve()
+                    curve = Curve()
                     curve.add(x0, row)
                     out.append(curve.at(x))
         y = np.concatenate(out)
