@@ -264,15 +264,21 @@ class SolvedPoints:
         if rows > ROW_BY_ROW or self.split is None:
             return None
         out = np.empty((rows, x.size, self._width))
+        done: dict = {}  # rows made in this request, by signature (rows never solved share the nominal one)
         for r in range(rows):
-            y = self._row(x, _signature(temps[r], factors, r))
+            y = self._row(x, _signature(temps[r], factors, r), done)
             if y is None:
                 return None
             out[r] = y
         out = out.reshape(rows * x.size, -1)
         return np.ascontiguousarray(out[:, :self.split]), np.ascontiguousarray(out[:, self.split:])
 
-    def _row(self, x, sig):
+    def _row(self, x, sig, done):
+        if sig not in done:
+            done[sig] = self._make_row(x, sig, done)
+        return done[sig]
+
+    def _make_row(self, x, sig, done):
         curve = self.curves.get(sig)
         if curve is not None:
             return curve.at(x)
@@ -281,11 +287,11 @@ class SolvedPoints:
         if not nominal:
             return None
         if moved:  # a row never solved: the nominal one at its temperature
-            return self._row(x, (t, ()))
+            return self._row(x, (t, ()), done)
         near = sorted(nominal, key=lambda q: abs(q - t))[:3]
         if len(near) < 3:
             return self.curves[(near[0], ())].at(x)
-        ys = [self.curves[(q, ())].at(x) for q in near]
+        ys = [self._row(x, (q, ()), done) for q in near]
         out = np.zeros_like(ys[0])
         for i, (qi, yi) in enumerate(zip(near, ys)):  # Lagrange through the three temperatures
             li = 1.0
