@@ -445,8 +445,8 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         return CycleOperating(engine, st, op, _AtZero(values.size), values)
     if _single_row(temperature_k, r_source_ohm, factors) and not _cached(engine, st, shape, values):
         rule = _Blocks(shape, values)
-        op = engine.operate(st, rule.points(), kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm,
-                            factors=factors)
+        op = _operate(engine, st, rule.points(), dict(kind=kind, temperature_k=temperature_k,
+                                                      r_source_ohm=r_source_ohm, factors=factors))
         return CycleOperating(engine, st, op, rule, values)
     key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
