@@ -175,10 +175,12 @@ class Curve:
         self._merged = None
 
     def add(self, x, y):
+        """Solved source values ``x`` (S,) [V] or [A] and the unknowns there ``y`` (S, C) [V]."""
         self.parts.append((np.asarray(x, dtype=float), y))
         self._merged = None
 
     def merged(self):
+        """Every solved source value once, ascending, and its unknowns: ((N,), (N, C))."""
         if self._merged is None:
             x = np.concatenate([p[0] for p in self.parts])
             y = np.concatenate([p[1] for p in self.parts])
