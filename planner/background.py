@@ -16,11 +16,12 @@ as it would have in the parent.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import warnings
 from typing import Any, Callable
 
-__all__ = ["beside", "Claim", "Pending", "cores"]
+__all__ = ["beside", "Deal", "Pending", "cores"]
 
 
 def cores() -> int:
@@ -106,36 +107,58 @@ class Pending:
         self.cancel()  # the child never outlives the block, whatever ends it
 
 
-class Claim:
-    """A piece of work either side of :func:`beside` may do: the first to ask takes it.
+class Deal:
+    """Pieces of work both sides of :func:`beside` may do, each done once.
 
-    Made before :func:`beside` forks: a byte in memory shared with the child, set
-    under a lock (without ``fork`` there is no child, and a plain flag serves). The
-    dossier's scale plate is made by whichever process is free first: the parent
-    once its check is done, or the child once its matrix is.
+    Made before :func:`beside` forks: two counters in memory shared with the
+    child, moved under a lock (without ``fork`` there is no child, and plain
+    integers serve). The ``n`` pieces are numbered 0 to n - 1; one process takes
+    them from the front (:meth:`front`), the other from the back (:meth:`back`),
+    until they meet. The dossier deals its scale plate this way (one piece, made
+    by whichever process is free first) and the check's positions (the parent
+    checks from the first, the child from the last once its matrix is done).
+
+    Parameters
+    ----------
+    n : int
+        The number of pieces.
     """
 
-    def __init__(self):
+    def __init__(self, n: int):
         self._shared = None
-        self._taken = False
+        self._ends = [0, int(n)]  # the next piece from the front, one past the next from the back
         try:
             import multiprocessing
 
             if "fork" in multiprocessing.get_all_start_methods():
-                self._shared = multiprocessing.get_context("fork").Value("b", 0)
+                self._shared = multiprocessing.get_context("fork").Array("l", self._ends)
         except Exception:  # noqa: BLE001 - no shared memory: there will be no child either
             self._shared = None
 
-    def take(self) -> bool:
-        """True for the first caller (in this process or the other), False for every later one."""
-        if self._shared is None:
-            first, self._taken = not self._taken, True
-            return first
-        with self._shared.get_lock():
-            if self._shared.value:
-                return False
-            self._shared.value = 1
-            return True
+    def _take(self, end: int) -> int | None:
+        ends = self._ends if self._shared is None else self._shared
+        lock = self._shared.get_lock() if self._shared is not None else contextlib.nullcontext()
+        with lock:
+            if ends[0] >= ends[1]:
+                return None
+            if end == 0:
+                ends[0] += 1
+                return ends[0] - 1
+            ends[1] -= 1
+            return ends[1]
+
+    def front(self) -> int | None:
+        """The lowest piece nobody has taken, now taken by the caller; None when none is left."""
+        return self._take(0)
+
+    def back(self) -> int | None:
+        """The highest piece nobody has taken, now taken by the caller; None when none is left."""
+        return self._take(1)
+
+    def close(self) -> None:
+        """Take every piece left, so that neither side starts another."""
+        while self._take(1) is not None:
+            pass
 
 
 def _child(fn, on_error, send, recv=None) -> None:

@@ -7,7 +7,7 @@ import sys
 
 import pytest
 
-from planner.background import Claim, beside, cores
+from planner.background import Deal, beside, cores
 
 fork_only = pytest.mark.skipif(sys.platform == "win32", reason="no fork start method")
 
@@ -82,12 +82,36 @@ def test_cores_counts_at_least_one():
 
 
 @pytest.mark.parametrize("parallel", [True, False])
-def test_a_claim_goes_to_one_process_only(parallel):
-    """Of the parent and its child, exactly one takes a claim, whichever asks first."""
-    claim = Claim()
-    with beside(claim.take, str, parallel=parallel) as pending:
-        mine = claim.take()
+def test_a_single_piece_goes_to_one_process_only(parallel):
+    """Of the parent and its child, exactly one takes a one-piece deal, whichever asks first."""
+    deal = Deal(1)
+    with beside(deal.back, str, parallel=parallel) as pending:
+        mine = deal.front()
         theirs, error = pending.result()
     assert error is None
-    assert [mine, theirs].count(True) == 1
-    assert claim.take() is False  # and nobody after them
+    assert sorted([mine, theirs], key=lambda x: x is None) == [0, None]
+    assert deal.front() is None and deal.back() is None  # and nobody after them
+
+
+@pytest.mark.parametrize("parallel", [True, False])
+def test_every_piece_is_dealt_once_from_both_ends(parallel):
+    """The parent takes from the front, the child from the back, until they meet: each piece once."""
+    deal = Deal(40)
+
+    def theirs():
+        return [i for i in iter(deal.back, None)]
+
+    with beside(theirs, str, parallel=parallel) as pending:
+        mine = [i for i in iter(deal.front, None)]
+        got, error = pending.result()
+    assert error is None
+    assert sorted(mine + got) == list(range(40))
+    assert mine == sorted(mine) and got == sorted(got, reverse=True)
+    assert not mine or not got or max(mine) < min(got)
+
+
+def test_a_closed_deal_gives_nothing_more():
+    deal = Deal(5)
+    assert deal.front() == 0 and deal.back() == 4
+    deal.close()
+    assert deal.front() is None and deal.back() is None

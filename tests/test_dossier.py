@@ -224,6 +224,35 @@ def test_the_matrix_beside_the_check_gives_the_same_dossier_context():
     assert_same_json(beside.check, after.check)
 
 
+def test_positions_checked_by_the_second_core_give_the_same_check(monkeypatch):
+    """The second core, its matrix done, checks positions from the last while this process checks them
+    from the first: the check is the same, bit for bit, as the check done in one process. The matrix
+    is made instant and this process slow, so that the second core surely takes some positions."""
+    import time
+
+    from jsontree import assert_same_json
+
+    import planner.faults
+    from planner.design import build
+    from planner.dossier import gather
+
+    design = build(load(ROOT / "projects" / "bench_multimeter.yaml"))
+    monkeypatch.setattr(planner.faults, "faults_project", lambda design, parallel=None: {"positions": []})
+    here = []
+
+    def slow(message):
+        if message.endswith("nominal, linearity, temperature"):
+            here.append(message)
+            time.sleep(0.5)
+
+    beside = gather(design, samples=50, parallel=True, progress=slow)
+    n_here = len(here)
+    after = gather(design, samples=50, parallel=False)
+    assert beside.errors == after.errors == {}
+    assert 0 < n_here < len(design.net.positions)  # some positions were checked on the second core
+    assert_same_json(beside.check, after.check)
+
+
 def test_the_plate_made_beside_the_check_is_the_one_made_here():
     """The scale plate, made after the matrix in its child, equals the plate made in this process; a
     plate that raises there is made again here, so that its exception is raised as without a child."""

@@ -31,7 +31,7 @@ Carlo draws, worst case), :mod:`.position` (the analyses of one position),
 :mod:`.check` (the whole instrument) and :mod:`.report` (the terminal table).
 """
 
-from .check import MAX_SAMPLES, check, check_project
+from .check import MAX_SAMPLES, check, check_positions, check_project
 from .classes import BUDGET_RULE, TEMPERATURE_SHARE_PER_10K, class_figures, variation_per_10k_pct
 from .position import LINEARITY_FRACTIONS, MIN_TEMPERATURE_POINTS, PERCENTILES, temperature_points
 from .report import format_check
@@ -40,7 +40,7 @@ from .tolerances import (
     MAX_CORNER_PARAMETERS, VERIFY_CORNERS, CountingEngine, current_carrying, draw_factors, parameters, worst_case,
 )
 
-__all__ = ["check", "check_project", "format_check", "CheckResult", "PositionArrays", "parameters",
+__all__ = ["check", "check_positions", "check_project", "format_check", "CheckResult", "PositionArrays", "parameters",
            "current_carrying", "draw_factors", "worst_case", "temperature_points", "class_figures",
            "CountingEngine", "LINEARITY_FRACTIONS", "MAX_CORNER_PARAMETERS", "MAX_SAMPLES",
            "MIN_TEMPERATURE_POINTS", "PERCENTILES", "VERIFY_CORNERS", "BUDGET_RULE",

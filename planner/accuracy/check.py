@@ -8,6 +8,7 @@ the JSON object of ``planner check`` and the arrays behind it.
 
 from __future__ import annotations
 
+import itertools
 import math
 from typing import Callable
 
@@ -50,7 +51,7 @@ def _assert_finite(obj, where="result"):
 
 def check(design: Design | Spec, *, samples: int | None = None, seed: int | None = None,
           source_impedance_ohm: float | None = None,
-          progress: Callable[[str], None] | None = None) -> CheckResult:
+          progress: Callable[[str], None] | None = None, share=None) -> CheckResult:
     """The accuracy proof of every switch position of a project.
 
     Parameters
@@ -67,6 +68,13 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
         [ohm]; no loading analysis when None.
     progress : callable(str), optional
         Receives a short message before each analysis.
+    share : optional
+        The positions shared with another process (the dossier's second core):
+        ``share.take()`` gives the index of the next position this process
+        checks (None when there is none left), ``share.rest()`` the positions
+        the other process checked (:func:`check_positions`). A position taken
+        there but not answered is checked here. The result is the same as
+        without sharing.
 
     Returns
     -------
@@ -126,11 +134,18 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     run = CountingEngine(engine)
     params = parameters(engine)
     mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))
+    n = len(engine.positions)
+    args = (params, mc_factors, int(samples), int(seed), source_impedance_ohm)
+    done = _positions(run, spec, iter(range(n)) if share is None else iter(share.take, None), args, say)
+    if share is not None:  # the positions checked elsewhere, and any taken there but not answered
+        for i, (res, ok, arr, points, calls) in share.rest().items():
+            done.setdefault(i, (res, ok, arr))
+            run.points += points
+            run.calls += calls
+        done.update(_positions(run, spec, (i for i in range(n) if i not in done), args, say))
     positions, oks, arrays = [], [], {}
     for i, pos in enumerate(engine.positions):
-        rng_corners = np.random.default_rng([int(seed), i])
-        checker = POSITION_CHECKS.get(pos.measures, check_position)
-        res, ok, arr = checker(run, spec, pos, params, mc_factors, int(samples), rng_corners, source_impedance_ohm, say)
+        res, ok, arr = done[i]
         positions.append(res)
         oks.append(ok)
         arrays[pos.name] = arr
@@ -166,6 +181,64 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     result["findings"] = design_findings(design, engine)  # ratings at full scale (planner.findings)
     _assert_finite(result)
     return CheckResult(json=result, positions=arrays, parameters=params, factors=mc_factors)
+
+
+def _positions(run: CountingEngine, spec, indices, args, say) -> dict[int, tuple]:
+    """``{index: (row, within-class mask, arrays)}`` of the positions ``indices`` gives, in its order.
+
+    Each position's corner draws come from its own generator (the seed and the
+    position's index), so a position's answer does not depend on which others
+    were checked before it, nor in which process.
+    """
+    params, mc_factors, samples, seed, source_impedance_ohm = args
+    done = {}
+    for i in indices:
+        pos = run.engine.positions[i]
+        checker = POSITION_CHECKS.get(pos.measures, check_position)
+        done[i] = checker(run, spec, pos, params, mc_factors, samples, np.random.default_rng([seed, i]),
+                          source_impedance_ohm, say)
+    return done
+
+
+def check_positions(design: Design | Spec, take: Callable[[], int | None], *, samples: int, seed: int,
+                    source_impedance_ohm: float | None = None) -> dict[int, tuple]:
+    """Check the positions ``take()`` hands out, one at a time, for another process's :func:`check`.
+
+    Parameters
+    ----------
+    design : Design
+    take : callable() -> int or None
+        The index of the next position to check; None ends the work.
+    samples, seed : int
+        Those of the check this work is part of (checked there).
+    source_impedance_ohm : float, optional
+        As in :func:`check`.
+
+    Returns
+    -------
+    dict
+        ``{index: (row, within-class mask, arrays, operating points, solver calls)}``
+        for every position checked. The work stops at the first position that
+        raises, without an answer for it: the process that owns the check checks
+        it again, and raises there.
+    """
+    out = {}
+    i = take()
+    if i is None:  # nothing left: no engine built
+        return out
+    design = as_design(design)
+    run = CountingEngine(Engine(design))
+    params = parameters(run.engine)
+    mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))
+    args = (params, mc_factors, int(samples), int(seed), source_impedance_ohm)
+    for i in itertools.chain([i], iter(take, None)):
+        points, calls = run.points, run.calls
+        try:
+            res, ok, arr = _positions(run, design.spec, [i], args, lambda message: None)[i]
+        except Exception:  # noqa: BLE001 - checked again by the owner of the check, which raises it
+            break
+        out[i] = (res, ok, arr, run.points - points, run.calls - calls)
+    return out
 
 
 #: Checks of the range kinds that are not read on a linear scale, by ``measures``.

@@ -37,7 +37,7 @@ from typing import Callable
 from ..design import Design, as_design
 from ..errors import PlannerError, UsageError
 from .. import accuracy, faults
-from ..background import Claim, beside
+from ..background import Deal, beside
 from ..sizing import sizing_json
 from ..wiring import choose_style, wire_switch
 
@@ -58,7 +58,30 @@ _DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
 
 class _NotMade:
-    """Stands for a plate that raised in the matrix's process (made again in this one)."""
+    """Stands for a plate that raised: in the second core's process (made again in this one), or in
+    this one while it waited (``raised``: raised again once the check is done)."""
+
+    def __init__(self, raised: BaseException | None = None):
+        self.raised = raised
+
+
+class _Share:
+    """The check's positions shared with the second core (``share`` of :func:`planner.accuracy.check`).
+
+    ``idle()`` is called once this process has no position left, before it waits
+    for the second core's (it makes the scale plate there if still free).
+    """
+
+    def __init__(self, deal: Deal, pending, idle: Callable[[], None]):
+        self.take = deal.front
+        self._pending = pending
+        self._idle = idle
+
+    def rest(self) -> dict:
+        """The positions the second core checked (none where its work failed: they are checked here)."""
+        self._idle()
+        got, error = self._pending.result()
+        return got[2] if error is None else {}
 
 
 def _error_text(exc: BaseException) -> str:
@@ -104,12 +127,15 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     parallel : bool, optional
         Run the misrange matrix in a child process beside the check (True), in
         this process after it (False), or the first where a second core allows
-        it (None, :func:`planner.background.beside`). The results are the same.
+        it (None, :func:`planner.background.beside`). The second core, its
+        matrix done, checks positions from the last while this process checks
+        them from the first (:class:`planner.background.Deal`). The results are
+        the same.
     plate : callable, optional
         Makes the scale plate (the command's own: the plate, or its error text);
-        called once, by whichever process is free first: this one once the check
-        is done, or the one that computes the matrix (the second core's) once the
-        matrix is. Its result is ``ctx.plate``. Where it raises in the other
+        called once, by whichever process is free first: this one once its share
+        of the check's positions is done, or the one that computes the matrix
+        (the second core's) once the matrix is. Its result is ``ctx.plate``. Where it raises in the other
         process, it is called again here, so that what it raises is raised as it
         would be without a second process.
 
@@ -125,24 +151,38 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
     text, source = _date(spec, date)
     sha = hashlib.sha256(spec.text.encode("utf-8")).hexdigest() if spec.text is not None else None
     # the misrange matrix on a second core while this one runs the check (the same answer, computed
-    # here when there is no second core); the scale plate by whichever process is free first
-    plate_claim = Claim() if plate is not None else None
+    # here when there is no second core); then the scale plate by whichever process is free first, and
+    # the check's last positions by the second core once its matrix is done (planner.background.Deal)
+    plate_deal = Deal(1) if plate is not None else None
+    n_samples = int(spec.analysis.samples if samples is None else samples)
+    n_seed = int(spec.analysis.seed if seed is None else seed)
+    positions = Deal(len(design.net.positions) if design.net is not None else 0)
 
-    def matrix_and_plate():
-        found = faults.faults_project(design, parallel=parallel)
-        if plate_claim is None or not plate_claim.take():
-            return found, None
+    def plate_if_free(end: str):
+        """The plate, if this process is the first to ask; an exception is kept, to be raised in this one."""
+        if plate_deal is None or getattr(plate_deal, end)() is None:
+            return None
         try:
-            return found, plate()
-        except Exception:  # noqa: BLE001 - made again where the result is taken, and raised there
-            return found, _NotMade()
+            return plate()
+        except Exception as exc:  # noqa: BLE001 - raised in this process once the check is done
+            return _NotMade(exc if end == "front" else None)
 
-    with beside(matrix_and_plate, _error_text, parallel=parallel) as matrix:
+    def matrix_plate_positions():
+        found = faults.faults_project(design, parallel=parallel)
+        made = plate_if_free("back")
+        checked = accuracy.check_positions(design, positions.back, samples=n_samples, seed=n_seed)
+        return found, made, checked
+
+    here = []  # the plate, when made in this process
+
+    def idle():
+        here.append(plate_if_free("front"))
+
+    with beside(matrix_plate_positions, _error_text, parallel=parallel) as beside_work:
         from .sections import Context  # the layout's import, made while the matrix runs
 
         ctx = Context(spec=spec, date=text, version=__version__, sha256=sha, date_source=source,
-                      samples=int(spec.analysis.samples if samples is None else samples),
-                      seed=int(spec.analysis.seed if seed is None else seed))
+                      samples=n_samples, seed=n_seed)
         ctx.net = design.net
         if design.sizing is not None:
             ctx.sizing = sizing_json(design.sizing)
@@ -150,18 +190,23 @@ def gather(design, *, date=None, samples: int | None = None, seed: int | None = 
         say("dossier: accuracy check")
         try:
             ctx.accuracy = accuracy.check(design, samples=ctx.samples, seed=ctx.seed,
-                                          progress=(lambda m: say(f"dossier: check {m}")))
+                                          progress=(lambda m: say(f"dossier: check {m}")),
+                                          share=_Share(positions, beside_work, idle))
             ctx.check = ctx.accuracy.json
         except Exception as exc:  # noqa: BLE001 - shown in the dossier
+            positions.close()  # the second core starts no further position
             ctx.errors["check"] = _error_text(exc)
-        if plate_claim is not None and plate_claim.take():  # not taken by the child: its matrix is not done
-            ctx.plate = plate()
+        if not here:
+            idle()
         say("dossier: misrange faults")
-        found, error = matrix.result()
-    ctx.faults, made = found if error is None else (None, None)
+        got, error = beside_work.result()
+    ctx.faults, made = (got[0], got[1]) if error is None else (None, None)
     if error is not None:
         ctx.errors["faults"] = error
-    if plate is not None and ctx.plate is None:  # made beside, or (raised or lost there) made here
+    if plate is not None:  # made here or beside; made (again) here where it raised or was lost
+        made = here[0] if here[0] is not None else made
+        if isinstance(made, _NotMade) and made.raised is not None:
+            raise made.raised
         ctx.plate = plate() if made is None or isinstance(made, _NotMade) else made
     if design.net is not None:  # the switch wiring: pure, computed here so the sections only draw it
         style, source = choose_style(design.net.contact_style, (ctx.faults or {}).get("contact_style_needed"))

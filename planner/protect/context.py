@@ -130,6 +130,8 @@ class SearchContext:
         #: readings at the hottest ambient without clamps: of the base network, and by resistor values
         self.bare_base = None
         self.bare_cache = {}
+        #: of networks judged for feasibility alone: by resistor values, (engine, readings of the positions solved)
+        self.bare_some = {}
 
     def _prepare_base(self, design: Design) -> None:
         """The network as given, its clamp diodes, and the base network without them."""

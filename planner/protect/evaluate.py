@@ -179,17 +179,40 @@ def bare_readings(ctx: SearchContext, topo: Topology) -> dict:
         topo.bare = ctx.bare_base
     else:
         if topo.bare_key not in ctx.bare_cache:
-            net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
-            ctx.bare_cache[topo.bare_key] = _readings(ctx, net)
+            ctx.bare_cache[topo.bare_key] = {p.name: bare_reading(ctx, topo, p.name) for p in ctx.positions}
+            ctx.bare_some.pop(topo.bare_key, None)
         topo.bare = ctx.bare_cache[topo.bare_key]
     return topo.bare
+
+
+def bare_reading(ctx: SearchContext, topo: Topology, name: str) -> np.ndarray:
+    """One position's readings of :func:`bare_readings` (10,), solving that position alone when it is new.
+
+    A placement judged for feasibility alone (:func:`feasible_alone`) mostly fails at
+    its first position: the other positions' readings without clamps are not needed.
+    """
+    if topo.bare is not None or topo.bare_key is None or topo.bare_key in ctx.bare_cache:
+        return bare_readings(ctx, topo)[name]
+    got = ctx.bare_some.get(topo.bare_key)
+    if got is None:
+        net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+        got = ctx.bare_some[topo.bare_key] = (Engine(ctx.design.variant(net)), {})
+    eng, readings = got
+    if name not in readings:
+        p = next(q for q in ctx.positions if q.name == name)
+        readings[name] = _reading(ctx, eng, p)
+    return readings[name]
 
 
 def _readings(ctx: SearchContext, net: NetworkSpec) -> dict:
     """Readings of a network at the linearity points at the hottest ambient, per position."""
     eng = Engine(ctx.design.variant(net))
-    return {p.name: eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot).reading()[0]
-            for p in ctx.positions}
+    return {p.name: _reading(ctx, eng, p) for p in ctx.positions}
+
+
+def _reading(ctx: SearchContext, eng: Engine, p) -> np.ndarray:
+    """One position's readings at the linearity points at the hottest ambient (10,)."""
+    return eng.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot).reading()[0]
 
 
 # --- running a batch ----------------------------------------------------------------------------
@@ -355,9 +378,6 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
         rank.setdefault(name, len(rank))
     order = sorted(ctx.positions, key=lambda q: rank.get(q.name, len(rank)))
     try:
-        if topo.carrying is None:
-            topo.carrying = {q.name: current_carrying(topo.engine, q.name) for q in ctx.positions}
-        bare = bare_readings(ctx, topo)
         for p in order:
             key = (p.name, n_phase)
             if key in topo.static:
@@ -365,7 +385,9 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
             else:
                 # the stimulus group that overstressed a clamp diode here last time is solved first: a diode
                 # beyond its rating makes the position fail whatever the other groups give
-                r = _position(ctx, topo, p, None, 1, n_phase, np.atleast_2d(bare[p.name])[:1],
+                # (its readings without clamps are solved only when no group overstresses a clamp diode)
+                r = _position(ctx, topo, p, None, 1, n_phase,
+                              lambda name=p.name: np.atleast_2d(bare_reading(ctx, topo, name))[:1],
                               stop_over=ctx.failed_stimulus.get(p.name, ""))
                 if isinstance(r, str):
                     ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
@@ -386,7 +408,8 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
               stop_over: str | None = None) -> dict | str:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
-    With ``stop_over`` (one row): the stimulus groups are solved the one holding
+    ``bare``: the readings without clamps (rows x 10), or a callable that gives them
+    when they are needed. With ``stop_over`` (one row): the stimulus groups are solved the one holding
     that stimulus first, and as soon as a group puts a clamp diode beyond its
     rating the name of the stimulus that does is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
@@ -429,7 +452,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         mult, cur, vol, width = solved[g]
         _record_multiples(out, p, group, mult.reshape(rows, len(group), width), rows)
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
-    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare, hot_mult)
+    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare() if callable(bare) else bare, hot_mult)
     return out
 
 

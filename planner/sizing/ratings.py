@@ -9,6 +9,7 @@ without an Engine: the sizer never builds one. The rules are in
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 import math
 from dataclasses import dataclass, field
@@ -68,6 +69,7 @@ class LinearNetwork:
         self._nets: dict[tuple, NetworkSpec] = {}
         self._cases: dict[tuple, tuple | None] = {}  # (shorted, position) -> what every solve of it reuses
         self.last_input_v = 0.0  # the input terminals' voltage of the last solve [V]
+        self._ahead: dict[tuple, tuple] = {}  # (shorted, position, value) -> what solve_ahead found
 
     def _net(self, shorted) -> NetworkSpec:
         key = tuple(shorted)
@@ -87,24 +89,64 @@ class LinearNetwork:
             The source at the input [V] or [A], as the position's kind drives it.
         shorted : sequence of str
             Nodes joined to common for this case.
+
+        Notes
+        -----
+        A value solved ahead by :meth:`solve_ahead` is taken from there.
         """
-        case = self._case(tuple(shorted), pos.name)
+        got = self._ahead.get((tuple(shorted), pos.name, float(value)))
+        if got is not None:
+            out, self.last_input_v = got
+            return dict(out)
+        got = self._solve_values(tuple(shorted), pos.name, [float(value)])
+        if got is None:
+            return None
+        out, self.last_input_v = got[0]
+        return out
+
+    def solve_ahead(self, requests) -> None:
+        """Solve many (position, value, shorted nodes) cases, each circuit once for all its values.
+
+        Every case of one position with the same nodes shorted is the same linear
+        circuit at another input value: its values go to the solver as the columns
+        of one stimulus (the same equations, one factorisation). :meth:`solve` then
+        answers them from here. A circuit the solver refuses is left to
+        :meth:`solve`, value by value, as without this step.
+        """
+        groups: dict[tuple, list[float]] = {}
+        for pos, value, shorted in requests:
+            vals = groups.setdefault((tuple(shorted), pos.name), [])
+            if float(value) not in vals:
+                vals.append(float(value))
+        for (shorted, name), vals in groups.items():
+            got = self._solve_values(shorted, name, vals)
+            if got is not None:
+                for v, answer in zip(vals, got):
+                    self._ahead[(shorted, name, v)] = answer
+
+    def _solve_values(self, shorted: tuple, position: str, values: list[float]):
+        """(voltages by element, input voltage) for each value of one case; None when it does not solve."""
+        case = self._case(shorted, position)
         if case is None:
             return None
         c, r, z, emf, pins = case
         try:
-            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array([float(value)]), emf=emf)
+            sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array(values), emf=emf)
         except SolveError:
             return None
-        zero = np.zeros((1, 1))
+        nodes = {}
+        zero = np.zeros(len(values))
+        for _, a, b in pins:
+            for i in (a, b):
+                if i is not None and i not in nodes:
+                    nodes[i] = sol.node_voltage(i)[0]
 
         def v(i):
-            return zero if i is None else sol.node_voltage(i)
+            return zero if i is None else nodes[i]
 
-        out = {name: float((v(a) - v(b))[0, 0]) for name, a, b in pins[:-1]}
-        _, a, b = pins[-1]
-        self.last_input_v = float((v(a) - v(b))[0, 0])  # the input terminals' voltage of the last solve [V]
-        return out
+        dv = np.array([v(a) - v(b) for _, a, b in pins])  # (pins, values)
+        names = [name for name, _, _ in pins[:-1]]
+        return [(dict(zip(names, dv[:-1, k].tolist())), float(dv[-1, k])) for k in range(len(values))]
 
     def _case(self, shorted: tuple, position: str):
         """The compiled state, branch resistances, EMFs and node indices of one (shorted, position) case.
@@ -226,7 +268,59 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     I_m / I_fs - 1 at full scale, I_m = V_M1 / R_m. On an AC position the value is
     the rms of a sine: the power is the rms one, the voltage its peak
     (:math:`\\sqrt 2 V_{rms}`), as :func:`planner.findings.design_findings` judges it.
+
+    On a network without AC positions the figures are those of its linear part
+    alone (the diodes are left out), so two networks that differ in their diodes
+    only (a clamp request's models, directions or counts) share them: they are
+    kept by what they are computed from (:func:`_stress_key`) and a copy given
+    again.
     """
+    key = _stress_key(spec, layout, net, seg_parts, errors)
+    if key is None:
+        return _stresses(spec, layout, net, seg_parts, errors)
+    got = _STRESSES.get(key[0])
+    if got is None:
+        if len(_STRESSES) >= STRESSES_KEEP:
+            _STRESSES.clear()
+        got = _STRESSES[key[0]] = (_stresses(spec, layout, net, seg_parts, errors), key[1])
+    return _copy_stress(got[0])
+
+
+#: Stresses kept by what they are computed from (:func:`stresses`); cleared when it holds this many.
+STRESSES_KEEP = 64
+_STRESSES: dict = {}
+
+
+def _stress_key(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts, errors: bool):
+    """(key, what it refers to) of what :func:`_stresses` reads; None when the diodes take part.
+
+    The spec's fields but its clamp requests (by identity: the key holds them, so
+    no other object can take their place while it is kept), the network's linear
+    elements and positions, the layout's positions, clamp nodes and crowbars (the
+    rating cases), the parts of each segment, and whether errors are asked. A
+    network with an AC position is left out: its rectifier's diodes (and the
+    clamps', through the rectifier solve of its nominal error) take part.
+    """
+    if any(p.kind.waveform != "dc" for p in tuple(net.positions) + tuple(layout.positions)):
+        return None
+    held = tuple(getattr(spec, f.name) for f in dataclasses.fields(spec) if f.name != "clamps")
+    key = (tuple(map(id, held)),
+           tuple(e for e in net.elements if e.stamp not in ("junction", "varistor")), tuple(net.positions),
+           tuple(layout.positions), tuple(layout.clamp_nodes),
+           tuple((node, tuple(served), float(v)) for node, served, v in layout.crowbars),
+           tuple(tuple(tuple(row) for row in parts) for parts in seg_parts), bool(errors))
+    return key, held
+
+
+def _copy_stress(st: Stress) -> Stress:
+    """A copy of a Stress whose containers can be changed without changing the original."""
+    return Stress(dict(st.v), dict(st.p), dict(st.v_fs), dict(st.p_fs), list(st.seg_v), list(st.seg_p),
+                  list(st.seg_v_fs), list(st.seg_p_fs), list(st.seg_case), dict(st.errors))
+
+
+def _stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[PartRow]],
+              errors: bool) -> Stress:
+    """:func:`stresses`, computed."""
     lin = LinearNetwork(spec, net)
     ladder = rating_ladder(spec)
     pulses = ladder_pulses(spec, ladder)
@@ -238,7 +332,10 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
     values = {e.name: e.value_ohm for e in net.elements if isinstance(e, Resistor)}
     m = spec.movement
     vmax = spec.faults.max_input_v
-    for label, pos, value, shorted, fs in rating_cases(spec, layout):
+    cases, impulses = rating_cases(spec, layout), impulse_cases(spec, layout)
+    lin.solve_ahead([(pos, value, shorted) for _, pos, value, shorted, _ in cases] +
+                    [(pos, value, shorted) for _, pos, value, shorted in impulses])
+    for label, pos, value, shorted, fs in cases:
         dv = lin.solve(pos, value, shorted)
         if dv is None:
             continue
@@ -272,7 +369,7 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
                 "" if t_act is None else f" (until the protection acts, {t_act:.3g} s)")
             _add_parts(st, dv, values, False, powers)
             _add_segments(st, dv, seg_parts, mlabel, False, powers)
-    for label, pos, value, shorted in impulse_cases(spec, layout):  # peak voltage only: no heating
+    for label, pos, value, shorted in impulses:  # peak voltage only: no heating
         dv = lin.solve(pos, value, shorted)
         if dv is not None:
             zero = {n: 0.0 for n in values}
