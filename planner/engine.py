@@ -278,7 +278,7 @@ class Engine:
     def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
                 r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None,
                 settings: Mapping[str, np.ndarray] | None = None, emf=None,
-                waveform: str | None = None) -> Operating:
+                waveform: str | None = None, start=None) -> Operating:
         """Solve one switch state for a batch of stimuli and parameter sets.
 
         Parameters
@@ -309,6 +309,9 @@ class Engine:
             its range kind reads (``sine`` on AC ranges: a
             :class:`planner.ranges.ac.CycleOperating` comes back), and a stimulus
             of a given ``kind`` is instantaneous values.
+        start : tuple of ndarray, optional
+            Where Newton starts every case of an instantaneous solve (``start`` of
+            :func:`planner.solve.solve`); the results do not depend on it.
 
         Returns
         -------
@@ -330,7 +333,8 @@ class Engine:
         jn = self.junctions(circuit, t, factors)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
         emfs = self.emfs(circuit, emf)
-        start = self._start(circuit, stim, r, jn, emfs) if self.warm else None
+        if start is None and self.warm:
+            start = self._start(circuit, stim, r, jn, emfs)
         sol = solve(circuit, r, jn, stim, emf=emfs, varistors=self.varistors(circuit), start=start)
         if self.warm and sol.start_rows is not None:
             self._last[id(circuit)] = (circuit, np.broadcast_to(np.atleast_2d(stim), sol.shape), sol)

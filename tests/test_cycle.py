@@ -122,6 +122,25 @@ def test_equal_rule_of_a_sine_folds_by_symmetry():
     np.testing.assert_allclose(r.weights.sum(), 1.0, rtol=1e-15)
 
 
+@pytest.mark.parametrize("n", [101, 333, 1024])
+def test_gauss_legendre_of_many_points_against_scipy(n):
+    """Above 100 points (Newton's method on the recurrence): the nodes scipy's ``roots_legendre`` gives to
+    round-off, and the integral of e^x over [-1, 1], e - 1/e [calc], to round-off (the weights' check).
+
+    Source: scipy.special.roots_legendre (a general reference library); the integral in closed form.
+    """
+    from scipy.special import roots_legendre
+
+    from planner.cycle.rules import gauss_legendre
+
+    x, w = gauss_legendre(n)
+    ref, ref_w = roots_legendre(n)
+    np.testing.assert_allclose(x, ref, rtol=0, atol=4e-16)  # nodes: round-off of numbers below 1
+    np.testing.assert_allclose(w, ref_w, rtol=1e-8)  # scipy's own weights hold about 1e-9 relative at 1024
+    np.testing.assert_allclose(np.sum(w * np.exp(x)), math.e - 1 / math.e, rtol=0, atol=4e-15)
+    np.testing.assert_allclose(np.sum(w * x ** 2), 2 / 3, rtol=0, atol=4e-15)  # [calc]
+
+
 def test_gauss_kronrod_15_exactness():
     # G7-K15 (Kronrod 1965; QUADPACK): K15 is exact to degree 3n + 1 = 22, G7 to 13
     x, wk, wg = gauss_kronrod(7)

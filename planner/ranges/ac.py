@@ -357,8 +357,8 @@ def _build(engine, st, pairs, kind, r0):
     temps, factors = _build_rows(engine)
 
     def nominal(x):
-        return engine.operate(st, x, kind=kind, temperature_k=temps, r_source_ohm=r0,
-                              factors=factors).movement_current_a
+        return _operate(engine, st, x, dict(kind=kind, temperature_k=temps, r_source_ohm=r0,
+                                            factors=factors)).movement_current_a
 
     c = _cycle()
     targets = [c.Target(c.SHAPES[w], c.SHAPES[w].peak_of(v), w) for w, v in pairs]
@@ -445,14 +445,14 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         return CycleOperating(engine, st, op, _AtZero(values.size), values)
     if _single_row(temperature_k, r_source_ohm, factors) and not _cached(engine, st, shape, values):
         rule = _Blocks(shape, values)
-        op = engine.operate(st, rule.points(), kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm,
-                            factors=factors)
+        op = _operate(engine, st, rule.points(), dict(kind=kind, temperature_k=temperature_k,
+                                                      r_source_ohm=r_source_ohm, factors=factors))
         return CycleOperating(engine, st, op, rule, values)
     key, rule, idx = _rule_for(engine, st, shape, values, kind, r_source_ohm)
     kw = dict(kind=kind, temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
     if 1 < _row_count(temperature_k, r_source_ohm, factors) <= SMALL_BATCH and shape.atoms is None:
         return _checked_small(engine, st, key, rule, idx, values, kw)
-    op = engine.operate(st, rule.points(), **kw)
+    op = _operate(engine, st, rule.points(), kw)
     p = op.shape[0]
     if p > 1 and shape.atoms is None:
         t_ref = engine.spec.ambient.t_ref_k
@@ -463,16 +463,65 @@ def operate_cycle(engine, st, values, waveform, *, kind, temperature_k, r_source
         t = t_ref if temperature_k is None else temperature_k
         f_rows = {k: _rows(v, rows) for k, v in factors.items()} if factors else None
 
+        kw_rows = dict(kind=kind, temperature_k=_rows(t, rows), r_source_ohm=_rows(r_source_ohm, rows),
+                       factors=f_rows)
+
         def on_rows(x):
-            return engine.operate(st, x, kind=kind, temperature_k=_rows(t, rows),
-                                  r_source_ohm=_rows(r_source_ohm, rows), factors=f_rows).movement_current_a
+            return _operate(engine, st, x, kw_rows).movement_current_a
 
         checked = rule.verify(on_rows, known=op.movement_current_a[rows])  # the rule's nodes: solved above
         if checked.refined:  # keep the refined nodes for every later request of this position
             engine.__dict__["_cycle_rules"][key] = rule = checked
-            op = engine.operate(st, rule.points(), **kw)
+            op = _operate(engine, st, rule.points(), kw)
     rule = _subset(rule, idx)
     return CycleOperating(engine, st, op, rule, values)
+
+
+def _solved(engine, st, kw):
+    """The operating points solved so far on a state with this source kind and source impedance
+    (:class:`planner.cycle.starts.SolvedPoints`), or None for per-row source impedances. Only the
+    latest position's are kept (a request of another position drops them)."""
+    r = np.asarray(kw["r_source_ohm"], dtype=float)
+    if r.size != 1:
+        return None
+    cache = engine.__dict__.setdefault("_cycle_points", {})
+    key = (st.name, st.closed, kw["kind"], float(r.reshape(-1)[0]))
+    if key not in cache:
+        for other in [k for k in cache if k[0] != st.name]:  # the analyses go position by position
+            del cache[other]
+        cache[key] = _cycle().SolvedPoints(engine.spec.ambient.t_ref_k)
+    return cache[key]
+
+
+def _temperatures(engine, kw):
+    t = kw.get("temperature_k")
+    return engine.spec.ambient.t_ref_k if t is None else t
+
+
+def _predicted(engine, st, x, kw):
+    """Where the solver starts a request at source values ``x`` (``kw``: its ``kind``, ``temperature_k``,
+    ``r_source_ohm``, ``factors``): predicted from what the state solved before, or None (the solver's
+    own start). The results do not depend on it."""
+    solved = _solved(engine, st, kw)
+    if solved is None:
+        return None
+    rows = _row_count(kw.get("temperature_k"), kw["r_source_ohm"], kw.get("factors"))
+    return solved.predict(x, _temperatures(engine, kw), kw.get("factors"), rows)
+
+
+def _remember(engine, st, x, kw, op) -> None:
+    """Keep a solved request's operating points for the requests after it (:func:`_predicted`)."""
+    solved = _solved(engine, st, kw)
+    if solved is not None:
+        solved.add(x, _temperatures(engine, kw), kw.get("factors"), op.solution.start_rows)
+
+
+def _operate(engine, st, x, kw):
+    """``engine.operate`` of instantaneous source values, started from the state's solved points and
+    kept among them."""
+    op = engine.operate(st, x, start=_predicted(engine, st, x, kw), **kw)
+    _remember(engine, st, x, kw, op)
+    return op
 
 
 def _row_count(temperature_k, r_source_ohm, factors) -> int:
@@ -496,19 +545,20 @@ def _checked_small(engine, st, key, rule, idx, values, kw) -> CycleOperating:
     y = rule.check_nodes()
     xk = rule.span * y
     n = rule.size
-    op = engine.operate(st, np.concatenate([rule.points(), xk]), **kw)
+    x = np.concatenate([rule.points(), xk])
+    op = _operate(engine, st, x, kw)
     q = op.movement_current_a
 
     def evaluate(x):
         x = np.asarray(x, dtype=float)
         if x.shape == xk.shape and np.array_equal(x, xk):
             return q[:, n:]  # solved above
-        return engine.operate(st, x, **kw).movement_current_a
+        return _operate(engine, st, x, kw).movement_current_a
 
     checked = rule.verify(evaluate, known=q[:, :n])
     if checked.refined:  # keep the refined nodes for every later request of this position
         engine.__dict__["_cycle_rules"][key] = checked
-        op = engine.operate(st, checked.points(), **kw)
+        op = _operate(engine, st, checked.points(), kw)
         return CycleOperating(engine, st, op, _subset(checked, idx), values)
     return CycleOperating(engine, st, op, _subset(checked.padded(y), idx), values)
 
@@ -537,7 +587,8 @@ def waveform_readings(engine, position: str, requests) -> list:
     c = _cycle()
     blocks = [_Blocks(c.SHAPES[name], np.atleast_1d(np.asarray(values, dtype=float))) for name, values in requests]
     points = [b.points() for b in blocks]
-    op = engine.operate(st, np.concatenate(points), kind=st.position.kind.source)
+    op = _operate(engine, st, np.concatenate(points), dict(kind=st.position.kind.source, temperature_k=None,
+                                                            r_source_ohm=0.0, factors=None))
     i_m = op.movement_current_a[0]
     out, lo = [], 0
     pos = st.position
@@ -571,7 +622,8 @@ def _nested_sine_means(engine, st, values):
     sine = c.SHAPES["sine"]
     fine = c.fixed_rule(sine, 3 * GRID_NODES, crests=False)
     peaks = np.array([sine.peak_of(v) for v in values], dtype=float)
-    op = engine.operate(st, (peaks[:, None] * fine.nodes[None, :]).ravel(), kind=st.position.kind.source)
+    op = _operate(engine, st, (peaks[:, None] * fine.nodes[None, :]).ravel(),
+                  dict(kind=st.position.kind.source, temperature_k=None, r_source_ohm=0.0, factors=None))
     q = op.movement_current_a[0].reshape(peaks.size, fine.nodes.size) / engine.spec.movement.i_fs_a
     hi, lo = q.mean(axis=1), q[:, 1::3].mean(axis=1)
     return hi if np.all(np.abs(hi - lo) <= GRID_AGREEMENT) else None

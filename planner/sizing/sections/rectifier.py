@@ -130,6 +130,13 @@ def _mean_of(c, r, jn, fs, movement: str, nodes: int = SIZING_NODES):
     One value for one row of branch resistances ``r`` (1, L) and one full scale; an array (P,)
     for P rows, ``fs`` a number or one full scale per row (P,).
     """
+    means, _ = _solved_means(c, r, jn, fs, movement, nodes)
+    return float(means[0]) if r.shape[0] == 1 else np.asarray(means, dtype=float)
+
+
+def _solved_means(c, r, jn, fs, movement: str, nodes: int, start=None):
+    """:func:`_mean_of` as an array (P,), with the solution (Newton started from ``start``, the
+    solver's form of :func:`planner.solve.solve`, where given)."""
     sine, rule = _rule(nodes)
     m_j = next(j for j, br in enumerate(c.branches) if br.element == movement)
     rows = r.shape[0]
@@ -137,8 +144,59 @@ def _mean_of(c, r, jn, fs, movement: str, nodes: int = SIZING_NODES):
         jn = jn.map(lambda a: np.repeat(a, rows, axis=0))
     peaks = np.asarray([sine.peak_of(float(f)) for f in np.atleast_1d(fs)], dtype=float)
     stim = peaks[:, None] * rule.nodes[None, :] if peaks.size > 1 else rule.points(peaks[0])
-    means = rule.mean(solve(c, r, jn, stim).branch_current(m_j))
-    return float(means[0]) if rows == 1 else np.asarray(means, dtype=float)
+    sol = solve(c, r, jn, stim, start=start)
+    return np.atleast_1d(rule.mean(sol.branch_current(m_j))), sol
+
+
+class _RoundStarts:
+    """Where each round of a section's search starts its solver call: every range's rows from its rows of
+    the round before (the nearest ln R; on another rule, along the source value through them).
+
+    A Newton step moves ln R by 1e-4 and less, so a row's operating points move by as little:
+    two or three Newton iterations from there where a cold start takes twenty (the results do
+    not depend on where the solver starts).
+    """
+
+    def __init__(self):
+        self.rows: dict = {}  # range -> (ln R (n,), source values (S,), unknowns (n, S, C))
+        self.split = None
+
+    def start(self, ks, asks, full_scales, nodes):
+        from ...cycle.starts import Curve
+
+        sine, rule = _rule(nodes)
+        out = []
+        for k in ks:
+            if k not in self.rows:
+                return None
+            logs, x0, y = self.rows[k]
+            x = sine.peak_of(full_scales[k]) * rule.nodes
+            for q in np.asarray(asks[k][1], dtype=float):
+                row = y[int(np.argmin(np.abs(logs - q)))]
+                if x0.shape == x.shape and np.array_equal(x0, x):
+                    out.append(row)
+                else:
+                    curve = Curve()
+                    curve.add(x0, row)
+                    out.append(curve.at(x))
+        y = np.concatenate(out)
+        return np.ascontiguousarray(y[:, :self.split]), np.ascontiguousarray(y[:, self.split:])
+
+    def keep(self, ks, asks, full_scales, nodes, sol):
+        if sol.start_rows is None:
+            return
+        u, w = sol.start_rows
+        if self.split not in (None, u.shape[1]):
+            return
+        self.split = u.shape[1]
+        sine, rule = _rule(nodes)
+        y = np.concatenate([u, w], axis=1).reshape(-1, rule.nodes.size, u.shape[1] + w.shape[1])
+        pos = 0
+        for k in ks:
+            n = len(asks[k][1])
+            self.rows[k] = (np.asarray(asks[k][1], dtype=float), sine.peak_of(full_scales[k]) * rule.nodes,
+                            y[pos:pos + n])
+            pos += n
 
 
 def nominal_error(spec: Spec, net: NetworkSpec, pos: Position) -> float:
@@ -250,6 +308,7 @@ def solve_for_means(spec: Spec, prefix: str, rectifier: str, model: str, measure
         steps.append(_root_steps(lo, hi, min(max(start, lo), hi), refusal(fs)))
     out: list = [None] * len(full_scales)
     asks = {k: next(g) for k, g in enumerate(steps)}
+    starts = _RoundStarts()
     while asks:  # one round: every range's request, one solve per rule
         answers = {}
         for nodes in sorted({a[0] for a in asks.values()}):
@@ -258,7 +317,10 @@ def solve_for_means(spec: Spec, prefix: str, rectifier: str, model: str, measure
             fss = np.concatenate([np.full(len(asks[k][1]), full_scales[k]) for k in ks])
             rr = np.repeat(r, logs.size, axis=0)
             rr[:, jx] = np.exp(logs)
-            f = np.atleast_1d(_mean_of(c, rr, jn, fss, "M1", nodes)) / i_fs - 1.0
+            means, sol = _solved_means(c, rr, jn, fss, "M1", nodes,
+                                       start=starts.start(ks, asks, full_scales, nodes))
+            starts.keep(ks, asks, full_scales, nodes, sol)
+            f = means / i_fs - 1.0
             pos = 0
             for k in ks:
                 n = len(asks[k][1])
