@@ -17,12 +17,18 @@ from planner.sizing.ratings import LinearNetwork, impulse_cases, rating_cases
 from test_sizing_protection import FLAGSHIP
 
 
-def test_cached_cases_solve_as_fresh_networks():
+def _flagship_cases():
+    """The sized flagship, its network and every rating and impulse case as (position, value, shorted)."""
     spec = load(FLAGSHIP)
     layout = lay_out(spec, SECTIONS)
     net = size(spec).network
     cases = [(pos, value, shorted) for _, pos, value, shorted, _ in rating_cases(spec, layout)]
     cases += [(pos, value, shorted) for _, pos, value, shorted in impulse_cases(spec, layout)]
+    return spec, net, cases
+
+
+def test_cached_cases_solve_as_fresh_networks():
+    spec, net, cases = _flagship_cases()
     shared = LinearNetwork(spec, net)
     assert len({(p.name, s) for p, _, s in cases}) > 10  # several positions and shorted nodes share one instance
     assert any(s for _, _, s in cases)
@@ -57,11 +63,7 @@ def test_full_scale_voltage_across_the_movement():
 def test_cases_solved_ahead_as_one_by_one():
     """:meth:`LinearNetwork.solve_ahead` solves the values of one circuit as the columns of one stimulus;
     the answers are those of each value solved alone (the reference: a fresh instance, one solve a case)."""
-    spec = load(FLAGSHIP)
-    layout = lay_out(spec, SECTIONS)
-    net = size(spec).network
-    cases = [(pos, value, shorted) for _, pos, value, shorted, _ in rating_cases(spec, layout)]
-    cases += [(pos, value, shorted) for _, pos, value, shorted in impulse_cases(spec, layout)]
+    spec, net, cases = _flagship_cases()
     ahead = LinearNetwork(spec, net)
     ahead.solve_ahead(cases)
     assert len({(p.name, s) for p, _, s in cases}) < len(cases)  # circuits solved at several values
