@@ -130,12 +130,9 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
                              f"not {source_impedance_ohm!r}")
     say = progress or (lambda message: None)
     say("preparing the network")
-    engine = Engine(design)
-    run = CountingEngine(engine)
-    params = parameters(engine)
-    mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))
+    run, args = _prepared(design, samples, seed, source_impedance_ohm)
+    engine, params, mc_factors = run.engine, args[0], args[1]
     n = len(engine.positions)
-    args = (params, mc_factors, int(samples), int(seed), source_impedance_ohm)
     done = _positions(run, spec, iter(range(n)) if share is None else iter(share.take, None), args, say)
     if share is not None:  # the positions checked elsewhere, and any taken there but not answered
         for i, (res, ok, arr, points, calls) in share.rest().items():
@@ -183,6 +180,16 @@ def check(design: Design | Spec, *, samples: int | None = None, seed: int | None
     return CheckResult(json=result, positions=arrays, parameters=params, factors=mc_factors)
 
 
+def _prepared(design: Design, samples, seed, source_impedance_ohm) -> tuple[CountingEngine, tuple]:
+    """The engine of a check and what each position's check takes besides it: the toleranced
+    parameters, the Monte Carlo builds (drawn once for the whole instrument), samples, seed and the
+    source impedance."""
+    run = CountingEngine(Engine(design))
+    params = parameters(run.engine)
+    mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))
+    return run, (params, mc_factors, int(samples), int(seed), source_impedance_ohm)
+
+
 def _positions(run: CountingEngine, spec, indices, args, say) -> dict[int, tuple]:
     """``{index: (row, within-class mask, arrays)}`` of the positions ``indices`` gives, in its order.
 
@@ -226,11 +233,7 @@ def check_positions(design: Design | Spec, take: Callable[[], int | None], *, sa
     i = take()
     if i is None:  # nothing left: no engine built
         return out
-    design = as_design(design)
-    run = CountingEngine(Engine(design))
-    params = parameters(run.engine)
-    mc_factors = draw_factors(params, int(samples), np.random.default_rng(int(seed)))
-    args = (params, mc_factors, int(samples), int(seed), source_impedance_ohm)
+    run, args = _prepared(as_design(design), samples, seed, source_impedance_ohm)
     for i in itertools.chain([i], iter(take, None)):
         points, calls = run.points, run.calls
         try:

@@ -16,7 +16,13 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["StartModel", "SolvedPoints", "Curve"]
+__all__ = ["StartModel", "SolvedPoints", "Curve", "parted"]
+
+
+def parted(y, split: int):
+    """Rows of unknowns (N, C) in the solver's start form: node rows (N, split) and part voltages
+    (N, C - split), each contiguous (``start`` of :func:`planner.solve.solve`)."""
+    return np.ascontiguousarray(y[:, :split]), np.ascontiguousarray(y[:, split:])
 
 
 class StartModel:
@@ -272,8 +278,7 @@ class SolvedPoints:
             if y is None:
                 return None
             out[r] = y
-        out = out.reshape(rows * x.size, -1)
-        return np.ascontiguousarray(out[:, :self.split]), np.ascontiguousarray(out[:, self.split:])
+        return parted(out.reshape(rows * x.size, -1), self.split)
 
     def _row(self, x, sig, done):
         if sig not in done:

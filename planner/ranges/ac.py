@@ -524,6 +524,12 @@ def _operate(engine, st, x, kw):
     return op
 
 
+def _own_stimulus(st) -> dict:
+    """The request of a position's own nominal stimulus: its source kind, the nominal parts at the
+    reference temperature, no source impedance (``kw`` of :func:`_operate`)."""
+    return dict(kind=st.position.kind.source, temperature_k=None, r_source_ohm=0.0, factors=None)
+
+
 def _row_count(temperature_k, r_source_ohm, factors) -> int:
     """Parameter rows of a request: the longest of its per-row arguments."""
     sizes = [np.size(temperature_k if temperature_k is not None else 0.0), np.size(r_source_ohm)]
@@ -587,8 +593,7 @@ def waveform_readings(engine, position: str, requests) -> list:
     c = _cycle()
     blocks = [_Blocks(c.SHAPES[name], np.atleast_1d(np.asarray(values, dtype=float))) for name, values in requests]
     points = [b.points() for b in blocks]
-    op = _operate(engine, st, np.concatenate(points), dict(kind=st.position.kind.source, temperature_k=None,
-                                                            r_source_ohm=0.0, factors=None))
+    op = _operate(engine, st, np.concatenate(points), _own_stimulus(st))
     i_m = op.movement_current_a[0]
     out, lo = [], 0
     pos = st.position
@@ -623,7 +628,7 @@ def _nested_sine_means(engine, st, values):
     fine = c.fixed_rule(sine, 3 * GRID_NODES, crests=False)
     peaks = np.array([sine.peak_of(v) for v in values], dtype=float)
     op = _operate(engine, st, (peaks[:, None] * fine.nodes[None, :]).ravel(),
-                  dict(kind=st.position.kind.source, temperature_k=None, r_source_ohm=0.0, factors=None))
+                  _own_stimulus(st))
     q = op.movement_current_a[0].reshape(peaks.size, fine.nodes.size) / engine.spec.movement.i_fs_a
     hi, lo = q.mean(axis=1), q[:, 1::3].mean(axis=1)
     return hi if np.all(np.abs(hi - lo) <= GRID_AGREEMENT) else None

@@ -162,7 +162,7 @@ class _RoundStarts:
         self.split = None
 
     def start(self, ks, asks, full_scales, nodes):
-        from ...cycle.starts import Curve
+        from ...cycle.starts import Curve, parted
 
         sine, rule = _rule(nodes)
         out = []
@@ -179,8 +179,7 @@ class _RoundStarts:
                     curve = Curve()
                     curve.add(x0, row)
                     out.append(curve.at(x))
-        y = np.concatenate(out)
-        return np.ascontiguousarray(y[:, :self.split]), np.ascontiguousarray(y[:, self.split:])
+        return parted(np.concatenate(out), self.split)
 
     def keep(self, ks, asks, full_scales, nodes, sol):
         if sol.start_rows is None:
