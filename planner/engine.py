@@ -176,7 +176,7 @@ class Engine:
         self.elements = design.elements
         self.movement = design.movement
         self.warm = warm
-        self._last: dict = {}  # with warm: id(circuit) -> (circuit, stimulus rows (P, S), Solution)
+        self._last: dict = {}  # with warm: id(circuit) -> its last Solution (which holds the circuit)
 
     # --- states -------------------------------------------------------------------
     @property
@@ -337,7 +337,7 @@ class Engine:
             start = self._start(circuit, stim, r, jn, emfs)
         sol = solve(circuit, r, jn, stim, emf=emfs, varistors=self.varistors(circuit), start=start)
         if self.warm and sol.start_rows is not None:
-            self._last[id(circuit)] = (circuit, np.broadcast_to(np.atleast_2d(stim), sol.shape), sol)
+            self._last[id(circuit)] = sol
         i_fs = self.spec.movement.i_fs_a * np.ones((sol.shape[0], 1))
         if factors and "i_fs" in factors:
             i_fs = i_fs * np.asarray(factors["i_fs"], dtype=float).reshape(-1, 1)
@@ -348,10 +348,10 @@ class Engine:
     def _start(self, circuit, stim, r, jn, emfs):
         """The previous solution's rows of this circuit, one per case, where every new stimulus
         row is one of its rows (the first such), else None."""
-        last = self._last.get(id(circuit))
-        if last is None or last[0] is not circuit:
+        prev = self._last.get(id(circuit))
+        if prev is None:
             return None
-        _, prev_stim, prev = last
+        prev_stim = prev.stimulus
         stim2 = np.atleast_2d(stim)
         p = max(stim2.shape[0], r.shape[0], jn.i_s.shape[0], 1 if emfs is None else emfs.shape[0])
         if stim2.shape[1] != prev_stim.shape[1] or stim2.shape[0] not in (1, p):

@@ -370,7 +370,7 @@ _KEYS: dict = {}
 def _topology_key_of(net: NetworkSpec, st: SwitchState) -> tuple:
     """:func:`topology_key`, kept for these very objects (held with it, so ids are not reused)."""
     hit = _KEYS.get((id(net), id(st)))
-    if hit is not None and hit[0] is net and hit[1] is st:
+    if hit is not None:  # the entry holds net and st, so their ids name no other objects
         return hit[2]
     key = topology_key(net, st)
     if len(_KEYS) >= COMPILED_KEEP:

@@ -62,7 +62,7 @@ def current_carrying(engine: Engine, state) -> set:
     ----------
     J. Hopcroft and R. Tarjan, "Algorithm 447: efficient algorithms for graph
     manipulation", Communications of the ACM 16(6), 372-378, 1973 (biconnected
-    components, as networkx implements them).
+    components, as :func:`planner.network._block_with` implements them).
     """
     st = engine.state(state)
     circuit = engine.circuit(st, st.position.kind.source, False)

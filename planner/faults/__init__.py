@@ -47,7 +47,8 @@ from .cautions import cautions_for, matrix_cautions
 from .curves import CURVE_POINTS, protection_curve, without_clamps
 from .families import (BUILT_IN_ORDER, IMPULSE_SOURCE_OHM, IMPULSE_TABLE_V, category_impulse, impulse_stimulus,
                        same_kind_neighbours, stimuli_for, transition_stimuli)
-from .matrix import KEEP_AT_LEAST, KEEP_RATIO, contact_style, faults_project, matrix_states, transition_states
+from .matrix import (KEEP_AT_LEAST, KEEP_RATIO, contact_style, failing, faults_project, matrix_states,
+                     requirements_met, transition_states)
 from .report import format_faults
 
 __all__ = [
@@ -55,5 +56,6 @@ __all__ = [
     "FAILING", "MAINS_V_RMS", "MAINS_SOURCE_OHM",
     "category_impulse", "impulse_stimulus", "same_kind_neighbours", "stimuli_for", "transition_stimuli",
     "cautions_for", "matrix_cautions", "protection_curve", "without_clamps", "transition_states", "contact_style",
+    "failing", "requirements_met",
     "faults_project", "matrix_states", "format_faults",
 ]

@@ -115,8 +115,7 @@ def faults_project(design: Design | Spec, *, position: str | None = None, only_f
     if transitions is None:  # in this process (or again, where the child failed: its error raised here)
         transitions = _transition_cases(engine, tstates, acceptance, tick)
     fault_readings(engine, cases + transitions)  # an ohms range reads ohms on its own arc (docs/ohms.md)
-    needed, transitions_ok = contact_style(transitions, bool(tstates), net.contact_style)
-    met = not any(_failing(c) for c in cases) and transitions_ok
+    needed, met = requirements_met(cases, transitions, bool(tstates), net.contact_style)
 
     accepted = [{"position": c["position"] if c in cases else c["state"], "stimulus": c["stimulus"],
                  "verdict": c["verdict"], "reason": c["accept_reason"]} for c in cases + transitions if c["accepted"]]
@@ -158,8 +157,17 @@ def _progress(progress, total: int):
     return tick
 
 
-def _failing(case: dict) -> bool:
+def failing(case: dict) -> bool:
+    """Whether a judged case counts against the design: overstress or hazard, and not accepted."""
     return case["verdict"] in FAILING and not case["accepted"]
+
+
+def requirements_met(cases, transitions, any_states: bool, declared) -> tuple:
+    """(the contact style the transitions need, whether the matrix meets the requirements): no
+    failing case, and the switch transitions safe in the declared or needed style
+    (:func:`contact_style`)."""
+    needed, transitions_ok = contact_style(transitions, any_states, declared)
+    return needed, not any(map(failing, cases)) and transitions_ok
 
 
 class _Acceptance:
@@ -222,7 +230,7 @@ def _position_cases(engine: Engine, design: Design, positions, acceptance: _Acce
     cases, curves, columns : list
     matrix : dict of position name -> the names of its stimuli
     """
-    spec, net = design.spec, engine.net
+    net = engine.net
     bare = Engine(design.variant(without_clamps(net), validate=True)) if any(e.clamp for e in net.elements) else None
     cases, curves, columns, matrix = [], [], [], {}
     for p in positions:
@@ -322,7 +330,7 @@ def contact_style(transitions: list, any_states: bool, declared: str | None) -> 
     ok : bool
         The declared style passes, or with none declared some style does.
     """
-    style_ok = {sty: not any(_failing(t) for t in transitions if t["style"] == sty)
+    style_ok = {sty: not any(failing(t) for t in transitions if t["style"] == sty)
                 for sty in (nw.MAKE_BEFORE_BREAK, nw.BREAK_BEFORE_MAKE)}
     if not any_states or all(style_ok.values()):
         needed = "either"

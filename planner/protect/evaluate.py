@@ -436,11 +436,10 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     solved, hot_mult = {}, None
     for g in order:
         group = [stims[j] for j in groups[g]]
-        got = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase,
-                           hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None)
-        solved[g] = got[:4]
+        *solved[g], hot_g = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase,
+                                         hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None)
         if g == with_hot:
-            hot_mult = got[4]
+            hot_mult = hot_g
         if stop_over is not None:
             probe = {"stress": np.zeros(rows), "stress_case": [None] * rows, "power": np.zeros(rows)}
             _, cur, vol, width = solved[g]
@@ -466,7 +465,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
     With ``hot`` (the linearity points [V or A] and the hottest ambient [K]; for a
     group of DC stimuli of the position's own kind without source resistance),
     those points are solved in the same call, one solver row each at that
-    temperature, and their movement multiples (rows x points) come fifth.
+    temperature, and their movement multiples (rows x points) come fifth (None
+    without ``hot``).
     """
     g = len(group)
     samples = [s.samples(n_phase) for s in group]
@@ -517,9 +517,7 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
             for n in topo.watch:
                 cur[n][rr, kk] = op2.element(n).current_a[:, 0]
                 vol[n][rr, kk] = op2.element(n).voltage_v[:, 0]
-    if hot is not None:
-        return mult, cur, vol, width, hot_mult
-    return mult, cur, vol, width
+    return mult, cur, vol, width, hot_mult
 
 
 def _record_multiples(out: dict, p, group: list, mult: np.ndarray, rows: int) -> None:

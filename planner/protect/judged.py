@@ -31,11 +31,10 @@ from dataclasses import replace
 from ..design import Design, build
 from ..engine import Engine
 from ..errors import PlannerError
-from ..faults import contact_style, matrix_states
+from ..faults import failing, matrix_states, requirements_met
 from ..project import loads
 from ..model import ProtectionRequest
 from ..sizing.sections.protection import protection_lines
-from ..stress.verdict import FAILING
 from .. import writer
 
 __all__ = ["matrix_score", "matrix_tally", "plan_key", "same_request", "protection_candidates", "judge_given",
@@ -61,9 +60,6 @@ def matrix_score(faults: dict) -> dict:
         (largest ratio of a case's deciding stress over its rating, every case),
         ``verdicts`` (count per verdict over the cases), ``requirements_met``.
     """
-    def failing(c):
-        return c["verdict"] in FAILING and not c.get("accepted")
-
     cases, trans = faults["cases"], faults["transitions"]
     worst = max([c["deciding"]["ratio"] for c in cases + trans if c.get("deciding")] or [0.0])
     verdicts: dict = {}
@@ -106,9 +102,6 @@ def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[di
     (:func:`plan_key` orders by the failing cases first) nor protect as well
     as the project as given, whatever its other states hold.
     """
-    def failing(c):
-        return c["verdict"] in FAILING and not c.get("accepted")
-
     cases, trans, failing_states = [], [], []
     n_fail, judged, n_trans, stopped = 0, 0, 0, None
     for name, got, is_transition, total in matrix_states(design, first=first):
@@ -124,8 +117,7 @@ def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[di
                        "failing_states": failing_states}
             break
     if stopped is None:
-        _, transitions_ok = contact_style(trans, n_trans > 0, design.net.contact_style)
-        met = not any(map(failing, cases)) and transitions_ok
+        _, met = requirements_met(cases, trans, n_trans > 0, design.net.contact_style)
     else:
         met = False  # more failing cases than the bound, at least one
     return matrix_score({"cases": cases, "transitions": trans, "requirements_met": met}), stopped

@@ -220,14 +220,12 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     room = ctx.max_candidates - ctx.evaluated >= 2 * REALISE_TRIES * len(todo)
     with Ahead(task, parallel=parallel if room and len(todo) > 1 else False) as ahead:
         for i, p in enumerate(todo):
-            got = ahead.take() if ahead.holds(i) else None
+            got = ahead.turn(i, len(todo))
             if got is not None:
                 q, fq, (n_eval, n_re) = got
                 ctx.evaluated += n_eval
                 ctx.reevaluated += n_re
             else:
-                if ahead.idle and i + 1 < len(todo):
-                    ahead.send(i + 1, i + 1)
                 q, fq = _realised(ctx, p, evaluated)
             if q is None:
                 continue

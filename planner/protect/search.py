@@ -343,24 +343,22 @@ class _BranchAndBound:
     def bound_sites(self) -> None:
         """Step 1: the strongest stack of each kind at every site, and each site's bound."""
         ctx = self.ctx
-        plans = [[Combo(site, Stack(mdl, 1), Stack(mdl, 1)) for mdl in ctx.models] +
-                 [c for z in ctx.zeners for c in (Combo(site, Stack(z, 1, "breakdown"), None),
-                                                  Combo(site, None, Stack(z, 1, "breakdown")))]
+        # each site's combos, with where each one's per-position minimum is kept (a stack's polarity)
+        plans = [[(Combo(site, Stack(mdl, 1), Stack(mdl, 1)),
+                   (("forward", self.fb, (site.label, mdl, "junction")),
+                    ("reverse", self.rb, (site.label, mdl, "junction")))) for mdl in ctx.models] +
+                 [entry for z in ctx.zeners for entry in
+                  ((Combo(site, Stack(z, 1, "breakdown"), None), (("forward", self.fb, (site.label, z, "breakdown")),)),
+                   (Combo(site, None, Stack(z, 1, "breakdown")), (("reverse", self.rb, (site.label, z, "breakdown")),)))]
                  for site in self.sites]
         for k, site in enumerate(self.sites):
-            self.walk(plans[k], [c for p in plans[k + 1:] for c in p])
+            self.walk([c for c, _ in plans[k]], [c for p in plans[k + 1:] for c, _ in p])
             lb = np.full(self.n_pos, np.inf)
-            for mdl in ctx.models:
-                _, _, m = self.visit(Combo(site, Stack(mdl, 1), Stack(mdl, 1)))
-                self.fb[(site.label, mdl, "junction")] = self.per_position_min(m, "forward")
-                self.rb[(site.label, mdl, "junction")] = self.per_position_min(m, "reverse")
+            for c, keeps in plans[k]:
+                _, _, m = self.visit(c)
+                for which, store, key in keeps:
+                    store[key] = self.per_position_min(m, which)
                 lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
-            for z in ctx.zeners:
-                for c, which, store in ((Combo(site, Stack(z, 1, "breakdown"), None), "forward", self.fb),
-                                        (Combo(site, None, Stack(z, 1, "breakdown")), "reverse", self.rb)):
-                    _, _, m = self.visit(c)
-                    store[(site.label, z, "breakdown")] = self.per_position_min(m, which)
-                    lb = np.minimum(lb, np.min(m.position_worst(), axis=0))
             self.bounds[site.label] = lb
             self.info["sites"].append({"site": site.label, "kind": site.kind, "node": site.node,
                                        "element": site.element,
@@ -408,14 +406,12 @@ class _BranchAndBound:
             for i, p in enumerate(todo):
                 ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
                         f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
-                got = ahead.take() if ahead.holds(i) else None
+                got = ahead.turn(i, len(todo))
                 if got is not None:
                     q, memo, n = got
                     self.evaluated[p.combo.key()][0].memo.update(memo)
                     ctx.evaluated += n
                 else:
-                    if ahead.idle and i + 1 < len(todo):
-                        ahead.send(i + 1, i + 1)
                     q = one(i)[0]
                 if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
                                       (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):

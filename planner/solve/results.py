@@ -102,6 +102,11 @@ class Solution:
     def shape(self) -> tuple:
         return self._stim.shape
 
+    @property
+    def stimulus(self) -> np.ndarray:
+        """The source values solved, one row per parameter set, shape (P, S) [V or A]."""
+        return self._stim
+
     def node_voltage(self, i: int) -> np.ndarray:
         """Voltage of node ``i`` [V], shape (P, S)."""
         i = int(i)
