@@ -70,6 +70,9 @@ class LinearNetwork:
         self._cases: dict[tuple, tuple | None] = {}  # (shorted, position) -> what every solve of it reuses
         self.last_input_v = 0.0  # the input terminals' voltage of the last solve [V]
         self._ahead: dict[tuple, tuple] = {}  # (shorted, position, value) -> what solve_ahead found
+        self._shape_key = None  # what compiling a case reads of the network (:meth:`_shape`)
+        self._ohm: dict[int, float] = {}  # element index -> nominal resistance at the reference [ohm]
+        self._emf: dict[int, float] = {}  # element index -> EMF at its "max" level [V]
 
     def _net(self, shorted) -> NetworkSpec:
         key = tuple(shorted)
@@ -129,51 +132,120 @@ class LinearNetwork:
         case = self._case(shorted, position)
         if case is None:
             return None
-        c, r, z, emf, pins = case
+        c, r, z, emf, (names, used, ia, ib) = case
         try:
             sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array(values), emf=emf)
         except SolveError:
             return None
-        nodes = {}
-        zero = np.zeros(len(values))
-        for _, a, b in pins:
-            for i in (a, b):
-                if i is not None and i not in nodes:
-                    nodes[i] = sol.node_voltage(i)[0]
-
-        def v(i):
-            return zero if i is None else nodes[i]
-
-        dv = np.array([v(a) - v(b) for _, a, b in pins])  # (pins, values)
-        names = [name for name, _, _ in pins[:-1]]
+        # the voltage of every node a pin touches, and a row of zeros for a pin on no node of the circuit
+        v = np.array([sol.node_voltage(i)[0] for i in used] + [np.zeros(len(values))])
+        dv = v[ia] - v[ib]  # (pins, values)
         return [(dict(zip(names, dv[:-1, k].tolist())), float(dv[-1, k])) for k in range(len(values))]
 
+    def _shape(self) -> tuple | None:
+        """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
+
+        Each element's designator, kind, stamp and nodes, whether it holds an EMF, and
+        whether it is in circuit and merges its nodes in each position (the diodes'
+        conducting contacts among them); each position's name, input terminals and
+        source. The shorted nodes' contacts, closed in every position, are added by
+        the case. As :func:`planner.network.topology_key` for every position at once:
+        two sizings that differ in values alone share it.
+        """
+        if self._shape_key is None:
+            els = self.elements + self._conducting
+            if any(e.name.startswith("__short") for e in els):  # a name the shorted nodes' contacts take
+                return None
+            closed = [nw.closed_contacts(NetworkSpec(els, self.positions, None), p.name) for p in self.positions]
+            self._shape_key = (
+                tuple((e.name, e.kind, e.stamp, e.nodes, e.emf() != 0.0, tuple(e.present(cl) for cl in closed),
+                       tuple(e.merges(cl) for cl in closed)) for e in els),
+                tuple((p.name, p.input, p.kind.source) for p in self.positions))
+        return self._shape_key
+
     def _case(self, shorted: tuple, position: str):
-        """The compiled state, branch resistances, EMFs and node indices of one (shorted, position) case.
+        """The compiled state, branch resistances, EMFs and pins of one (shorted, position) case.
 
         Made once per network and case: every rating case of that position with those
-        nodes shorted solves the same circuit at another input value. None when the
+        nodes shorted solves the same circuit at another input value. The compiled
+        state and the pins (which node each rated element's ends are) depend on the
+        network's shape alone (:meth:`_shape`): they are kept for the process
+        (:data:`CASES_KEEP`) and shared by the networks of other sizings that differ
+        in values only; the resistances and EMFs are this network's. None when the
         state does not compile.
         """
         key = (shorted, position)
         if key not in self._cases:
             net = self._net(shorted)
-            st = nw.position_states(net)[[p.name for p in net.positions].index(position)]
+            shape = self._shape()
+            skey = None if shape is None else (shape, shorted, position)
+            compiled = _CASES.get(skey) if skey is not None else None
+            if compiled is None:
+                compiled = _compile_case(self.spec, net, position, [el for el in self.elements if el.rated])
+                if skey is not None:
+                    if len(_CASES) >= CASES_KEEP:
+                        _CASES.clear()
+                    _CASES[skey] = compiled
+            if compiled is False:
+                self._cases[key] = None
+                return None
+            c, branch_at, pins = compiled
             try:
-                c = nw.compiled(self.spec, st, net=net)
-                dt = np.zeros((1, 1))
-                r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
-                                    for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
-                e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
-                               for br in c.branches]])
+                r, e = self._values(net, c, branch_at)
             except SolveError:
                 self._cases[key] = None
                 return None
-            idx = c.node_index.get
-            pins = [(el.name, idx(el.nodes[0]), idx(el.nodes[1])) for el in self.elements if el.rated]
-            pins.append((None, idx(PLUS), idx(COM)))  # the input terminals
-            self._cases[key] = (c, r, np.zeros((1, 0)), e if np.any(e != 0.0) else None, pins)
+            self._cases[key] = (c, r, np.zeros((1, 0)), e, pins)
         return self._cases[key]
+
+    def _values(self, net: NetworkSpec, c, branch_at):
+        """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
+        if not c.branches:
+            return np.zeros((1, 0)), None
+        dt = np.zeros((1, 1))
+        ohm, emf = self._ohm, self._emf
+        for j in branch_at:
+            if j not in ohm:
+                el = net.elements[j]
+                ohm[j] = np.broadcast_to(el.resistance(self.spec, dt), (1, 1))[0, 0]
+                emf[j] = el.emf("max")
+        r = np.array([[ohm[j] for j in branch_at]], dtype=float)
+        e = np.array([[emf[j] if br.role != "source" else 0.0 for j, br in zip(branch_at, c.branches)]])
+        return r, (e if np.any(e != 0.0) else None)
+
+
+#: Compiled rating cases by the linear network's shape, shorted nodes and position
+#: (:meth:`LinearNetwork._case`); cleared when it holds this many.
+CASES_KEEP = 4096
+_CASES: dict = {}
+
+
+def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated):
+    """(compiled state, element index of each branch, pins) of one position of ``net``; False when it does not compile.
+
+    The pins are the rated elements' names, the node indices the solution is read at,
+    and for each rated element (then the input terminals) the rows of its two ends in
+    those voltages (the last row for an end on no node of the circuit: zero).
+    """
+    p = net.position(position)
+    st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
+    try:
+        c = nw.compile_state(spec, st, net=net)
+    except SolveError:
+        return False
+    at = {e.name: j for j, e in enumerate(net.elements)}
+    branch_at = tuple(at[br.element] for br in c.branches)
+    idx = c.node_index.get
+    ends = [(idx(el.nodes[0]), idx(el.nodes[1])) for el in rated]
+    ends.append((idx(PLUS), idx(COM)))  # the input terminals
+    used = []
+    for i in (i for pair in ends for i in pair):
+        if i is not None and i not in used:
+            used.append(i)
+    row = {i: k for k, i in enumerate(used)}
+    ia = np.array([len(used) if a is None else row[a] for a, _ in ends], dtype=np.intp)
+    ib = np.array([len(used) if b is None else row[b] for _, b in ends], dtype=np.intp)
+    return c, branch_at, ([el.name for el in rated], tuple(used), ia, ib)
 
 
 def rating_cases(spec: Spec, layout: Layout):
