@@ -243,10 +243,7 @@ def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated):
     idx = c.node_index.get
     ends = [(idx(el.nodes[0]), idx(el.nodes[1])) for el in rated]
     ends.append((idx(PLUS), idx(COM)))  # the input terminals
-    used = []
-    for i in (i for pair in ends for i in pair):
-        if i is not None and i not in used:
-            used.append(i)
+    used = list(dict.fromkeys(i for pair in ends for i in pair if i is not None))
     row = {i: k for k, i in enumerate(used)}
     ia = np.array([len(used) if a is None else row[a] for a, _ in ends], dtype=np.intp)
     ib = np.array([len(used) if b is None else row[b] for _, b in ends], dtype=np.intp)
