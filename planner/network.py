@@ -470,14 +470,14 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
                     "and the voltage source has no impedance; give the source an impedance")
             held = top
     names = [ground] + ([held] if held is not None else [])
-    seen = set(names)
+    index_of = {n: names.index(n) for n in names}  # each name's index in names
 
     def idx(n):
         r = uf.find(n) if n in uf.parent else n
-        if r not in seen:
-            seen.add(r)
+        if r not in index_of:
+            index_of[r] = len(names)
             names.append(r)
-        return names.index(r)
+        return index_of[r]
 
     lin_a = np.array([idx(br.a) for br in branches], dtype=np.intp)
     lin_b = np.array([idx(br.b) for br in branches], dtype=np.intp)
@@ -499,7 +499,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
 
     diode_port, diode_sign = map(list, zip(*(port(an, ca) for _, an, ca in diodes))) if diodes else ([], [])
     var_port, var_sign = map(list, zip(*(port(x, y) for _, x, y in varistors))) if varistors else ([], [])
-    node_index = {n: names.index(uf.find(n)) for n in uf.parent if uf.find(n) in seen}
+    node_index = {n: index_of[uf.find(n)] for n in uf.parent if uf.find(n) in index_of}
     for n, at in alias.items():  # dangling parts carry no current: at their attachment's potential
         if at in node_index:
             node_index[n] = node_index[at]
