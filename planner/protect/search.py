@@ -4,7 +4,7 @@
 the sites in the order of their bounds and prunes what cannot beat the best
 feasible placement so far; every split combo is evaluated on a batched grid of
 split resistances (:func:`split_grid`), and the most promising are refined by
-:func:`refine` (a finer grid over the bracket between grid neighbours, in one batch).
+:func:`refine` (a finer grid over the bracket between grid neighbours, in batches).
 
 Public API
 ----------
