@@ -120,7 +120,8 @@ def test_batched_refinement_is_at_least_as_good_as_brent(grid_points, monkeypatc
         grid = dict(topo.memo)
         calls.clear()
         n0 = ctx.evaluated
-        want = search.refine_rows(ctx, topo, r, m)
+        _, lo, hi = search._bracket(ctx, r, m)
+        want = len(search.bracket_grid(lo, hi)) + (search.REFINE_EDGE_ROWS if kind == "edge" else 0)
         q = search.refine(ctx, topo, p.combo, r, m)
         try:
             assert q is not None and q.feasible
@@ -130,7 +131,8 @@ def test_batched_refinement_is_at_least_as_good_as_brent(grid_points, monkeypatc
             # (1.5 % / 8 of r, about 0.19 %) below Brent's edge; the score's relative slope
             # at these edges is well below 0.5, so 1e-3 bounds what that step can cost
             assert q.score <= lex_score(old) * (1.0 + 1e-3)
-            # one batch for an interior minimum, two at an edge; as many rows as announced
+            # one batch for an interior minimum, two at an edge; no more rows than the bracket at 1.5 %
+            # steps and the edge's second batch
             assert len(calls) <= (2 if kind == "edge" else 1)
             assert ctx.evaluated - n0 <= want
             assert ctx.evaluated - n0 == sum(calls)
@@ -150,7 +152,7 @@ def test_batched_refinement_is_at_least_as_good_as_brent(grid_points, monkeypatc
 def test_cap_thins_the_batch_and_marks_the_search_truncated(grid_points):
     """With room for fewer rows than the batch, the rows that fit span the bracket; the cap holds."""
     ctx, bb, splits = grid_points
-    p = next(p for p in splits if search.refine_rows(ctx, *bb.evaluated[p.combo.key()]) > 8)
+    p = next(p for p in splits if search._bracket(ctx, *bb.evaluated[p.combo.key()][1:]) is not None)
     topo, r, m = bb.evaluated[p.combo.key()]
     grid = dict(topo.memo)
     saved = ctx.max_candidates, ctx.evaluated, ctx.truncated

@@ -9,7 +9,7 @@ split resistances (:func:`split_grid`), and the most promising are refined by
 Public API
 ----------
 :func:`branch_and_bound`, :func:`split_grid`, :func:`evaluate_combo`,
-:func:`best_point`, :func:`refine_rows`, :func:`refine`.
+:func:`best_point`, :func:`bracket_grid`, :func:`refine`.
 """
 
 from __future__ import annotations
@@ -39,7 +39,6 @@ __all__ = [
     "evaluate_combo",
     "best_point",
     "bracket_grid",
-    "refine_rows",
     "refine",
     "branch_and_bound",
 ]
@@ -166,20 +165,6 @@ def bracket_grid(lo: float, hi: float, rows: int | None = None) -> np.ndarray:
     if rows is None:
         rows = max(math.ceil(math.log(hi / lo) / math.log1p(REFINE_XTOL_REL)) - 1, 0)
     return np.exp(np.linspace(math.log(lo), math.log(hi), rows + 2)[1:-1])
-
-
-def refine_rows(ctx: SearchContext, topo: Topology, r: np.ndarray, m: Metrics) -> int:
-    """The most evaluations a refinement of a combo takes (see :func:`refine`), known before it runs.
-
-    Zero when no refinement applies (no feasible grid point, or an interior
-    minimum that promises too little, :func:`_worth_refining`); points already
-    in the combo's memo are not counted.
-    """
-    br = _bracket(ctx, r, m)
-    if br is None:
-        return 0
-    n = sum(float(x) not in topo.memo for x in bracket_grid(br[1], br[2]))
-    return n + (REFINE_EDGE_ROWS if br[0] == "edge" else 0)
 
 
 def refine(ctx: SearchContext, topo: Topology, combo: Combo, r: np.ndarray, m: Metrics) -> Point | None:
@@ -434,43 +419,23 @@ class _BranchAndBound:
                        for rv in list(self.rev_stacks) + ([None] if p.combo.forward.mode == "breakdown" else [])],
                       prune=True)
 
-    def refine_splits(self, parallel: bool | None = False) -> None:
-        """Step 3: refine the split resistance of the most promising split combos.
+    def refine_splits(self) -> None:
+        """Step 3: refine the split resistance of the most promising split combos (:func:`refine`).
 
-        Each refinement reads and extends its own combo's memo alone, and its
-        batch is known before it runs (:func:`refine_rows`); with room under the
-        cap for every batch (so that the cap cannot cut one of them), the next one
-        runs ahead in a forked worker (``parallel``) and sends back its point,
-        its new memo entries and its count.
+        Here, not ahead on a worker: a refinement is one or two batched calls,
+        and two of them side by side on a shared second core took longer than
+        one after the other (docs/performance.md).
         """
         ctx = self.ctx
         splits = [p for p in self.points.values() if p.combo.site.kind == "split" and p.feasible]
-        todo = ranked(splits)[:REFINE_COMBOS]
-
-        def one(i):
-            topo, r, m = self.evaluated[todo[i].combo.key()]
-            before, n0 = set(topo.memo), ctx.evaluated
-            q = refine(ctx, topo, todo[i].combo, r, m)
-            return q, {x: v for x, v in topo.memo.items() if x not in before}, ctx.evaluated - n0
-
-        # the refinements with a batch to run, one of them ahead on the worker while another runs here
-        rows = [refine_rows(ctx, *self.evaluated[p.combo.key()]) for p in todo]
-        busy = [i for i, n in enumerate(rows) if n]
-        side = len(busy) > 1 and ctx.max_candidates - ctx.evaluated >= sum(rows)
-        with Ahead(lambda k: one(busy[k]), parallel=parallel if side else False) as ahead:
-            for i, p in enumerate(todo):
-                ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
-                        f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
-                got = ahead.turn(busy.index(i), len(busy)) if i in busy else None
-                if got is not None:
-                    q, memo, n = got
-                    self.evaluated[p.combo.key()][0].memo.update(memo)
-                    ctx.evaluated += n
-                else:
-                    q = one(i)[0]
-                if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
-                                      (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
-                    self.points[p.combo.key()] = q
+        for p in ranked(splits)[:REFINE_COMBOS]:
+            ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
+                    f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
+            topo, r, m = self.evaluated[p.combo.key()]
+            q = refine(ctx, topo, p.combo, r, m)
+            if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
+                                  (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
+                self.points[p.combo.key()] = q
 
 
 def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
@@ -530,9 +495,9 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
         except _Stop:
             pass
         else:
-            ahead.close()  # the refinements have a worker of their own, forked with the search's points
+            ahead.close()  # the refinements run here
             try:
-                bb.refine_splits(parallel)
+                bb.refine_splits()
             except _Stop:
                 pass
     return list(bb.points.values()), bb.info, bb.evaluated
