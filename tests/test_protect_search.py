@@ -5,7 +5,9 @@ an independent answer on the same objective: the sequential refinement by scipy'
 Brent root finder (``brentq``) at the feasibility edge, the bounded Brent minimiser
 (``minimize_scalar(method='bounded')``) inside the feasible set, both stopping at
 1.5 % of r and after eight evaluations (R. P. Brent, *Algorithms for Minimization
-without Derivatives*, Prentice-Hall, 1973, ch. 4 and 5), each evaluation one row.
+without Derivatives*, Prentice-Hall, 1973, ch. 4 and 5), each evaluation one row. The
+edges come from a small voltmeter written here, the interior minimum from the service
+multimeter example.
 """
 
 from __future__ import annotations
@@ -17,11 +19,14 @@ import pytest
 from scipy.optimize import brentq, minimize_scalar
 
 from planner.design import build
-from planner.project import loads
+from planner.project import load, loads
 from planner.protect import search
+from planner.protect.candidates import Combo, Stack, sites
 from planner.protect.context import SearchContext
 from planner.protect.evaluate import feasible, run, slack
 from planner.protect.ordering import lex_best, lex_compare, lex_score, ranked
+
+from conftest import PROJECTS
 
 # An invented scenario: a three-range DC voltmeter for a school physics lab bench (the sizer builds it).
 SCHOOL = """\
@@ -105,48 +110,72 @@ def _brent(ctx, topo, r, m):
     return kind, memo[x].position_worst()[0]
 
 
-def test_batched_refinement_is_at_least_as_good_as_brent(grid_points, monkeypatch):
-    """Every refined split combo of the school voltmeter: as good as Brent's, in at most two solver calls."""
+def _as_good_as_brent(ctx, topo, combo, r, m, calls) -> str | None:
+    """Refine a combo by the batches and by Brent; check the batched point; the bracket's kind (None: none).
+
+    The combo's memo is left as it was (the grid's rows).
+    """
+    kind, old = _brent(ctx, topo, r, m)
+    if kind is None:
+        return None
+    grid = dict(topo.memo)
+    calls.clear()
+    n0 = ctx.evaluated
+    _, lo, hi = search._bracket(ctx, r, m)
+    want = len(search.bracket_grid(lo, hi)) + (search.REFINE_EDGE_ROWS if kind == "edge" else 0)
+    try:
+        q = search.refine(ctx, topo, combo, r, m)
+        assert q is not None and q.feasible
+        # leximax over the positions: never worse than Brent's point beyond the search's own tie (2 %)
+        assert lex_compare(q.multiples, old) <= 0
+        # the scalar: the batch's last feasible row may lie up to one second-batch step
+        # (1.5 % / 8 of r, about 0.19 %) below Brent's edge, and an interior row up to half a
+        # step (0.75 %) beside Brent's minimum, where the scalar is flat to first order; the
+        # score's relative slope at these points is well below 0.5, so 1e-3 bounds what a step costs
+        assert q.score <= lex_score(old) * (1.0 + 1e-3)
+        # one batch for an interior minimum, two at an edge; no more rows than the bracket at 1.5 %
+        # steps and the edge's second batch
+        assert len(calls) <= (2 if kind == "edge" else 1)
+        assert ctx.evaluated - n0 <= want
+        assert ctx.evaluated - n0 == sum(calls)
+        if kind == "edge":
+            # the edge located: the last feasible row below its first infeasible one by one fine step
+            xs = sorted(topo.memo)
+            last = max(k for k, x in enumerate(xs[:-1]) if feasible(ctx, topo.memo[x])[0]
+                       and x < float(r[-1]) and not feasible(ctx, topo.memo[xs[k + 1]])[0])
+            step = math.log(xs[last + 1] / xs[last])
+            assert step <= math.log1p(search.REFINE_XTOL_REL) / (search.REFINE_EDGE_ROWS + 1) * (1 + 1e-9)
+    finally:
+        topo.memo.clear()
+        topo.memo.update(grid)
+    return kind
+
+
+@pytest.fixture
+def calls(monkeypatch):
+    """The rows of every solver call the search makes, in order."""
+    seen = []
+    monkeypatch.setattr(search, "run", lambda *a, **k: seen.append(len(a[2])) or run(*a, **k))
+    return seen
+
+
+def test_batched_refinement_at_an_edge_is_at_least_as_good_as_brent(grid_points, calls):
+    """Every refined split combo of the school voltmeter (all at the feasibility edge) against Brent's root."""
     ctx, bb, splits = grid_points
-    calls = []
-    monkeypatch.setattr(search, "run", lambda *a, **k: calls.append(len(a[2])) or run(*a, **k))
-    refined = 0
+    kinds = []
     for p in splits:
         topo, r, m = bb.evaluated[p.combo.key()]
-        kind, old = _brent(ctx, topo, r, m)
-        if kind is None:
-            continue
-        refined += 1
-        grid = dict(topo.memo)
-        calls.clear()
-        n0 = ctx.evaluated
-        _, lo, hi = search._bracket(ctx, r, m)
-        want = len(search.bracket_grid(lo, hi)) + (search.REFINE_EDGE_ROWS if kind == "edge" else 0)
-        q = search.refine(ctx, topo, p.combo, r, m)
-        try:
-            assert q is not None and q.feasible
-            # leximax over the positions: never worse than Brent's point beyond the search's own tie (2 %)
-            assert lex_compare(q.multiples, old) <= 0
-            # the scalar: the batch's last feasible row may lie up to one second-batch step
-            # (1.5 % / 8 of r, about 0.19 %) below Brent's edge; the score's relative slope
-            # at these edges is well below 0.5, so 1e-3 bounds what that step can cost
-            assert q.score <= lex_score(old) * (1.0 + 1e-3)
-            # one batch for an interior minimum, two at an edge; no more rows than the bracket at 1.5 %
-            # steps and the edge's second batch
-            assert len(calls) <= (2 if kind == "edge" else 1)
-            assert ctx.evaluated - n0 <= want
-            assert ctx.evaluated - n0 == sum(calls)
-            if kind == "edge":
-                # the edge located: the last feasible row below its first infeasible one by one fine step
-                xs = sorted(topo.memo)
-                last = max(k for k, x in enumerate(xs[:-1]) if feasible(ctx, topo.memo[x])[0]
-                           and x < float(r[-1]) and not feasible(ctx, topo.memo[xs[k + 1]])[0])
-                step = math.log(xs[last + 1] / xs[last])
-                assert step <= math.log1p(search.REFINE_XTOL_REL) / (search.REFINE_EDGE_ROWS + 1) * (1 + 1e-9)
-        finally:
-            topo.memo.clear()
-            topo.memo.update(grid)
-    assert refined >= 3
+        kinds.append(_as_good_as_brent(ctx, topo, p.combo, r, m, calls))
+    assert kinds.count("edge") >= 3
+
+
+def test_batched_refinement_inside_is_at_least_as_good_as_brent(calls):
+    """An interior minimum (the service multimeter's bridge-diode pair at its chain tap) against Brent's minimiser."""
+    ctx = SearchContext(build(load(PROJECTS / "service_multimeter.yaml")), 0.25, None, 100000, None)
+    site = next(s for s in sites(ctx) if s.kind == "split" and s.pair is None)
+    combo = Combo(site, Stack("si_bridge", 1), Stack("si_bridge", 1))
+    topo, r, m = search.evaluate_combo(ctx, combo)
+    assert _as_good_as_brent(ctx, topo, combo, r, m, calls) == "interior"
 
 
 def test_cap_thins_the_batch_and_marks_the_search_truncated(grid_points):
