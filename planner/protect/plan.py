@@ -56,14 +56,14 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         Seed of the random probes of the split grid; ``analysis.seed`` by default.
     max_candidates : int
         Cap on the search's evaluations: each split resistance of a grid, each
-        refinement step and each standard-value split counts one. The final pass
+        row of a refinement's batches and each standard-value split counts one. The final pass
         over the reported rows is counted apart (``rows_reevaluated``).
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
         Judge the project as given and its protection-part combinations on the
         misrange matrix in a child process beside the clamp search, and evaluate
-        the search's next candidate, refinement and realised placement ahead in a
+        the search's next candidate and realised placement ahead in a
         forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
         this process (False); or the first where a second core allows it (None,
         :func:`planner.background.beside`). The decisions are the same; the matrix
@@ -115,8 +115,9 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     2nd ed., McGraw-Hill, 1993 (diode temperature law).
     A. H. Land and A. G. Doig, "An automatic method of solving discrete
     programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
-    R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall,
-    1973. IEC 60051-1 (class index); IEC 60063 (preferred values).
+    W. H. Press et al., *Numerical Recipes*, 3rd ed., Cambridge University Press,
+    2007, sec. 9.1 and 10.1 (the refinement's brackets). IEC 60051-1 (class
+    index); IEC 60063 (preferred values).
     """
     _check_settings(share, max_candidates, seed)
     design = as_design(design)
