@@ -383,7 +383,7 @@ class _BranchAndBound:
                        for rv in list(self.rev_stacks) + ([None] if p.combo.forward.mode == "breakdown" else [])],
                       prune=True)
 
-    def refine_splits(self, parallel: bool | None = False) -> None:
+    def refine_splits(self, parallel: bool | None = False, busy=None) -> None:
         """Step 3: refine the split resistance of the most promising split combos.
 
         Each refinement reads and extends its own combo's memo alone; with room
@@ -402,7 +402,7 @@ class _BranchAndBound:
             return q, {x: v for x, v in topo.memo.items() if x not in before}, ctx.evaluated - n0
 
         room = ctx.max_candidates - ctx.evaluated >= REFINE_ROOM * len(todo)
-        with Ahead(one, parallel=parallel if room and len(todo) > 1 else False) as ahead:
+        with Ahead(one, parallel=parallel if room and len(todo) > 1 else False, busy=busy) as ahead:
             for i, p in enumerate(todo):
                 ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
                         f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
@@ -418,7 +418,8 @@ class _BranchAndBound:
                     self.points[p.combo.key()] = q
 
 
-def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
+def branch_and_bound(ctx: SearchContext, parallel: bool | None = False,
+                     busy=None) -> tuple[list[Point], dict, dict]:
     """Branch-and-bound over sites and stacks.
 
     Parameters
@@ -428,6 +429,9 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
         Evaluate the combo that would come next in a forked worker while this
         process evaluates the current one (:class:`planner.protect.ahead.Ahead`;
         None: where a second core allows it). The search is the same.
+    busy : callable() -> bool, optional
+        Whether the second core is still taken by another child of the command:
+        the worker waits for it (:class:`planner.protect.ahead.Ahead`).
 
     Returns
     -------
@@ -467,7 +471,7 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
     A. H. Land and A. G. Doig, "An automatic method of solving discrete
     programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
     """
-    with Ahead(ahead_task(ctx), parallel=parallel) as ahead:
+    with Ahead(ahead_task(ctx), parallel=parallel, busy=busy) as ahead:
         bb = _BranchAndBound(ctx, ahead)
         try:
             bb.bound_sites()
@@ -477,7 +481,7 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
         else:
             ahead.close()  # the refinements have a worker of their own, forked with the search's points
             try:
-                bb.refine_splits(parallel)
+                bb.refine_splits(parallel, busy)
             except _Stop:
                 pass
     return list(bb.points.values()), bb.info, bb.evaluated
