@@ -125,7 +125,7 @@ def test_judged_beside_the_search_decides_as_in_one_process():
         # the matrix's figures may differ in their last digits with the solver's history in the process
         np.testing.assert_allclose(a["worst_ratio"], b["worst_ratio"], rtol=1e-6)
     assert [r["label"] for r in two["matrix"]["parts"]] == [r["label"] for r in one["matrix"]["parts"]]
-    # the search's next candidate, refinement and final placement evaluated ahead on a worker: the same search
+    # the search's next candidate and final placement evaluated ahead on a worker: the same search
     for key in ("candidates_evaluated", "rows_reevaluated", "pruned", "pruned_sites", "truncated"):
         assert two[key] == one[key], key
     assert [r["key"] for r in two["pareto"]] == [r["key"] for r in one["pareto"]]

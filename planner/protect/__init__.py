@@ -35,11 +35,11 @@ that trade-off for a project:
 
 The discrete choices are searched by a bounded enumeration (a branch-and-bound
 over sites and stacks, with bounds from the monotonicity of a stack's clamping
-voltage in its diode count); the continuous split by a batched grid, then
-:func:`scipy.optimize.brentq` for the edge of the feasible range and
-:func:`scipy.optimize.minimize_scalar` (bounded Brent) inside it; the split is
-then made of standard values (:func:`planner.sizing.choose_value`) and the result
-evaluated again on the realised network. Every evaluation is a batched call of
+voltage in its diode count); the continuous split by a batched grid, then a
+finer batched grid (1.5 % steps) over the bracket of the edge of the feasible
+range or of the minimum inside it; the split is then made of standard values
+(:func:`planner.sizing.choose_value`) and the result evaluated again on the
+realised network. Every evaluation is a batched call of
 :meth:`planner.engine.Engine.operate` (one call per position and stimulus
 group solves every split resistance of a grid at once). ``docs/protection.md``
 has the method, its sources and how to read the table.
@@ -63,7 +63,7 @@ What lives where
     order and choice of the reported rows.
 ``search.py``
     :func:`branch_and_bound` over sites and stacks, the split grid, the
-    refinement of the split resistance (Brent).
+    refinement of the split resistance (batched grids over a bracket).
 ``realise.py``
     Standard values for a split; a sized project's ``clamps:`` requests; the
     final evaluation of a realised point.

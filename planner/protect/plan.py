@@ -56,14 +56,14 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         Seed of the random probes of the split grid; ``analysis.seed`` by default.
     max_candidates : int
         Cap on the search's evaluations: each split resistance of a grid, each
-        refinement step and each standard-value split counts one. The final pass
+        row of a refinement's batches and each standard-value split counts one. The final pass
         over the reported rows is counted apart (``rows_reevaluated``).
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
         Judge the project as given and its protection-part combinations on the
         misrange matrix in a child process beside the clamp search, and evaluate
-        the search's next candidate, refinement and realised placement ahead in a
+        the search's next candidate and realised placement ahead in a
         forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
         this process (False); or the first where a second core allows it (None,
         :func:`planner.background.beside`). The decisions are the same; the matrix
@@ -115,8 +115,9 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     2nd ed., McGraw-Hill, 1993 (diode temperature law).
     A. H. Land and A. G. Doig, "An automatic method of solving discrete
     programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
-    R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall,
-    1973. IEC 60051-1 (class index); IEC 60063 (preferred values).
+    W. H. Press et al., *Numerical Recipes*, 3rd ed., Cambridge University Press,
+    2007, sec. 9.1 and 10.1 (the refinement's brackets). IEC 60051-1 (class
+    index); IEC 60063 (preferred values).
     """
     _check_settings(share, max_candidates, seed)
     design = as_design(design)
@@ -135,14 +136,15 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         movement = Site("movement", "movement", ctx.movement.a)
         across = Combo(movement, Stack(model, 1), Stack(model, 1))
 
-        points, info, evaluated = branch_and_bound(ctx, parallel=parallel)
+        # the search's worker waits for the second core while the child judges the project as given
+        points, info, evaluated = branch_and_bound(ctx, parallel=parallel, busy=given.busy)
 
         # every feasible placement found, best first -> standard values -> the faults
         # matrix's phase points -> Pareto set and choice on those final numbers
         ctx.say("clamps across the movement")
         pa = final(ctx, Point(across, None, None, False))
         across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
-        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel)
+        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel, given.busy)
         table, chosen = _pareto_table(finals)
         result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         ctx.say("the misrange matrices of the project as given and of its protection parts")
@@ -191,7 +193,7 @@ def _check_settings(share, max_candidates, seed) -> None:
 
 
 def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict,
-                parallel: bool | None = False) -> list[dict]:
+                parallel: bool | None = False, busy=None) -> list[dict]:
     """The rows of the best feasible placements, made of standard values and evaluated again.
 
     The clamps across the movement come first (as a candidate); then up to
@@ -201,7 +203,8 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     infeasible one (only feasible rows enter the Pareto table: it is found out
     at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
     With ``parallel``, the next placement is realised ahead in a forked worker
-    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one.
+    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one, once the
+    second core is no longer ``busy``.
     """
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
@@ -218,7 +221,7 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     # a placement costs at most 2 x REALISE_TRIES evaluations: with room for all of them the cap cannot
     # stop the pass, so the placements are independent and the next one may be realised ahead on the worker
     room = ctx.max_candidates - ctx.evaluated >= 2 * REALISE_TRIES * len(todo)
-    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False) as ahead:
+    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False, busy=busy) as ahead:
         for i, p in enumerate(todo):
             got = ahead.turn(i, len(todo))
             if got is not None:
