@@ -252,8 +252,13 @@ def _current_carrying(g: nx.MultiGraph, plus: str, minus: str):
     J. Hopcroft and R. Tarjan, "Algorithm 447: efficient algorithms for graph
     manipulation", Communications of the ACM 16(6), 372-378, 1973.
     """
+    return _carrying(g.edges(), plus, minus)
+
+
+def _carrying(edges, plus: str, minus: str):
+    """:func:`_current_carrying` of the graph made of ``edges`` (node pairs) and the input terminals."""
     adj: dict = {}
-    for a, b in g.edges():
+    for a, b in edges:
         if a != b:
             adj.setdefault(a, set()).add(b)
             adj.setdefault(b, set()).add(a)
@@ -319,7 +324,7 @@ def _block_with(adj: dict, plus, minus) -> set:
     return {plus, minus}
 
 
-def _with_sources(net, g, st, plus, minus, live, alias):
+def _with_sources(net, st, plus, minus, live, alias):
     """The live nodes grown to every node joined to the input when a battery lies outside them.
 
     A block with an EMF in it (a battery the switch leaves in a loop) carries current
@@ -332,6 +337,7 @@ def _with_sources(net, g, st, plus, minus, live, alias):
                and not (e.nodes[0] in live and e.nodes[1] in live)]
     if not outside:
         return live, alias
+    g = active_graph(net, st)
     simple = nx.Graph((a, b) for a, b in g.edges() if a != b)
     bridges = {frozenset(x) for x in nx.bridges(simple)}
     # a battery that is a bridge (its only path back is through itself) closes no loop: no current
@@ -423,10 +429,10 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
 
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
-    g = active_graph(net, st)
     plus, minus = st.position.input
-    live, alias = _current_carrying(g, plus, minus)
-    live, alias = _with_sources(net, g, st, plus, minus, live, alias)
+    # the state's edges (:func:`active_graph`'s) as node pairs: the graph itself is made only where a battery needs it
+    live, alias = _carrying([e.nodes for e in net.elements if e.present(st.closed)], plus, minus)
+    live, alias = _with_sources(net, st, plus, minus, live, alias)
     uf = UnionFind()
     for n in live:
         uf.find(n)
@@ -464,14 +470,14 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
                     "and the voltage source has no impedance; give the source an impedance")
             held = top
     names = [ground] + ([held] if held is not None else [])
-    seen = set(names)
+    index_of = {n: names.index(n) for n in names}  # each name's index in names
 
     def idx(n):
         r = uf.find(n) if n in uf.parent else n
-        if r not in seen:
-            seen.add(r)
+        if r not in index_of:
+            index_of[r] = len(names)
             names.append(r)
-        return names.index(r)
+        return index_of[r]
 
     lin_a = np.array([idx(br.a) for br in branches], dtype=np.intp)
     lin_b = np.array([idx(br.b) for br in branches], dtype=np.intp)
@@ -493,7 +499,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
 
     diode_port, diode_sign = map(list, zip(*(port(an, ca) for _, an, ca in diodes))) if diodes else ([], [])
     var_port, var_sign = map(list, zip(*(port(x, y) for _, x, y in varistors))) if varistors else ([], [])
-    node_index = {n: names.index(uf.find(n)) for n in uf.parent if uf.find(n) in seen}
+    node_index = {n: index_of[uf.find(n)] for n in uf.parent if uf.find(n) in index_of}
     for n, at in alias.items():  # dangling parts carry no current: at their attachment's potential
         if at in node_index:
             node_index[n] = node_index[at]

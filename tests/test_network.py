@@ -267,3 +267,26 @@ def test_current_carrying_block_against_networkx():
             g.add_edge(a, b)
         plus, minus = 0, int(rng.integers(1, n))
         assert nw._current_carrying(g, plus, minus) == _carrying_by_networkx(g, plus, minus)
+
+
+def test_current_carrying_from_element_pairs_against_networkx():
+    """:func:`planner.network.compile_state` finds the current-carrying block from the present
+    elements' node pairs, without a graph; networkx's biconnected components of the state's
+    graph (:func:`planner.network.active_graph`) are the reference, for every position and
+    transition state of the examples with an explicit network and of the sized flagship."""
+    from pathlib import Path
+
+    from planner.project import load
+    from planner.sizing import sized_spec
+
+    root = Path(__file__).resolve().parent.parent / "projects"
+    states = 0
+    for name in ("bench_ammeter", "pocket_voltmeter", "worn_multimeter", "bench_multimeter"):
+        spec = sized_spec(load(root / f"{name}.yaml"))
+        net = spec.network
+        for st in nw.position_states(net) + nw.transition_states(net):
+            plus, minus = st.position.input
+            pairs = [e.nodes for e in net.elements if e.present(st.closed)]
+            assert nw._carrying(pairs, plus, minus) == _carrying_by_networkx(nw.active_graph(net, st), plus, minus)
+            states += 1
+    assert states > 20

@@ -104,3 +104,126 @@ def test_stresses_shared_by_networks_that_differ_in_their_diodes():
     assert again == first and again is not first
     again.v.clear()
     assert stresses(specs[0], layout, nets[0], rows) == _stresses(specs[0], layout, nets[0], rows, True)
+
+
+def _worst_one_by_one(rows, values, seg_parts):
+    """The reference reduction: each case added in turn (docs/sizing.md, section 4).
+
+    Per part the worst |V| (times the case's crest) and P = V^2 / R (or the pulse's equivalent
+    power); per segment the worst |sum of its series units' V| and the worst sum of its parts'
+    powers, the first case that reaches it named.
+    """
+    from planner.sizing.ratings import Stress
+
+    st = Stress(seg_v=[0.0] * len(seg_parts), seg_p=[0.0] * len(seg_parts), seg_v_fs=[0.0] * len(seg_parts),
+                seg_p_fs=[0.0] * len(seg_parts), seg_case=[""] * len(seg_parts))
+    for dv, fs, powers, crest, label in rows:
+        for name, r in values.items():
+            vv = abs(dv.get(name, 0.0))
+            pp = vv * vv / r if powers is None else powers.get(name, vv * vv / r)
+            vv *= crest
+            st.v[name] = max(st.v.get(name, 0.0), vv)
+            st.p[name] = max(st.p.get(name, 0.0), pp)
+            if fs:
+                st.v_fs[name] = max(st.v_fs.get(name, 0.0), vv)
+                st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
+        for j, parts in enumerate(seg_parts):
+            units = {}
+            for name, val, a, b in parts:
+                units.setdefault((a, b), dv.get(name, 0.0))
+            sv = abs(sum(units.values())) * crest
+            sp = sum(dv.get(name, 0.0) ** 2 / val if powers is None else
+                     powers.get(name, dv.get(name, 0.0) ** 2 / val) for name, val, _, _ in parts)
+            if sp > st.seg_p[j]:
+                st.seg_p[j], st.seg_case[j] = sp, label
+            st.seg_v[j] = max(st.seg_v[j], sv)
+            if fs:
+                st.seg_v_fs[j] = max(st.seg_v_fs[j], sv)
+                st.seg_p_fs[j] = max(st.seg_p_fs[j], sp)
+    return st
+
+
+def test_worst_over_all_cases_at_once_as_one_by_one():
+    """The rows reduced at once give, bit for bit, what adding the cases one by one gives: the same
+    products, the same sums in the same order, the first worst case named (ties included)."""
+    from planner.sizing.ratings import Stress, _Tally
+
+    rng = np.random.default_rng(7)
+    names = [f"R{k}" for k in range(1, 13)] + ["M1"]
+    values = {n: float(v) for n, v in zip(names[:-1], 10.0 ** rng.uniform(0, 6, 12))}
+    values["R13"] = 1e3  # a resistor no row holds: no voltage across it
+    seg_parts = [[("R1", values["R1"], "a", "b"), ("R2", values["R2"], "b", "c"), ("R3", values["R3"], "b", "c")],
+                 [("R4", values["R4"], "c", "d")],
+                 [(n, values[n], f"n{k}", f"n{k + 1}") for k, n in enumerate(names[4:12])] +
+                 [("R13", 1e3, "x", "y")]]
+    rows = []
+    for k in range(40):
+        row = rng.normal(0.0, 10.0 ** rng.uniform(-3, 3), len(names))
+        if k % 7 == 3:
+            row = rows[k - 1][0].copy()  # a tie: the first of equal cases is named
+        if k == 5:
+            row[4:12] = -103382.13303590062  # the worst, and x ** 2 != x * x in the last place: the powers as summed
+        powers = None
+        if k % 5 == 1:
+            powers = {n: float(x) for n, x in zip(values, rng.uniform(0, 2, len(values)))}
+        elif k % 5 == 2:
+            powers = {n: 0.0 for n in values}  # an impulse: no heating
+        rows.append((row, k % 3 == 0, powers, float(np.sqrt(2.0)) if k % 4 == 0 else 1.0, f"case {k}"))
+    tally = _Tally(names, values, seg_parts)
+    for row in rows:
+        tally.add(*row)
+    got = Stress(seg_v=[0.0] * 3, seg_p=[0.0] * 3, seg_v_fs=[0.0] * 3, seg_p_fs=[0.0] * 3, seg_case=[""] * 3)
+    tally.into(got)
+    want = _worst_one_by_one([(dict(zip(names, r.tolist())), *rest) for r, *rest in rows], values, seg_parts)
+    assert got == want  # bit for bit, the dictionaries in the same order
+    assert list(got.v) == list(values)
+    assert len(set(got.seg_case)) > 1 and all(got.seg_case)
+
+
+def test_compiled_cases_shared_by_networks_that_differ_in_values():
+    """A network with other values (every resistor 7 % higher) reuses the compiled cases of the first,
+    and solves as it does with nothing kept (the reference: each case compiled afresh); a contact
+    closed in other positions is another shape."""
+    from dataclasses import replace
+
+    from planner.model import Contact, NetworkSpec, Resistor
+    from planner.sizing.ratings import _CASES
+
+    spec, net, cases = _flagship_cases()
+    other = NetworkSpec(tuple(replace(e, value_ohm=e.value_ohm * 1.07) if isinstance(e, Resistor) else e
+                              for e in net.elements), net.positions, net.contact_style)
+    _CASES.clear()
+    first = LinearNetwork(spec, net)
+    first.solve_ahead(cases)
+    kept = len(_CASES)
+    assert kept == len({(p.name, s) for p, _, s in cases})
+    shared = LinearNetwork(spec, other)
+    assert shared._shape() == first._shape()
+    got = [shared.solve(p, v, s) for p, v, s in cases]
+    assert len(_CASES) == kept  # nothing compiled again
+    want = []
+    for p, v, s in cases:
+        _CASES.clear()
+        want.append(LinearNetwork(spec, other).solve(p, v, s))
+    assert got == want  # bit for bit
+    assert got != [first.solve(p, v, s) for p, v, s in cases]  # the values did change the voltages
+    contacts = [e for e in net.elements if isinstance(e, Contact)]
+    moved = replace(contacts[0], closed_in=tuple(p.name for p in net.positions))
+    third = NetworkSpec(tuple(moved if e is contacts[0] else e for e in net.elements), net.positions)
+    assert LinearNetwork(spec, third)._shape() != first._shape()
+
+
+def test_value_choices_kept_as_made():
+    """A kept value choice is the one :func:`planner.sizing.values.split_choice` makes; a target of
+    another number type is another entry."""
+    from planner.sizing.sizer import _CHOICES, _choice
+    from planner.sizing.values import split_choice
+
+    _CHOICES.clear()
+    for target, k in ((4120.0, 1), (9.0e6, 3), (0.51, 1)):
+        got = _choice("E96", target, k, 1e-3)
+        assert got == split_choice("E96", target, k, 1e-3)
+        assert _choice("E96", target, k, 1e-3) is got
+    n = len(_CHOICES)
+    _choice("E96", np.float64(4120.0), 1, 1e-3)
+    assert len(_CHOICES) == n + 1

@@ -59,6 +59,7 @@ class LinearNetwork:
     def __init__(self, spec: Spec, net: NetworkSpec):
         self.spec = spec
         self.elements = tuple(e for e in net.elements if e.stamp not in ("junction", "varistor"))
+        self.names = tuple(e.name for e in self.elements if e.rated)  # the rated elements, as a row's columns
         self.positions = net.positions
         # on AC (rectifier) voltage positions the diodes conduct: shorted, the multiplier sees the
         # whole input (rms), the bound its rating needs; on AC current positions they stay open, so
@@ -70,6 +71,9 @@ class LinearNetwork:
         self._cases: dict[tuple, tuple | None] = {}  # (shorted, position) -> what every solve of it reuses
         self.last_input_v = 0.0  # the input terminals' voltage of the last solve [V]
         self._ahead: dict[tuple, tuple] = {}  # (shorted, position, value) -> what solve_ahead found
+        self._shape_key = None  # what compiling a case reads of the network (:meth:`_shape`)
+        self._ohm: dict[int, float] = {}  # element index -> nominal resistance at the reference [ohm]
+        self._emf: dict[int, float] = {}  # element index -> EMF at its "max" level [V]
 
     def _net(self, shorted) -> NetworkSpec:
         key = tuple(shorted)
@@ -94,15 +98,19 @@ class LinearNetwork:
         -----
         A value solved ahead by :meth:`solve_ahead` is taken from there.
         """
+        row = self.solve_row(pos, value, shorted)
+        return None if row is None else dict(zip(self.names, row.tolist()))
+
+    def solve_row(self, pos: Position, value: float, shorted=()) -> np.ndarray | None:
+        """:meth:`solve` as an array: the voltage across each element of :attr:`names` [V] (not to be changed)."""
         got = self._ahead.get((tuple(shorted), pos.name, float(value)))
-        if got is not None:
-            out, self.last_input_v = got
-            return dict(out)
-        got = self._solve_values(tuple(shorted), pos.name, [float(value)])
         if got is None:
-            return None
-        out, self.last_input_v = got[0]
-        return out
+            got = self._solve_values(tuple(shorted), pos.name, [float(value)])
+            if got is None:
+                return None
+            got = got[0]
+        row, self.last_input_v = got
+        return row
 
     def solve_ahead(self, requests) -> None:
         """Solve many (position, value, shorted nodes) cases, each circuit once for all its values.
@@ -125,55 +133,121 @@ class LinearNetwork:
                     self._ahead[(shorted, name, v)] = answer
 
     def _solve_values(self, shorted: tuple, position: str, values: list[float]):
-        """(voltages by element, input voltage) for each value of one case; None when it does not solve."""
+        """(voltages over :attr:`names`, input voltage) for each value of one case; None when it does not solve."""
         case = self._case(shorted, position)
         if case is None:
             return None
-        c, r, z, emf, pins = case
+        c, r, z, emf, (_, used, ia, ib) = case
         try:
             sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array(values), emf=emf)
         except SolveError:
             return None
-        nodes = {}
-        zero = np.zeros(len(values))
-        for _, a, b in pins:
-            for i in (a, b):
-                if i is not None and i not in nodes:
-                    nodes[i] = sol.node_voltage(i)[0]
+        # the voltage of every node a pin touches, and a row of zeros for a pin on no node of the circuit
+        v = np.array([sol.node_voltage(i)[0] for i in used] + [np.zeros(len(values))])
+        dv = (v[ia] - v[ib]).T  # (values, pins): the rated elements, then the input terminals
+        return [(dv[k, :-1], float(dv[k, -1])) for k in range(len(values))]
 
-        def v(i):
-            return zero if i is None else nodes[i]
+    def _shape(self) -> tuple | None:
+        """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
 
-        dv = np.array([v(a) - v(b) for _, a, b in pins])  # (pins, values)
-        names = [name for name, _, _ in pins[:-1]]
-        return [(dict(zip(names, dv[:-1, k].tolist())), float(dv[-1, k])) for k in range(len(values))]
+        Each element's designator, kind, stamp and nodes, whether it holds an EMF, and
+        whether it is in circuit and merges its nodes in each position (the diodes'
+        conducting contacts among them); each position's name, input terminals and
+        source. The shorted nodes' contacts, closed in every position, are added by
+        the case. As :func:`planner.network.topology_key` for every position at once:
+        two sizings that differ in values alone share it.
+        """
+        if self._shape_key is None:
+            els = self.elements + self._conducting
+            if any(e.name.startswith("__short") for e in els):  # a name the shorted nodes' contacts take
+                return None
+            closed = [nw.closed_contacts(NetworkSpec(els, self.positions, None), p.name) for p in self.positions]
+            self._shape_key = (
+                tuple((e.name, e.kind, e.stamp, e.nodes, e.emf() != 0.0, tuple(e.present(cl) for cl in closed),
+                       tuple(e.merges(cl) for cl in closed)) for e in els),
+                tuple((p.name, p.input, p.kind.source) for p in self.positions))
+        return self._shape_key
 
     def _case(self, shorted: tuple, position: str):
-        """The compiled state, branch resistances, EMFs and node indices of one (shorted, position) case.
+        """The compiled state, branch resistances, EMFs and pins of one (shorted, position) case.
 
         Made once per network and case: every rating case of that position with those
-        nodes shorted solves the same circuit at another input value. None when the
+        nodes shorted solves the same circuit at another input value. The compiled
+        state and the pins (which node each rated element's ends are) depend on the
+        network's shape alone (:meth:`_shape`): they are kept for the process
+        (:data:`CASES_KEEP`) and shared by the networks of other sizings that differ
+        in values only; the resistances and EMFs are this network's. None when the
         state does not compile.
         """
         key = (shorted, position)
         if key not in self._cases:
             net = self._net(shorted)
-            st = nw.position_states(net)[[p.name for p in net.positions].index(position)]
+            shape = self._shape()
+            skey = None if shape is None else (shape, shorted, position)
+            compiled = _CASES.get(skey) if skey is not None else None
+            if compiled is None:
+                compiled = _compile_case(self.spec, net, position, [el for el in self.elements if el.rated])
+                if skey is not None:
+                    if len(_CASES) >= CASES_KEEP:
+                        _CASES.clear()
+                    _CASES[skey] = compiled
+            if compiled is False:
+                self._cases[key] = None
+                return None
+            c, branch_at, pins = compiled
             try:
-                c = nw.compiled(self.spec, st, net=net)
-                dt = np.zeros((1, 1))
-                r = np.concatenate([np.broadcast_to(net.element(br.element).resistance(self.spec, dt), (1, 1))
-                                    for br in c.branches], axis=1) if c.branches else np.zeros((1, 0))
-                e = np.array([[net.element(br.element).emf("max") if br.role != "source" else 0.0
-                               for br in c.branches]])
+                r, e = self._values(net, c, branch_at)
             except SolveError:
                 self._cases[key] = None
                 return None
-            idx = c.node_index.get
-            pins = [(el.name, idx(el.nodes[0]), idx(el.nodes[1])) for el in self.elements if el.rated]
-            pins.append((None, idx(PLUS), idx(COM)))  # the input terminals
-            self._cases[key] = (c, r, np.zeros((1, 0)), e if np.any(e != 0.0) else None, pins)
+            self._cases[key] = (c, r, np.zeros((1, 0)), e, pins)
         return self._cases[key]
+
+    def _values(self, net: NetworkSpec, c, branch_at):
+        """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
+        if not c.branches:
+            return np.zeros((1, 0)), None
+        dt = np.zeros((1, 1))
+        ohm, emf = self._ohm, self._emf
+        for j in branch_at:
+            if j not in ohm:
+                el = net.elements[j]
+                ohm[j] = np.broadcast_to(el.resistance(self.spec, dt), (1, 1))[0, 0]
+                emf[j] = el.emf("max")
+        r = np.array([[ohm[j] for j in branch_at]], dtype=float)
+        e = np.array([[emf[j] if br.role != "source" else 0.0 for j, br in zip(branch_at, c.branches)]])
+        return r, (e if np.any(e != 0.0) else None)
+
+
+#: Compiled rating cases by the linear network's shape, shorted nodes and position
+#: (:meth:`LinearNetwork._case`); cleared when it holds this many.
+CASES_KEEP = 4096
+_CASES: dict = {}
+
+
+def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated):
+    """(compiled state, element index of each branch, pins) of one position of ``net``; False when it does not compile.
+
+    The pins are the rated elements' names, the node indices the solution is read at,
+    and for each rated element (then the input terminals) the rows of its two ends in
+    those voltages (the last row for an end on no node of the circuit: zero).
+    """
+    p = net.position(position)
+    st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
+    try:
+        c = nw.compile_state(spec, st, net=net)
+    except SolveError:
+        return False
+    at = {e.name: j for j, e in enumerate(net.elements)}
+    branch_at = tuple(at[br.element] for br in c.branches)
+    idx = c.node_index.get
+    ends = [(idx(el.nodes[0]), idx(el.nodes[1])) for el in rated]
+    ends.append((idx(PLUS), idx(COM)))  # the input terminals
+    used = list(dict.fromkeys(i for pair in ends for i in pair if i is not None))
+    row = {i: k for k, i in enumerate(used)}
+    ia = np.array([len(used) if a is None else row[a] for a, _ in ends], dtype=np.intp)
+    ib = np.array([len(used) if b is None else row[b] for _, b in ends], dtype=np.intp)
+    return c, branch_at, ([el.name for el in rated], tuple(used), ia, ib)
 
 
 def rating_cases(spec: Spec, layout: Layout):
@@ -223,35 +297,80 @@ class Stress:
     errors: dict[str, float] = field(default_factory=dict)  # position -> relative error
 
 
-def _add_parts(st: Stress, dv: dict, values: dict, fs: bool, powers: dict | None = None, crest: float = 1.0) -> None:
-    for name, r in values.items():
-        vv = abs(dv.get(name, 0.0))
-        pp = vv * vv / r if powers is None else powers.get(name, vv * vv / r)
-        vv *= crest  # the peak of a wave given as rms: what the limiting element voltage is held against
-        st.v[name] = max(st.v.get(name, 0.0), vv)
-        st.p[name] = max(st.p.get(name, 0.0), pp)
-        if fs:
-            st.v_fs[name] = max(st.v_fs.get(name, 0.0), vv)
-            st.p_fs[name] = max(st.p_fs.get(name, 0.0), pp)
+class _Tally:
+    """The rating cases' element voltages, gathered a row per case and reduced into a :class:`Stress` at the end.
 
+    A row holds the voltage across each rated element (:attr:`LinearNetwork.names`) [V],
+    with whether it is a full-scale case, the powers a protective part's pulse gives
+    (None: :math:`V^2 / R`), its crest factor and its label. :meth:`into` takes the worst
+    of every column over the rows, as adding the cases one by one would: the same
+    products, the same sums in the same order, the first worst case named.
+    """
 
-def _add_segments(st: Stress, dv: dict, seg_parts, label: str, fs: bool, powers: dict | None = None,
-                  crest: float = 1.0) -> None:
-    for j, parts in enumerate(seg_parts):
-        # voltage across the whole segment: sum of the series units' voltages
-        seen_units = {}
-        for name, val, a, b in parts:
-            seen_units.setdefault((a, b), dv.get(name, 0.0))
-        sv = abs(sum(seen_units.values())) * crest
-        sp = sum(dv.get(name, 0.0) ** 2 / val if powers is None else powers.get(name, dv.get(name, 0.0) ** 2 / val)
-                 for name, val, _, _ in parts)
-        if sp > st.seg_p[j]:
-            st.seg_p[j] = sp
-            st.seg_case[j] = label
-        st.seg_v[j] = max(st.seg_v[j], sv)
-        if fs:
-            st.seg_v_fs[j] = max(st.seg_v_fs[j], sv)
-            st.seg_p_fs[j] = max(st.seg_p_fs[j], sp)
+    def __init__(self, names, values: dict, seg_parts):
+        col = {n: k for k, n in enumerate(names)}
+        zero = len(names)  # a column of zeros: a name no row holds
+        self.res = list(values)
+        self.res_col = np.array([col.get(n, zero) for n in self.res], dtype=np.intp)
+        self.res_ohm = np.array([values[n] for n in self.res], dtype=float)
+        self.segs = []
+        for parts in seg_parts:
+            units = {}  # a segment's series units, each by its first part
+            for name, val, a, b in parts:
+                units.setdefault((a, b), col.get(name, zero))
+            self.segs.append(([(name, col.get(name, zero), val) for name, val, _, _ in parts], list(units.values())))
+        self.rows, self.fs, self.powers, self.crest, self.labels = [], [], [], [], []
+
+    def add(self, row: np.ndarray, fs: bool, powers: dict | None, crest: float, label: str) -> None:
+        self.rows.append(row)
+        self.fs.append(fs)
+        self.powers.append(powers)
+        self.crest.append(crest)
+        self.labels.append(label)
+
+    def into(self, st: Stress) -> None:
+        """The worst voltage and power of each part and segment over the rows, into ``st`` (its segments' lists
+        made, its part dictionaries empty)."""
+        if not self.rows:
+            return
+        d = np.array(self.rows)
+        d = np.concatenate([d, np.zeros((len(d), 1))], axis=1)
+        fs = np.array(self.fs, dtype=bool)
+        crest = np.array(self.crest, dtype=float)
+        paced = [i for i, pw in enumerate(self.powers) if pw is not None]
+        v = np.abs(d[:, self.res_col])
+        p = v * v / self.res_ohm
+        for i in paced:
+            pw = self.powers[i]
+            p[i] = [pw.get(n, p[i, k]) for k, n in enumerate(self.res)]
+        v = v * crest[:, None]  # the peak of a wave given as rms: what the limiting element voltage is held against
+        st.v.update(zip(self.res, np.max(v, axis=0, initial=0.0).tolist()))
+        st.p.update(zip(self.res, np.max(p, axis=0, initial=0.0).tolist()))
+        if fs.any():
+            st.v_fs.update(zip(self.res, np.max(v[fs], axis=0, initial=0.0).tolist()))
+            st.p_fs.update(zip(self.res, np.max(p[fs], axis=0, initial=0.0).tolist()))
+        sq = np.array([[x ** 2 for x in r] for r in d.tolist()])  # V^2 as the parts' powers are summed
+        for j, (parts, units) in enumerate(self.segs):
+            if not parts:
+                continue
+            sp = None  # a segment's power: the sum over its parts
+            for name, k, val in parts:
+                term = sq[:, k] / val
+                for i in paced:
+                    term[i] = self.powers[i].get(name, term[i])
+                sp = term if sp is None else sp + term
+            sv = d[:, units[0]]  # its voltage: the sum over its series units
+            for k in units[1:]:
+                sv = sv + d[:, k]
+            sv = np.abs(sv) * crest
+            worst = int(np.argmax(sp))
+            if sp[worst] > st.seg_p[j]:
+                st.seg_p[j] = float(sp[worst])
+                st.seg_case[j] = self.labels[worst]
+            st.seg_v[j] = max(st.seg_v[j], float(np.max(sv)))
+            if fs.any():
+                st.seg_v_fs[j] = max(st.seg_v_fs[j], float(np.max(sv[fs])))
+                st.seg_p_fs[j] = max(st.seg_p_fs[j], float(np.max(sp[fs])))
 
 
 def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[PartRow]], *,
@@ -335,46 +454,54 @@ def _stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list
     cases, impulses = rating_cases(spec, layout), impulse_cases(spec, layout)
     lin.solve_ahead([(pos, value, shorted) for _, pos, value, shorted, _ in cases] +
                     [(pos, value, shorted) for _, pos, value, shorted in impulses])
+    tally = _Tally(lin.names, values, seg_parts)
+    col = {n: k for k, n in enumerate(lin.names)}
+    guards = [e for e in net.elements if _guards(e)]
+
+    def by_name(row, names):
+        return {n: float(row[col[n]]) for n in names if n in col}
+
+    def powers_for(row, t_act):
+        dv = by_name(row, values)
+        return {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
+
     for label, pos, value, shorted, fs in cases:
-        dv = lin.solve(pos, value, shorted)
-        if dv is None:
+        row = lin.solve_row(pos, value, shorted)
+        if row is None:
             continue
         if fs and errors and pos.kind.waveform != "dc":  # an AC position: solved through its rectifier
             st.errors[pos.name] = nominal_error(spec, net, pos)
         elif fs and errors and pos.center is None:  # an ohms position has no linear full scale (docs/ohms.md)
-            i_m = dv["M1"] / m.r_coil_ohm
+            i_m = float(row[col["M1"]]) / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         powers = None
-        t_act = None if fs else protective_time(spec, net, dv)
+        t_act = None if fs else _protective_time(spec, guards, by_name(row, (e.name for e in guards)))
         if t_act is not None:  # a protective part acts first: each part rated for the pulse until it does
-            powers = {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
+            powers = powers_for(row, t_act)
             label += f" (until the protection acts, {t_act:.3g} s)"
         # an AC position is read with a sine, and the maximum input comes as a sine too (faults' max input
         # sine): the peak is what the limiting element voltage is held against
         crest = math.sqrt(2.0) if pos.kind.waveform == "sine" else 1.0
-        _add_parts(st, dv, values, fs, powers, crest)
-        _add_segments(st, dv, seg_parts, label, fs, powers, crest)
+        tally.add(row, fs, powers, crest, label)
         separate = pos.kind.waveform != "dc" or (spec.current is not None and spec.current.arrangement == "separate")
         if fs and separate and pos.kind.source == "current" and vmax is not None and lin.last_input_v > 0.0:
             # the maximum input voltage across a separate (or AC) shunt: its current is vmax / R_in (linear,
             # diodes open), and its parts carry that pulse until the fuse ahead of them clears (a ring is
             # left to its crowbar and fuse, judged by the faults analysis)
-            dv = lin.solve(pos, value * vmax / lin.last_input_v, shorted)
-            if dv is None:
+            row = lin.solve_row(pos, value * vmax / lin.last_input_v, shorted)
+            if row is None:
                 continue
-            t_act = protective_time(spec, net, dv)
-            powers = None if t_act is None else {
-                n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
+            t_act = _protective_time(spec, guards, by_name(row, (e.name for e in guards)))
+            powers = None if t_act is None else powers_for(row, t_act)
             mlabel = f"{fmt(vmax, 'V')} max input on {pos.name}" + (
                 "" if t_act is None else f" (until the protection acts, {t_act:.3g} s)")
-            _add_parts(st, dv, values, False, powers)
-            _add_segments(st, dv, seg_parts, mlabel, False, powers)
+            tally.add(row, False, powers, 1.0, mlabel)
+    zero = {n: 0.0 for n in values}
     for label, pos, value, shorted in impulses:  # peak voltage only: no heating
-        dv = lin.solve(pos, value, shorted)
-        if dv is not None:
-            zero = {n: 0.0 for n in values}
-            _add_parts(st, dv, values, False, zero)
-            _add_segments(st, dv, seg_parts, label, False, zero)
+        row = lin.solve_row(pos, value, shorted)
+        if row is not None:
+            tally.add(row, False, zero, 1.0, label)
+    tally.into(st)
     return st
 
 
@@ -404,8 +531,18 @@ def protective_time(spec: Spec, net: NetworkSpec, dv: dict) -> float | None:
     at its power), a fuse clears (:func:`planner.parts.fuse.fuse_let_through`); the
     first of them ends the pulse the other parts carry.
     """
+    return _protective_time(spec, net.elements, dv)
+
+
+def _guards(e) -> bool:
+    """Whether an element is one :func:`protective_time` reads: a PTC, a fusible resistor, a fuse."""
+    return e.kind in ("ptc", "fuse") or (e.kind == "resistor" and getattr(e, "fusible", False))
+
+
+def _protective_time(spec: Spec, elements, dv: dict) -> float | None:
+    """:func:`protective_time` over ``elements``."""
     t = math.inf
-    for e in net.elements:
+    for e in elements:
         v = abs(dv.get(e.name, 0.0))
         if e.kind == "ptc":
             m = spec.parts.ptcs[e.model]

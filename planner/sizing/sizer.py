@@ -26,6 +26,9 @@ __all__ = ["size", "sized_spec"]
 
 #: Most rounds of value choice and re-rating.
 _ROUNDS = 40
+#: Value choices kept (:func:`_choice`); cleared when it holds this many.
+CHOICES_KEEP = 4096
+_CHOICES: dict = {}
 
 
 @dataclass(frozen=True)
@@ -128,7 +131,7 @@ def _settle(req: _Request, rates: list[Rate], st0: Stress):
     """
     budget = req.allowed
     for _ in range(_ROUNDS):
-        choices = [split_choice(req.series, sp.target, r.k, budget) for sp, r in zip(req.layout.segments, rates)]
+        choices = [_choice(req.series, sp.target, r.k, budget) for sp, r in zip(req.layout.segments, rates)]
         net, seg_parts = assemble(req.spec, req.layout, choices, [req.ladder[r.index] for r in rates], req.series)
         st = stresses(req.spec, req.layout, net, seg_parts)
         changed = revise_rates(rates, req.ladder, st, st0, seg_parts, req.layout.segments)
@@ -138,6 +141,23 @@ def _settle(req: _Request, rates: list[Rate], st0: Stress):
         if not changed:
             break
     return choices, net, seg_parts, st
+
+
+def _choice(series: str, target: float, k: int, budget: float) -> Choice:
+    """:func:`planner.sizing.values.split_choice`, kept for the process.
+
+    A choice depends on its arguments alone (the series' tables are fixed), and the
+    sizings of one command (the protect search's clamp placements, its protection
+    parts) ask for the same segments' values again. The arguments' types are in the
+    key, so a choice made of one number type is never handed back for another.
+    """
+    key = (series, target, type(target), k, budget, type(budget))
+    got = _CHOICES.get(key)
+    if got is None:
+        if len(_CHOICES) >= CHOICES_KEEP:
+            _CHOICES.clear()
+        got = _CHOICES[key] = split_choice(series, target, k, budget)
+    return got
 
 
 def _findings(req: _Request, sp: SegmentPlan, ch: Choice, parts: tuple[PartPlan, ...], rating, case: str):
