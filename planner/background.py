@@ -94,18 +94,6 @@ class Pending:
                 self._proc.join()
             self._proc = None
 
-    def busy(self) -> bool:
-        """Whether a child is still at work on the analysis (its answer not sent yet); never waits.
-
-        False without a child (the analysis then runs here, when :meth:`result` asks for it).
-        """
-        if self._conn is None or self._done is not None:
-            return False
-        try:
-            return not self._conn.poll(0)
-        except (EOFError, OSError):
-            return False
-
     def cancel(self) -> None:
         """Stop the child (if any) without waiting for its answer."""
         if self._proc is not None and self._proc.is_alive():

@@ -45,26 +45,6 @@ def test_an_exception_comes_back_as_its_text(parallel):
 
 
 @fork_only
-def test_busy_while_the_child_works_and_not_once_its_answer_is_there():
-    import time
-
-    with beside(lambda: time.sleep(0.5) or "late", _text, parallel=True) as pending:
-        assert pending.busy()  # asleep in the child: its answer cannot be there yet
-        deadline = time.monotonic() + 30.0
-        while pending.busy() and time.monotonic() < deadline:
-            time.sleep(0.02)  # never waits inside busy(): asked again until the answer is there
-        assert not pending.busy()
-        assert pending.result() == ("late", None)
-        assert not pending.busy()
-
-
-def test_never_busy_without_a_child():
-    pending = beside(lambda: 1, _text, parallel=False)
-    assert not pending.busy()  # the work is done here, when asked: the other core is free
-    assert pending.result() == (1, None) and not pending.busy()
-
-
-@fork_only
 def test_a_child_that_dies_leaves_the_work_to_the_parent():
     parent = os.getpid()
 

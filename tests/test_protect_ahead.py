@@ -57,25 +57,6 @@ def test_without_a_worker_nothing_is_sent():
         assert ahead.take() is None
 
 
-def test_no_worker_while_the_other_core_is_busy_then_one_once_it_is_free():
-    free = []
-    with Ahead(_task, parallel=True, busy=lambda: not free) as ahead:
-        assert not ahead.idle and not ahead.send("k", 1.0)  # the other core is taken: evaluated here
-        free.append(True)
-        assert ahead.idle  # started at the first ask once the core is free
-        assert ahead.send("k", 5.0) and ahead.take() == _task(5.0)
-
-
-def test_a_core_free_from_the_start_starts_the_worker_at_once():
-    with Ahead(_task, parallel=True, busy=lambda: False) as ahead:
-        assert ahead.idle and ahead.send("k", 2.0) and ahead.take() == _task(2.0)
-
-
-def test_a_forbidden_worker_is_never_started_by_a_free_core():
-    with Ahead(_task, parallel=False, busy=lambda: False) as ahead:
-        assert not ahead.idle and not ahead.send("k", 1.0)
-
-
 def test_a_worker_whose_caller_died_ends():
     """The caller killed while its worker waits for the next item: the worker ends with it."""
     from processes import orphan_ends

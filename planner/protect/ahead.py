@@ -35,12 +35,6 @@ class Ahead:
     parallel : bool, optional
         Force (True) or forbid (False) the worker; by default one is started
         where this process may run on two cores or more and ``fork`` exists.
-    busy : callable() -> bool, optional
-        Whether the second core is still taken by other work (a child process of
-        this command, :meth:`planner.background.Pending.busy`). While it is, no
-        worker is started: the worker would only share that core with it, and
-        what it evaluated ahead in vain would slow both. The worker is started
-        at the first :meth:`send` after the core is free.
 
     Notes
     -----
@@ -48,28 +42,18 @@ class Ahead:
     One item is in flight at a time: :meth:`send` refuses a second.
     """
 
-    def __init__(self, task: Callable[[Any], Any], parallel: bool | None = None,
-                 busy: Callable[[], bool] | None = None):
+    def __init__(self, task: Callable[[Any], Any], parallel: bool | None = None):
         self._task = task
         self._proc = None
         self._conn = None
         self._flight = None  # the key of the item in flight
-        self._busy = None  # while set, the worker is still to be started once it returns False
         if parallel is None:
             parallel = cores() >= 2
         if parallel:
-            if busy is not None and busy():
-                self._busy = busy
-            else:
-                self._begin()
-
-    def _begin(self) -> None:
-        """Start the worker (none when it cannot be started: everything is then evaluated here)."""
-        self._busy = None
-        try:
-            self._start()
-        except Exception:  # noqa: BLE001 - no worker: everything is evaluated here
-            self._proc = self._conn = None
+            try:
+                self._start()
+            except Exception:  # noqa: BLE001 - no worker: everything is evaluated here
+                self._proc = self._conn = None
 
     def _start(self) -> None:
         import multiprocessing
@@ -88,12 +72,7 @@ class Ahead:
 
     @property
     def idle(self) -> bool:
-        """Whether an item can be sent now (a worker runs and nothing is in flight).
-
-        A worker held back while the second core was busy is started here once it is free.
-        """
-        if self._busy is not None and not self._busy():
-            self._begin()
+        """Whether an item can be sent now (a worker runs and nothing is in flight)."""
         return self._conn is not None and self._flight is None
 
     def holds(self, key) -> bool:
@@ -149,7 +128,6 @@ class Ahead:
         conn, proc = self._conn, self._proc
         self._conn = self._proc = None
         self._flight = None
-        self._busy = None
         if conn is not None:
             try:
                 conn.send(None)

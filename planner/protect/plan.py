@@ -136,15 +136,14 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         movement = Site("movement", "movement", ctx.movement.a)
         across = Combo(movement, Stack(model, 1), Stack(model, 1))
 
-        # the search's worker waits for the second core while the child judges the project as given
-        points, info, evaluated = branch_and_bound(ctx, parallel=parallel, busy=given.busy)
+        points, info, evaluated = branch_and_bound(ctx, parallel=parallel)
 
         # every feasible placement found, best first -> standard values -> the faults
         # matrix's phase points -> Pareto set and choice on those final numbers
         ctx.say("clamps across the movement")
         pa = final(ctx, Point(across, None, None, False))
         across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
-        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel, given.busy)
+        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel)
         table, chosen = _pareto_table(finals)
         result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         ctx.say("the misrange matrices of the project as given and of its protection parts")
@@ -193,7 +192,7 @@ def _check_settings(share, max_candidates, seed) -> None:
 
 
 def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict,
-                parallel: bool | None = False, busy=None) -> list[dict]:
+                parallel: bool | None = False) -> list[dict]:
     """The rows of the best feasible placements, made of standard values and evaluated again.
 
     The clamps across the movement come first (as a candidate); then up to
@@ -203,8 +202,7 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     infeasible one (only feasible rows enter the Pareto table: it is found out
     at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
     With ``parallel``, the next placement is realised ahead in a forked worker
-    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one, once the
-    second core is no longer ``busy``.
+    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one.
     """
     finals = [dict(across_row, label="candidate")]
     seen = {across_row["key"]}
@@ -221,7 +219,7 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     # a placement costs at most 2 x REALISE_TRIES evaluations: with room for all of them the cap cannot
     # stop the pass, so the placements are independent and the next one may be realised ahead on the worker
     room = ctx.max_candidates - ctx.evaluated >= 2 * REALISE_TRIES * len(todo)
-    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False, busy=busy) as ahead:
+    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False) as ahead:
         for i, p in enumerate(todo):
             got = ahead.turn(i, len(todo))
             if got is not None:

@@ -438,8 +438,7 @@ class _BranchAndBound:
                 self.points[p.combo.key()] = q
 
 
-def branch_and_bound(ctx: SearchContext, parallel: bool | None = False,
-                     busy=None) -> tuple[list[Point], dict, dict]:
+def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
     """Branch-and-bound over sites and stacks.
 
     Parameters
@@ -449,9 +448,6 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False,
         Evaluate the combo that would come next in a forked worker while this
         process evaluates the current one (:class:`planner.protect.ahead.Ahead`;
         None: where a second core allows it). The search is the same.
-    busy : callable() -> bool, optional
-        Whether the second core is still taken by another child of the command:
-        the worker waits for it (:class:`planner.protect.ahead.Ahead`).
 
     Returns
     -------
@@ -491,7 +487,7 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False,
     A. H. Land and A. G. Doig, "An automatic method of solving discrete
     programming problems", Econometrica 28(3), 497-520, 1960 (branch and bound).
     """
-    with Ahead(ahead_task(ctx), parallel=parallel, busy=busy) as ahead:
+    with Ahead(ahead_task(ctx), parallel=parallel) as ahead:
         bb = _BranchAndBound(ctx, ahead)
         try:
             bb.bound_sites()
