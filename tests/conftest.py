@@ -25,6 +25,27 @@ PROJECTS = ROOT / "projects"
 VOLTMETER = PROJECTS / "pocket_voltmeter.yaml"
 AMMETER = PROJECTS / "bench_ammeter.yaml"
 
+# An invented scenario: a three-range school-lab voltmeter the sizer builds (no explicit network); the protect
+# tests search it.
+SCHOOL = """\
+# An invented scenario: a three-range DC voltmeter for a school physics lab bench.
+title: Hollis Road lab voltmeter
+movement: {full_scale_current: 100 uA, coil_resistance: 1 kohm, class: 2.5}
+ambient: {reference: 23 degC, min: 15 degC, max: 35 degC}
+parts:
+  resistors: {series: E96, tolerance: 1 %, tempco: 100 ppm/K, power: 0.25 W, max_voltage: 250 V}
+  diodes:
+    si_small: {saturation_current: 5 nA, emission: 1.9, series_resistance: 0.5 ohm,
+               leakage_resistance: 1 Gohm, max_current: 200 mA, surge_current: 1 A, max_power: 500 mW}
+voltage: {arrangement: chain, full_scales: [1 V, 5 V, 25 V]}
+clamps:
+  - {across: movement, forward: si_small, reverse: si_small}
+faults:
+  max_input: 30 V
+  sources:
+    - {name: lab supply, voltage: 30 V, impedance: 0.1 ohm, current_limit: 2 A}
+"""
+
 
 @pytest.fixture(scope="session")
 def voltmeter_spec() -> model.Spec:
