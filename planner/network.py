@@ -22,6 +22,7 @@ import numpy as np
 
 from .errors import ProjectError, SolveError
 from .model import MovementElement, NetworkSpec, Position, Spec
+from .solve.memo import Kept
 from .tools import nearest
 
 POSITION = "position"
@@ -350,9 +351,8 @@ def _with_sources(net, st, plus, minus, live, alias):
     return set(joined), {}
 
 
-#: Compiled states by topology (:func:`compiled`); cleared when it holds this many.
-COMPILED_KEEP = 4096
-_COMPILED: dict = {}
+#: Compiled states by topology (:func:`compiled`).
+_COMPILED = Kept(4096)
 
 
 def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
@@ -369,8 +369,8 @@ def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
 
 
 #: Topology keys by the network and state objects they were made of (both frozen: a key
-#: is made once per pair, not on every call); cleared when it holds COMPILED_KEEP.
-_KEYS: dict = {}
+#: is made once per pair, not on every call).
+_KEYS = Kept(4096)
 
 
 def _topology_key_of(net: NetworkSpec, st: SwitchState) -> tuple:
@@ -378,11 +378,7 @@ def _topology_key_of(net: NetworkSpec, st: SwitchState) -> tuple:
     hit = _KEYS.get((id(net), id(st)))
     if hit is not None:  # the entry holds net and st, so their ids name no other objects
         return hit[2]
-    key = topology_key(net, st)
-    if len(_KEYS) >= COMPILED_KEEP:
-        _KEYS.clear()
-    _KEYS[(id(net), id(st))] = (net, st, key)
-    return key
+    return _KEYS.keep((id(net), id(st)), (net, st, topology_key(net, st)))[2]
 
 
 def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source_resistance: bool = False,
@@ -398,10 +394,8 @@ def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source
     key = (_topology_key_of(net, st), kind, bool(source_resistance))
     circuit = _COMPILED.get(key)
     if circuit is None:
-        circuit = compile_state(spec, st, stimulus=kind, source_resistance=source_resistance, net=net)
-        if len(_COMPILED) >= COMPILED_KEEP:
-            _COMPILED.clear()
-        _COMPILED[key] = circuit
+        circuit = _COMPILED.keep(key, compile_state(spec, st, stimulus=kind, source_resistance=source_resistance,
+                                                     net=net))
     return circuit
 
 

@@ -25,6 +25,7 @@ from ..parts.fusible import time_to_open_s
 from ..parts.ptc import time_to_trip_s
 from ..parts.resistor import SHORT_OVERLOAD_POWER_FACTOR, SHORT_OVERLOAD_S
 from ..solve import Junctions, solve
+from ..solve.memo import Kept
 from ..tools import fmt
 from .assemble import PartRow
 from .layout import COM, PLUS, Layout, SegmentPlan
@@ -175,7 +176,7 @@ class LinearNetwork:
         nodes shorted solves the same circuit at another input value. The compiled
         state and the pins (which node each rated element's ends are) depend on the
         network's shape alone (:meth:`_shape`): they are kept for the process
-        (:data:`CASES_KEEP`) and shared by the networks of other sizings that differ
+        (:data:`_CASES`) and shared by the networks of other sizings that differ
         in values only; the resistances and EMFs are this network's. None when the
         state does not compile.
         """
@@ -188,9 +189,7 @@ class LinearNetwork:
             if compiled is None:
                 compiled = _compile_case(self.spec, net, position, [el for el in self.elements if el.rated])
                 if skey is not None:
-                    if len(_CASES) >= CASES_KEEP:
-                        _CASES.clear()
-                    _CASES[skey] = compiled
+                    _CASES.keep(skey, compiled)
             if compiled is False:
                 self._cases[key] = None
                 return None
@@ -220,9 +219,8 @@ class LinearNetwork:
 
 
 #: Compiled rating cases by the linear network's shape, shorted nodes and position
-#: (:meth:`LinearNetwork._case`); cleared when it holds this many.
-CASES_KEEP = 4096
-_CASES: dict = {}
+#: (:meth:`LinearNetwork._case`).
+_CASES = Kept(4096)
 
 
 def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated):
@@ -399,15 +397,12 @@ def stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list[
         return _stresses(spec, layout, net, seg_parts, errors)
     got = _STRESSES.get(key[0])
     if got is None:
-        if len(_STRESSES) >= STRESSES_KEEP:
-            _STRESSES.clear()
-        got = _STRESSES[key[0]] = (_stresses(spec, layout, net, seg_parts, errors), key[1])
+        got = _STRESSES.keep(key[0], (_stresses(spec, layout, net, seg_parts, errors), key[1]))
     return _copy_stress(got[0])
 
 
-#: Stresses kept by what they are computed from (:func:`stresses`); cleared when it holds this many.
-STRESSES_KEEP = 64
-_STRESSES: dict = {}
+#: Stresses kept by what they are computed from (:func:`stresses`).
+_STRESSES = Kept(64)
 
 
 def _stress_key(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts, errors: bool):
@@ -461,6 +456,9 @@ def _stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list
     def by_name(row, names):
         return {n: float(row[col[n]]) for n in names if n in col}
 
+    def acting(row):  # how soon a protective part acts in this case [s], None when none does
+        return protective_time(spec, guards, by_name(row, (e.name for e in guards)))
+
     def powers_for(row, t_act):
         dv = by_name(row, values)
         return {n: equivalent_power_w(dv.get(n, 0.0) ** 2 / r, t_act, ladder, pulses) for n, r in values.items()}
@@ -475,7 +473,7 @@ def _stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list
             i_m = float(row[col["M1"]]) / m.r_coil_ohm
             st.errors[pos.name] = i_m / m.i_fs_a - 1.0
         powers = None
-        t_act = None if fs else _protective_time(spec, guards, by_name(row, (e.name for e in guards)))
+        t_act = None if fs else acting(row)
         if t_act is not None:  # a protective part acts first: each part rated for the pulse until it does
             powers = powers_for(row, t_act)
             label += f" (until the protection acts, {t_act:.3g} s)"
@@ -491,7 +489,7 @@ def _stresses(spec: Spec, layout: Layout, net: NetworkSpec, seg_parts: list[list
             row = lin.solve_row(pos, value * vmax / lin.last_input_v, shorted)
             if row is None:
                 continue
-            t_act = _protective_time(spec, guards, by_name(row, (e.name for e in guards)))
+            t_act = acting(row)
             powers = None if t_act is None else powers_for(row, t_act)
             mlabel = f"{fmt(vmax, 'V')} max input on {pos.name}" + (
                 "" if t_act is None else f" (until the protection acts, {t_act:.3g} s)")
@@ -523,24 +521,21 @@ def impulse_cases(spec: Spec, layout: Layout):
              p, v_imp, sh) for p in layout.positions if p.kind.source == "voltage" for sh in corners]
 
 
-def protective_time(spec: Spec, net: NetworkSpec, dv: dict) -> float | None:
-    """How soon a protective part acts in a linear rating case [s] (None: none within the 5 s short-time overload).
-
-    The input PTC trips (:func:`planner.parts.ptc.time_to_trip_s` at its cold-state
-    current), a fusible resistor opens (:func:`planner.parts.fusible.time_to_open_s`
-    at its power), a fuse clears (:func:`planner.parts.fuse.fuse_let_through`); the
-    first of them ends the pulse the other parts carry.
-    """
-    return _protective_time(spec, net.elements, dv)
-
-
 def _guards(e) -> bool:
     """Whether an element is one :func:`protective_time` reads: a PTC, a fusible resistor, a fuse."""
     return e.kind in ("ptc", "fuse") or (e.kind == "resistor" and getattr(e, "fusible", False))
 
 
-def _protective_time(spec: Spec, elements, dv: dict) -> float | None:
-    """:func:`protective_time` over ``elements``."""
+def protective_time(spec: Spec, elements, dv: dict) -> float | None:
+    """How soon a protective part acts in a linear rating case [s] (None: none within the 5 s short-time overload).
+
+    Of ``elements`` (a network's, or only its :func:`_guards`), with ``dv`` the voltage
+    across each by name [V]: the input PTC trips (:func:`planner.parts.ptc.time_to_trip_s`
+    at its cold-state current), a fusible resistor opens
+    (:func:`planner.parts.fusible.time_to_open_s` at its power), a fuse clears
+    (:func:`planner.parts.fuse.fuse_let_through`); the first of them ends the pulse the
+    other parts carry.
+    """
     t = math.inf
     for e in elements:
         v = abs(dv.get(e.name, 0.0))

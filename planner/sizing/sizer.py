@@ -12,6 +12,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from ..model import NetworkSpec, Spec
+from ..solve.memo import Kept
 from ..tools import fmt
 from ..trim import plan_trims
 from .assemble import PartRow, assemble
@@ -26,9 +27,8 @@ __all__ = ["size", "sized_spec"]
 
 #: Most rounds of value choice and re-rating.
 _ROUNDS = 40
-#: Value choices kept (:func:`_choice`); cleared when it holds this many.
-CHOICES_KEEP = 4096
-_CHOICES: dict = {}
+#: Value choices kept (:func:`_choice`).
+_CHOICES = Kept(4096)
 
 
 @dataclass(frozen=True)
@@ -153,11 +153,7 @@ def _choice(series: str, target: float, k: int, budget: float) -> Choice:
     """
     key = (series, target, type(target), k, budget, type(budget))
     got = _CHOICES.get(key)
-    if got is None:
-        if len(_CHOICES) >= CHOICES_KEEP:
-            _CHOICES.clear()
-        got = _CHOICES[key] = split_choice(series, target, k, budget)
-    return got
+    return got if got is not None else _CHOICES.keep(key, split_choice(series, target, k, budget))
 
 
 def _findings(req: _Request, sp: SegmentPlan, ch: Choice, parts: tuple[PartPlan, ...], rating, case: str):

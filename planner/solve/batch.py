@@ -12,6 +12,7 @@ from .chains import reduce as reduce_chains
 from .circuit import Circuit, Junctions, Varistors
 from .junction import EXP_MAX
 from .linear import LinearPart
+from .memo import Kept
 from .results import Solution, check_batch
 from .start import initial, segments, zero_where_undriven
 
@@ -62,7 +63,7 @@ def columns(a) -> list:
 
 #: Structures and segments of recently solved circuits, by their topology (an engine solves the
 #: same few switch states many times).
-_STRUCTURES: dict = {}
+_STRUCTURES = Kept(256)
 
 
 def _structure(circuit: Circuit, lin: LinearPart, pattern, inject):
@@ -74,10 +75,7 @@ def _structure(circuit: Circuit, lin: LinearPart, pattern, inject):
     hit = _STRUCTURES.get(key)
     if hit is None:
         st = nt.Structure(circuit, lin, pattern)
-        hit = (st, segments(st, inject=inject))
-        if len(_STRUCTURES) >= 256:
-            _STRUCTURES.clear()
-        _STRUCTURES[key] = hit
+        hit = _STRUCTURES.keep(key, (st, segments(st, inject=inject)))
     return hit
 
 

@@ -21,8 +21,10 @@ import dataclasses
 import numpy as np
 
 from .circuit import Circuit, Junctions
+from .memo import Kept
 
-_CHAINS: dict = {}
+#: Chains of recently reduced circuits, by their topology (:func:`_topology`).
+_CHAINS = Kept(256)
 
 
 def _topology(circuit: Circuit):
@@ -96,10 +98,7 @@ def find_chains(circuit: Circuit):
         seen.update(ports)
         if len(ports) >= 2 and start != node:
             out.append((start, node, nodes, [per_port[p][0] for p in ports], ports))
-    if len(_CHAINS) >= 256:
-        _CHAINS.clear()
-    _CHAINS[key] = out
-    return out
+    return _CHAINS.keep(key, out)
 
 
 class Reduction:

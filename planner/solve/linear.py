@@ -17,6 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import SolveError
+from .memo import Kept
 
 #: Upper bound on floats held by one chunk of the linear solve (memory limit).
 CHUNK_FLOATS = 4_000_000
@@ -150,9 +151,8 @@ class LinearPart:
         return "none", 0
 
 
-#: Structures of compiled circuits (:func:`_structure`) by their index arrays; cleared when it holds this many.
-STRUCTURES_KEEP = 256
-_STRUCTURES: dict = {}
+#: Structures of compiled circuits (:func:`_structure`) by their index arrays.
+_STRUCTURES = Kept(256)
 
 
 def _structure(circuit, skip: tuple):
@@ -227,10 +227,7 @@ def _structure(circuit, skip: tuple):
     ff_cols = np.nonzero(np.any(s_ff != 0.0, axis=0))[0]
     s_ff = (ff_cols, np.ascontiguousarray(s_ff[:, ff_cols]))
     out = (fixed, touched, interior, floating, anchors, grounded, t_pos, i_pos, anchor_nodes, f, pos, s_ff, s_h, s_e)
-    if len(_STRUCTURES) >= STRUCTURES_KEEP:
-        _STRUCTURES.clear()
-    _STRUCTURES[key] = out
-    return out
+    return _STRUCTURES.keep(key, out)
 
 
 def isolated_hint(circuit) -> str:

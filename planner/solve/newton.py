@@ -23,6 +23,7 @@ import numpy as np
 
 from . import junction as jl
 from . import varistor as vl
+from .memo import Kept
 from .sparse import Elimination
 from .together import Together, nonzero
 
@@ -117,9 +118,8 @@ class Junction:
 
 
 #: Junctions whose every parameter is one float, by their parameters (a switch state's
-#: diodes are the same few in every call); cleared when it holds this many.
-SHARED_KEEP = 1024
-_SHARED: dict = {}
+#: diodes are the same few in every call).
+_SHARED = Kept(1024)
 
 
 def junction(i_s, nvt, bv, ibv, r_s, g_p) -> Junction:
@@ -129,9 +129,7 @@ def junction(i_s, nvt, bv, ibv, r_s, g_p) -> Junction:
         return Junction(*key)
     hit = _SHARED.get(key)
     if hit is None:
-        if len(_SHARED) >= SHARED_KEEP:
-            _SHARED.clear()
-        hit = _SHARED[key] = Junction(*key)
+        hit = _SHARED.keep(key, Junction(*key))
         hit.shared = True
     return hit
 

@@ -18,6 +18,7 @@ import numpy as np
 
 from . import varistor as vl
 from .junction import SMALL, single_diode
+from .memo import Kept
 from .newton import GROUND, HELD, Rows, Structure
 
 
@@ -30,7 +31,7 @@ class Segment:
 
     def __init__(self, ends, nodes, steps):
         self.ends, self.nodes, self.steps = ends, nodes, steps
-        self.plans = {}  # by the parts of the groups, where each is shared across calls (:func:`_plan`)
+        self.plans = Kept(PLANS_KEEP)  # by the parts of the groups, each shared across calls (:func:`_plan`)
 
 
 def segments(st: Structure, inject=None):
@@ -168,7 +169,7 @@ def initial(rows: Rows, segs, w_inv, oc, sweeps: int = 3):
     return zero_where_undriven(rows, np.array(u).reshape(t, n), np.array(w).reshape(nd, n))
 
 
-#: Plans kept per segment (for parts shared across calls); cleared when a segment holds this many.
+#: Plans kept per segment (for parts shared across calls, :attr:`Segment.plans`).
 PLANS_KEEP = 64
 
 
@@ -179,11 +180,7 @@ def _plan(parts, sg: Segment) -> "_Plan":
     if not all(p.shared for p in mine):
         return _Plan(parts, sg)
     hit = sg.plans.get(mine)
-    if hit is None:
-        if len(sg.plans) >= PLANS_KEEP:
-            sg.plans.clear()
-        hit = sg.plans[mine] = _Plan(parts, sg)
-    return hit
+    return hit if hit is not None else sg.plans.keep(mine, _Plan(parts, sg))
 
 
 class _Plan:

@@ -18,6 +18,7 @@ import numpy as np
 
 from .. import network as nw
 from ..engine import Engine
+from ..solve.memo import Kept
 from ..stimulus import PHASE_POINTS, Stimulus
 
 
@@ -64,9 +65,8 @@ def stress_elements(engine: Engine) -> list:
     return [e for e in engine.net.elements if e.rated]
 
 
-#: :func:`input_connected` by topology (:func:`planner.network.topology_key`); cleared at this many.
-_CONNECTED: dict = {}
-CONNECTED_KEEP = 4096
+#: :func:`input_connected` by topology (:func:`planner.network.topology_key`).
+_CONNECTED = Kept(4096)
 
 
 def input_connected(engine: Engine, st: nw.SwitchState) -> bool:
@@ -75,9 +75,7 @@ def input_connected(engine: Engine, st: nw.SwitchState) -> bool:
     if key not in _CONNECTED:
         g = nw.active_graph(engine.net, st)
         plus, minus = st.position.input
-        if len(_CONNECTED) >= CONNECTED_KEEP:
-            _CONNECTED.clear()
-        _CONNECTED[key] = nx.has_path(g, plus, minus)
+        _CONNECTED.keep(key, nx.has_path(g, plus, minus))
     return _CONNECTED[key]
 
 
