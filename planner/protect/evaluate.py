@@ -195,13 +195,18 @@ def bare_reading(ctx: SearchContext, topo: Topology, name: str) -> np.ndarray:
         return bare_readings(ctx, topo)[name]
     got = ctx.bare_some.get(topo.bare_key)
     if got is None:
-        net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
-        got = ctx.bare_some[topo.bare_key] = (Engine(ctx.design.variant(net)), {})
+        got = ctx.bare_some[topo.bare_key] = (_without_clamps(ctx, topo), {})
     eng, readings = got
     if name not in readings:
         p = next(q for q in ctx.positions if q.name == name)
         readings[name] = _reading(ctx, eng, p)
     return readings[name]
+
+
+def _without_clamps(ctx: SearchContext, topo: Topology) -> Engine:
+    """An engine of the topology's network with its clamp diodes taken out."""
+    net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
+    return Engine(ctx.design.variant(net))
 
 
 def _readings(ctx: SearchContext, net: NetworkSpec) -> dict:
@@ -293,8 +298,7 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
         # standard values: the two parts no longer sum to the resistor exactly, so
         # the readings without clamps are those of the same parts, row by row
         if topo.bare_engine is None:
-            net = replace(topo.net, elements=tuple(e for e in topo.net.elements if e.name not in topo.clamp))
-            topo.bare_engine = Engine(ctx.design.variant(net))
+            topo.bare_engine = _without_clamps(ctx, topo)
         bare = {p.name: topo.bare_engine.operate(p.name, FRACTIONS * p.full_scale, temperature_k=ctx.t_hot,
                                                  factors=fac).reading() for p in ctx.positions}
     else:
