@@ -16,7 +16,7 @@ Examples
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Mapping
 
 import numpy as np
@@ -251,14 +251,22 @@ class Engine:
             return None
         return np.concatenate(np.broadcast_arrays(*cols), axis=1)
 
-    def junctions(self, circuit, temperature_k, factors=None) -> Junctions:
-        """Junction parameters at temperature for each diode of a compiled state."""
+    def junctions(self, circuit, temperature_k, factors=None, models=None) -> Junctions:
+        """Junction parameters at temperature for each diode of a compiled state.
+
+        ``models``: diode models per designator, sequences of model names (P,) that
+        replace the element's own model row by row (:meth:`operate`).
+        """
         spec = self.spec
         t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
         factors = factors or {}
+        models = models or {}
         cols = []
         for name in circuit.diodes:
-            isat, *rest = self.elements[name].junction(spec, t)
+            if name in models:
+                isat, *rest = self._junction_of_models(name, models[name], t)
+            else:
+                isat, *rest = self.elements[name].junction(spec, t)
             if name in factors:
                 isat = isat * np.asarray(factors[name], dtype=float).reshape(-1, 1)
             cols.append((isat, *rest))
@@ -266,6 +274,22 @@ class Engine:
             z = np.zeros((t.shape[0], 0))
             return Junctions(z, z, z, z, z, z)
         return Junctions(*(np.concatenate(np.broadcast_arrays(*xs), axis=1) for xs in zip(*cols)))
+
+    def _junction_of_models(self, name: str, models, t) -> list[np.ndarray]:
+        """:meth:`planner.parts.diode.DiodePart.junction` of diode ``name`` with the model of each row
+        (``models``, shape (P,)) at the temperatures ``t`` ((P, 1) or (1, 1)); each of shape (P, 1)."""
+        names = np.asarray(models, dtype=object).reshape(-1)
+        t = np.broadcast_to(t, (names.size, 1))
+        el = self.elements[name]
+        out = None
+        for m in dict.fromkeys(names.tolist()):
+            rows = names == m
+            got = replace(el, model=m).junction(self.spec, t[rows])
+            if out is None:
+                out = [np.empty((names.size, 1)) for _ in got]
+            for o, g in zip(out, got):
+                o[rows] = g
+        return out
 
     def varistors(self, circuit) -> Varistors | None:
         """Varistor parameters of a compiled state (None when it has none), shapes (M,)."""
@@ -278,7 +302,8 @@ class Engine:
     def operate(self, state, stimulus, *, kind: str | None = None, temperature_k=None,
                 r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None,
                 settings: Mapping[str, np.ndarray] | None = None, emf=None,
-                waveform: str | None = None, start=None) -> Operating:
+                waveform: str | None = None, start=None,
+                models: Mapping[str, np.ndarray] | None = None) -> Operating:
         """Solve one switch state for a batch of stimuli and parameter sets.
 
         Parameters
@@ -312,6 +337,11 @@ class Engine:
         start : tuple of ndarray, optional
             Where Newton starts every case of an instantaneous solve (``start`` of
             :func:`planner.solve.solve`); the results do not depend on it.
+        models : mapping, optional
+            Diode models per designator, sequences of model names of shape (P,): each
+            parameter set's diode obeys that model's law (of ``parts.diodes``) instead
+            of its own, so that networks alike but for their diodes' models are solved
+            as the parameter sets of one call (instantaneous solves only).
 
         Returns
         -------
@@ -321,6 +351,8 @@ class Engine:
         if waveform is None and kind is None:
             waveform = st.position.kind.waveform
         if waveform is not None and (waveform != "dc" or st.position.kind.waveform != "dc"):
+            if models:
+                raise UsageError("diode models per row apply to instantaneous solves: give the stimulus kind")
             return operate_cycle(self, st, stimulus, waveform, kind=kind or st.position.kind.source,
                                  temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
         kind = kind or st.position.kind.source
@@ -330,7 +362,7 @@ class Engine:
         with_r = kind == "voltage" and np.any(np.asarray(r_source_ohm) > 0)
         circuit = self.circuit(st, kind, bool(with_r))
         r = self.branch_resistances(circuit, t, factors, r_source_ohm, settings)
-        jn = self.junctions(circuit, t, factors)
+        jn = self.junctions(circuit, t, factors, models)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
         emfs = self.emfs(circuit, emf)
         if start is None and self.warm:

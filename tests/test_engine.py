@@ -7,6 +7,7 @@ solved here with scipy's brentq, independently of planner.solve.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -139,6 +140,40 @@ def test_batches_equal_single_runs(ammeter):
         for j, sv in enumerate(s):
             one = ammeter.operate("10 mA", [sv], temperature_k=tk).movement_current_a[0, 0]
             np.testing.assert_allclose(batch[p, j], one, rtol=1e-14)  # same arithmetic, to rounding
+
+
+def _with_second_model(spec):
+    """The voltmeter's spec with a second diode model (a zener of its own values, common practice)."""
+    d = spec.parts.diodes["si_small"]
+    other = dataclasses.replace(d, name="zener_4v7", i_s_a=2e-12, n=1.3, r_s_ohm=2.0, bv_v=4.7, ibv_a=1e-3,
+                                max_current_a=0.1)
+    parts = dataclasses.replace(spec.parts, diodes={**spec.parts.diodes, "zener_4v7": other})
+    return dataclasses.replace(spec, parts=parts)
+
+
+@pytest.mark.parametrize("position", ["0.5 V", "10 V"])
+def test_models_per_row_are_the_networks_with_those_models(voltmeter_spec, position):
+    # each parameter set's diode follows the model named for its row: the same operating points as
+    # the network whose diode is that model, solved on its own (rows are independent in the solver)
+    spec = _with_second_model(voltmeter_spec)
+    design = build(spec)
+    eng = Engine(design)
+    s = np.array([-40.0, -3.0, 0.3, 2.0, 40.0])
+    t = np.array([296.15, 296.15, 318.15, 278.15])
+    rows = np.array(["si_small", "zener_4v7", "zener_4v7", "si_small"], dtype=object)
+    got = eng.operate(position, s, temperature_k=t, models={"D1": rows})
+    for k, (m, tk) in enumerate(zip(rows, t)):
+        net = dataclasses.replace(design.net, elements=tuple(
+            dataclasses.replace(e, model=m) if e.name == "D1" else e for e in design.net.elements))
+        alone = Engine(design.variant(net)).operate(position, s, temperature_k=tk)
+        # converged to the solver's own tolerance from (possibly) other starts: 1e-12 relative
+        np.testing.assert_allclose(got.movement_current_a[k], alone.movement_current_a[0], rtol=1e-12, atol=1e-18)
+        np.testing.assert_allclose(got.element("D1").current_a[k], alone.element("D1").current_a[0], rtol=1e-12,
+                                   atol=1e-18)
+    # rows 0 and 1 share their temperature but not their model: their diode currents differ (the rows
+    # are not copies of one model)
+    i = got.element("D1").current_a
+    assert np.max(np.abs(i[1] - i[0]) / np.abs(i[0])) > 0.1
 
 
 def test_reading_is_multiple_times_full_scale(ammeter):

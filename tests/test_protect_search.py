@@ -8,6 +8,10 @@ Brent root finder (``brentq``) at the feasibility edge, the bounded Brent minimi
 without Derivatives*, Prentice-Hall, 1973, ch. 4 and 5), each evaluation one row. The
 edges come from a small voltmeter written here, the interior minimum from the service
 multimeter example.
+
+The combos of one family (alike but for their diodes' models) are evaluated as one batch
+ahead of their turn (:class:`planner.protect.search.Batches`); the reference is the same
+search with every combo evaluated alone, in its turn.
 """
 
 from __future__ import annotations
@@ -195,3 +199,40 @@ def test_bracket_grid_steps_finer_than_e96():
     assert ratios[0] < 10 ** (1 / 96)
     # no more rows than that step needs: one fewer would step beyond 1.5 %
     assert (hi / lo) ** (1 / len(xs)) > 1 + search.REFINE_XTOL_REL
+
+
+def _search(spec, monkeypatch, family_max, parallel=False):
+    monkeypatch.setattr(search, "FAMILY_MAX", family_max)
+    ctx = SearchContext(build(spec), 0.25, None, 100000, None)
+    points, info, _ = search.branch_and_bound(ctx, parallel=parallel)
+    return ctx, {p.combo.key(): p for p in points}, info
+
+
+@pytest.mark.parametrize("parallel", [False, True])
+def test_family_batches_search_as_each_combo_alone(voltmeter_spec, monkeypatch, parallel):
+    from test_protect_evaluate import with_power_diode
+
+    spec = with_power_diode(voltmeter_spec)
+    batches = []
+    run_family = search.run_family
+
+    def counted(ctx, topos, grids, **kw):
+        batches.append(len(topos))
+        return run_family(ctx, topos, grids, **kw)
+
+    monkeypatch.setattr(search, "run_family", counted)
+    default = search.FAMILY_MAX
+    ctx0, alone, info0 = _search(spec, monkeypatch, 1)  # a family of one: every combo in its own call
+    assert not batches
+    ctx1, batched, info1 = _search(spec, monkeypatch, default, parallel)
+    assert parallel or batches  # (the worker's batches are run in its own process)
+    # the same combos visited and pruned, the same rows counted, the same points chosen
+    assert list(batched) == list(alone)
+    assert (ctx1.evaluated, ctx1.pruned) == (ctx0.evaluated, ctx0.pruned)
+    assert info1["pruned_sites"] == info0["pruned_sites"]
+    for key, p in alone.items():
+        q = batched[key]
+        assert (q.r, q.feasible, q.stage) == (p.r, p.feasible, p.stage), key
+        # each row solved to the solver's tolerance as in its own call: 1e-12 relative
+        np.testing.assert_allclose(q.multiples, p.multiples, rtol=1e-12)
+    assert len({p.combo.forward.model for p in alone.values() if p.combo.forward}) == 2

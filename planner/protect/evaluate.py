@@ -40,6 +40,7 @@ __all__ = [
     "topology_of",
     "bare_readings",
     "run",
+    "run_family",
     "feasible_alone",
     "accuracy_ok",
     "feasible",
@@ -91,16 +92,40 @@ class Metrics:
         return np.column_stack([np.maximum(self.pos_forward[k], self.pos_reverse[k]) for k in self.pos_forward])
 
     def row(self, i: int) -> "Metrics":
+        return self.rows(slice(i, i + 1))
+
+    def rows(self, sl: slice) -> "Metrics":
+        """The entries of a slice of rows."""
         def pick(x):
-            return x[i:i + 1]
+            return x[sl]
 
         def pick_all(d):
             return {k: pick(v) for k, v in d.items()}
 
-        return Metrics(pick(self.forward), pick(self.reverse), self.forward_case[i:i + 1], self.reverse_case[i:i + 1],
+        return Metrics(pick(self.forward), pick(self.reverse), self.forward_case[sl], self.reverse_case[sl],
                        pick(self.max_input_forward), pick(self.max_input_reverse), pick_all(self.error_pct),
-                       pick_all(self.total_pct), pick(self.stress), self.stress_case[i:i + 1], pick(self.power_w),
+                       pick_all(self.total_pct), pick(self.stress), self.stress_case[sl], pick(self.power_w),
                        pick_all(self.pos_forward), pick_all(self.pos_reverse), self.failed)
+
+    @staticmethod
+    def stack(parts: list) -> "Metrics":
+        """One Metrics of the rows of several, in order (the inverse of :meth:`rows`)."""
+        def cat(get):
+            return np.concatenate([get(m) for m in parts])
+
+        def cat_all(get):
+            return {k: cat(lambda m: get(m)[k]) for k in get(parts[0])}
+
+        def seq(get):
+            return [x for m in parts for x in get(m)]
+
+        failed = next((m.failed for m in parts if m.failed is not None), None)
+        return Metrics(cat(lambda m: m.forward), cat(lambda m: m.reverse), seq(lambda m: m.forward_case),
+                       seq(lambda m: m.reverse_case), cat(lambda m: m.max_input_forward),
+                       cat(lambda m: m.max_input_reverse), cat_all(lambda m: m.error_pct),
+                       cat_all(lambda m: m.total_pct), cat(lambda m: m.stress), seq(lambda m: m.stress_case),
+                       cat(lambda m: m.power_w), cat_all(lambda m: m.pos_forward), cat_all(lambda m: m.pos_reverse),
+                       failed)
 
 
 @dataclass
@@ -279,6 +304,54 @@ def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase:
                        inf.copy(), per(), per(), failed=e.one_line())
 
 
+def run_family(ctx: SearchContext, topos: list, grids: list, *, n_phase: int = SEARCH_PHASE_POINTS) -> list | None:
+    """Topologies alike but for their clamp diodes' models, each on its own rows, as one batch (uncounted).
+
+    Parameters
+    ----------
+    ctx : SearchContext
+    topos : list of Topology
+        Networks that differ only in the model of some clamp diodes (the combos of one
+        :func:`family`); each a grid split or no split, so that the readings without
+        clamps are the base network's.
+    grids : list
+        Each topology's split resistances [ohm] (as ``r_rows`` of :func:`run`), or None.
+    n_phase : int
+        Phase points per sine cycle.
+
+    Returns
+    -------
+    list of Metrics or None
+        What :func:`run` gives each topology on its rows (with ``count=None``), or None
+        when the batch does not solve (each member is then to be run alone: one member's
+        failure must not be the others').
+
+    Notes
+    -----
+    The diode models of every row go to the solver as parameters of that row
+    (:meth:`planner.engine.Engine.operate`, ``models``): the members are one compiled
+    circuit, and the solver's cost is mostly per call, not per row. Each row is
+    solved to the solver's own tolerance, as in a call of its own; the figures agree
+    with separate calls to that tolerance, not always to the last digit (where Newton
+    starts may differ with the batch).
+    """
+    first = topos[0]
+    sizes = [1 if g is None else len(g) for g in grids]
+    varying = [n for n in first.clamp if len({t.net.element(n).model for t in topos}) > 1]
+    models = {n: np.repeat(np.array([t.net.element(n).model for t in topos], dtype=object), sizes) for n in varying}
+    if first.factor is None:
+        fac = None
+    else:
+        parts = [_factors(t, g, None) for t, g in zip(topos, grids)]
+        fac = {k: np.concatenate([f[k] for f in parts]) for k in parts[0]}
+    try:
+        m = _run_rows(ctx, first, fac, sum(sizes), n_phase, models=models, members=list(zip(topos, sizes)))
+    except SolveError:
+        return None
+    ends = np.cumsum([0] + sizes)
+    return [m.rows(slice(int(a), int(b))) for a, b in zip(ends[:-1], ends[1:])]
+
+
 def _factors(topo: Topology, r_rows, pairs):
     """Factors of the split's two parts: nominal value x factor = the row's value."""
     if topo.factor is None or (r_rows is None and pairs is None):
@@ -290,8 +363,13 @@ def _factors(topo: Topology, r_rows, pairs):
     return {up: (total - r) / up0, lo: r / lo0}
 
 
-def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, own_bare: bool = False) -> Metrics:
-    """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`)."""
+def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, own_bare: bool = False,
+              models: dict | None = None, members: list | None = None) -> Metrics:
+    """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`).
+
+    ``models`` and ``members``: the rows of a family (:func:`run_family`): the diode models of
+    each row, and each member's topology with its number of rows, in row order.
+    """
     if topo.carrying is None:
         topo.carrying = {p.name: current_carrying(topo.engine, p.name) for p in ctx.positions}
     if own_bare and fac is not None:
@@ -308,13 +386,21 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
     err, tot, pf, pr = {}, {}, {}, {}
     for p in ctx.positions:
         # a position whose current-carrying part holds neither part of the split is
-        # the same for every row: solve it once
-        varies = fac is not None and any(n in topo.carrying[p.name] for n in fac)
-        if varies:
-            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name])
+        # the same for every row of a topology: solve it once (once per member of a family)
+        carried = topo.carrying[p.name]
+        varies = fac is not None and any(n in carried for n in fac)
+        if members is not None and p.kind.waveform != "dc":
+            # a cycle-averaged reading (an AC range's linearity points) is solved member by member
+            r = _each_member(ctx, p, fac if varies else None, n_phase, bare, members)
+        elif varies:
+            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name], models=models)
+        elif members is not None and any(n in carried for n in models):
+            r = _member_static(ctx, topo, p, n_phase, bare, models, members)
         else:
             r = _static_position(ctx, topo, p, n_phase, bare)
-        if not varies and rows > 1:
+            for t, _ in members or ():
+                t.static.setdefault((p.name, n_phase), r)
+        if not varies and r["forward"].shape[0] == 1 and rows > 1:
             r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
                  for key, v in r.items()}
         pf[p.name], pr[p.name] = r["forward"], r["reverse"]
@@ -329,6 +415,42 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
         mi_r[:] = np.maximum(mi_r, r["max_input_reverse"])
         power[:] = np.maximum(power, r["power"])
     return Metrics(fwd, rev, fcase, rcase, mi_f, mi_r, err, tot, stress, scase, power, pf, pr)
+
+
+def _each_member(ctx: SearchContext, p, fac, n_phase: int, bare: dict, members: list) -> dict:
+    """A position of a family solved member by member, each on its own topology and rows, joined in row order
+    (``fac``: the split's factors of every row when the position carries a split part, else None)."""
+    got, at = [], 0
+    for t, n in members:
+        if fac is not None:  # (a split part it carries)
+            own = {k: v[at:at + n] for k, v in fac.items()}
+            got.append(_position(ctx, t, p, own, n, n_phase, bare[p.name]))
+        else:
+            r = _static_position(ctx, t, p, n_phase, bare)
+            got.append({k: (np.repeat(v, n, axis=0) if isinstance(v, np.ndarray) else v * n) for k, v in r.items()})
+        at += n
+    return {k: (np.concatenate([g[k] for g in got]) if isinstance(got[0][k], np.ndarray)
+                else [x for g in got for x in g[k]]) for k in got[0]}
+
+
+def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, models: dict,
+                   members: list) -> dict:
+    """A position no split part carries, for a family: one row per member (its own values, its models),
+    solved together, kept in each member's ``static`` and spread over the member's rows."""
+    key = (p.name, n_phase)
+    starts = np.cumsum([0] + [k for _, k in members[:-1]])
+    own = {n: v[starts] for n, v in models.items()}
+    if all(key in t.static for t, _ in members):
+        got = [t.static[key] for t, _ in members]
+    else:
+        r = _position(ctx, topo, p, None, len(members), n_phase,
+                      np.repeat(np.atleast_2d(bare[p.name])[:1], len(members), axis=0), models=own)
+        got = [{k: v[j:j + 1] for k, v in r.items()} for j in range(len(members))]
+        for (t, _), g in zip(members, got):
+            t.static.setdefault(key, g)
+    return {k: (np.concatenate([np.repeat(g[k], n, axis=0) for g, (_, n) in zip(got, members)])
+                if isinstance(got[0][k], np.ndarray) else [x for g, (_, n) in zip(got, members) for x in g[k] * n])
+            for k in got[0]}
 
 
 def _static_position(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict) -> dict:
@@ -409,7 +531,7 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
 
 
 def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare,
-              stop_over: str | None = None) -> dict | str:
+              stop_over: str | None = None, models: dict | None = None) -> dict | str:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
     ``bare``: the readings without clamps (rows x 10), or a callable that gives them
@@ -418,10 +540,10 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     rating the name of the stimulus that does is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
     those of the groups folded in their own order, whatever order they were
-    solved in.
+    solved in. ``models``: the diode models of each row (:func:`run_family`).
     """
     eng = topo.engine
-    diodes = {n: ctx.spec.parts.diodes[topo.net.element(n).model] for n in topo.clamp}
+    diodes = _ratings(ctx, topo, models or {})
     out = {key: np.zeros(rows) for key in ("forward", "reverse", "max_input_forward", "max_input_reverse",
                                             "stress", "power")}
     for key in ("forward_case", "reverse_case", "stress_case"):
@@ -441,7 +563,8 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     for g in order:
         group = [stims[j] for j in groups[g]]
         *solved[g], hot_g = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase,
-                                         hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None)
+                                         hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None,
+                                         models=models)
         if g == with_hot:
             hot_mult = hot_g
         if stop_over is not None:
@@ -455,12 +578,29 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         mult, cur, vol, width = solved[g]
         _record_multiples(out, p, group, mult.reshape(rows, len(group), width), rows)
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
-    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare() if callable(bare) else bare, hot_mult)
+    out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare() if callable(bare) else bare, hot_mult,
+                                             models)
+    return out
+
+
+def _ratings(ctx: SearchContext, topo: Topology, models: dict) -> dict:
+    """Each clamp diode's continuous ratings: (average current [A], surge current [A], power [W]), floats,
+    or arrays (rows, 1) where ``models`` gives the diode's model row by row."""
+    cat = ctx.spec.parts.diodes
+    out = {}
+    for n in topo.clamp:
+        if n in models:
+            ds = [cat[m] for m in models[n]]
+            out[n] = tuple(np.array([getattr(d, f) for d in ds])[:, None]
+                           for f in ("max_current_a", "surge_current_a", "max_power_w"))
+        else:
+            d = cat[topo.net.element(n).model]
+            out[n] = (d.max_current_a, d.surge_current_a, d.max_power_w)
     return out
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
-                 n_phase: int, hot: tuple | None = None):
+                 n_phase: int, hot: tuple | None = None, models: dict | None = None):
     """Solve one group of stimuli (one kind, one source-impedance flag) for every row.
 
     Returns the movement multiples (rows x G, W), the watched parts' currents and
@@ -479,9 +619,10 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
     stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
     r_src = np.tile([s.r_source_ohm for s in group], rows) if has_r else 0.0
     f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
+    m_rows = None if not models else {k: np.repeat(v, g) for k, v in models.items()}
     hot_mult = None
     if has_r:  # a source impedance per stimulus: one parameter set per row and stimulus
-        op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows)
+        op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows, models=m_rows)
 
         def laid(x):
             return np.array(x)
@@ -492,7 +633,7 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
         # figures as separate calls)
         line = block.reshape(-1)
         if hot is None:
-            op = eng.operate(p.name, line, kind=kind, factors=fac)
+            op = eng.operate(p.name, line, kind=kind, factors=fac, models=models)
         else:
             applied, t_hot = hot
             cols = max(line.size, applied.size)
@@ -500,7 +641,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
             both = np.repeat(both, rows, axis=0)  # rows at the reference temperature, then rows hot
             t = np.repeat([eng.spec.ambient.t_ref_k, t_hot], rows)
             f2 = None if fac is None else {k: np.tile(v, 2) for k, v in fac.items()}
-            op = eng.operate(p.name, both, kind=kind, temperature_k=t, factors=f2)
+            m2 = None if not models else {k: np.tile(v, 2) for k, v in models.items()}
+            op = eng.operate(p.name, both, kind=kind, temperature_k=t, factors=f2, models=m2)
             hot_mult = np.asarray(op.movement_multiple)[rows:, :applied.size]
 
         def laid(x):
@@ -516,7 +658,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
         if rr.size:
             vals = np.copysign(lims[rr], i_src[rr, kk])
             f2 = None if f_rows is None else {k: v[rr] for k, v in f_rows.items()}
-            op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2)
+            m2 = None if m_rows is None else {k: v[rr] for k, v in m_rows.items()}
+            op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2, models=m2)
             mult[rr, kk] = np.asarray(op2.movement_multiple)[:, 0]
             for n in topo.watch:
                 cur[n][rr, kk] = op2.element(n).current_a[:, 0]
@@ -552,10 +695,10 @@ def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: 
         pm = (i * v).mean(axis=2)
         tot_p += np.abs(pm)
         if n in diodes:
-            d = diodes[n]
-            ratio = np.maximum.reduce([np.abs(i).mean(axis=2) / d.max_current_a,
-                                       np.abs(i).max(axis=2) / d.surge_current_a,
-                                       np.abs(pm) / d.max_power_w])
+            i_max, i_surge, p_max = diodes[n]
+            ratio = np.maximum.reduce([np.abs(i).mean(axis=2) / i_max,
+                                       np.abs(i).max(axis=2) / i_surge,
+                                       np.abs(pm) / p_max])
             ratio[:, impulse] = 0.0
             jbest = np.argmax(ratio, axis=1)
             vbest = ratio[np.arange(rows), jbest]
@@ -567,14 +710,14 @@ def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: 
 
 
 def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare,
-                hot_mult: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+                hot_mult: np.ndarray | None = None, models: dict | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale].
 
     ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`).
     """
     applied = FRACTIONS * p.full_scale
     if hot_mult is None:
-        rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac).reading()
+        rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac, models=models).reading()
     else:
         rd = p.kind.reading(hot_mult, p.full_scale)
     rd = np.broadcast_to(rd, (rows, applied.size))

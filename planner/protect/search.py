@@ -23,7 +23,7 @@ import numpy as np
 from .ahead import Ahead
 from .candidates import Combo, Site, Stack, sites, stacks
 from .context import SearchContext
-from .evaluate import Metrics, Point, Topology, feasible, run, slack, topology
+from .evaluate import Metrics, Point, Topology, feasible, run, run_family, slack, topology
 from .ordering import lex_best, lex_compare, lex_score, ranked
 
 __all__ = [
@@ -83,49 +83,172 @@ def split_grid(ctx: SearchContext, site: Site, rng: np.random.Generator | None =
     return np.unique(np.asarray(pts, dtype=float))
 
 
-def evaluate_combo(ctx: SearchContext, combo: Combo, ahead: Ahead | None = None,
+def family_key(combo: Combo) -> tuple:
+    """What a combo's network is apart from its diodes' models: its site and each stack's count and mode.
+
+    The combos of one family are one compiled circuit whose clamp diodes differ in model
+    only, so they are evaluated as the rows of one batch
+    (:func:`planner.protect.evaluate.run_family`).
+    """
+    def shape(st):
+        return None if st is None else (st.count, st.mode)
+
+    return combo.site.label, shape(combo.forward), shape(combo.reverse)
+
+
+def evaluate_combo(ctx: SearchContext, combo: Combo, batches: "Batches | None" = None,
                    following=()) -> tuple[Topology, np.ndarray | None, Metrics] | None:
     """A combo evaluated on its split grid (one row off splits); None when the cap leaves no room.
 
-    With ``ahead`` (a worker, :class:`planner.protect.ahead.Ahead`): the combo's
-    metrics are the worker's when it evaluated this combo on this grid already;
-    else the first of ``following`` (the combos that would come next, best
-    guess) is sent to the worker, its grid drawn from a copy of the random
-    generator, while this one is evaluated here. The answer is the same.
+    With ``batches`` (:class:`Batches`): the combo's rows come from a family batch
+    evaluated earlier (here or on the worker) where it holds them; else the combo is
+    evaluated here together with the members of its family among ``following`` (the
+    combos that would come next, in order), and the next family is sent to the worker.
+    A row a batch does not hold (a random probe of the grid that was drawn otherwise
+    than foreseen) is evaluated here. The answer is the same as the combo's own
+    evaluation, to the solver's tolerance.
     """
-    topo = topology(ctx, combo)
     r = split_grid(ctx, combo.site) if combo.site.kind == "split" else None
     rows = 1 if r is None else len(r)
     if not ctx.room(rows):
         return None
-    m = None
-    if ahead is not None and ahead.holds(_ahead_key(combo, r)):
-        m = ahead.take()
-        if m is not None:
-            ctx.evaluated += rows
-    elif ahead is not None:
-        ahead.drop_done()  # a guess the search did not follow, when the worker is done with it
-        for nxt in (following if ahead.idle else ()):
-            rn = split_grid(ctx, nxt.site, copy.deepcopy(ctx.rng)) if nxt.site.kind == "split" else None
-            ahead.send(_ahead_key(nxt, rn), ("combo", nxt, rn))
-            break
-    if m is None:
+    got = batches.take(combo) if batches is not None else None
+    if got is None:
+        topo, ready = topology(ctx, combo), {}
+        if batches is not None:
+            ready = batches.evaluate(combo, topo, r, following)
+    else:
+        topo, ready = got
+    keys = [None] if r is None else [float(x) for x in r]
+    missing = [k for k in keys if k not in ready]
+    if len(missing) == len(keys):
         m = run(ctx, topo, r)
-    if r is not None:
-        for i, ri in enumerate(r):
-            topo.memo[float(ri)] = m.row(i)
+    else:
+        if missing:
+            mx = run(ctx, topo, None if r is None else np.array(missing), count=None)
+            ready.update((k, mx.row(i)) for i, k in enumerate(missing))
+        ctx.evaluated += rows
+        m = Metrics.stack([ready[k] for k in keys])
+    if r is not None:  # the memo holds the rows of this grid alone (a foreseen grid's other rows are dropped)
+        for i, k in enumerate(keys):
+            topo.memo[k] = m.row(i)
     return topo, r, m
 
 
-def _ahead_key(combo: Combo, r) -> tuple:
-    return combo.key(), None if r is None else np.asarray(r, dtype=float).tobytes()
+#: Most combos in one family batch (rows: members x split grid).
+FAMILY_MAX = 10
+#: How far ahead the search's order is read for a batch's members and the worker's next family.
+LOOK_AHEAD = 40
+
+
+class Batches:
+    """Family batches evaluated ahead of their turn: the members pending, the worker's family in flight.
+
+    Parameters
+    ----------
+    ctx : SearchContext
+    ahead : Ahead, optional
+        A worker (:class:`planner.protect.ahead.Ahead`) running :func:`ahead_task`: while
+        this process evaluates a family, the worker evaluates the next one.
+
+    Notes
+    -----
+    A member's grid is foreseen by drawing its random probes from a copy of the
+    search's generator, as if every combo before it in the search's order were
+    visited; the cost of a batch being mostly per call, a member the search then
+    prunes costs little.
+    """
+
+    def __init__(self, ctx: SearchContext, ahead: Ahead | None = None):
+        self.ctx = ctx
+        self.ahead = ahead
+        self.pending: dict[tuple, tuple] = {}  # combo key -> (topology, {split resistance: Metrics row})
+        self.flight: tuple = ()  # combo keys of the family on the worker
+
+    def take(self, combo: Combo) -> tuple | None:
+        """The combo's topology and the rows a batch evaluated for it, by split resistance (None off
+        splits), or None where no batch holds it."""
+        if combo.key() not in self.pending and combo.key() in self.flight:
+            got = self.ahead.take()
+            self.flight = ()
+            if got is not None:
+                for (c, g), (m, static) in zip(got["members"], got["results"]):
+                    t = topology(self.ctx, c)
+                    t.static.update(static)
+                    self.pending.setdefault(c.key(), (t, _rows(g, m)))
+        return self.pending.pop(combo.key(), None)
+
+    def evaluate(self, combo: Combo, topo: Topology, r, following) -> dict:
+        """Evaluate ``combo`` with its family's members among ``following`` as one batch, and return its
+        rows by split resistance (empty when it has no members); the members wait in :attr:`pending`.
+        The next family goes to the worker first."""
+        ctx = self.ctx
+        upcoming = _upcoming(ctx, following)
+        fam = family_key(combo)
+        members = [(c, g) for c, g in upcoming if family_key(c) == fam][:FAMILY_MAX - 1]
+        self._send_next([(c, g) for c, g in upcoming if family_key(c) != fam])
+        if not members:
+            return {}
+        topos = [topo] + [topology(ctx, c) for c, _ in members]
+        grids = [r] + [g for _, g in members]
+        got = run_family(ctx, topos, grids)
+        if got is None:
+            return {}
+        for (c, g), t, m in zip(members, topos[1:], got[1:]):
+            self.pending[c.key()] = (t, _rows(g, m))
+        return _rows(r, got[0])
+
+    def _send_next(self, rest: list) -> None:
+        """Send the first of ``rest`` not pending, with its family's members, to an idle worker."""
+        ahead = self.ahead
+        if ahead is None:
+            return
+        if self.flight and not ahead.holds(self.flight):
+            self.flight = ()
+        ahead.drop_done()  # a family the search did not reach, when the worker is done with it
+        if not ahead.idle:
+            return
+        rest = [(c, g) for c, g in rest if c.key() not in self.pending]
+        if not rest:
+            return
+        fam = family_key(rest[0][0])
+        batch = [x for x in rest if family_key(x[0]) == fam][:FAMILY_MAX]
+        key = tuple(c.key() for c, _ in batch)
+        if ahead.send(key, ("family", batch)):
+            self.flight = key
+
+
+def _rows(r, m: Metrics) -> dict:
+    """The rows of ``m`` by split resistance (None off splits)."""
+    return {None: m} if r is None else {float(x): m.row(i) for i, x in enumerate(r)}
+
+
+def _upcoming(ctx: SearchContext, following) -> list:
+    """The next combos in the search's order with their foreseen grids (the random probes drawn from
+    a copy of the generator, each combo in turn)."""
+    rng = copy.deepcopy(ctx.rng)
+    out, sigs = [], set()
+    for c in following:
+        if c.signature() in sigs:  # skipped at its turn: one circuit is visited once
+            continue
+        sigs.add(c.signature())
+        out.append((c, split_grid(ctx, c.site, rng) if c.site.kind == "split" else None))
+        if len(out) >= LOOK_AHEAD:
+            break
+    return out
 
 
 def ahead_task(ctx: SearchContext):
-    """What the worker of :func:`evaluate_combo` runs: a combo's metrics on a grid (uncounted there)."""
+    """What the worker of :class:`Batches` runs: a family's metrics on its grids, and each member's
+    static positions (uncounted there)."""
     def task(payload):
-        _, combo, r = payload
-        return run(ctx, topology(ctx, combo), r, count=None)
+        _, batch = payload
+        topos = [topology(ctx, c) for c, _ in batch]
+        grids = [g for _, g in batch]
+        got = run_family(ctx, topos, grids) if len(batch) > 1 else None
+        if got is None:
+            got = [run(ctx, t, g, count=None) for t, g in zip(topos, grids)]
+        return {"members": batch, "results": [(m, t.static) for m, t in zip(got, topos)]}
     return task
 
 
@@ -282,7 +405,7 @@ class _BranchAndBound:
 
     def __init__(self, ctx: SearchContext, ahead: Ahead | None = None):
         self.ctx = ctx
-        self.ahead = ahead
+        self.batches = Batches(ctx, ahead)
         self.pruning: set = set()  # the combos of the walk under way that are pruned at their turn
         self.points: dict[tuple, Point] = {}
         self.evaluated: dict[tuple, tuple] = {}
@@ -310,7 +433,7 @@ class _BranchAndBound:
         self.ctx.say(f"{combo.site.label}: forward {combo.forward.label() if combo.forward else 'none'}, "
                      f"reverse {combo.reverse.label() if combo.reverse else 'none'}")
         nxt = (c for c in following if not self.would_skip(c))
-        res = evaluate_combo(self.ctx, combo, self.ahead, nxt)
+        res = evaluate_combo(self.ctx, combo, self.batches, nxt)
         if res is None:
             raise _Stop
         topo, r, m = res
