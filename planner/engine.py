@@ -177,6 +177,7 @@ class Engine:
         self.movement = design.movement
         self.warm = warm
         self._last: dict = {}  # with warm: id(circuit) -> its last Solution (which holds the circuit)
+        self._as_model: dict = {}  # (designator, model) -> the diode element with that model (``models=``)
 
     # --- states -------------------------------------------------------------------
     @property
@@ -280,11 +281,13 @@ class Engine:
         (``models``, shape (P,)) at the temperatures ``t`` ((P, 1) or (1, 1)); each of shape (P, 1)."""
         names = np.asarray(models, dtype=object).reshape(-1)
         t = np.broadcast_to(t, (names.size, 1))
-        el = self.elements[name]
         out = None
         for m in dict.fromkeys(names.tolist()):
             rows = names == m
-            got = replace(el, model=m).junction(self.spec, t[rows])
+            el = self._as_model.get((name, m))
+            if el is None:
+                el = self._as_model[(name, m)] = replace(self.elements[name], model=m)
+            got = el.junction(self.spec, t[rows])
             if out is None:
                 out = [np.empty((names.size, 1)) for _ in got]
             for o, g in zip(out, got):

@@ -61,8 +61,8 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
-        Judge the project as given and its protection-part combinations on the
-        misrange matrix in a child process beside the clamp search, and evaluate
+        Evaluate the project as given (its row) and judge it and its protection-part
+        combinations on the misrange matrix in a child process beside the clamp search, and evaluate
         the search's next candidate and realised placement ahead in a
         forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
         this process (False); or the first where a second core allows it (None,
@@ -127,11 +127,10 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         if unknown:
             raise UsageError(f"the accuracy share names no position '{unknown[0]}'; positions: "
                              f"{', '.join(ctx.limits)}")
-    # the project as given on the misrange matrix does not depend on the clamp search: on a second core
+    # the project as given (its row, its misrange matrix) does not depend on the clamp search: on a second core
     worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
-    with beside(lambda: judge_given(design, worst_share), str, parallel=parallel) as given:
+    with beside(lambda: (judge_given(design, worst_share), _as_given(ctx)), str, parallel=parallel) as given:
         ctx.say("the project as given")
-        as_given = as_given_row(ctx)
         model = ctx.default_model()
         movement = Site("movement", "movement", ctx.movement.a)
         across = Combo(movement, Stack(model, 1), Stack(model, 1))
@@ -145,11 +144,22 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
         finals = _final_rows(ctx, points, evaluated, across, across_row, parallel)
         table, chosen = _pareto_table(finals)
-        result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         ctx.say("the misrange matrices of the project as given and of its protection parts")
-        judged_given, error = given.result()
-        _judge_on_matrix(design, result, worst_share, ctx.say, None if error is not None else judged_given)
+        got, error = given.result()
+        judged_given, (as_given, rows) = got if error is None else (None, _as_given(ctx))
+        ctx.reevaluated += rows
+        result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
+        _judge_on_matrix(design, result, worst_share, ctx.say, judged_given)
     return json_safe(result)
+
+
+def _as_given(ctx: SearchContext) -> tuple[dict, int]:
+    """The row of the project as given (:func:`planner.protect.report.as_given_row`) and the rows its
+    evaluation adds to the final pass's count, given back rather than counted (it may run in a child)."""
+    before = ctx.reevaluated
+    row = as_given_row(ctx)
+    rows, ctx.reevaluated = ctx.reevaluated - before, before
+    return row, rows
 
 
 def _judge_on_matrix(design: Design, result: dict, worst_share: float, say, given: dict | None = None) -> None:
