@@ -57,6 +57,9 @@ FRACTIONS = np.arange(1, 11) / 10.0
 #: with :data:`REPORT_PHASE_POINTS`.
 SEARCH_PHASE_POINTS = 16
 REPORT_PHASE_POINTS = 64
+#: Stimuli with a source impedance and more samples than this per cycle (a sine) are solved in a
+#: call of their own, apart from the short ones (a DC source, an impulse's two samples).
+WIDE = 4
 #: A figure counts as over its limit only beyond this factor (round-off).
 EXCEED = 1.0 + 1e-9
 
@@ -551,18 +554,19 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     stims = ctx.stimuli[p.name]
     groups: dict[tuple, list[int]] = {}
     for j, s in enumerate(stims):
-        groups.setdefault((s.kind, s.kind == "voltage" and s.r_source_ohm > 0), []).append(j)
+        has_r = s.kind == "voltage" and s.r_source_ohm > 0
+        groups.setdefault((s.kind, has_r, has_r and len(s.samples(n_phase)) > WIDE), []).append(j)
     order = list(groups)
     if stop_over is not None:
         order.sort(key=lambda g: not any(stims[j].name == stop_over for j in groups[g]))
     # the linearity points at the hottest ambient ride with the DC group of the position's own kind
-    own = (p.kind.source, False)
+    own = (p.kind.source, False, False)
     with_hot = own if p.kind.waveform == "dc" and own in groups and \
         all(len(stims[j].samples(n_phase)) == 1 for j in groups[own]) else None
     solved, hot_mult = {}, None
     for g in order:
         group = [stims[j] for j in groups[g]]
-        *solved[g], hot_g = _solve_group(eng, topo, p, group, *g, fac, rows, n_phase,
+        *solved[g], hot_g = _solve_group(eng, topo, p, group, *g[:2], fac, rows, n_phase,
                                          hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None,
                                          models=models)
         if g == with_hot:
