@@ -252,25 +252,38 @@ class Engine:
             return None
         return np.concatenate(np.broadcast_arrays(*cols), axis=1)
 
-    def junctions(self, circuit, temperature_k, factors=None, models=None) -> Junctions:
+    def junctions(self, circuit, temperature_k, factors=None, models=None, stacks=None) -> Junctions:
         """Junction parameters at temperature for each diode of a compiled state.
 
         ``models``: diode models per designator, sequences of model names (P,) that
-        replace the element's own model row by row (:meth:`operate`).
+        replace the element's own model row by row; ``stacks``: junctions in series per
+        designator, sequences of counts (P,) (:meth:`operate`).
+
+        Notes
+        -----
+        A stack of N identical junctions in series carries one current and shares its
+        voltage equally, so it obeys exactly the law of one junction with
+        :math:`nV_t' = N nV_t`, :math:`BV' = N BV`, :math:`R_s' = N R_s`,
+        :math:`G_p' = G_p / N` and the same :math:`I_s` and :math:`I_{BV}`
+        (:mod:`planner.solve.chains`).
         """
         spec = self.spec
         t = np.atleast_1d(np.asarray(temperature_k, dtype=float))[:, None]
         factors = factors or {}
         models = models or {}
+        stacks = stacks or {}
         cols = []
         for name in circuit.diodes:
             if name in models:
-                isat, *rest = self._junction_of_models(name, models[name], t)
+                isat, nvt, bv, ibv, r_s, g_p = self._junction_of_models(name, models[name], t)
             else:
-                isat, *rest = self.elements[name].junction(spec, t)
+                isat, nvt, bv, ibv, r_s, g_p = self.elements[name].junction(spec, t)
             if name in factors:
                 isat = isat * np.asarray(factors[name], dtype=float).reshape(-1, 1)
-            cols.append((isat, *rest))
+            if name in stacks:
+                k = np.asarray(stacks[name], dtype=float).reshape(-1, 1)
+                nvt, bv, r_s, g_p = nvt * k, bv * k, r_s * k, g_p / k
+            cols.append((isat, nvt, bv, ibv, r_s, g_p))
         if not cols:
             z = np.zeros((t.shape[0], 0))
             return Junctions(z, z, z, z, z, z)
@@ -306,7 +319,8 @@ class Engine:
                 r_source_ohm=0.0, factors: Mapping[str, np.ndarray] | None = None,
                 settings: Mapping[str, np.ndarray] | None = None, emf=None,
                 waveform: str | None = None, start=None,
-                models: Mapping[str, np.ndarray] | None = None) -> Operating:
+                models: Mapping[str, np.ndarray] | None = None,
+                stacks: Mapping[str, np.ndarray] | None = None) -> Operating:
         """Solve one switch state for a batch of stimuli and parameter sets.
 
         Parameters
@@ -345,6 +359,10 @@ class Engine:
             parameter set's diode obeys that model's law (of ``parts.diodes``) instead
             of its own, so that networks alike but for their diodes' models are solved
             as the parameter sets of one call (instantaneous solves only).
+        stacks : mapping, optional
+            Junctions in series per designator, sequences of counts of shape (P,): the
+            diode stands, row by row, for a stack of that many identical junctions
+            (the composite law of :meth:`junctions`); its voltage is the stack's.
 
         Returns
         -------
@@ -354,8 +372,9 @@ class Engine:
         if waveform is None and kind is None:
             waveform = st.position.kind.waveform
         if waveform is not None and (waveform != "dc" or st.position.kind.waveform != "dc"):
-            if models:
-                raise UsageError("diode models per row apply to instantaneous solves: give the stimulus kind")
+            if models or stacks:
+                raise UsageError("diode models and stacks per row apply to instantaneous solves: give the stimulus "
+                                 "kind")
             return operate_cycle(self, st, stimulus, waveform, kind=kind or st.position.kind.source,
                                  temperature_k=temperature_k, r_source_ohm=r_source_ohm, factors=factors)
         kind = kind or st.position.kind.source
@@ -365,7 +384,7 @@ class Engine:
         with_r = kind == "voltage" and np.any(np.asarray(r_source_ohm) > 0)
         circuit = self.circuit(st, kind, bool(with_r))
         r = self.branch_resistances(circuit, t, factors, r_source_ohm, settings)
-        jn = self.junctions(circuit, t, factors, models)
+        jn = self.junctions(circuit, t, factors, models, stacks)
         stim = np.atleast_1d(np.asarray(stimulus, dtype=float))
         emfs = self.emfs(circuit, emf)
         if start is None and self.warm:

@@ -216,9 +216,9 @@ def test_family_batches_search_as_each_combo_alone(voltmeter_spec, monkeypatch, 
     batches = []
     run_family = search.run_family
 
-    def counted(ctx, topos, grids, **kw):
-        batches.append(len(topos))
-        return run_family(ctx, topos, grids, **kw)
+    def counted(ctx, combos, topos, grids, **kw):
+        batches.append(len(combos))
+        return run_family(ctx, combos, topos, grids, **kw)
 
     monkeypatch.setattr(search, "run_family", counted)
     default = search.FAMILY_MAX

@@ -40,6 +40,8 @@ __all__ = [
     "topology_of",
     "bare_readings",
     "run",
+    "RowDiodes",
+    "family_template",
     "run_family",
     "feasible_alone",
     "accuracy_ok",
@@ -307,52 +309,123 @@ def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase:
                        inf.copy(), per(), per(), failed=e.one_line())
 
 
-def run_family(ctx: SearchContext, topos: list, grids: list, *, n_phase: int = SEARCH_PHASE_POINTS) -> list | None:
-    """Topologies alike but for their clamp diodes' models, each on its own rows, as one batch (uncounted).
+@dataclass(frozen=True)
+class RowDiodes:
+    """The clamp diodes of a family batch row by row (:func:`run_family`): per designator, the model of
+    each row and the junctions in series it stands for (arrays of the batch's rows)."""
+
+    models: dict
+    stacks: dict
+
+    def map(self, fn) -> "RowDiodes":
+        """Every array passed through ``fn`` (the rows repeated, tiled or taken as a call lays them out)."""
+        return RowDiodes({k: fn(v) for k, v in self.models.items()}, {k: fn(v) for k, v in self.stacks.items()})
+
+    def names(self) -> set:
+        return set(self.models) | set(self.stacks)
+
+    def ratings(self, cat, name: str) -> tuple:
+        """Diode ``name``'s continuous ratings per row, (rows, 1) each: average current [A], surge current
+        [A], and power [W] times the junctions in series (the stack's power is shared equally)."""
+        ds = [cat[m] for m in self.models[name]]
+        k = np.asarray(self.stacks[name], dtype=float)[:, None] if name in self.stacks else 1.0
+        return (np.array([d.max_current_a for d in ds])[:, None], np.array([d.surge_current_a for d in ds])[:, None],
+                np.array([d.max_power_w for d in ds])[:, None] * k)
+
+
+def _operate_kw(rd: RowDiodes | None) -> dict:
+    """The keywords of :meth:`planner.engine.Engine.operate` for a family's rows (none outside a family)."""
+    if rd is None:
+        return {}
+    return {"models": rd.models or None, "stacks": rd.stacks or None}
+
+
+def family_template(combo: Combo) -> Combo:
+    """The combo whose network stands for every combo of its family: each stack one diode (the stack's
+    junctions in series are the parameters of that diode's rows, :class:`RowDiodes`)."""
+    def one(st):
+        return None if st is None else replace(st, count=1)
+
+    return Combo(combo.site, one(combo.forward), one(combo.reverse))
+
+
+def run_family(ctx: SearchContext, combos: list, topos: list, grids: list, *,
+               n_phase: int = SEARCH_PHASE_POINTS) -> list | None:
+    """Combos alike but for their stacks' models and counts, each on its own rows, as one batch (uncounted).
 
     Parameters
     ----------
     ctx : SearchContext
+    combos : list of Combo
+        One family: the same site, each direction's stack present or not alike and in
+        the same mode (:func:`planner.protect.search.family_key`); each a grid split or
+        no split, so that the readings without clamps are the base network's.
     topos : list of Topology
-        Networks that differ only in the model of some clamp diodes (the combos of one
-        :func:`family`); each a grid split or no split, so that the readings without
-        clamps are the base network's.
+        Each combo's own network (:func:`topology`): positions whose readings are cycle
+        means (AC ranges) are solved member by member on them, and each member's
+        positions that no row of it changes are kept there.
     grids : list
-        Each topology's split resistances [ohm] (as ``r_rows`` of :func:`run`), or None.
+        Each combo's split resistances [ohm] (as ``r_rows`` of :func:`run`), or None.
     n_phase : int
         Phase points per sine cycle.
 
     Returns
     -------
     list of Metrics or None
-        What :func:`run` gives each topology on its rows (with ``count=None``), or None
+        What :func:`run` gives each combo on its rows (with ``count=None``), or None
         when the batch does not solve (each member is then to be run alone: one member's
         failure must not be the others').
 
     Notes
     -----
-    The diode models of every row go to the solver as parameters of that row
-    (:meth:`planner.engine.Engine.operate`, ``models``): the members are one compiled
-    circuit, and the solver's cost is mostly per call, not per row. Each row is
-    solved to the solver's own tolerance, as in a call of its own; the figures agree
-    with separate calls to that tolerance, not always to the last digit (where Newton
-    starts may differ with the batch).
+    The members are solved on one network, :func:`family_template`: each stack is one
+    diode whose rows carry the member's model and number of junctions in series
+    (:meth:`planner.engine.Engine.operate`, ``models`` and ``stacks``; a stack of N
+    identical junctions obeys exactly the law of one with N times its :math:`nV_t`,
+    breakdown voltage and series resistance). The solver's cost being mostly per call,
+    not per row, one call serves the family. Each row is solved to the solver's own
+    tolerance, as in a call of its own: the figures agree with each combo's own
+    evaluation to that tolerance, not always to the last digit. A stack's power is
+    shared equally by its junctions; the case a stack's diode decides names its first
+    diode, as the combo's own network does.
     """
-    first = topos[0]
+    template = topology(ctx, family_template(combos[0]))
     sizes = [1 if g is None else len(g) for g in grids]
-    varying = [n for n in first.clamp if len({t.net.element(n).model for t in topos}) > 1]
-    models = {n: np.repeat(np.array([t.net.element(n).model for t in topos], dtype=object), sizes) for n in varying}
-    if first.factor is None:
+    stacks_of = {}  # template designator -> (direction, offset among each member's clamp diodes)
+    pair = 2 if combos[0].site.pair is not None else 0
+    at = pair
+    for direction in ("forward", "reverse"):
+        if getattr(combos[0], direction) is not None:
+            stacks_of[template.clamp[at]] = direction
+            at += 1
+    models, stacks = {}, {}
+    for n, direction in stacks_of.items():
+        ms = [getattr(c, direction).model for c in combos]
+        ks = [getattr(c, direction).count for c in combos]
+        if len(set(ms)) > 1:
+            models[n] = np.repeat(np.array(ms, dtype=object), sizes)
+        if len(set(ks)) > 1 or ks[0] != 1:
+            stacks[n] = np.repeat(np.array(ks, dtype=float), sizes)
+            models.setdefault(n, np.repeat(np.array(ms, dtype=object), sizes))
+    if template.factor is None:
         fac = None
     else:
         parts = [_factors(t, g, None) for t, g in zip(topos, grids)]
         fac = {k: np.concatenate([f[k] for f in parts]) for k in parts[0]}
+    rd = RowDiodes(models, stacks)
     try:
-        m = _run_rows(ctx, first, fac, sum(sizes), n_phase, models=models, members=list(zip(topos, sizes)))
+        m = _run_rows(ctx, template, fac, sum(sizes), n_phase, rd=rd, members=list(zip(topos, sizes)))
     except SolveError:
         return None
     ends = np.cumsum([0] + sizes)
-    return [m.rows(slice(int(a), int(b))) for a, b in zip(ends[:-1], ends[1:])]
+    out = []
+    for c, t, a, b in zip(combos, topos, ends[:-1], ends[1:]):
+        mm = m.rows(slice(int(a), int(b)))
+        first = {"forward": pair, "reverse": pair + (c.forward.count if c.forward is not None else 0)}
+        names = {n: t.clamp[first[d]] for n, d in stacks_of.items()}
+        mm.stress_case = [None if x is None else (x[0], x[1], names.get(x[2], x[2])) for x in mm.stress_case]
+        out.append(mm)
+    return out
 
 
 def _factors(topo: Topology, r_rows, pairs):
@@ -367,11 +440,11 @@ def _factors(topo: Topology, r_rows, pairs):
 
 
 def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, own_bare: bool = False,
-              models: dict | None = None, members: list | None = None) -> Metrics:
+              rd: RowDiodes | None = None, members: list | None = None) -> Metrics:
     """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`).
 
-    ``models`` and ``members``: the rows of a family (:func:`run_family`): the diode models of
-    each row, and each member's topology with its number of rows, in row order.
+    ``rd`` and ``members``: the rows of a family (:func:`run_family`): the diodes of each row,
+    and each member's own topology with its number of rows, in row order.
     """
     if topo.carrying is None:
         topo.carrying = {p.name: current_carrying(topo.engine, p.name) for p in ctx.positions}
@@ -396,9 +469,9 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
             # a cycle-averaged reading (an AC range's linearity points) is solved member by member
             r = _each_member(ctx, p, fac if varies else None, n_phase, bare, members)
         elif varies:
-            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name], models=models)
-        elif members is not None and any(n in carried for n in models):
-            r = _member_static(ctx, topo, p, n_phase, bare, models, members)
+            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name], rd=rd)
+        elif members is not None and any(n in carried for n in rd.names()):
+            r = _member_static(ctx, topo, p, n_phase, bare, rd, members)
         else:
             r = _static_position(ctx, topo, p, n_phase, bare)
             for t, _ in members or ():
@@ -436,18 +509,18 @@ def _each_member(ctx: SearchContext, p, fac, n_phase: int, bare: dict, members: 
                 else [x for g in got for x in g[k]]) for k in got[0]}
 
 
-def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, models: dict,
+def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, rd: RowDiodes,
                    members: list) -> dict:
     """A position no split part carries, for a family: one row per member (its own values, its models),
     solved together, kept in each member's ``static`` and spread over the member's rows."""
     key = (p.name, n_phase)
     starts = np.cumsum([0] + [k for _, k in members[:-1]])
-    own = {n: v[starts] for n, v in models.items()}
+    own = rd.map(lambda v: v[starts])
     if all(key in t.static for t, _ in members):
         got = [t.static[key] for t, _ in members]
     else:
         r = _position(ctx, topo, p, None, len(members), n_phase,
-                      np.repeat(np.atleast_2d(bare[p.name])[:1], len(members), axis=0), models=own)
+                      np.repeat(np.atleast_2d(bare[p.name])[:1], len(members), axis=0), rd=own)
         got = [{k: v[j:j + 1] for k, v in r.items()} for j in range(len(members))]
         for (t, _), g in zip(members, got):
             t.static.setdefault(key, g)
@@ -534,7 +607,7 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
 
 
 def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare,
-              stop_over: str | None = None, models: dict | None = None) -> dict | str:
+              stop_over: str | None = None, rd: RowDiodes | None = None) -> dict | str:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
     ``bare``: the readings without clamps (rows x 10), or a callable that gives them
@@ -543,10 +616,10 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     rating the name of the stimulus that does is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
     those of the groups folded in their own order, whatever order they were
-    solved in. ``models``: the diode models of each row (:func:`run_family`).
+    solved in. ``rd``: the diodes of each row (:func:`run_family`).
     """
     eng = topo.engine
-    diodes = _ratings(ctx, topo, models or {})
+    diodes = _ratings(ctx, topo, rd)
     out = {key: np.zeros(rows) for key in ("forward", "reverse", "max_input_forward", "max_input_reverse",
                                             "stress", "power")}
     for key in ("forward_case", "reverse_case", "stress_case"):
@@ -568,7 +641,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         group = [stims[j] for j in groups[g]]
         *solved[g], hot_g = _solve_group(eng, topo, p, group, *g[:2], fac, rows, n_phase,
                                          hot=(FRACTIONS * p.full_scale, ctx.t_hot) if g == with_hot else None,
-                                         models=models)
+                                         rd=rd)
         if g == with_hot:
             hot_mult = hot_g
         if stop_over is not None:
@@ -583,20 +656,18 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
         _record_multiples(out, p, group, mult.reshape(rows, len(group), width), rows)
         _record_power(out, p, topo, diodes, group, cur, vol, rows, width)
     out["error"], out["total"] = _hot_errors(ctx, eng, p, fac, rows, bare() if callable(bare) else bare, hot_mult,
-                                             models)
+                                             rd)
     return out
 
 
-def _ratings(ctx: SearchContext, topo: Topology, models: dict) -> dict:
+def _ratings(ctx: SearchContext, topo: Topology, rd: RowDiodes | None) -> dict:
     """Each clamp diode's continuous ratings: (average current [A], surge current [A], power [W]), floats,
-    or arrays (rows, 1) where ``models`` gives the diode's model row by row."""
+    or arrays (rows, 1) where ``rd`` gives the diode row by row (:meth:`RowDiodes.ratings`)."""
     cat = ctx.spec.parts.diodes
     out = {}
     for n in topo.clamp:
-        if n in models:
-            ds = [cat[m] for m in models[n]]
-            out[n] = tuple(np.array([getattr(d, f) for d in ds])[:, None]
-                           for f in ("max_current_a", "surge_current_a", "max_power_w"))
+        if rd is not None and n in rd.models:
+            out[n] = rd.ratings(cat, n)
         else:
             d = cat[topo.net.element(n).model]
             out[n] = (d.max_current_a, d.surge_current_a, d.max_power_w)
@@ -604,7 +675,7 @@ def _ratings(ctx: SearchContext, topo: Topology, models: dict) -> dict:
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
-                 n_phase: int, hot: tuple | None = None, models: dict | None = None):
+                 n_phase: int, hot: tuple | None = None, rd: RowDiodes | None = None):
     """Solve one group of stimuli (one kind, one source-impedance flag) for every row.
 
     Returns the movement multiples (rows x G, W), the watched parts' currents and
@@ -623,10 +694,10 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
     stim = np.tile(block, (rows, 1))  # (rows*G, W): row i, stimulus j at i*G + j
     r_src = np.tile([s.r_source_ohm for s in group], rows) if has_r else 0.0
     f_rows = None if fac is None else {k: np.repeat(v, g) for k, v in fac.items()}
-    m_rows = None if not models else {k: np.repeat(v, g) for k, v in models.items()}
+    d_rows = None if rd is None else rd.map(lambda v: np.repeat(v, g))
     hot_mult = None
     if has_r:  # a source impedance per stimulus: one parameter set per row and stimulus
-        op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows, models=m_rows)
+        op = eng.operate(p.name, stim, kind=kind, r_source_ohm=r_src, factors=f_rows, **_operate_kw(d_rows))
 
         def laid(x):
             return np.array(x)
@@ -637,7 +708,7 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
         # figures as separate calls)
         line = block.reshape(-1)
         if hot is None:
-            op = eng.operate(p.name, line, kind=kind, factors=fac, models=models)
+            op = eng.operate(p.name, line, kind=kind, factors=fac, **_operate_kw(rd))
         else:
             applied, t_hot = hot
             cols = max(line.size, applied.size)
@@ -645,8 +716,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
             both = np.repeat(both, rows, axis=0)  # rows at the reference temperature, then rows hot
             t = np.repeat([eng.spec.ambient.t_ref_k, t_hot], rows)
             f2 = None if fac is None else {k: np.tile(v, 2) for k, v in fac.items()}
-            m2 = None if not models else {k: np.tile(v, 2) for k, v in models.items()}
-            op = eng.operate(p.name, both, kind=kind, temperature_k=t, factors=f2, models=m2)
+            d2 = None if rd is None else rd.map(lambda v: np.tile(v, 2))
+            op = eng.operate(p.name, both, kind=kind, temperature_k=t, factors=f2, **_operate_kw(d2))
             hot_mult = np.asarray(op.movement_multiple)[rows:, :applied.size]
 
         def laid(x):
@@ -662,8 +733,8 @@ def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: 
         if rr.size:
             vals = np.copysign(lims[rr], i_src[rr, kk])
             f2 = None if f_rows is None else {k: v[rr] for k, v in f_rows.items()}
-            m2 = None if m_rows is None else {k: v[rr] for k, v in m_rows.items()}
-            op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2, models=m2)
+            d2 = None if d_rows is None else d_rows.map(lambda v: v[rr])
+            op2 = eng.operate(p.name, vals[:, None], kind="current", factors=f2, **_operate_kw(d2))
             mult[rr, kk] = np.asarray(op2.movement_multiple)[:, 0]
             for n in topo.watch:
                 cur[n][rr, kk] = op2.element(n).current_a[:, 0]
@@ -714,19 +785,20 @@ def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: 
 
 
 def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare,
-                hot_mult: np.ndarray | None = None, models: dict | None = None) -> tuple[np.ndarray, np.ndarray]:
+                hot_mult: np.ndarray | None = None, rd: RowDiodes | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale].
 
-    ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`).
+    ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`);
+    ``rd``: the diodes of each row (:func:`run_family`).
     """
     applied = FRACTIONS * p.full_scale
     if hot_mult is None:
-        rd = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac, models=models).reading()
+        got = eng.operate(p.name, applied, temperature_k=ctx.t_hot, factors=fac, **_operate_kw(rd)).reading()
     else:
-        rd = p.kind.reading(hot_mult, p.full_scale)
-    rd = np.broadcast_to(rd, (rows, applied.size))
-    error = np.max(np.abs(rd - np.broadcast_to(bare, rd.shape)), axis=1) / p.full_scale * 100.0
-    total = np.max(np.abs(rd - applied[None, :]), axis=1) / p.full_scale * 100.0
+        got = p.kind.reading(hot_mult, p.full_scale)
+    got = np.broadcast_to(got, (rows, applied.size))
+    error = np.max(np.abs(got - np.broadcast_to(bare, got.shape)), axis=1) / p.full_scale * 100.0
+    total = np.max(np.abs(got - applied[None, :]), axis=1) / p.full_scale * 100.0
     return error, total
 
 

@@ -84,14 +84,14 @@ def split_grid(ctx: SearchContext, site: Site, rng: np.random.Generator | None =
 
 
 def family_key(combo: Combo) -> tuple:
-    """What a combo's network is apart from its diodes' models: its site and each stack's count and mode.
+    """What a combo's network is apart from its stacks' models and lengths: its site and each stack's mode.
 
-    The combos of one family are one compiled circuit whose clamp diodes differ in model
-    only, so they are evaluated as the rows of one batch
-    (:func:`planner.protect.evaluate.run_family`).
+    The combos of one family are one circuit whose stacks differ in model and number of
+    junctions only (:func:`planner.protect.evaluate.family_template`), so they are
+    evaluated as the rows of one batch (:func:`planner.protect.evaluate.run_family`).
     """
     def shape(st):
-        return None if st is None else (st.count, st.mode)
+        return None if st is None else st.mode
 
     return combo.site.label, shape(combo.forward), shape(combo.reverse)
 
@@ -136,7 +136,7 @@ def evaluate_combo(ctx: SearchContext, combo: Combo, batches: "Batches | None" =
 
 
 #: Most combos in one family batch (rows: members x split grid).
-FAMILY_MAX = 10
+FAMILY_MAX = 16
 #: How far ahead the search's order is read for a batch's members and the worker's next family.
 LOOK_AHEAD = 40
 
@@ -191,7 +191,7 @@ class Batches:
             return {}
         topos = [topo] + [topology(ctx, c) for c, _ in members]
         grids = [r] + [g for _, g in members]
-        got = run_family(ctx, topos, grids)
+        got = run_family(ctx, [combo] + [c for c, _ in members], topos, grids)
         if got is None:
             return {}
         for (c, g), t, m in zip(members, topos[1:], got[1:]):
@@ -245,7 +245,7 @@ def ahead_task(ctx: SearchContext):
         _, batch = payload
         topos = [topology(ctx, c) for c, _ in batch]
         grids = [g for _, g in batch]
-        got = run_family(ctx, topos, grids) if len(batch) > 1 else None
+        got = run_family(ctx, [c for c, _ in batch], topos, grids) if len(batch) > 1 else None
         if got is None:
             got = [run(ctx, t, g, count=None) for t, g in zip(topos, grids)]
         return {"members": batch, "results": [(m, t.static) for m, t in zip(got, topos)]}
