@@ -41,7 +41,8 @@ range or of the minimum inside it; the split is then made of standard values
 (:func:`planner.sizing.choose_value`) and the result evaluated again on the
 realised network. Every evaluation is a batched call of
 :meth:`planner.engine.Engine.operate` (one call per position and stimulus
-group solves every split resistance of a grid at once). ``docs/protection.md``
+group solves every split resistance of a grid at once, and the combos of one
+family, alike but for their stacks' models and lengths, together). ``docs/protection.md``
 has the method, its sources and how to read the table.
 
 What lives where
@@ -56,13 +57,15 @@ What lives where
     seeded generator, counters against the cap).
 ``evaluate.py``
     :class:`Metrics`, :class:`Topology`, :class:`Point`: a candidate run over
-    the fault stimuli and positions in batches (:func:`run`), and judged
+    the fault stimuli and positions in batches (:func:`run`; a family's
+    combos as the rows of one batch, :func:`run_family`), and judged
     (:func:`feasible`, :func:`slack`, :func:`share_of_class`).
 ``ordering.py``
     :func:`lex_compare`, :func:`lex_best`, :func:`lex_score`; the Pareto set,
     order and choice of the reported rows.
 ``search.py``
-    :func:`branch_and_bound` over sites and stacks, the split grid, the
+    :func:`branch_and_bound` over sites and stacks (each family evaluated
+    ahead of its members' turns, :class:`Batches`), the split grid, the
     refinement of the split resistance (batched grids over a bracket).
 ``realise.py``
     Standard values for a split; a sized project's ``clamps:`` requests; the
