@@ -5,11 +5,13 @@ the sites in the order of their bounds and prunes what cannot beat the best
 feasible placement so far; every split combo is evaluated on a batched grid of
 split resistances (:func:`split_grid`), and the most promising are refined by
 :func:`refine` (a finer grid over the bracket between grid neighbours, in batches).
+A combo is evaluated together with the members of its family (:func:`family_key`)
+that the search would visit next, as the rows of one batch (:class:`Batches`).
 
 Public API
 ----------
-:func:`branch_and_bound`, :func:`split_grid`, :func:`evaluate_combo`,
-:func:`best_point`, :func:`bracket_grid`, :func:`refine`.
+:func:`branch_and_bound`, :func:`split_grid`, :func:`family_key`, :func:`evaluate_combo`,
+:class:`Batches`, :func:`best_point`, :func:`bracket_grid`, :func:`refine`.
 """
 
 from __future__ import annotations
@@ -35,8 +37,12 @@ __all__ = [
     "REFINE_XTOL_REL",
     "REFINE_EDGE_ROWS",
     "REFINE_GAIN",
+    "FAMILY_MAX",
+    "LOOK_AHEAD",
     "split_grid",
+    "family_key",
     "evaluate_combo",
+    "Batches",
     "best_point",
     "bracket_grid",
     "refine",
@@ -423,8 +429,9 @@ class _BranchAndBound:
     def visit(self, combo: Combo, following=()):
         """Evaluate a combo once (a combo with the signature of one seen is skipped); stop at the cap.
 
-        ``following``: the combos that may come next (:meth:`walk`), the first
-        that would be evaluated then is evaluated ahead on the worker.
+        ``following``: the combos that may come next (:meth:`walk`): the combo's
+        family among them is evaluated with it, the next family ahead on the worker
+        (:class:`Batches`).
         """
         sig = combo.signature()
         if combo.key() in self.evaluated or sig in self.seen:
@@ -486,7 +493,7 @@ class _BranchAndBound:
         return c in self.pruning and self._prune_reason(c) is not None
 
     def walk(self, combos: list, following=(), prune: bool = False) -> None:
-        """Visit ``combos`` in order (each pruned first when ``prune``), the next one evaluated ahead.
+        """Visit ``combos`` in order (each pruned first when ``prune``), families evaluated ahead.
 
         ``following``: combos visited after these (the guess may reach into them).
         """
@@ -568,7 +575,7 @@ def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple
     ----------
     ctx : SearchContext
     parallel : bool or None
-        Evaluate the combo that would come next in a forked worker while this
+        Evaluate the family that would come next in a forked worker while this
         process evaluates the current one (:class:`planner.protect.ahead.Ahead`;
         None: where a second core allows it). The search is the same.
 
