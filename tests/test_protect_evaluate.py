@@ -5,27 +5,17 @@ solved for a following :func:`run` of the same topology. The reference is the fu
 evaluation itself (:func:`run` on a fresh topology, then :func:`feasible`): the answer
 must be the same for every candidate and every order of the positions, and the metrics
 of a run that reuses the kept positions must be those of a fresh run, bit for bit.
-
-:func:`run_family` solves combos that differ only in their stacks' models and lengths as
-the rows of one batch; the reference is each combo's own :func:`run`.
 """
 
 from __future__ import annotations
-
-import dataclasses
 
 import numpy as np
 import pytest
 
 from planner.design import build
-from planner.project import load
 from planner.protect import Combo, SearchContext, Site, Stack
 from planner.protect.candidates import sites
-from planner.protect.evaluate import (REPORT_PHASE_POINTS, accuracy_ok, feasible, feasible_alone, run, run_family,
-                                      topology)
-from planner.protect.search import split_grid
-
-from conftest import PROJECTS
+from planner.protect.evaluate import REPORT_PHASE_POINTS, accuracy_ok, feasible, feasible_alone, run, topology
 
 
 def _combos(ctx):
@@ -87,48 +77,3 @@ def test_feasible_alone_counts_one_evaluation(voltmeter_spec):
     feasible_alone(ctx, topo, count=False)
     run(ctx, topo, count=None)
     assert (ctx.evaluated, ctx.reevaluated) == (e0 + 1, r0 + 2)
-
-
-def with_power_diode(spec):
-    """The spec with a second, larger diode model beside ``si_small`` (invented values, common practice)."""
-    d = spec.parts.diodes["si_small"]
-    big = dataclasses.replace(d, name="si_power", i_s_a=30e-9, n=1.8, r_s_ohm=0.05, max_current_a=1.0,
-                              surge_current_a=30.0, max_power_w=1.0)
-    return dataclasses.replace(spec, parts=dataclasses.replace(spec.parts, diodes={**spec.parts.diodes,
-                                                                                   "si_power": big}))
-
-
-# the pocket voltmeter with a second diode model (DC ranges), and the service multimeter (AC ranges:
-# a rectifier's readings are cycle means, solved member by member)
-@pytest.mark.parametrize("which", ["voltmeter", "service"])
-def test_family_rows_are_each_members_own_run(voltmeter_spec, which):
-    spec = with_power_diode(voltmeter_spec) if which == "voltmeter" else load(PROJECTS / "service_multimeter.yaml")
-    ctx = SearchContext(build(spec), 0.25, None, 100000, None)
-    models = ctx.models
-    assert len(models) == 2
-    assert which == "voltmeter" or any(p.kind.waveform != "dc" for p in ctx.positions)
-    checked = 0
-    for site in sites(ctx)[:4 if which == "voltmeter" else 3]:
-        # one family: every model each way, the forward stack one or two junctions long
-        counts = (1, 2) if which == "voltmeter" else (1,)
-        combos = [Combo(site, Stack(a, k), Stack(b, 1)) for k in counts for a in models for b in models]
-        grids = [split_grid(ctx, site) if site.kind == "split" else None for _ in combos]
-        got = run_family(ctx, combos, [topology(ctx, c) for c in combos], grids)
-        assert got is not None
-        for c, g, m in zip(combos, grids, got):
-            alone = run(ctx, topology(ctx, c), g, count=None)
-            # each row iterated to the solver's tolerance as in its own call (a stack as one junction
-            # of N times its n V_t, the solver's own reduction of a stack): 1e-12 relative
-            for name in ("forward", "reverse", "max_input_forward", "max_input_reverse", "stress", "power_w"):
-                np.testing.assert_allclose(getattr(m, name), getattr(alone, name), rtol=1e-12, err_msg=name)
-            for name in ("error_pct", "total_pct", "pos_forward", "pos_reverse"):
-                for k, v in getattr(alone, name).items():
-                    # errors in % of full scale: 1e-12 % absolute beside 1e-12 relative
-                    np.testing.assert_allclose(getattr(m, name)[k], v, rtol=1e-12, atol=1e-12)
-            np.testing.assert_array_equal(feasible(ctx, m), feasible(ctx, alone))
-            # the diode a case names is the combo's own (a stack's first)
-            assert {x[2] for x in m.stress_case if x} <= set(topology(ctx, c).clamp)
-            checked += 1
-        # the members are different circuits: their multiples are not all one
-        assert len({m.position_worst().tobytes() for m in got}) > 1
-    assert checked >= (16 if which == "voltmeter" else 12)

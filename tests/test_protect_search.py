@@ -210,7 +210,7 @@ def _search(spec, monkeypatch, family_max, parallel=False):
 
 @pytest.mark.parametrize("parallel", [False, True])
 def test_family_batches_search_as_each_combo_alone(voltmeter_spec, monkeypatch, parallel):
-    from test_protect_evaluate import with_power_diode
+    from test_protect_family import with_power_diode
 
     spec = with_power_diode(voltmeter_spec)
     batches = []

@@ -57,9 +57,11 @@ What lives where
     seeded generator, counters against the cap).
 ``evaluate.py``
     :class:`Metrics`, :class:`Topology`, :class:`Point`: a candidate run over
-    the fault stimuli and positions in batches (:func:`run`; a family's
-    combos as the rows of one batch, :func:`run_family`), and judged
+    the fault stimuli and positions in batches (:func:`run`), and judged
     (:func:`feasible`, :func:`slack`, :func:`share_of_class`).
+``family.py``
+    A family's combos (alike but for their stacks' models and lengths) as the
+    rows of one batch on one network (:func:`run_family`).
 ``ordering.py``
     :func:`lex_compare`, :func:`lex_best`, :func:`lex_score`; the Pareto set,
     order and choice of the reported rows.

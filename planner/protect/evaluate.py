@@ -17,6 +17,7 @@ Public API
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -27,6 +28,9 @@ from ..model import NetworkSpec, Resistor
 from .candidates import Combo, clamp_diodes, place_clamp
 from .context import SearchContext
 from .ordering import lex_score
+
+if TYPE_CHECKING:  # annotations only: the family module runs its batches through this one
+    from .family import RowDiodes
 
 __all__ = [
     "FRACTIONS",
@@ -40,9 +44,6 @@ __all__ = [
     "topology_of",
     "bare_readings",
     "run",
-    "RowDiodes",
-    "family_template",
-    "run_family",
     "feasible_alone",
     "accuracy_ok",
     "feasible",
@@ -309,123 +310,11 @@ def run(ctx: SearchContext, topo: Topology, r_rows=None, *, pairs=None, n_phase:
                        inf.copy(), per(), per(), failed=e.one_line())
 
 
-@dataclass(frozen=True)
-class RowDiodes:
-    """The clamp diodes of a family batch row by row (:func:`run_family`): per designator, the model of
-    each row and the junctions in series it stands for (arrays of the batch's rows)."""
-
-    models: dict
-    stacks: dict
-
-    def map(self, fn) -> "RowDiodes":
-        """Every array passed through ``fn`` (the rows repeated, tiled or taken as a call lays them out)."""
-        return RowDiodes({k: fn(v) for k, v in self.models.items()}, {k: fn(v) for k, v in self.stacks.items()})
-
-    def names(self) -> set:
-        return set(self.models) | set(self.stacks)
-
-    def ratings(self, cat, name: str) -> tuple:
-        """Diode ``name``'s continuous ratings per row, (rows, 1) each: average current [A], surge current
-        [A], and power [W] times the junctions in series (the stack's power is shared equally)."""
-        ds = [cat[m] for m in self.models[name]]
-        k = np.asarray(self.stacks[name], dtype=float)[:, None] if name in self.stacks else 1.0
-        return (np.array([d.max_current_a for d in ds])[:, None], np.array([d.surge_current_a for d in ds])[:, None],
-                np.array([d.max_power_w for d in ds])[:, None] * k)
-
-
-def _operate_kw(rd: RowDiodes | None) -> dict:
+def _operate_kw(rd: "RowDiodes | None") -> dict:
     """The keywords of :meth:`planner.engine.Engine.operate` for a family's rows (none outside a family)."""
     if rd is None:
         return {}
     return {"models": rd.models or None, "stacks": rd.stacks or None}
-
-
-def family_template(combo: Combo) -> Combo:
-    """The combo whose network stands for every combo of its family: each stack one diode (the stack's
-    junctions in series are the parameters of that diode's rows, :class:`RowDiodes`)."""
-    def one(st):
-        return None if st is None else replace(st, count=1)
-
-    return Combo(combo.site, one(combo.forward), one(combo.reverse))
-
-
-def run_family(ctx: SearchContext, combos: list, topos: list, grids: list, *,
-               n_phase: int = SEARCH_PHASE_POINTS) -> list | None:
-    """Combos alike but for their stacks' models and counts, each on its own rows, as one batch (uncounted).
-
-    Parameters
-    ----------
-    ctx : SearchContext
-    combos : list of Combo
-        One family: the same site, each direction's stack present or not alike and in
-        the same mode (:func:`planner.protect.search.family_key`); each a grid split or
-        no split, so that the readings without clamps are the base network's.
-    topos : list of Topology
-        Each combo's own network (:func:`topology`): positions whose readings are cycle
-        means (AC ranges) are solved member by member on them, and each member's
-        positions that no row of it changes are kept there.
-    grids : list
-        Each combo's split resistances [ohm] (as ``r_rows`` of :func:`run`), or None.
-    n_phase : int
-        Phase points per sine cycle.
-
-    Returns
-    -------
-    list of Metrics or None
-        What :func:`run` gives each combo on its rows (with ``count=None``), or None
-        when the batch does not solve (each member is then to be run alone: one member's
-        failure must not be the others').
-
-    Notes
-    -----
-    The members are solved on one network, :func:`family_template`: each stack is one
-    diode whose rows carry the member's model and number of junctions in series
-    (:meth:`planner.engine.Engine.operate`, ``models`` and ``stacks``; a stack of N
-    identical junctions obeys exactly the law of one with N times its :math:`nV_t`,
-    breakdown voltage and series resistance). The solver's cost being mostly per call,
-    not per row, one call serves the family. Each row is solved to the solver's own
-    tolerance, as in a call of its own: the figures agree with each combo's own
-    evaluation to that tolerance, not always to the last digit. A stack's power is
-    shared equally by its junctions; the case a stack's diode decides names its first
-    diode, as the combo's own network does.
-    """
-    template = topology(ctx, family_template(combos[0]))
-    sizes = [1 if g is None else len(g) for g in grids]
-    stacks_of = {}  # template designator -> (direction, offset among each member's clamp diodes)
-    pair = 2 if combos[0].site.pair is not None else 0
-    at = pair
-    for direction in ("forward", "reverse"):
-        if getattr(combos[0], direction) is not None:
-            stacks_of[template.clamp[at]] = direction
-            at += 1
-    models, stacks = {}, {}
-    for n, direction in stacks_of.items():
-        ms = [getattr(c, direction).model for c in combos]
-        ks = [getattr(c, direction).count for c in combos]
-        if len(set(ms)) > 1:
-            models[n] = np.repeat(np.array(ms, dtype=object), sizes)
-        if len(set(ks)) > 1 or ks[0] != 1:
-            stacks[n] = np.repeat(np.array(ks, dtype=float), sizes)
-            models.setdefault(n, np.repeat(np.array(ms, dtype=object), sizes))
-    if template.factor is None:
-        fac = None
-    else:
-        parts = [_factors(t, g, None) for t, g in zip(topos, grids)]
-        fac = {k: np.concatenate([f[k] for f in parts]) for k in parts[0]}
-    rd = RowDiodes(models, stacks)
-    try:
-        m = _run_rows(ctx, template, fac, sum(sizes), n_phase, rd=rd, members=list(zip(topos, sizes)))
-    except SolveError:
-        return None
-    ends = np.cumsum([0] + sizes)
-    out = []
-    for c, t, a, b in zip(combos, topos, ends[:-1], ends[1:]):
-        mm = m.rows(slice(int(a), int(b)))
-        first = {"forward": pair, "reverse": pair + (c.forward.count if c.forward is not None else 0)}
-        names = {n: t.clamp[first[d]] for n, d in stacks_of.items()}
-        mm.stress_case = [None if x is None else (x[0], x[1], names.get(x[2], x[2])) for x in mm.stress_case]
-        out.append(mm)
-    return out
 
 
 def _factors(topo: Topology, r_rows, pairs):
@@ -440,7 +329,7 @@ def _factors(topo: Topology, r_rows, pairs):
 
 
 def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, own_bare: bool = False,
-              rd: RowDiodes | None = None, members: list | None = None) -> Metrics:
+              rd: "RowDiodes | None" = None, members: list | None = None) -> Metrics:
     """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`).
 
     ``rd`` and ``members``: the rows of a family (:func:`run_family`): the diodes of each row,
@@ -509,7 +398,7 @@ def _each_member(ctx: SearchContext, p, fac, n_phase: int, bare: dict, members: 
                 else [x for g in got for x in g[k]]) for k in got[0]}
 
 
-def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, rd: RowDiodes,
+def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, rd: "RowDiodes",
                    members: list) -> dict:
     """A position no split part carries, for a family: one row per member (its own values, its models),
     solved together, kept in each member's ``static`` and spread over the member's rows."""
@@ -607,7 +496,7 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
 
 
 def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare,
-              stop_over: str | None = None, rd: RowDiodes | None = None) -> dict | str:
+              stop_over: str | None = None, rd: "RowDiodes | None" = None) -> dict | str:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
     ``bare``: the readings without clamps (rows x 10), or a callable that gives them
@@ -660,7 +549,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     return out
 
 
-def _ratings(ctx: SearchContext, topo: Topology, rd: RowDiodes | None) -> dict:
+def _ratings(ctx: SearchContext, topo: Topology, rd: "RowDiodes | None") -> dict:
     """Each clamp diode's continuous ratings: (average current [A], surge current [A], power [W]), floats,
     or arrays (rows, 1) where ``rd`` gives the diode row by row (:meth:`RowDiodes.ratings`)."""
     cat = ctx.spec.parts.diodes
@@ -675,7 +564,7 @@ def _ratings(ctx: SearchContext, topo: Topology, rd: RowDiodes | None) -> dict:
 
 
 def _solve_group(eng: Engine, topo: Topology, p, group: list, kind: str, has_r: bool, fac, rows: int,
-                 n_phase: int, hot: tuple | None = None, rd: RowDiodes | None = None):
+                 n_phase: int, hot: tuple | None = None, rd: "RowDiodes | None" = None):
     """Solve one group of stimuli (one kind, one source-impedance flag) for every row.
 
     Returns the movement multiples (rows x G, W), the watched parts' currents and
@@ -785,7 +674,7 @@ def _record_power(out: dict, p, topo: Topology, diodes: dict, group: list, cur: 
 
 
 def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare,
-                hot_mult: np.ndarray | None = None, rd: RowDiodes | None = None) -> tuple[np.ndarray, np.ndarray]:
+                hot_mult: np.ndarray | None = None, rd: "RowDiodes | None" = None) -> tuple[np.ndarray, np.ndarray]:
     """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale].
 
     ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`);

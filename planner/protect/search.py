@@ -25,7 +25,8 @@ import numpy as np
 from .ahead import Ahead
 from .candidates import Combo, Site, Stack, sites, stacks
 from .context import SearchContext
-from .evaluate import Metrics, Point, Topology, feasible, run, run_family, slack, topology
+from .evaluate import Metrics, Point, Topology, feasible, run, slack, topology
+from .family import run_family
 from .ordering import lex_best, lex_compare, lex_score, ranked
 
 __all__ = [
