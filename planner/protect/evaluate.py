@@ -332,7 +332,7 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
               rd: "RowDiodes | None" = None, members: list | None = None) -> Metrics:
     """Every position for ``rows`` rows, gathered into the worst over the positions (see :func:`run`).
 
-    ``rd`` and ``members``: the rows of a family (:func:`run_family`): the diodes of each row,
+    ``rd`` and ``members``: the rows of a family (:func:`planner.protect.family.run_family`): the diodes of each row,
     and each member's own topology with its number of rows, in row order.
     """
     if topo.carrying is None:
@@ -505,7 +505,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
     rating the name of the stimulus that does is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
     those of the groups folded in their own order, whatever order they were
-    solved in. ``rd``: the diodes of each row (:func:`run_family`).
+    solved in. ``rd``: the diodes of each row (:func:`planner.protect.family.run_family`).
     """
     eng = topo.engine
     diodes = _ratings(ctx, topo, rd)
@@ -678,7 +678,7 @@ def _hot_errors(ctx: SearchContext, eng: Engine, p, fac, rows: int, bare,
     """Clamp error and whole error at the hottest ambient over the linearity points [% of full scale].
 
     ``hot_mult``: the movement multiples at those points when solved already (:func:`_solve_group`);
-    ``rd``: the diodes of each row (:func:`run_family`).
+    ``rd``: the diodes of each row (:func:`planner.protect.family.run_family`).
     """
     applied = FRACTIONS * p.full_scale
     if hot_mult is None:

@@ -95,7 +95,7 @@ def family_key(combo: Combo) -> tuple:
 
     The combos of one family are one circuit whose stacks differ in model and number of
     junctions only (:func:`planner.protect.evaluate.family_template`), so they are
-    evaluated as the rows of one batch (:func:`planner.protect.evaluate.run_family`).
+    evaluated as the rows of one batch (:func:`planner.protect.family.run_family`).
     """
     def shape(st):
         return None if st is None else st.mode
