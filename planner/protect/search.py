@@ -94,7 +94,7 @@ def family_key(combo: Combo) -> tuple:
     """What a combo's network is apart from its stacks' models and lengths: its site and each stack's mode.
 
     The combos of one family are one circuit whose stacks differ in model and number of
-    junctions only (:func:`planner.protect.evaluate.family_template`), so they are
+    junctions only (:func:`planner.protect.family.family_template`), so they are
     evaluated as the rows of one batch (:func:`planner.protect.family.run_family`).
     """
     def shape(st):
