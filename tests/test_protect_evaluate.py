@@ -77,3 +77,31 @@ def test_feasible_alone_counts_one_evaluation(voltmeter_spec):
     feasible_alone(ctx, topo, count=False)
     run(ctx, topo, count=None)
     assert (ctx.evaluated, ctx.reevaluated) == (e0 + 1, r0 + 2)
+
+
+def test_position_figures_are_each_stimulus_solved_alone(voltmeter_spec):
+    # run() solves a position's stimuli in groups (a sine behind a source impedance apart from the DC
+    # sources, the sources without impedance side by side with the hot linearity points); the
+    # reference solves each stimulus in a call of its own, as its samples alone
+    ctx = SearchContext(build(voltmeter_spec), 0.25, None, 2000, None)
+    for combo in _combos(ctx)[:4]:
+        topo = topology(ctx, combo)
+        m = run(ctx, topo, count=None)
+        worst_power = 0.0
+        for p in ctx.positions:
+            fwd = rev = power = 0.0
+            for s in ctx.stimuli[p.name]:
+                op = topo.engine.operate(p.name, np.atleast_2d(s.samples(16)), kind=s.kind,
+                                         r_source_ohm=s.r_source_ohm)
+                mult = op.movement_multiple[0]
+                fwd, rev = max(fwd, mult.max()), max(rev, (-mult).max())
+                if not s.peak_only:
+                    power = max(power, sum(abs(float(np.mean(op.element(n).current_a[0] * op.element(n).voltage_v[0])))
+                                           for n in topo.watch))
+            # the same operating points in other batches: 1e-12 relative
+            np.testing.assert_allclose(m.pos_forward[p.name][0], fwd, rtol=1e-12)
+            np.testing.assert_allclose(m.pos_reverse[p.name][0], rev, rtol=1e-12)
+            worst_power = max(worst_power, power)
+        # the clamp's power: the worst over the positions and stimuli, 1e-12 relative
+        np.testing.assert_allclose(m.power_w[0], worst_power, rtol=1e-12)
+        assert worst_power > 0.0
