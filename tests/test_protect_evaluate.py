@@ -4,7 +4,9 @@
 solved for a following :func:`run` of the same topology. The reference is the full
 evaluation itself (:func:`run` on a fresh topology, then :func:`feasible`): the answer
 must be the same for every candidate and every order of the positions, and the metrics
-of a run that reuses the kept positions must be those of a fresh run, bit for bit.
+of a run that reuses the kept positions must be those of a fresh run, bit for bit. A
+position's figures, solved in groups of stimuli, are checked against each stimulus solved
+in a call of its own.
 """
 
 from __future__ import annotations
