@@ -354,17 +354,12 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
         # the same for every row of a topology: solve it once (once per member of a family)
         carried = topo.carrying[p.name]
         varies = fac is not None and any(n in carried for n in fac)
-        if members is not None and p.kind.waveform != "dc":
-            # a cycle-averaged reading (an AC range's linearity points) is solved member by member
-            r = _each_member(ctx, p, fac if varies else None, n_phase, bare, members)
+        if members is not None:
+            r = _family_position(ctx, topo, p, fac if varies else None, rows, n_phase, bare, rd, members)
         elif varies:
-            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name], rd=rd)
-        elif members is not None and any(n in carried for n in rd.names()):
-            r = _member_static(ctx, topo, p, n_phase, bare, rd, members)
+            r = _position(ctx, topo, p, fac, rows, n_phase, bare[p.name])
         else:
             r = _static_position(ctx, topo, p, n_phase, bare)
-            for t, _ in members or ():
-                t.static.setdefault((p.name, n_phase), r)
         if not varies and r["forward"].shape[0] == 1 and rows > 1:
             r = {key: (np.repeat(v, rows, axis=0) if isinstance(v, np.ndarray) else v * rows)
                  for key, v in r.items()}
@@ -382,40 +377,66 @@ def _run_rows(ctx: SearchContext, topo: Topology, fac, rows: int, n_phase: int, 
     return Metrics(fwd, rev, fcase, rcase, mi_f, mi_r, err, tot, stress, scase, power, pf, pr)
 
 
-def _each_member(ctx: SearchContext, p, fac, n_phase: int, bare: dict, members: list) -> dict:
-    """A position of a family solved member by member, each on its own topology and rows, joined in row order
-    (``fac``: the split's factors of every row when the position carries a split part, else None)."""
-    got, at = [], 0
-    for t, n in members:
-        if fac is not None:  # (a split part it carries)
-            own = {k: v[at:at + n] for k, v in fac.items()}
-            got.append(_position(ctx, t, p, own, n, n_phase, bare[p.name]))
-        else:
-            r = _static_position(ctx, t, p, n_phase, bare)
-            got.append({k: (np.repeat(v, n, axis=0) if isinstance(v, np.ndarray) else v * n) for k, v in r.items()})
-        at += n
-    return {k: (np.concatenate([g[k] for g in got]) if isinstance(got[0][k], np.ndarray)
-                else [x for g in got for x in g[k]]) for k in got[0]}
+def _family_position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare: dict,
+                     rd: "RowDiodes", members: list) -> dict:
+    """One position for every row of a family (:func:`planner.protect.family.run_family`; ``topo``: its
+    template), each case naming the member's own diodes.
 
-
-def _member_static(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict, rd: "RowDiodes",
-                   members: list) -> dict:
-    """A position no split part carries, for a family: one row per member (its own values, its models),
-    solved together, kept in each member's ``static`` and spread over the member's rows."""
+    ``fac``: the split's factors of every row when the position carries a split part (else None).
+    A position no split part carries is one row per member (each member's own models and
+    stacks), solved together and kept in each member's ``static``; a cycle-averaged reading
+    (an AC range's linearity points) is solved member by member on the members' own networks.
+    """
     key = (p.name, n_phase)
-    starts = np.cumsum([0] + [k for _, k in members[:-1]])
-    own = rd.map(lambda v: v[starts])
-    if all(key in t.static for t, _ in members):
-        got = [t.static[key] for t, _ in members]
-    else:
-        r = _position(ctx, topo, p, None, len(members), n_phase,
-                      np.repeat(np.atleast_2d(bare[p.name])[:1], len(members), axis=0), rd=own)
+    if p.kind.waveform != "dc":
+        got = []
+        for t, n, start in _spans(members):
+            if fac is not None:
+                own = {k: v[start:start + n] for k, v in fac.items()}
+                got.append(_position(ctx, t, p, own, n, n_phase, bare[p.name]))
+            else:
+                got.append(_static_position(ctx, t, p, n_phase, bare))
+        return _joined(got, [1 if fac is not None else n for _, n, _ in _spans(members)])
+    if fac is not None:
+        return _named(_position(ctx, topo, p, fac, rows, n_phase, bare[p.name], rd=rd), rd)
+    first = rd.map(lambda v: v[[start for _, _, start in _spans(members)]])
+    if any(n in topo.carrying[p.name] for n in rd.names()):
+        r = _named(_position(ctx, topo, p, None, len(members), n_phase,
+                             np.repeat(np.atleast_2d(bare[p.name])[:1], len(members), axis=0), rd=first), first)
         got = [{k: v[j:j + 1] for k, v in r.items()} for j in range(len(members))]
-        for (t, _), g in zip(members, got):
-            t.static.setdefault(key, g)
-    return {k: (np.concatenate([np.repeat(g[k], n, axis=0) for g, (_, n) in zip(got, members)])
-                if isinstance(got[0][k], np.ndarray) else [x for g, (_, n) in zip(got, members) for x in g[k] * n])
-            for k in got[0]}
+    else:  # the same for every member but for the names of its diodes
+        r = _static_position(ctx, topo, p, n_phase, bare)
+        got = [_named(r, first, j) for j in range(len(members))]
+    for (t, _), g in zip(members, got):
+        t.static.setdefault(key, g)
+    return _joined(got, [n for _, n in members])
+
+
+def _spans(members: list) -> list:
+    """(topology, rows, first row) of each member of a family, in row order."""
+    out, at = [], 0
+    for t, n in members:
+        out.append((t, n, at))
+        at += n
+    return out
+
+
+def _joined(parts: list, repeats: list) -> dict:
+    """Position figures of consecutive rows joined, each part's rows repeated ``repeats`` times."""
+    return {k: (np.concatenate([np.repeat(g[k], n, axis=0) for g, n in zip(parts, repeats)])
+                if isinstance(parts[0][k], np.ndarray) else [x for g, n in zip(parts, repeats) for x in g[k] * n])
+            for k in parts[0]}
+
+
+def _named(r: dict, rd: "RowDiodes", row: int | None = None) -> dict:
+    """``r`` with each stress case naming the row's own diode instead of the template's
+    (:attr:`planner.protect.family.RowDiodes.own`; ``row``: every case is that row's)."""
+    cases = []
+    for i, x in enumerate(r["stress_case"]):
+        if x is not None and x[2] in rd.own:
+            x = (x[0], x[1], rd.own[x[2]][i if row is None else row])
+        cases.append(x)
+    return {**r, "stress_case": cases}
 
 
 def _static_position(ctx: SearchContext, topo: Topology, p, n_phase: int, bare: dict) -> dict:

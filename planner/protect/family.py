@@ -28,15 +28,18 @@ __all__ = ["RowDiodes", "family_template", "run_family"]
 
 @dataclass(frozen=True)
 class RowDiodes:
-    """The clamp diodes of a family batch row by row (:func:`run_family`): per designator, the model of
-    each row and the junctions in series it stands for (arrays of the batch's rows)."""
+    """The clamp diodes of a family batch row by row (:func:`run_family`): per designator of the template,
+    the model of each row, the junctions in series it stands for, and the designator of the row's own
+    diode (the first of its stack) in the member's network (arrays of the batch's rows)."""
 
     models: dict
     stacks: dict
+    own: dict
 
     def map(self, fn) -> "RowDiodes":
         """Every array passed through ``fn`` (the rows repeated, tiled or taken as a call lays them out)."""
-        return RowDiodes({k: fn(v) for k, v in self.models.items()}, {k: fn(v) for k, v in self.stacks.items()})
+        return RowDiodes({k: fn(v) for k, v in self.models.items()}, {k: fn(v) for k, v in self.stacks.items()},
+                         {k: fn(v) for k, v in self.own.items()})
 
     def names(self) -> set:
         return set(self.models) | set(self.stacks)
@@ -108,8 +111,11 @@ def run_family(ctx: SearchContext, combos: list, topos: list, grids: list, *,
         if getattr(combos[0], direction) is not None:
             stacks_of[template.clamp[at]] = direction
             at += 1
-    models, stacks = {}, {}
+    models, stacks, own = {}, {}, {}
     for n, direction in stacks_of.items():
+        first = [t.clamp[pair + (c.forward.count if direction == "reverse" and c.forward is not None else 0)]
+                 for c, t in zip(combos, topos)]
+        own[n] = np.repeat(np.array(first, dtype=object), sizes)
         ms = [getattr(c, direction).model for c in combos]
         ks = [getattr(c, direction).count for c in combos]
         if len(set(ms)) > 1:
@@ -122,17 +128,10 @@ def run_family(ctx: SearchContext, combos: list, topos: list, grids: list, *,
     else:
         parts = [_factors(t, g, None) for t, g in zip(topos, grids)]
         fac = {k: np.concatenate([f[k] for f in parts]) for k in parts[0]}
-    rd = RowDiodes(models, stacks)
+    rd = RowDiodes(models, stacks, own)
     try:
         m = _run_rows(ctx, template, fac, sum(sizes), n_phase, rd=rd, members=list(zip(topos, sizes)))
     except SolveError:
         return None
     ends = np.cumsum([0] + sizes)
-    out = []
-    for c, t, a, b in zip(combos, topos, ends[:-1], ends[1:]):
-        mm = m.rows(slice(int(a), int(b)))
-        first = {"forward": pair, "reverse": pair + (c.forward.count if c.forward is not None else 0)}
-        names = {n: t.clamp[first[d]] for n, d in stacks_of.items()}
-        mm.stress_case = [None if x is None else (x[0], x[1], names.get(x[2], x[2])) for x in mm.stress_case]
-        out.append(mm)
-    return out
+    return [m.rows(slice(int(a), int(b))) for a, b in zip(ends[:-1], ends[1:])]
