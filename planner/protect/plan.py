@@ -61,8 +61,9 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
-        Evaluate the project as given (its row) and judge it and its protection-part
-        combinations on the misrange matrix in a child process beside the clamp search, and evaluate
+        Evaluate the baselines (the rows of the project as given and of the clamps
+        across the movement), and judge the project as given and its protection-part
+        combinations on the misrange matrix, in a child process beside the clamp search, and evaluate
         the search's next candidate and realised placement ahead in a
         forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
         this process (False); or the first where a second core allows it (None,
@@ -127,39 +128,39 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
         if unknown:
             raise UsageError(f"the accuracy share names no position '{unknown[0]}'; positions: "
                              f"{', '.join(ctx.limits)}")
-    # the project as given (its row, its misrange matrix) does not depend on the clamp search: on a second core
+    model = ctx.default_model()
+    across = Combo(Site("movement", "movement", ctx.movement.a), Stack(model, 1), Stack(model, 1))
+    # the project as given (its row, its misrange matrix) and the clamps across the movement do not depend
+    # on the clamp search: on a second core
     worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
-    with beside(lambda: (judge_given(design, worst_share), _as_given(ctx)), str, parallel=parallel) as given:
-        ctx.say("the project as given")
-        model = ctx.default_model()
-        movement = Site("movement", "movement", ctx.movement.a)
-        across = Combo(movement, Stack(model, 1), Stack(model, 1))
-
+    with beside(lambda: (judge_given(design, worst_share), _baselines(ctx, across)), str,
+                parallel=parallel) as given:
+        ctx.say("the project as given and the clamps across the movement")
         points, info, evaluated = branch_and_bound(ctx, parallel=parallel)
 
         # every feasible placement found, best first -> standard values -> the faults
         # matrix's phase points -> Pareto set and choice on those final numbers
-        ctx.say("clamps across the movement")
-        pa = final(ctx, Point(across, None, None, False))
-        across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
-        finals = _final_rows(ctx, points, evaluated, across, across_row, parallel)
-        table, chosen = _pareto_table(finals)
+        candidates = _final_rows(ctx, points, evaluated, across, parallel)
         ctx.say("the misrange matrices of the project as given and of its protection parts")
         got, error = given.result()
-        judged_given, (as_given, rows) = got if error is None else (None, _as_given(ctx))
+        judged_given, (as_given, across_row, rows) = got if error is None else (None, _baselines(ctx, across))
         ctx.reevaluated += rows
+        table, chosen = _pareto_table([dict(across_row, label="candidate")] + candidates)
         result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         _judge_on_matrix(design, result, worst_share, ctx.say, judged_given)
     return json_safe(result)
 
 
-def _as_given(ctx: SearchContext) -> tuple[dict, int]:
-    """The row of the project as given (:func:`planner.protect.report.as_given_row`) and the rows its
-    evaluation adds to the final pass's count, given back rather than counted (it may run in a child)."""
+def _baselines(ctx: SearchContext, across: Combo) -> tuple[dict, dict, int]:
+    """The rows of the project as given (:func:`planner.protect.report.as_given_row`) and of the clamps
+    across the movement (evaluated as the final pass does), and the rows their evaluations add to the
+    final pass's count, given back rather than counted (they may run in a child)."""
     before = ctx.reevaluated
-    row = as_given_row(ctx)
+    as_given = as_given_row(ctx)
+    pa = final(ctx, Point(across, None, None, False))
+    across_row = placement_row(ctx, "across movement", pa, clamps=pa.clamps)
     rows, ctx.reevaluated = ctx.reevaluated - before, before
-    return row, rows
+    return as_given, across_row, rows
 
 
 def _judge_on_matrix(design: Design, result: dict, worst_share: float, say, given: dict | None = None) -> None:
@@ -201,12 +202,12 @@ def _check_settings(share, max_candidates, seed) -> None:
         raise UsageError(f"seed must be a whole number of at least 0, not {seed!r}")
 
 
-def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo, across_row: dict,
+def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo,
                 parallel: bool | None = False) -> list[dict]:
     """The rows of the best feasible placements, made of standard values and evaluated again.
 
-    The clamps across the movement come first (as a candidate); then up to
-    twice :data:`PARETO_ROWS` placements, best first, each realised
+    Up to twice :data:`PARETO_ROWS` placements, best first (the clamps across the
+    movement, ``across``, left out: their row is made apart), each realised
     (:mod:`planner.protect.realise`) and evaluated at the reported resolution;
     a placement that realises to a row already there is left out, and so is an
     infeasible one (only feasible rows enter the Pareto table: it is found out
@@ -214,8 +215,8 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     With ``parallel``, the next placement is realised ahead in a forked worker
     (:class:`planner.protect.ahead.Ahead`) while this process realises the current one.
     """
-    finals = [dict(across_row, label="candidate")]
-    seen = {across_row["key"]}
+    finals = []
+    seen = {row_key(across, None)}
     ctx.say("standard values for the best placements")
     best_first = ranked([p for p in points if p.feasible])
     todo = [p for p in best_first[:2 * PARETO_ROWS] if p.combo.key() != across.key()]
