@@ -353,6 +353,42 @@ def _with_sources(net, st, plus, minus, live, alias):
 
 #: Compiled states by topology (:func:`compiled`).
 _COMPILED = Kept(4096)
+#: The current-carrying parts of states by topology (:func:`live_part`).
+_LIVE = Kept(4096)
+
+
+def _live(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
+    """The nodes :func:`compile_state` solves (``live``) and the dangling ones with the node each hangs on."""
+    plus, minus = st.position.input
+    # the state's edges (:func:`active_graph`'s) as node pairs: the graph itself is made only where a battery needs it
+    live, alias = _carrying([e.nodes for e in net.elements if e.present(st.closed)], plus, minus)
+    return _with_sources(net, st, plus, minus, live, alias)
+
+
+def live_part(net: NetworkSpec, st: SwitchState) -> tuple[frozenset, dict]:
+    """The part of a state that :func:`compile_state` reads, kept per topology (:func:`topology_key`).
+
+    Returns
+    -------
+    live : frozenset of str
+        The nodes of the current-carrying block (every node joined to the input
+        where a battery outside the block closes a loop, :func:`_with_sources`).
+    alias : dict
+        Every other node joined to the input, mapped to the node of ``live`` it
+        hangs on (not to be changed).
+
+    Notes
+    -----
+    The compiled circuit names these nodes alone (its ``node_index``): an element
+    with neither node among them carries no current and has no voltage across it
+    in that state, whatever its value.
+    """
+    key = _topology_key_of(net, st)
+    hit = _LIVE.get(key)
+    if hit is None:
+        live, alias = _live(net, st)
+        hit = _LIVE.keep(key, (frozenset(live), dict(alias)))
+    return hit
 
 
 def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
@@ -424,9 +460,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
     plus, minus = st.position.input
-    # the state's edges (:func:`active_graph`'s) as node pairs: the graph itself is made only where a battery needs it
-    live, alias = _carrying([e.nodes for e in net.elements if e.present(st.closed)], plus, minus)
-    live, alias = _with_sources(net, st, plus, minus, live, alias)
+    live, alias = _live(net, st)
     uf = UnionFind()
     for n in live:
         uf.find(n)

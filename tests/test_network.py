@@ -290,3 +290,25 @@ def test_current_carrying_from_element_pairs_against_networkx():
             assert nw._carrying(pairs, plus, minus) == _carrying_by_networkx(nw.active_graph(net, st), plus, minus)
             states += 1
     assert states > 20
+
+
+def test_live_part_holds_every_node_of_the_compiled_state():
+    """:func:`planner.network.live_part` is what :func:`planner.network.compile_state` reads: the
+    compiled circuit names no other node, every element between two live nodes is in it, and
+    it is kept per topology (the same objects for the same network and state)."""
+    from pathlib import Path
+
+    from planner.project import load
+    from planner.sizing import sized_spec
+
+    spec = sized_spec(load(Path(__file__).resolve().parent.parent / "projects" / "bench_multimeter.yaml"))
+    net = spec.network
+    for st in nw.position_states(net) + nw.transition_states(net):
+        live, alias = nw.live_part(net, st)
+        assert nw.live_part(net, st)[0] is live
+        c = nw.compile_state(spec, st, net=net)
+        assert set(c.node_index) <= live | alias.keys()
+        assert all(alias[n] in live for n in alias)
+        inside = {e.name for e in net.elements if e.nodes[0] in live and e.nodes[1] in live
+                  and e.present(st.closed) and not e.merges(st.closed)}
+        assert inside == {br.element for br in c.branches} | set(c.diodes) | set(c.varistors)
