@@ -15,7 +15,7 @@ ports: the node pairs they join (an antiparallel pair shares one port).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import networkx as nx
 import numpy as np
@@ -365,6 +365,42 @@ def _live(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
     return _with_sources(net, st, plus, minus, live, alias)
 
 
+#: Field names of each model type but ``line`` (:func:`record`).
+_FIELDS: dict = {}
+
+
+def record(x) -> tuple:
+    """A frozen model object (an element, a position) as a key: its type and every field but ``line``.
+
+    Two elements with the same record are the same part in the same place (the
+    file line they were read from aside): a solve or a judgement reads nothing else
+    of them.
+    """
+    names = _FIELDS.get(type(x))
+    if names is None:
+        names = _FIELDS[type(x)] = tuple(f.name for f in fields(x) if f.name != "line")
+    return (type(x),) + tuple(getattr(x, n) for n in names)
+
+
+def live_elements(net: NetworkSpec, st: SwitchState, live, records=None) -> tuple:
+    """What :func:`compile_state` reads of the elements of a state with live part ``live``, as a key.
+
+    Every element between two live nodes and every closed ideal contact that touches
+    one, in network order, each as ``(record, present, merges)`` (:func:`record`;
+    ``records``: the records of ``net.elements`` when the caller keeps them). With the
+    live nodes, the input terminals and the source, they decide the compiled state
+    and its branch values; every other element has no node in the compiled circuit
+    or hangs on it by a single node (no current, no voltage across it).
+    """
+    closed = st.closed
+    out = []
+    for k, e in enumerate(net.elements):
+        a, b = e.nodes
+        if (a in live and b in live) or ((a in live or b in live) and e.merges(closed)):
+            out.append((record(e) if records is None else records[k], e.present(closed), e.merges(closed)))
+    return tuple(out)
+
+
 def live_part(net: NetworkSpec, st: SwitchState) -> tuple[frozenset, dict]:
     """The part of a state that :func:`compile_state` reads, kept per topology (:func:`topology_key`).
 
@@ -436,7 +472,7 @@ def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source
 
 
 def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
-                  source_resistance: bool = False, net: NetworkSpec | None = None):
+                  source_resistance: bool = False, net: NetworkSpec | None = None, live: tuple | None = None):
     """Compile a switch state into a :class:`planner.solve.Circuit`.
 
     Parameters
@@ -450,6 +486,9 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
         for a voltage stimulus.
     net : NetworkSpec, optional
         Defaults to ``spec.network``.
+    live : tuple, optional
+        The state's ``(live, alias)`` (:func:`live_part`) when the caller knows them;
+        found here otherwise.
 
     Returns
     -------
@@ -460,7 +499,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
     plus, minus = st.position.input
-    live, alias = _live(net, st)
+    live, alias = _live(net, st) if live is None else live
     uf = UnionFind()
     for n in live:
         uf.find(n)

@@ -34,17 +34,6 @@ from .. import network as nw
 
 __all__ = ["SharedStates", "tally_record"]
 
-#: Field names of each model type but ``line`` (:func:`_record`).
-_FIELDS: dict = {}
-
-
-def _record(x) -> tuple:
-    """A frozen model object (element, position) as a key: its type and every field but ``line``."""
-    names = _FIELDS.get(type(x))
-    if names is None:
-        names = _FIELDS[type(x)] = tuple(f.name for f in fields(x) if f.name != "line")
-    return (type(x),) + tuple(getattr(x, n) for n in names)
-
 
 def tally_record(case: dict) -> dict:
     """What a tally reads of a judged case: ``verdict``, ``accepted``, ``deciding`` (its ``ratio``), ``style``.
@@ -78,6 +67,7 @@ class SharedStates:
         self.spec = spec
         self._tallies: dict = {}
         self._readings: dict = {}
+        self._kept_records: dict = {}  # id(network) -> (network, its elements' records)
         self.asked = 0
         self.reused = 0
 
@@ -100,17 +90,22 @@ class SharedStates:
         live, _ = nw.live_part(design.net, st)
         if not (set(design.movement.nodes) <= live):
             return None
-        closed = st.closed
-        parts = tuple((_record(e), e.present(closed), e.merges(closed)) for e in design.net.elements
-                      if (e.nodes[0] in live and e.nodes[1] in live)
-                      or (e.merges(closed) and (e.nodes[0] in live or e.nodes[1] in live)))
-        key = (st.name, st.kind, _record(st.position), None if st.target is None else _record(st.target),
+        parts = nw.live_elements(design.net, st, live, self._records(design))
+        key = (st.name, st.kind, nw.record(st.position), None if st.target is None else nw.record(st.target),
                live, parts, tuple(stimuli))
         try:
             hash(key)
         except TypeError:
             return None
         return key
+
+    def _records(self, design) -> list:
+        """:func:`planner.network.record` of each element of a design's network, made once per network."""
+        net = design.net
+        got = self._kept_records.get(id(net))
+        if got is None or got[0] is not net:
+            got = self._kept_records[id(net)] = (net, [nw.record(e) for e in net.elements])
+        return got[1]
 
     def tally(self, key, judge) -> list[dict]:
         """The :func:`tally_record` of each case of a state: kept under ``key``, else ``judge()``'s cases recorded.
