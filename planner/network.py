@@ -144,8 +144,16 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
     Raises
     ------
     ProjectError
+
+    Notes
+    -----
+    A network that passes every check is found so without networkx
+    (:func:`_passes`); only one that fails some check is checked again here, with
+    the graph, to name what is wrong.
     """
     net = net if net is not None else spec.network
+    if _passes(net):
+        return
     path = spec.path
     movement = movement_element(net)
     full = graph(net)
@@ -189,6 +197,63 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             raise ProjectError(
                 f"position '{p.name}': the movement {movement.name} is not in the path from {plus} to {minus}, "
                 f"so it would never deflect; check the contacts closed in it", path, p.line)
+
+
+def _reached(adj: dict, starts) -> set:
+    """The nodes joined to any of ``starts`` in the graph ``adj`` (node -> neighbours)."""
+    seen = {n for n in starts if n in adj}
+    todo = list(seen)
+    while todo:
+        for w in adj[todo.pop()]:
+            if w not in seen:
+                seen.add(w)
+                todo.append(w)
+    return seen
+
+
+def _passes(net: NetworkSpec) -> bool:
+    """Whether :func:`validate` finds nothing wrong with a network (False: let it say what, or pass).
+
+    The same checks on node pairs instead of networkx graphs: no node but an input
+    terminal touched once (a self-loop touches its node twice, as networkx counts
+    it), no element out of reach of the input terminals, and in every position a
+    closed contact (where the network has contacts), a path between the input
+    terminals and the movement in the current-carrying block (:func:`_carrying`,
+    which :func:`validate` uses too).
+    """
+    movement = next((e for e in net.elements if isinstance(e, MovementElement)), None)
+    if movement is None:
+        return False
+    terminals = {n for p in net.positions for n in p.input}
+    degree: dict = {}
+    adj: dict = {}
+    for e in net.elements:
+        a, b = e.nodes
+        degree[a] = degree.get(a, 0) + 1
+        degree[b] = degree.get(b, 0) + 1
+        adj.setdefault(a, set()).add(b)
+        adj.setdefault(b, set()).add(a)
+    if any(d == 1 and n not in terminals for n, d in degree.items()):
+        return False
+    reach = _reached(adj, terminals)
+    if any(e.nodes[0] not in reach for e in net.elements):
+        return False
+    has_contacts = any(e.stamp == "switch" for e in net.elements)
+    for st in position_states(net):
+        if has_contacts and not st.closed:
+            return False
+        plus, minus = st.position.input
+        pairs = [e.nodes for e in net.elements if e.present(st.closed)]
+        joined: dict = {plus: set(), minus: set()}
+        for a, b in pairs:
+            joined.setdefault(a, set()).add(b)
+            joined.setdefault(b, set()).add(a)
+        if minus not in _reached(joined, [plus]):
+            return False
+        main, _ = _carrying(pairs, plus, minus)
+        if movement.a not in main or movement.b not in main:
+            return False
+    return True
 
 
 # --- compiling one state for the solver -----------------------------------------------------
@@ -401,14 +466,15 @@ def live_elements(net: NetworkSpec, st: SwitchState, live, records=None) -> tupl
     return tuple(out)
 
 
-def live_part(net: NetworkSpec, st: SwitchState) -> tuple[frozenset, dict]:
+def live_part(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
     """The part of a state that :func:`compile_state` reads, kept per topology (:func:`topology_key`).
 
     Returns
     -------
-    live : frozenset of str
+    live : set of str
         The nodes of the current-carrying block (every node joined to the input
-        where a battery outside the block closes a loop, :func:`_with_sources`).
+        where a battery outside the block closes a loop, :func:`_with_sources`);
+        not to be changed.
     alias : dict
         Every other node joined to the input, mapped to the node of ``live`` it
         hangs on (not to be changed).
@@ -422,8 +488,7 @@ def live_part(net: NetworkSpec, st: SwitchState) -> tuple[frozenset, dict]:
     key = _topology_key_of(net, st)
     hit = _LIVE.get(key)
     if hit is None:
-        live, alias = _live(net, st)
-        hit = _LIVE.keep(key, (frozenset(live), dict(alias)))
+        hit = _LIVE.keep(key, _live(net, st))
     return hit
 
 
@@ -463,11 +528,12 @@ def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source
     """
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
-    key = (_topology_key_of(net, st), kind, bool(source_resistance))
+    topology = _topology_key_of(net, st)
+    key = (topology, kind, bool(source_resistance))
     circuit = _COMPILED.get(key)
-    if circuit is None:
+    if circuit is None:  # the live part as found before for this topology (:func:`live_part`), if it was
         circuit = _COMPILED.keep(key, compile_state(spec, st, stimulus=kind, source_resistance=source_resistance,
-                                                     net=net))
+                                                     net=net, live=_LIVE.get(topology)))
     return circuit
 
 

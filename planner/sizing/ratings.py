@@ -214,8 +214,8 @@ class LinearNetwork:
         p = net.position(position)
         st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
         records = self._records + [nw.record(e) for e in net.elements[len(self._records):]]
-        return (id(self.spec.parts), id(self.spec.movement), id(self.spec.ambient), nw.record(p), shorted, live[0],
-                nw.live_elements(net, st, live[0], records), tuple(values))
+        return (id(self.spec.parts), id(self.spec.movement), id(self.spec.ambient), nw.record(p), shorted,
+                frozenset(live[0]), nw.live_elements(net, st, live[0], records), tuple(values))
 
     def _shape(self) -> tuple | None:
         """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
