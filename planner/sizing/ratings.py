@@ -148,20 +148,18 @@ class LinearNetwork:
         compiled case gives, node by node.
         """
         live = self._live(shorted, position)
-        key = self._reads(shorted, position, live, values) if live is not None else None
-        got = _SOLVED.get(key) if key is not None else None
+        key = self._reads(shorted, position, live, values)
+        got = _SOLVED.get(key)
         if got is None:
-            got = self._node_voltages(shorted, position, values, live)
-            if key is not None:
-                _SOLVED.keep(key, got)
+            got = _SOLVED.keep(key, self._node_voltages(shorted, position, values, live))
         if got[0] is None:
             return None
         return self._rows(got[0], got[1], live, len(values))
 
     def _node_voltages(self, shorted: tuple, position: str, values: list[float], live) -> tuple:
-        """(node -> index for the live nodes, index -> voltage [V] per value) of a case solved here; (None, None)
-        when it does not solve. With the spec's catalogue, movement and ambient (what the values read), kept with
-        the answer so that the key's ids name no other objects."""
+        """(node -> index for the live nodes, index -> voltage [V] per value, held) of a case solved here; the first
+        two None when it does not solve. ``held``: the spec's catalogue, movement and ambient (what the values read),
+        kept with the answer so that the ids in its key (:meth:`_reads`) name no other objects."""
         held = (self.spec.parts, self.spec.movement, self.spec.ambient)
         case = self._case(shorted, position)
         if case is None:
@@ -171,8 +169,7 @@ class LinearNetwork:
             sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array(values), emf=emf)
         except SolveError:
             return None, None, held
-        live = live[0] if live is not None else None
-        at = {n: i for n, i in c.node_index.items() if live is None or n in live}
+        at = {n: i for n, i in c.node_index.items() if n in live[0]}
         return at, {i: sol.node_voltage(i)[0] for i in sorted(set(at.values()))}, held
 
     def _rows(self, at: dict, volts: dict, live, n: int) -> list:
@@ -182,10 +179,10 @@ class LinearNetwork:
         hangs on (as :func:`planner.network.compile_state` indexes it); a pin on no node
         of the circuit reads zero.
         """
-        nodes, alias = (None, {}) if live is None else live
+        nodes, alias = live
 
         def index(node):
-            if nodes is None or node in nodes:
+            if node in nodes:
                 return at.get(node)
             hung = alias.get(node)
             return None if hung is None else at.get(hung)
@@ -272,25 +269,27 @@ class LinearNetwork:
             self._cases[key] = (c, r, np.zeros((1, 0)), e, pins)
         return self._cases[key]
 
-    def _live(self, shorted: tuple, position: str) -> tuple | None:
-        """A case's live part (:func:`planner.network.live_part`), from its position with no node shorted.
+    def _live(self, shorted: tuple, position: str) -> tuple:
+        """A case's live part (:func:`planner.network.live_part`), from its position with no node shorted where it can.
 
         Each short is an edge between a clamp node and common; where both are nodes of
         the position's current-carrying block, the block and what hangs on it stay as
         they are (an edge inside a biconnected block joins no other node to it), so the
-        case's live part is the open position's, found once per position. None (the
-        compiler finds it, and the case is not kept): a shorted node outside the block,
-        or an EMF in the network (where a battery outside the block would change it).
+        case's live part is the open position's, found once per position. Otherwise
+        (a shorted node outside the block, or an EMF in the network, where a battery
+        outside the block would change it) the shorted network's own.
         """
-        if self._emfs:
-            return None
         if position not in self._open:
             net = self._net(())
             p = net.position(position)
             self._open[position] = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p,
                                                                     nw.closed_contacts(net, p.name)))
         live, alias = self._open[position]
-        return (live, alias) if COM in live and all(n in live for n in shorted) else None
+        if not shorted or (not self._emfs and COM in live and all(n in live for n in shorted)):
+            return live, alias
+        net = self._net(shorted)
+        p = net.position(position)
+        return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)))
 
     def _values(self, net: NetworkSpec, c, branch_at):
         """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
