@@ -432,6 +432,8 @@ def _live(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
 
 #: Field names of each model type but ``line`` (:func:`record`).
 _FIELDS: dict = {}
+#: Records made, each kept once (:func:`record`): the networks of one command repeat their parts.
+_RECORDS = Kept(16384)
 
 
 def record(x) -> tuple:
@@ -444,15 +446,21 @@ def record(x) -> tuple:
     names = _FIELDS.get(type(x))
     if names is None:
         names = _FIELDS[type(x)] = tuple(f.name for f in fields(x) if f.name != "line")
-    return (type(x),) + tuple(getattr(x, n) for n in names)
+    rec = (type(x),) + tuple(getattr(x, n) for n in names)
+    try:
+        kept = _RECORDS.get(rec)
+    except TypeError:  # a field that cannot be hashed: the record as it is
+        return rec
+    return kept if kept is not None else _RECORDS.keep(rec, rec)
 
 
 def live_elements(net: NetworkSpec, st: SwitchState, live, records=None) -> tuple:
     """What :func:`compile_state` reads of the elements of a state with live part ``live``, as a key.
 
     Every element between two live nodes and every closed ideal contact that touches
-    one, in network order, each as ``(record, present, merges)`` (:func:`record`;
-    ``records``: the records of ``net.elements`` when the caller keeps them). With the
+    one, in network order, each as ``record, present, merges`` in one flat tuple
+    (:func:`record`; ``records``: the records of ``net.elements`` when the caller keeps
+    them). With the
     live nodes, the input terminals and the source, they decide the compiled state
     and its branch values; every other element has no node in the compiled circuit
     or hangs on it by a single node (no current, no voltage across it).
@@ -462,12 +470,14 @@ def live_elements(net: NetworkSpec, st: SwitchState, live, records=None) -> tupl
     for k, e in enumerate(net.elements):
         a, b = e.nodes
         if (a in live and b in live) or ((a in live or b in live) and e.merges(closed)):
-            out.append((record(e) if records is None else records[k], e.present(closed), e.merges(closed)))
+            out += (record(e) if records is None else records[k], e.present(closed), e.merges(closed))
     return tuple(out)
 
 
-def live_part(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
+def live_part(net: NetworkSpec, st: SwitchState, *, keep: bool = True) -> tuple[set, dict]:
     """The part of a state that :func:`compile_state` reads, kept per topology (:func:`topology_key`).
+
+    ``keep`` False: found here and not kept (a caller that keeps it itself).
 
     Returns
     -------
@@ -485,6 +495,8 @@ def live_part(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
     with neither node among them carries no current and has no voltage across it
     in that state, whatever its value.
     """
+    if not keep:
+        return _live(net, st)
     key = _topology_key_of(net, st)
     hit = _LIVE.get(key)
     if hit is None:

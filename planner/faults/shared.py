@@ -92,7 +92,7 @@ class SharedStates:
             return None
         parts = nw.live_elements(design.net, st, live, self._records(design))
         key = (st.name, st.kind, nw.record(st.position), None if st.target is None else nw.record(st.target),
-               frozenset(live), parts, tuple(stimuli))
+               tuple(sorted(live)), parts, tuple(stimuli))
         try:
             hash(key)
         except TypeError:

@@ -170,10 +170,14 @@ class LinearNetwork:
         except SolveError:
             return None, None, held
         at = {n: i for n, i in c.node_index.items() if n in live[0]}
-        return at, {i: sol.node_voltage(i)[0] for i in sorted(set(at.values()))}, held
+        index = sorted(set(at.values()))
+        row = {i: k for k, i in enumerate(index)}
+        volts = np.array([sol.node_voltage(i)[0] for i in index]).reshape(len(index), len(values))
+        return {n: row[i] for n, i in at.items()}, volts, held
 
-    def _rows(self, at: dict, volts: dict, live, n: int) -> list:
-        """(voltages over :attr:`names`, input voltage) per value from a case's node voltages.
+    def _rows(self, at: dict, volts: np.ndarray, live, n: int) -> list:
+        """(voltages over :attr:`names`, input voltage) per value from a case's node voltages
+        (``at``: live node -> its row of ``volts``).
 
         A pin's node is the live node's index, or that of the live node a dangling node
         hangs on (as :func:`planner.network.compile_state` indexes it); a pin on no node
@@ -193,7 +197,7 @@ class LinearNetwork:
         ia = np.array([len(used) if a is None else row[a] for a, _ in ends], dtype=np.intp)
         ib = np.array([len(used) if b is None else row[b] for _, b in ends], dtype=np.intp)
         # the voltage of every node a pin touches, and a row of zeros for a pin on no node of the circuit
-        v = np.array([volts[i] for i in used] + [np.zeros(n)])
+        v = np.concatenate([volts[used], np.zeros((1, n))])
         dv = (v[ia] - v[ib]).T  # (values, pins): the rated elements, then the input terminals
         return [(dv[k, :-1], float(dv[k, -1])) for k in range(n)]
 
@@ -212,7 +216,7 @@ class LinearNetwork:
         st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
         records = self._records + [nw.record(e) for e in net.elements[len(self._records):]]
         return (id(self.spec.parts), id(self.spec.movement), id(self.spec.ambient), nw.record(p), shorted,
-                frozenset(live[0]), nw.live_elements(net, st, live[0], records), tuple(values))
+                tuple(sorted(live[0])), nw.live_elements(net, st, live[0], records), tuple(values))
 
     def _shape(self) -> tuple | None:
         """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
@@ -283,13 +287,13 @@ class LinearNetwork:
             net = self._net(())
             p = net.position(position)
             self._open[position] = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p,
-                                                                    nw.closed_contacts(net, p.name)))
+                                                                    nw.closed_contacts(net, p.name)), keep=False)
         live, alias = self._open[position]
         if not shorted or (not self._emfs and COM in live and all(n in live for n in shorted)):
             return live, alias
         net = self._net(shorted)
         p = net.position(position)
-        return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)))
+        return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)), keep=False)
 
     def _values(self, net: NetworkSpec, c, branch_at):
         """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
@@ -312,7 +316,7 @@ class LinearNetwork:
 _CASES = Kept(4096)
 #: Node voltages of solved rating cases by what they read (:meth:`LinearNetwork._reads`):
 #: the sizings of one command that hold a case alike solve it once.
-_SOLVED = Kept(8192)
+_SOLVED = Kept(4096)
 
 
 def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated, live: tuple | None = None):
