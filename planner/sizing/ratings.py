@@ -78,6 +78,7 @@ class LinearNetwork:
         self._open: dict[str, tuple] = {}  # position -> its live part with no node shorted (:meth:`_live`)
         self._emfs = any(e.emf() != 0.0 for e in self.elements)
         self._records = None  # the records of the elements and conducting contacts (:meth:`_reads`)
+        self._open_reads: dict[str, tuple] = {}  # position -> what its open case reads of the elements (:meth:`_reads`)
         self._pins = tuple(e.nodes for e in self.elements if e.rated) + ((PLUS, COM),)  # rated parts, then the input
 
     def _net(self, shorted) -> NetworkSpec:
@@ -213,10 +214,24 @@ class LinearNetwork:
             self._records = [nw.record(e) for e in self.elements + self._conducting]
         net = self._net(shorted)
         p = net.position(position)
-        st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
-        records = self._records + [nw.record(e) for e in net.elements[len(self._records):]]
+        if live is self._open[position]:
+            # the open position's live part: its elements as there, then the shorts' contacts (last in the
+            # network; closed in every position, so they change no other element's state)
+            opened = self._open_reads.get(position)
+            if opened is None:
+                open_net = self._net(())
+                st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(open_net, p.name))
+                opened = self._open_reads[position] = (nw.live_elements(open_net, st, live[0], self._records),
+                                                       tuple(sorted(live[0])))
+            shorts = NetworkSpec(net.elements[len(self._records):], net.positions, None)
+            st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(shorts, p.name))
+            parts, nodes = opened[0] + nw.live_elements(shorts, st, live[0]), opened[1]
+        else:
+            st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
+            records = self._records + [nw.record(e) for e in net.elements[len(self._records):]]
+            parts, nodes = nw.live_elements(net, st, live[0], records), tuple(sorted(live[0]))
         return (id(self.spec.parts), id(self.spec.movement), id(self.spec.ambient), nw.record(p), shorted,
-                tuple(sorted(live[0])), nw.live_elements(net, st, live[0], records), tuple(values))
+                nodes, parts, tuple(values))
 
     def _shape(self) -> tuple | None:
         """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
@@ -288,9 +303,9 @@ class LinearNetwork:
             p = net.position(position)
             self._open[position] = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p,
                                                                     nw.closed_contacts(net, p.name)), keep=False)
-        live, alias = self._open[position]
+        live, _ = opened = self._open[position]
         if not shorted or (not self._emfs and COM in live and all(n in live for n in shorted)):
-            return live, alias
+            return opened
         net = self._net(shorted)
         p = net.position(position)
         return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)), keep=False)
