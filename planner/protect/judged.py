@@ -225,9 +225,9 @@ class _Designs:
 
 
 def _hot_readings(design: Design, t_hot: float, shared: SharedStates | None = None) -> dict:
-    """Each position's full-scale reading at the hottest ambient, relative to full scale.
+    """Each position's full-scale reading at the hottest ambient ``t_hot`` [K], relative to full scale.
 
-    ``shared``: a position whose compiled state another design of the project holds
+    ``shared``: a DC position whose compiled state another design of the project holds
     alike (:meth:`planner.faults.shared.SharedStates.signature`) reads what it read there.
     """
     eng = Engine(design)
@@ -235,17 +235,15 @@ def _hot_readings(design: Design, t_hot: float, shared: SharedStates | None = No
     for p in design.net.positions:
         if p.measures not in ("voltage", "current"):
             continue
-        key = None
+
+        def solve(p=p) -> float:
+            return float(eng.reading(p.name, [p.full_scale], temperature_k=t_hot)[0])
+
+        sig = None
         if shared is not None and p.kind.waveform == "dc":
             sig = shared.signature(design, design.state(p.name))
-            key = None if sig is None else (sig, float(t_hot))
-        out[p.name] = (shared.reading if shared is not None else _solved)(
-            key, lambda: float(eng.reading(p.name, [p.full_scale], temperature_k=t_hot)[0])) / p.full_scale
+        out[p.name] = (solve() if sig is None else shared.reading((sig, float(t_hot)), solve)) / p.full_scale
     return out
-
-
-def _solved(_key, solve):
-    return solve()
 
 
 def _judge_protection(spec, req, designs: "_Designs", base: str, bare: dict, share: float, say,
