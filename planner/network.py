@@ -15,7 +15,7 @@ ports: the node pairs they join (an antiparallel pair shares one port).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import networkx as nx
 import numpy as np
@@ -144,8 +144,16 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
     Raises
     ------
     ProjectError
+
+    Notes
+    -----
+    A network that passes every check is found so without networkx
+    (:func:`_passes`); only one that fails some check is checked again here, with
+    the graph, to name what is wrong.
     """
     net = net if net is not None else spec.network
+    if _passes(net):
+        return
     path = spec.path
     movement = movement_element(net)
     full = graph(net)
@@ -189,6 +197,63 @@ def validate(spec: Spec, net: NetworkSpec | None = None) -> None:
             raise ProjectError(
                 f"position '{p.name}': the movement {movement.name} is not in the path from {plus} to {minus}, "
                 f"so it would never deflect; check the contacts closed in it", path, p.line)
+
+
+def _reached(adj: dict, starts) -> set:
+    """The nodes joined to any of ``starts`` in the graph ``adj`` (node -> neighbours)."""
+    seen = {n for n in starts if n in adj}
+    todo = list(seen)
+    while todo:
+        for w in adj[todo.pop()]:
+            if w not in seen:
+                seen.add(w)
+                todo.append(w)
+    return seen
+
+
+def _passes(net: NetworkSpec) -> bool:
+    """Whether :func:`validate` finds nothing wrong with a network (False: let it say what, or pass).
+
+    The same checks on node pairs instead of networkx graphs: no node but an input
+    terminal touched once (a self-loop touches its node twice, as networkx counts
+    it), no element out of reach of the input terminals, and in every position a
+    closed contact (where the network has contacts), a path between the input
+    terminals and the movement in the current-carrying block (:func:`_carrying`,
+    which :func:`validate` uses too).
+    """
+    movement = next((e for e in net.elements if isinstance(e, MovementElement)), None)
+    if movement is None:
+        return False
+    terminals = {n for p in net.positions for n in p.input}
+    degree: dict = {}
+    adj: dict = {}
+    for e in net.elements:
+        a, b = e.nodes
+        degree[a] = degree.get(a, 0) + 1
+        degree[b] = degree.get(b, 0) + 1
+        adj.setdefault(a, set()).add(b)
+        adj.setdefault(b, set()).add(a)
+    if any(d == 1 and n not in terminals for n, d in degree.items()):
+        return False
+    reach = _reached(adj, terminals)
+    if any(e.nodes[0] not in reach for e in net.elements):
+        return False
+    has_contacts = any(e.stamp == "switch" for e in net.elements)
+    for st in position_states(net):
+        if has_contacts and not st.closed:
+            return False
+        plus, minus = st.position.input
+        pairs = [e.nodes for e in net.elements if e.present(st.closed)]
+        joined: dict = {plus: set(), minus: set()}
+        for a, b in pairs:
+            joined.setdefault(a, set()).add(b)
+            joined.setdefault(b, set()).add(a)
+        if minus not in _reached(joined, [plus]):
+            return False
+        main, _ = _carrying(pairs, plus, minus)
+        if movement.a not in main or movement.b not in main:
+            return False
+    return True
 
 
 # --- compiling one state for the solver -----------------------------------------------------
@@ -353,6 +418,90 @@ def _with_sources(net, st, plus, minus, live, alias):
 
 #: Compiled states by topology (:func:`compiled`).
 _COMPILED = Kept(4096)
+#: The current-carrying parts of states by topology (:func:`live_part`).
+_LIVE = Kept(4096)
+
+
+def _live(net: NetworkSpec, st: SwitchState) -> tuple[set, dict]:
+    """The nodes :func:`compile_state` solves (``live``) and the dangling ones with the node each hangs on."""
+    plus, minus = st.position.input
+    # the state's edges (:func:`active_graph`'s) as node pairs: the graph itself is made only where a battery needs it
+    live, alias = _carrying([e.nodes for e in net.elements if e.present(st.closed)], plus, minus)
+    return _with_sources(net, st, plus, minus, live, alias)
+
+
+#: Field names of each model type but ``line`` (:func:`record`).
+_FIELDS: dict = {}
+#: Records made, each kept once (:func:`record`): the networks of one command repeat their parts.
+_RECORDS = Kept(16384)
+
+
+def record(x) -> tuple:
+    """A frozen model object (an element, a position) as a key: its type and every field but ``line``.
+
+    Two elements with the same record are the same part in the same place (the
+    file line they were read from aside): a solve or a judgement reads nothing else
+    of them.
+    """
+    names = _FIELDS.get(type(x))
+    if names is None:
+        names = _FIELDS[type(x)] = tuple(f.name for f in fields(x) if f.name != "line")
+    rec = (type(x),) + tuple(getattr(x, n) for n in names)
+    try:
+        kept = _RECORDS.get(rec)
+    except TypeError:  # a field that cannot be hashed: the record as it is
+        return rec
+    return kept if kept is not None else _RECORDS.keep(rec, rec)
+
+
+def live_elements(net: NetworkSpec, st: SwitchState, live, records=None) -> tuple:
+    """What :func:`compile_state` reads of the elements of a state with live part ``live``, as a key.
+
+    Every element between two live nodes and every closed ideal contact that touches
+    one, in network order, each as ``record, present, merges`` in one flat tuple
+    (:func:`record`; ``records``: the records of ``net.elements`` when the caller keeps
+    them). With the
+    live nodes, the input terminals and the source, they decide the compiled state
+    and its branch values; every other element has no node in the compiled circuit
+    or hangs on it by a single node (no current, no voltage across it).
+    """
+    closed = st.closed
+    out = []
+    for k, e in enumerate(net.elements):
+        a, b = e.nodes
+        if (a in live and b in live) or ((a in live or b in live) and e.merges(closed)):
+            out += (record(e) if records is None else records[k], e.present(closed), e.merges(closed))
+    return tuple(out)
+
+
+def live_part(net: NetworkSpec, st: SwitchState, *, keep: bool = True) -> tuple[set, dict]:
+    """The part of a state that :func:`compile_state` reads, kept per topology (:func:`topology_key`).
+
+    ``keep`` False: found here and not kept (a caller that keeps it itself).
+
+    Returns
+    -------
+    live : set of str
+        The nodes of the current-carrying block (every node joined to the input
+        where a battery outside the block closes a loop, :func:`_with_sources`);
+        not to be changed.
+    alias : dict
+        Every other node joined to the input, mapped to the node of ``live`` it
+        hangs on (not to be changed).
+
+    Notes
+    -----
+    The compiled circuit names these nodes alone (its ``node_index``): an element
+    with neither node among them carries no current and has no voltage across it
+    in that state, whatever its value.
+    """
+    if not keep:
+        return _live(net, st)
+    key = _topology_key_of(net, st)
+    hit = _LIVE.get(key)
+    if hit is None:
+        hit = _LIVE.keep(key, _live(net, st))
+    return hit
 
 
 def topology_key(net: NetworkSpec, st: SwitchState) -> tuple:
@@ -391,16 +540,17 @@ def compiled(spec: Spec, st: SwitchState, *, stimulus: str | None = None, source
     """
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
-    key = (_topology_key_of(net, st), kind, bool(source_resistance))
+    topology = _topology_key_of(net, st)
+    key = (topology, kind, bool(source_resistance))
     circuit = _COMPILED.get(key)
-    if circuit is None:
+    if circuit is None:  # the live part as found before for this topology (:func:`live_part`), if it was
         circuit = _COMPILED.keep(key, compile_state(spec, st, stimulus=kind, source_resistance=source_resistance,
-                                                     net=net))
+                                                     net=net, live=_LIVE.get(topology)))
     return circuit
 
 
 def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
-                  source_resistance: bool = False, net: NetworkSpec | None = None):
+                  source_resistance: bool = False, net: NetworkSpec | None = None, live: tuple | None = None):
     """Compile a switch state into a :class:`planner.solve.Circuit`.
 
     Parameters
@@ -414,6 +564,9 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
         for a voltage stimulus.
     net : NetworkSpec, optional
         Defaults to ``spec.network``.
+    live : tuple, optional
+        The state's ``(live, alias)`` (:func:`live_part`) when the caller knows them;
+        found here otherwise.
 
     Returns
     -------
@@ -424,9 +577,7 @@ def compile_state(spec: Spec, st: SwitchState, *, stimulus: str | None = None,
     net = net if net is not None else spec.network
     kind = stimulus or st.position.kind.source
     plus, minus = st.position.input
-    # the state's edges (:func:`active_graph`'s) as node pairs: the graph itself is made only where a battery needs it
-    live, alias = _carrying([e.nodes for e in net.elements if e.present(st.closed)], plus, minus)
-    live, alias = _with_sources(net, st, plus, minus, live, alias)
+    live, alias = _live(net, st) if live is None else live
     uf = UnionFind()
     for n in live:
         uf.find(n)

@@ -290,3 +290,58 @@ def test_current_carrying_from_element_pairs_against_networkx():
             assert nw._carrying(pairs, plus, minus) == _carrying_by_networkx(nw.active_graph(net, st), plus, minus)
             states += 1
     assert states > 20
+
+
+def test_live_part_holds_every_node_of_the_compiled_state():
+    """:func:`planner.network.live_part` is what :func:`planner.network.compile_state` reads: the
+    compiled circuit names no other node, every element between two live nodes is in it, and
+    it is kept per topology (the same objects for the same network and state)."""
+    from pathlib import Path
+
+    from planner.project import load
+    from planner.sizing import sized_spec
+
+    spec = sized_spec(load(Path(__file__).resolve().parent.parent / "projects" / "bench_multimeter.yaml"))
+    net = spec.network
+    for st in nw.position_states(net) + nw.transition_states(net):
+        live, alias = nw.live_part(net, st)
+        assert nw.live_part(net, st)[0] is live
+        c = nw.compile_state(spec, st, net=net)
+        assert set(c.node_index) <= live | alias.keys()
+        assert all(alias[n] in live for n in alias)
+        inside = {e.name for e in net.elements if e.nodes[0] in live and e.nodes[1] in live
+                  and e.present(st.closed) and not e.merges(st.closed)}
+        assert inside == {br.element for br in c.branches} | set(c.diodes) | set(c.varistors)
+
+
+def test_networks_found_valid_without_networkx_pass_validate():
+    """:func:`planner.network._passes` (node pairs, no networkx) never passes a network that
+    :func:`planner.network.validate` rejects: the examples' networks, and copies with one element
+    taken out or one contact closed nowhere (floating nodes, islands, open paths, a position
+    served by no contact), each judged both ways."""
+    from dataclasses import replace
+    from pathlib import Path
+
+    from planner.model import Contact
+    from planner.project import load
+    from planner.sizing import sized_spec
+
+    root = Path(__file__).resolve().parent.parent / "projects"
+    seen = {True: 0, False: 0}
+    for name in ("bench_ammeter", "pocket_voltmeter", "worn_multimeter", "bench_multimeter"):
+        spec = sized_spec(load(root / f"{name}.yaml"))
+        net = spec.network
+        assert nw._passes(net)
+        variants = [replace(net, elements=net.elements[:k] + net.elements[k + 1:]) for k in range(len(net.elements))]
+        variants += [replace(net, elements=tuple(replace(e, closed_in=()) if e is c else e for e in net.elements))
+                     for c in net.elements if isinstance(c, Contact)]
+        for other in variants:
+            try:
+                nw.validate(spec, other)
+                valid = True
+            except ProjectError:
+                valid = False
+            passes = nw._passes(other)
+            assert valid or not passes
+            seen[passes] += 1
+    assert seen[True] >= 10 and seen[False] >= 100  # both kinds met

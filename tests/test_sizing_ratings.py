@@ -187,12 +187,13 @@ def test_compiled_cases_shared_by_networks_that_differ_in_values():
     from dataclasses import replace
 
     from planner.model import Contact, NetworkSpec, Resistor
-    from planner.sizing.ratings import _CASES
+    from planner.sizing.ratings import _CASES, _SOLVED
 
     spec, net, cases = _flagship_cases()
     other = NetworkSpec(tuple(replace(e, value_ohm=e.value_ohm * 1.07) if isinstance(e, Resistor) else e
                               for e in net.elements), net.positions, net.contact_style)
     _CASES.clear()
+    _SOLVED.clear()  # no case solved before: each is compiled
     first = LinearNetwork(spec, net)
     first.solve_ahead(cases)
     kept = len(_CASES)
@@ -204,6 +205,7 @@ def test_compiled_cases_shared_by_networks_that_differ_in_values():
     want = []
     for p, v, s in cases:
         _CASES.clear()
+        _SOLVED.clear()
         want.append(LinearNetwork(spec, other).solve(p, v, s))
     assert got == want  # bit for bit
     assert got != [first.solve(p, v, s) for p, v, s in cases]  # the values did change the voltages
@@ -227,3 +229,45 @@ def test_value_choices_kept_as_made():
     n = len(_CHOICES)
     _choice("E96", np.float64(4120.0), 1, 1e-3)
     assert len(_CHOICES) == n + 1
+
+
+def test_solved_cases_shared_by_networks_that_hold_them_alike():
+    """A network with a part changed off some positions' circuits (the mA fuse's resistance: it is on
+    the mA positions alone) reads the voltage positions' cases from the first network's solves and
+    solves the rest; every answer is what a fresh network solves with nothing kept, bit for bit."""
+    from dataclasses import replace
+
+    from planner.model import NetworkSpec
+    from planner.sizing.ratings import _CASES, _SOLVED
+
+    spec, net, cases = _flagship_cases()
+    fuse = next(e for e in net.elements if e.name == "F2")
+    parts = replace(spec.parts, fuses=dict(spec.parts.fuses, other_315=replace(spec.parts.fuses[fuse.model],
+                                                                                  r_cold_ohm=3.0)))
+    spec2 = replace(spec, parts=parts)  # another catalogue: nothing shared with the first spec
+    other = NetworkSpec(tuple(replace(e, model="other_315") if e is fuse else e for e in net.elements),
+                        net.positions, net.contact_style)
+    _SOLVED.clear()
+    lin = LinearNetwork(spec2, net)
+    lin.solve_ahead(cases)
+    first = len(_SOLVED)
+    # one solve per position and shorted nodes, kept where the shorts join live nodes (:meth:`_live`)
+    keyed = {(p.name, s) for p, v, s in cases if lin._live(s, p.name) is not None}
+    assert first == len(keyed) > 0.5 * len({(p.name, s) for p, v, s in cases})
+    second = LinearNetwork(spec2, other)
+    second.solve_ahead(cases)
+    got = [second.solve(p, v, s) for p, v, s in cases]
+    # only the cases whose circuit holds the fuse (the mA positions') were solved again
+    holds = {p.name for p in net.positions if set(fuse.nodes) <= lin._live((), p.name)[0]}
+    assert holds == {"1 mA", "10 mA", "100 mA"}
+    assert len(_SOLVED) - first == len({k for k in keyed if k[0] in holds})
+    _CASES.clear()
+    _SOLVED.clear()
+    fresh = LinearNetwork(spec2, other)  # nothing kept
+    fresh.solve_ahead(cases)
+    assert repr(got) == repr([fresh.solve(p, v, s) for p, v, s in cases])  # bit for bit
+    # the same network under another spec's catalogue is not read from the memo
+    _SOLVED.clear()
+    LinearNetwork(spec2, net).solve_ahead(cases)
+    LinearNetwork(spec, net).solve_ahead(cases)
+    assert len(_SOLVED) == 2 * first

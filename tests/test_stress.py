@@ -238,3 +238,35 @@ def test_apply_contract_and_text():
         apply_stimulus(spec, "0.5 V")
     with pytest.raises(UsageError):
         apply_stimulus(spec, "0.5 V", volts=1.0, amps=1.0)
+
+
+def test_judging_contexts_are_those_the_constructor_makes():
+    """:func:`planner.stress.judge.element_contexts` and the per-part copies of :func:`judge` (made
+    without :func:`dataclasses.replace`) hold what ``JudgingContext(...)`` and ``replace`` give, field
+    for field; the parts' rows are made only when asked for."""
+    from dataclasses import fields, replace
+
+    from planner.stress.judge import JudgingContext, _with, element_contexts, judge
+    from planner.stress.waveforms import cycle_stats_rows, solve_waveforms, stress_elements
+
+    eng = Engine(build(clamp_spec(100e3, 2e3, m.DiodeModel("si", i_s_a=5e-9, n=1.9, r_s_ohm=0.5))))
+    st = eng.positions[0].name
+    wf = solve_waveforms(eng, st, [Stimulus("mains", "voltage", 230.0, "sine", 0.5)])[0]
+    elements = stress_elements(eng)
+    ms = cycle_stats(wf.movement_current_a / eng.spec.movement.i_fs_a)
+    got = element_contexts(eng.spec, wf, elements, ms, " after F1 opens")
+    cur = np.array([wf.current_a[e.name] for e in elements])
+    vol = np.array([wf.voltage_v[e.name] for e in elements])
+    i_st, v_st = cycle_stats_rows(cur), cycle_stats_rows(vol)
+    power = (cur * vol).sum(axis=1) / cur.shape[1]
+    prospective = float(np.max(np.abs(wf.source_current_a)))
+    for k, e in enumerate(elements):
+        want = JudgingContext(eng.spec, wf.stimulus, i_st[k], v_st[k], float(power[k]), ms, prospective,
+                              " after F1 opens", samples_i=wf.current_a[e.name], samples_v=wf.voltage_v[e.name])
+        for f in fields(JudgingContext):
+            a, b = getattr(got[e.name], f.name), getattr(want, f.name)
+            assert a is b or (np.array_equal(a, b) if isinstance(a, np.ndarray) else a == b), f.name
+        changed = _with(want, short_exposure=True, duration_s=0.25)
+        assert repr(changed) == repr(replace(want, short_exposure=True, duration_s=0.25))
+        assert want.short_exposure is False  # the copy is a new context
+    assert judge(eng, wf).parts and judge(eng, wf, with_parts=False).parts == []

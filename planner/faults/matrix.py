@@ -20,6 +20,7 @@ from ..stress import FAILING, assess
 from .cautions import matrix_cautions
 from .curves import protection_curve, without_clamps
 from .families import BUILT_IN_ORDER, column_of, stimuli_for, transition_stimuli
+from .shared import SharedStates
 
 #: Stresses kept in each case of the matrix: every one at or above this share of
 #: its limit, and always the largest few.
@@ -245,9 +246,10 @@ def _position_cases(engine: Engine, design: Design, positions, acceptance: _Acce
     return cases, curves, columns, matrix
 
 
-def _one_position(engine: Engine, p, acceptance: _Acceptance) -> tuple[list[dict], list]:
-    """One position's cases under its stimuli (the reversed battery of an ohms position included), and the stimuli."""
-    stims = stimuli_for(engine.spec, engine.net, p)
+def _one_position(engine: Engine, p, acceptance: _Acceptance, stims=None) -> tuple[list[dict], list]:
+    """One position's cases under its stimuli (the reversed battery of an ohms position included), and the stimuli
+    (``stims``: :func:`stimuli_for` of the position, when the caller has them)."""
+    stims = stimuli_for(engine.spec, engine.net, p) if stims is None else list(stims)
     cases = [acceptance.mark(_trim(c), p.name) for c in _assess_named(engine, p.name, stims)]
     for stim, eng in reversed_battery(engine, p):  # a changed network: the ohms battery put in backwards
         stims = stims + [stim]
@@ -266,7 +268,7 @@ def _one_transition(engine: Engine, st, acceptance: _Acceptance) -> list[dict]:
     return out
 
 
-def matrix_states(design: Design, *, first=(), engine: Engine | None = None):
+def matrix_states(design: Design, *, first=(), engine: Engine | None = None, shared: SharedStates | None = None):
     """The misrange matrix judged one switch state at a time, for a caller that only tallies it.
 
     The cases of :func:`faults_project`, the same verdicts and deciding stresses,
@@ -281,6 +283,11 @@ def matrix_states(design: Design, *, first=(), engine: Engine | None = None):
         the rest follow in switch order, the positions before the transitions.
     engine : Engine, optional
         A ready engine on ``design``.
+    shared : SharedStates, optional
+        States judged before on another design of the same project that holds
+        them alike are taken from there (:mod:`planner.faults.shared`); the cases
+        are then each a :func:`planner.faults.shared.tally_record` (``verdict``,
+        ``accepted``, ``deciding`` with its ``ratio``, ``style``), judged here or not.
 
     Yields
     ------
@@ -297,9 +304,24 @@ def matrix_states(design: Design, *, first=(), engine: Engine | None = None):
         rank.setdefault(name, len(rank))
     states.sort(key=lambda s: rank.get(s[0], len(rank)))  # stable: switch order otherwise
     for name, state, is_transition in states:
-        cases = _one_transition(engine, state, acceptance) if is_transition else \
-            _one_position(engine, state, acceptance)[0]
+        if shared is not None:
+            cases = _shared_state(engine, state, is_transition, acceptance, shared)
+        elif is_transition:
+            cases = _one_transition(engine, state, acceptance)
+        else:
+            cases = _one_position(engine, state, acceptance)[0]
         yield name, cases, is_transition, len(states)
+
+
+def _shared_state(engine: Engine, state, is_transition: bool, acceptance: _Acceptance, shared: SharedStates):
+    """A state's tally records (:meth:`SharedStates.tally`): kept from a design that holds the state alike, or judged."""
+    if is_transition:
+        stims = transition_stimuli(engine.spec, state.position)
+        key = shared.signature(engine.design, state, stims)
+        return shared.tally(key, lambda: _one_transition(engine, state, acceptance))
+    stims = stimuli_for(engine.spec, engine.net, state)
+    key = shared.signature(engine.design, engine.state(state.name), stims)
+    return shared.tally(key, lambda: _one_position(engine, state, acceptance, stims)[0])
 
 
 def _transition_cases(engine: Engine, tstates, acceptance: _Acceptance, tick) -> list[dict]:

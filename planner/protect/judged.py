@@ -32,6 +32,7 @@ from ..design import Design, build
 from ..engine import Engine
 from ..errors import PlannerError
 from ..faults import failing, matrix_states, requirements_met
+from ..faults.shared import SharedStates
 from ..project import loads
 from ..model import ProtectionRequest
 from ..sizing.sections.protection import protection_lines
@@ -70,7 +71,8 @@ def matrix_score(faults: dict) -> dict:
             "verdicts": verdicts, "requirements_met": bool(faults["requirements_met"])}
 
 
-def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[dict, dict | None]:
+def matrix_tally(design: Design, bound: int | None = None, first=(), shared: SharedStates | None = None) \
+        -> tuple[dict, dict | None]:
     """:func:`matrix_score` of a design's misrange matrix, judged state by state, stopped past a bound.
 
     Parameters
@@ -82,6 +84,9 @@ def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[di
     first : sequence of str
         States (positions or transitions) to judge first: where the failing cases
         of the last combination were (only the order of the work changes).
+    shared : SharedStates, optional
+        States already judged on another design of the project that holds them
+        alike (:mod:`planner.faults.shared`): taken from there, the same tally.
 
     Returns
     -------
@@ -104,7 +109,7 @@ def matrix_tally(design: Design, bound: int | None = None, first=()) -> tuple[di
     """
     cases, trans, failing_states = [], [], []
     n_fail, judged, n_trans, stopped = 0, 0, 0, None
-    for name, got, is_transition, total in matrix_states(design, first=first):
+    for name, got, is_transition, total in matrix_states(design, first=first, shared=shared):
         judged += 1
         n_trans += bool(is_transition)
         (trans if is_transition else cases).extend(got)
@@ -185,10 +190,13 @@ class _Designs:
 
     ``known`` seeds it with designs already built: the project as given, the clamp plan.
     A combination the sizer refuses is remembered as its error and raised again.
+    ``shared``: the switch states and readings the designs hold alike, judged once
+    (:class:`planner.faults.shared.SharedStates`; None: each design judged on its own).
     """
 
-    def __init__(self, t_hot: float):
+    def __init__(self, t_hot: float, shared: SharedStates | None = None):
         self.t_hot = t_hot
+        self.shared = shared
         self._built: dict = {}
         self._hot: dict = {}
 
@@ -212,18 +220,29 @@ class _Designs:
 
     def hot(self, design: Design) -> dict:
         if id(design) not in self._hot:
-            self._hot[id(design)] = (design, _hot_readings(design, self.t_hot))
+            self._hot[id(design)] = (design, _hot_readings(design, self.t_hot, self.shared))
         return self._hot[id(design)][1]
 
 
-def _hot_readings(design: Design, t_hot: float) -> dict:
-    """Each position's full-scale reading at the hottest ambient, relative to full scale."""
+def _hot_readings(design: Design, t_hot: float, shared: SharedStates | None = None) -> dict:
+    """Each position's full-scale reading at the hottest ambient ``t_hot`` [K], relative to full scale.
+
+    ``shared``: a DC position whose compiled state another design of the project holds
+    alike (:meth:`planner.faults.shared.SharedStates.signature`) reads what it read there.
+    """
     eng = Engine(design)
     out = {}
     for p in design.net.positions:
         if p.measures not in ("voltage", "current"):
             continue
-        out[p.name] = float(eng.reading(p.name, [p.full_scale], temperature_k=t_hot)[0]) / p.full_scale
+
+        def solve(p=p) -> float:
+            return float(eng.reading(p.name, [p.full_scale], temperature_k=t_hot)[0])
+
+        sig = None
+        if shared is not None and p.kind.waveform == "dc":
+            sig = shared.signature(design, design.state(p.name))
+        out[p.name] = (solve() if sig is None else shared.reading((sig, float(t_hot)), solve)) / p.full_scale
     return out
 
 
@@ -242,7 +261,8 @@ def _judge_protection(spec, req, designs: "_Designs", base: str, bare: dict, sha
         if known is not None:
             score = known
         else:
-            score, stopped = matrix_tally(design, bound.failing if bound else None, bound.first if bound else ())
+            score, stopped = matrix_tally(design, bound.failing if bound else None, bound.first if bound else (),
+                                          designs.shared)
             if bound is not None:
                 bound.saw(score, stopped)
     except PlannerError as e:
@@ -367,10 +387,10 @@ def judge_given(design: Design, share: float, say=lambda _m: None) -> dict:
         :func:`protection_candidates`; none when :func:`judge_plans` searches no parts).
     """
     spec = design.spec
-    designs = _Designs(float(spec.ambient.t_max_k))
+    designs = _Designs(float(spec.ambient.t_max_k), SharedStates(spec))
     designs.know("as given", spec.protection, design)
     say("the misrange matrix of the project as given")
-    given, _ = matrix_tally(design)
+    given, _ = matrix_tally(design, shared=designs.shared)
     rows = _base_rows(designs, "as given", spec, given, spec, share, say, _Bound(given)) \
         if _parts_searched(spec) else []
     return {"matrix": given, "rows": rows}

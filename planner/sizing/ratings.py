@@ -75,6 +75,11 @@ class LinearNetwork:
         self._shape_key = None  # what compiling a case reads of the network (:meth:`_shape`)
         self._ohm: dict[int, float] = {}  # element index -> nominal resistance at the reference [ohm]
         self._emf: dict[int, float] = {}  # element index -> EMF at its "max" level [V]
+        self._open: dict[str, tuple] = {}  # position -> its live part with no node shorted (:meth:`_live`)
+        self._emfs = any(e.emf() != 0.0 for e in self.elements)
+        self._records = None  # the records of the elements and conducting contacts (:meth:`_reads`)
+        self._open_reads: dict[str, tuple] = {}  # position -> what its open case reads of the elements (:meth:`_reads`)
+        self._pins = tuple(e.nodes for e in self.elements if e.rated) + ((PLUS, COM),)  # rated parts, then the input
 
     def _net(self, shorted) -> NetworkSpec:
         key = tuple(shorted)
@@ -134,19 +139,99 @@ class LinearNetwork:
                     self._ahead[(shorted, name, v)] = answer
 
     def _solve_values(self, shorted: tuple, position: str, values: list[float]):
-        """(voltages over :attr:`names`, input voltage) for each value of one case; None when it does not solve."""
+        """(voltages over :attr:`names`, input voltage) for each value of one case; None when it does not solve.
+
+        The node voltages of a case are kept for the process by what the case reads
+        (:meth:`_reads`): another sizing whose network holds the case alike (the same
+        parts between the same live nodes: a protection combination that differs in
+        parts off this position's circuit, the same values found again) reads its
+        parts' voltages from them. What a miss solves is what this network's own
+        compiled case gives, node by node.
+        """
+        live = self._live(shorted, position)
+        key = self._reads(shorted, position, live, values)
+        got = _SOLVED.get(key)
+        if got is None:
+            got = _SOLVED.keep(key, self._node_voltages(shorted, position, values, live))
+        if got[0] is None:
+            return None
+        return self._rows(got[0], got[1], live, len(values))
+
+    def _node_voltages(self, shorted: tuple, position: str, values: list[float], live) -> tuple:
+        """(node -> index for the live nodes, index -> voltage [V] per value, held) of a case solved here; the first
+        two None when it does not solve. ``held``: the spec's catalogue, movement and ambient (what the values read),
+        kept with the answer so that the ids in its key (:meth:`_reads`) name no other objects."""
+        held = (self.spec.parts, self.spec.movement, self.spec.ambient)
         case = self._case(shorted, position)
         if case is None:
-            return None
-        c, r, z, emf, (_, used, ia, ib) = case
+            return None, None, held
+        c, r, z, emf, _ = case
         try:
             sol = solve(c, r, Junctions(z, z, z, z, z, z), np.array(values), emf=emf)
         except SolveError:
-            return None
+            return None, None, held
+        at = {n: i for n, i in c.node_index.items() if n in live[0]}
+        index = sorted(set(at.values()))
+        row = {i: k for k, i in enumerate(index)}
+        volts = np.array([sol.node_voltage(i)[0] for i in index]).reshape(len(index), len(values))
+        return {n: row[i] for n, i in at.items()}, volts, held
+
+    def _rows(self, at: dict, volts: np.ndarray, live, n: int) -> list:
+        """(voltages over :attr:`names`, input voltage) per value from a case's node voltages
+        (``at``: live node -> its row of ``volts``).
+
+        A pin's node is the live node's index, or that of the live node a dangling node
+        hangs on (as :func:`planner.network.compile_state` indexes it); a pin on no node
+        of the circuit reads zero.
+        """
+        nodes, alias = live
+
+        def index(node):
+            if node in nodes:
+                return at.get(node)
+            hung = alias.get(node)
+            return None if hung is None else at.get(hung)
+
+        ends = [(index(a), index(b)) for a, b in self._pins]
+        used = list(dict.fromkeys(i for pair in ends for i in pair if i is not None))
+        row = {i: k for k, i in enumerate(used)}
+        ia = np.array([len(used) if a is None else row[a] for a, _ in ends], dtype=np.intp)
+        ib = np.array([len(used) if b is None else row[b] for _, b in ends], dtype=np.intp)
         # the voltage of every node a pin touches, and a row of zeros for a pin on no node of the circuit
-        v = np.array([sol.node_voltage(i)[0] for i in used] + [np.zeros(len(values))])
+        v = np.concatenate([volts[used], np.zeros((1, n))])
         dv = (v[ia] - v[ib]).T  # (values, pins): the rated elements, then the input terminals
-        return [(dv[k, :-1], float(dv[k, -1])) for k in range(len(values))]
+        return [(dv[k, :-1], float(dv[k, -1])) for k in range(n)]
+
+    def _reads(self, shorted: tuple, position: str, live, values) -> tuple:
+        """What solving a case reads, as a key (:data:`_SOLVED`).
+
+        The spec's catalogue, movement and ambient (by identity: the sizings of one
+        command share them), the position, the shorted nodes, the live nodes and the
+        elements on them (:func:`planner.network.live_elements`: each part's values and
+        ratings, the shorts' contacts among them) and the input values.
+        """
+        if self._records is None:
+            self._records = [nw.record(e) for e in self.elements + self._conducting]
+        net = self._net(shorted)
+        p = net.position(position)
+        if live is self._open[position]:
+            # the open position's live part: its elements as there, then the shorts' contacts (last in the
+            # network; closed in every position, so they change no other element's state)
+            opened = self._open_reads.get(position)
+            if opened is None:
+                open_net = self._net(())
+                st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(open_net, p.name))
+                opened = self._open_reads[position] = (nw.live_elements(open_net, st, live[0], self._records),
+                                                       tuple(sorted(live[0])))
+            shorts = NetworkSpec(net.elements[len(self._records):], net.positions, None)
+            st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(shorts, p.name))
+            parts, nodes = opened[0] + nw.live_elements(shorts, st, live[0]), opened[1]
+        else:
+            st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
+            records = self._records + [nw.record(e) for e in net.elements[len(self._records):]]
+            parts, nodes = nw.live_elements(net, st, live[0], records), tuple(sorted(live[0]))
+        return (id(self.spec.parts), id(self.spec.movement), id(self.spec.ambient), nw.record(p), shorted,
+                nodes, parts, tuple(values))
 
     def _shape(self) -> tuple | None:
         """What compiling a case reads of the network, values left out, as a key; None when it cannot be made.
@@ -187,7 +272,8 @@ class LinearNetwork:
             skey = None if shape is None else (shape, shorted, position)
             compiled = _CASES.get(skey) if skey is not None else None
             if compiled is None:
-                compiled = _compile_case(self.spec, net, position, [el for el in self.elements if el.rated])
+                compiled = _compile_case(self.spec, net, position, [el for el in self.elements if el.rated],
+                                         self._live(shorted, position))
                 if skey is not None:
                     _CASES.keep(skey, compiled)
             if compiled is False:
@@ -201,6 +287,28 @@ class LinearNetwork:
                 return None
             self._cases[key] = (c, r, np.zeros((1, 0)), e, pins)
         return self._cases[key]
+
+    def _live(self, shorted: tuple, position: str) -> tuple:
+        """A case's live part (:func:`planner.network.live_part`), from its position with no node shorted where it can.
+
+        Each short is an edge between a clamp node and common; where both are nodes of
+        the position's current-carrying block, the block and what hangs on it stay as
+        they are (an edge inside a biconnected block joins no other node to it), so the
+        case's live part is the open position's, found once per position. Otherwise
+        (a shorted node outside the block, or an EMF in the network, where a battery
+        outside the block would change it) the shorted network's own.
+        """
+        if position not in self._open:
+            net = self._net(())
+            p = net.position(position)
+            self._open[position] = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p,
+                                                                    nw.closed_contacts(net, p.name)), keep=False)
+        live, _ = opened = self._open[position]
+        if not shorted or (not self._emfs and COM in live and all(n in live for n in shorted)):
+            return opened
+        net = self._net(shorted)
+        p = net.position(position)
+        return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)), keep=False)
 
     def _values(self, net: NetworkSpec, c, branch_at):
         """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
@@ -221,19 +329,23 @@ class LinearNetwork:
 #: Compiled rating cases by the linear network's shape, shorted nodes and position
 #: (:meth:`LinearNetwork._case`).
 _CASES = Kept(4096)
+#: Node voltages of solved rating cases by what they read (:meth:`LinearNetwork._reads`):
+#: the sizings of one command that hold a case alike solve it once.
+_SOLVED = Kept(4096)
 
 
-def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated):
+def _compile_case(spec: Spec, net: NetworkSpec, position: str, rated, live: tuple | None = None):
     """(compiled state, element index of each branch, pins) of one position of ``net``; False when it does not compile.
 
     The pins are the rated elements' names, the node indices the solution is read at,
     and for each rated element (then the input terminals) the rows of its two ends in
-    those voltages (the last row for an end on no node of the circuit: zero).
+    those voltages (the last row for an end on no node of the circuit: zero). ``live``:
+    the state's live part when known (:meth:`LinearNetwork._live`).
     """
     p = net.position(position)
     st = nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name))
     try:
-        c = nw.compile_state(spec, st, net=net)
+        c = nw.compile_state(spec, st, net=net, live=live)
     except SolveError:
         return False
     at = {e.name: j for j, e in enumerate(net.elements)}

@@ -96,7 +96,7 @@ def assess(engine: Engine, state, stimuli, *, temperature_k=None, n_phase: int |
     st = engine.state(state)
     stimuli = list(stimuli)
     wfs = solve_waveforms(engine, st, stimuli, temperature_k=temperature_k, n_phase=n_phase)
-    judged = [judge(engine, wf) for wf in wfs]
+    judged = [judge(engine, wf, with_parts=with_parts) for wf in wfs]
     phases = _after_opening(engine, st, stimuli, judged, temperature_k, n_phase)
     results = []
     for s, j, ph in zip(stimuli, judged, phases):
@@ -135,7 +135,7 @@ def _after_opening(engine: Engine, st, stimuli, judged: list, temperature_k, n_p
             for i, (eng, wf2) in zip(idx, settled):
                 ph = out[i]
                 j2 = judge(eng, wf2, phase=_after_label(parts, ph["fuses"]), opened=parts, short_exposure=False,
-                           original=engine.net)
+                           original=engine.net, with_parts=False)
                 ph["stresses"] += j2.stresses
                 ph["fuses"] += [dict(f, after=sorted(parts)) for f in j2.fuses]
                 ph["notes"] += j2.notes

@@ -17,7 +17,7 @@ waveforms.Waveform`) and asks every part what they mean for it:
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 import math
 
@@ -112,7 +112,7 @@ class Judgement:
 
 
 def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
-          short_exposure: bool | None = None, original=None) -> Judgement:
+          short_exposure: bool | None = None, original=None, with_parts: bool = True) -> Judgement:
     """Compare the stresses of one solved waveform with the parts' ratings.
 
     Parameters
@@ -129,6 +129,8 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
         by default short-time exactly when a fuse opens within ``SHORT_TIME_S``.
     original : NetworkSpec, optional
         The network before the fuses in ``opened`` opened (``engine.net`` by default).
+    with_parts : bool
+        Give every part's row (:func:`part_row`) in ``parts``; empty otherwise.
 
     Returns
     -------
@@ -158,7 +160,7 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
     notes = source_notes(wf)
     ms = cycle_stats(wf.movement_current_a / spec.movement.i_fs_a)
     contexts = element_contexts(spec, wf, elements, ms, f" {phase}" if phase else "")
-    parts = [part_row(e, contexts[e.name]) for e in elements]
+    parts = [part_row(e, contexts[e.name]) for e in elements] if with_parts else []
 
     stresses, fuses, more, newly = trip_parts(elements, contexts, opened,
                                              engine.net if original is None else original)
@@ -174,10 +176,26 @@ def judge(engine: Engine, wf: Waveform, *, phase: str = "", opened=frozenset(),
     pulses = pulses_of(contexts, event)
     for e in rated:
         ctx = contexts[e.name]
-        stresses += e.checks(replace(ctx, event=event, short_exposure=short_exposure, pulse=pulses.get(e.name),
-                                     duration_s=lasting))
+        stresses += e.checks(_with(ctx, event=event, short_exposure=short_exposure, pulse=pulses.get(e.name),
+                                   duration_s=lasting))
     return Judgement(stresses, fuses, notes, frozenset(newly), short_exposure, hazardous,
                      movement_reading(wf, ms, spec.movement.i_fs_a), parts, event)
+
+
+#: A context whose fields :func:`element_contexts` all sets (:func:`_with` copies it).
+_BLANK = JudgingContext(None, None, {}, {}, 0.0, {}, 0.0)
+
+
+def _with(ctx: JudgingContext, **changes) -> JudgingContext:
+    """:func:`dataclasses.replace` of a context, without its cost per call (once per part and case).
+
+    The same context: every field copied as it is, ``changes`` (field names) set; a
+    context has no ``__post_init__`` to run.
+    """
+    new = object.__new__(JudgingContext)
+    new.__dict__.update(ctx.__dict__)
+    new.__dict__.update(changes)
+    return new
 
 
 def hazard_test(wf: Waveform) -> bool:
@@ -220,10 +238,16 @@ def element_contexts(spec: Spec, wf: Waveform, elements, movement_multiple: dict
     cur = np.array([wf.current_a[e.name] for e in elements])  # (parts, samples): every part's statistics at once
     vol = np.array([wf.voltage_v[e.name] for e in elements])
     i_st, v_st = cycle_stats_rows(cur), cycle_stats_rows(vol)
-    power = (cur * vol).sum(axis=1) / cur.shape[1]
-    return {e.name: JudgingContext(spec, wf.stimulus, i_st[k], v_st[k], float(power[k]), movement_multiple,
-                                   prospective, phase, samples_i=wf.current_a[e.name], samples_v=wf.voltage_v[e.name])
-            for k, e in enumerate(elements)}
+    power = (cur * vol).sum(axis=1).tolist()
+    n = cur.shape[1]
+    # every context's fields, those its part does not change set once (as JudgingContext(...) sets them)
+    same = {"spec": spec, "stimulus": wf.stimulus, "movement_multiple": movement_multiple, "prospective_a": prospective,
+            "phase": phase, "event": None, "short_exposure": False, "pulse": None, "duration_s": math.inf}
+    out = {}
+    for k, e in enumerate(elements):
+        out[e.name] = _with(_BLANK, **same, current=i_st[k], voltage=v_st[k], power_w=power[k] / n,
+                            samples_i=wf.current_a[e.name], samples_v=wf.voltage_v[e.name])
+    return out
 
 
 def lasting_s(fuses: list) -> float:
