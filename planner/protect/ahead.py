@@ -103,15 +103,6 @@ class Ahead:
             return None
         return value if status == "ok" else None
 
-    def turn(self, i: int, n: int):
-        """The worker's answer for item ``i`` of ``n`` taken in order (the item's index is its key and
-        payload), or None: then item ``i + 1`` is sent ahead where the worker is free, and the caller
-        computes item ``i`` itself."""
-        got = self.take() if self.holds(i) else None
-        if got is None and self.idle and i + 1 < n:
-            self.send(i + 1, i + 1)
-        return got
-
     def drop_done(self) -> None:
         """Throw away the result of the item in flight when it is there (never waits for it)."""
         if self._flight is not None and self._conn is not None:

@@ -19,7 +19,7 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from ..background import beside
+from ..background import Deal, beside
 from ..design import Design, as_design
 from ..errors import UsageError
 from ..model import Spec
@@ -61,14 +61,15 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
-        Evaluate the baselines (the rows of the project as given and of the clamps
-        across the movement), and judge the project as given and its protection-part
-        combinations on the misrange matrix, in a child process beside the clamp search, and evaluate
-        the search's next candidate and realised placement ahead in a
-        forked worker (:class:`planner.protect.ahead.Ahead`) (True); everything in
-        this process (False); or the first where a second core allows it (None,
-        :func:`planner.background.beside`). The decisions are the same; the matrix
-        figures may differ in their last digits (see ``docs/performance.md``).
+        Use a second core (True): a child process evaluates the baselines (the rows
+        of the project as given and of the clamps across the movement) and judges
+        the project as given and its protection-part combinations on the misrange
+        matrix beside the clamp search; a forked worker evaluates the search's next
+        family of candidates ahead (:class:`planner.protect.ahead.Ahead`); a child
+        realises half of the best placements (:class:`planner.background.Deal`).
+        Everything in this process (False); or the first where a second core allows
+        it (None, :func:`planner.background.beside`). The decisions are the same;
+        the matrix figures may differ in their last digits (see ``docs/performance.md``).
 
     Returns
     -------
@@ -212,8 +213,9 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     a placement that realises to a row already there is left out, and so is an
     infeasible one (only feasible rows enter the Pareto table: it is found out
     at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
-    With ``parallel``, the next placement is realised ahead in a forked worker
-    (:class:`planner.protect.ahead.Ahead`) while this process realises the current one.
+    With ``parallel``, this process realises the placements from the front of the
+    list and a forked child from the back until they meet
+    (:class:`planner.background.Deal`); the rows are then taken in order.
     """
     finals = []
     seen = {row_key(across, None)}
@@ -228,26 +230,35 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
         return q, fq, (ctx.evaluated - before[0], ctx.reevaluated - before[1])
 
     # a placement costs at most 2 x REALISE_TRIES evaluations: with room for all of them the cap cannot
-    # stop the pass, so the placements are independent and the next one may be realised ahead on the worker
+    # stop the pass, so the placements are independent and may be realised by two processes side by side
     room = ctx.max_candidates - ctx.evaluated >= 2 * REALISE_TRIES * len(todo)
-    with Ahead(task, parallel=parallel if room and len(todo) > 1 else False) as ahead:
-        for i, p in enumerate(todo):
-            got = ahead.turn(i, len(todo))
-            if got is not None:
-                q, fq, (n_eval, n_re) = got
-                ctx.evaluated += n_eval
-                ctx.reevaluated += n_re
-            else:
-                q, fq = _realised(ctx, p, evaluated)
-            if q is None:
-                continue
-            if fq is None:
-                seen.add(row_key(q.combo, q.r))
-                continue
-            row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
-            if row["key"] not in seen:
-                seen.add(row["key"])
-                finals.append(row)
+    deal = Deal(len(todo))
+
+    def theirs():
+        # in a forked child: the placements from the back of the list, with what each added to the counts
+        return {i: task(i) for i in iter(deal.back, None)}
+
+    with beside(theirs, str, parallel=parallel if room and len(todo) > 1 else False) as other:
+        mine = {i: _realised(ctx, todo[i], evaluated) for i in iter(deal.front, None)}
+        got, error = other.result()
+    for i, p in enumerate(todo):
+        if i in mine:
+            q, fq = mine[i]
+        elif error is None and i in got:
+            q, fq, (n_eval, n_re) = got[i]
+            ctx.evaluated += n_eval
+            ctx.reevaluated += n_re
+        else:  # the child failed: realised here
+            q, fq = _realised(ctx, p, evaluated)
+        if q is None:
+            continue
+        if fq is None:
+            seen.add(row_key(q.combo, q.r))
+            continue
+        row = placement_row(ctx, "candidate", fq, clamps=fq.clamps)
+        if row["key"] not in seen:
+            seen.add(row["key"])
+            finals.append(row)
     return finals
 
 
