@@ -236,3 +236,44 @@ def test_family_batches_search_as_each_combo_alone(voltmeter_spec, monkeypatch, 
         # each row solved to the solver's tolerance as in its own call: 1e-12 relative
         np.testing.assert_allclose(q.multiples, p.multiples, rtol=1e-12)
     assert len({p.combo.forward.model for p in alone.values() if p.combo.forward}) == 2
+
+
+def test_first_batches_of_a_family_refine_as_each_alone(voltmeter_spec, monkeypatch):
+    # the refinements' first batches solved together for the combos of one family give the refined
+    # points, the counts and the rows of each refinement run alone in its turn
+    from test_protect_family import with_power_diode
+
+    spec = with_power_diode(voltmeter_spec)
+    batched = []
+    run_family = search.run_family
+    first_batches = search._BranchAndBound.first_batches
+
+    def counted(self, combos):
+        def family(ctx, cs, topos, grids, **kw):
+            batched.append(len(cs))
+            return run_family(ctx, cs, topos, grids, **kw)
+
+        monkeypatch.setattr(search, "run_family", family)
+        try:
+            return first_batches(self, combos)
+        finally:
+            monkeypatch.setattr(search, "run_family", run_family)
+
+    def searched():
+        ctx = SearchContext(build(spec), 0.25, None, 100000, None)
+        points, _, evaluated = search.branch_and_bound(ctx)
+        return ctx, {p.combo.key(): p for p in points}, evaluated
+
+    monkeypatch.setattr(search._BranchAndBound, "first_batches", lambda self, combos: None)
+    ctx0, alone, ev0 = searched()
+    monkeypatch.setattr(search._BranchAndBound, "first_batches", counted)
+    ctx1, together, ev1 = searched()
+    assert batched and max(batched) >= 2  # a family's refinements did go together
+    assert ctx1.evaluated == ctx0.evaluated
+    assert list(together) == list(alone)
+    for key, p in alone.items():
+        q = together[key]
+        assert (q.r, q.stage, q.feasible) == (p.r, p.stage, p.feasible), key
+        np.testing.assert_allclose(q.multiples, p.multiples, rtol=1e-12)  # the solver's tolerance
+        assert sorted(ev1[key][0].memo) == sorted(ev0[key][0].memo)  # the same rows evaluated
+    assert any(p.stage == "refined" for p in alone.values())

@@ -559,7 +559,9 @@ class _BranchAndBound:
         """
         ctx = self.ctx
         splits = [p for p in self.points.values() if p.combo.site.kind == "split" and p.feasible]
-        for p in ranked(splits)[:REFINE_COMBOS]:
+        best = ranked(splits)[:REFINE_COMBOS]
+        self.first_batches([p.combo for p in best])
+        for p in best:
             ctx.say(f"refining {p.combo.site.label}: {p.combo.forward.label() if p.combo.forward else 'none'} / "
                     f"{p.combo.reverse.label() if p.combo.reverse else 'none'}")
             topo, r, m = self.evaluated[p.combo.key()]
@@ -567,6 +569,42 @@ class _BranchAndBound:
             if q is not None and (lex_compare(q.multiples, p.multiples) < 0 or
                                   (lex_compare(q.multiples, p.multiples) == 0 and q.score < p.score)):
                 self.points[p.combo.key()] = q
+
+
+    def first_batches(self, combos: list) -> None:
+        """The first batch of each refinement (:func:`refine`) evaluated beforehand, a family's together.
+
+        Each combo's bracket grid is what :func:`refine` would evaluate first; the combos
+        of one family (:func:`family_key`) are solved as the rows of one batch
+        (:func:`planner.protect.family.run_family`) and their rows kept in each combo's
+        memo, where :func:`refine` finds them, counted as it would count them. Only
+        when the cap leaves room for every row (else each refinement thins its own).
+        """
+        ctx = self.ctx
+        plans = []
+        for c in combos:
+            topo, r, m = self.evaluated[c.key()]
+            br = _bracket(ctx, r, m)
+            if br is None:
+                continue
+            xs = np.array([x for x in bracket_grid(br[1], br[2]) if float(x) not in topo.memo])
+            if xs.size:
+                plans.append((c, topo, xs))
+        if not ctx.room(sum(len(xs) for _, _, xs in plans)):
+            return
+        families: dict = {}
+        for plan in plans:
+            families.setdefault(family_key(plan[0]), []).append(plan)
+        for group in families.values():
+            if len(group) < 2:
+                continue
+            got = run_family(ctx, [c for c, _, _ in group], [t for _, t, _ in group], [xs for _, _, xs in group])
+            if got is None:
+                continue
+            for (_, topo, xs), m in zip(group, got):
+                ctx.evaluated += len(xs)
+                for k, x in enumerate(xs):
+                    topo.memo[float(x)] = m.row(k)
 
 
 def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:
