@@ -596,6 +596,7 @@ class _BranchAndBound:
         for plan in plans:
             families.setdefault(family_key(plan[0]), []).append(plan)
         for group in families.values():
+            group = group[:FAMILY_MAX]
             if len(group) < 2:
                 continue
             got = run_family(ctx, [c for c, _, _ in group], [t for _, t, _ in group], [xs for _, _, xs in group])
