@@ -271,3 +271,34 @@ def test_solved_cases_shared_by_networks_that_hold_them_alike():
     LinearNetwork(spec2, net).solve_ahead(cases)
     LinearNetwork(spec, net).solve_ahead(cases)
     assert len(_SOLVED) == 2 * first
+
+
+def test_live_parts_shared_by_networks_that_differ_in_values():
+    """A case's live part is a matter of topology: a network with other values takes the first network's
+    (the same objects, none found again), and they are those planner.network.live_part finds afresh."""
+    from dataclasses import replace
+
+    from planner import network as nw
+    from planner.model import NetworkSpec, Resistor
+    from planner.sizing.ratings import _LIVES
+
+    spec, net, cases = _flagship_cases()
+    other = NetworkSpec(tuple(replace(e, value_ohm=e.value_ohm * 1.07) if isinstance(e, Resistor) else e
+                              for e in net.elements), net.positions, net.contact_style)
+    _LIVES.clear()
+    first = LinearNetwork(spec, net)
+    lives = {(p.name, s): first._live(s, p.name) for p, _, s in cases}
+    kept = len(_LIVES)
+    assert kept >= len(net.positions)
+    shared = LinearNetwork(spec, other)
+    assert all(shared._live(s, p.name) is lives[(p.name, s)] for p, _, s in cases)
+    assert len(_LIVES) == kept  # none found again
+    def afresh(shorted, name):
+        case_net = shared._net(shorted)
+        p = case_net.position(name)
+        return nw.live_part(case_net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(case_net, p.name)),
+                            keep=False)
+
+    for (name, shorted), live in lives.items():
+        # a case whose shorts stay inside the block takes its open position's live part
+        assert live == (afresh((), name) if live is first._open[name] else afresh(shorted, name))

@@ -299,16 +299,26 @@ class LinearNetwork:
         outside the block would change it) the shorted network's own.
         """
         if position not in self._open:
-            net = self._net(())
-            p = net.position(position)
-            self._open[position] = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p,
-                                                                    nw.closed_contacts(net, p.name)), keep=False)
+            self._open[position] = self._live_of((), position)
         live, _ = opened = self._open[position]
         if not shorted or (not self._emfs and COM in live and all(n in live for n in shorted)):
             return opened
-        net = self._net(shorted)
-        p = net.position(position)
-        return nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)), keep=False)
+        return self._live_of(shorted, position)
+
+    def _live_of(self, shorted: tuple, position: str) -> tuple:
+        """The live part of the network with ``shorted`` nodes in one position, kept for the process by the
+        network's shape (:meth:`_shape`): the live part is a matter of topology alone."""
+        shape = self._shape()
+        key = None if shape is None else (shape, shorted, position)
+        hit = _LIVES.get(key) if key is not None else None
+        if hit is None:
+            net = self._net(shorted)
+            p = net.position(position)
+            hit = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)),
+                               keep=False)
+            if key is not None:
+                _LIVES.keep(key, hit)
+        return hit
 
     def _values(self, net: NetworkSpec, c, branch_at):
         """Branch resistances (1, L) [ohm] and EMFs (1, L) [V] (None when all are zero) of a compiled case."""
@@ -329,6 +339,9 @@ class LinearNetwork:
 #: Compiled rating cases by the linear network's shape, shorted nodes and position
 #: (:meth:`LinearNetwork._case`).
 _CASES = Kept(4096)
+#: Live parts of rating cases by the linear network's shape, shorted nodes and position
+#: (:meth:`LinearNetwork._live_of`).
+_LIVES = Kept(4096)
 #: Node voltages of solved rating cases by what they read (:meth:`LinearNetwork._reads`):
 #: the sizings of one command that hold a case alike solve it once.
 _SOLVED = Kept(4096)
