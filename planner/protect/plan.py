@@ -131,21 +131,20 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
                              f"{', '.join(ctx.limits)}")
     model = ctx.default_model()
     across = Combo(Site("movement", "movement", ctx.movement.a), Stack(model, 1), Stack(model, 1))
-    # the project as given (its row, its misrange matrix) and the clamps across the movement do not depend
-    # on the clamp search: on a second core
+    # the project as given on the misrange matrix does not depend on the clamp search: on a second core
     worst_share = min(share.values()) if isinstance(share, Mapping) else float(share)
-    with beside(lambda: (judge_given(design, worst_share), _baselines(ctx, across)), str,
-                parallel=parallel) as given:
-        ctx.say("the project as given and the clamps across the movement")
+    with beside(lambda: judge_given(design, worst_share), str, parallel=parallel) as given:
+        ctx.say("the project as given")
         points, info, evaluated = branch_and_bound(ctx, parallel=parallel)
 
         # every feasible placement found, best first -> standard values -> the faults
-        # matrix's phase points -> Pareto set and choice on those final numbers
-        candidates = _final_rows(ctx, points, evaluated, across, parallel)
-        ctx.say("the misrange matrices of the project as given and of its protection parts")
-        got, error = given.result()
-        judged_given, (as_given, across_row, rows) = got if error is None else (None, _baselines(ctx, across))
+        # matrix's phase points -> Pareto set and choice on those final numbers (beside them,
+        # the rows of the project as given and of the clamps across the movement)
+        candidates, (as_given, across_row, rows) = _final_rows(ctx, points, evaluated, across, parallel)
         ctx.reevaluated += rows
+        ctx.say("the misrange matrices of the project as given and of its protection parts")
+        judged_given, error = given.result()
+        judged_given = judged_given if error is None else None
         table, chosen = _pareto_table([dict(across_row, label="candidate")] + candidates)
         result = _result(ctx, share, max_candidates, info, table, chosen, as_given, across_row)
         _judge_on_matrix(design, result, worst_share, ctx.say, judged_given)
@@ -204,7 +203,7 @@ def _check_settings(share, max_candidates, seed) -> None:
 
 
 def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo,
-                parallel: bool | None = False) -> list[dict]:
+                parallel: bool | None = False) -> tuple[list[dict], tuple]:
     """The rows of the best feasible placements, made of standard values and evaluated again.
 
     Up to twice :data:`PARETO_ROWS` placements, best first (the clamps across the
@@ -215,7 +214,15 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     at its first failing position, :func:`planner.protect.evaluate.feasible_alone`).
     With ``parallel``, this process realises the placements from the front of the
     list and a forked child from the back until they meet
-    (:class:`planner.background.Deal`); the rows are then taken in order.
+    (:class:`planner.background.Deal`); the rows are then taken in order. The
+    child first makes the baselines (:func:`_baselines`; here without a child).
+
+    Returns
+    -------
+    rows : list of dict
+        The candidates' rows, best first.
+    baselines : tuple
+        What :func:`_baselines` returns.
     """
     finals = []
     seen = {row_key(across, None)}
@@ -235,16 +242,18 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
     deal = Deal(len(todo))
 
     def theirs():
-        # in a forked child: the placements from the back of the list, with what each added to the counts
-        return {i: task(i) for i in iter(deal.back, None)}
+        # in a forked child: the baselines, then the placements from the back of the list, with what each
+        # added to the counts
+        return _baselines(ctx, across), {i: task(i) for i in iter(deal.back, None)}
 
     with beside(theirs, str, parallel=parallel if room and len(todo) > 1 else False) as other:
         mine = {i: _realised(ctx, todo[i], evaluated) for i in iter(deal.front, None)}
-        got, error = other.result()
+        both, error = other.result()
+    baselines, got = both if error is None else (_baselines(ctx, across), {})
     for i, p in enumerate(todo):
         if i in mine:
             q, fq = mine[i]
-        elif error is None and i in got:
+        elif i in got:
             q, fq, (n_eval, n_re) = got[i]
             ctx.evaluated += n_eval
             ctx.reevaluated += n_re
@@ -259,7 +268,7 @@ def _final_rows(ctx: SearchContext, points: list, evaluated: dict, across: Combo
         if row["key"] not in seen:
             seen.add(row["key"])
             finals.append(row)
-    return finals
+    return finals, baselines
 
 
 def _realised(ctx: SearchContext, p: Point, evaluated: dict) -> tuple:
