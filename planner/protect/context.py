@@ -85,6 +85,9 @@ class SearchContext:
     failed_stimulus : dict of str to str
         Per position, the stimulus that last put a clamp diode beyond its rating there
         (its group of stimuli is solved first).
+    failed_part : str or None
+        The clamp diode whose rating alone failed the last candidate judged position by
+        position (None: it failed on accuracy or did not solve, or it was feasible).
     """
 
     def __init__(self, design: Design, share: float | Mapping[str, float] = DEFAULT_SHARE, seed: int | None = None,
@@ -100,6 +103,7 @@ class SearchContext:
         self.truncated = False
         self.failed_at: list[str] = []  # positions that failed the last candidates judged (the order of the work)
         self.failed_stimulus: dict[str, str] = {}  # position -> the stimulus that overstressed a clamp there last
+        self.failed_part: str | None = None  # the clamp diode whose rating alone failed the last candidate
         self.seed = spec.analysis.seed if seed is None else seed
         self.rng = np.random.default_rng(int(self.seed))
         self.class_index = float(spec.movement.class_index)

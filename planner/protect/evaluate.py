@@ -485,6 +485,7 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
         ctx.evaluated += 1
     else:
         ctx.reevaluated += 1
+    ctx.failed_part = None
     rank: dict = {}
     for name in list(ctx.failed_at) + list(first):
         rank.setdefault(name, len(rank))
@@ -501,15 +502,17 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
                 r = _position(ctx, topo, p, None, 1, n_phase,
                               lambda name=p.name: np.atleast_2d(bare_reading(ctx, topo, name))[:1],
                               stop_over=ctx.failed_stimulus.get(p.name, ""))
-                if isinstance(r, str):
+                if isinstance(r, tuple):  # (position, stimulus, diode): a clamp diode beyond its rating
                     ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
-                    ctx.failed_stimulus[p.name] = r
+                    ctx.failed_stimulus[p.name] = r[1]
+                    ctx.failed_part = r[2]
                     return False, p.name
                 topo.static[key] = r
-            ok = (r["error"][0] <= ctx.limits[p.name] * EXCEED and r["stress"][0] <= EXCEED
-                  and np.isfinite(np.maximum(r["forward"], r["reverse"])[0]))
-            if not ok:
+            accurate = r["error"][0] <= ctx.limits[p.name] * EXCEED
+            finite = np.isfinite(np.maximum(r["forward"], r["reverse"])[0])
+            if not (accurate and finite and r["stress"][0] <= EXCEED):
                 ctx.failed_at = [p.name] + [n for n in ctx.failed_at if n != p.name]
+                ctx.failed_part = r["stress_case"][0][2] if accurate and finite else None
                 return False, p.name
     except SolveError:
         return False, None
@@ -517,13 +520,13 @@ def feasible_alone(ctx: SearchContext, topo: Topology, *, n_phase: int = SEARCH_
 
 
 def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: int, bare,
-              stop_over: str | None = None, rd: "RowDiodes | None" = None) -> dict | str:
+              stop_over: str | None = None, rd: "RowDiodes | None" = None) -> dict | tuple:
     """Every figure of one position for ``rows`` rows (see :func:`run`).
 
     ``bare``: the readings without clamps (rows x 10), or a callable that gives them
     when they are needed. With ``stop_over`` (one row): the stimulus groups are solved the one holding
     that stimulus first, and as soon as a group puts a clamp diode beyond its
-    rating the name of the stimulus that does is returned instead of the figures
+    rating its case (position, stimulus, diode) is returned instead of the figures
     (the position is infeasible, :func:`feasible`). Otherwise the figures are
     those of the groups folded in their own order, whatever order they were
     solved in. ``rd``: the diodes of each row (:func:`planner.protect.family.run_family`).
@@ -559,7 +562,7 @@ def _position(ctx: SearchContext, topo: Topology, p, fac, rows: int, n_phase: in
             _, cur, vol, width = solved[g]
             _record_power(probe, p, topo, diodes, group, cur, vol, rows, width)
             if probe["stress"][0] > EXCEED:
-                return probe["stress_case"][0][1]
+                return probe["stress_case"][0]
     for g, idx in groups.items():
         group = [stims[j] for j in idx]
         mult, cur, vol, width = solved[g]

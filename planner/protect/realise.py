@@ -19,8 +19,9 @@ import math
 from dataclasses import replace
 
 from .. import eseries
+from .. import network as nw
 from ..errors import ProjectError
-from ..model import ClampRequest, NetworkSpec, Resistor
+from ..model import ClampRequest, Diode, NetworkSpec, Resistor
 from ..sizing import choose_value, size
 from .candidates import Combo, Site
 from .context import SearchContext
@@ -39,6 +40,7 @@ __all__ = [
     "sized_network",
     "sized_watch",
     "realise_sized",
+    "placed_diodes",
     "final",
 ]
 
@@ -180,7 +182,10 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
 
     A split's tap goes to the standard value at or below the search's
     resistance, and one step lower each time the sized result is infeasible
-    (at most :data:`REALISE_TRIES` tries). Each try is judged for feasibility
+    (at most :data:`REALISE_TRIES` tries), unless what failed is the rating
+    of a diode the placement does not hold (:func:`placed_diodes`: a
+    protection part's, such as a ring crowbar's): a lower tap moves the
+    clamp's error and its own diodes' stress, not another part's. Each try is judged for feasibility
     alone (:func:`planner.protect.evaluate.feasible_alone`, which stops at the
     first position that fails): the point returned for a split carries no
     metrics (``metrics`` None), :func:`final` evaluates it.
@@ -216,10 +221,31 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
                   stage="realised", clamps=clamps, net=net)
         if best is None or (q.feasible and not best.feasible):
             best = q
-        if q.feasible:
-            break
+        if q.feasible or (ctx.failed_part is not None and ctx.failed_part not in placed_diodes(net, p.combo)):
+            break  # (a part the placement does not hold failed: a lower tap leaves it as it is)
         r = eseries.at_or_below(ctx.series, r * (1.0 - 1e-9))
     return best
+
+
+def placed_diodes(net: NetworkSpec, combo: Combo) -> set:
+    """The diodes of a sized network that make a split placement: those joined by diodes alone, not through
+    the movement's common side, to the sizer's clamp tap (``tap1``) or, with a movement pair, to the movement.
+
+    The network's other clamp diodes are protection parts (a ring crowbar's stacks, joined to the rest
+    through the common side alone)."""
+    mov = nw.movement_element(net)
+    reach = {"tap1"} | ({mov.a} if combo.site.pair is not None else set())
+    diodes = [e for e in net.elements if isinstance(e, Diode)]
+    grown = True
+    while grown:
+        grown = False
+        for d in diodes:
+            if d.anode in reach or d.cathode in reach:
+                for n in d.nodes:
+                    if n != mov.b and n not in reach:
+                        reach.add(n)
+                        grown = True
+    return {d.name for d in diodes if any(n in reach and n != mov.b for n in d.nodes)}
 
 
 # --- the reported pass ------------------------------------------------------------------------
