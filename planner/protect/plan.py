@@ -61,12 +61,13 @@ def protect_project(design: Design | Spec, *, share: float | Mapping[str, float]
     progress : callable(str), optional
         Receives a short message before each batch.
     parallel : bool, optional
-        Use a second core (True): a child process evaluates the baselines (the rows
-        of the project as given and of the clamps across the movement) and judges
-        the project as given and its protection-part combinations on the misrange
-        matrix beside the clamp search; a forked worker evaluates the search's next
-        family of candidates ahead (:class:`planner.protect.ahead.Ahead`); a child
-        realises half of the best placements (:class:`planner.background.Deal`).
+        Use a second core (True): a child process judges the project as given
+        and its protection-part combinations on the misrange matrix beside the
+        clamp search; a forked worker evaluates the search's next family of
+        candidates ahead (:class:`planner.protect.ahead.Ahead`); a child
+        evaluates the baselines (the rows of the project as given and of the
+        clamps across the movement) and realises part of the best placements
+        (:class:`planner.background.Deal`).
         Everything in this process (False); or the first where a second core allows
         it (None, :func:`planner.background.beside`). The decisions are the same;
         the matrix figures may differ in their last digits (see ``docs/performance.md``).
