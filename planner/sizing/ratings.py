@@ -306,16 +306,13 @@ class LinearNetwork:
         return self._live_of(shorted, position)
 
     def _live_of(self, shorted: tuple, position: str) -> tuple:
-        """The live part of the network with ``shorted`` nodes in one position, kept for the process by the
-        network's shape (:meth:`_shape`): the live part is a matter of topology alone."""
-        shape = self._shape()
-        key = None if shape is None else (shape, shorted, position)
+        """A case's live part, kept for the process by the network's shape (:meth:`_shape`): topology alone."""
+        key = None if self._shape() is None else (self._shape(), shorted, position)
         hit = _LIVES.get(key) if key is not None else None
         if hit is None:
             net = self._net(shorted)
             p = net.position(position)
-            hit = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)),
-                               keep=False)
+            hit = nw.live_part(net, nw.SwitchState(p.name, nw.POSITION, p, nw.closed_contacts(net, p.name)), keep=False)
             if key is not None:
                 _LIVES.keep(key, hit)
         return hit
@@ -339,8 +336,7 @@ class LinearNetwork:
 #: Compiled rating cases by the linear network's shape, shorted nodes and position
 #: (:meth:`LinearNetwork._case`).
 _CASES = Kept(4096)
-#: Live parts of rating cases by the linear network's shape, shorted nodes and position
-#: (:meth:`LinearNetwork._live_of`).
+#: Live parts of rating cases by the network's shape, shorted nodes and position (:meth:`LinearNetwork._live_of`).
 _LIVES = Kept(4096)
 #: Node voltages of solved rating cases by what they read (:meth:`LinearNetwork._reads`):
 #: the sizings of one command that hold a case alike solve it once.
