@@ -24,7 +24,6 @@ from ..design import Design, as_design
 from ..errors import UsageError
 from ..model import Spec
 from ..tools import json_safe
-from .ahead import Ahead
 from .candidates import Combo, Site, Stack
 from .context import DEFAULT_SHARE, MAX_CANDIDATES, SearchContext
 from .evaluate import Point
