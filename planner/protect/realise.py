@@ -185,7 +185,8 @@ def realise_sized(ctx: SearchContext, p: Point) -> Point | None:
     (at most :data:`REALISE_TRIES` tries), unless what failed is the rating
     of a diode the placement does not hold (:func:`placed_diodes`: a
     protection part's, such as a ring crowbar's): a lower tap moves the
-    clamp's error and its own diodes' stress, not another part's. Each try is judged for feasibility
+    clamp's error and its own diodes' stress, not another part's. Each try
+    is judged for feasibility
     alone (:func:`planner.protect.evaluate.feasible_alone`, which stops at the
     first position that fails): the point returned for a split carries no
     metrics (``metrics`` None), :func:`final` evaluates it.
@@ -235,7 +236,7 @@ def placed_diodes(net: NetworkSpec, combo: Combo) -> set:
     through the common side alone)."""
     mov = nw.movement_element(net)
     reach = {"tap1"} | ({mov.a} if combo.site.pair is not None else set())
-    diodes = [e for e in net.elements if isinstance(e, Diode)]
+    diodes = [e for e in net.elements if isinstance(e, Diode) and e.clamp]
     grown = True
     while grown:
         grown = False
