@@ -104,7 +104,7 @@ def run_family(ctx: SearchContext, combos: list, topos: list, grids: list, *,
     """
     template = topology(ctx, family_template(combos[0]))
     sizes = [1 if g is None else len(g) for g in grids]
-    stacks_of = {}  # template designator -> (direction, offset among each member's clamp diodes)
+    stacks_of = {}  # template designator of a stack -> its direction
     pair = 2 if combos[0].site.pair is not None else 0
     at = pair
     for direction in ("forward", "reverse"):
