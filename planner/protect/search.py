@@ -133,12 +133,11 @@ def evaluate_combo(ctx: SearchContext, combo: Combo, batches: "Batches | None" =
     else:
         if missing:
             mx = run(ctx, topo, None if r is None else np.array(missing), count=None)
-            ready.update((k, mx.row(i)) for i, k in enumerate(missing))
+            ready.update(_rows(missing, mx))
         ctx.evaluated += rows
         m = Metrics.stack([ready[k] for k in keys])
     if r is not None:  # the memo holds the rows of this grid alone (a foreseen grid's other rows are dropped)
-        for i, k in enumerate(keys):
-            topo.memo[k] = m.row(i)
+        topo.memo.update(_rows(r, m))
     return topo, r, m
 
 
@@ -373,9 +372,7 @@ def _batch(ctx: SearchContext, topo: Topology, xs: np.ndarray) -> bool:
         left = max(ctx.max_candidates - ctx.evaluated, 0)
         todo = [todo[k] for k in np.unique(np.round(np.linspace(0, len(todo) - 1, left)).astype(int))]
     if todo:
-        mx = run(ctx, topo, np.array(todo))
-        for k, x in enumerate(todo):
-            topo.memo[x] = mx.row(k)
+        topo.memo.update(_rows(todo, run(ctx, topo, np.array(todo))))
     return full
 
 
@@ -604,8 +601,7 @@ class _BranchAndBound:
                 continue
             for (_, topo, xs), m in zip(group, got):
                 ctx.evaluated += len(xs)
-                for k, x in enumerate(xs):
-                    topo.memo[float(x)] = m.row(k)
+                topo.memo.update(_rows(xs, m))
 
 
 def branch_and_bound(ctx: SearchContext, parallel: bool | None = False) -> tuple[list[Point], dict, dict]:

@@ -240,9 +240,9 @@ def element_contexts(spec: Spec, wf: Waveform, elements, movement_multiple: dict
     i_st, v_st = cycle_stats_rows(cur), cycle_stats_rows(vol)
     power = (cur * vol).sum(axis=1).tolist()
     n = cur.shape[1]
-    # every context's fields, those its part does not change set once (as JudgingContext(...) sets them)
+    # the fields no part changes set once; the others keep their defaults from _BLANK (as JudgingContext(...) does)
     same = {"spec": spec, "stimulus": wf.stimulus, "movement_multiple": movement_multiple, "prospective_a": prospective,
-            "phase": phase, "event": None, "short_exposure": False, "pulse": None, "duration_s": math.inf}
+            "phase": phase}
     out = {}
     for k, e in enumerate(elements):
         out[e.name] = _with(_BLANK, **same, current=i_st[k], voltage=v_st[k], power_w=power[k] / n,
